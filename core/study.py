@@ -35,13 +35,18 @@ _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",
 # Every key the study file accepts, by section. A module that adds keys adds
 # them here, so the "did you mean" check knows them.
 SECTION_KEYS: dict[str, set[str]] = {
-    "top": {"study", "factors", "responses", "constraints"},
+    "top": {"study", "factors", "responses", "constraints", "confirmations"},
     "study": {"name", "data", "model", "terms", "sheet", "description",
               "confidence", "seed"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS,
     "constraints": {"rule", "label"},
+    # confirmation runs (core/confirm.py): one run per table, or data = "file"
+    "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
 }
+# The sections study_to_dict writes itself; any other top-level section
+# (confirmations, for example) travels unchanged.
+_BASE_TOP = {"study", "factors", "responses", "constraints"}
 
 
 @dataclass(frozen=True)
@@ -284,6 +289,10 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
         spec=spec,
     )
+    if "confirmations" in spec:
+        from .confirm import confirmation_runs  # late: confirm reads Study from here
+
+        confirmation_runs(study, read_files=with_data and source is not None)
     if not with_data:
         return study
     if data_path is None and data_bytes is None:
@@ -630,7 +639,7 @@ def study_to_dict(study: Study) -> dict:
         head["seed"] = study.seed
     out: dict[str, Any] = {"study": head}
     for key, value in study.spec.items():
-        if key not in SECTION_KEYS["top"]:
+        if key not in _BASE_TOP:
             out[key] = value  # sections added by other modules travel unchanged
     out["factors"] = [_factor_dict(f) for f in study.factors]
     out["responses"] = [_response_dict(r) for r in study.responses]
