@@ -27,6 +27,14 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("study", help="the study file (.toml)")
     check.add_argument("--json", action="store_true", help="print the summary as JSON")
     check.set_defaults(run=_run_check)
+
+    app = commands.add_parser(
+        "app", help="open the point-and-click workbench in your web browser")
+    app.add_argument("study", nargs="?",
+                     help="the study file (.toml); the invented demo study if left out")
+    app.add_argument("--port", type=_port, default=8501,
+                     help="the local port to serve on (default 8501)")
+    app.set_defaults(run=_run_app)
     return parser
 
 
@@ -41,6 +49,39 @@ def _run_check(args) -> int:
     else:
         print(summary_text(summary))
     return 0
+
+
+def _port(text: str) -> int:
+    try:
+        port = int(text)
+    except ValueError:
+        port = -1
+    if not 1024 <= port <= 65535:
+        raise argparse.ArgumentTypeError(
+            f"expected a port number from 1024 to 65535, found '{text}'")
+    return port
+
+
+def _run_app(args) -> int:
+    import importlib.resources
+    import os
+    from pathlib import Path
+
+    from .demo import demo_study_path
+    from .study import load_study
+
+    study = Path(args.study) if args.study else demo_study_path()
+    load_study(study)  # a bad study file stops here with one line, not in the browser
+    app_file = importlib.resources.files("tradeoff_ui") / "app.py"
+    argv = [sys.executable, "-m", "streamlit", "run", str(app_file),
+            "--server.address", "127.0.0.1", "--server.port", str(args.port),
+            "--server.headless", "true", "--browser.gatherUsageStats", "false",
+            "--", str(study.resolve())]
+    print(f"Opening the workbench: open http://127.0.0.1:{args.port} in your web "
+          "browser (press Ctrl+C here to stop it)", flush=True)
+    # Replace this process, so stopping it (Ctrl+C, kill) stops the server too.
+    os.execv(sys.executable, argv)
+    return 0  # not reached
 
 
 

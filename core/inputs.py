@@ -1,0 +1,212 @@
+"""What a user hands over in the front end, turned into checked library objects.
+
+Uploaded files arrive as bytes, not paths; a bare data table needs its factor
+and response columns named; goals typed into widgets need the same checks as
+goals written in a study file. Each function here returns the library's own
+objects (``Study``, ``Goal``) or raises a one-line ``TradeoffError``.
+"""
+from __future__ import annotations
+
+import tomllib
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import StudyError, TradeoffError
+from .intake import parse_number, read_table
+from .study import MODELS, Goal, Study, _goal, study_from_dict
+
+__all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
+           "checked_goal", "with_response_model"]
+
+DATA_SUFFIXES = (".csv", ".txt", ".tsv", ".xlsx", ".xlsm")
+
+
+def study_from_files(files: dict[str, bytes]) -> Study:
+    """Build a study from an uploaded study file (.toml) and its data file.
+
+    Parameters
+    ----------
+    files : dict
+        File name -> content. Exactly one ``.toml`` file, plus the data file it
+        names (matched by file name). When the study file names no data file,
+        the single uploaded data file is used.
+
+    Raises
+    ------
+    StudyError
+        No study file, several study files, or the named data file missing.
+    """
+    tomls = sorted(n for n in files if Path(n).suffix.lower() == ".toml")
+    data = sorted(n for n in files if Path(n).suffix.lower() in DATA_SUFFIXES)
+    other = sorted(set(files) - set(tomls) - set(data))
+    if other:
+        raise StudyError(f"cannot use {other}: upload a study file (.toml) and its data "
+                         "(.csv or .xlsx)")
+    if len(tomls) != 1:
+        found = "none" if not tomls else ", ".join(tomls)
+        raise StudyError(f"expected one study file (.toml), found {found}: upload one "
+                         "study file with its data file, or a data file on its own")
+    name = tomls[0]
+    try:
+        spec = tomllib.loads(files[name].decode("utf-8-sig"))
+    except UnicodeDecodeError:
+        raise StudyError(f"{name}: the study file is not UTF-8 text: save it as UTF-8 "
+                         "in a text editor") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(f"{name}: not a valid study file ({exc}): check quotes, "
+                         "brackets and '=' signs on that line") from None
+    head = spec.get("study", {})
+    wanted = head.get("data") if isinstance(head, dict) else None
+    if isinstance(wanted, str):
+        match = [n for n in data if Path(n).name == Path(wanted).name]
+        if not match:
+            raise StudyError(f"{name}: the study file names its data '{wanted}': upload "
+                             f"that file together with the study file (uploaded: "
+                             f"{', '.join(data) if data else 'no data file'})")
+        data_name = match[0]
+    elif len(data) == 1:
+        data_name = data[0]
+        spec = {**spec, "study": {**(head if isinstance(head, dict) else {}),
+                                  "data": data_name}}
+    else:
+        raise StudyError(f"{name}: [study] names no data file: add data = \"runs.csv\" "
+                         "or upload exactly one data file with it")
+    return study_from_dict(spec, source=Path(name), data_bytes=files[data_name])
+
+
+def table_columns(name: str, data: bytes) -> pd.DataFrame:
+    """The columns of a bare data table, with a suggested role for each.
+
+    Returns a DataFrame with columns ``column``, ``kind`` ("number" or
+    "text"), ``distinct`` (number of different values), ``role``
+    ("factor", "response" or "other") and ``levels`` (the two level names of
+    a two-level text column, else None). A column with at most three different
+    numbers (low, centre, high) or exactly two words is suggested as a
+    factor; other number columns as responses.
+    """
+    table = read_table(Path(name), data=data)
+    rows = []
+    for j, column in enumerate(table.header):
+        if not column:
+            continue
+        cells = [cells[j] if j < len(cells) else None for _, cells in table.rows]
+        present = [c for c in cells if c is not None]
+        try:
+            values = np.array([parse_number(c, decimal_comma=table.decimal_comma,
+                                            location="") for c in present])
+            kind, distinct = "number", len(np.unique(values))
+        except TradeoffError:  # not all cells are numbers
+            kind, distinct = "text", len(set(map(str, present)))
+        levels = None
+        if column.lower() in ("run", "std_order", "run_order", "order"):
+            role = "other"
+        elif kind == "number" and 2 <= distinct <= 3 and len(present) == len(cells):
+            role = "factor"
+        elif kind == "text" and distinct == 2 and len(present) == len(cells):
+            role = "factor"
+            levels = sorted(set(map(str, present)))
+        elif kind == "number":
+            role = "response"
+        else:
+            role = "other"
+        rows.append({"column": column, "kind": kind, "distinct": int(distinct),
+                     "role": role, "levels": levels})
+    return pd.DataFrame(rows, columns=["column", "kind", "distinct", "role", "levels"])
+
+
+def draft_spec(name: str, data: bytes, factors: list[str],
+               responses: list[str]) -> dict:
+    """A study specification for a bare data table, ready for ``study_from_dict``.
+
+    Numeric factors run from their lowest to their highest tested setting;
+    text factors with two values become categorical factors. Responses start
+    with no goal; the user sets goals in the front end.
+
+    Raises
+    ------
+    StudyError
+        No factor or response chosen, a column used twice, a text column chosen
+        as a response, or a text factor without exactly two values.
+    """
+    if not factors:
+        raise StudyError(f"{name}: choose at least one factor column")
+    if not responses:
+        raise StudyError(f"{name}: choose at least one response column")
+    both = sorted(set(factors) & set(responses))
+    if both:
+        raise StudyError(f"{name}: {both} chosen as factor and as response: each column "
+                         "is one or the other")
+    columns = table_columns(name, data).set_index("column")
+    table = read_table(Path(name), data=data)
+    index = {c: j for j, c in enumerate(table.header)}
+    spec_factors = []
+    for f in factors:
+        if f not in columns.index:
+            raise StudyError(f"{name}: no column '{f}' in the table")
+        cells = [cells[index[f]] if index[f] < len(cells) else None
+                 for _, cells in table.rows]
+        if columns.at[f, "kind"] == "text":
+            levels = sorted({str(c) for c in cells if c is not None})
+            if len(levels) != 2:
+                raise StudyError(f"{name}: factor column '{f}' holds {len(levels)} "
+                                 "different words; a text factor needs exactly two")
+            spec_factors.append({"name": f, "levels": levels})
+            continue
+        values = np.array([parse_number(c, decimal_comma=table.decimal_comma,
+                                        location=f"{name}, column '{f}': ")
+                           for c in cells])
+        values = values[~np.isnan(values)]
+        if len(values) == 0 or values.min() == values.max():
+            raise StudyError(f"{name}: factor column '{f}' has a single setting: a "
+                             "factor must be varied to be studied")
+        spec_factors.append({"name": f, "low": float(values.min()),
+                             "high": float(values.max())})
+    spec_responses = []
+    for r in responses:
+        if r not in columns.index:
+            raise StudyError(f"{name}: no column '{r}' in the table")
+        if columns.at[r, "kind"] != "number":
+            raise StudyError(f"{name}: response column '{r}' holds text: a response "
+                             "must be measured as numbers")
+        spec_responses.append({"name": r})
+    return {"study": {"name": Path(name).stem, "data": Path(name).name},
+            "factors": spec_factors, "responses": spec_responses}
+
+
+def checked_goal(name: str, *, kind: str, lower: float | None = None,
+                 upper: float | None = None, target: float | None = None,
+                 shape: float = 1.0, shape_below: float = 1.0,
+                 shape_above: float = 1.0, weight: float = 1.0) -> Goal:
+    """A goal typed into the front end, checked as a study file's goal would be.
+
+    Keys that the goal kind does not use are dropped before the check (a
+    widget may still hold a target after the user switched to ``maximize``).
+    """
+    table: dict = {"goal": kind, "shape": shape, "shape_below": shape_below,
+                   "shape_above": shape_above, "weight": weight}
+    if kind != "none":
+        table.update({"lower": lower, "upper": upper})
+        if kind == "target":
+            table["target"] = target
+    table = {k: v for k, v in table.items() if v is not None}
+    return _goal(table, "targets", f"'{name}'")
+
+
+def with_response_model(study: Study, name: str, model: str | tuple[str, ...]) -> Study:
+    """A copy of the study with one response's model (a name or a list of terms)."""
+    response = study.response(name)
+    if isinstance(model, str):
+        if model not in MODELS:
+            raise StudyError(f"response '{name}': model '{model}' is not one I know: use "
+                             f"one of {', '.join(MODELS)}")
+        new = replace(response, model=model, terms=None)
+    else:
+        terms = tuple(str(t).strip() for t in model)
+        if not terms:
+            raise StudyError(f"response '{name}': the model needs at least one term")
+        new = replace(response, model=None, terms=terms)
+    return replace(study, responses=tuple(new if r.name == name else r
+                                          for r in study.responses))

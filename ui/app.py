@@ -1,0 +1,35 @@
+"""The workbench: wires the pages together, nothing else.
+
+Started by ``tradeoff app [STUDY]``, which runs
+``python -m streamlit run <this file> -- <study>``.
+"""
+from __future__ import annotations
+
+import altair as alt
+import streamlit as st
+
+from tradeoff import TradeoffError
+from tradeoff_ui import state
+
+st.set_page_config(page_title="tradeoff workbench", page_icon=":material/balance:",
+                   layout="wide")
+# Contour grids hold a few thousand points; they are small, draw them whole.
+alt.data_transformers.disable_max_rows()
+
+try:
+    state.init()
+except TradeoffError as exc:
+    st.error(f"Could not open the study: {exc}")
+    st.stop()
+
+pages = [
+    st.Page("pages/study.py", title="Study and runs", icon=":material/table_view:",
+            default=True),
+    st.Page("pages/models.py", title="What drives each response",
+            icon=":material/insights:"),
+    st.Page("pages/targets.py", title="Targets and weights", icon=":material/tune:"),
+    st.Page("pages/results.py", title="Recommended settings", icon=":material/flag:"),
+    st.Page("pages/downloads.py", title="Take it with you", icon=":material/download:"),
+]
+st.sidebar.caption(f"Open study: **{st.session_state['origin_label']}**")
+st.navigation(pages).run()

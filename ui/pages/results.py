@@ -1,0 +1,3 @@
+"""placeholder"""
+import streamlit as st
+st.write("coming")

@@ -1,0 +1,67 @@
+"""Every session key the workbench uses, initialised in this one place.
+
+The truth a user builds up (which study is open, the goals and weights they
+typed, the model terms they chose) lives in these keys, not in widget keys:
+Streamlit forgets a widget's value when its page is not shown, these stay.
+"""
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import streamlit as st
+
+__all__ = ["init", "open_origin", "study_argument", "KEYS"]
+
+# key -> what it holds. Defaults are built in ``init``.
+KEYS = {
+    "origin": "where the open study came from: {'kind': 'path'|'files'|'draft', ...}",
+    "origin_label": "a short name of that origin for the sidebar",
+    "goals": "name -> Goal: the goals and weights as the user set them",
+    "models": "response name -> model name or tuple of terms chosen by the user",
+    "top": "how many alternatives to list after the best settings",
+    "chosen": "index of the solution the maps and what-if panel start from",
+    "whatif": "factor name -> natural setting typed in the what-if panel",
+    "open_error": "the last error from opening files (kept while they stay uploaded)",
+    "upload_digest": "digest of the uploaded files last tried, so each is tried once",
+    "draft": "a bare data table waiting for its factor and response columns",
+}
+
+
+def study_argument(argv: list[str] | None = None) -> str | None:
+    """The study file handed over by ``tradeoff app`` (after ``--``), if any."""
+    argv = sys.argv[1:] if argv is None else argv
+    for arg in argv:
+        if arg.lower().endswith(".toml") and Path(arg).is_file():
+            return arg
+    return None
+
+
+def open_origin(origin: dict, label: str, study) -> None:
+    """Make ``study`` (built from ``origin``) the open study; reset what depends on it."""
+    st.session_state["origin"] = origin
+    st.session_state["origin_label"] = label
+    st.session_state["goals"] = {**{f.name: f.goal for f in study.factors
+                                    if not f.is_categorical},
+                                 **{r.name: r.goal for r in study.responses}}
+    st.session_state["models"] = {}
+    st.session_state["chosen"] = 0
+    st.session_state["whatif"] = {}
+
+
+def init() -> None:
+    """Create every key once per session; on first run open the study argument or the demo."""
+    ss = st.session_state
+    for key, value in (("top", 5), ("chosen", 0), ("whatif", {}), ("open_error", None),
+                       ("upload_digest", None), ("draft", None), ("models", {}),
+                       ("goals", {})):
+        if key not in ss:
+            ss[key] = value
+    if "origin" not in ss:
+        from tradeoff.demo import demo_study_path
+
+        from tradeoff_ui import cached
+
+        path = study_argument() or str(demo_study_path())
+        origin = {"kind": "path", "path": str(Path(path).resolve())}
+        open_origin(origin, Path(path).name, cached.base_study(origin))
