@@ -1,0 +1,99 @@
+"""Analysis of variance of a fitted response model: model, residual, pure
+error, lack of fit and, for two-level designs with centre points, curvature.
+
+Pure error comes from runs made at identical settings (replicates, centre
+points); lack of fit is what is left of the residual after pure error. The
+curvature test compares the average of the factorial runs with the average
+of the centre runs (all numeric factors at their centre).
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import stats
+
+__all__ = ["anova_table", "pure_error", "curvature_test"]
+
+
+def _f_test(ss1: float, df1: int, ss2: float, df2: int) -> tuple[float, float]:
+    if df1 <= 0 or df2 <= 0:
+        return np.nan, np.nan
+    ms2 = ss2 / df2
+    if ms2 <= 0:
+        return (np.inf, 0.0) if ss1 > 0 else (np.nan, np.nan)
+    f = (ss1 / df1) / ms2
+    return float(f), float(stats.f.sf(f, df1, df2))
+
+
+def pure_error(X: np.ndarray, y: np.ndarray) -> tuple[float, int, np.ndarray]:
+    """Pure-error sum of squares and degrees of freedom from repeated settings.
+
+    Returns (ss, df, group) where ``group`` numbers the distinct settings.
+    """
+    key = np.round(np.asarray(X, dtype=float), 9) + 0.0  # -0.0 and 0.0 alike
+    _, group = np.unique(key, axis=0, return_inverse=True)
+    group = group.ravel()
+    g = int(group.max()) + 1 if group.size else 0
+    counts = np.bincount(group, minlength=g)
+    means = np.bincount(group, weights=y, minlength=g) / counts
+    ss = float(np.sum((y - means[group]) ** 2))
+    return ss, int(y.size - g), group
+
+
+def curvature_test(X: np.ndarray, y: np.ndarray, ss_pe: float, df_pe: int) -> dict | None:
+    """Curvature test for a two-level design with centre points, or None.
+
+    Numeric factors are the columns with a setting other than -1 and +1. The
+    test applies when every run has all numeric factors at -1/+1 (factorial)
+    or all at 0 (centre), with some of each. SS = nF nC (yF - yC)^2 / (nF + nC)
+    on 1 degree of freedom, tested against pure error.
+    """
+    X = np.asarray(X, dtype=float)
+    numeric = ~np.all(np.isclose(np.abs(X), 1.0), axis=0)
+    if not numeric.any():
+        return None
+    Xn = X[:, numeric]
+    factorial = np.all(np.isclose(np.abs(Xn), 1.0), axis=1)
+    centre = np.all(np.isclose(Xn, 0.0), axis=1)
+    if not np.all(factorial | centre) or not factorial.any() or not centre.any():
+        return None
+    nf, nc = int(factorial.sum()), int(centre.sum())
+    yf, yc = float(y[factorial].mean()), float(y[centre].mean())
+    ss = nf * nc * (yf - yc) ** 2 / (nf + nc)
+    f, p = _f_test(ss, 1, ss_pe, df_pe)
+    return {"factorial_mean": yf, "centre_mean": yc, "difference": yc - yf,
+            "n_factorial": nf, "n_centre": nc, "ss": ss, "df": 1, "f": f, "p": p}
+
+
+def anova_table(X: np.ndarray, y: np.ndarray, sse: float, n_terms: int) -> dict:
+    """The ANOVA of a model with an intercept and ``n_terms`` terms in all.
+
+    Returns a dict of rows (model, residual, lack_of_fit, pure_error, total),
+    each with ss, df, ms and, where a test exists, f and p; plus curvature
+    (a row or None).
+    """
+    n = y.size
+    sst = float(np.sum((y - y.mean()) ** 2))
+    df_model, df_resid = n_terms - 1, n - n_terms
+    ssm = max(sst - sse, 0.0)
+    f, p = _f_test(ssm, df_model, sse, df_resid)
+    rows = {
+        "model": _row(ssm, df_model, f, p),
+        "residual": _row(sse, df_resid),
+    }
+    ss_pe, df_pe, _ = pure_error(X, y)
+    df_lof = df_resid - df_pe
+    if df_pe > 0 and df_lof > 0:
+        ss_lof = max(sse - ss_pe, 0.0)
+        f, p = _f_test(ss_lof, df_lof, ss_pe, df_pe)
+        rows["lack_of_fit"] = _row(ss_lof, df_lof, f, p)
+        rows["pure_error"] = _row(ss_pe, df_pe)
+    elif df_pe > 0:
+        rows["pure_error"] = _row(ss_pe, df_pe)
+    rows["total"] = _row(sst, n - 1)
+    rows["curvature"] = curvature_test(X, y, ss_pe, df_pe)
+    return rows
+
+
+def _row(ss: float, df: int, f: float = np.nan, p: float = np.nan) -> dict:
+    ms = ss / df if df > 0 else np.nan
+    return {"ss": float(ss), "df": int(df), "ms": float(ms), "f": f, "p": p}
