@@ -28,6 +28,16 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--json", action="store_true", help="print the summary as JSON")
     check.set_defaults(run=_run_check)
 
+    fit = commands.add_parser(
+        "fit", help="fit a model to each response: effects, p-values, R2, ANOVA")
+    fit.add_argument("study", help="the study file (.toml)")
+    fit.add_argument("--json", action="store_true", help="print the models as JSON")
+    fit.add_argument("--response", metavar="NAME", action="append",
+                     help="fit only this response (may be given more than once)")
+    fit.add_argument("--reduce", action="store_true",
+                     help="drop terms that are not needed (keeping the model hierarchical)")
+    fit.set_defaults(run=_run_fit)
+
     app = commands.add_parser(
         "app", help="open the point-and-click workbench in your web browser")
     app.add_argument("study", nargs="?",
@@ -48,6 +58,29 @@ def _run_check(args) -> int:
         print(json.dumps(summary, indent=2))
     else:
         print(summary_text(summary))
+    return 0
+
+
+def _run_fit(args) -> int:
+    from .fit_text import fit_text
+    from .models import fit_response, fit_study
+    from .study import load_study
+
+    study = load_study(args.study)
+    if args.response:
+        # a response asked for by name that cannot be modelled is an error
+        fits = {name: fit_response(study, name, reduce=args.reduce)
+                for name in dict.fromkeys(args.response)}
+        report = {"responses": {k: m.report() for k, m in fits.items()}, "skipped": {}}
+    else:
+        report = fit_study(study, reduce=args.reduce).report()
+        if not report["responses"]:
+            raise TradeoffError("no response could be modelled: "
+                                + "; ".join(report["skipped"].values()))
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        print(fit_text(report), end="")
     return 0
 
 

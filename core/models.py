@@ -172,9 +172,6 @@ class ResponseModel:
         if self.reduce:
             terms, M, dropped_log = self._reduce(terms, M, z, keep_terms)
             self.reduction_ = dropped_log
-            if dropped_log:
-                warnings.append("reduced model: dropped "
-                                + ", ".join(f"{k} ({v})" for k, v in dropped_log.items()))
 
         sol = _Solution(M, z)
         self._terms = terms

@@ -1,0 +1,96 @@
+"""Readable tables of fitted response models, printed by ``tradeoff fit``."""
+from __future__ import annotations
+
+__all__ = ["fit_text"]
+
+
+def _f(v, fmt: str = ".4g") -> str:
+    return "-" if v is None else format(v, fmt)
+
+
+def _p(v) -> str:
+    if v is None:
+        return "-"
+    return "<0.0001" if v < 1e-4 else f"{v:.4f}"
+
+
+def _response_text(r: dict) -> list[str]:
+    out = []
+    model = r["model"] if isinstance(r["model"], str) else "listed terms"
+    scale = "" if r["transform"] == "none" else f", modelled as {r['transform']}(response)"
+    out.append(f"{r['response']}: model {model}{scale}; {r['n']} runs, "
+               f"{r['residual_df']} residual degrees of freedom")
+    out.append(f"  R2 {_f(r['r2'], '.4f')}   adjusted R2 {_f(r['adj_r2'], '.4f')}   "
+               f"predicted R2 {_f(r['pred_r2'], '.4f')}   residual SD {_f(r['residual_sd'])}")
+    out.append("")
+    head = f"  {'term':<28}{'coef (coded)':>14}{'effect':>12}"
+    saturated = r["p_values"] is None
+    if not saturated:
+        head += f"{'std error':>12}{'t':>9}{'p':>10}"
+    out.append(head)
+    for term in r["terms"]:
+        line = (f"  {term:<28}{_f(r['coefficients'][term]):>14}"
+                f"{_f(r['effects'].get(term)):>12}")
+        if not saturated:
+            line += (f"{_f(r['std_errors'][term]):>12}{_f(r['t_values'][term], '.3g'):>9}"
+                     f"{_p(r['p_values'][term]):>10}")
+        elif r["lenth"] is not None and r["effects"].get(term) is not None:
+            e = abs(r["effects"][term])
+            mark = "beyond SME" if e > r["lenth"]["sme"] else \
+                "beyond ME" if e > r["lenth"]["me"] else ""
+            line += f"  {mark}"
+        out.append(line)
+    if r["lenth"] is not None:
+        le = r["lenth"]
+        out.append(f"  Lenth: pseudo standard error {_f(le['pse'])}, margin of error "
+                   f"{_f(le['me'])}, simultaneous margin {_f(le['sme'])}")
+    a = r["anova"]
+    out.append("")
+    out.append(f"  {'source':<16}{'sum of squares':>16}{'df':>5}{'mean square':>14}"
+               f"{'F':>10}{'p':>10}")
+    names = {"model": "model", "residual": "residual", "lack_of_fit": "  lack of fit",
+             "pure_error": "  pure error", "total": "total"}
+    for key, label in names.items():
+        row = a.get(key)
+        if row is None:
+            continue
+        out.append(f"  {label:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
+                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
+    c = a.get("curvature")
+    if c is not None:
+        out.append(f"  curvature: centre average {_f(c['centre_mean'])} vs factorial "
+                   f"average {_f(c['factorial_mean'])} (difference "
+                   f"{_f(c['difference'])}), F {_f(c['f'], '.3g')}, p {_p(c['p'])}")
+    if r["aliases"]:
+        out.append("  aliases: " + "; ".join(f"{k} = {' + '.join(v) or '0'}"
+                                             for k, v in r["aliases"].items()))
+    nat = r.get("natural_coefficients")
+    if nat:
+        lhs = r["response"] if r["transform"] == "none" else f"{r['transform']}({r['response']})"
+        parts = [f"{_f(v)}" if k == "intercept" else f"{v:+.4g}*{k}"
+                 for k, v in nat.items() if v is not None]
+        out.append(f"  natural units: {lhs} = " + " ".join(parts))
+    red = r.get("reduction")
+    if red is not None:
+        dropped = ", ".join(f"{k} ({v})" for k, v in red["dropped"].items())
+        out.append(f"  reduced: dropped {dropped or 'nothing'}")
+    bc = r.get("box_cox")
+    if bc is not None:
+        advice = (f"suggests transform '{bc['suggest']}'" if bc["suggest"] != "other" else
+                  "none of the offered transforms (none, sqrt, log) lies in that range")
+        out.append(f"  Box-Cox: lambda {bc['lambda']:.2f} (range {bc['low']:.2f} to "
+                   f"{bc['high']:.2f}): {advice}")
+    for w in r["warnings"]:
+        out.append(f"  warning: {w}")
+    return out
+
+
+def fit_text(report: dict) -> str:
+    """Text tables of ``StudyFit.report()``: one block per response, then skipped ones."""
+    lines: list[str] = []
+    for r in report["responses"].values():
+        lines += _response_text(r)
+        lines.append("")
+    for name, reason in report.get("skipped", {}).items():
+        lines.append(f"{name}: no model: {reason}")
+    return "\n".join(lines).rstrip() + "\n"
