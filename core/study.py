@@ -35,14 +35,21 @@ _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",
 # Every key the study file accepts, by section. A module that adds keys adds
 # them here, so the "did you mean" check knows them.
 SECTION_KEYS: dict[str, set[str]] = {
-    "top": {"study", "factors", "responses", "constraints", "confirmations"},
+    "top": {"study", "factors", "responses", "constraints", "confirmations",
+            "storage", "panel"},
     "study": {"name", "data", "model", "terms", "sheet", "description",
               "confidence", "seed"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search"} | _GOAL_KEYS,
-    "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS,
+    "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
+    # derived responses (core/derived.py): computed from [storage] or [panel]
+    | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
+       "direction", "min_points", "extrapolate"},
     "constraints": {"rule", "label"},
     # confirmation runs (core/confirm.py): one run per table, or data = "file"
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
+    # long-form tables for derived responses (core/storage.py, core/panel.py)
+    "storage": {"data", "sheet", "time", "time_unit"},
+    "panel": {"data", "sheet", "scale", "min_agreement"},
 }
 # The sections study_to_dict writes itself; any other top-level section
 # (confirmations, for example) travels unchanged.
@@ -293,13 +300,16 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         from .confirm import confirmation_runs  # late: confirm reads Study from here
 
         confirmation_runs(study, read_files=with_data and source is not None)
+    from .derived import add_derived_responses, check_derived  # late: reads Study
+
+    check_derived(study)
     if not with_data:
         return study
     if data_path is None and data_bytes is None:
         raise StudyError(f"{fname}: [study] has no data file: add data = \"runs.csv\"")
     table = read_table(data_path if data_path is not None else Path("data.csv"),
                        sheet=sheet, data=data_bytes)
-    return attach_runs(study, table)
+    return add_derived_responses(attach_runs(study, table))
 
 
 def attach_runs(study: Study, table: RawTable) -> Study:

@@ -40,7 +40,10 @@ def study_summary(study: Study) -> dict:
         if len(present):
             entry["min"], entry["max"] = float(present.min()), float(present.max())
         if r.is_derived:
+            from .derived import describe_derivation  # late: derived reads Study
+
             entry["derived"] = {k: v for k, v in r.extra.items()}
+            entry["derived_how"] = describe_derivation(study, r)
         responses.append(entry)
     return {"study": study.name,
             "source": str(study.source) if study.source else None,
@@ -77,8 +80,8 @@ def summary_text(summary: dict) -> str:
         lines.append(f"  {r['name']:<20} {r['measured']} measured, {r['blank']} blank"
                      f"{span}; goal {r['goal']}; model {r['model']}")
         if "derived" in r:
-            lines.append(f"  {'':<20} derived: " + ", ".join(
-                f"{k} = {v}" for k, v in r["derived"].items()))
+            lines.append(f"  {'':<20} derived: " + r.get("derived_how", ", ".join(
+                f"{k} = {v}" for k, v in r["derived"].items())))
     if summary["constraints"]:
         lines += ["", "Constraints"] + [f"  {c}" for c in summary["constraints"]]
     lines += ["", "Warnings" if summary["warnings"] else "Warnings: none"]
