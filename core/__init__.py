@@ -16,6 +16,11 @@ from .panel import (PANEL_CAUTION, adjusted_means, assessor_agreement, read_pane
                     run_means)
 from .derived import (DERIVE_KINDS, add_derived_responses, derivation_table,
                       describe_derivation)
+from .designs import (GENERATOR_TABLE, Plan, TwoLevelDesign, augment_study,
+                      available_designs, fold_over, fractional_design, plan_runs)
+from .aliases import alias_structure
+from .evaluation import DesignEvaluation, effect_power, evaluate_design, evaluate_plan
+from .runsheet import run_sheet, write_run_sheet
 
 __all__ = [
     "__version__",
@@ -27,4 +32,8 @@ __all__ = [
     "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
     "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",
     "derivation_table", "describe_derivation",
+    "GENERATOR_TABLE", "Plan", "TwoLevelDesign", "augment_study",
+    "available_designs", "fold_over", "fractional_design", "plan_runs",
+    "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",
+    "evaluate_plan", "run_sheet", "write_run_sheet",
 ]

@@ -38,6 +38,36 @@ def build_parser() -> argparse.ArgumentParser:
                      help="drop terms that are not needed (keeping the model hierarchical)")
     fit.set_defaults(run=_run_fit)
 
+    plan = commands.add_parser(
+        "plan", help="plan the runs: factorial or fraction, aliases, blocks, run sheet")
+    plan.add_argument("study", help="the study file (.toml); its data file need not exist")
+    plan.add_argument("--runs", type=int, metavar="N",
+                      help="runs in the two-level part (a power of two: 8, 16, 32, ...)")
+    plan.add_argument("--resolution", type=int, metavar="R",
+                      help="least resolution wanted: 3, 4 or 5 (default: 5)")
+    plan.add_argument("--center", type=int, metavar="N",
+                      help="centre points in each block (default 0; 2 per categorical "
+                           "level combination with --augment)")
+    plan.add_argument("--replicates", type=int, default=1, metavar="N",
+                      help="run the two-level part N times (default 1)")
+    plan.add_argument("--blocks", type=int, default=1, metavar="B",
+                      help="split the runs into 2, 4 or 8 blocks (days, batches)")
+    plan.add_argument("--foldover", action="store_true",
+                      help="add the mirror image of the fraction as a further block")
+    plan.add_argument("--augment", choices=("face", "rotatable"),
+                      help="add axial and centre runs to the study's measured runs "
+                           "(a new block) so a quadratic model can be fitted")
+    plan.add_argument("--seed", type=int, help="seed of the random run order "
+                                               "(default: the study's seed)")
+    plan.add_argument("--effect", type=float, metavar="SIZE",
+                      help="smallest change (low to high) worth detecting, for power")
+    plan.add_argument("--sd", type=float, metavar="SD",
+                      help="expected run-to-run standard deviation, for power")
+    plan.add_argument("--out", required=True, metavar="FILE",
+                      help="the run sheet to write (.csv or .xlsx)")
+    plan.add_argument("--json", action="store_true", help="print the plan as JSON")
+    plan.set_defaults(run=_run_plan)
+
     app = commands.add_parser(
         "app", help="open the point-and-click workbench in your web browser")
     app.add_argument("study", nargs="?",
@@ -46,6 +76,14 @@ def build_parser() -> argparse.ArgumentParser:
                      help="the local port to serve on (default 8501)")
     app.set_defaults(run=_run_app)
     return parser
+
+
+def _run_plan(args) -> int:
+    from .runsheet import plan_command
+
+    report, text = plan_command(args)
+    print(json.dumps(report, indent=2) if args.json else text)
+    return 0
 
 
 def _run_check(args) -> int:
