@@ -248,8 +248,14 @@ def _list(items) -> str:
 
 def _storage_gaps(study: Study, sub: pd.DataFrame, prop: str, sec: dict,
                   fname: str) -> list[str]:
-    """Per-run notes on missing time points (once per property)."""
-    times = np.unique(sub["time"].to_numpy())
+    """Per-run notes on missing time points (once per property).
+
+    The schedule is every time measured in at least half the runs, so one
+    run's extra time point does not make all the others look incomplete.
+    """
+    per_time = sub.dropna(subset=["value"]).groupby("time")["run"].nunique()
+    n_runs = max(sub["run"].nunique(), 1)
+    times = per_time.index[per_time >= n_runs / 2].to_numpy()
     notes = []
     tname = sec["time"]
     for run in study.runs["run"]:
