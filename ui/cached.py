@@ -18,7 +18,7 @@ import tradeoff
 from tradeoff.inputs import draft_spec, study_from_files, with_response_model
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
-           "contour", "curves", "runs_table", "whatif", "chances"]
+           "contour", "curves", "runs_table", "what_if"]
 
 
 def _digest(*parts) -> str:
@@ -71,8 +71,9 @@ def current_study():
 
 def study_keys(study) -> tuple[str, str]:
     """(fit key, search key): digests of what a fit and a search depend on."""
+    reduce = sorted(st.session_state["reduce"])
     fit_part = [(r.name, study.model_for(r), r.transform) for r in study.responses]
-    fit_key = _digest(origin_key(st.session_state["origin"]), fit_part)
+    fit_key = _digest(origin_key(st.session_state["origin"]), fit_part, reduce)
     goals = [(x.name, asdict(x.goal)) for x in (*study.factors, *study.responses)]
     search_key = _digest(fit_key, goals, list(study.constraints), study.seed,
                          study.confidence)
@@ -80,27 +81,36 @@ def study_keys(study) -> tuple[str, str]:
 
 
 @st.cache_resource(max_entries=32, show_spinner=False)
-def _fit(key: str, _study):
-    from tradeoff.models import fit_study
+def _fit(key: str, _study, reduce: tuple):
+    from tradeoff.models import StudyFit, fit_study
 
-    return fit_study(_study)
+    full = fit_study(_study)
+    if not reduce:
+        return full
+    # Reduction is chosen per response: take those responses from a reduced fit.
+    reduced = fit_study(_study, reduce=True, responses=list(reduce))
+    models = {name: reduced.models.get(name, model) for name, model in full.models.items()}
+    return StudyFit(study=_study, models=models, skipped=full.skipped)
 
 
 def fit(study):
     """The fitted models of every response (cached by data and model choices)."""
-    return _fit(study_keys(study)[0], study)
+    reduce = tuple(sorted(n for n in st.session_state["reduce"] if n in study.response_names))
+    return _fit(study_keys(study)[0], study, reduce)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
-def _optimize(key: str, top: int, _study, _fit):
-    return tradeoff.optimize(_study, top=top, seed=_study.seed, fit=_fit)
+def _optimize(key: str, top: int, rank_by: str, _study, _fit):
+    from tradeoff.search import optimize as search
+
+    return search(_study, top=top, seed=_study.seed, fit=_fit, rank_by=rank_by)
 
 
-def optimize(study, top: int):
-    """The best settings and alternatives (cached by data, models, goals and ``top``)."""
-    fitted = fit(study)
+def optimize(study, fitted):
+    """The best settings and alternatives (cached by data, models, goals and options)."""
+    ss = st.session_state
     with st.spinner("Searching the tested region for the best balance..."):
-        return _optimize(study_keys(study)[1], top, study, fitted)
+        return _optimize(study_keys(study)[1], ss["top"], ss["rank_by"], study, fitted)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
@@ -143,20 +153,13 @@ def curves(study):
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
-def _chances(key: str, _study, _fit, points: tuple):
-    from tradeoff.maps import settings_chances
+def _what_if(key: str, _study, _fit, items: tuple):
+    from tradeoff.maps import what_if as build
 
-    return settings_chances(_study, _fit, [dict(p) for p in points])
-
-
-def chances(study, fitted, points: list[dict]):
-    """Chance of meeting each limit and all at some settings (``settings_chances``)."""
-    frozen = tuple(tuple(sorted((k, v if isinstance(v, str) else float(v))
-                                for k, v in p.items())) for p in points)
-    with st.spinner("Estimating the chance of meeting every limit..."):
-        return _chances(study_keys(study)[1], study, fitted, frozen)
+    return build(_study, _fit, dict(items))
 
 
-def whatif(study, fitted, settings: dict):
-    """Predictions with intervals at hand-set settings (not cached: one point is quick)."""
-    return fitted.predict(settings)
+def what_if(study, fitted, settings: dict):
+    """Predictions, intervals and chances at hand-set settings (``tradeoff.maps.what_if``)."""
+    items = tuple((k, v if isinstance(v, str) else float(v)) for k, v in settings.items())
+    return _what_if(study_keys(study)[1], study, fitted, items)

@@ -19,12 +19,15 @@ KEYS = {
     "origin_label": "a short name of that origin for the sidebar",
     "goals": "name -> Goal: the goals and weights as the user set them",
     "models": "response name -> model name or tuple of terms chosen by the user",
-    "top": "how many alternatives to list after the best settings",
+    "reduce": "set of response names whose model is reduced to its active terms",
+    "top": "how many solutions to list (the best and its alternatives)",
+    "rank_by": "order of the solutions: 'desirability' (D) or 'chance' (all limits met)",
     "chosen": "index of the solution the maps and what-if panel start from",
     "whatif": "factor name -> natural setting typed in the what-if panel",
     "open_error": "the last error from opening files (kept while they stay uploaded)",
     "upload_digest": "digest of the uploaded files last tried, so each is tried once",
     "draft": "a bare data table waiting for its factor and response columns",
+    "epoch": "counts opened studies; part of widget keys so a new study starts fresh",
 }
 
 
@@ -40,11 +43,13 @@ def study_argument(argv: list[str] | None = None) -> str | None:
 def open_origin(origin: dict, label: str, study) -> None:
     """Make ``study`` (built from ``origin``) the open study; reset what depends on it."""
     st.session_state["origin"] = origin
+    st.session_state["epoch"] = st.session_state.get("epoch", 0) + 1
     st.session_state["origin_label"] = label
     st.session_state["goals"] = {**{f.name: f.goal for f in study.factors
                                     if not f.is_categorical},
                                  **{r.name: r.goal for r in study.responses}}
     st.session_state["models"] = {}
+    st.session_state["reduce"] = set()
     st.session_state["chosen"] = 0
     st.session_state["whatif"] = {}
 
@@ -52,7 +57,7 @@ def open_origin(origin: dict, label: str, study) -> None:
 def init() -> None:
     """Create every key once per session; on first run open the study argument or the demo."""
     ss = st.session_state
-    for key, value in (("top", 5), ("chosen", 0), ("whatif", {}), ("open_error", None),
+    for key, value in (("top", 5), ("rank_by", "desirability"), ("reduce", set()), ("chosen", 0), ("whatif", {}), ("open_error", None),
                        ("upload_digest", None), ("draft", None), ("models", {}),
                        ("goals", {})):
         if key not in ss:

@@ -1,3 +1,69 @@
-"""placeholder"""
+"""Take it with you: the study with your targets, the results, the report."""
+from __future__ import annotations
+
+import importlib.util
+from pathlib import Path
+
 import streamlit as st
-st.write("coming")
+
+from tradeoff import TradeoffError
+from tradeoff.exports import results_csv_bytes, results_excel_bytes, study_toml_bytes
+from tradeoff.provenance import provenance
+from tradeoff_ui import cached
+
+ss = st.session_state
+
+# -- read state ----------------------------------------------------------------
+st.title("Take it with you")
+try:
+    study = cached.current_study()
+    fitted = cached.fit(study)
+    result = cached.optimize(study, fitted)
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+
+origin = ss["origin"]
+study_bytes = data_bytes = None
+if origin["kind"] == "files":
+    study_bytes = next(b for n, b in origin["files"].items() if n.lower().endswith(".toml"))
+    data_bytes = next(b for n, b in origin["files"].items()
+                      if not n.lower().endswith(".toml"))
+elif origin["kind"] == "draft":
+    data_bytes = origin["data"]
+stem = Path(study.source.name if study.source else "study").stem
+
+# -- call the library: build the files ----------------------------------------
+try:
+    toml_bytes = study_toml_bytes(study)
+    csv_bytes = results_csv_bytes(result)
+    xlsx_bytes = results_excel_bytes(result, study, provenance=provenance(
+        study, seed=result.seed, study_bytes=study_bytes, data_bytes=data_bytes))
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+
+# -- show -------------------------------------------------------------------------
+st.subheader("The study with your targets")
+st.write("A study file with the goals, limits, weights and model terms as you set them "
+         "here. Save it next to your data file to open the same analysis later with "
+         "`tradeoff app your_study.toml`.")
+st.download_button("Study file (.toml)", toml_bytes, file_name=f"{stem}_targets.toml",
+                   mime="application/toml", key="d_toml")
+with st.expander("See the study file"):
+    st.code(toml_bytes.decode("utf-8"), language="toml")
+
+st.subheader("The results")
+st.write("One row per solution and response: the settings, each prediction with its "
+         "intervals, desirabilities and chances. The workbook adds the goals used, the "
+         "notes and where the numbers came from (file fingerprints, seed, version).")
+c1, c2 = st.columns(2)
+c1.download_button("Results table (.csv)", csv_bytes, file_name=f"{stem}_results.csv",
+                   mime="text/csv", key="d_csv")
+c2.download_button("Results workbook (.xlsx)", xlsx_bytes,
+                   file_name=f"{stem}_results.xlsx", key="d_xlsx",
+                   mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+
+st.subheader("The report")
+if importlib.util.find_spec("tradeoff.report") is None:
+    st.caption("A printable report is not available in this version.")

@@ -1,3 +1,173 @@
-"""placeholder"""
+"""What drives each response: effects, interactions, fit and residuals."""
+from __future__ import annotations
+
+import pandas as pd
 import streamlit as st
-st.write("coming")
+
+from tradeoff import TradeoffError
+from tradeoff.maps import (effect_lines, effect_table, half_normal_table,
+                           interaction_means, residual_table)
+from tradeoff.study import MODELS
+from tradeoff.terms import model_terms
+from tradeoff_ui import cached, charts
+
+ss = st.session_state
+OWN = "my own choice of terms"
+
+# -- read state -------------------------------------------------------------
+st.title("What drives each response")
+try:
+    study = cached.current_study()
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+
+# -- widgets --------------------------------------------------------------------
+names = study.response_names
+labels = {r.name: r.display() for r in study.responses}
+name = st.selectbox("Response", names, format_func=labels.get, key="m_response")
+response = study.response(name)
+current = study.model_for(response)
+candidates = [t.label for t in model_terms("full", study.factor_names)[0]
+              if t.label != "intercept"]
+with st.container(border=True):
+    st.markdown("**Model terms**")
+    left, right = st.columns([2, 1])
+    options = list(MODELS) + [OWN]
+    choice = left.selectbox(
+        "Start from", options,
+        index=options.index(current) if isinstance(current, str) else len(MODELS),
+        help="main: one effect per factor; interactions: plus every pair; full: every "
+             "combination; quadratic: plus squares (needs three or more settings).",
+        key=f"m_model.{name}")
+    if choice == OWN:
+        own = left.multiselect("Terms", candidates,
+                               default=[t for t in (current if not isinstance(current, str)
+                                                    else candidates[:len(study.factors)])
+                                        if t in candidates],
+                               key=f"m_terms.{name}")
+        wanted = tuple(own)
+    else:
+        wanted = choice
+    reduce = right.checkbox("Keep only the terms that matter (backward reduction, "
+                            "keeping the hierarchy)", value=name in ss["reduce"],
+                            key=f"m_reduce.{name}")
+
+if wanted != current and wanted != ():
+    ss["models"] = {**ss["models"], name: wanted}
+    study = cached.current_study()
+ss["reduce"] = (ss["reduce"] | {name}) if reduce else (ss["reduce"] - {name})
+
+# -- call the library -------------------------------------------------------------
+try:
+    fitted = cached.fit(study)
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+if name in fitted.skipped:
+    st.error(f"No model for {response.label}: {fitted.skipped[name]}")
+    st.stop()
+model = fitted.models[name]
+report = model.report()
+unit = response.unit + (f", {response.transform} scale" if response.transform != "none" else "")
+effects = effect_table(model)
+lines = effect_lines(model)
+
+# -- show ---------------------------------------------------------------------------
+cols = st.columns(6)
+cols[0].metric("Runs used", report["n"])
+cols[1].metric("Terms", len(report["terms"]))
+cols[2].metric("Residual df", report["residual_df"])
+for col, key, title in ((cols[3], "r2", "R²"), (cols[4], "adj_r2", "Adjusted R²"),
+                        (cols[5], "pred_r2", "Predicted R²")):
+    col.metric(title, "-" if report[key] is None else f"{report[key]:.3f}")
+st.caption("R² is the share of the variation between runs the model explains; adjusted "
+           "R² charges for each term; predicted R² is how well each run is predicted "
+           "when it is left out of the fit. A predicted R² far below R² means the model "
+           "follows noise.")
+for warning in report["warnings"]:
+    st.warning(warning)
+if report.get("reduction"):
+    dropped = report["reduction"]["dropped"]
+    st.info("Reduction dropped: " + ", ".join(f"{t} ({p})" for t, p in dropped.items())
+            if dropped else "Reduction kept every term.")
+
+left, right = st.columns([3, 2])
+with left:
+    st.subheader("Effects, largest first")
+    st.caption("An effect is the change in the response from the low (-1) to the high "
+               "(+1) setting of a factor, averaged over the others. Bars beyond the "
+               "dashed line are unlikely to be noise"
+               + (" (Lenth's margin of error ME, and SME allowing for looking at all "
+                  "effects at once)." if report["lenth"] else
+                  " (two-sided t-test at the study's confidence level)."))
+    if len(effects):
+        st.altair_chart(charts.effects_chart(effects, lines, response.unit),
+                        width="stretch")
+with right:
+    st.subheader("Half-normal plot")
+    st.caption("Effects that are only noise fall on a straight line through the "
+               "origin; real effects stand out to the right.")
+    if len(effects) >= 2:
+        st.altair_chart(charts.half_normal_chart(half_normal_table(model), response.unit),
+                        width="stretch")
+
+st.subheader("Interactions")
+numeric_or_all = study.factor_names
+a_col, b_col = st.columns(2)
+a = a_col.selectbox("First factor", numeric_or_all, index=0, key="m_ia",
+                    format_func=lambda n: study.factor(n).display())
+b = b_col.selectbox("Second factor", [n for n in numeric_or_all if n != a], index=0,
+                    key="m_ib", format_func=lambda n: study.factor(n).display())
+try:
+    ab = interaction_means(study, name, a, b)
+    ba = interaction_means(study, name, b, a)
+except TradeoffError as exc:
+    st.error(str(exc))
+else:
+    st.caption("Mean measured response at each low/high combination (centre points left "
+               "out). Parallel lines: no interaction; lines that cross or fan out: the "
+               "effect of one factor depends on the other.")
+    p1, p2 = st.columns(2)
+    y_title = charts.titled(response.label, response.unit)
+    p1.altair_chart(charts.interaction_chart(ab, study.factor(a).display(),
+                                             study.factor(b).display(), y_title),
+                    width="stretch")
+    p2.altair_chart(charts.interaction_chart(ba, study.factor(b).display(),
+                                             study.factor(a).display(), y_title),
+                    width="stretch")
+
+st.subheader("Residuals: what the model leaves unexplained")
+st.caption("Look for patterns: a funnel against the fitted value suggests a transform; "
+           "a curve in the quantile plot suggests non-normal errors; a trend in run "
+           "order suggests drift. Dark points are runs with a studentized residual "
+           "beyond ±3.")
+st.altair_chart(charts.residual_charts(residual_table(model), unit), width="content")
+
+with st.expander("Coefficients, analysis of variance and the equation"):
+    coef = pd.DataFrame({"term": report["terms"],
+                         "coefficient (coded)": [report["coefficients"][t]
+                                                 for t in report["terms"]]})
+    if report["std_errors"]:
+        coef["std. error"] = [report["std_errors"][t] for t in report["terms"]]
+        coef["p-value"] = [report["p_values"][t] for t in report["terms"]]
+    st.dataframe(coef, hide_index=True)
+    anova = pd.DataFrame([{"source": k.replace("_", " "), **{c: v.get(c) for c in
+                                                            ("ss", "df", "ms", "f", "p")}}
+                          for k, v in report["anova"].items()
+                          if isinstance(v, dict) and k != "curvature"])
+    st.dataframe(anova, hide_index=True)
+    curvature = report["anova"].get("curvature")
+    if curvature:
+        st.write(f"Curvature check: centre points average {curvature['centre_mean']:.4g}, "
+                 f"factorial runs {curvature['factorial_mean']:.4g} (p = "
+                 f"{curvature['p']:.3g})." if curvature.get("p") is not None else
+                 "Curvature check: not available.")
+    if report["aliases"]:
+        st.write("Terms the runs cannot tell apart (aliases):")
+        st.json(report["aliases"])
+    if report["natural_coefficients"]:
+        st.write("The equation in natural units (categorical factors coded -1/+1):")
+        st.dataframe(pd.DataFrame({"term": list(report["natural_coefficients"]),
+                                   "coefficient": list(report["natural_coefficients"]
+                                                       .values())}), hide_index=True)

@@ -1,3 +1,142 @@
-"""placeholder"""
+"""Targets and weights: each goal with its desirability curve, live."""
+from __future__ import annotations
+
+import math
+
+import pandas as pd
 import streamlit as st
-st.write("coming")
+
+from tradeoff import TradeoffError
+from tradeoff.inputs import checked_goal
+from tradeoff_ui import cached, charts
+
+ss = st.session_state
+KINDS = {"maximize": "higher is better", "minimize": "lower is better",
+         "target": "aim at a target", "range": "anywhere within limits",
+         "none": "no goal"}
+
+# -- read state -------------------------------------------------------------
+st.title("Targets and weights")
+st.caption("For each response, say what you want. Desirability runs from 0 (not "
+           "acceptable) to 1 (as good as it gets); the overall desirability D is the "
+           "weighted geometric mean of them all, so a single 0 makes D = 0. A weight of "
+           "2 counts a goal twice as much as a weight of 1. The diamond shows where the "
+           "current best settings land.")
+try:
+    study = cached.current_study()
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+epoch = ss["epoch"]
+
+
+def _span(item) -> tuple[float, float]:
+    """Default limits for a goal that has none: the measured (or tested) range."""
+    if hasattr(item, "low") and item.low is not None:
+        return float(item.low), float(item.high)
+    values = study.runs[item.name].dropna() if item.name in study.runs else pd.Series([0, 1])
+    lo, hi = float(values.min()), float(values.max())
+    return (lo, hi) if hi > lo else (lo - 1.0, lo + 1.0)
+
+
+def _step(lo: float, hi: float) -> float:
+    return 10.0 ** math.floor(math.log10(max(hi - lo, 1e-12)) - 1)
+
+
+# -- widgets -------------------------------------------------------------------
+items = list(study.responses) + [f for f in study.factors if not f.is_categorical]
+slots = {}
+for item in items:
+    goal = ss["goals"].get(item.name, item.goal)
+    key = f"g{epoch}.{item.name}"
+    is_factor = item in study.factors
+    with st.container(border=True):
+        left, right = st.columns([2, 3])
+        with left:
+            st.markdown(f"**{item.display()}**" + (" (factor)" if is_factor else ""))
+            kinds = list(KINDS)
+            kind = st.selectbox("Goal", kinds, index=kinds.index(goal.kind),
+                                format_func=KINDS.get, key=f"{key}.kind")
+            lo0, hi0 = (goal.lower, goal.upper) if goal.active else _span(item)
+            step = _step(lo0, hi0)
+            values = {"kind": kind, "weight": goal.weight, "shape": goal.shape,
+                      "shape_below": goal.shape_below, "shape_above": goal.shape_above}
+            if kind != "none":
+                c1, c2, c3 = st.columns(3)
+                values["lower"] = c1.number_input("Lower limit", value=float(lo0),
+                                                  step=step, format="%g", key=f"{key}.lower")
+                if kind == "target":
+                    t0 = goal.target if goal.target is not None else (lo0 + hi0) / 2
+                    values["target"] = c2.number_input("Target", value=float(t0),
+                                                       step=step, format="%g",
+                                                       key=f"{key}.target")
+                values["upper"] = c3.number_input("Upper limit", value=float(hi0),
+                                                  step=step, format="%g", key=f"{key}.upper")
+                c1, c2, c3 = st.columns(3)
+                values["weight"] = c1.number_input(
+                    "Weight", min_value=0.1, max_value=10.0, value=float(goal.weight),
+                    step=0.5, format="%g", key=f"{key}.weight")
+                if kind in ("maximize", "minimize"):
+                    values["shape"] = c2.number_input(
+                        "Shape", min_value=0.1, max_value=10.0, value=float(goal.shape),
+                        step=0.5, format="%g", key=f"{key}.shape",
+                        help="1: straight line. Above 1: only values near the ideal "
+                             "score well. Below 1: values just inside the limit already "
+                             "score well.")
+                elif kind == "target":
+                    values["shape_below"] = c2.number_input(
+                        "Shape below", min_value=0.1, max_value=10.0,
+                        value=float(goal.shape_below), step=0.5, format="%g",
+                        key=f"{key}.below")
+                    values["shape_above"] = c3.number_input(
+                        "Shape above", min_value=0.1, max_value=10.0,
+                        value=float(goal.shape_above), step=0.5, format="%g",
+                        key=f"{key}.above")
+            try:
+                new = checked_goal(item.name, **values)
+            except TradeoffError as exc:
+                st.error(f"{exc}. The previous goal stays in use until this is fixed.")
+            else:
+                if new != goal:
+                    ss["goals"] = {**ss["goals"], item.name: new}
+        slots[item.name] = (right, item, is_factor)
+
+# -- call the library ---------------------------------------------------------------
+try:
+    study = cached.current_study()
+    fitted = cached.fit(study)
+    result = cached.optimize(study, fitted)
+    curves = cached.curves(study)
+except TradeoffError as exc:
+    st.error(str(exc))
+    st.stop()
+best = result.best
+
+# -- show -------------------------------------------------------------------------------
+for name, (slot, item, is_factor) in slots.items():
+    goal = study.factor(name).goal if is_factor else study.response(name).goal
+    with slot:
+        if not goal.active:
+            st.caption("No goal: this takes no part in D.")
+            continue
+        if is_factor:
+            value, d = best.settings[name], best.factor_desirability.get(name)
+        elif name in best.responses:
+            value, d = best.predictions[name], best.responses[name].desirability
+        else:
+            st.caption("No model for this response: it takes no part in D.")
+            continue
+        marker = pd.DataFrame({"value": [value], "desirability": [d]})
+        curve = curves[curves["name"] == name]
+        st.altair_chart(charts.desirability_chart(curve, marker,
+                                                  charts.titled(item.label, item.unit)),
+                        width="stretch")
+        st.caption(f"At the best settings: {value:.4g} {item.unit} -> desirability "
+                   f"{d:.3f}")
+
+with st.sidebar:
+    st.markdown(f"**Best settings now** (D = {best.desirability:.3f})")
+    st.dataframe(pd.DataFrame({"factor": list(best.settings),
+                               "setting": [v if isinstance(v, str) else f"{v:.4g}"
+                                           for v in best.settings.values()]}),
+                 hide_index=True, key="targets_best")
