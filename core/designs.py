@@ -546,6 +546,27 @@ def plan_runs(study, *, runs: int | None = None, resolution: int | None = None,
                 blocks=block_report, notes=tuple(notes), kind=kind)
 
 
+def _next_ids(ids: list[str]) -> tuple[int, str, int]:
+    """Where new run ids continue: (first number, prefix, zero-padding width).
+
+    Ids such as ``R01 .. R20`` continue as ``R21``; plain numbers continue after
+    the largest; anything else gets ``aug1, aug2, ...``.
+    """
+    import re
+
+    parts = [re.fullmatch(r"(\D*)(\d+)", i) for i in ids]
+    if parts and all(parts) and len({m.group(1) for m in parts}) == 1:
+        prefix = parts[0].group(1)
+        digits = [m.group(2) for m in parts]
+        padded = all(d.startswith("0") or len(d) == len(digits[0]) for d in digits) \
+            and len({len(d) for d in digits}) == 1 and len(digits[0]) > 1
+        return max(int(d) for d in digits) + 1, prefix, len(digits[0]) if padded else 0
+    prefix = "aug"
+    while any(i.startswith(prefix) for i in ids):
+        prefix = "x" + prefix
+    return 1, prefix, 0
+
+
 def axial_distance(kind: str, n_factorial: float) -> float:
     """Axial distance in coded units: 1 (face-centred) or n_factorial ** (1/4).
 
@@ -574,6 +595,7 @@ def augment_study(study, kind: str = "face", *, center: int | None = None,
     -------
     Plan with only the new runs; ``Plan.design`` is None.
     """
+    axial_distance(kind, 1)  # an unknown kind is refused before anything else
     if study.runs is None:
         raise PlanError("augmentation adds runs to measured ones: the study's data file "
                         "is needed (check [study] data = ...)")
@@ -627,16 +649,11 @@ def augment_study(study, kind: str = "face", *, center: int | None = None,
         existing = pd.to_numeric(study.runs["block"], errors="coerce")
         if existing.notna().all() and len(existing):
             block_no = int(existing.max()) + 1
-    ids = study.runs["run"].astype(str)
-    numeric_ids = pd.to_numeric(ids, errors="coerce")
-    if numeric_ids.notna().all():
-        first, prefix = int(numeric_ids.max()) + 1, ""
-    else:
-        first, prefix = 1, "aug"
-        while any(i.startswith("aug") for i in ids):
-            prefix = "x" + prefix
+    first, prefix, width = _next_ids(study.runs["run"].astype(str).tolist())
     table, coded_df = _finish(factors, coded_new, np.full(len(coded_new), block_no),
                               point, seed, first_id=first, id_prefix=prefix)
+    if width:
+        table["run"] = [f"{prefix}{int(r[len(prefix):]):0{width}d}" for r in table["run"]]
     notes = []
     if alpha > 1:
         outside = ", ".join(
