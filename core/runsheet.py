@@ -49,9 +49,6 @@ def write_run_sheet(table: pd.DataFrame, path: str | Path, *, study=None,
     """
     path = Path(path)
     suffix = path.suffix.lower()
-    if suffix not in SHEET_SUFFIXES:
-        raise PlanError(f"{path.name}: a run sheet is written as .csv or .xlsx: change "
-                        "the --out name's ending")
     if study is not None:
         if study.source is not None and _same_file(path, Path(study.source)):
             raise PlanError(f"{path.name} is the study file itself: choose another --out "
@@ -61,6 +58,9 @@ def write_run_sheet(table: pd.DataFrame, path: str | Path, *, study=None,
             raise PlanError(f"{path.name} is the study's data file, which already exists: "
                             "choose another --out name so your runs are not overwritten")
         response_names = [r.name for r in study.responses if not r.is_derived]
+    if suffix not in SHEET_SUFFIXES:
+        raise PlanError(f"{path.name}: a run sheet is written as .csv or .xlsx: change "
+                        "the --out name's ending")
     if path.exists():
         _refuse_if_measured(path, response_names)
     folder = path.parent if str(path.parent) else Path(".")
