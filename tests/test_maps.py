@@ -64,3 +64,155 @@ def test_interaction_means_match_a_groupby(demo):
     assert list(cells["runs"]) == [4, 4, 4, 4]
     with pytest.raises(StudyError, match="needs two different factors"):
         interaction_means(demo, "liking", "protein", "protein")
+
+
+# --------------------------------------------------------------------------
+# Fitted-model tables, checked against statsmodels (reference library)
+
+@pytest.fixture(scope="module")
+def fitted(demo):
+    from tradeoff.models import fit_study
+
+    return fit_study(demo)
+
+
+def _ols(demo, response):
+    """The same two-factor-interaction model fitted by statsmodels on coded columns."""
+    sm = pytest.importorskip("statsmodels.formula.api")
+    frame = demo.coded().copy()
+    frame["y"] = demo.runs[response].to_numpy(float)
+    formula = "y ~ (protein + glycerol + binder + mix_temp) ** 2"
+    return sm.ols(formula, data=frame).fit()
+
+
+def test_effect_table_and_t_line_match_statsmodels(demo, fitted):
+    from scipy import stats
+
+    from tradeoff.maps import effect_lines, effect_table
+
+    ols = _ols(demo, "liking")
+    table = effect_table(fitted.models["liking"]).set_index("term")
+    # effect = 2 * coefficient in coded units (Box, Hunter & Hunter 2005, ch. 5)
+    for term in ("protein", "binder", "glycerol:mix_temp"):
+        assert table.at[term, "effect"] == pytest.approx(2 * ols.params[term], rel=1e-9)
+        assert table.at[term, "p_value"] == pytest.approx(ols.pvalues[term], rel=1e-6)
+    sizes = table["effect"].abs().to_numpy()
+    assert (np.diff(sizes) <= 0).all()  # largest first
+    line = effect_lines(fitted.models["liking"])
+    expected = stats.t.ppf(0.975, ols.df_resid) * 2 * ols.bse.drop("Intercept").max()
+    assert line["value"].iloc[0] == pytest.approx(expected, rel=1e-9)
+
+
+def test_effect_lines_without_residual_df_are_lenths(write_study):
+    """Saturated 2^3 model: ME = t(0.975, m/3) * PSE, Lenth (1989), computed here by hand."""
+    from scipy import stats
+
+    from tradeoff.maps import effect_lines, effect_table
+    from tradeoff.models import fit_study
+
+    study_text = ("[study]\nname = \"sat\"\ndata = \"runs.csv\"\nmodel = \"full\"\n"
+                  + "".join(f"[[factors]]\nname = \"{n}\"\nlow = -1\nhigh = 1\n"
+                            for n in "abc")
+                  + "[[responses]]\nname = \"y\"\n")
+    ys = [60, 72, 54, 68, 52, 83, 45, 80]  # the pilot plant 2^3 responses, Box, Hunter & Hunter (2005) (from memory)
+    rows = ["run,a,b,c,y"] + [f"{i + 1},{(-1) ** (i % 2 + 1)},{(-1) ** (i // 2 % 2 + 1)},"
+                              f"{(-1) ** (i // 4 + 1)},{y}" for i, y in enumerate(ys)]
+    study = load_study(write_study(study_text, "\n".join(rows) + "\n"))
+    model = fit_study(study).models["y"]
+    effects = effect_table(model)["effect"].abs().to_numpy()
+    s0 = 1.5 * np.median(effects)
+    pse = 1.5 * np.median(effects[effects < 2.5 * s0])
+    me = stats.t.ppf(0.975, len(effects) / 3) * pse
+    lines = effect_lines(model).set_index("label")["value"]
+    assert lines["ME (Lenth)"] == pytest.approx(me, rel=1e-9)
+    assert lines["SME (Lenth)"] > lines["ME (Lenth)"]
+    # the main effect of a (temperature in the source) is 23 (from memory)
+    assert effect_table(model).set_index("term").at["a", "effect"] == pytest.approx(23.0)
+
+
+def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fitted):
+    from tradeoff.desirability import desirability
+    from tradeoff.maps import contour_grid
+
+    held = {"binder": "date paste", "mix_temp": 55.0}
+    grid = contour_grid(demo, fitted, "protein", "glycerol", held, n=5)
+    assert len(grid) == 25
+    assert sorted(grid["x"].unique()) == pytest.approx([20, 22.5, 25, 27.5, 30])
+    coded = pd.DataFrame({"protein": (grid["x"] - 25) / 5, "glycerol": (grid["y"] - 7) / 3,
+                          "binder": 1.0, "mix_temp": 0.5})
+    for response in ("liking", "cost"):
+        ref = _ols(demo, response).predict(coded)
+        assert np.allclose(grid[response], ref, rtol=1e-9)
+    # D: weighted geometric mean of the individual desirabilities (Derringer 1994)
+    parts, weights = [], []
+    for r in demo.responses:
+        parts.append(desirability(grid[r.name].to_numpy(), r.goal))
+        weights.append(r.goal.weight)
+    parts.append(desirability(grid["x"].to_numpy(), demo.factor("protein").goal))
+    weights.append(0.5)
+    w = np.array(weights) / np.sum(weights)
+    D = np.prod(np.column_stack(parts) ** w, axis=1)
+    assert np.allclose(grid["D"], D, atol=1e-12)
+    within = np.ones(25, dtype=bool)
+    for r in demo.responses:
+        g, v = r.goal, grid[r.name]
+        if g.kind == "maximize":
+            within &= v >= g.lower
+        elif g.kind == "minimize":
+            within &= v <= g.upper
+        else:
+            within &= (v >= g.lower) & (v <= g.upper)
+    assert (grid["within_limits"] == within).all()
+    assert grid["allowed"].all() and (grid["feasible"] == within).all()
+
+
+def test_contour_grid_errors(demo, fitted):
+    from tradeoff.maps import contour_grid
+
+    with pytest.raises(StudyError, match="factor 'binder' is categorical"):
+        contour_grid(demo, fitted, "protein", "binder", {"glycerol": 7, "mix_temp": 50})
+    with pytest.raises(StudyError, match="no setting given for factor 'mix_temp'"):
+        contour_grid(demo, fitted, "protein", "glycerol", {"binder": "rice syrup"})
+    with pytest.raises(StudyError, match="two different factors"):
+        contour_grid(demo, fitted, "protein", "protein", {})
+
+
+def test_what_if_intervals_match_statsmodels(demo, fitted):
+    from tradeoff.maps import what_if
+
+    settings = {"protein": 23.0, "glycerol": 9.0, "binder": "rice syrup", "mix_temp": 45.0}
+    answer = what_if(demo, fitted, settings, draws=4000)
+    row = answer.table.set_index("response").loc["hardness_12w"]
+    point = pd.DataFrame({"protein": [-0.4], "glycerol": [2 / 3], "binder": [-1.0],
+                          "mix_temp": [-0.5]})
+    ref = _ols(demo, "hardness_12w").get_prediction(point).summary_frame(alpha=0.05)
+    assert row["predicted"] == pytest.approx(ref["mean"].iloc[0], rel=1e-9)
+    assert row["ci_low"] == pytest.approx(ref["mean_ci_lower"].iloc[0], rel=1e-9)
+    assert row["pi_high"] == pytest.approx(ref["obs_ci_upper"].iloc[0], rel=1e-9)
+    assert row["upper_limit"] == 35 and np.isnan(row["lower_limit"])
+    assert 0 <= answer.chance_all <= row["chance_in_limits"] <= 1
+    assert answer.outside == () and answer.allowed
+    again = what_if(demo, fitted, settings, draws=4000)
+    assert again.chance_all == answer.chance_all  # same seed, same answer
+    far = what_if(demo, fitted, {**settings, "protein": 33.0}, draws=1000)
+    assert far.outside == ("protein",)
+    with pytest.raises(StudyError, match=r"no setting given for factor\(s\) \['mix_temp'\]"):
+        what_if(demo, fitted, {k: v for k, v in settings.items() if k != "mix_temp"})
+
+
+def test_residual_table_quantiles_and_flags(demo, fitted):
+    from scipy import stats
+
+    from tradeoff.maps import residual_table
+
+    table = residual_table(fitted.models["hardness_fresh"])
+    assert len(table) == 20 and list(table["order"]) == list(range(1, 21))
+    ordered = table.sort_values("studentized")
+    expected = stats.norm.ppf((np.arange(1, 21) - 0.5) / 20)
+    assert np.allclose(ordered["quantile"], expected)
+    ols = _ols(demo, "hardness_fresh")
+    infl = ols.get_influence()
+    assert np.allclose(table["studentized"], infl.resid_studentized_internal)
+    assert list(table.loc[table["flagged"], "run"]) == ["R12"]
+    marks = runs_table(demo, fitted).set_index("run")["marks"]
+    assert marks["R12"].startswith("unusual hardness_fresh (studentized residual -3.7")

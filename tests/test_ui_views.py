@@ -1,0 +1,149 @@
+"""Every workbench view, driven headless with Streamlit's AppTest on the demo study.
+
+The numbers shown come from the library (tested in tests/test_maps.py,
+tests/test_search.py and others); here we check the views run, react to what
+the user changes, and keep the study when an upload is bad.
+"""
+from __future__ import annotations
+
+from importlib.resources import files
+
+import pytest
+
+pytest.importorskip("streamlit")
+from streamlit.testing.v1 import AppTest  # noqa: E402
+
+from conftest import BASIC_RUNS, BASIC_STUDY, DEMO  # noqa: E402
+
+APP = str(files("tradeoff_ui") / "app.py")
+DEMO_NAME = "High-protein snack bar: texture, storage and liking (invented demo)"
+
+
+def start(page: str | None = None) -> AppTest:
+    at = AppTest.from_file(APP, default_timeout=30)
+    at.run()
+    if page is not None:
+        at.switch_page(f"pages/{page}.py")
+        at.run()
+    assert not at.exception, at.exception
+    return at
+
+
+def best_settings(at: AppTest) -> dict:
+    table = at.sidebar.dataframe[0].value
+    return dict(zip(table["factor"], table["setting"]))
+
+
+def headers(at: AppTest) -> list[str]:
+    return [h.value for h in at.header]
+
+
+@pytest.mark.parametrize("page, charts", [("study", 0), ("models", 5), ("targets", 6),
+                                          ("results", 1), ("downloads", 0)])
+def test_each_view_runs_on_the_demo(page, charts):
+    at = start(page)
+    assert not at.error, [e.value for e in at.error]
+    assert len(at.get("vega_lite_chart")) == charts
+    if page == "study":
+        assert DEMO_NAME in headers(at)
+        runs = at.dataframe[2].value
+        assert len(runs) == 20 and "protein coded" in runs.columns
+    if page == "results":
+        assert any("shelf-life" in i.value for i in at.info)  # the food caution
+        solutions = at.dataframe[0].value
+        assert list(solutions["solution"])[0] == "S1"
+    if page == "downloads":
+        assert len(at.get("download_button")) == 3
+
+
+def test_changing_a_target_changes_the_best_settings():
+    at = start("targets")
+    before = best_settings(at)
+    at.number_input(key="g1.hardness_fresh.target").set_value(14.0).run()
+    assert not at.exception and not at.error
+    after = best_settings(at)
+    assert after != before
+    # the new goal is kept when the user goes elsewhere and comes back
+    at.switch_page("pages/study.py").run()
+    at.switch_page("pages/targets.py").run()
+    assert at.number_input(key="g1.hardness_fresh.target").value == 14.0
+    assert best_settings(at) == after
+
+
+def test_dropping_a_goal_changes_the_best_settings():
+    at = start("targets")
+    before = best_settings(at)
+    at.selectbox(key="g1.cost.kind").set_value("none").run()
+    assert not at.exception and not at.error
+    assert best_settings(at) != before
+    assert len(at.get("vega_lite_chart")) == 5  # no curve for a goal that is not used
+
+
+def test_changing_a_weight_changes_the_best_settings():
+    at = start("targets")
+    before = best_settings(at)
+    at.number_input(key="g1.cost.weight").set_value(8.0).run()
+    assert not at.exception and not at.error
+    assert best_settings(at) != before
+
+
+def test_an_impossible_goal_shows_an_error_and_keeps_the_previous_goal():
+    at = start("targets")
+    before = best_settings(at)
+    at.number_input(key="g1.liking.lower").set_value(9.0).run()
+    assert any("lower (9) is not below upper (7.5)" in e.value for e in at.error)
+    assert at.number_input(key="g1.liking.lower").value == 9.0  # what was typed stays
+    assert best_settings(at) == before
+
+
+def test_a_bad_upload_shows_an_error_and_keeps_the_study():
+    at = start("study")
+    at.file_uploader[0].set_value(("broken.toml", b"[study\nname = 'x'",
+                                   "application/toml")).run()
+    assert not at.exception
+    assert any("not a valid study file" in e.value for e in at.error)
+    assert DEMO_NAME in headers(at)
+
+
+def test_uploading_a_study_with_its_data_opens_it():
+    at = start("study")
+    at.file_uploader[0].set_value([("study.toml", BASIC_STUDY.encode(), "application/toml"),
+                                   ("runs.csv", BASIC_RUNS.encode(), "text/csv")]).run()
+    assert not at.exception and not at.error
+    assert "bars" in headers(at)
+    assert len(at.dataframe[2].value) == 5
+
+
+def test_a_bare_data_table_is_opened_after_naming_its_columns():
+    at = start("study")
+    data = (DEMO.parent / "snack_bar_runs.csv").read_bytes()
+    at.file_uploader[0].set_value(("snack_bar_runs.csv", data, "text/csv")).run()
+    assert not at.exception
+    at.button[1].click().run()  # the form's submit button (after the demo button)
+    assert not at.exception and not at.error
+    assert "snack_bar_runs" in headers(at)
+    # a drafted study has no goals yet: the targets view says so in one line
+    at.switch_page("pages/targets.py").run()
+    assert not at.exception
+    assert any("no response or factor has a goal" in e.value for e in at.error)
+
+
+def test_model_choice_and_reduction():
+    at = start("models")
+    at.selectbox(key="m_response").set_value("liking").run()
+    terms_before = [m.value for m in at.metric if m.label == "Terms"][0]
+    at.checkbox(key="m_reduce.liking").check().run()
+    assert not at.exception and not at.error
+    assert any("Reduction dropped" in i.value for i in at.info)
+    terms_after = [m.value for m in at.metric if m.label == "Terms"][0]
+    assert int(terms_after) < int(terms_before)
+    at.selectbox(key="m_model.liking").set_value("main").run()
+    assert [m.value for m in at.metric if m.label == "Terms"][0] == "5"
+
+
+def test_what_if_outside_the_tested_range_is_flagged():
+    at = start("results")
+    protein = next(n for n in at.number_input if n.key.endswith(".protein"))
+    protein.set_value(34.0).run()
+    assert not at.exception
+    assert any("Outside the tested range: protein" in w.value for w in at.warning)
