@@ -147,3 +147,11 @@ def test_what_if_outside_the_tested_range_is_flagged():
     protein.set_value(34.0).run()
     assert not at.exception
     assert any("Outside the tested range: protein" in w.value for w in at.warning)
+
+
+def test_the_report_is_offered_after_preparing_it():
+    pytest.importorskip("tradeoff.report")
+    at = start("downloads")
+    at.button(key="d_prepare").click().run()
+    assert not at.exception and not at.error
+    assert len(at.get("download_button")) == 5

@@ -163,3 +163,21 @@ def what_if(study, fitted, settings: dict):
     """Predictions, intervals and chances at hand-set settings (``tradeoff.maps.what_if``)."""
     items = tuple((k, v if isinstance(v, str) else float(v)) for k, v in settings.items())
     return _what_if(study_keys(study)[1], study, fitted, items)
+
+
+@st.cache_resource(max_entries=8, show_spinner=False)
+def _report(key: str, kind: str, top: int, _study, _fit, _result, _study_bytes,
+            _data_bytes):
+    from tradeoff.report import build_report_html, build_workbook
+
+    build = build_report_html if kind == "html" else build_workbook
+    return build(_study, top=top, fit=_fit, result=_result, study_bytes=_study_bytes,
+                 data_bytes=_data_bytes)
+
+
+def report(study, fitted, result, kind: str, study_bytes=None, data_bytes=None) -> bytes:
+    """The report as HTML (``kind="html"``) or an Excel workbook (``"xlsx"``), cached."""
+    ss = st.session_state
+    key = _digest(study_keys(study)[1], ss["top"], ss["rank_by"])
+    with st.spinner("Writing the report (charts take a few seconds)..."):
+        return _report(key, kind, ss["top"], study, fitted, result, study_bytes, data_bytes)

@@ -27,6 +27,8 @@ KEYS = {
     "open_error": "the last error from opening files (kept while they stay uploaded)",
     "upload_digest": "digest of the uploaded files last tried, so each is tried once",
     "draft": "a bare data table waiting for its factor and response columns",
+    "report_ready": "True once the user asked for the report (then it follows every change)",
+    "whatif_nonce": "bumped by 'start from the chosen solution' to reset the what-if widgets",
     "epoch": "counts opened studies; part of widget keys so a new study starts fresh",
 }
 
@@ -57,9 +59,10 @@ def open_origin(origin: dict, label: str, study) -> None:
 def init() -> None:
     """Create every key once per session; on first run open the study argument or the demo."""
     ss = st.session_state
-    for key, value in (("top", 5), ("rank_by", "desirability"), ("reduce", set()), ("chosen", 0), ("whatif", {}), ("open_error", None),
-                       ("upload_digest", None), ("draft", None), ("models", {}),
-                       ("goals", {})):
+    defaults = {"top": 5, "rank_by": "desirability", "reduce": set(), "chosen": 0,
+                "whatif": {}, "open_error": None, "upload_digest": None, "draft": None,
+                "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {}}
+    for key, value in defaults.items():
         if key not in ss:
             ss[key] = value
     if "origin" not in ss:

@@ -67,3 +67,23 @@ c2.download_button("Results workbook (.xlsx)", xlsx_bytes,
 st.subheader("The report")
 if importlib.util.find_spec("tradeoff.report") is None:
     st.caption("A printable report is not available in this version.")
+else:
+    st.write("One page to hand to colleagues (opens in any web browser, prints well): "
+             "the recommendation and alternatives, the targets, each response's model, "
+             "the warnings and cautions, and the exact study with file fingerprints. "
+             "The report workbook holds the same tables for a spreadsheet.")
+    if st.button("Prepare the report", key="d_prepare") or ss["report_ready"]:
+        ss["report_ready"] = True
+        try:
+            page = cached.report(study, fitted, result, "html", study_bytes, data_bytes)
+            book = cached.report(study, fitted, result, "xlsx", study_bytes, data_bytes)
+        except TradeoffError as exc:
+            st.error(str(exc))
+        else:
+            c1, c2 = st.columns(2)
+            c1.download_button("Report (.html)", page, file_name=f"{stem}_report.html",
+                               mime="text/html", key="d_report")
+            c2.download_button(
+                "Report workbook (.xlsx)", book, file_name=f"{stem}_report.xlsx",
+                key="d_report_xlsx",
+                mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")

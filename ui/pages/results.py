@@ -126,7 +126,7 @@ else:
 # -- what-if ------------------------------------------------------------------------------
 st.subheader("What if I make it like this?")
 st.caption("Set the factors by hand; predictions update with their intervals.")
-nonce = ss.get("whatif_nonce", 0)
+nonce = ss["whatif_nonce"]
 if st.button(f"Start from {chosen.label}", key="r_whatif_reset"):
     ss["whatif"], ss["whatif_nonce"] = {}, nonce + 1
     nonce += 1
