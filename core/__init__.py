@@ -19,7 +19,8 @@ from .derived import (DERIVE_KINDS, add_derived_responses, derivation_table,
 from .designs import (GENERATOR_TABLE, Plan, TwoLevelDesign, augment_study,
                       available_designs, fold_over, fractional_design, plan_runs)
 from .aliases import alias_structure
-from .evaluation import DesignEvaluation, effect_power, evaluate_design, evaluate_plan
+from .evaluation import (DesignEvaluation, effect_power, evaluate_design, evaluate_plan,
+                         evaluate_study)
 from .runsheet import run_sheet, write_run_sheet
 
 __all__ = [
@@ -35,5 +36,5 @@ __all__ = [
     "GENERATOR_TABLE", "Plan", "TwoLevelDesign", "augment_study",
     "available_designs", "fold_over", "fractional_design", "plan_runs",
     "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",
-    "evaluate_plan", "run_sheet", "write_run_sheet",
+    "evaluate_plan", "evaluate_study", "run_sheet", "write_run_sheet",
 ]

@@ -16,7 +16,8 @@ import pandas as pd
 
 from .errors import PlanError
 
-__all__ = ["DesignEvaluation", "evaluate_design", "evaluate_plan", "effect_power"]
+__all__ = ["DesignEvaluation", "evaluate_design", "evaluate_plan", "evaluate_study",
+           "effect_power"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -187,3 +188,21 @@ def evaluate_plan(plan, model: str | Sequence[str] = "interactions", *,
     return evaluate_design(plan.factors, plan.coded.to_numpy(float), model,
                            block=block if len(np.unique(block)) > 1 else None,
                            effect=effect, sd=sd, alpha=alpha)
+
+
+def evaluate_study(study, model: str | Sequence[str] | None = None, *,
+                   effect: float | None = None, sd: float | None = None) -> DesignEvaluation:
+    """Evaluate a loaded study's runs (a ``block`` column is used when present).
+
+    ``model`` defaults to the study's model; the significance level is
+    1 - the study's confidence.
+    """
+    if study.runs is None:
+        raise PlanError(f"study '{study.name}' has no runs loaded: load it with its data")
+    if model is None:
+        model = study.terms if study.terms is not None else study.model
+    block = None
+    if "block" in study.runs.columns and study.runs["block"].nunique() > 1:
+        block = study.runs["block"].astype(str).to_numpy()
+    return evaluate_design(study.factors, study.coded().to_numpy(float), model,
+                           block=block, effect=effect, sd=sd, alpha=1 - study.confidence)

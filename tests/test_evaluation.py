@@ -122,3 +122,18 @@ def test_power_input_errors():
         evaluate_design(_factors("abc"), X, "main", effect=1.0, sd=0.0)
     with pytest.raises(PlanError, match=r"one coded column per factor \(2\)"):
         evaluate_design(_factors("ab"), X, "main")
+
+
+def test_evaluate_loaded_demo_study():
+    """The demo's 2^4 + 4 centre runs: every interaction estimable, orthogonal,
+    11 terms leave 20 - 11 = 9 degrees of freedom; the quadratic model can
+    square no factor independently (one curvature direction from centre runs)."""
+    from tradeoff.evaluation import evaluate_study
+
+    study = load_study(DEMO)
+    ev = evaluate_study(study)
+    assert ev.error_df == 9 and ev.table["estimable"].all()
+    assert np.allclose(ev.table["vif"], 1.0)
+    quad = evaluate_study(study, "quadratic")
+    squares = quad.table[quad.table["term"].str.endswith("^2")]
+    assert squares["estimable"].sum() == 1
