@@ -68,6 +68,24 @@ def build_parser() -> argparse.ArgumentParser:
     plan.add_argument("--json", action="store_true", help="print the plan as JSON")
     plan.set_defaults(run=_run_plan)
 
+    report = commands.add_parser(
+        "report", help="write the result sheet: one HTML page (.html) or a workbook (.xlsx)")
+    report.add_argument("study", help="the study file (.toml)")
+    report.add_argument("--out", required=True, metavar="FILE",
+                        help="the file to write: report.html (a page that works offline) "
+                             "or report.xlsx (a workbook)")
+    report.add_argument("--top", type=int, default=5, metavar="N",
+                        help="show the best settings and up to N-1 alternatives (default 5)")
+    report.add_argument("--seed", type=int, help="seed of the search and of the chances "
+                                                 "(default: the study's seed)")
+    report.set_defaults(run=_run_report)
+
+    confirm = commands.add_parser(
+        "confirm", help="compare the study's confirmation runs with the predictions")
+    confirm.add_argument("study", help="the study file (.toml) with [[confirmations]]")
+    confirm.add_argument("--json", action="store_true", help="print the check as JSON")
+    confirm.set_defaults(run=_run_confirm)
+
     app = commands.add_parser(
         "app", help="open the point-and-click workbench in your web browser")
     app.add_argument("study", nargs="?",
@@ -119,6 +137,31 @@ def _run_fit(args) -> int:
         print(json.dumps(report, indent=2))
     else:
         print(fit_text(report), end="")
+    return 0
+
+
+def _run_report(args) -> int:
+    from .report import write_report
+    from .study import load_study
+
+    study = load_study(args.study)
+    path = write_report(study, args.out, top=args.top, seed=args.seed)
+    print(f"wrote {path}")
+    return 0
+
+
+def _run_confirm(args) -> int:
+    from .confirm import check_confirmations, confirmation_files
+    from .provenance import provenance
+    from .study import load_study
+
+    study = load_study(args.study)
+    check = check_confirmations(study)
+    if args.json:
+        block = provenance(study, extra_files=confirmation_files(study))
+        print(json.dumps(check.to_dict() | {"provenance": block}, indent=2))
+    else:
+        print(check.text())
     return 0
 
 
