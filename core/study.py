@@ -272,6 +272,9 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         terms = _string_list(terms, fname, "[study] terms")
     constraints = tuple(_constraint(c, fname, i) for i, c in
                         enumerate(_list_of_tables(spec, "constraints", fname), start=1))
+    from .constraints import check_rules  # late: constraints reads Factor from here
+
+    check_rules(factors, constraints, fname)
     confidence = _number(head.get("confidence", 0.95), fname, "[study] confidence")
     if not 0.5 <= confidence < 1:
         raise StudyError(f"{fname}: [study] confidence = {confidence} must be a "
