@@ -9,7 +9,7 @@ of the centre runs (all numeric factors at their centre).
 from __future__ import annotations
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 __all__ = ["anova_table", "pure_error", "curvature_test"]
 
@@ -21,7 +21,7 @@ def _f_test(ss1: float, df1: int, ss2: float, df2: int) -> tuple[float, float]:
     if ms2 <= 0:
         return (np.inf, 0.0) if ss1 > 0 else (np.nan, np.nan)
     f = (ss1 / df1) / ms2
-    return float(f), float(stats.f.sf(f, df1, df2))
+    return float(f), float(special.fdtrc(df1, df2, f))  # upper tail of F(df1, df2)
 
 
 def pure_error(X: np.ndarray, y: np.ndarray) -> tuple[float, int, np.ndarray]:
@@ -30,9 +30,16 @@ def pure_error(X: np.ndarray, y: np.ndarray) -> tuple[float, int, np.ndarray]:
     Returns (ss, df, group) where ``group`` numbers the distinct settings.
     """
     key = np.round(np.asarray(X, dtype=float), 9) + 0.0  # -0.0 and 0.0 alike
-    _, group = np.unique(key, axis=0, return_inverse=True)
-    group = group.ravel()
-    g = int(group.max()) + 1 if group.size else 0
+    n = key.shape[0]
+    if n == 0:
+        return 0.0, 0, np.zeros(0, dtype=int)
+    order = np.lexsort(key.T[::-1]) if key.shape[1] else np.arange(n)
+    ks = key[order]
+    new = np.ones(n, dtype=bool)
+    new[1:] = np.any(ks[1:] != ks[:-1], axis=1)
+    group = np.empty(n, dtype=np.intp)
+    group[order] = np.cumsum(new) - 1
+    g = int(new.sum())
     counts = np.bincount(group, minlength=g)
     means = np.bincount(group, weights=y, minlength=g) / counts
     ss = float(np.sum((y - means[group]) ** 2))

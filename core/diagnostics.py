@@ -13,15 +13,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-__all__ = ["run_diagnostics", "OUTLIER_LIMIT"]
+__all__ = ["diagnostic_arrays", "run_diagnostics", "OUTLIER_LIMIT"]
 
 OUTLIER_LIMIT = 3.0  # |deleted studentized residual| beyond which a run is flagged (common practice)
 
 
-def run_diagnostics(run_ids, y: np.ndarray, fitted: np.ndarray, leverage: np.ndarray,
-                    df_resid: int, n_terms: int) -> pd.DataFrame:
-    """A table indexed by run id: observed, fitted, residual, leverage,
-    studentized, studentized_deleted, cooks_distance, flagged.
+def diagnostic_arrays(y: np.ndarray, fitted: np.ndarray, leverage: np.ndarray,
+                      df_resid: int, n_terms: int) -> dict[str, np.ndarray]:
+    """Per-run arrays: observed, fitted, residual, leverage, studentized,
+    studentized_deleted, cooks_distance, flagged.
 
     Values that do not exist (no residual degrees of freedom, leverage 1)
     are NaN.
@@ -44,7 +44,12 @@ def run_diagnostics(run_ids, y: np.ndarray, fitted: np.ndarray, leverage: np.nda
         else:
             r = t = cook = np.full_like(e, np.nan)
     flagged = np.abs(np.nan_to_num(t, nan=0.0)) > OUTLIER_LIMIT
-    return pd.DataFrame({"observed": y, "fitted": fitted, "residual": e, "leverage": h,
-                         "studentized": r, "studentized_deleted": t,
-                         "cooks_distance": cook, "flagged": flagged},
-                        index=pd.Index([str(i) for i in run_ids], name="run"))
+    return {"observed": y, "fitted": fitted, "residual": e, "leverage": h,
+            "studentized": r, "studentized_deleted": t, "cooks_distance": cook,
+            "flagged": flagged}
+
+
+def run_diagnostics(run_ids, arrays: dict[str, np.ndarray]) -> pd.DataFrame:
+    """The table of ``diagnostic_arrays`` indexed by run id."""
+    return pd.DataFrame(arrays, index=pd.Index(
+        np.asarray([str(i) for i in run_ids], dtype=object), dtype=object, name="run"))

@@ -17,15 +17,16 @@ from typing import Sequence
 
 import numpy as np
 import pandas as pd
-from scipy import stats
+from scipy import special, stats
 from scipy.linalg import solve_triangular
 
 from .anova import anova_table
-from .diagnostics import run_diagnostics
+from .diagnostics import diagnostic_arrays, run_diagnostics
 from .errors import DataError, ModelError, StudyError
 from .lenth import half_normal_points, lenth
 from .terms import (Term, find_aliases, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term, term_label)
+from .terms import qr as _qr
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 
 __all__ = ["ResponseModel", "StudyFit", "fit_study", "fit_response", "DEFAULT_ALPHA"]
@@ -36,9 +37,9 @@ DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (comm
 class _Solution:
     """A least-squares solution by QR: coefficients and what follows from them."""
 
-    def __init__(self, M: np.ndarray, z: np.ndarray):
+    def __init__(self, M: np.ndarray, z: np.ndarray, qr=None):
         n, p = M.shape
-        Q, R = np.linalg.qr(M)
+        Q, R = _qr(M) if qr is None else qr
         qty = Q.T @ z
         self.coef = solve_triangular(R, qty)
         self.fitted = Q @ qty
@@ -55,7 +56,7 @@ class _Solution:
             self.se = np.sqrt(s2 * self.cdiag)
             with np.errstate(divide="ignore", invalid="ignore"):
                 self.t = self.coef / self.se
-            self.p = 2 * stats.t.sf(np.abs(self.t), self.df)
+            self.p = 2 * special.stdtr(self.df, -np.abs(self.t))  # two-sided t test
         else:
             self.se = self.t = self.p = None
 
@@ -107,8 +108,9 @@ class ResponseModel:
         y = np.asarray(y, dtype=float).ravel()
         if y.size != X.shape[0]:
             raise ModelError(f"response '{name}': {y.size} values for {X.shape[0]} runs")
-        ids = (np.array([str(i) for i in range(1, y.size + 1)], dtype=object)
-               if run_ids is None else np.array([str(i) for i in run_ids], dtype=object))
+        # run ids stay as given; they become text only where shown (cheap fit)
+        ids = np.arange(1, y.size + 1) if run_ids is None else np.asarray(run_ids,
+                                                                            dtype=object)
         if ids.size != y.size:
             raise ModelError(f"response '{name}': {ids.size} run ids for {y.size} runs")
         bad = ~np.isfinite(X)
@@ -123,7 +125,7 @@ class ResponseModel:
         warnings: list[str] = []
         blank = np.isnan(y)
         if blank.any():
-            warnings.append(f"run(s) {', '.join(ids[blank][:10])}"
+            warnings.append(f"run(s) {', '.join(str(i) for i in ids[blank][:10])}"
                             f"{', ...' if blank.sum() > 10 else ''} have no value: left "
                             "out of this model")
         X, y, ids = X[~blank], y[~blank], ids[~blank]
@@ -136,7 +138,8 @@ class ResponseModel:
             raise ModelError(f"response '{name}' is {y[0]:g} in every run: there is "
                              "nothing to model: check the data or remove the response")
 
-        n_settings = [np.unique(np.round(X[:, j], 9)).size for j in range(len(names))]
+        Xs = np.sort(np.round(X, 9), axis=0)
+        n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
         terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name)
         warnings += notes
         keep_terms = self._pinned(self.keep, terms, "keep")
@@ -146,7 +149,7 @@ class ResponseModel:
         terms = [t for t in terms if t not in drop_terms]
 
         M = model_matrix(X, terms)
-        keep_mask, aliases = find_aliases(M, terms)
+        keep_mask, aliases, qr = find_aliases(M, terms, return_qr=True)
         clean = all(len(v) == 1 for v in aliases.values())
         if len(terms) > n and not clean:
             raise ModelError(self._too_many(len(terms), n, len(names)))
@@ -170,10 +173,12 @@ class ResponseModel:
         self.requested_terms_ = [t.label for t in terms]
         self.reduction_ = None
         if self.reduce:
-            terms, M, dropped_log = self._reduce(terms, M, z, keep_terms)
+            terms, M, dropped_log = self._reduce(terms, M, z, keep_terms, qr)
             self.reduction_ = dropped_log
+            if dropped_log:
+                qr = None
 
-        sol = _Solution(M, z)
+        sol = _Solution(M, z, qr)
         self._terms = terms
         self._sol = sol
         self._set_results(X, y, z, ids, terms, sol, aliases, warnings)
@@ -221,11 +226,11 @@ class ResponseModel:
                 f"value: a model cannot have more terms than runs: {hint}")
 
     def _reduce(self, terms: list[Term], M: np.ndarray, z: np.ndarray,
-                keep_terms: list[Term]) -> tuple[list[Term], np.ndarray, dict[str, str]]:
+                keep_terms: list[Term], qr=None) -> tuple[list[Term], np.ndarray, dict[str, str]]:
         """Hierarchical backward elimination (p-values, or Lenth's ME when saturated)."""
         pinned = hierarchy_closure(keep_terms, terms) | {"intercept"}
         log: dict[str, str] = {}
-        sol = _Solution(M, z)
+        sol = _Solution(M, z, qr)
         if sol.df == 0:
             eff_idx = [i for i, t in enumerate(terms) if not t.is_intercept and not t.is_square]
             if len(eff_idx) < 3:
@@ -329,15 +334,15 @@ class ResponseModel:
                             "centre and corners are less trustworthy (axial runs would "
                             "locate it)")
 
-        # Per-run diagnostics.
-        diag = run_diagnostics(ids, z, sol.fitted, sol.leverage, sol.df, p)
-        self.diagnostics_ = diag
-        self.residuals_ = diag["residual"].copy()
-        self.flagged_runs_ = list(diag.index[diag["flagged"]])
-        for run in self.flagged_runs_:
+        # Per-run diagnostics (the table itself is built on first use).
+        self._diag = diagnostic_arrays(z, sol.fitted, sol.leverage, sol.df, p)
+        self._ids = ids
+        flagged = self._diag["flagged"]
+        self.flagged_runs_ = [str(i) for i in ids[flagged]]
+        for run, t in zip(self.flagged_runs_, self._diag["studentized_deleted"][flagged]):
             warnings.append(f"run {run} has a studentized (deleted) residual of "
-                            f"{diag.loc[run, 'studentized_deleted']:.2f}, beyond +-3: "
-                            "check it for a recording or making error")
+                            f"{t:.2f}, beyond +-3: check it for a recording or making "
+                            "error")
         if sol.df > 0 and sol.sse <= 1e-20 * max(sst, 1e-300):
             warnings.append("the model passes through every run exactly: its standard "
                             "errors are 0 and its p-values mean nothing")
@@ -346,19 +351,55 @@ class ResponseModel:
                             f"({self.r2_:.2f}): the model may follow noise; consider "
                             "reducing it")
 
-        # Box-Cox suggestion on the natural scale with the same terms.
-        self.box_cox_ = box_cox(y, sol.Q, level=self.confidence) if sol.df > 0 else None
-        bc = self.box_cox_
-        if bc is not None and bc["suggest"] != self.transform and bc["suggest"] in TRANSFORM_NAMES \
-                and not (bc["suggest"] == "none" and self.transform != "none"
-                         and bc["low"] <= {"log": 0.0, "sqrt": 0.5}[self.transform] <= bc["high"]):
-            warnings.append(f"Box-Cox suggests transform '{bc['suggest']}' (lambda "
-                            f"{bc['lambda']:.2f}, range {bc['low']:.2f} to "
-                            f"{bc['high']:.2f}); this model uses '{self.transform}'")
+        # Box-Cox suggestion on the natural scale with the same terms: on first use.
+        self._box_cox_input = (y, sol.Q) if sol.df > 0 else None
+        self._box_cox = None
         self.natural_coefficients_ = self._natural(terms, sol.coef)
-        self.warnings_ = warnings
+        self._warnings = warnings
         # What prediction needs, precomputed once.
         self._Rinv = sol.Rinv
+
+    @property
+    def box_cox_(self) -> dict | None:
+        """Box-Cox lambda (with its likelihood interval) and the suggested transform.
+
+        None when some value is 0 or negative or no residual degrees of freedom are
+        left. Computed on first use: it is not needed for predictions.
+        """
+        self._check_fitted()
+        if self._box_cox is None and self._box_cox_input is not None:
+            y, Q = self._box_cox_input
+            self._box_cox = box_cox(y, Q, level=self.confidence) or {}
+            self._box_cox_input = None
+        return self._box_cox or None
+
+    @property
+    def warnings_(self) -> list[str]:
+        """What the user should know about this model, one sentence each."""
+        self._check_fitted()
+        out = list(self._warnings)
+        bc = self.box_cox_
+        current = {"none": 1.0, "sqrt": 0.5, "log": 0.0}[self.transform]
+        if bc is not None and bc["suggest"] in TRANSFORM_NAMES and \
+                bc["suggest"] != self.transform and not bc["low"] <= current <= bc["high"]:
+            out.append(f"Box-Cox suggests transform '{bc['suggest']}' (lambda "
+                       f"{bc['lambda']:.2f}, range {bc['low']:.2f} to {bc['high']:.2f}); "
+                       f"this model uses '{self.transform}'")
+        return out
+
+    @property
+    def residuals_(self) -> pd.Series:
+        """Residuals (observed - fitted, modelling scale) indexed by run id (text)."""
+        self._check_fitted()
+        return pd.Series(self._diag["residual"], index=pd.Index(
+            [str(i) for i in self._ids], dtype=object, name="run"), name=self.name)
+
+    @property
+    def diagnostics_(self) -> pd.DataFrame:
+        """Per-run table indexed by run id: observed, fitted, residual, leverage,
+        studentized, studentized_deleted, cooks_distance, flagged (modelling scale)."""
+        self._check_fitted()
+        return run_diagnostics(self._ids, self._diag)
 
     def _natural(self, terms: list[Term], coef: np.ndarray) -> dict[str, float] | None:
         """The fitted equation with numeric factors in natural units.

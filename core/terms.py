@@ -8,16 +8,18 @@ Internally a term is a tuple of powers, one per factor in study order.
 from __future__ import annotations
 
 import difflib
+import functools
 import itertools
 from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
+from scipy.linalg import qr as _scipy_qr
 
 from .errors import ModelError
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
-           "find_aliases", "hierarchy_closure", "named_model_size"]
+           "qr", "find_aliases", "hierarchy_closure", "named_model_size"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 
@@ -142,6 +144,24 @@ def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
     -------
     terms, notes : the terms (intercept first, then by order) and remarks for the user.
     """
+    key_spec = spec if isinstance(spec, str) else tuple(spec) if not isinstance(
+        spec, (bytes, dict)) else spec
+    try:
+        terms, notes = _model_terms_cached(
+            key_spec, tuple(factor_names),
+            None if n_settings is None else tuple(int(v) for v in n_settings), response)
+    except TypeError:  # unhashable: let the uncached path explain what is wrong
+        terms, notes = _model_terms(spec, factor_names, n_settings, response)
+    return list(terms), list(notes)
+
+
+@functools.lru_cache(maxsize=256)
+def _model_terms_cached(spec, factor_names, n_settings, response):
+    terms, notes = _model_terms(spec, factor_names, n_settings, response)
+    return tuple(terms), tuple(notes)
+
+
+def _model_terms(spec, factor_names, n_settings, response):
     names = list(factor_names)
     k = len(names)
     notes: list[str] = []
@@ -233,7 +253,7 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
         X = X.reshape(1, -1)
     X = np.asfortranarray(X)  # contiguous columns: the products below read columns
     n = X.shape[0]
-    out = np.empty((n, len(terms)))
+    out = np.empty((n, len(terms)), order="F")  # columns contiguous, as LAPACK wants
     cache: dict[tuple[int, ...], np.ndarray] = {}
     for i, t in enumerate(terms):
         f = t.factors
@@ -256,7 +276,12 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
     return out
 
 
-def find_aliases(M: np.ndarray, terms: Sequence[Term]) -> tuple[np.ndarray, dict[str, list[str]]]:
+def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Economic QR of a model matrix (Q is n x p, R is p x p upper triangular)."""
+    return _scipy_qr(np.asfortranarray(M), mode="economic", check_finite=False)
+
+
+def find_aliases(M: np.ndarray, terms: Sequence[Term], *, return_qr: bool = False):
     """Which columns of the model matrix the runs can estimate.
 
     Columns are taken in order; a column that is a linear combination of the
@@ -267,16 +292,18 @@ def find_aliases(M: np.ndarray, terms: Sequence[Term]) -> tuple[np.ndarray, dict
     -------
     keep : boolean mask over the columns.
     aliases : dropped label -> kept labels it is aliased with.
+    qr : only with ``return_qr``: the reduced (Q, R) of M when every column is
+        kept (so a fit need not factor M again), else None.
     """
     n, p = M.shape
     norms = np.linalg.norm(M, axis=0)
     keep = np.zeros(p, dtype=bool)
     if p <= n:
-        R = np.linalg.qr(M, mode="r")
+        Q, R = qr(M)
         diag = np.abs(np.diag(R))
         if np.all(diag > _ALIAS_TOL * np.maximum(norms, 1e-300)) and np.all(norms > 0):
             keep[:] = True
-            return keep, {}
+            return (keep, {}, (Q, R)) if return_qr else (keep, {})
     # Sequential Gram-Schmidt (twice, for stability) over the columns in order:
     # exact, and it never lets a dropped column's rounding noise take a dimension.
     basis = np.empty((n, min(n, p)))
@@ -304,4 +331,4 @@ def find_aliases(M: np.ndarray, terms: Sequence[Term]) -> tuple[np.ndarray, dict
         b = np.linalg.lstsq(Mk, M[:, j], rcond=None)[0]
         big = np.abs(b) > 1e-6 * max(1.0, np.abs(b).max())
         aliases[terms[j].label] = [terms[kept_idx[i]].label for i in np.flatnonzero(big)]
-    return keep, aliases
+    return (keep, aliases, None) if return_qr else (keep, aliases)

@@ -84,7 +84,7 @@ def box_cox(y, Q: np.ndarray, *, level: float = 0.95) -> dict | None:
         s = np.maximum(sse(lams), 1e-300)
         return -0.5 * n * np.log(s / n)
 
-    grid = np.linspace(-3, 3, 121)
+    grid = np.linspace(-3, 3, 61)
     ll = loglik(grid)
     i = int(np.argmax(ll))
     lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, grid.size - 1)]
@@ -93,10 +93,8 @@ def box_cox(y, Q: np.ndarray, *, level: float = 0.95) -> dict | None:
     lam = float(res.x)
     lmax = float(-res.fun)
     cut = lmax - 0.5 * stats.chi2.ppf(level, 1)
-    inside = grid[ll >= cut]
-    low = float(inside.min()) if inside.size else lam
-    high = float(inside.max()) if inside.size else lam
-    low, high = min(low, lam), max(high, lam)
+    low = _edge(grid, ll, cut, lam, lmax, -1)
+    high = _edge(grid, ll, cut, lam, lmax, +1)
 
     def within(v: float) -> bool:
         return loglik(v)[0] >= cut
@@ -108,3 +106,18 @@ def box_cox(y, Q: np.ndarray, *, level: float = 0.95) -> dict | None:
         fits.sort(key=lambda name: abs(_LAMBDA_OF[name] - lam))
         suggest = fits[0] if fits else "other"
     return {"lambda": lam, "low": low, "high": high, "suggest": suggest}
+
+
+def _edge(grid: np.ndarray, ll: np.ndarray, cut: float, lam: float, lmax: float,
+          side: int) -> float:
+    """Where the log-likelihood falls to ``cut`` going left (-1) or right (+1) of lam,
+    by linear interpolation on the grid; the grid's end when it never does."""
+    i = int(np.searchsorted(grid, lam))
+    idx = range(i - 1, -1, -1) if side < 0 else range(i, grid.size)
+    prev_x, prev_y = lam, lmax
+    for j in idx:
+        if ll[j] < cut:
+            w = (prev_y - cut) / (prev_y - ll[j])
+            return float(prev_x + w * (grid[j] - prev_x))
+        prev_x, prev_y = grid[j], ll[j]
+    return float(grid[0] if side < 0 else grid[-1])
