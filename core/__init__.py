@@ -10,6 +10,7 @@ from .errors import (DataError, ModelError, PlanError, SearchError, StudyError,
                      TradeoffError)
 from .study import Factor, Goal, Response, Study, load_study, study_from_dict
 from .coding import to_coded, to_natural
+from .models import ResponseModel, StudyFit, fit_response, fit_study
 from .storage import (SHELF_LIFE_CAUTION, fit_kinetics, interpolate_at, read_storage,
                       time_to_limit)
 from .panel import (PANEL_CAUTION, adjusted_means, assessor_agreement, read_panel,
@@ -29,6 +30,7 @@ __all__ = [
     "PlanError",
     "Factor", "Goal", "Response", "Study", "load_study", "study_from_dict",
     "to_coded", "to_natural",
+    "ResponseModel", "StudyFit", "fit_response", "fit_study",
     "SHELF_LIFE_CAUTION", "fit_kinetics", "interpolate_at", "read_storage",
     "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
     "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",

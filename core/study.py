@@ -41,6 +41,8 @@ SECTION_KEYS: dict[str, set[str]] = {
               "confidence", "seed"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
+    # terms pinned in or out of a response's model (core/models.py)
+    | {"keep_terms", "drop_terms"}
     # derived responses (core/derived.py): computed from [storage] or [panel]
     | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
        "direction", "min_points", "extrapolate"},
