@@ -107,7 +107,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
                          "runs")
     if not isinstance(top, int) or isinstance(top, bool) or top < 1:
         raise StudyError(f"top must be a whole number of at least 1, found {top!r}")
-    seed = study.seed if seed is None else int(seed)
+    if seed is None:  # a result handed in already says which seed it used
+        seed = int(result.seed) if result is not None else study.seed
+    seed = int(seed)
     fit = fit_study(study) if fit is None else fit
     search_note = None
     if result is None:
