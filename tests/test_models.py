@@ -424,3 +424,13 @@ def test_bad_input_messages():
     m = ResponseModel(terms="main", factor_names=["a", "b"]).fit(X, [1, 2, 3, 5.0])
     with pytest.raises(ModelError, match=r"one column per factor"):
         m.predict(np.zeros((3, 3)))
+
+
+def test_study_file_pins_terms(write_study):
+    study = load_study(write_study(STUDY.replace(
+        'name = "hardness"\n',
+        'name = "hardness"\ndrop_terms = ["glycerol:binder"]\nkeep_terms = ["protein:binder"]\n'),
+        RUNS))
+    m = fit_response(study, "hardness", reduce=True)
+    assert "glycerol:binder" not in m.requested_terms_
+    assert {"protein", "binder", "protein:binder"} <= set(m.terms_)
