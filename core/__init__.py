@@ -23,6 +23,11 @@ from .aliases import alias_structure
 from .evaluation import (DesignEvaluation, effect_power, evaluate_design, evaluate_plan,
                          evaluate_study)
 from .runsheet import run_sheet, write_run_sheet
+from .desirability import combine_desirability, desirability, limits, shortfall
+from .constraints import LinearRule, parse_rule, rule_arrays, study_rules
+from .chance import ChanceEstimate, chance_in_limits
+from .search import (OptimizationResult, ResponseOutcome, Solution, goal_columns,
+                     optimize, overall_desirability)
 
 __all__ = [
     "__version__",
@@ -39,4 +44,9 @@ __all__ = [
     "available_designs", "fold_over", "fractional_design", "plan_runs",
     "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",
     "evaluate_plan", "evaluate_study", "run_sheet", "write_run_sheet",
+    "combine_desirability", "desirability", "limits", "shortfall",
+    "LinearRule", "parse_rule", "rule_arrays", "study_rules",
+    "ChanceEstimate", "chance_in_limits",
+    "OptimizationResult", "ResponseOutcome", "Solution", "goal_columns", "optimize",
+    "overall_desirability",
 ]

@@ -33,9 +33,11 @@ class ChanceEstimate:
     responses : tuple of str
         The responses with a goal, in study order (columns of ``each``).
     each : numpy.ndarray, shape (n, m)
-        Chance that each response lands within its limits.
+        Chance that each response lands within its limits (NaN for a response
+        whose model has no estimate of run-to-run error).
     all : numpy.ndarray, shape (n,)
-        Chance that every one of them does at the same time.
+        Chance that every one of them does at the same time (NaN when any
+        single chance is unknown).
     draws : int
         Number of Monte Carlo draws (the standard error of a chance p is
         ``sqrt(p * (1 - p) / draws)``).
@@ -132,6 +134,7 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
     U = special.ndtr(Z)
     inside_all = np.ones((n, draws), dtype=bool)
     each = np.empty((n, m))
+    unknown = []
     for i, name in enumerate(names):
         model = used[name]
         mean, se, sigma, df = model.predictive(X)
@@ -139,7 +142,13 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         se = np.broadcast_to(np.asarray(se, dtype=float), (n,))
         sigma = float(np.asarray(sigma, dtype=float).ravel()[0])
         df = float(np.asarray(df, dtype=float).ravel()[0])
-        q = stats.t.ppf(U[:, i], df) if np.isfinite(df) and df > 0 else Z[:, i]
+        if not (np.isfinite(sigma) and np.isfinite(df) and df > 0):
+            # No error estimate (a saturated model without one): no chance can be given.
+            each[:, i] = np.nan
+            inside_all[:] = False
+            unknown.append(name)
+            continue
+        q = stats.t.ppf(U[:, i], df)
         scale = np.sqrt(se ** 2 + sigma ** 2)
         y = mean[:, None] + scale[:, None] * q[None, :]
         y = np.asarray(model.inverse_transform(y), dtype=float).reshape(n, draws)
@@ -148,5 +157,9 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         each[:, i] = ok.mean(axis=1)
         inside_all &= ok
     frame = pd.DataFrame(R, index=names, columns=names)
-    return ChanceEstimate(tuple(names), each, inside_all.mean(axis=1), draws, is_corr,
-                          frame, assumption)
+    together = inside_all.mean(axis=1)
+    if unknown:
+        together = np.full(n, np.nan)
+        assumption += ("; no chance for " + ", ".join(f"'{u}'" for u in unknown)
+                       + " (its model has no estimate of run-to-run error)")
+    return ChanceEstimate(tuple(names), each, together, draws, is_corr, frame, assumption)

@@ -86,6 +86,21 @@ def build_parser() -> argparse.ArgumentParser:
     confirm.add_argument("--json", action="store_true", help="print the check as JSON")
     confirm.set_defaults(run=_run_confirm)
 
+    best = commands.add_parser(
+        "optimize", help="find the settings that best balance every goal, with alternatives")
+    best.add_argument("study", help="the study file (.toml) with goals")
+    best.add_argument("--json", action="store_true", help="print the result as JSON")
+    best.add_argument("--top", type=_at_least_one, default=5, metavar="N",
+                      help="show the best settings and up to N-1 distinct alternatives "
+                           "(default 5)")
+    best.add_argument("--seed", type=int, default=None, metavar="S",
+                      help="seed of the search and of the chances (default: the study's seed)")
+    best.add_argument("--rank-by", choices=("desirability", "chance"),
+                      default="desirability",
+                      help="order solutions by overall desirability (default) or by the "
+                           "chance of meeting every limit")
+    best.set_defaults(run=_run_optimize)
+
     app = commands.add_parser(
         "app", help="open the point-and-click workbench in your web browser")
     app.add_argument("study", nargs="?",
@@ -94,6 +109,29 @@ def build_parser() -> argparse.ArgumentParser:
                      help="the local port to serve on (default 8501)")
     app.set_defaults(run=_run_app)
     return parser
+
+
+def _at_least_one(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, found '{text}'") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected at least 1, found {value}")
+    return value
+
+
+def _run_optimize(args) -> int:
+    from .search import optimize
+    from .study import load_study
+
+    study = load_study(args.study)
+    result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by)
+    if args.json:
+        print(json.dumps(result.to_dict(), indent=2))
+    else:
+        print(result.text())
+    return 0
 
 
 def _run_plan(args) -> int:
@@ -190,7 +228,7 @@ def _run_app(args) -> int:
     argv = [sys.executable, "-m", "streamlit", "run", str(app_file),
             "--server.address", "127.0.0.1", "--server.port", str(args.port),
             "--server.headless", "true", "--browser.gatherUsageStats", "false",
-            "--", str(study.resolve())]
+            "--client.toolbarMode", "minimal", "--", str(study.resolve())]
     print(f"Opening the workbench: open http://127.0.0.1:{args.port} in your web "
           "browser (press Ctrl+C here to stop it)", flush=True)
     # Replace this process, so stopping it (Ctrl+C, kill) stops the server too.

@@ -126,7 +126,7 @@ class Solution:
             "rank": self.rank, "label": self.label,
             "settings": {k: (v if isinstance(v, str) else r(v))
                          for k, v in self.settings.items()},
-            "coded": {k: r(v) for k, v in self.coded.items()},
+            "coded": {k: (v if isinstance(v, int) else r(v)) for k, v in self.coded.items()},
             "desirability": r(self.desirability),
             "responses": {
                 name: {"predicted": r(o.predicted), "desirability": r(o.desirability),
@@ -736,7 +736,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     chance_col = {n: i for i, n in enumerate(chances.responses)}
     order = np.arange(len(X))
     if rank_by == "chance":
-        order = np.lexsort((-D, -chances.all))
+        order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
     order = order[:top]
     by_d = {int(i): n for n, i in enumerate(np.lexsort((S, -D)), start=1)}
     general = _general_warnings(study, problem, models, fit)
@@ -765,7 +765,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 desirability=float(d[i, col]) if col is not None else None,
                 ci=(float(row["ci_low"]), float(row["ci_high"])),
                 pi=(float(row["pi_low"]), float(row["pi_high"])),
-                chance_in_limits=(float(chances.each[i, chance_col[r.name]])
+                chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
                                   if r.name in chance_col else None))
             predictions[r.name] = float(row["predicted"])
         factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
@@ -775,7 +775,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             rank=rank, label=f"S{by_d[i]}", settings=settings, coded=coded,
             desirability=float(D[i]), predictions=predictions, responses=outcomes,
             factor_desirability=factor_d,
-            chance_all=float(chances.all[i]) if chances.responses else None,
+            chance_all=_finite(chances.all[i]) if chances.responses else None,
             out_of_limits=out, shortfall=float(S[i]),
             warnings=tuple(_point_warnings(study, problem, x, D[i]) + general)))
     assumptions = (
@@ -841,6 +841,11 @@ def _point_warnings(study, problem, x, D) -> list[str]:
                            f"settings ({_g(tested.min())}..{_g(tested.max())}{unit}): the "
                            "predictions there extrapolate the models")
     return out
+
+
+def _finite(x) -> float | None:
+    x = float(x)
+    return x if math.isfinite(x) else None
 
 
 def _g(x: float) -> str:

@@ -1,0 +1,247 @@
+"""The best-settings search.
+
+Checks: the published Derringer & Suich (1980) optimum (also NIST/SEMATECH
+e-Handbook 5.5.3.2.2) reproduced from the data; seeded random problems
+against an independent exhaustive grid plus Nelder-Mead polish written from
+the published desirability formulas (tests/search_problems.py); rules,
+categorical factors and the D = 0 fallback against direct grid searches.
+"""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from search_problems import (d_overall_reference, dense_grid_optimum, design_matrix,
+                             random_problem)
+from tradeoff import load_study, optimize, overall_desirability
+from tradeoff.cli import main
+from tradeoff.errors import SearchError
+from tradeoff.study import study_from_dict
+
+DATA = Path(__file__).parent / "data"
+TIRE = DATA / "tire_tread_1980.toml"
+DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "snack_bar.toml"
+
+
+@pytest.fixture(scope="module")
+def tire_result():
+    return optimize(load_study(TIRE), top=3, seed=0)
+
+
+def test_published_tire_tread_optimum(tire_result):
+    # Derringer & Suich (1980): x = (-0.05, 0.145, -0.868), D = 0.583;
+    # predictions y1 = 129.5, y2 = 1300, y3 = 465.7, y4 = 68.0.
+    best = tire_result.best
+    assert best.desirability == pytest.approx(0.583, abs=0.002)
+    coded = [best.coded[n] for n in ("x1", "x2", "x3")]
+    assert coded == pytest.approx([-0.05, 0.145, -0.868], abs=0.02)
+    assert best.predictions["y1"] == pytest.approx(129.5, abs=0.5)
+    assert best.predictions["y2"] == pytest.approx(1300, abs=3)
+    assert best.predictions["y3"] == pytest.approx(465.7, abs=1.0)
+    assert best.predictions["y4"] == pytest.approx(68.0, abs=0.1)
+    assert best.settings["x1"] == pytest.approx(best.coded["x1"])  # low/high = -1/+1
+
+
+def test_result_shape(tire_result):
+    r = tire_result
+    assert r.solutions[0] is r.best
+    assert isinstance(r.best.desirability, float)
+    assert set(r.best.predictions) == {"y1", "y2", "y3", "y4"}
+    out = r.best.responses["y3"]
+    assert out.ci[0] < out.predicted < out.ci[1]
+    assert out.pi[0] < out.ci[0] and out.pi[1] > out.ci[1]
+    assert 0 <= out.chance_in_limits <= 1 and 0 <= r.best.chance_all <= 1
+    assert r.best.chance_all <= min(o.chance_in_limits for o in r.best.responses.values())
+    table = r.table()
+    assert list(table.columns[:5]) == ["solution", "rank", "x1", "x2", "x3"]
+    assert {"response", "predicted", "desirability", "ci_low", "ci_high", "pi_low",
+            "pi_high", "chance_in_limits"} <= set(table.columns)
+    assert len(table) == 4 * len(r.solutions)
+    # y2's quadratic predicts poorly from these 20 runs (PRESS-based R2 below 0.5)
+    assert any("'y2' predicts poorly" in w for w in r.best.warnings)
+
+
+def test_same_seed_same_answer(tire_result):
+    again = optimize(load_study(TIRE), top=3, seed=0)
+    assert again.to_dict() == tire_result.to_dict()
+
+
+def test_overall_desirability_helper_matches_reference():
+    study = load_study(TIRE)
+    from tradeoff.models import fit_study
+
+    fit = fit_study(study)
+    X = np.random.default_rng(0).uniform(-1, 1, (50, 3))
+    D, d = overall_desirability(study, fit, X)
+    assert d.shape == (50, 4)
+    assert D == pytest.approx(d_overall_reference(X, study, fit), abs=1e-12)
+
+
+@pytest.mark.parametrize("seed, k, m, kind", [
+    (101, 2, 3, "quadratic"), (102, 3, 4, "interactions"), (103, 2, 6, "quadratic"),
+    (104, 4, 2, "quadratic"), (105, 3, 5, "quadratic"),
+])
+def test_random_problems_match_dense_grid(seed, k, m, kind):
+    study, fit = random_problem(seed, k=k, m=m, kind=kind)
+    result = optimize(study, fit=fit, top=3, seed=0, draws=500)
+    x = np.array([result.best.coded[f.name] for f in study.factors])
+    # the reported D is the D of the reported settings (independent formula)
+    assert result.best.desirability == pytest.approx(
+        d_overall_reference(x[None, :], study, fit)[0], abs=1e-9)
+    grid_D, _ = dense_grid_optimum(study, fit)
+    assert result.best.desirability >= grid_D - 1e-3
+    # alternatives are distinct and not better than the best
+    Ds = [s.desirability for s in result.solutions]
+    assert Ds == sorted(Ds, reverse=True)
+
+
+def _two_factor(extra=None, categorical=False):
+    study, fit = random_problem(103, k=2, m=6, kind="quadratic")
+    spec = dict(study.spec)
+    if categorical:
+        spec["factors"] = [spec["factors"][0], {"name": "x2", "levels": ["a", "b"]}]
+    if extra:
+        spec.update(extra)
+    study = study_from_dict(spec, with_data=False)
+    fit.study = study
+    return study, fit
+
+
+def _grid(n=401):
+    axis = np.linspace(-1, 1, n)
+    return np.array(np.meshgrid(axis, axis, indexing="ij")).reshape(2, -1).T
+
+
+def test_linear_rule_is_respected_and_optimal():
+    # x in natural units 0..10; rule x1 + x2 <= 9 cuts off part of the square.
+    study, fit = _two_factor({"constraints": [{"rule": "x1 + x2 <= 9"}]})
+    result = optimize(study, fit=fit, top=2, seed=0, draws=500)
+    s = result.best.settings
+    assert s["x1"] + s["x2"] <= 9 + 1e-6
+    G = _grid()
+    ok = (5 + 5 * G[:, 0]) + (5 + 5 * G[:, 1]) <= 9
+    grid_best = d_overall_reference(G[ok], study, fit).max()
+    assert result.best.desirability >= grid_best - 1e-3
+    free = optimize(_two_factor()[0], fit=fit, top=1, seed=0, draws=500)
+    assert result.best.desirability <= free.best.desirability + 1e-9
+
+
+def test_categorical_factor_searched_over_levels():
+    study, fit = _two_factor(categorical=True)
+    result = optimize(study, fit=fit, top=4, seed=0, draws=500)
+    assert result.best.settings["x2"] in ("a", "b")
+    assert result.best.coded["x2"] in (-1, 1)
+    axis = np.linspace(-1, 1, 4001)
+    best = max(d_overall_reference(np.column_stack([axis, np.full_like(axis, v)]),
+                                   study, fit).max() for v in (-1.0, 1.0))
+    assert result.best.desirability >= best - 1e-4
+    assert result.best.desirability <= best + 1e-4
+
+
+def test_zero_desirability_everywhere_returns_closest_settings():
+    # y1 must exceed a value its polynomial never reaches in the region: the
+    # closest settings are where y1 is largest (found here on a fine grid).
+    study, fit = _two_factor()
+    G = _grid()
+    y1 = fit.models["y1"].predict(G)
+    spec = dict(study.spec)
+    spec["responses"] = [dict(spec["responses"][0], goal="maximize",
+                              lower=float(y1.max()) + 5, upper=float(y1.max()) + 10)]
+    spec["responses"][0].pop("target", None)
+    study = study_from_dict(spec, with_data=False)
+    result = optimize(study, fit=fit, top=2, seed=0, draws=500)
+    assert not result.feasible
+    assert result.unreachable == ("y1",)
+    assert result.best.desirability == 0.0 and result.best.out_of_limits == ("y1",)
+    assert result.best.predictions["y1"] >= y1.max() - 1e-3
+    assert "D = 0 everywhere" in result.text()
+
+
+def test_rank_by_chance_orders_by_chance():
+    study, fit = random_problem(105, k=3, m=5, kind="quadratic")
+    result = optimize(study, fit=fit, top=4, seed=0, draws=2000, rank_by="chance")
+    chances = [s.chance_all for s in result.solutions]
+    assert chances == sorted(chances, reverse=True)
+    assert [s.rank for s in result.solutions] == list(range(1, len(chances) + 1))
+
+
+def test_demo_study_edge_warning():
+    result = optimize(load_study(DEMO), top=2, seed=0)
+    assert result.best.settings["binder"] in ("rice syrup", "date paste")
+    edges = [w for w in result.best.warnings if "edge of the searched region" in w]
+    at_edge = [n for n, v in result.best.coded.items()
+               if n != "binder" and abs(abs(v) - 1) < 1e-3]
+    assert at_edge and len(edges) == len(at_edge)
+
+
+def test_setting_outside_the_data_is_flagged(tmp_path):
+    # search x1 over -3..-2 only: the tested x1 span -1.633..1.633 (axial runs)
+    text = TIRE.read_text(encoding="utf-8").replace(
+        'name = "x1"\nlabel = "hydrated silica level"\nlow = -1\nhigh = 1\n',
+        'name = "x1"\nlabel = "hydrated silica level"\nlow = -1\nhigh = 1\n'
+        'search = [-3, -2]\n')
+    assert "search = [-3, -2]" in text
+    (tmp_path / "t.toml").write_text(text.replace('"tire_tread_1980.csv"',
+                                                  f'"{DATA / "tire_tread_1980.csv"}"'),
+                                     encoding="utf-8")
+    result = optimize(load_study(tmp_path / "t.toml"), top=1, seed=0)
+    assert -3 - 1e-9 <= result.best.settings["x1"] <= -2 + 1e-9
+    assert any("'x1' =" in w and "outside the tested settings (-1.633..1.633)" in w
+               for w in result.best.warnings)
+
+
+def test_errors():
+    study, fit = random_problem(101, k=2, m=2, kind="quadratic")
+    with pytest.raises(SearchError, match="rank_by = 'luck'"):
+        optimize(study, fit=fit, rank_by="luck")
+    with pytest.raises(SearchError, match="top must be"):
+        optimize(study, fit=fit, top=0)
+    spec = dict(study.spec)
+    spec["responses"] = [{"name": r["name"]} for r in spec["responses"]]
+    with pytest.raises(SearchError, match="no response or factor has a goal"):
+        optimize(study_from_dict(spec, with_data=False), fit=fit)
+    spec = dict(study.spec, constraints=[{"rule": "x1 + x2 >= 30"}])
+    with pytest.raises(SearchError, match="no setting inside the search ranges meets"):
+        optimize(study_from_dict(spec, with_data=False), fit=fit)
+
+
+def test_factor_goal_takes_part():
+    # a goal on a factor: minimise x1 with a weight, D must include it
+    study, fit = _two_factor()
+    spec = dict(study.spec)
+    spec["factors"] = [dict(spec["factors"][0], goal="minimize", lower=0.0, upper=10.0),
+                       spec["factors"][1]]
+    study2 = study_from_dict(spec, with_data=False)
+    result = optimize(study2, fit=fit, top=1, seed=0, draws=500)
+    x = result.best.settings["x1"]
+    assert result.best.factor_desirability["x1"] == pytest.approx((10 - x) / 10)
+    # by hand: D = (prod d_i^w_i * d_x1)^(1 / (sum w_i + 1)) with d_x1 = (10 - x1)/10
+    G = _grid()
+    W = sum(r.get("weight", 1.0) for r in spec["responses"])
+    responses_part = d_overall_reference(G, study, fit) ** W
+    d_x1 = (10 - (5 + 5 * G[:, 0])) / 10
+    D = (responses_part * d_x1) ** (1 / (W + 1))
+    assert result.best.desirability >= D.max() - 1e-3
+
+
+def test_cli_json_shape(capsys):
+    assert main(["optimize", str(TIRE), "--json", "--top", "2", "--seed", "0"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    best = out["best"]
+    assert {"settings", "coded", "desirability", "responses", "chance_all",
+            "warnings"} <= set(best)
+    assert set(best["responses"]["y1"]) >= {"predicted", "desirability", "ci", "pi",
+                                            "chance_in_limits"}
+    assert len(best["responses"]["y1"]["ci"]) == 2
+    assert out["solutions"][0] == best
+    assert best["desirability"] == pytest.approx(0.583, abs=0.002)
+    assert main(["optimize", str(TIRE)]) == 0
+    assert "Best settings" in capsys.readouterr().out
+
+
+def test_cli_error_exit(tmp_path, capsys):
+    assert main(["optimize", str(tmp_path / "missing.toml")]) == 2
+    assert capsys.readouterr().err.startswith("error: ")
