@@ -327,6 +327,8 @@ class ConfirmationCheck:
                 mark = "inside " if row["inside"] else "OUTSIDE"
                 if math.isnan(row["predicted"]):
                     mark = "no model"
+                elif math.isnan(row["pi_low"]):
+                    mark = "no interval"
                 measured = _num(row["measured"]) + (f" (mean of {row['m']})"
                                                     if row["m"] > 1 else "")
                 lines.append(f"    {row['response']:<20} measured {measured}  predicted "
@@ -418,8 +420,12 @@ def check_confirmations(study, *, fit=None, confidence: float | None = None,
             mean, se_mean, sigma, df = (np.broadcast_to(np.asarray(a, dtype=float),
                                                         (len(order),))
                                         for a in model.predictive(x_groups))
-            tq = stats.t.ppf(0.5 + level / 2.0, df)
-            half = tq * np.sqrt(se_mean ** 2 + sigma ** 2 / np.maximum(counts, 1))
+            # No error estimate (a saturated model without Lenth's fallback): no
+            # interval, so nothing to compare with.
+            usable = (df > 0) & np.isfinite(sigma) & np.isfinite(se_mean)
+            tq = stats.t.ppf(0.5 + level / 2.0, np.where(usable, df, 1.0))
+            half = np.where(usable, tq * np.sqrt(
+                se_mean ** 2 + sigma ** 2 / np.maximum(counts, 1)), np.nan)
             ybar = sums / np.maximum(counts, 1)
             inside = np.abs(ybar - mean) <= half
             predicted = _inverse(model, mean)
@@ -463,6 +469,13 @@ def _verdict(study, fit, response, table: pd.DataFrame, level: float) -> dict:
                        "advice": f"this response has no model{reason}, so there is no "
                                  "interval to compare with"}
     pct = f"{level:.0%}"
+    part = part[part["pi_low"].notna()]
+    if part.empty:
+        return base | {"checked": 0, "inside": 0, "verdict": "not checked",
+                       "advice": "the model has no error estimate (no residual degrees "
+                                 "of freedom), so it gives no prediction interval: add "
+                                 "replicate or centre runs to the design"}
+    base |= {"checked": int(len(part)), "inside": int(part["inside"].sum())}
     far = part[part["outside_region"]]
     region = (" Settings of group(s) " + ", ".join(far["group"]) + " lie outside the "
               "tested region, where the model extrapolates." if len(far) else "")

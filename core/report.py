@@ -702,9 +702,14 @@ class _Page:
         names = [c for c in check.table.columns if c in self.study.factor_names]
         rows = []
         for _, row in check.table.iterrows():
-            inside = ('<span class="tag good">inside</span>' if row["inside"] else
-                      '<span class="tag bad">outside</span>' if row["predicted"] ==
-                      row["predicted"] else '<span class="tag none">no model</span>')
+            if row["predicted"] != row["predicted"]:
+                inside = '<span class="tag none">no model</span>'
+            elif row["pi_low"] != row["pi_low"]:
+                inside = '<span class="tag none">no interval</span>'
+            elif row["inside"]:
+                inside = '<span class="tag good">inside</span>'
+            else:
+                inside = '<span class="tag bad">outside</span>'
             settings = ", ".join(f"{esc(n)} {esc(self._setting(n, row[n]))}"
                                  for n in names)
             rows.append([esc(row["group"]), esc(row["runs"]), settings,
@@ -1013,7 +1018,8 @@ def _svg(chart) -> str:
     """Render an Altair chart to inline SVG (vl-convert: no browser, no network)."""
     import vl_convert
 
-    svg = vl_convert.vegalite_to_svg(chart.to_json())
+    # The specification is built here from checked numbers: skip schema validation.
+    svg = vl_convert.vegalite_to_svg(chart.to_json(validate=False))
     if svg.startswith("<?xml"):
         svg = svg[svg.index("?>") + 2:]
     return svg

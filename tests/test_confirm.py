@@ -285,3 +285,20 @@ def test_cli_confirm_without_runs_exits_2(tmp_path, capsys):
     err = capsys.readouterr().err
     assert err.startswith("error: ") and "no confirmation runs" in err
     assert len(err.strip().splitlines()) == 1
+
+
+def test_model_without_error_estimate_is_not_checked(tmp_path):
+    # Two runs, one factor, main-effects model: no residual degrees of freedom and
+    # too few effects for Lenth's method (it needs several; common practice), so no
+    # prediction interval exists and no verdict can be given.
+    (tmp_path / "runs.csv").write_text("a,y\n-1,10\n1,14\n")
+    (tmp_path / "s.toml").write_text(
+        "[study]\ndata = \"runs.csv\"\nmodel = \"main\"\n[[factors]]\nname = \"a\"\n"
+        "low = -1\nhigh = 1\n[[responses]]\nname = \"y\"\n[[confirmations]]\n"
+        "settings = { a = 0 }\nmeasured = { y = 13 }\n")
+    check = check_confirmations(tradeoff.load_study(tmp_path / "s.toml"))
+    assert np.isnan(check.table.loc[0, "pi_low"])
+    verdict = check.verdicts.iloc[0]
+    assert verdict["verdict"] == "not checked"
+    assert "no error estimate" in verdict["advice"]
+    assert "no interval" in check.text()
