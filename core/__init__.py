@@ -28,6 +28,9 @@ from .constraints import LinearRule, parse_rule, rule_arrays, study_rules
 from .chance import ChanceEstimate, chance_in_limits
 from .search import (OptimizationResult, ResponseOutcome, Solution, goal_columns,
                      optimize, overall_desirability)
+from .provenance import provenance
+from .confirm import ConfirmationCheck, check_confirmations, confirmation_runs
+from .report import build_report_html, build_workbook, report_data, write_report
 
 __all__ = [
     "__version__",
@@ -49,4 +52,6 @@ __all__ = [
     "ChanceEstimate", "chance_in_limits",
     "OptimizationResult", "ResponseOutcome", "Solution", "goal_columns", "optimize",
     "overall_desirability",
+    "provenance", "ConfirmationCheck", "check_confirmations", "confirmation_runs",
+    "build_report_html", "build_workbook", "report_data", "write_report",
 ]

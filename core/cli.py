@@ -74,10 +74,11 @@ def build_parser() -> argparse.ArgumentParser:
     report.add_argument("--out", required=True, metavar="FILE",
                         help="the file to write: report.html (a page that works offline) "
                              "or report.xlsx (a workbook)")
-    report.add_argument("--top", type=int, default=5, metavar="N",
+    report.add_argument("--top", type=_at_least_one, default=5, metavar="N",
                         help="show the best settings and up to N-1 alternatives (default 5)")
-    report.add_argument("--seed", type=int, help="seed of the search and of the chances "
-                                                 "(default: the study's seed)")
+    report.add_argument("--seed", type=int, default=None, metavar="S",
+                        help="seed of the search and of the chances (default: the study's "
+                             "seed)")
     report.set_defaults(run=_run_report)
 
     confirm = commands.add_parser(
@@ -128,7 +129,11 @@ def _run_optimize(args) -> int:
     study = load_study(args.study)
     result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by)
     if args.json:
-        print(json.dumps(result.to_dict(), indent=2))
+        from .provenance import provenance
+
+        # tool version, file fingerprints, date and seed: enough to reproduce it
+        block = provenance(study, seed=result.seed)
+        print(json.dumps(result.to_dict() | {"provenance": block}, indent=2))
     else:
         print(result.text())
     return 0

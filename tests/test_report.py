@@ -103,6 +103,10 @@ def test_numbers_match_the_cli_json(demo, capsys):
     cli = json.loads(capsys.readouterr().out)
     shown = _embedded(page)["result"]
     assert shown["solutions"] == cli["solutions"]
+    # the CLI's JSON carries the same provenance block (its date is today's)
+    prov = _embedded(page)["provenance"]
+    for key in ("version", "seed", "study_sha256", "data_sha256", "study_file"):
+        assert cli["provenance"][key] == prov[key]
     assert shown["best"] == cli["best"]
     text = re.sub(r"<[^>]+>", " ", page)  # the visible text
     for sol in cli["solutions"]:
@@ -274,7 +278,8 @@ def test_cli_report(tmp_path, capsys):
     err = capsys.readouterr().err
     assert err.startswith("error: r.pdf: a report is written as .html")
     assert main(["report", str(TIRE), "--out", str(tmp_path / "x.html"), "--top", "0"]) == 2
-    assert "top must be a whole number" in capsys.readouterr().err
+    assert "expected at least 1, found 0" in capsys.readouterr().err
+    assert not (tmp_path / "x.html").exists()
 
 
 def test_bad_top_is_refused():
