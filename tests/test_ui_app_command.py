@@ -27,9 +27,10 @@ def test_app_without_a_study_opens_the_demo(execv, capsys):
     assert exe == sys.executable and argv[0] == sys.executable
     assert argv[1:5] == ["-m", "streamlit", "run", str(app_file)]
     assert app_file.is_file()
-    options = dict(zip(argv[5:13:2], argv[6:13:2]))
+    options = dict(zip(argv[5:-2:2], argv[6:-2:2]))
     assert options == {"--server.address": "127.0.0.1", "--server.port": "8501",
-                       "--server.headless": "true", "--browser.gatherUsageStats": "false"}
+                       "--server.headless": "true", "--browser.gatherUsageStats": "false",
+                       "--client.toolbarMode": "minimal"}
     assert argv[-2:] == ["--", str(DEMO.resolve())]
     assert "http://127.0.0.1:8501" in capsys.readouterr().out
 

@@ -23,13 +23,13 @@ except TradeoffError as exc:
     st.stop()
 
 pages = [
-    st.Page("pages/study.py", title="Study and runs", icon=":material/table_view:",
+    st.Page("views/study.py", title="Study and runs", icon=":material/table_view:",
             default=True),
-    st.Page("pages/models.py", title="What drives each response",
+    st.Page("views/models.py", title="What drives each response",
             icon=":material/insights:"),
-    st.Page("pages/targets.py", title="Targets and weights", icon=":material/tune:"),
-    st.Page("pages/results.py", title="Recommended settings", icon=":material/flag:"),
-    st.Page("pages/downloads.py", title="Take it with you", icon=":material/download:"),
+    st.Page("views/targets.py", title="Targets and weights", icon=":material/tune:"),
+    st.Page("views/results.py", title="Recommended settings", icon=":material/flag:"),
+    st.Page("views/downloads.py", title="Take it with you", icon=":material/download:"),
 ]
 st.sidebar.caption(f"Open study: **{st.session_state['origin_label']}**")
 st.navigation(pages).run()

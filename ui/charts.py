@@ -32,7 +32,8 @@ def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.
     order = list(data.sort_values("size", ascending=False)["term"])
     bars = alt.Chart(data).mark_bar().encode(
         x=alt.X("size:Q", title=titled("Size of effect, low to high", unit)),
-        y=alt.Y("term:N", sort=order, title="Model term"),
+        y=alt.Y("term:N", sort=order, title="Model term",
+                axis=alt.Axis(labelOverlap=False, labelLimit=220)),
         color=alt.Color("sign:N", scale=SIGN_COLOURS, title="Going low to high"),
         tooltip=["term", alt.Tooltip("effect:Q", format=".4g")])
     layers = [bars]
@@ -42,7 +43,7 @@ def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.
         text = alt.Chart(lines).mark_text(align="left", dx=3, dy=-6, color="#333").encode(
             x="value:Q", y=alt.value(0), text="label:N")
         layers += [rules, text]
-    return alt.layer(*layers).properties(height=max(120, 22 * len(data)))
+    return alt.layer(*layers).properties(height=max(120, 24 * len(data)))
 
 
 def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> alt.LayerChart:
@@ -63,12 +64,18 @@ def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> al
 def interaction_chart(cells: pd.DataFrame, a_title: str, b_title: str,
                       y_title: str) -> alt.Chart:
     """Mean response at the two ends of factor a, one line per end of factor b."""
-    data = cells.assign(a=cells["a_level"].astype(str), b=cells["b_level"].astype(str))
+    def shown(v):
+        return v if isinstance(v, str) else f"{v:g}"
+
+    data = cells.assign(a=[shown(v) for v in cells["a_level"]],
+                        b=[shown(v) for v in cells["b_level"]])
     order = list(dict.fromkeys(data.sort_values("a_coded")["a"]))
+    b_order = list(dict.fromkeys(data.sort_values("b_coded")["b"]))
     return alt.Chart(data).mark_line(point=True, strokeWidth=3).encode(
         x=alt.X("a:N", sort=order, title=a_title, axis=alt.Axis(labelAngle=0)),
         y=alt.Y("mean:Q", title=y_title, scale=alt.Scale(zero=False)),
-        color=alt.Color("b:N", title=b_title, scale=alt.Scale(range=[MID, DARK])),
+        color=alt.Color("b:N", title=b_title, sort=b_order,
+                        scale=alt.Scale(domain=b_order, range=[MID, DARK])),
         tooltip=["a", "b", alt.Tooltip("mean:Q", format=".4g"), "runs"],
     ).properties(height=280)
 
@@ -80,8 +87,7 @@ def residual_charts(table: pd.DataFrame, unit: str) -> alt.HConcatChart:
     """
     base = alt.Chart(table).encode(
         color=alt.Color("flagged:N", scale=alt.Scale(domain=[False, True],
-                                                     range=[MID, DARK]),
-                        title="Unusual run"),
+                                                     range=[MID, DARK]), legend=None),
         tooltip=["run", alt.Tooltip("fitted:Q", format=".4g"),
                  alt.Tooltip("residual:Q", format=".4g"),
                  alt.Tooltip("studentized:Q", format=".2f")])
@@ -94,9 +100,11 @@ def residual_charts(table: pd.DataFrame, unit: str) -> alt.HConcatChart:
         x=alt.X("quantile:Q", title="Normal quantile"),
         y=alt.Y("studentized:Q", title="Studentized residual")).properties(
         width=250, height=230, title="Normal quantile plot")
-    order = alt.layer(zero, base.mark_line(point=True).encode(
+    trace = alt.Chart(table).mark_line(color="#999").encode(
         x=alt.X("order:O", title="Run (file order)"),
-        y=alt.Y("residual:Q", title=titled("Residual", unit)))).properties(
+        y=alt.Y("residual:Q", title=titled("Residual", unit)))
+    order = alt.layer(zero, trace, base.mark_circle(size=60).encode(
+        x="order:O", y="residual:Q")).properties(
         width=250, height=230, title="In run order")
     return alt.hconcat(vs_fit, normal, order)
 

@@ -76,7 +76,7 @@ for name, o in chosen.responses.items():
 st.markdown(f"**{chosen.label}**: D = {chosen.desirability:.3f}"
             + ("" if chosen.chance_all is None else
                f", chance that every response lands within its limits: "
-               f"**{chosen.chance_all:.0%}**"))
+               f"**{chosen.chance_all:.1%}**"))
 st.caption(f"'mean from/to' is the {study.confidence:.0%} confidence interval of the "
            "average of many batches; 'one batch from/to' is the prediction interval for a "
            "single new batch (wider, because one batch scatters).")
@@ -154,7 +154,14 @@ else:
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")
     st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{answer.chance_all:.0%}**")
-    st.dataframe(answer.table, hide_index=True, key="r_whatif_table",
-                 column_config={"chance_in_limits": st.column_config.NumberColumn(
-                     format="percent")})
+                f"within its limits: **{answer.chance_all:.1%}**")
+    shown = answer.table.assign(response=[study.response(n).display()
+                                          for n in answer.table["response"]])
+    st.dataframe(shown.rename(columns={
+        "ci_low": "mean from", "ci_high": "mean to", "pi_low": "one batch from",
+        "pi_high": "one batch to", "lower_limit": "lower limit",
+        "upper_limit": "upper limit", "chance_in_limits": "chance within limits"}),
+        hide_index=True, key="r_whatif_table",
+        column_config={"chance within limits": st.column_config.NumberColumn(
+            format="percent"), "desirability": st.column_config.NumberColumn(
+            format="%.3f")})

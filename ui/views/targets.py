@@ -134,9 +134,11 @@ for name, (slot, item, is_factor) in slots.items():
         st.caption(f"At the best settings: {value:.4g} {item.unit} -> desirability "
                    f"{d:.3f}")
 
-with st.sidebar:
-    st.markdown(f"**Best settings now** (D = {best.desirability:.3f})")
-    st.dataframe(pd.DataFrame({"factor": list(best.settings),
-                               "setting": [v if isinstance(v, str) else f"{v:.4g}"
-                                           for v in best.settings.values()]}),
-                 hide_index=True, key="targets_best")
+with st.sidebar.container(key="best_now"):
+    lines = []
+    for f in study.factors:
+        value = best.settings[f.name]
+        shown = value if isinstance(value, str) else f"{value:.4g} {f.unit}".strip()
+        lines.append(f"- {f.label}: **{shown}**")
+    st.markdown(f"**Best settings now** (D = {best.desirability:.3f})\n\n"
+                + "\n".join(lines))
