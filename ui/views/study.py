@@ -31,6 +31,9 @@ if demo:
     except TradeoffError as exc:
         ss["open_error"] = str(exc)
 
+if not uploads and ss["upload_digest"] is not None:
+    # the user removed the files: forget them and the error they caused
+    ss["upload_digest"], ss["open_error"], ss["draft"] = None, None, None
 if uploads:
     files = {u.name: u.getvalue() for u in uploads}
     digest = hashlib.sha256(b"".join(n.encode() + b"\0" + hashlib.sha256(b).digest()
