@@ -99,8 +99,6 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         Use the residual correlation between responses (when enough runs have
         all of them); False assumes independence.
     """
-    from scipy import special, stats
-
     X = np.atleast_2d(np.asarray(X_coded, dtype=float))
     n = len(X)
     used = {r.name: models[r.name] for r in study.responses
@@ -131,7 +129,6 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
     # A small ridge keeps the factorisation stable when two responses move as one.
     L = np.linalg.cholesky(R + 1e-9 * np.eye(m))
     Z = rng.standard_normal((draws, m)) @ L.T
-    U = special.ndtr(Z)
     inside_all = np.ones((n, draws), dtype=bool)
     each = np.empty((n, m))
     unknown = []
@@ -148,7 +145,9 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
             inside_all[:] = False
             unknown.append(name)
             continue
-        q = stats.t.ppf(U[:, i], df)
+        # Student t with the model's df: the correlated normal over an independent
+        # sqrt(chi-square / df) (as fast as normal draws, exact t marginals).
+        q = Z[:, i] / np.sqrt(rng.chisquare(df, draws) / df)
         scale = np.sqrt(se ** 2 + sigma ** 2)
         y = mean[:, None] + scale[:, None] * q[None, :]
         y = np.asarray(model.inverse_transform(y), dtype=float).reshape(n, draws)

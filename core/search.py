@@ -39,6 +39,7 @@ __all__ = ["optimize", "overall_desirability", "goal_columns", "ResponseOutcome"
 RANKINGS = ("desirability", "chance")
 _STEP = 1e-5  # central-difference step in coded units (models are smooth polynomials)
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
+_SAME = 0.05  # climbed starts closer than this (coded) share one basin
 
 
 # --------------------------------------------------------------------------
@@ -536,15 +537,46 @@ def _starts(X, score, n_starts, radius, higher_better=True):
     get a start; a second pass fills up with points a third as far apart.
     """
     order = np.argsort(-score if higher_better else score, kind="stable")[:4000]
+    Xo = X[order]
     chosen = []
     for spacing in (radius, radius / 3):
-        for i in order:
-            if len(chosen) >= n_starts:
-                return chosen
-            if chosen and np.min(np.linalg.norm(X[chosen] - X[i], axis=1)) < spacing:
-                continue
-            chosen.append(i)
-    return chosen
+        gap = np.full(len(order), np.inf)
+        for c in chosen:
+            gap = np.minimum(gap, np.linalg.norm(Xo - Xo[c], axis=1))
+        while len(chosen) < n_starts:
+            free = np.flatnonzero(gap >= spacing)
+            if not len(free):
+                break
+            c = int(free[0])  # the best remaining point far enough from the chosen
+            chosen.append(c)
+            gap = np.minimum(gap, np.linalg.norm(Xo - Xo[c], axis=1))
+    return [int(order[c]) for c in chosen]
+
+
+def _climb(problem, X, D, rounds: int = 14, step: float = 0.1):
+    """Compass search on D from every start at once (one batch per round).
+
+    Each start tries a step up and down every numeric factor, moves to its best
+    feasible neighbour when that improves D, and halves its step otherwise.
+    """
+    X, D = X.copy(), D.copy()
+    s, p = len(X), len(problem.num)
+    steps = np.full(s, step * float(np.max(problem.hi - problem.lo)) / 2)
+    moves = np.vstack([np.eye(p), -np.eye(p)])  # (2p, p)
+    for _ in range(rounds):
+        trial = np.repeat(X, 2 * p, axis=0)
+        trial[:, problem.num] += (steps[:, None, None] * moves[None]).reshape(-1, p)
+        trial[:, problem.num] = np.clip(trial[:, problem.num], problem.lo, problem.hi)
+        Dt = problem.score(problem.values(trial))[0]
+        Dt[~problem.feasible(trial)] = -1.0
+        Dt = Dt.reshape(s, 2 * p)
+        best = np.argmax(Dt, axis=1)
+        gain = Dt[np.arange(s), best] > D
+        pick = trial.reshape(s, 2 * p, -1)[np.arange(s), best]
+        X[gain] = pick[gain]
+        D[gain] = Dt[np.arange(s), best][gain]
+        steps[~gain] /= 2
+    return X, D
 
 
 def _chebyshev_centre(problem, cat_values):
@@ -684,14 +716,25 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     if feasible and p:
         keep = D > 0
         Xs, Ds = X[keep], D[keep]
-        for i in _starts(Xs, Ds, n_starts, radius):
-            cat_values = Xs[i, problem.cat]
-            z = _polish_d(problem, Xs[i, problem.num], cat_values)
+        chosen = _starts(Xs, Ds, n_starts, radius)
+        # All starts climb together first (one batch per step); starts that end in
+        # the same place share one basin, and only one of them is polished.
+        Xr, Dr = _climb(problem, Xs[chosen], Ds[chosen])
+        found_D = []
+        for i in _starts(Xr, Dr, len(Xr), _SAME):
+            # A climbed start close to an optimum already polished, and no better,
+            # sits on the same peak (compass steps stall along its ridges).
+            if optima and any(np.linalg.norm(o - Xr[i]) < min_distance and Dr[i] <= fd
+                              for o, fd in zip(optima, found_D)):
+                continue
+            cat_values = Xr[i, problem.cat]
+            z = _polish_d(problem, Xr[i, problem.num], cat_values)
             polished = problem.full(z[None, :], cat_values)
+            Dp = problem.score(problem.values(polished))[0][0]
             # Keep the start itself where the polish did not help (a safety net).
-            ok = problem.feasible(polished)[0]
-            better = ok and problem.score(problem.values(polished))[0][0] >= Ds[i]
-            optima.append(polished[0] if better else Xs[i])
+            better = problem.feasible(polished)[0] and Dp >= Dr[i]
+            optima.append(polished[0] if better else Xr[i])
+            found_D.append(Dp if better else Dr[i])
     if not optima:  # only categorical factors: the batch is exhaustive
         optima = list(X)
     Xo = np.array(optima)
