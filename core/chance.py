@@ -5,9 +5,12 @@ modelled as ``mean(x) + t_df * sqrt(se_mean(x)**2 + sigma**2)`` on the
 modelling scale (the usual prediction-interval distribution for a linear
 model), then taken back to natural units. Responses measured on the same
 runs tend to move together; their residuals (matched by run id) give a
-correlation that ties the draws together through a Gaussian copula. When too
-few runs have every response, the responses are treated as independent and
-the result says so.
+correlation for the normal part of the draws, and each response's t comes
+from its own chi-square with its model's degrees of freedom. When too few
+runs have every response, the responses are treated as independent and the
+result says so. The uncertainty of the model coefficients enters through
+``se_mean``; how the coefficient errors of different responses co-vary is
+not modelled.
 
 The draws are seeded and shared by every point, so two settings are compared
 on the same random numbers (same seed, same answer).

@@ -235,7 +235,9 @@ class OptimizationResult:
                          f"{s.desirability:.3f}{chance}")
             for name, value in s.settings.items():
                 shown = value if isinstance(value, str) else f"{value:.4g}"
-                lines.append(f"  {name:<18} {shown:>12}   (coded {s.coded[name]:+.3f})")
+                code = s.coded[name]
+                code = f"{code:+d}" if isinstance(code, int) else f"{code:+.3f}"
+                lines.append(f"  {name:<18} {shown:>12}   (coded {code})")
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
                          f"{'prediction interval':>23} {'chance':>7}")
             for name, o in s.responses.items():
@@ -873,9 +875,13 @@ def _point_warnings(study, problem, x, D) -> list[str]:
                        f"{_g(tested_edge)}{unit}")
             else:
                 how = "if such settings are possible, extend the range there with new runs"
-            rising = " and D would still rise beyond it" if D_beyond > D + 1e-9 else ""
-            out.append(f"'{f.name}' sits at the {side} edge of the searched region "
-                       f"({_g(edge)}{unit}){rising}: {how}")
+            if D_beyond > D + 1e-9:
+                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
+                           f"({_g(edge)}{unit}) and D would still rise beyond it: {how}")
+            else:
+                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
+                           f"({_g(edge)}{unit}), where the models rest on few runs: {how} "
+                           "to see whether the balance holds beyond it")
         if runs is not None and f.name in runs:
             tested = runs[f.name].to_numpy(float)
             if value < tested.min() - 1e-9 * f.half_range or \
