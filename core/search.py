@@ -719,6 +719,16 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         keep = D > 0
         Xs, Ds = X[keep], D[keep]
         chosen = _starts(Xs, Ds, n_starts, radius)
+        if problem.cat:
+            # Every level combination with some D > 0 gets at least its best point,
+            # so the best recipe with the other binder (say) is among the answers.
+            combos_seen = {tuple(Xs[i, problem.cat]) for i in chosen}
+            for combo in combos:
+                if tuple(combo) in combos_seen:
+                    continue
+                rows = np.flatnonzero(np.all(Xs[:, problem.cat] == combo, axis=1))
+                if len(rows):
+                    chosen.append(int(rows[np.argmax(Ds[rows])]))
         # All starts climb together first (one batch per step); starts that end in
         # the same place share one basin, and only one of them is polished.
         Xr, Dr = _climb(problem, Xs[chosen], Ds[chosen])

@@ -168,6 +168,25 @@ def test_rank_by_chance_orders_by_chance():
     assert [s.rank for s in result.solutions] == list(range(1, len(chances) + 1))
 
 
+def test_demo_study_alternative_per_binder():
+    # every level combination with D > 0 gets its own peak among the answers; the
+    # rice-syrup peak is checked against a 41^3 grid with the binder fixed
+    study = load_study(DEMO)
+    from tradeoff.models import fit_study
+
+    fit = fit_study(study)
+    result = optimize(study, fit=fit, top=3, seed=0)
+    by_binder = {}
+    for sol in result.solutions:
+        by_binder.setdefault(sol.settings["binder"], sol.desirability)
+    assert set(by_binder) == {"rice syrup", "date paste"}
+    axis = np.linspace(-1, 1, 41)
+    g = np.array(np.meshgrid(axis, axis, axis, indexing="ij")).reshape(3, -1).T
+    for level, code in (("rice syrup", -1.0), ("date paste", 1.0)):
+        X = np.column_stack([g[:, 0], g[:, 1], np.full(len(g), code), g[:, 2]])
+        assert by_binder[level] >= overall_desirability(study, fit, X)[0].max() - 1e-3
+
+
 def test_demo_study_edge_warning():
     result = optimize(load_study(DEMO), top=2, seed=0)
     assert result.best.settings["binder"] in ("rice syrup", "date paste")
