@@ -105,6 +105,9 @@ class Solution:
     shortfall : float
         Weighted squared distance outside the limits (0 when D > 0).
     warnings : tuple of str
+        Warnings about these settings (edge of the region, outside the data).
+        Warnings about the whole search are in ``OptimizationResult.warnings``;
+        ``OptimizationResult.to_dict`` lists both under each solution.
     """
 
     rank: int
@@ -121,7 +124,7 @@ class Solution:
     warnings: tuple
 
     def to_dict(self, digits: int = 6) -> dict:
-        """JSON-ready dict in the CLI's shape."""
+        """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
         r = _rounder(digits)
         return {
             "rank": self.rank, "label": self.label,
@@ -189,9 +192,14 @@ class OptimizationResult:
 
     def to_dict(self, digits: int = 6) -> dict:
         """The CLI's ``--json`` output: ``best``, ``solutions`` and a few more keys."""
+        solutions = []
+        for s in self.solutions:
+            entry = s.to_dict(digits)
+            entry["warnings"] = list(s.warnings) + list(self.warnings)
+            solutions.append(entry)
         return {
-            "best": self.best.to_dict(digits),
-            "solutions": [s.to_dict(digits) for s in self.solutions],
+            "best": solutions[0],
+            "solutions": solutions,
             "study": self.study, "rank_by": self.rank_by, "seed": self.seed,
             "feasible": self.feasible, "unreachable": list(self.unreachable),
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
@@ -250,8 +258,7 @@ class OptimizationResult:
             if s.out_of_limits:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
-                if w not in self.warnings:  # search-wide notes are printed once below
-                    lines.append(f"  note: {w}")
+                lines.append(f"  note: {w}")
         for w in self.warnings:
             lines.append(f"note: {w}")
         for a in self.assumptions:
@@ -751,6 +758,8 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         optima = list(X)
     Xo = np.array(optima)
     Xo = Xo[problem.feasible(Xo)]
+    if not len(Xo):  # a polish drifted past a rule: fall back on the batch's best
+        Xo = X[[int(np.argmax(D)) if feasible else int(np.argmin(S))]]
     Yo = problem.values(Xo)
     Do, do = problem.score(Yo)
     So = problem.shortfall(Yo)
@@ -832,7 +841,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             factor_desirability=factor_d,
             chance_all=_finite(chances.all[i]) if chances.responses else None,
             out_of_limits=out, shortfall=float(S[i]),
-            warnings=tuple(_point_warnings(study, problem, x, D[i]) + general)))
+            warnings=tuple(_point_warnings(study, problem, x, D[i]))))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "

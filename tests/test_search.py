@@ -61,7 +61,9 @@ def test_result_shape(tire_result):
             "pi_high", "chance_in_limits"} <= set(table.columns)
     assert len(table) == 4 * len(r.solutions)
     # y2's quadratic predicts poorly from these 20 runs (PRESS-based R2 below 0.5)
-    assert any("'y2' predicts poorly" in w for w in r.best.warnings)
+    assert any("'y2' predicts poorly" in w for w in r.warnings)
+    assert any("'y2' predicts poorly" in w for w in r.to_dict()["best"]["warnings"])
+    assert not any("'y2' predicts poorly" in w for w in r.best.warnings)
 
 
 def test_same_seed_same_answer(tire_result):
