@@ -11,14 +11,12 @@ import io
 
 import pandas as pd
 
+from .cautions import FOOD_CAUTION
+
 __all__ = ["study_toml_bytes", "solutions_table", "results_csv_bytes",
            "results_excel_bytes", "CAUTION"]
 
-CAUTION = ("Predictions from a model fitted to a designed experiment are suggestions for "
-           "what to make and test next, only inside the tested region. They do not "
-           "replace shelf-life studies, microbiological or challenge testing, or sensory "
-           "validation with a proper panel; local food regulations and licensed practice "
-           "govern every product decision.")
+CAUTION = FOOD_CAUTION
 
 
 def study_toml_bytes(study) -> bytes:

@@ -19,15 +19,13 @@ from collections.abc import Iterable
 import numpy as np
 import pandas as pd
 
+from .cautions import PANEL_CAUTION
 from .errors import DataError, where
 from .intake import RawTable, parse_number
 
 __all__ = ["PANEL_CAUTION", "read_panel", "run_means", "adjusted_means",
            "assessor_agreement"]
 
-PANEL_CAUTION = (
-    "Panel scores from a development panel describe these samples only: they do not "
-    "replace consumer testing or sensory validation of the final product.")
 
 
 def _text(cell) -> str:

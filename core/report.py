@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from .cautions import FOOD_CAUTIONS
 from .errors import StudyError, TradeoffError
 
 __all__ = ["build_report_html", "build_workbook", "write_report", "report_data",
@@ -39,18 +40,7 @@ REPORT_SUFFIXES = (".html", ".htm", ".xlsx")
 WORKBOOK_SHEETS = ("summary", "runs", "factors", "models", "terms", "goals", "solutions",
                    "confirmations", "verdicts", "warnings", "specification", "provenance")
 
-CAUTIONS = (
-    "A recommendation is a suggestion for what to make and test next, not a release "
-    "decision: confirm it with real runs.",
-    "Predictions hold only inside the tested region and are only as good as the runs "
-    "behind them.",
-    "Predicted storage behaviour (hardness after storage, water activity, a time to reach "
-    "a limit) does not replace a shelf-life study, microbiological testing or challenge "
-    "testing.",
-    "Predicted panel liking does not replace sensory validation with a proper panel.",
-    "Local food regulations, labelling rules and licensed practice (food safety plans, "
-    "qualified persons) govern every product decision.",
-)
+CAUTIONS = FOOD_CAUTIONS
 
 
 # --------------------------------------------------------------------------

@@ -23,6 +23,7 @@ from collections.abc import Iterable
 import numpy as np
 import pandas as pd
 
+from .cautions import SHELF_LIFE_CAUTION
 from .errors import DataError, where
 from .intake import RawTable, parse_number
 
@@ -31,11 +32,6 @@ __all__ = [
     "fit_kinetics", "fitted_value", "time_to_limit",
 ]
 
-SHELF_LIFE_CAUTION = (
-    "A time to reach a limit estimated from a storage study is not a safety "
-    "determination and not a shelf life: microbiological shelf life, sensory "
-    "validation and local food regulations govern, and any prediction must be "
-    "confirmed by real storage tests.")
 
 ORDERS = ("zero", "first")
 DIRECTIONS = ("up", "down")
