@@ -15,8 +15,15 @@ from .errors import TradeoffError
 __all__ = ["main", "build_parser"]
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse, but a mistake on the command line is one ``error:`` line."""
+
+    def error(self, message: str):
+        self.exit(2, f"error: {message}: see '{self.prog} --help' for the options\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="tradeoff",
         description="Find the factor settings that best balance several responses "
                     "measured in a designed experiment.")
@@ -57,7 +64,7 @@ def build_parser() -> argparse.ArgumentParser:
     plan.add_argument("--augment", choices=("face", "rotatable"),
                       help="add axial and centre runs to the study's measured runs "
                            "(a new block) so a quadratic model can be fitted")
-    plan.add_argument("--seed", type=int, help="seed of the random run order "
+    plan.add_argument("--seed", type=_seed, help="seed of the random run order "
                                                "(default: the study's seed)")
     plan.add_argument("--effect", type=float, metavar="SIZE",
                       help="smallest change (low to high) worth detecting, for power")
@@ -76,7 +83,7 @@ def build_parser() -> argparse.ArgumentParser:
                              "or report.xlsx (a workbook)")
     report.add_argument("--top", type=_at_least_one, default=5, metavar="N",
                         help="show the best settings and up to N-1 alternatives (default 5)")
-    report.add_argument("--seed", type=int, default=None, metavar="S",
+    report.add_argument("--seed", type=_seed, default=None, metavar="S",
                         help="seed of the search and of the chances (default: the study's "
                              "seed)")
     report.set_defaults(run=_run_report)
@@ -94,7 +101,7 @@ def build_parser() -> argparse.ArgumentParser:
     best.add_argument("--top", type=_at_least_one, default=5, metavar="N",
                       help="show the best settings and up to N-1 distinct alternatives "
                            "(default 5)")
-    best.add_argument("--seed", type=int, default=None, metavar="S",
+    best.add_argument("--seed", type=_seed, default=None, metavar="S",
                       help="seed of the search and of the chances (default: the study's seed)")
     best.add_argument("--rank-by", choices=("desirability", "chance"),
                       default="desirability",
@@ -110,6 +117,16 @@ def build_parser() -> argparse.ArgumentParser:
                      help="the local port to serve on (default 8501)")
     app.set_defaults(run=_run_app)
     return parser
+
+
+def _seed(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, found '{text}'") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"expected a whole number, 0 or more, found {value}")
+    return value
 
 
 def _at_least_one(text: str) -> int:
@@ -225,6 +242,7 @@ def _run_app(args) -> int:
     from pathlib import Path
 
     from .demo import demo_study_path
+    from .intake import MAX_TABLE_BYTES
     from .study import load_study
 
     study = Path(args.study) if args.study else demo_study_path()
@@ -233,6 +251,8 @@ def _run_app(args) -> int:
     argv = [sys.executable, "-m", "streamlit", "run", str(app_file),
             "--server.address", "127.0.0.1", "--server.port", str(args.port),
             "--server.headless", "true", "--browser.gatherUsageStats", "false",
+            # uploads above the library's own limit are refused in the browser
+            "--server.maxUploadSize", str(MAX_TABLE_BYTES // 2**20),
             "--client.toolbarMode", "minimal", "--", str(study.resolve())]
     print(f"Opening the workbench: open http://127.0.0.1:{args.port} in your web "
           "browser (press Ctrl+C here to stop it)", flush=True)
@@ -256,6 +276,10 @@ def main(argv: list[str] | None = None) -> int:
         return args.run(args)
     except TradeoffError as exc:
         print(f"error: {exc}", file=sys.stderr)
+        return 2
+    except OSError as exc:  # a file the library did not expect to fail (disk, rights)
+        name = f"{exc.filename}: " if exc.filename else ""
+        print(f"error: {name}{exc.strerror or exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("error: stopped", file=sys.stderr)

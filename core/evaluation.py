@@ -112,10 +112,12 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     if (effect is None) != (sd is None):
         raise PlanError("power needs both the effect size to detect and the run-to-run "
                         "standard deviation: give both (--effect and --sd)")
-    if sd is not None and not sd > 0:
-        raise PlanError(f"the run-to-run standard deviation must be above 0, found {sd}")
-    if effect is not None and not effect > 0:
-        raise PlanError(f"the effect size to detect must be above 0, found {effect}")
+    if sd is not None and not 0 < sd < np.inf:
+        raise PlanError(f"the run-to-run standard deviation must be above 0 and finite, "
+                        f"found {sd}")
+    if effect is not None and not 0 < effect < np.inf:
+        raise PlanError(f"the effect size to detect must be above 0 and finite, found "
+                        f"{effect}")
     n_settings = [len(np.unique(np.round(X[:, j], 6))) for j in range(X.shape[1])]
     try:
         terms, notes = model_terms(model if isinstance(model, str) else list(model),

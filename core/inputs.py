@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 
 from .errors import StudyError, TradeoffError
-from .intake import parse_number, read_table
-from .study import MODELS, Goal, Study, _goal, study_from_dict
+from .intake import MAX_TABLE_BYTES, parse_number, read_table
+from .study import MAX_STUDY_BYTES, MODELS, Goal, Study, _goal, study_from_dict
 
 __all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
            "checked_goal", "with_response_model"]
@@ -39,6 +39,13 @@ def study_from_files(files: dict[str, bytes]) -> Study:
     StudyError
         No study file, several study files, or the named data file missing.
     """
+    for fname, content in files.items():
+        limit = MAX_STUDY_BYTES if Path(fname).suffix.lower() == ".toml" else MAX_TABLE_BYTES
+        if len(content) > limit:
+            raise StudyError(f"{fname}: the file is {len(content) / 2**20:.1f} MB, more "
+                             f"than the {limit / 2**20:g} MB allowed for "
+                             f"{'a study file' if limit == MAX_STUDY_BYTES else 'a data file'}"
+                             ": is it the right file?")
     tomls = sorted(n for n in files if Path(n).suffix.lower() == ".toml")
     data = sorted(n for n in files if Path(n).suffix.lower() in DATA_SUFFIXES)
     other = sorted(set(files) - set(tomls) - set(data))

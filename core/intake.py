@@ -10,6 +10,7 @@ import csv
 import io
 import math
 import re
+import unicodedata
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -52,10 +53,17 @@ def read_table(path: str | Path, *, sheet: str | int | None = None,
         if not path.exists():
             raise DataError(f"{path}: file not found: check the name and folder "
                             "(paths in a study file are relative to the study file)")
+        if not path.is_file():
+            raise DataError(f"{path}: that is a folder, not a data file: name the file "
+                            "itself, for example runs.csv")
         if path.stat().st_size > MAX_TABLE_BYTES:
             raise DataError(f"{path.name}: the file is larger than "
                             f"{MAX_TABLE_BYTES // 2**20} MB: is it the right file?")
-        data = path.read_bytes()
+        try:
+            data = path.read_bytes()
+        except OSError as exc:
+            raise DataError(f"{path}: cannot read the file ({exc.strerror or exc}): is "
+                            "it open in another program, or not yours to read?") from None
     elif len(data) > MAX_TABLE_BYTES:
         raise DataError(f"{path.name}: the file is larger than "
                         f"{MAX_TABLE_BYTES // 2**20} MB: is it the right file?")
@@ -70,10 +78,31 @@ def read_table(path: str | Path, *, sheet: str | int | None = None,
     if not table.header:
         raise DataError(f"{path.name}: the table is empty: expected a header row "
                         "naming the columns, then one row per run")
+    _refuse_repeated_header(table)
     return table
 
 
+def _refuse_repeated_header(table: RawTable) -> None:
+    # Tables pasted one below another repeat their header; read as data, that
+    # row would only give a puzzling "expected a number, found 'protein'".
+    names = [h for h in table.header if h]
+    if len(names) < 2:
+        return
+    for row_number, cells in table.rows:
+        words = [c for c in cells if c is not None]
+        if len(words) == len(names) and [str(c).strip() for c in words] == names:
+            raise DataError(f"{where(table.source, row_number)}this row repeats the "
+                            "column names of the header: delete it (were two tables "
+                            "pasted one below the other?)")
+
+
 def _decode(path: Path, data: bytes) -> str:
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        # "Unicode text" as some spreadsheet programs save it: UTF-16 with a BOM
+        try:
+            return data.decode("utf-16")
+        except UnicodeDecodeError:
+            pass
     for encoding in ("utf-8-sig", "cp1252"):
         try:
             return data.decode(encoding)
@@ -83,10 +112,10 @@ def _decode(path: Path, data: bytes) -> str:
 
 
 def _read_csv(path: Path, data: bytes) -> RawTable:
-    if b"\x00" in data[:4096]:
+    text = _decode(path, data)
+    if "\x00" in text[:4096]:
         raise DataError(f"{path.name}: this does not look like a text table "
                         "(it holds binary data): save it as CSV or .xlsx")
-    text = _decode(path, data)
     lines = text.splitlines()
     first = next((l for l in lines if l.strip()), "")
     # The separator is whichever candidate splits the header into most columns.
@@ -124,7 +153,12 @@ def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
     try:
         if sheet is None:
             ws = book.worksheets[0]
-        elif isinstance(sheet, int):
+        elif isinstance(sheet, int) and not isinstance(sheet, bool):
+            # sheet = 0 is the first sheet, as in the study file's reference
+            if not 0 <= sheet < len(book.worksheets):
+                raise DataError(f"{path.name}: no sheet number {sheet}: the workbook "
+                                f"has {len(book.worksheets)} sheet(s) {book.sheetnames}, "
+                                "numbered from 0; or give the sheet's name")
             ws = book.worksheets[sheet]
         else:
             if sheet not in book.sheetnames:
@@ -152,11 +186,38 @@ def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
     # Excel keeps trailing empty header cells when a column was once used.
     while header and header[-1] == "":
         header.pop()
-    return RawTable(path, _clean_header(path, header, header_row), rows, False)
+    header = _clean_header(path, header, header_row)
+    blanks = {(r, j) for r, cells in rows for j, c in enumerate(cells[:len(header)])
+              if c is None}
+    if blanks:
+        _refuse_unsaved_formulas(path, data, ws.title, blanks, header)
+    return RawTable(path, header, rows, False)
+
+
+def _refuse_unsaved_formulas(path: Path, data: bytes, title: str, blanks: set,
+                             header: list[str]) -> None:
+    # A workbook written by a program (not saved by a spreadsheet) may hold
+    # formulas without their computed values; read as values they look blank,
+    # which would silently drop measurements.
+    import openpyxl
+
+    book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False)
+    try:
+        for row_number, values in enumerate(book[title].iter_rows(values_only=True),
+                                            start=1):
+            for j, v in enumerate(values):
+                if (row_number, j) in blanks and isinstance(v, str) and v.startswith("="):
+                    raise DataError(f"{where(path, row_number, header[j] or None)}the "
+                                    f"cell holds the formula '{v}' but no computed "
+                                    "value: open the workbook in a spreadsheet program "
+                                    "and save it again, or type the value")
+    finally:
+        book.close()
 
 
 def _clean_header(path: Path, header: list[str], header_row: int) -> list[str]:
-    names = [h.strip() for h in header]
+    # NFC: an accented name typed on one system matches the same name from another
+    names = [unicodedata.normalize("NFC", h.strip()) for h in header]
     seen: dict[str, int] = {}
     for i, name in enumerate(names):
         if name and name in seen:

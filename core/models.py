@@ -179,6 +179,7 @@ class ResponseModel:
                 qr = None
 
         sol = _Solution(M, z, qr)
+        warnings += _near_alias_notes(terms, M, sol.cdiag)
         self._terms = terms
         self._sol = sol
         self._set_results(X, y, z, ids, terms, sol, aliases, warnings)
@@ -539,6 +540,37 @@ class ResponseModel:
             "warnings": list(self.warnings_),
         }
         return out
+
+
+# Variance inflation above this marks a term as nearly aliased (a VIF above 10
+# is the usual sign of serious collinearity; Montgomery, Design and Analysis of
+# Experiments, "common practice").
+NEAR_ALIAS_VIF = 10.0
+
+
+def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray) -> list[str]:
+    """A warning per term whose variance inflation factor is above NEAR_ALIAS_VIF.
+
+    VIF_j = diag((X'X)^-1)_j * sum((x_j - mean x_j)^2), the usual centred VIF
+    when the model has an intercept; 1 for every term of an orthogonal design.
+    Exactly aliased terms were already left out, so this flags runs whose
+    settings nearly tie two terms together (a factor that hardly changes apart
+    from another), where coefficients become large and unstable.
+    """
+    if not any(t.is_intercept for t in terms):
+        return []
+    notes = []
+    centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
+    for t, c, ss in zip(terms, cdiag, centred):
+        if t.is_intercept or ss == 0:
+            continue
+        vif = float(c * ss)
+        if vif > NEAR_ALIAS_VIF:
+            notes.append(f"term '{t.label}' is nearly aliased with other terms in these "
+                         f"runs (variance inflation {vif:.3g}, above {NEAR_ALIAS_VIF:g}): "
+                         "its coefficient is poorly determined: check the factor "
+                         "settings, or add runs that set the factors apart")
+    return notes
 
 
 def _num(v):

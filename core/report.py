@@ -20,8 +20,6 @@ import html
 import io
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -29,6 +27,7 @@ import pandas as pd
 
 from .cautions import FOOD_CAUTIONS
 from .errors import StudyError, TradeoffError
+from .files import write_atomic
 
 __all__ = ["build_report_html", "build_workbook", "write_report", "report_data",
            "REPORT_SUFFIXES", "WORKBOOK_SHEETS", "CAUTIONS"]
@@ -187,24 +186,8 @@ def write_report(study, out: str | Path, *, top: int = 5, seed: int | None = Non
     else:
         content = build_report_html(study, top=top, seed=seed, fit=fit, result=result,
                                     now=now)
-    _atomic_write(target, content)
+    write_atomic(target, content, error=StudyError)
     return out
-
-
-def _atomic_write(path: Path, content: bytes) -> None:
-    """Write to a temporary file in the same folder, then rename over the target."""
-    handle, temp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.",
-                                    suffix=".tmp")
-    try:
-        with os.fdopen(handle, "wb") as stream:
-            stream.write(content)
-            stream.flush()
-            os.fsync(stream.fileno())
-        os.replace(temp, path)
-    except BaseException:
-        if os.path.exists(temp):
-            os.unlink(temp)
-        raise
 
 
 # --------------------------------------------------------------------------

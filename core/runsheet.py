@@ -8,13 +8,13 @@ other columns as they are, so the filled-in sheet is the study's data file.
 """
 from __future__ import annotations
 
-import os
-import tempfile
+import io
 from pathlib import Path
 
 import pandas as pd
 
 from .errors import PlanError
+from .files import write_atomic
 
 __all__ = ["run_sheet", "write_run_sheet", "SHEET_SUFFIXES"]
 
@@ -66,20 +66,13 @@ def write_run_sheet(table: pd.DataFrame, path: str | Path, *, study=None,
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
         raise PlanError(f"{path}: the folder {folder} does not exist: create it first")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=suffix, dir=folder)
-    os.close(fd)
-    try:
-        if suffix == ".csv":
-            table.to_csv(tmp, index=False, encoding="utf-8")
-        else:
-            table.to_excel(tmp, index=False, sheet_name="runs", engine="openpyxl")
-        os.replace(tmp, path)
-    except OSError as exc:
-        raise PlanError(f"{path}: cannot write the run sheet ({exc.strerror}): is it open "
-                        "in another program, or the folder read-only?") from None
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+    if suffix == ".csv":
+        content = table.to_csv(index=False).encode("utf-8")
+    else:
+        buffer = io.BytesIO()
+        table.to_excel(buffer, index=False, sheet_name="runs", engine="openpyxl")
+        content = buffer.getvalue()
+    write_atomic(path, content, error=PlanError)
     return path
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 import difflib
 import math
 import tomllib
+import unicodedata
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -22,10 +23,12 @@ from .intake import RawTable, parse_number, read_table
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
     "load_study", "study_from_dict", "study_to_dict", "attach_runs",
-    "SECTION_KEYS",
+    "SECTION_KEYS", "MAX_STUDY_BYTES",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
+# A study file is a page of text; anything this large is the wrong file.
+MAX_STUDY_BYTES = 1024 * 1024
 MODELS = ("main", "interactions", "full", "quadratic")
 TRANSFORMS = ("none", "log", "sqrt")
 
@@ -230,8 +233,18 @@ def load_study(path: str | Path, *, with_data: bool = True) -> Study:
     path = Path(path)
     if not path.exists():
         raise StudyError(f"{path}: study file not found: check the name and folder")
+    if not path.is_file():
+        raise StudyError(f"{path}: that is a folder, not a study file: name the .toml "
+                         "file itself")
+    if path.stat().st_size > MAX_STUDY_BYTES:
+        raise StudyError(f"{path.name}: the file is larger than "
+                         f"{MAX_STUDY_BYTES // 2**20} MB, far more than a study file "
+                         "holds: is it the right file?")
     try:
         spec = tomllib.loads(path.read_bytes().decode("utf-8-sig"))
+    except OSError as exc:
+        raise StudyError(f"{path}: cannot read the study file ({exc.strerror or exc}): "
+                         "is it yours to read?") from None
     except UnicodeDecodeError:
         raise StudyError(f"{path.name}: the study file is not UTF-8 text: save it "
                          "as UTF-8 in a text editor") from None
@@ -282,8 +295,9 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         raise StudyError(f"{fname}: [study] confidence = {confidence} must be a "
                          "fraction such as 0.95")
     seed = head.get("seed", 0)
-    if not isinstance(seed, int) or isinstance(seed, bool):
-        raise StudyError(f"{fname}: [study] seed must be a whole number")
+    if not isinstance(seed, int) or isinstance(seed, bool) or seed < 0:
+        raise StudyError(f"{fname}: [study] seed must be a whole number, 0 or more, "
+                         f"found {seed!r}")
 
     data_path = None
     if head.get("data") is not None:
@@ -324,6 +338,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
     if not table.rows:
         raise DataError(f"{fname}: the table has a header but no runs: add one row "
                         "per run below the header")
+    _refuse_title_rows(study, table)
     width = len(header)
     for row_number, cells in table.rows:
         extra = [c for c in cells[width:] if c is not None]
@@ -427,6 +442,22 @@ def attach_runs(study: Study, table: RawTable) -> Study:
             data[name] = cells_of(index)
     runs = pd.DataFrame(data, index=pd.Index(row_numbers, name="row"))
     return replace(study, runs=runs, notes=tuple(notes))
+
+
+def _refuse_title_rows(study: Study, table: RawTable) -> None:
+    # A title or a merged "Factors | Responses" row above the column names is
+    # read as the header; say so instead of "no column 'protein'".
+    wanted = [f.name for f in study.factors] + [r.name for r in study.responses
+                                                if not r.is_derived]
+    if all(name in table.header for name in wanted):
+        return
+    for row_number, cells in table.rows[:10]:
+        words = {str(c).strip() for c in cells if c is not None}
+        if all(name in words for name in wanted):
+            raise DataError(f"{where(table.source.name, row_number)}the column names "
+                            "seem to be in this row, not in the first row of the "
+                            "table: delete the title rows above them (one header row "
+                            "only, no merged cells)")
 
 
 # --------------------------------------------------------------------------
@@ -571,6 +602,8 @@ def _name(table: dict, fname: str, what: str) -> str:
     name = table.get("name")
     if not isinstance(name, str) or not name.strip():
         raise StudyError(f"{fname}: {what}: needs name = \"<column name in the data>\"")
+    # NFC, as the data file's header: an accented name matches however it was typed
+    name = unicodedata.normalize("NFC", name)
     if name != name.strip():
         raise StudyError(f"{fname}: {what}: name '{name}' starts or ends with a space: "
                          "remove it")

@@ -30,6 +30,7 @@ def test_app_without_a_study_opens_the_demo(execv, capsys):
     options = dict(zip(argv[5:-2:2], argv[6:-2:2]))
     assert options == {"--server.address": "127.0.0.1", "--server.port": "8501",
                        "--server.headless": "true", "--browser.gatherUsageStats": "false",
+                       "--server.maxUploadSize": "50",
                        "--client.toolbarMode": "minimal"}
     assert argv[-2:] == ["--", str(DEMO.resolve())]
     assert "http://127.0.0.1:8501" in capsys.readouterr().out
