@@ -70,14 +70,13 @@ def residual_correlation(models: dict, *, min_runs: int | None = None) -> pd.Dat
     names = list(models)
     if len(names) < 2:
         return pd.DataFrame(np.eye(len(names)), index=names, columns=names)
-    table = pd.DataFrame({n: pd.Series(models[n].residuals_) for n in names}).dropna()
+    table = pd.concat([pd.Series(models[n].residuals_) for n in names], axis=1,
+                      join="inner").to_numpy(dtype=float)
+    table = table[~np.isnan(table).any(axis=1)]
     need = min_runs if min_runs is not None else len(names) + 3
-    if len(table) < need:
+    if len(table) < need or (table.std(axis=0, ddof=1) <= 0).any():
         return None
-    sd = table.std(ddof=1)
-    if (sd <= 0).any():
-        return None
-    return table.corr()
+    return pd.DataFrame(np.corrcoef(table, rowvar=False), index=names, columns=names)
 
 
 def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,

@@ -40,6 +40,7 @@ RANKINGS = ("desirability", "chance")
 _STEP = 1e-5  # central-difference step in coded units (models are smooth polynomials)
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 _SAME = 0.05  # climbed starts closer than this (coded) share one basin
+_JOINT = 30  # at most this many variables in one joint polish
 
 
 # --------------------------------------------------------------------------
@@ -418,23 +419,37 @@ def _rule_parts(problem, cat_values):
     return A_num, b_eff
 
 
-def _polish_d(problem, z0, cat_values):
-    """SLSQP on the smooth form of max D from z0; returns the numeric point."""
+def _polish_d(problem, Z0, cats):
+    """SLSQP on the smooth form of max D, from several points at once.
+
+    ``Z0`` (c, p) numeric starts and ``cats`` (c, n_cat) their categorical
+    values. The c problems are independent; solving them as one block-diagonal
+    problem evaluates every block in one batch per iteration. Returns (c, p).
+    """
     from scipy.optimize import minimize
 
-    p = len(z0)
+    Z0 = np.atleast_2d(Z0)
+    c, p = Z0.shape
     goals = problem.goals
     tcols = [i for i, g in enumerate(goals) if g.kind in ("maximize", "minimize", "target")]
     q = len(tcols)
-    W = problem.weights.sum()
-    wt = problem.weights[tcols] / W
-    local = _Local(problem, cat_values)
-    y0, _ = local.at(z0)
-    d0 = problem.score(y0[None, :])[1][0]
-    t0 = np.clip(d0[tcols] * (1 - 1e-9), 1e-12, 1.0)
-    A_num, b_eff = _rule_parts(problem, cat_values)
+    wt = problem.weights[tcols] / problem.weights.sum()
+    steps = np.vstack([np.zeros(p), _STEP * np.eye(p), -_STEP * np.eye(p)])  # (2p+1, p)
+    cats = np.asarray(cats, dtype=float).reshape(c, -1)
+    cat_rows = np.repeat(cats, 2 * p + 1, axis=0)
+    cache = {}
 
-    # Each row: coefficient on y (scaled), constant, t index (-1 for none), exponent.
+    def at(v):
+        key = v.tobytes()
+        if key not in cache:
+            Z = v[:c * p].reshape(c, p)
+            pts = (Z[:, None, :] + steps[None]).reshape(-1, p)
+            Y = problem.values(problem.full(pts, cat_rows)).reshape(c, 2 * p + 1, -1)
+            cache.clear()
+            cache[key] = (Y[:, 0], (Y[:, 1:p + 1] - Y[:, p + 1:]) / (2 * _STEP))
+        return cache[key]  # y (c, m), J (c, p, m)
+
+    # Each piece: coefficient on y (scaled), constant, t index (-1 for none), exponent.
     pieces = []
     for i, g in enumerate(goals):
         ti = tcols.index(i) if i in tcols else -1
@@ -452,42 +467,54 @@ def _polish_d(problem, z0, cat_values):
             pieces.append((i, -1 / width, g.upper / width, -1, 1.0))
     col = np.array([pc[0] for pc in pieces])
     a = np.array([pc[1] for pc in pieces])
-    c = np.array([pc[2] for pc in pieces])
+    const = np.array([pc[2] for pc in pieces])
     tix = np.array([pc[3] for pc in pieces])
     ex = np.array([pc[4] for pc in pieces])
-    has_t = tix >= 0
+    rows_t = np.flatnonzero(tix >= 0)
+    r = len(pieces)
+    rules = [_rule_parts(problem, cats[b]) for b in range(c)]
+    n_rules = 0 if rules[0][0] is None else len(rules[0][1])
 
     def cons(v):
-        y, _ = local.at(v[:p])
-        g = a * y[col] + c
-        t = v[p:]
-        g[has_t] -= t[tix[has_t]] ** ex[has_t]
-        if A_num is not None:
-            g = np.concatenate([g, b_eff - A_num @ v[:p]])
-        return g
+        y, _ = at(v)
+        T = v[c * p:].reshape(c, q)
+        g = a * y[:, col] + const
+        g[:, rows_t] -= T[:, tix[rows_t]] ** ex[rows_t]
+        out = [g.ravel()]
+        if n_rules:
+            Z = v[:c * p].reshape(c, p)
+            out += [rules[b][1] - rules[b][0] @ Z[b] for b in range(c)]
+        return np.concatenate(out)
 
     def cons_jac(v):
-        _, J = local.at(v[:p])
-        t = v[p:]
-        G = np.zeros((len(pieces), p + q))
-        G[:, :p] = (J[:, col] * a).T
-        rows = np.flatnonzero(has_t)
-        G[rows, p + tix[rows]] = -ex[rows] * t[tix[rows]] ** (ex[rows] - 1)
-        if A_num is not None:
-            G = np.vstack([G, np.hstack([-A_num, np.zeros((len(b_eff), q))])])
+        _, J = at(v)
+        T = v[c * p:].reshape(c, q)
+        G = np.zeros((c * (r + n_rules), c * (p + q)))
+        for b in range(c):
+            rows = slice(b * r, (b + 1) * r)
+            G[rows, b * p:(b + 1) * p] = (J[b][:, col] * a).T
+            G[b * r + rows_t, c * p + b * q + tix[rows_t]] = \
+                -ex[rows_t] * T[b, tix[rows_t]] ** (ex[rows_t] - 1)
+            if n_rules:
+                base = c * r + b * n_rules
+                G[base:base + n_rules, b * p:(b + 1) * p] = -rules[b][0]
         return G
 
     def fun(v):
-        return -float(wt @ np.log(v[p:]))
+        return -float(np.log(v[c * p:]).reshape(c, q).sum(axis=0) @ wt)
 
     def jac(v):
-        return np.concatenate([np.zeros(p), -wt / v[p:]])
+        return np.concatenate([np.zeros(c * p), -(wt[None, :] / v[c * p:].reshape(c, q)).ravel()])
 
-    bounds = list(zip(problem.lo, problem.hi)) + [(1e-12, 1.0)] * q
-    res = minimize(fun, np.concatenate([z0, t0]), jac=jac, method="SLSQP", bounds=bounds,
-                   constraints=[{"type": "ineq", "fun": cons, "jac": cons_jac}],
-                   options={"maxiter": 200, "ftol": 1e-12})
-    return np.clip(res.x[:p], problem.lo, problem.hi)
+    y0, _ = at(np.concatenate([Z0.ravel(), np.ones(c * q)]))
+    d0 = problem.score(y0)[1]
+    T0 = np.clip(d0[:, tcols] * (1 - 1e-9), 1e-12, 1.0)
+    bounds = list(zip(np.tile(problem.lo, c), np.tile(problem.hi, c))) + \
+        [(1e-12, 1.0)] * (c * q)
+    res = minimize(fun, np.concatenate([Z0.ravel(), T0.ravel()]), jac=jac, method="SLSQP",
+                   bounds=bounds, constraints=[{"type": "ineq", "fun": cons, "jac": cons_jac}],
+                   options={"maxiter": 300, "ftol": 1e-10 * c})
+    return np.clip(res.x[:c * p].reshape(c, p), problem.lo, problem.hi)
 
 
 def _polish_shortfall(problem, z0, cat_values):
@@ -562,7 +589,7 @@ def _starts(X, score, n_starts, radius, higher_better=True):
     return [int(order[c]) for c in chosen]
 
 
-def _climb(problem, X, D, rounds: int = 14, step: float = 0.1):
+def _climb(problem, X, D, rounds: int = 20, step: float = 0.1):
     """Compass search on D from every start at once (one batch per round).
 
     Each start tries a step up and down every numeric factor, moves to its best
@@ -573,6 +600,8 @@ def _climb(problem, X, D, rounds: int = 14, step: float = 0.1):
     steps = np.full(s, step * float(np.max(problem.hi - problem.lo)) / 2)
     moves = np.vstack([np.eye(p), -np.eye(p)])  # (2p, p)
     for _ in range(rounds):
+        if steps.max() < 2e-3:  # every start has settled: the polish does the rest
+            break
         trial = np.repeat(X, 2 * p, axis=0)
         trial[:, problem.num] += (steps[:, None, None] * moves[None]).reshape(-1, p)
         trial[:, problem.num] = np.clip(trial[:, problem.num], problem.lo, problem.hi)
@@ -659,6 +688,16 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         raise SearchError("no response or factor has a goal: give at least one a goal "
                           "(maximize, minimize, target or range) in the study file")
     study_rules(study)  # re-check the rules in case the study was built by hand
+    X, feasible, unreachable = _search(study, problem, top=top, seed=seed,
+                                       rank_by=rank_by, min_distance=min_distance,
+                                       starts=starts)
+    return _result(study, problem, models, fit, X, top, seed, rank_by, feasible,
+                   unreachable, draws)
+
+
+def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0.25,
+            starts=None):
+    """The settings only: (coded points best first, feasible, unreachable goals)."""
     rng = np.random.default_rng(seed)
     p, c = len(problem.num), len(problem.cat)
     combos = [np.array(v) for v in itertools.product([-1.0, 1.0], repeat=c)]
@@ -739,21 +778,27 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         # All starts climb together first (one batch per step); starts that end in
         # the same place share one basin, and only one of them is polished.
         Xr, Dr = _climb(problem, Xs[chosen], Ds[chosen])
-        found_D = []
+        reps = []
         for i in _starts(Xr, Dr, len(Xr), _SAME):
-            # A climbed start close to an optimum already polished, and no better,
-            # sits on the same peak (compass steps stall along its ridges).
-            if optima and any(np.linalg.norm(o - Xr[i]) < min_distance and Dr[i] <= fd
-                              for o, fd in zip(optima, found_D)):
+            # A climbed start close to a better one sits on the same peak (compass
+            # steps stall along its ridges): polish only the better one.
+            if any(np.linalg.norm(Xr[j] - Xr[i]) < min_distance and Dr[i] <= Dr[j]
+                   for j in reps):
                 continue
-            cat_values = Xr[i, problem.cat]
-            z = _polish_d(problem, Xr[i, problem.num], cat_values)
-            polished = problem.full(z[None, :], cat_values)
-            Dp = problem.score(problem.values(polished))[0][0]
-            # Keep the start itself where the polish did not help (a safety net).
-            better = problem.feasible(polished)[0] and Dp >= Dr[i]
-            optima.append(polished[0] if better else Xr[i])
-            found_D.append(Dp if better else Dr[i])
+            reps.append(i)
+        # Polish several peaks as one block-diagonal problem while it stays small
+        # (one batch per iteration); larger blocks converge faster on their own.
+        size = len(problem.num) + len(problem.goals)
+        per = max(1, _JOINT // size)
+        Zp = np.vstack([_polish_d(problem, Xr[reps[j:j + per]][:, problem.num],
+                                  Xr[reps[j:j + per]][:, problem.cat])
+                        for j in range(0, len(reps), per)])
+        polished = Xr[reps].copy()
+        polished[:, problem.num] = Zp
+        Dp = problem.score(problem.values(polished))[0]
+        # Keep the start itself where the polish did not help (a safety net).
+        better = problem.feasible(polished) & (Dp >= Dr[reps])
+        optima += list(np.where(better[:, None], polished, Xr[reps]))
     if not optima:  # only categorical factors: the batch is exhaustive
         optima = list(X)
     Xo = np.array(optima)
@@ -780,8 +825,7 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     reach = np.column_stack([shortfall(Yall[:, i], g) for i, g in enumerate(problem.goals)])
     unreachable = tuple(n for n, ok in zip(problem.names(), (reach == 0).any(axis=0))
                         if not ok)
-    return _result(study, problem, models, fit, Xbest, top, seed, rank_by, feasible,
-                   unreachable, draws)
+    return Xbest, feasible, unreachable
 
 
 # --------------------------------------------------------------------------
