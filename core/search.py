@@ -7,13 +7,18 @@ levels. D has kinks (where a desirability reaches 0 or 1), flat zero regions
 and often several local maxima, so the search works in three steps:
 
 1. a scrambled Sobol batch of candidates per level combination (scipy.stats.qmc),
-   evaluated at once;
-2. the best candidates that lie apart (in coded units) are polished by SLSQP on
-   a smooth equivalent problem: maximise ``sum w_i log t_i`` subject to each
-   desirability piece being at least ``t_i`` (the kinks become constraints,
-   which a gradient method handles exactly);
-3. the polished optima closer than ``min_distance`` coded units to a better one
-   are merged; the rest are the alternatives.
+   half of it stretched onto the region's faces, plus its corners, evaluated at
+   once;
+2. the best candidates that lie apart (in coded units; every level combination
+   with D > 0 gets one) climb together by compass steps, one batch per step;
+   starts that end on the same peak are grouped;
+3. one start per peak is polished by SLSQP on a smooth equivalent problem:
+   maximise ``sum w_i log t_i`` subject to each desirability piece being at
+   least ``t_i`` (the kinks become constraints, which a gradient method handles
+   exactly); several peaks are polished as one block-diagonal problem so each
+   iteration is one batch;
+4. optima closer than ``min_distance`` coded units to a better one are merged;
+   the rest are the alternatives.
 
 When D is 0 everywhere, the search minimises the weighted squared shortfall
 (how far predictions lie outside their limits, in goal widths) instead and
