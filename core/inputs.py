@@ -176,11 +176,24 @@ def draft_spec(name: str, data: bytes, factors: list[str],
         if r not in columns.index:
             raise StudyError(f"{name}: no column '{r}' in the table")
         if columns.at[r, "kind"] != "number":
-            raise StudyError(f"{name}: response column '{r}' holds text: a response "
-                             "must be measured as numbers")
+            row, cell = _first_text(table, index[r])
+            raise StudyError(f"{name}, row {row}: response column '{r}' holds text "
+                             f"('{cell}'): a response must be measured as numbers "
+                             "(type the number only; units belong in the study)")
         spec_responses.append({"name": r})
     return {"study": {"name": Path(name).stem, "data": Path(name).name},
             "factors": spec_factors, "responses": spec_responses}
+
+
+def _first_text(table, j: int) -> tuple[int, str]:
+    """Row number and content of the first cell of column j that is not a number."""
+    for row, cells in table.rows:
+        cell = cells[j] if j < len(cells) else None
+        try:
+            parse_number(cell, decimal_comma=table.decimal_comma, location="")
+        except TradeoffError:
+            return row, str(cell)
+    return table.rows[0][0], ""
 
 
 def checked_goal(name: str, *, kind: str, lower: float | None = None,
