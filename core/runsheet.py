@@ -61,7 +61,7 @@ def write_run_sheet(table: pd.DataFrame, path: str | Path, *, study=None,
     if suffix not in SHEET_SUFFIXES:
         raise PlanError(f"{path.name}: a run sheet is written as .csv or .xlsx: change "
                         "the --out name's ending")
-    if path.exists():
+    if path.is_file():
         _refuse_if_measured(path, response_names)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
@@ -84,7 +84,12 @@ def _refuse_if_measured(path: Path, response_names) -> None:
     try:
         raw = read_table(path)
     except DataError:
-        return
+        if path.stat().st_size == 0:
+            return
+        # A file that cannot be read may still hold someone's measurements
+        # (a repeated header, an unsaved formula): keep it rather than guess.
+        raise PlanError(f"{path.name} already exists and cannot be read as a run sheet: "
+                        "choose another --out name so it is not overwritten") from None
     columns = {name: i for i, name in enumerate(raw.header)}
     for name in response_names:
         i = columns.get(name)
