@@ -518,7 +518,7 @@ def _polish_d(problem, Z0, cats):
         [(1e-12, 1.0)] * (c * q)
     res = minimize(fun, np.concatenate([Z0.ravel(), T0.ravel()]), jac=jac, method="SLSQP",
                    bounds=bounds, constraints=[{"type": "ineq", "fun": cons, "jac": cons_jac}],
-                   options={"maxiter": 300, "ftol": 1e-10 * c})
+                   options={"maxiter": 100, "ftol": 1e-10 * c})
     return np.clip(res.x[:c * p].reshape(c, p), problem.lo, problem.hi)
 
 
