@@ -268,3 +268,16 @@ def test_cli_json_shape(capsys):
 def test_cli_error_exit(tmp_path, capsys):
     assert main(["optimize", str(tmp_path / "missing.toml")]) == 2
     assert capsys.readouterr().err.startswith("error: ")
+
+
+def test_cli_no_goal_and_rank_by_chance(write_study, capsys):
+    from conftest import BASIC_STUDY
+
+    no_goal = BASIC_STUDY.replace('goal = "minimize"\nlower = 15\nupper = 35\n', "")
+    assert main(["optimize", str(write_study(no_goal))]) == 2
+    assert "no response or factor has a goal" in capsys.readouterr().err
+    assert main(["optimize", str(write_study()), "--json", "--rank-by", "chance"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["rank_by"] == "chance"
+    chances = [s["chance_all"] for s in out["solutions"]]
+    assert chances == sorted(chances, reverse=True)
