@@ -125,7 +125,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         if result_dict["unreachable"]:
             warnings.append("no setting in the searched region brings these goals within "
                             "their limits: " + ", ".join(result_dict["unreachable"]))
-        warnings += [f"best settings: {w}" for w in result_dict["best"]["warnings"]]
+        # The best solution's warnings repeat the search-wide ones: add only its own.
+        warnings += [f"best settings: {w}" for w in result_dict["best"]["warnings"]
+                     if w not in result_dict["warnings"]]
     elif search_note:
         warnings.append(f"no search: {search_note}")
     if confirmation is not None:

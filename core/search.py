@@ -305,6 +305,19 @@ def goal_columns(study, fit) -> list[tuple[str, str]]:
     return cols
 
 
+def _no_goal_error(study, fit) -> SearchError:
+    """Why nothing takes part in D: no goals at all, or goals whose models failed."""
+    skipped = getattr(fit, "skipped", {})
+    lost = [(r.name, skipped[r.name]) for r in study.responses
+            if r.goal.active and r.name in skipped]
+    if lost:
+        name, why = lost[0]
+        return SearchError(f"every response with a goal lacks a model, so there is "
+                           f"nothing to balance: '{name}': {why}")
+    return SearchError("no response or factor has a goal: give at least one a goal "
+                       "(maximize, minimize, target or range) in the study file")
+
+
 class _Problem:
     """The study's goals, region and models, in arrays, for batched evaluation."""
 
@@ -385,8 +398,7 @@ def overall_desirability(study, fit, X_coded):
     """
     problem = _Problem(study, fit)
     if not problem.columns:
-        raise SearchError("no response or factor has a goal: give at least one a goal "
-                          "(maximize, minimize, target or range) in the study file")
+        raise _no_goal_error(study, fit)
     X = np.atleast_2d(np.asarray(X_coded, dtype=float))
     return problem.score(problem.values(X))
 
@@ -690,8 +702,7 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     models = _models_of(fit)
     problem = _Problem(study, models)
     if not problem.columns:
-        raise SearchError("no response or factor has a goal: give at least one a goal "
-                          "(maximize, minimize, target or range) in the study file")
+        raise _no_goal_error(study, fit)
     study_rules(study)  # re-check the rules in case the study was built by hand
     X, feasible, unreachable = _search(study, problem, top=top, seed=seed,
                                        rank_by=rank_by, min_distance=min_distance,

@@ -281,3 +281,14 @@ def test_cli_no_goal_and_rank_by_chance(write_study, capsys):
     assert out["rank_by"] == "chance"
     chances = [s["chance_all"] for s in out["solutions"]]
     assert chances == sorted(chances, reverse=True)
+
+
+def test_goal_on_a_flat_response_names_the_real_reason(write_study):
+    # A response that never changes has no model (common practice: nothing to fit);
+    # when it carries the only goal, the error must say so, not "no goal".
+    runs = "run,protein,binder,hardness\n1,20,rice syrup,20\n2,30,rice syrup,20\n" \
+           "3,20,date paste,20\n4,30,date paste,20\n"
+    study = load_study(write_study(runs=runs))
+    with pytest.raises(SearchError, match=r"every response with a goal lacks a model.*"
+                                          r"'hardness'.*20 in every run"):
+        optimize(study)
