@@ -36,6 +36,7 @@ import pandas as pd
 from .chance import chance_in_limits
 from .constraints import rule_arrays, study_rules
 from .desirability import combine_desirability, desirability, limits, shortfall
+from .cautions import FOOD_CAUTION, FOOD_CAUTIONS
 from .errors import SearchError
 
 __all__ = ["optimize", "overall_desirability", "goal_columns", "ResponseOutcome",
@@ -209,6 +210,7 @@ class OptimizationResult:
             "study": self.study, "rank_by": self.rank_by, "seed": self.seed,
             "feasible": self.feasible, "unreachable": list(self.unreachable),
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
+            "cautions": list(FOOD_CAUTIONS),
             "evaluations": self.evaluations,
         }
 
@@ -269,6 +271,7 @@ class OptimizationResult:
             lines.append(f"note: {w}")
         for a in self.assumptions:
             lines.append(f"chances: {a}")
+        lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines).lstrip("\n")
 
 

@@ -292,3 +292,11 @@ def test_goal_on_a_flat_response_names_the_real_reason(write_study):
     with pytest.raises(SearchError, match=r"every response with a goal lacks a model.*"
                                           r"'hardness'.*20 in every run"):
         optimize(study)
+
+
+def test_results_carry_the_food_cautions(tire_result):
+    # Rule of the project (common practice for food): every recommendation carries them.
+    from tradeoff.cautions import FOOD_CAUTIONS
+
+    assert tire_result.to_dict()["cautions"] == list(FOOD_CAUTIONS)
+    assert "shelf-life study" in tire_result.text()
