@@ -7,14 +7,11 @@ disk here; the caller saves or serves the bytes.
 """
 from __future__ import annotations
 
-import io
-
 import pandas as pd
 
 from .cautions import FOOD_CAUTION
 
-__all__ = ["study_toml_bytes", "solutions_table", "results_csv_bytes",
-           "results_excel_bytes", "CAUTION"]
+__all__ = ["study_toml_bytes", "solutions_table", "results_csv_bytes", "CAUTION"]
 
 CAUTION = FOOD_CAUTION
 
@@ -49,41 +46,3 @@ def solutions_table(result) -> pd.DataFrame:
 def results_csv_bytes(result) -> bytes:
     """The result's tidy table (``OptimizationResult.table()``) as UTF-8 CSV."""
     return result.table().to_csv(index=False).encode("utf-8")
-
-
-def results_excel_bytes(result, study, *, provenance: dict | None = None) -> bytes:
-    """The result as an Excel workbook.
-
-    Sheets: ``solutions`` (``solutions_table``), ``predictions``
-    (``OptimizationResult.table()``), ``goals`` (each goal as used),
-    ``notes`` (warnings, assumptions and the food caution) and, when given,
-    ``provenance`` (key, value).
-    """
-    goals = []
-    for kind, items in (("response", study.responses), ("factor", study.factors)):
-        for item in items:
-            g = item.goal
-            if kind == "factor" and item.is_categorical:
-                continue
-            goals.append({"kind": kind, "name": item.name, "unit": item.unit,
-                          "goal": g.kind, "lower": g.lower, "target": g.target,
-                          "upper": g.upper, "shape": g.shape,
-                          "shape_below": g.shape_below, "shape_above": g.shape_above,
-                          "weight": g.weight})
-    notes = ([("warning", w) for w in result.warnings]
-             + [("chances", a) for a in result.assumptions]
-             + [("unreachable", u) for u in result.unreachable]
-             + [("caution", CAUTION)])
-    buffer = io.BytesIO()
-    with pd.ExcelWriter(buffer, engine="openpyxl") as writer:
-        solutions_table(result).to_excel(writer, sheet_name="solutions", index=False)
-        result.table().to_excel(writer, sheet_name="predictions", index=False)
-        pd.DataFrame(goals).to_excel(writer, sheet_name="goals", index=False)
-        pd.DataFrame(notes, columns=["kind", "text"]).to_excel(
-            writer, sheet_name="notes", index=False)
-        if provenance is not None:
-            flat = [(k, v if not isinstance(v, dict) else str(v))
-                    for k, v in provenance.items()]
-            pd.DataFrame(flat, columns=["key", "value"]).to_excel(
-                writer, sheet_name="provenance", index=False)
-    return buffer.getvalue()

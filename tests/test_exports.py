@@ -10,11 +10,11 @@ import pandas as pd
 import pytest
 
 from tradeoff import load_study
-from tradeoff.exports import (CAUTION, results_csv_bytes, results_excel_bytes,
+from tradeoff.exports import (CAUTION, results_csv_bytes,
                               solutions_table, study_toml_bytes)
 from tradeoff.inputs import with_response_model
 from tradeoff.models import fit_study
-from tradeoff.provenance import provenance
+from tradeoff.report import build_workbook
 from tradeoff.search import optimize
 from tradeoff.study import study_from_dict
 
@@ -54,24 +54,15 @@ def test_results_csv_is_the_tidy_table(solved):
     assert frame.loc[0, "D"] == pytest.approx(result.best.desirability)
 
 
-def test_results_workbook_sheets(solved):
+def test_results_workbook_is_the_report_workbook_with_the_users_goals(solved):
+    # One workbook builder serves the workbench and `tradeoff report --out x.xlsx`.
     study, result = solved
-    block = provenance(study, seed=result.seed)
-    book = openpyxl.load_workbook(io.BytesIO(results_excel_bytes(result, study,
-                                                                 provenance=block)))
-    assert book.sheetnames == ["solutions", "predictions", "goals", "notes", "provenance"]
-    sol = pd.read_excel(io.BytesIO(results_excel_bytes(result, study)),
-                        sheet_name="solutions")
-    assert list(sol["solution"]) == [s.label for s in result.solutions]
-    assert sol.loc[0, "protein"] == pytest.approx(result.best.settings["protein"])
-    assert sol.loc[0, "binder"] == result.best.settings["binder"]
-    notes = [row[1] for row in book["notes"].iter_rows(min_row=2, values_only=True)]
-    assert CAUTION in notes
-    prov = {k: v for k, v in book["provenance"].iter_rows(min_row=2, values_only=True)}
-    assert prov["seed"] == 0 and len(prov["study_sha256"]) == 64
-    goals = pd.read_excel(io.BytesIO(results_excel_bytes(result, study)), sheet_name="goals")
-    assert goals.set_index("name").at["liking", "weight"] == 3.0
-    assert "binder" not in set(goals["name"])  # categorical factors take no goal
+    book = build_workbook(study, result=result)
+    sol = pd.read_excel(io.BytesIO(book), sheet_name="solutions")
+    assert sol["D"].iloc[0] == pytest.approx(result.best.desirability, abs=1e-6)
+    goals = pd.read_excel(io.BytesIO(book), sheet_name="goals")
+    liking = goals[goals["name"] == "liking"]
+    assert float(liking["weight"].iloc[0]) == 3.0
 
 
 def test_solutions_table_columns(solved):

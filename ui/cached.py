@@ -179,5 +179,7 @@ def report(study, fitted, result, kind: str, study_bytes=None, data_bytes=None) 
     """The report as HTML (``kind="html"``) or an Excel workbook (``"xlsx"``), cached."""
     ss = st.session_state
     key = _digest(study_keys(study)[1], ss["top"], ss["rank_by"])
-    with st.spinner("Writing the report (charts take a few seconds)..."):
+    busy = ("Writing the report (charts take a few seconds)..." if kind == "html"
+            else "Writing the workbook...")
+    with st.spinner(busy):
         return _report(key, kind, ss["top"], study, fitted, result, study_bytes, data_bytes)

@@ -1,14 +1,12 @@
 """Take it with you: the study with your targets, the results, the report."""
 from __future__ import annotations
 
-import importlib.util
 from pathlib import Path
 
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.exports import results_csv_bytes, results_excel_bytes, study_toml_bytes
-from tradeoff.provenance import provenance
+from tradeoff.exports import results_csv_bytes, study_toml_bytes
 from tradeoff_ui import cached
 
 ss = st.session_state
@@ -37,8 +35,7 @@ stem = Path(study.source.name if study.source else "study").stem
 try:
     toml_bytes = study_toml_bytes(study)
     csv_bytes = results_csv_bytes(result)
-    xlsx_bytes = results_excel_bytes(result, study, provenance=provenance(
-        study, seed=result.seed, study_bytes=study_bytes, data_bytes=data_bytes))
+    xlsx_bytes = cached.report(study, fitted, result, "xlsx", study_bytes, data_bytes)
 except TradeoffError as exc:
     st.error(str(exc))
     st.stop()
@@ -54,9 +51,10 @@ with st.expander("See the study file"):
     st.code(toml_bytes.decode("utf-8"), language="toml")
 
 st.subheader("The results")
-st.write("One row per solution and response: the settings, each prediction with its "
-         "intervals, desirabilities and chances. The workbook adds the goals used, the "
-         "notes and where the numbers came from (file fingerprints, seed, version).")
+st.write("The table has one row per solution and response: the settings, each prediction "
+         "with its intervals, desirabilities and chances. The workbook adds the runs, each "
+         "response's model, the goals used, the warnings and where the numbers came from "
+         "(file fingerprints, seed, version), one sheet each.")
 c1, c2 = st.columns(2)
 c1.download_button("Results table (.csv)", csv_bytes, file_name=f"{stem}_results.csv",
                    mime="text/csv", key="d_csv")
@@ -65,25 +63,15 @@ c2.download_button("Results workbook (.xlsx)", xlsx_bytes,
                    mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
 
 st.subheader("The report")
-if importlib.util.find_spec("tradeoff.report") is None:
-    st.caption("A printable report is not available in this version.")
-else:
-    st.write("One page to hand to colleagues (opens in any web browser, prints well): "
-             "the recommendation and alternatives, the targets, each response's model, "
-             "the warnings and cautions, and the exact study with file fingerprints. "
-             "The report workbook holds the same tables for a spreadsheet.")
-    if st.button("Prepare the report", key="d_prepare") or ss["report_ready"]:
-        ss["report_ready"] = True
-        try:
-            page = cached.report(study, fitted, result, "html", study_bytes, data_bytes)
-            book = cached.report(study, fitted, result, "xlsx", study_bytes, data_bytes)
-        except TradeoffError as exc:
-            st.error(str(exc))
-        else:
-            c1, c2 = st.columns(2)
-            c1.download_button("Report (.html)", page, file_name=f"{stem}_report.html",
-                               mime="text/html", key="d_report")
-            c2.download_button(
-                "Report workbook (.xlsx)", book, file_name=f"{stem}_report.xlsx",
-                key="d_report_xlsx",
-                mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+st.write("One page to hand to colleagues (opens in any web browser, prints well): "
+         "the recommendation and alternatives, the targets, each response's model, "
+         "the warnings and cautions, and the exact study with file fingerprints.")
+if st.button("Prepare the report", key="d_prepare") or ss["report_ready"]:
+    ss["report_ready"] = True
+    try:
+        page = cached.report(study, fitted, result, "html", study_bytes, data_bytes)
+    except TradeoffError as exc:
+        st.error(str(exc))
+    else:
+        st.download_button("Report (.html)", page, file_name=f"{stem}_report.html",
+                           mime="text/html", key="d_report")
