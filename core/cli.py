@@ -119,24 +119,25 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _seed(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number, found '{text}'") from None
-    if value < 0:
-        raise argparse.ArgumentTypeError(f"expected a whole number, 0 or more, found {value}")
-    return value
+def _whole_number(minimum: int):
+    """An argparse type: a whole number no smaller than ``minimum``."""
+
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(
+                f"expected a whole number, found '{text}'") from None
+        if value < minimum:
+            raise argparse.ArgumentTypeError(
+                f"expected a whole number, {minimum} or more, found {value}")
+        return value
+
+    return parse
 
 
-def _at_least_one(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number, found '{text}'") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"expected at least 1, found {value}")
-    return value
+_seed = _whole_number(0)
+_at_least_one = _whole_number(1)
 
 
 def _run_optimize(args) -> int:

@@ -7,7 +7,6 @@ objects (``Study``, ``Goal``) or raises a one-line ``TradeoffError``.
 """
 from __future__ import annotations
 
-import tomllib
 from dataclasses import replace
 from pathlib import Path
 
@@ -16,7 +15,8 @@ import pandas as pd
 
 from .errors import StudyError, TradeoffError
 from .intake import MAX_TABLE_BYTES, parse_number, read_table
-from .study import MAX_STUDY_BYTES, MODELS, Goal, Study, _goal, study_from_dict
+from .study import (MAX_STUDY_BYTES, MODELS, Goal, Study, _goal, parse_study_text,
+                    study_from_dict)
 
 __all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
            "checked_goal", "with_response_model"]
@@ -57,14 +57,7 @@ def study_from_files(files: dict[str, bytes]) -> Study:
         raise StudyError(f"expected one study file (.toml), found {found}: upload one "
                          "study file with its data file, or a data file on its own")
     name = tomls[0]
-    try:
-        spec = tomllib.loads(files[name].decode("utf-8-sig"))
-    except UnicodeDecodeError:
-        raise StudyError(f"{name}: the study file is not UTF-8 text: save it as UTF-8 "
-                         "in a text editor") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise StudyError(f"{name}: not a valid study file ({exc}): check quotes, "
-                         "brackets and '=' signs on that line") from None
+    spec = parse_study_text(files[name], name)
     head = spec.get("study", {})
     wanted = head.get("data") if isinstance(head, dict) else None
     if isinstance(wanted, str):

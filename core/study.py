@@ -22,7 +22,7 @@ from .intake import RawTable, parse_number, read_table
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
-    "load_study", "study_from_dict", "study_to_dict", "attach_runs",
+    "load_study", "parse_study_text", "study_from_dict", "study_to_dict", "attach_runs",
     "SECTION_KEYS", "MAX_STUDY_BYTES",
 ]
 
@@ -241,17 +241,24 @@ def load_study(path: str | Path, *, with_data: bool = True) -> Study:
                          f"{MAX_STUDY_BYTES // 2**20} MB, far more than a study file "
                          "holds: is it the right file?")
     try:
-        spec = tomllib.loads(path.read_bytes().decode("utf-8-sig"))
+        data = path.read_bytes()
     except OSError as exc:
         raise StudyError(f"{path}: cannot read the study file ({exc.strerror or exc}): "
                          "is it yours to read?") from None
+    return study_from_dict(parse_study_text(data, path.name), source=path,
+                           with_data=with_data)
+
+
+def parse_study_text(data: bytes, name: str) -> dict:
+    """A study file's bytes -> its TOML document, with one-line errors naming ``name``."""
+    try:
+        return tomllib.loads(data.decode("utf-8-sig"))
     except UnicodeDecodeError:
-        raise StudyError(f"{path.name}: the study file is not UTF-8 text: save it "
+        raise StudyError(f"{name}: the study file is not UTF-8 text: save it "
                          "as UTF-8 in a text editor") from None
     except tomllib.TOMLDecodeError as exc:
-        raise StudyError(f"{path.name}: not a valid study file ({exc}): check quotes, "
+        raise StudyError(f"{name}: not a valid study file ({exc}): check quotes, "
                          "brackets and '=' signs on that line") from None
-    return study_from_dict(spec, source=path, with_data=with_data)
 
 
 def study_from_dict(spec: dict, *, source: str | Path | None = None,

@@ -278,7 +278,7 @@ def test_cli_report(tmp_path, capsys):
     err = capsys.readouterr().err
     assert err.startswith("error: r.pdf: a report is written as .html")
     assert main(["report", str(TIRE), "--out", str(tmp_path / "x.html"), "--top", "0"]) == 2
-    assert "expected at least 1, found 0" in capsys.readouterr().err
+    assert "expected a whole number, 1 or more, found 0" in capsys.readouterr().err
     assert not (tmp_path / "x.html").exists()
 
 
