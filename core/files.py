@@ -62,6 +62,9 @@ def write_atomic(path: str | Path, data: bytes | str, *,
             stream.write(data)
             stream.flush()
             os.fsync(stream.fileno())
+        # mkstemp makes the file private (0600); give it the permissions a
+        # normally saved file would have, so colleagues can open the report.
+        os.chmod(temp, _normal_mode())
         os.replace(temp, path)
         temp = None
     except OSError as exc:
@@ -72,3 +75,10 @@ def write_atomic(path: str | Path, data: bytes | str, *,
         if temp is not None and os.path.exists(temp):
             os.unlink(temp)
     return path
+
+
+def _normal_mode() -> int:
+    """0666 less the user's umask: what open() would give a new file."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask

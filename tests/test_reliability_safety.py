@@ -230,3 +230,19 @@ def test_the_size_limits_are_checked_before_reading(tmp_path, monkeypatch):
     with pytest.raises(DataError, match=r"^runs\.csv: the file is larger than 50 MB"):
         read_table(big)
     assert os.path.getsize(big) == MAX_TABLE_BYTES + 1
+
+
+def test_saved_files_get_the_usual_permissions(tmp_path):
+    # A report saved for colleagues must not be private to its writer: the mode
+    # is what a plain open() would give (0666 less the umask; POSIX, common practice).
+    import os
+    import stat
+
+    from tradeoff.files import write_atomic
+
+    mask = os.umask(0o022)
+    try:
+        path = write_atomic(tmp_path / "report.html", "<p>hi</p>")
+    finally:
+        os.umask(mask)
+    assert stat.S_IMODE(path.stat().st_mode) == 0o644
