@@ -48,7 +48,8 @@ def _response_text(r: dict) -> list[str]:
     out.append("")
     out.append(f"  {'source':<16}{'sum of squares':>16}{'df':>5}{'mean square':>14}"
                f"{'F':>10}{'p':>10}")
-    names = {"model": "model", "residual": "residual", "lack_of_fit": "  lack of fit",
+    names = {"blocks": "blocks", "model": "model", "residual": "residual",
+             "lack_of_fit": "  lack of fit",
              "pure_error": "  pure error", "total": "total"}
     for key, label in names.items():
         row = a.get(key)
@@ -61,6 +62,17 @@ def _response_text(r: dict) -> list[str]:
         out.append(f"  curvature: centre average {_f(c['centre_mean'])} vs factorial "
                    f"average {_f(c['factorial_mean'])} (difference "
                    f"{_f(c['difference'])}), F {_f(c['f'], '.3g')}, p {_p(c['p'])}")
+    b = r.get("blocks")
+    if b is not None:
+        shifts = ", ".join(f"{lev} {v:+.4g}" if v is not None else f"{lev} -"
+                           for lev, v in b["effects"].items())
+        out.append(f"  blocks ({b['column']}, {len(b['levels'])}): shift from the average "
+                   f"block {shifts}; adjusted sum of squares {_f(b['ss'])} on {b['df']} df"
+                   + (f", F {_f(b['f'], '.3g')}, p {_p(b['p'])}" if b["p"] is not None
+                      else "") + "; predictions are for the average block")
+        if b["confounded"]:
+            out.append("  confounded with blocks (left out): "
+                       + ", ".join(b["confounded"]))
     if r["aliases"]:
         out.append("  aliases: " + "; ".join(f"{k} = {' + '.join(v) or '0'}"
                                              for k, v in r["aliases"].items()))

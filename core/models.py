@@ -8,6 +8,14 @@ are left), the ANOVA with lack of fit and curvature, R2, adjusted and
 predicted R2, per-run diagnostics, a Box-Cox suggestion, the equation in
 natural units, and vectorised predictions with confidence and prediction
 intervals. ``fit_study`` fits every response of a study.
+
+Blocks (days, batches: a ``block`` column of the runs, or the column named by
+``[study] blocks``) enter every model as nuisance terms ``block[2]``, ...:
+b - 1 sum-to-zero (effects) coded columns right after the intercept, so a
+factor term confounded with blocks is the one left out and reported. They are
+never dropped by reduction, never in the hierarchy, not factor effects (no
+Lenth, no half-normal point), and predictions are for the average block
+(block columns 0): they still take coded factor settings (n, k) only.
 """
 from __future__ import annotations
 
@@ -24,7 +32,7 @@ from .anova import anova_table
 from .diagnostics import diagnostic_arrays, run_diagnostics
 from .errors import DataError, ModelError, StudyError
 from .lenth import half_normal_points, lenth
-from .terms import (Term, find_aliases, hierarchy_closure, model_matrix,
+from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term, term_label)
 from .terms import qr as _qr
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
@@ -76,13 +84,15 @@ class ResponseModel:
     alpha : p-value above which reduction drops a term.
     keep, drop : terms pinned in (never dropped by reduction) or out (never fitted).
     factors : the study's Factor objects, for the equation in natural units.
+    block_name : the data column the blocks passed to ``fit`` come from (for the report).
     """
 
     def __init__(self, *, terms: str | Sequence[str] = "interactions",
                  factor_names: Sequence[str], transform: str = "none",
                  confidence: float = 0.95, name: str = "response", reduce: bool = False,
                  alpha: float = DEFAULT_ALPHA, keep: Sequence[str] = (),
-                 drop: Sequence[str] = (), factors: Sequence | None = None):
+                 drop: Sequence[str] = (), factors: Sequence | None = None,
+                 block_name: str = "block"):
         self.terms = terms
         self.factor_names = factor_names
         self.transform = transform
@@ -93,11 +103,16 @@ class ResponseModel:
         self.keep = keep
         self.drop = drop
         self.factors = factors
+        self.block_name = block_name
 
     # ------------------------------------------------------------------ fit
 
-    def fit(self, X_coded, y, run_ids=None) -> "ResponseModel":
-        """Fit to coded settings X (n, k) and responses y (n,); blank (NaN) y rows are left out."""
+    def fit(self, X_coded, y, run_ids=None, block=None) -> "ResponseModel":
+        """Fit to coded settings X (n, k) and responses y (n,); blank (NaN) y rows are left out.
+
+        ``block`` (optional, one label per run) adds sum-to-zero block terms when
+        the runs fall in two or more blocks.
+        """
         name = self.name
         names = list(self.factor_names)
         self._check_options()
@@ -121,6 +136,15 @@ class ResponseModel:
         if np.isinf(y).any():
             raise ModelError(f"response '{name}': an infinite value in run "
                              f"{ids[np.isinf(y)][0]}: check the data")
+        if block is not None:
+            block = np.asarray(block, dtype=object).ravel()
+            if block.size != y.size:
+                raise ModelError(f"response '{name}': {block.size} block labels for "
+                                 f"{y.size} runs")
+            blank_block = np.array([_blank(v) for v in block], dtype=bool)
+            if blank_block.any():
+                raise ModelError(f"response '{name}': run {ids[blank_block][0]} has no "
+                                 f"block: give every run its block ({self.block_name})")
 
         warnings: list[str] = []
         blank = np.isnan(y)
@@ -129,6 +153,8 @@ class ResponseModel:
                             f"{', ...' if blank.sum() > 10 else ''} have no value: left "
                             "out of this model")
         X, y, ids = X[~blank], y[~blank], ids[~blank]
+        if block is not None:
+            block = block[~blank]
         n = y.size
         if n < 2:
             raise ModelError(f"response '{name}': only {n} run(s) have a value: a model "
@@ -149,12 +175,28 @@ class ResponseModel:
         terms = [t for t in terms if t not in drop_terms]
 
         M = model_matrix(X, terms)
+        # Block columns right after the intercept: a factor term confounded with
+        # the blocks is then the one left out (the blocks always stay).
+        bterms, B, levels = (block_terms(block, len(names)) if block is not None
+                             else ([], None, []))
+        if bterms:
+            terms = terms[:1] + bterms + terms[1:]
+            M = np.asfortranarray(np.hstack([M[:, :1], B, M[:, 1:]]))
         keep_mask, aliases, qr = find_aliases(M, terms, return_qr=True)
         clean = all(len(v) == 1 for v in aliases.values())
         if len(terms) > n and not clean:
-            raise ModelError(self._too_many(len(terms), n, len(names)))
+            raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
+        block_labels = {t.label for t in bterms}
+        confounded = {}
         for dropped, partners in aliases.items():
-            if not partners:
+            if any(q in block_labels for q in partners):
+                confounded[dropped] = list(partners)
+                others = [q for q in partners if q not in block_labels]
+                warnings.append(f"term '{dropped}' is confounded with the blocks"
+                                f"{' and ' + ' + '.join(others) if others else ''}: a "
+                                "shift between blocks cannot be told apart from it, so "
+                                "it is left out of the model")
+            elif not partners:
                 warnings.append(f"term '{dropped}' is 0 in every run and cannot be "
                                 "estimated: left out")
             elif partners == ["intercept"]:
@@ -168,7 +210,7 @@ class ResponseModel:
         terms = [t for t, k in zip(terms, keep_mask) if k]
         M = M[:, keep_mask]
         if len(terms) > n:  # cannot happen after alias removal, kept as a guard
-            raise ModelError(self._too_many(len(terms), n, len(names)))
+            raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
 
         self.requested_terms_ = [t.label for t in terms]
         self.reduction_ = None
@@ -182,7 +224,8 @@ class ResponseModel:
         warnings += _near_alias_notes(terms, M, sol.cdiag)
         self._terms = terms
         self._sol = sol
-        self._set_results(X, y, z, ids, terms, sol, aliases, warnings)
+        self._set_results(X, y, z, ids, terms, sol, aliases, warnings,
+                          block if bterms else None, levels, confounded)
         return self
 
     def _check_options(self) -> None:
@@ -205,6 +248,10 @@ class ResponseModel:
             labels = [labels]
         out = []
         for text in labels or ():
+            if isinstance(text, str) and text.strip().startswith("block["):
+                raise ModelError(f"response '{self.name}': '{text}' is a block term: "
+                                 "blocks are always in the model; list factor terms "
+                                 f"to {what}")
             t = parse_term(text, list(self.factor_names), response=self.name)
             match = [u for u in terms if u.powers == t.powers]
             if not match:
@@ -213,7 +260,7 @@ class ResponseModel:
             out.append(match[0])
         return out
 
-    def _too_many(self, p: int, n: int, k: int) -> str:
+    def _too_many(self, p: int, n: int, k: int, n_blocks: int = 0) -> str:
         spec = self.terms
         what = f"the '{spec}' model" if isinstance(spec, str) else "the listed model"
         fits = [m for m in ("interactions", "main") if named_model_size(m, k) <= n]
@@ -223,17 +270,20 @@ class ResponseModel:
         else:
             hint = (f"even main effects need {k + 1} runs: add runs or list at most "
                     f"{n} terms")
-        return (f"response '{self.name}': {what} has {p} terms but only {n} runs have a "
-                f"value: a model cannot have more terms than runs: {hint}")
+        with_blocks = (f" (with {n_blocks} block term{'s' if n_blocks > 1 else ''})"
+                       if n_blocks else "")
+        return (f"response '{self.name}': {what} has {p} terms{with_blocks} but only {n} "
+                f"runs have a value: a model cannot have more terms than runs: {hint}")
 
     def _reduce(self, terms: list[Term], M: np.ndarray, z: np.ndarray,
                 keep_terms: list[Term], qr=None) -> tuple[list[Term], np.ndarray, dict[str, str]]:
         """Hierarchical backward elimination (p-values, or Lenth's ME when saturated)."""
-        pinned = hierarchy_closure(keep_terms, terms) | {"intercept"}
+        pinned = (hierarchy_closure(keep_terms, terms) | {"intercept"}
+                  | {t.label for t in terms if t.is_block})
         log: dict[str, str] = {}
         sol = _Solution(M, z, qr)
         if sol.df == 0:
-            eff_idx = [i for i, t in enumerate(terms) if not t.is_intercept and not t.is_square]
+            eff_idx = _effect_index(terms)
             if len(eff_idx) < 3:
                 return terms, M, log
             effects = 2 * sol.coef[eff_idx]
@@ -263,7 +313,8 @@ class ResponseModel:
             sol = _Solution(M[:, idx], z)
         return [terms[i] for i in idx], M[:, idx], log
 
-    def _set_results(self, X, y, z, ids, terms, sol: _Solution, aliases, warnings) -> None:
+    def _set_results(self, X, y, z, ids, terms, sol: _Solution, aliases, warnings,
+                     block=None, levels=(), confounded=None) -> None:
         n, p = z.size, len(terms)
         self.terms_ = [t.label for t in terms]
         self.coef_ = sol.coef.copy()
@@ -289,8 +340,8 @@ class ResponseModel:
         self.std_errors_ = None if sol.se is None else sol.se.copy()
         self.t_values_ = None if sol.t is None else sol.t.copy()
         self.p_values_ = None if sol.p is None else sol.p.copy()
-        self.effects_ = np.array([np.nan if (t.is_square or t.is_intercept) else 2 * b
-                                  for t, b in zip(terms, sol.coef)])
+        self.effects_ = np.array([np.nan if (t.is_square or t.is_intercept or t.is_block)
+                                  else 2 * b for t, b in zip(terms, sol.coef)])
         with np.errstate(divide="ignore", invalid="ignore"):
             self.sum_squares_ = sol.coef ** 2 / sol.cdiag  # adjusted SS, 1 df each
 
@@ -299,7 +350,7 @@ class ResponseModel:
         self.half_normal_ = None
         self.sigma_, self.sigma_df_ = self.residual_sd_, self.residual_df_
         if sol.df == 0:
-            eff_idx = [i for i, t in enumerate(terms) if not t.is_intercept and not t.is_square]
+            eff_idx = _effect_index(terms)
             if len(eff_idx) >= 3:
                 effects = self.effects_[eff_idx]
                 res = lenth(effects, level=self.confidence)
@@ -321,7 +372,8 @@ class ResponseModel:
                                 "Lenth's method: no error estimate, no intervals")
 
         # ANOVA, lack of fit and curvature on the modelling scale.
-        self.anova_ = anova_table(X, z, sol.sse, p)
+        self.anova_ = anova_table(X, z, sol.sse, p, block)
+        self.blocks_ = self._block_results(terms, sol, levels, block, confounded or {})
         lof = self.anova_.get("lack_of_fit")
         if lof is not None and lof["p"] == lof["p"] and lof["p"] < 0.05:
             warnings.append(f"lack of fit is significant (p = {lof['p']:.3g}): the model "
@@ -357,8 +409,43 @@ class ResponseModel:
         self._box_cox = None
         self.natural_coefficients_ = self._natural(terms, sol.coef)
         self._warnings = warnings
-        # What prediction needs, precomputed once.
-        self._Rinv = sol.Rinv
+        # What prediction needs, precomputed once: block columns are 0 at the
+        # average block, so only the factor terms' rows take part.
+        idx = [i for i, t in enumerate(terms) if not t.is_block]
+        self._pred_terms = [terms[i] for i in idx]
+        self._pred_coef = sol.coef[idx]
+        self._Rinv = sol.Rinv[idx]
+
+    def _block_results(self, terms, sol: _Solution, levels, block, confounded) -> dict | None:
+        """Block effects (one per block, summing to 0), their adjusted SS and test."""
+        bidx = [i for i, t in enumerate(terms) if t.is_block]
+        if not bidx:
+            return None
+        b = len(levels)
+        beta = sol.coef[bidx]
+        # effects of all b blocks: the first is minus the sum of the others
+        L = np.vstack([-np.ones(len(bidx)), np.eye(len(bidx))])
+        effects = L @ beta
+        C = sol.Rinv[bidx] @ sol.Rinv[bidx].T  # block part of (X'X)^-1
+        # extra SS of the block columns given every other term: beta' C^-1 beta
+        ss = float(beta @ np.linalg.solve(C, beta))
+        df = len(bidx)
+        labels = np.asarray([str(v) for v in block], dtype=object)
+        counts = {lev: int(np.sum(labels == lev)) for lev in levels}
+        if sol.df > 0:
+            s2 = sol.sse / sol.df
+            se = np.sqrt(s2 * np.einsum("ij,jk,ik->i", L, C, L))
+            f = (ss / df) / s2 if s2 > 0 else (np.inf if ss > 0 else np.nan)
+            p = float(special.fdtrc(df, sol.df, f)) if f == f else np.nan
+        else:
+            se = np.full(b, np.nan)
+            f = p = np.nan
+        return {"column": self.block_name, "levels": list(levels), "runs": counts,
+                "terms": [terms[i].label for i in bidx],
+                "effects": dict(zip(levels, effects.tolist())),
+                "std_errors": dict(zip(levels, se.tolist())),
+                "ss": ss, "df": df, "f": float(f), "p": float(p),
+                "confounded": {k: list(v) for k, v in confounded.items()}}
 
     @property
     def box_cox_(self) -> dict | None:
@@ -412,6 +499,8 @@ class ResponseModel:
         k = len(self.factor_names)
         poly: dict[tuple[int, ...], float] = {}
         for t, b in zip(terms, coef):
+            if t.is_block:
+                continue  # the equation is for the average block
             part = {(0,) * k: float(b)}
             for j, pw in enumerate(t.powers):
                 if not pw:
@@ -430,7 +519,7 @@ class ResponseModel:
                 part = new
             for powers, val in part.items():
                 poly[powers] = poly.get(powers, 0.0) + val
-        order = {t.powers: i for i, t in enumerate(terms)}
+        order = {t.powers: i for i, t in enumerate(terms) if not t.is_block}
         keys = sorted(poly, key=lambda q: (sum(q), order.get(q, len(order)), q))
         return {term_label(q, list(self.factor_names)): poly[q] for q in keys}
 
@@ -448,7 +537,7 @@ class ResponseModel:
         if X.ndim != 2 or X.shape[1] != len(self.factor_names):
             raise ModelError(f"response '{self.name}': expected settings with one column "
                              f"per factor ({len(self.factor_names)}), found shape {X.shape}")
-        return model_matrix(X, self._terms)
+        return model_matrix(X, self._pred_terms)
 
     def predictive(self, X_coded) -> tuple[np.ndarray, np.ndarray, float, int]:
         """Mean, its standard error, sigma and its degrees of freedom, on the modelling scale.
@@ -458,7 +547,7 @@ class ResponseModel:
         """
         self._check_fitted()
         M = self._matrix(X_coded)
-        mean = M @ self.coef_
+        mean = M @ self._pred_coef
         A = M @ self._Rinv
         se = np.sqrt(np.einsum("ij,ij->i", A, A)) * self.sigma_
         return mean, se, float(self.sigma_), int(self.sigma_df_)
@@ -466,7 +555,7 @@ class ResponseModel:
     def predict(self, X_coded) -> np.ndarray:
         """Mean prediction in natural units (for log: the back-transformed mean, a median)."""
         self._check_fitted()
-        return inverse(self._matrix(X_coded) @ self.coef_, self.transform)
+        return inverse(self._matrix(X_coded) @ self._pred_coef, self.transform)
 
     def intervals(self, X_coded, level: float | None = None) -> pd.DataFrame:
         """Predictions with confidence (mean) and prediction (new run) intervals, natural units.
@@ -530,6 +619,7 @@ class ResponseModel:
                 {"term": r.term, "effect": _num(r.effect), "quantile": _num(r.quantile)}
                 for r in self.half_normal_.itertuples()],
             "aliases": {k: list(v) for k, v in self.aliases_.items()},
+            "blocks": _clean(self.blocks_),
             "anova": _clean(self.anova_),
             "natural_coefficients": _clean(self.natural_coefficients_),
             "box_cox": _clean(self.box_cox_),
@@ -571,6 +661,20 @@ def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray) -> list[str]:
                          "its coefficient is poorly determined: check the factor "
                          "settings, or add runs that set the factors apart")
     return notes
+
+
+def _effect_index(terms) -> list[int]:
+    """Positions of the factor effects (no intercept, square or block term)."""
+    return [i for i, t in enumerate(terms)
+            if not (t.is_intercept or t.is_square or t.is_block)]
+
+
+def _blank(value) -> bool:
+    if value is None:
+        return True
+    if isinstance(value, (float, np.floating)):
+        return not math.isfinite(value)
+    return isinstance(value, str) and not value.strip()
 
 
 def _num(v):
@@ -650,7 +754,7 @@ class StudyFit:
 
 def fit_response(study, name: str, *, reduce: bool = False, terms=None,
                  alpha: float = DEFAULT_ALPHA, keep=None, drop=None) -> ResponseModel:
-    """Fit one response of a study.
+    """Fit one response of a study (with block terms when its runs fall in blocks).
 
     ``terms`` overrides the study's model (a name or a list of terms); ``keep``
     and ``drop`` override the response's ``keep_terms`` / ``drop_terms`` keys.
@@ -670,9 +774,9 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     model = ResponseModel(terms=spec, factor_names=study.factor_names,
                           transform=response.transform, confidence=study.confidence,
                           name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
-                          factors=study.factors)
+                          factors=study.factors, block_name=study.block_column or "block")
     return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
-                     study.runs["run"].to_numpy())
+                     study.runs["run"].to_numpy(), block=study.block_labels())
 
 
 def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:

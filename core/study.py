@@ -41,7 +41,9 @@ SECTION_KEYS: dict[str, set[str]] = {
     "top": {"study", "factors", "responses", "constraints", "confirmations",
             "storage", "panel"},
     "study": {"name", "data", "model", "terms", "sheet", "description",
-              "confidence", "seed"},
+              "confidence", "seed",
+              # the runs' block column when not named 'block' (core/models.py)
+              "blocks"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
     # terms pinned in or out of a response's model (core/models.py)
@@ -169,6 +171,26 @@ class Study:
     runs: pd.DataFrame | None = field(default=None, compare=False, repr=False)
     notes: tuple[str, ...] = ()
     spec: dict = field(default_factory=dict, compare=False, repr=False)
+    blocks: str | None = None
+
+    @property
+    def block_column(self) -> str | None:
+        """The runs' column giving each run's block: ``[study] blocks``, else a
+        column named ``block`` (unless a factor or response has that name), else None."""
+        if self.blocks is not None:
+            return self.blocks
+        if (self.runs is not None and "block" in self.runs.columns
+                and "block" not in self.factor_names + self.response_names):
+            return "block"
+        return None
+
+    def block_labels(self) -> np.ndarray | None:
+        """Each run's block as text when the runs fall in two or more blocks, else None."""
+        name = self.block_column
+        if name is None or self.runs is None or name not in self.runs.columns:
+            return None
+        labels = np.asarray([str(v) for v in self.runs[name]], dtype=object)
+        return labels if len(set(labels.tolist())) > 1 else None
 
     @property
     def factor_names(self) -> list[str]:
@@ -314,13 +336,24 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         if source is not None and not data_path.is_absolute():
             data_path = source.parent / data_path
     sheet = head.get("sheet")
+    blocks = head.get("blocks")
+    if blocks is not None:
+        if not isinstance(blocks, str) or not blocks.strip():
+            raise StudyError(f"{fname}: [study] blocks must be the name of the data "
+                             "column that gives each run's block, in quotes, for "
+                             "example blocks = \"day\"")
+        blocks = unicodedata.normalize("NFC", blocks.strip())
+        if blocks in [f.name for f in factors] + [r.name for r in responses]:
+            raise StudyError(f"{fname}: [study] blocks = '{blocks}' is a factor or "
+                             "response of the study: name the column of days or "
+                             "batches instead")
 
     study = Study(
         name=str(head.get("name", source.stem if source else "study")),
         factors=factors, responses=responses, model=model, terms=terms,
         constraints=constraints, confidence=confidence, seed=seed, source=source,
         data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
-        spec=spec,
+        spec=spec, blocks=blocks,
     )
     if "confirmations" in spec:
         from .confirm import confirmation_runs  # late: confirm reads Study from here
@@ -447,6 +480,21 @@ def attach_runs(study: Study, table: RawTable) -> Study:
     for name, index in columns.items():
         if name not in modelled:
             data[name] = cells_of(index)
+    block = study.blocks or ("block" if "block" in columns and "block" not in modelled
+                             else None)
+    if block is not None:
+        # Blocks enter every model (core/models.py): each run needs one.
+        index = column_index(block, "the blocks ([study] blocks)")
+        labels = []
+        for row, cell in zip(row_numbers, cells_of(index)):
+            text = None if cell is None else _run_id(cell)
+            if not text:
+                raise DataError(f"{where(fname, row, block)}blank block: every run "
+                                "needs its block (day, batch) when the table has a block "
+                                "column: fill it in, or delete the column if the runs "
+                                "were not made in blocks")
+            labels.append(text)
+        data[block] = labels
     runs = pd.DataFrame(data, index=pd.Index(row_numbers, name="row"))
     return replace(study, runs=runs, notes=tuple(notes))
 
@@ -692,6 +740,8 @@ def study_to_dict(study: Study) -> dict:
         head["confidence"] = study.confidence
     if study.seed:
         head["seed"] = study.seed
+    if study.blocks is not None:
+        head["blocks"] = study.blocks
     out: dict[str, Any] = {"study": head}
     for key, value in study.spec.items():
         if key not in _BASE_TOP:

@@ -10,6 +10,7 @@ from __future__ import annotations
 import difflib
 import functools
 import itertools
+import math
 from dataclasses import dataclass
 from typing import Sequence
 
@@ -19,7 +20,8 @@ from scipy.linalg import qr as _scipy_qr
 from .errors import ModelError
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
-           "qr", "find_aliases", "hierarchy_closure", "named_model_size"]
+           "qr", "find_aliases", "hierarchy_closure", "named_model_size", "BlockTerm",
+           "block_terms"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 
@@ -52,10 +54,80 @@ class Term:
     def factors(self) -> tuple[int, ...]:
         return tuple(j for j, p in enumerate(self.powers) if p)
 
+    @property
+    def is_block(self) -> bool:
+        return False
+
     def contains(self, other: "Term") -> bool:
         """True when ``other`` is a strict lower-order part of this term (a parent)."""
+        if self.is_block or other.is_block:
+            return False  # blocks are outside the hierarchy of factor terms
         return other.powers != self.powers and all(
             o <= s for o, s in zip(other.powers, self.powers))
+
+
+@dataclass(frozen=True)
+class BlockTerm(Term):
+    """A block column (a nuisance term): not a product of factors.
+
+    ``level`` is the block it stands for; in sum-to-zero (effects) coding the
+    column is +1 in that block, -1 in the first block and 0 elsewhere, so its
+    coefficient is the block's shift from the average over blocks.
+    """
+
+    level: str = ""
+
+    @property
+    def is_intercept(self) -> bool:
+        return False
+
+    @property
+    def is_square(self) -> bool:
+        return False
+
+    @property
+    def is_block(self) -> bool:
+        return True
+
+
+def block_terms(block, k: int) -> tuple[list[BlockTerm], np.ndarray, list[str]]:
+    """Sum-to-zero (effects) coded block columns of run labels ``block``.
+
+    Parameters
+    ----------
+    block : (n,) block label of each run (any values; compared as text).
+    k : number of factors (the length of a term's powers).
+
+    Returns
+    -------
+    terms : one BlockTerm per block after the first, labelled ``block[<level>]``.
+    columns : (n, b - 1) array: +1 in the term's block, -1 in the first block, else 0.
+    levels : the b block labels, the first being the one left out (its effect is
+        minus the sum of the others). Numbers sort as numbers, other labels as text.
+        With fewer than two blocks: no terms, an (n, 0) array.
+    """
+    labels = np.asarray([str(v) for v in np.asarray(block, dtype=object).ravel()],
+                        dtype=object)
+    levels = sorted(set(labels.tolist()), key=_level_key)
+    n = labels.size
+    if len(levels) < 2:
+        return [], np.empty((n, 0)), levels
+    first = labels == levels[0]
+    columns = np.zeros((n, len(levels) - 1))
+    terms = []
+    for j, level in enumerate(levels[1:]):
+        columns[labels == level, j] = 1.0
+        columns[first, j] = -1.0
+        terms.append(BlockTerm(f"block[{level}]", (0,) * k, level))
+    return terms, columns, levels
+
+
+def _level_key(text: str):
+    try:
+        value = float(text)
+    except ValueError:
+        return (1, 0.0, text)
+    return (0, value, text) if math.isfinite(value) else (1, 0.0, text)
 
 
 def term_label(powers: Sequence[int], names: Sequence[str]) -> str:
