@@ -194,7 +194,7 @@ def evaluate_plan(plan, model: str | Sequence[str] = "interactions", *,
 
 def evaluate_study(study, model: str | Sequence[str] | None = None, *,
                    effect: float | None = None, sd: float | None = None) -> DesignEvaluation:
-    """Evaluate a loaded study's runs (a ``block`` column is used when present).
+    """Evaluate a loaded study's runs (its blocks are used when it has two or more).
 
     ``model`` defaults to the study's model; the significance level is
     1 - the study's confidence.
@@ -203,8 +203,6 @@ def evaluate_study(study, model: str | Sequence[str] | None = None, *,
         raise PlanError(f"study '{study.name}' has no runs loaded: load it with its data")
     if model is None:
         model = study.terms if study.terms is not None else study.model
-    block = None
-    if "block" in study.runs.columns and study.runs["block"].nunique() > 1:
-        block = study.runs["block"].astype(str).to_numpy()
+    block = study.block_labels()  # the block column or [study] blocks, as the models use
     return evaluate_design(study.factors, study.coded().to_numpy(float), model,
                            block=block, effect=effect, sd=sd, alpha=1 - study.confidence)

@@ -791,9 +791,10 @@ class _Page:
 
     def _terms_table(self, rep: dict, alpha: float) -> str:
         rows = []
+        blocks = set((rep.get("blocks") or {}).get("terms", ()))
         for term in rep["terms"]:
             clear = _is_clear(rep, term, alpha)
-            if term != "intercept" and not clear:
+            if term in blocks or (term != "intercept" and not clear):
                 continue
             rows.append([esc(term), _g(_get(rep["coefficients"], term)),
                          _g(_get(rep["effects"], term)),
@@ -1009,9 +1010,10 @@ def _effects_chart(response, rep: dict, alpha: float) -> str:
     import altair as alt
 
     rows = []
+    blocks = set((rep.get("blocks") or {}).get("terms", ()))
     for term in rep["terms"]:
-        if term == "intercept":
-            continue
+        if term == "intercept" or term in blocks:
+            continue  # block shifts are not factor effects
         effect = _get(rep["effects"], term)
         size = effect if effect is not None else _get(rep["coefficients"], term)
         if size is None:

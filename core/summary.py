@@ -49,8 +49,21 @@ def study_summary(study: Study) -> dict:
             "source": str(study.source) if study.source else None,
             "data": str(study.data_path) if study.data_path else None,
             "runs": int(len(runs)), "factors": factors, "responses": responses,
+            "blocks": _blocks(study),
             "constraints": [c["rule"] for c in study.constraints],
             "warnings": list(study.notes)}
+
+
+def _blocks(study) -> dict | None:
+    """The runs per block when the runs fall in two or more blocks (models add block terms)."""
+    labels = study.block_labels()
+    if labels is None:
+        return None
+    from .terms import block_terms
+
+    levels = block_terms(labels, 0)[2]
+    return {"column": study.block_column,
+            "runs": {lev: int((labels == lev).sum()) for lev in levels}}
 
 
 def _model_name(model) -> str:
@@ -73,6 +86,11 @@ def summary_text(summary: dict) -> str:
                 f"(coded -1 .. +1); tested {f['tested'][0]:g} .. {f['tested'][1]:g} "
                 f"(coded {f['coded_tested'][0]:+.3g} .. {f['coded_tested'][1]:+.3g}), "
                 f"{f['distinct_settings']} settings")
+    b = summary.get("blocks")
+    if b:
+        counts = ", ".join(f"{lev}: {n} runs" for lev, n in b["runs"].items())
+        lines += ["", f"Blocks (column '{b['column']}'): {counts}; every model gets a "
+                  "block term for each block after the first"]
     lines += ["", "Responses"]
     for r in summary["responses"]:
         unit = f" {r['unit']}" if r["unit"] else ""

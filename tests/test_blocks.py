@@ -368,8 +368,11 @@ def _write(tmp_path, rows, *, header="run,block,a,b,c,d,y", extra=""):
     return _study(tmp_path, extra=extra)
 
 
-ROWS = [f"{i + 1},{1 + (i >= 4)},{a},{b},{c},{d},{i}" for i, (a, b, c, d) in
-        enumerate(itertools.product([10, 20], repeat=4))][:8]
+# A 2^(4-1) fraction (d = abc) in standard order, a fastest: the first four runs
+# (c low) in block 1, the last four (c high) in block 2, so c is confounded with
+# the blocks on purpose.
+ROWS = [f"{i + 1},{1 + (i >= 4)},{15 + 5 * a:g},{15 + 5 * b:g},{15 + 5 * c:g},"
+        f"{15 + 5 * a * b * c:g},{i * i}" for i, (a, b, c) in enumerate(factorial(3))]
 
 
 def test_blank_block_cell_names_file_row_and_column(tmp_path):
@@ -398,3 +401,20 @@ def test_blocks_key_names_the_column(tmp_path):
         load_study(_write(tmp_path, ROWS, extra='blocks = "a"\n'))
     with pytest.raises(StudyError, match=r"\[study\] blocks must be the name of the data"):
         load_study(_write(tmp_path, ROWS, extra='blocks = 2\n'))
+
+
+def test_check_summary_and_design_evaluation_use_the_named_block_column(tmp_path):
+    from tradeoff.evaluation import evaluate_study
+    from tradeoff.summary import study_summary, summary_text
+
+    rows = [r.replace(",1,", ",Mon,", 1).replace(",2,", ",Tue,", 1) for r in ROWS]
+    study = load_study(_write(tmp_path, rows, header="run,day,a,b,c,d,y",
+                              extra='blocks = "day"\n'))
+    text = summary_text(study_summary(study))
+    assert "Blocks (column 'day'): Mon: 4 runs, Tue: 4 runs" in text
+    # the days follow factor c (see ROWS): both the design check and the model say so
+    ev = evaluate_study(study, "main")
+    assert "block Tue" in ev.aliased["c"]
+    m = fit_study(study, responses=["y"]).models["y"]
+    assert m.blocks_["confounded"] == {"c": ["block[Tue]"]}
+    assert m.terms_ == ["intercept", "block[Tue]", "a", "b", "d", "a:b", "a:c", "a:d"]
