@@ -7,7 +7,9 @@ tests/search_problems.py) it prints, side by side:
 - tradeoff: time to the settings (the search alone, what differential evolution
   returns too) and to the full result (5 solutions, intervals, chances), and D;
 - scipy.optimize.differential_evolution at its defaults (seed fixed for
-  repeatability) maximising the same D;
+  repeatability) maximising the same D, on the first ``--de`` random problems and
+  on more of them until every number of factors has ``--de-per-size`` (in seed
+  order), so that the speed-up can be given for each problem size;
 - a dense grid over the region polished by Nelder-Mead (the reference for
   "found the global maximum").
 
@@ -15,7 +17,7 @@ Times are the fastest of 3 runs (the machine may be shared). Targets (issue 4): 
 higher D; equal to the dense grid within 1e-3 on at least 99.5% of the random
 problems.
 
-    .venv/bin/python benchmarks/bench_search.py [--problems 200] [--de 25]
+    .venv/bin/python benchmarks/bench_search.py [--problems 200] [--de 25] [--de-per-size 5]
 """
 from __future__ import annotations
 
@@ -80,6 +82,9 @@ def main(argv=None) -> int:
                         help="random problems compared with the dense grid")
     parser.add_argument("--de", type=int, default=25,
                         help="how many of them are also run with differential evolution")
+    parser.add_argument("--de-per-size", type=int, default=5,
+                        help="differential evolution also runs on further problems until "
+                             "each number of factors has this many")
     args = parser.parse_args(argv)
 
     rows = []
@@ -88,10 +93,14 @@ def main(argv=None) -> int:
     optimize(study, fit=fit)  # warm imports so the first timing is fair
     rows.append(("Derringer & Suich 1980", 3, 4, "quadratic",
                  *_ours(study, fit), *_de(study, fit), *_grid(study, fit)))
+    de_count = {}
     for seed in range(args.problems):
         study, fit = random_problem(seed)
         kind = fit.models["y1"].kind
-        de = _de(study, fit) if seed < args.de else (np.nan, np.nan)
+        k = len(study.factors)
+        run_de = seed < args.de or de_count.get(k, 0) < args.de_per_size
+        de = _de(study, fit) if run_de else (np.nan, np.nan)
+        de_count[k] = de_count.get(k, 0) + run_de
         rows.append((f"random {seed}", len(study.factors), len(study.models)
                      if hasattr(study, "models") else len(study.responses), kind,
                      *_ours(study, fit), *de, *_grid(study, fit)))
@@ -102,7 +111,7 @@ def main(argv=None) -> int:
               "| DE s | DE D | speed-up (settings) | grid s | grid D | D - grid D |")
     print(header)
     print("|" + "|".join("---" for _ in range(13)) + "|")
-    shown = rows[:1] + rows[1:args.de + 1]
+    shown = [r for r in rows if np.isfinite(r[7])]
     for name, k, m, kind, t0, t1, d1, t2, d2, t3, d3 in shown:
         speed = f"{t2 / t0:.0f}x" if np.isfinite(t2) else "-"
         de_t = f"{t2:.3f}" if np.isfinite(t2) else "-"
@@ -132,6 +141,13 @@ def main(argv=None) -> int:
           f"or more factors median {np.median(speedups[big]):.0f}x, min "
           f"{speedups[big].min():.0f}x; counting the full result median "
           f"{np.median(speedups_full):.0f}x.")
+    ks = np.array([r[1] for r in with_de])
+    random_de = np.array([not r[0].startswith("Derringer") for r in with_de])
+    print("Speed-up to the settings by number of factors (random problems): " + "; ".join(
+        f"{k}: median {np.median(speedups[(ks == k) & random_de]):.1f}x, "
+        f"min {speedups[(ks == k) & random_de].min():.1f}x "
+        f"({int(((ks == k) & random_de).sum())} problems)"
+        for k in sorted(set(ks[random_de].tolist()))) + ".")
     return 0
 
 

@@ -4,14 +4,16 @@
 over the searched region: each numeric factor's ``search`` range (default
 low..high), the study's linear rules, and every combination of categorical
 levels. D has kinks (where a desirability reaches 0 or 1), flat zero regions
-and often several local maxima, so the search works in three steps:
+and often several local maxima, so the search works in four steps:
 
-1. a scrambled Sobol batch of candidates per level combination (scipy.stats.qmc),
-   half of it stretched onto the region's faces, plus its corners, evaluated at
-   once;
+1. a Sobol batch of candidates per level combination (scipy.stats.qmc, with a
+   seeded digital shift), sized to the number of numeric factors and level
+   combinations, half of it stretched onto the region's faces, plus its
+   corners, evaluated at once;
 2. the best candidates that lie apart (in coded units; every level combination
-   with D > 0 gets one) climb together by compass steps, one batch per step;
-   starts that end on the same peak are grouped;
+   with D > 0 gets one) climb together by pattern steps (up to 3 numeric
+   factors along the diagonals too, else up and down each factor), one batch
+   per step; starts that end on the same peak are grouped;
 3. one start per peak is polished by SLSQP on a smooth equivalent problem:
    maximise ``sum w_i log t_i`` subject to each desirability piece being at
    least ``t_i`` (the kinks become constraints, which a gradient method handles
@@ -23,11 +25,18 @@ and often several local maxima, so the search works in three steps:
 When D is 0 everywhere, the search minimises the weighted squared shortfall
 (how far predictions lie outside their limits, in goal widths) instead and
 returns the closest settings, naming the goals that cannot be met.
+
+The search runs its linear algebra on one BLAS thread (threadpoolctl): its
+matrices are small, and a thread pool only adds waiting, most of all on a
+busy machine.
 """
 from __future__ import annotations
 
+import contextlib
+import functools
 import itertools
 import math
+import threading
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,7 +44,7 @@ import pandas as pd
 
 from .chance import chance_in_limits
 from .constraints import rule_arrays, study_rules
-from .desirability import combine_desirability, desirability, limits, shortfall
+from .desirability import limits
 from .cautions import FOOD_CAUTION, FOOD_CAUTIONS
 from .errors import SearchError
 
@@ -47,6 +56,12 @@ _STEP = 1e-5  # central-difference step in coded units (models are smooth polyno
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 _SAME = 0.05  # climbed starts closer than this (coded) share one basin
 _JOINT = 30  # at most this many variables in one joint polish
+_ROUNDS = 20  # at most this many compass rounds (4 or more numeric factors)
+_DIAGONAL = 3  # up to this many numeric factors the climb steps along diagonals too
+_ROUNDS_DIAGONAL = 8  # at most this many rounds then (each round tries more directions)
+_SETTLE = 2e-3  # a start whose compass step is below this (coded) has settled
+_SOBOL_BITS = 30
+_FTOL = 1e-6  # SLSQP stops when sum(w log t) (log D) changes less than this per peak
 
 
 # --------------------------------------------------------------------------
@@ -347,6 +362,42 @@ class _Problem:
         self.weights = np.array([g.weight for g in self.goals])
         self.A, self.b = rule_arrays(study, coded=True)
         self.evaluations = 0
+        self._goal_arrays()
+        # Box bounds over every column (categorical ones unbounded), for clipping.
+        self.lo_k = np.full(self.k, -np.inf)
+        self.hi_k = np.full(self.k, np.inf)
+        self.lo_k[self.num], self.hi_k[self.num] = self.lo, self.hi
+
+    def _goal_arrays(self) -> None:
+        """Every goal's curve as arrays, so all columns are scored at once.
+
+        Each desirability is ``clip((y - lo_b) / w_b) ** s_b * clip((hi_a - y) / w_a) ** s_a``
+        (the formulas of ``tradeoff.desirability``): maximize uses the rising
+        piece only, minimize the falling one, a target both (one of them is 1 on
+        each side of the target); a range goal is 1 inside lower..upper.
+        """
+        m = len(self.goals)
+        self.lo_b, self.w_b, self.s_b = np.full(m, -np.inf), np.ones(m), np.ones(m)
+        self.hi_a, self.w_a, self.s_a = np.full(m, np.inf), np.ones(m), np.ones(m)
+        self.is_range = np.zeros(m, dtype=bool)
+        self.lim_lo, self.lim_hi = np.full(m, -np.inf), np.full(m, np.inf)
+        self.width = np.ones(m)
+        for i, g in enumerate(self.goals):
+            self.lim_lo[i], self.lim_hi[i] = limits(g)
+            self.width[i] = g.upper - g.lower
+            if g.kind == "maximize":
+                self.lo_b[i], self.w_b[i], self.s_b[i] = g.lower, g.upper - g.lower, g.shape
+            elif g.kind == "minimize":
+                self.hi_a[i], self.w_a[i], self.s_a[i] = g.upper, g.upper - g.lower, g.shape
+            elif g.kind == "target":
+                self.lo_b[i], self.w_b[i], self.s_b[i] = \
+                    g.lower, g.target - g.lower, g.shape_below
+                self.hi_a[i], self.w_a[i], self.s_a[i] = \
+                    g.upper, g.upper - g.target, g.shape_above
+            else:  # range
+                self.is_range[i] = True
+        self.any_range = bool(self.is_range.any())
+        self.w_norm = self.weights / self.weights.sum() if m else self.weights
 
     def names(self) -> list[str]:
         return [n for _, n in self.columns]
@@ -354,22 +405,45 @@ class _Problem:
     def values(self, X) -> np.ndarray:
         """(n, m) natural values of every goal column at coded points X (n, k)."""
         X = np.atleast_2d(X)
-        self.evaluations += len(X)
-        cols = [np.asarray(m.predict(X), dtype=float).reshape(len(X))
-                for m in self.col_models]
-        cols += [self.centre[j] + self.half[j] * X[:, j] for j in self.col_factor]
-        return np.column_stack(cols) if cols else np.empty((len(X), 0))
+        n = len(X)
+        self.evaluations += n
+        Y = np.empty((n, len(self.columns)))
+        for i, m in enumerate(self.col_models):
+            Y[:, i] = np.asarray(m.predict(X), dtype=float).reshape(n)
+        for i, j in enumerate(self.col_factor, start=len(self.col_models)):
+            Y[:, i] = self.centre[j] + self.half[j] * X[:, j]
+        return Y
 
     def score(self, Y):
-        d = np.column_stack([desirability(Y[:, i], g) for i, g in enumerate(self.goals)])
-        return combine_desirability(d, self.weights), d
+        """Overall D (n,) and individual desirabilities (n, m) of goal values Y (n, m)."""
+        d = np.clip((Y - self.lo_b) / self.w_b, 0.0, 1.0) ** self.s_b
+        d *= np.clip((self.hi_a - Y) / self.w_a, 0.0, 1.0) ** self.s_a
+        if self.any_range:
+            inside = ((Y >= self.lim_lo) & (Y <= self.lim_hi)).astype(float)
+            d = np.where(self.is_range, inside, d)
+        d[np.isnan(Y)] = 0.0
+        # D = exp(sum w log d), 0 as soon as one d is 0 (its log is left out).
+        positive = d > 0
+        total = np.log(np.where(positive, d, 1.0)) @ self.w_norm
+        return np.where(positive.all(axis=1), np.exp(total), 0.0), d
+
+    def gaps(self, Y) -> np.ndarray:
+        """How far each goal value lies outside its limits, in goal widths (n, m).
+
+        The formula of ``tradeoff.desirability.shortfall``, every column at once.
+        """
+        gap = np.maximum(np.maximum(self.lim_lo - Y, Y - self.lim_hi), 0.0) / self.width
+        gap[np.isnan(Y)] = np.inf
+        return gap
 
     def shortfall(self, Y) -> np.ndarray:
-        s = np.column_stack([shortfall(Y[:, i], g) for i, g in enumerate(self.goals)])
-        return (s ** 2) @ self.weights
+        """Weighted squared distance outside the limits, in goal widths (n,)."""
+        return (self.gaps(Y) ** 2) @ self.weights
 
     def full(self, Z, cat_values) -> np.ndarray:
         """Numeric coded points Z (n, p) and categorical values -> (n, k)."""
+        if not self.cat:
+            return np.asarray(Z, dtype=float)
         X = np.empty((len(Z), self.k))
         X[:, self.num] = Z
         X[:, self.cat] = np.asarray(cat_values, dtype=float)
@@ -444,9 +518,10 @@ def _polish_d(problem, Z0, cats):
 
     ``Z0`` (c, p) numeric starts and ``cats`` (c, n_cat) their categorical
     values. The c problems are independent; solving them as one block-diagonal
-    problem evaluates every block in one batch per iteration. Returns (c, p).
+    problem evaluates every block in one batch per iteration. Returns the
+    polished settings (c, p) and the goal values there (c, m).
     """
-    from scipy.optimize import minimize
+    from scipy.optimize import Bounds, minimize
 
     Z0 = np.atleast_2d(Z0)
     c, p = Z0.shape
@@ -457,17 +532,16 @@ def _polish_d(problem, Z0, cats):
     steps = np.vstack([np.zeros(p), _STEP * np.eye(p), -_STEP * np.eye(p)])  # (2p+1, p)
     cats = np.asarray(cats, dtype=float).reshape(c, -1)
     cat_rows = np.repeat(cats, 2 * p + 1, axis=0)
-    cache = {}
+    last = [None, None]  # the settings last evaluated and (y, J) there
 
     def at(v):
-        key = v.tobytes()
-        if key not in cache:
+        key = v[:c * p].tobytes()  # the values depend on the settings only, not on t
+        if key != last[0]:
             Z = v[:c * p].reshape(c, p)
             pts = (Z[:, None, :] + steps[None]).reshape(-1, p)
             Y = problem.values(problem.full(pts, cat_rows)).reshape(c, 2 * p + 1, -1)
-            cache.clear()
-            cache[key] = (Y[:, 0], (Y[:, 1:p + 1] - Y[:, p + 1:]) / (2 * _STEP))
-        return cache[key]  # y (c, m), J (c, p, m)
+            last[:] = key, (Y[:, 0], (Y[:, 1:p + 1] - Y[:, p + 1:]) / (2 * _STEP))
+        return last[1]  # y (c, m), J (c, p, m)
 
     # Each piece: coefficient on y (scaled), constant, t index (-1 for none), exponent.
     pieces = []
@@ -506,19 +580,24 @@ def _polish_d(problem, Z0, cats):
             out += [rules[b][1] - rules[b][0] @ Z[b] for b in range(c)]
         return np.concatenate(out)
 
+    # Where each block's entries sit in the block-diagonal constraint Jacobian.
+    blocks = np.arange(c)
+    z_rows = (blocks[:, None] * r + np.arange(r))[:, :, None]  # (c, r, 1)
+    z_cols = (blocks[:, None] * p + np.arange(p))[:, None, :]  # (c, 1, p)
+    t_rows = blocks[:, None] * r + rows_t  # (c, rt)
+    t_cols = c * p + blocks[:, None] * q + tix[rows_t]  # (c, rt)
+    G_rules = np.zeros((c * n_rules, c * (p + q)))
+    for b in range(c):
+        if n_rules:
+            G_rules[b * n_rules:(b + 1) * n_rules, b * p:(b + 1) * p] = -rules[b][0]
+
     def cons_jac(v):
         _, J = at(v)
         T = v[c * p:].reshape(c, q)
-        G = np.zeros((c * (r + n_rules), c * (p + q)))
-        for b in range(c):
-            rows = slice(b * r, (b + 1) * r)
-            G[rows, b * p:(b + 1) * p] = (J[b][:, col] * a).T
-            G[b * r + rows_t, c * p + b * q + tix[rows_t]] = \
-                -ex[rows_t] * T[b, tix[rows_t]] ** (ex[rows_t] - 1)
-            if n_rules:
-                base = c * r + b * n_rules
-                G[base:base + n_rules, b * p:(b + 1) * p] = -rules[b][0]
-        return G
+        G = np.zeros((c * r, c * (p + q)))
+        G[z_rows, z_cols] = (J[:, :, col] * a).transpose(0, 2, 1)
+        G[t_rows, t_cols] = -ex[rows_t] * T[:, tix[rows_t]] ** (ex[rows_t] - 1)
+        return np.vstack([G, G_rules]) if n_rules else G
 
     def fun(v):
         return -float(np.log(v[c * p:]).reshape(c, q).sum(axis=0) @ wt)
@@ -529,12 +608,14 @@ def _polish_d(problem, Z0, cats):
     y0, _ = at(np.concatenate([Z0.ravel(), np.ones(c * q)]))
     d0 = problem.score(y0)[1]
     T0 = np.clip(d0[:, tcols] * (1 - 1e-9), 1e-12, 1.0)
-    bounds = list(zip(np.tile(problem.lo, c), np.tile(problem.hi, c))) + \
-        [(1e-12, 1.0)] * (c * q)
+    bounds = Bounds(np.concatenate([np.tile(problem.lo, c), np.full(c * q, 1e-12)]),
+                    np.concatenate([np.tile(problem.hi, c), np.ones(c * q)]))
     res = minimize(fun, np.concatenate([Z0.ravel(), T0.ravel()]), jac=jac, method="SLSQP",
                    bounds=bounds, constraints=[{"type": "ineq", "fun": cons, "jac": cons_jac}],
-                   options={"maxiter": 100, "ftol": 1e-10 * c})
-    return np.clip(res.x[:c * p].reshape(c, p), problem.lo, problem.hi)
+                   options={"maxiter": 100, "ftol": _FTOL * c})
+    Z = np.clip(res.x[:c * p].reshape(c, p), problem.lo, problem.hi)
+    y, _ = at(np.concatenate([Z.ravel(), res.x[c * p:]]))  # usually the last evaluation
+    return Z, y
 
 
 def _polish_shortfall(problem, z0, cat_values):
@@ -580,10 +661,50 @@ def _polish_shortfall(problem, z0, cat_values):
 
 
 def _batch_size(p: int, combos: int) -> int:
-    exponent = 10 + min(p, 6) // 2 if p else 0
+    """Sobol points per level combination: dense enough to land in every basin.
+
+    With 1 to 3 numeric factors a few hundred points already lie closer together
+    than any two peaks of a quadratic D (and the climb and polish finish the
+    job); from 4 factors up the batch grows with the dimension.
+    """
+    if not p:
+        return 1
+    exponent = 7 + p if p <= 3 else 10 + min(p, 6) // 2
     while combos > 1 and exponent > 8 and (2 ** exponent) * combos > 2 ** 14:
         exponent -= 1
     return 2 ** exponent
+
+
+@functools.lru_cache(maxsize=16)
+def _sobol_bits(p: int, n: int) -> np.ndarray:
+    """The first n points of the p-dimensional Sobol sequence as 30-bit integers.
+
+    A fixed table (it does not depend on the study or the seed), built once.
+    """
+    from scipy.stats import qmc
+
+    points = qmc.Sobol(d=p, scramble=False, bits=_SOBOL_BITS).random_base2(
+        int(round(math.log2(n))))
+    bits = np.round(points * 2.0 ** _SOBOL_BITS).astype(np.uint64)
+    bits.flags.writeable = False
+    return bits
+
+
+def _sobol(p: int, n: int, rng) -> np.ndarray:
+    """n Sobol points in [0, 1)^p, randomised by a seeded digital shift.
+
+    XOR-ing every coordinate with one random 30-bit number keeps the points'
+    even spread (a digital shift maps a Sobol net onto a net) at the cost of a
+    single table look-up, where a fresh scramble costs more than the rest of a
+    small search.
+    """
+    shift = rng.integers(0, 2 ** _SOBOL_BITS, size=p, dtype=np.uint64)
+    return (_sobol_bits(p, n) ^ shift) / 2.0 ** _SOBOL_BITS
+
+
+def _distances(X) -> np.ndarray:
+    """(n, n) Euclidean distances between the rows of a small X (n, k)."""
+    return np.sqrt(((X[:, None, :] - X[None, :, :]) ** 2).sum(axis=2))
 
 
 def _starts(X, score, n_starts, radius, higher_better=True):
@@ -595,46 +716,68 @@ def _starts(X, score, n_starts, radius, higher_better=True):
     order = np.argsort(-score if higher_better else score, kind="stable")[:4000]
     Xo = X[order]
     chosen = []
+    # squared distance to the nearest chosen point, from |x|^2 - 2 x.c + |c|^2
+    sq = np.einsum("ij,ij->i", Xo, Xo)
+    gap = np.full(len(order), np.inf)
     for spacing in (radius, radius / 3):
-        gap = np.full(len(order), np.inf)
-        for c in chosen:
-            gap = np.minimum(gap, np.linalg.norm(Xo - Xo[c], axis=1))
         while len(chosen) < n_starts:
-            free = np.flatnonzero(gap >= spacing)
-            if not len(free):
+            free = gap >= spacing ** 2
+            c = int(free.argmax())  # the best remaining point far enough from the chosen
+            if not free[c]:
                 break
-            c = int(free[0])  # the best remaining point far enough from the chosen
             chosen.append(c)
-            gap = np.minimum(gap, np.linalg.norm(Xo - Xo[c], axis=1))
+            np.minimum(gap, sq - 2 * (Xo @ Xo[c]) + sq[c], out=gap)
+            gap[c] = 0.0  # (rounding must not free the chosen point itself)
     return [int(order[c]) for c in chosen]
 
 
-def _climb(problem, X, D, rounds: int = 20, step: float = 0.1):
-    """Compass search on D from every start at once (one batch per round).
+def _climb(problem, X, D, Y, step: float = 0.1, settle: float = _SETTLE):
+    """Pattern search on D from every start at once (one batch per round).
 
-    Each start tries a step up and down every numeric factor, moves to its best
-    feasible neighbour when that improves D, and halves its step otherwise.
+    Each start tries a step along every direction of its pattern, moves to its
+    best feasible neighbour when that improves D, and shrinks its step
+    otherwise; starts whose step has fallen below ``settle`` (coded units)
+    stop, and the polish takes them the rest of the way. With up to 3 numeric
+    factors the pattern holds the diagonals too (8 or 26 directions), so a
+    start can follow a ridge of D that runs across the axes in a few rounds;
+    above that it is the compass (up and down each factor), and the rounds are
+    more. Returns the climbed points, their D and their goal values.
     """
-    X, D = X.copy(), D.copy()
-    s, p = len(X), len(problem.num)
-    steps = np.full(s, step * float(np.max(problem.hi - problem.lo)) / 2)
-    moves = np.vstack([np.eye(p), -np.eye(p)])  # (2p, p)
+    X, D, Y = X.copy(), D.copy(), Y.copy()
+    p, k = len(problem.num), problem.k
+    steps = np.full(len(X), step * float(np.max(problem.hi - problem.lo)) / 2)
+    if p <= _DIAGONAL:
+        directions = np.array([v for v in itertools.product((-1.0, 0.0, 1.0), repeat=p)
+                               if any(v)])
+        rounds, shrink = _ROUNDS_DIAGONAL, 1 / 3
+    else:
+        directions = np.vstack([np.eye(p), -np.eye(p)])
+        rounds, shrink = _ROUNDS, 1 / 2
+    moves = np.zeros((len(directions), k))
+    moves[:, problem.num] = directions
+    ruled = len(problem.b) > 0
     for _ in range(rounds):
-        if steps.max() < 2e-3:  # every start has settled: the polish does the rest
+        live = np.flatnonzero(steps >= settle)
+        if not len(live):
             break
-        trial = np.repeat(X, 2 * p, axis=0)
-        trial[:, problem.num] += (steps[:, None, None] * moves[None]).reshape(-1, p)
-        trial[:, problem.num] = np.clip(trial[:, problem.num], problem.lo, problem.hi)
-        Dt = problem.score(problem.values(trial))[0]
-        Dt[~problem.feasible(trial)] = -1.0
-        Dt = Dt.reshape(s, 2 * p)
-        best = np.argmax(Dt, axis=1)
-        gain = Dt[np.arange(s), best] > D
-        pick = trial.reshape(s, 2 * p, -1)[np.arange(s), best]
-        X[gain] = pick[gain]
-        D[gain] = Dt[np.arange(s), best][gain]
-        steps[~gain] /= 2
-    return X, D
+        trial = X[live, None, :] + steps[live, None, None] * moves  # (s, directions, k)
+        np.clip(trial, problem.lo_k, problem.hi_k, out=trial)
+        flat = trial.reshape(-1, k)
+        Yt = problem.values(flat)
+        Dt = problem.score(Yt)[0]
+        if ruled:
+            Dt[~problem.feasible(flat)] = -1.0
+        Dt = Dt.reshape(len(live), len(moves))
+        Yt = Yt.reshape(len(live), len(moves), -1)
+        best = Dt.argmax(axis=1)
+        rows = np.arange(len(live))
+        gain = Dt[rows, best] > D[live]
+        up = live[gain]
+        X[up] = trial[rows[gain], best[gain]]
+        D[up] = Dt[rows[gain], best[gain]]
+        Y[up] = Yt[rows[gain], best[gain]]
+        steps[live[~gain]] *= shrink
+    return X, D, Y
 
 
 def _chebyshev_centre(problem, cat_values):
@@ -714,9 +857,47 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
                    unreachable, draws)
 
 
+_BLAS_LOCK = threading.Lock()
+_BLAS = {"controller": None, "limiter": None, "depth": 0}
+
+
+@contextlib.contextmanager
+def _one_blas_thread():
+    """Run the linear algebra inside on one thread, restoring the setting after.
+
+    The search multiplies many small matrices; handing each to a pool of BLAS
+    threads costs more than the product, and on a machine busy with other work
+    the threads wait for each other (measured: twice the time of a small
+    search). Nested and concurrent searches share one limit: the first in sets
+    it, the last out restores it.
+    """
+    with _BLAS_LOCK:
+        if _BLAS["depth"] == 0:
+            if _BLAS["controller"] is None:
+                from threadpoolctl import ThreadpoolController
+
+                _BLAS["controller"] = ThreadpoolController()
+            _BLAS["limiter"] = _BLAS["controller"].limit(limits=1, user_api="blas")
+        _BLAS["depth"] += 1
+    try:
+        yield
+    finally:
+        with _BLAS_LOCK:
+            _BLAS["depth"] -= 1
+            if _BLAS["depth"] == 0:
+                _BLAS["limiter"].restore_original_limits()
+                _BLAS["limiter"] = None
+
+
 def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0.25,
             starts=None):
     """The settings only: (coded points best first, feasible, unreachable goals)."""
+    with _one_blas_thread():
+        return _search_steps(study, problem, top=top, seed=seed, rank_by=rank_by,
+                             min_distance=min_distance, starts=starts)
+
+
+def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
     rng = np.random.default_rng(seed)
     p, c = len(problem.num), len(problem.cat)
     combos = [np.array(v) for v in itertools.product([-1.0, 1.0], repeat=c)]
@@ -727,16 +908,12 @@ def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0
 
     # 1. Space-filling batch, every level combination at once.
     if p:
-        from scipy.stats import qmc
-
         n = _batch_size(p, len(combos))
-        sob = qmc.Sobol(d=p, scramble=True, seed=rng).random(n)
+        sob = _sobol(p, n, rng)
         # Optima of D often sit on faces, edges or corners of the region, which a
         # uniform batch in several dimensions barely reaches: half the batch is
         # stretched past the region and clipped back onto its boundary.
-        stretch = np.ones((n, 1))
-        stretch[n // 2:] = 1.4
-        sob = np.clip(0.5 + (sob - 0.5) * stretch, 0.0, 1.0)
+        sob[n // 2:] = np.clip(0.5 + (sob[n // 2:] - 0.5) * 1.4, 0.0, 1.0)
         Z = problem.lo + sob * (problem.hi - problem.lo)
         if p <= 10:
             corners = np.array(list(itertools.product([0.0, 1.0], repeat=p)))
@@ -757,15 +934,16 @@ def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0
         raise SearchError(f"no setting inside the search ranges meets every rule ({rules}): "
                           "relax a rule or widen a factor's search range")
     X = np.vstack(blocks)
-    X = X[problem.feasible(X)]
+    if len(problem.b):
+        X = X[problem.feasible(X)]
     Y = problem.values(X)
     D, d = problem.score(Y)
-    S = problem.shortfall(Y)
+    feasible = bool(D.max() > 0)
+    S = None if feasible else problem.shortfall(Y)  # needed only when D = 0 everywhere
     radius = max(min_distance, 0.35 * math.sqrt(max(p, 1)))
 
     # 2. Polish the best distinct candidates.
-    optima = []
-    feasible = bool(D.max() > 0)
+    optima, optima_y = [], []  # settings and their goal values
     if not feasible and p:
         for i in _starts(X, S, n_starts, radius, higher_better=False):
             cat_values = X[i, problem.cat]
@@ -779,10 +957,10 @@ def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0
             D = np.concatenate([D, Do])
             S = np.concatenate([S, problem.shortfall(Yo)])
             feasible = bool(Do.max() > 0)
-            optima = [] if feasible else optima
+            optima, optima_y = ([], []) if feasible else (optima, list(Yo))
     if feasible and p:
         keep = D > 0
-        Xs, Ds = X[keep], D[keep]
+        Xs, Ds, Ys = X[keep], D[keep], Y[keep]
         chosen = _starts(Xs, Ds, n_starts, radius)
         if problem.cat:
             # Every level combination with some D > 0 gets at least its best point,
@@ -796,43 +974,48 @@ def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0
                     chosen.append(int(rows[np.argmax(Ds[rows])]))
         # All starts climb together first (one batch per step); starts that end in
         # the same place share one basin, and only one of them is polished.
-        Xr, Dr = _climb(problem, Xs[chosen], Ds[chosen])
+        Xr, Dr, Yr = _climb(problem, Xs[chosen], Ds[chosen], Ys[chosen])
         reps = []
+        near = (_distances(Xr) < min_distance).tolist()
+        height = Dr.tolist()
         for i in _starts(Xr, Dr, len(Xr), _SAME):
             # A climbed start close to a better one sits on the same peak (compass
             # steps stall along its ridges): polish only the better one.
-            if any(np.linalg.norm(Xr[j] - Xr[i]) < min_distance and Dr[i] <= Dr[j]
-                   for j in reps):
+            if any(near[i][j] and height[i] <= height[j] for j in reps):
                 continue
             reps.append(i)
         # Polish several peaks as one block-diagonal problem while it stays small
         # (one batch per iteration); larger blocks converge faster on their own.
         size = len(problem.num) + len(problem.goals)
         per = max(1, _JOINT // size)
-        Zp = np.vstack([_polish_d(problem, Xr[reps[j:j + per]][:, problem.num],
-                                  Xr[reps[j:j + per]][:, problem.cat])
-                        for j in range(0, len(reps), per)])
+        parts = [_polish_d(problem, Xr[reps[j:j + per]][:, problem.num],
+                           Xr[reps[j:j + per]][:, problem.cat])
+                 for j in range(0, len(reps), per)]
         polished = Xr[reps].copy()
-        polished[:, problem.num] = Zp
-        Dp = problem.score(problem.values(polished))[0]
+        polished[:, problem.num] = np.vstack([z for z, _ in parts])
+        Yp = np.vstack([y for _, y in parts])
+        Dp = problem.score(Yp)[0]
         # Keep the start itself where the polish did not help (a safety net).
-        better = problem.feasible(polished) & (Dp >= Dr[reps])
-        optima += list(np.where(better[:, None], polished, Xr[reps]))
+        better = (problem.feasible(polished) & (Dp >= Dr[reps]))[:, None]
+        optima += list(np.where(better, polished, Xr[reps]))
+        optima_y += list(np.where(better, Yp, Yr[reps]))
     if not optima:  # only categorical factors: the batch is exhaustive
-        optima = list(X)
-    Xo = np.array(optima)
-    Xo = Xo[problem.feasible(Xo)]
+        optima, optima_y = list(X), list(Y)
+    Xo, Yo = np.array(optima), np.array(optima_y)
+    inside = problem.feasible(Xo)
+    Xo, Yo = Xo[inside], Yo[inside]
     if not len(Xo):  # a polish drifted past a rule: fall back on the batch's best
-        Xo = X[[int(np.argmax(D)) if feasible else int(np.argmin(S))]]
-    Yo = problem.values(Xo)
+        i = [int(np.argmax(D)) if feasible else int(np.argmin(S))]
+        Xo, Yo = X[i], Y[i]
     Do, do = problem.score(Yo)
     So = problem.shortfall(Yo)
 
     # 3. Distinct optima, best first.
     order = np.lexsort((So, -Do)) if feasible else np.lexsort((-Do, So))
     pool = []
-    for i in order:
-        if pool and np.min(np.linalg.norm(Xo[pool] - Xo[i], axis=1)) < min_distance:
+    near = (_distances(Xo) < min_distance).tolist()
+    for i in order.tolist():
+        if any(near[i][j] for j in pool):
             continue
         pool.append(i)
         if len(pool) >= (3 * top if rank_by == "chance" else top):
@@ -840,10 +1023,11 @@ def _search(study, problem, *, top, seed, rank_by="desirability", min_distance=0
     Xbest = Xo[pool]
 
     # Goals no setting can meet: none of the points tried brought them within limits.
-    Yall = np.vstack([Y, Yo])
-    reach = np.column_stack([shortfall(Yall[:, i], g) for i, g in enumerate(problem.goals)])
-    unreachable = tuple(n for n, ok in zip(problem.names(), (reach == 0).any(axis=0))
-                        if not ok)
+    # (Where D > 0 somewhere, every goal is within its limits there.)
+    unreachable = ()
+    if not feasible:
+        reach = (problem.gaps(Y) == 0).any(axis=0) | (problem.gaps(Yo) == 0).any(axis=0)
+        unreachable = tuple(n for n, ok in zip(problem.names(), reach) if not ok)
     return Xbest, feasible, unreachable
 
 
