@@ -1042,8 +1042,11 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     S = problem.shortfall(Y)
     names = problem.names()
     chances = chance_in_limits(study, models, X, draws=draws, seed=seed)
-    intervals = {r.name: models[r.name].intervals(X, level=study.confidence)
-                 for r in study.responses if r.name in models}
+    # Each response's interval table as one array (rows: solutions; columns:
+    # predicted, ci_low, ci_high, pi_low, pi_high), so no table is indexed per cell.
+    intervals = {r.name: models[r.name].intervals(X, level=study.confidence)[
+        ["predicted", "ci_low", "ci_high", "pi_low", "pi_high"]].to_numpy(dtype=float)
+        for r in study.responses if r.name in models}
     chance_col = {n: i for i, n in enumerate(chances.responses)}
     order = np.arange(len(X))
     if rank_by == "chance":
@@ -1068,17 +1071,17 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         for r in study.responses:
             if r.name not in models:
                 continue
-            row = intervals[r.name].iloc[i]
+            pred, ci_low, ci_high, pi_low, pi_high = intervals[r.name][i].tolist()
             col = names.index(r.name) if r.name in names else None
             outcomes[r.name] = ResponseOutcome(
                 name=r.name, goal=r.goal.kind if col is not None else "none",
-                predicted=float(row["predicted"]),
+                predicted=pred,
                 desirability=float(d[i, col]) if col is not None else None,
-                ci=(float(row["ci_low"]), float(row["ci_high"])),
-                pi=(float(row["pi_low"]), float(row["pi_high"])),
+                ci=(ci_low, ci_high),
+                pi=(pi_low, pi_high),
                 chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
                                   if r.name in chance_col else None))
-            predictions[r.name] = float(row["predicted"])
+            predictions[r.name] = pred
         factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
                     if kind == "factor"}
         out = tuple(n for k, n in enumerate(names) if d[i, k] == 0)
