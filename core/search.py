@@ -780,6 +780,39 @@ def _climb(problem, X, D, Y, step: float = 0.1, settle: float = _SETTLE):
     return X, D, Y
 
 
+def _one_per_hill(problem, X, D, reps):
+    """Drop a climbed start from which D rises all the way to a better one.
+
+    Starts that stall apart on one curved ridge (a pattern step cannot follow
+    it) would each be polished to the same peak. For every pair (better a,
+    worse b, same categorical levels) D is sampled at a quarter, half and three
+    quarters of the way from b to a, all pairs in one batch; when D never falls
+    along the way, b lies on a's slope and only a is polished. A start with a
+    dip between it and every better one keeps its own polish.
+    """
+    if len(reps) < 2:
+        return reps
+    pairs = [(a, b) for i, a in enumerate(reps) for b in reps[i + 1:]
+             if np.array_equal(X[a, problem.cat], X[b, problem.cat])]
+    if not pairs:
+        return reps
+    a, b = np.array(pairs).T
+    fractions = np.array([0.25, 0.5, 0.75])
+    path = X[b][:, None, :] + fractions[:, None] * (X[a] - X[b])[:, None, :]
+    Dpath = problem.score(problem.values(path.reshape(-1, problem.k)))[0].reshape(-1, 3)
+    profile = np.column_stack([D[b], Dpath, D[a]])
+    rising = (np.diff(profile, axis=1) >= 0).all(axis=1)
+    uphill = {}
+    for (i, j), r in zip(pairs, rising.tolist()):
+        uphill.setdefault(j, []).append((i, r))
+    kept = []
+    for j in reps:  # best first: a start is dropped only for a kept better one
+        if any(r and i in kept for i, r in uphill.get(j, [])):
+            continue
+        kept.append(j)
+    return kept
+
+
 def _chebyshev_centre(problem, cat_values):
     """A point well inside the box and the rules (None when the region is empty)."""
     from scipy.optimize import linprog
@@ -984,6 +1017,7 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
             if any(near[i][j] and height[i] <= height[j] for j in reps):
                 continue
             reps.append(i)
+        reps = _one_per_hill(problem, Xr, Dr, reps)
         # Polish several peaks as one block-diagonal problem while it stays small
         # (one batch per iteration); larger blocks converge faster on their own.
         size = len(problem.num) + len(problem.goals)
