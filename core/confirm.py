@@ -176,7 +176,7 @@ def _setting(factor, value, prefix: str):
 
 
 def _runs_from_file(study, entry: dict, files, fname: str, what: str) -> list[dict]:
-    from .intake import parse_number, read_table
+    from .intake import cell_text, parse_number, read_table
 
     name = entry["data"].strip()
     path = Path(name)
@@ -206,9 +206,7 @@ def _runs_from_file(study, entry: dict, files, fname: str, what: str) -> list[di
         cell = (lambda col: cells[index[col]] if index[col] < len(cells) else None)
         rec = {"run": None, "origin": tname, "row": row, "row_label": f"row {row}"}
         if "run" in index and cell("run") is not None:
-            value = cell("run")
-            rec["run"] = str(int(value)) if isinstance(value, float) and \
-                value.is_integer() else str(value).strip()
+            rec["run"] = cell_text(cell("run"))
         for f in study.factors:
             value = cell(f.name)
             loc = where(tname, row, f.name)

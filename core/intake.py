@@ -18,7 +18,7 @@ import numpy as np
 
 from .errors import DataError, where
 
-__all__ = ["RawTable", "read_table", "parse_number", "MAX_TABLE_BYTES"]
+__all__ = ["RawTable", "read_table", "parse_number", "cell_text", "MAX_TABLE_BYTES"]
 
 # Lab tables are small; a file this large is almost certainly the wrong file.
 MAX_TABLE_BYTES = 50 * 1024 * 1024
@@ -226,6 +226,18 @@ def _clean_header(path: Path, header: list[str], header_row: int) -> list[str]:
                             "rename one of them")
         seen.setdefault(name, i)
     return names
+
+
+def cell_text(cell) -> str:
+    """A cell read as an id or a level name: a number typed as 3 or 3.0 is "3".
+
+    Run ids, assessors and level names come back from a spreadsheet as floats
+    when they look like numbers; every table reads them by this one rule, so
+    run 3 of the runs table is run 3 of the storage and panel tables.
+    """
+    if isinstance(cell, float) and cell.is_integer():
+        return str(int(cell))
+    return str(cell).strip()
 
 
 def parse_number(cell, *, decimal_comma: bool, location: str) -> float:

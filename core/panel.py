@@ -21,18 +21,10 @@ import pandas as pd
 
 from .cautions import PANEL_CAUTION
 from .errors import DataError, where
-from .intake import RawTable, parse_number
+from .intake import RawTable, cell_text, parse_number
 
 __all__ = ["PANEL_CAUTION", "read_panel", "run_means", "adjusted_means",
            "assessor_agreement"]
-
-
-
-def _text(cell) -> str:
-    # The same rule as the runs table: an id typed as 3 or 3.0 is "3".
-    if isinstance(cell, float) and cell.is_integer():
-        return str(int(cell))
-    return str(cell).strip()
 
 
 def read_panel(table: RawTable, *, scale: tuple[float, float],
@@ -78,11 +70,11 @@ def read_panel(table: RawTable, *, scale: tuple[float, float],
             if cell(name) is None:
                 raise DataError(f"{where(fname, row, name)}blank {name}: every score "
                                 "needs its run, assessor and attribute")
-            ids[name] = _text(cell(name))
+            ids[name] = cell_text(cell(name))
         if known is not None and ids["run"] not in known:
             raise DataError(f"{where(fname, row, 'run')}run '{ids['run']}' is not in "
                             "the runs table: check the id, or add the run to the runs table")
-        session = "" if cell("session") is None else _text(cell("session"))
+        session = "" if cell("session") is None else cell_text(cell("session"))
         score = parse_number(cell("score"), decimal_comma=table.decimal_comma,
                              location=where(fname, row, "score"))
         if not np.isnan(score) and not lo <= score <= hi:

@@ -25,7 +25,7 @@ import pandas as pd
 
 from .cautions import SHELF_LIFE_CAUTION
 from .errors import DataError, where
-from .intake import RawTable, parse_number
+from .intake import RawTable, cell_text, parse_number
 
 __all__ = [
     "SHELF_LIFE_CAUTION", "ORDERS", "DIRECTIONS", "read_storage", "interpolate_at",
@@ -35,13 +35,6 @@ __all__ = [
 
 ORDERS = ("zero", "first")
 DIRECTIONS = ("up", "down")
-
-
-def _run_text(cell) -> str:
-    # The same rule as the runs table: a run id typed as 3 or 3.0 is "3".
-    if isinstance(cell, float) and cell.is_integer():
-        return str(int(cell))
-    return str(cell).strip()
 
 
 def read_storage(table: RawTable, *, time: str = "time",
@@ -86,7 +79,7 @@ def read_storage(table: RawTable, *, time: str = "time",
         if run is None:
             raise DataError(f"{where(fname, row, 'run')}blank run id: every storage "
                             "row needs the id of its run")
-        run = _run_text(run)
+        run = cell_text(run)
         if known is not None and run not in known:
             raise DataError(f"{where(fname, row, 'run')}run '{run}' is not in the runs "
                             "table: check the id, or add the run to the runs table")

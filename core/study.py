@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import DataError, StudyError, where
-from .intake import RawTable, parse_number, read_table
+from .intake import RawTable, cell_text, parse_number, read_table
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
@@ -401,7 +401,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
     row_numbers = [r for r, _ in table.rows]
     data: dict[str, Any] = {}
     if "run" in columns:
-        ids = ["" if c is None else _run_id(c) for c in cells_of(columns["run"])]
+        ids = ["" if c is None else cell_text(c) for c in cells_of(columns["run"])]
         for row, run in zip(row_numbers, ids):
             if run == "":
                 raise DataError(f"{where(fname, row, 'run')}blank run id: give every "
@@ -424,7 +424,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
         if f.is_categorical:
             values = []
             for row, cell in zip(row_numbers, raw):
-                text = None if cell is None else _run_id(cell)
+                text = None if cell is None else cell_text(cell)
                 if text not in f.levels:
                     found = "a blank cell" if text is None else f"'{text}'"
                     raise DataError(f"{where(fname, row, f.name)}found {found}, "
@@ -487,7 +487,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
         index = column_index(block, "the blocks ([study] blocks)")
         labels = []
         for row, cell in zip(row_numbers, cells_of(index)):
-            text = None if cell is None else _run_id(cell)
+            text = None if cell is None else cell_text(cell)
             if not text:
                 raise DataError(f"{where(fname, row, block)}blank block: every run "
                                 "needs its block (day, batch) when the table has a block "
@@ -695,12 +695,6 @@ def _string_list(value, fname: str, what: str) -> list[str]:
         raise StudyError(f"{fname}: {what} must be a list of names in quotes, "
                          "for example [\"a\", \"b\"]")
     return [v.strip() for v in value]
-
-
-def _run_id(cell) -> str:
-    if isinstance(cell, float) and cell.is_integer():
-        return str(int(cell))
-    return str(cell).strip()
 
 
 def _did_you_mean(word: str, options) -> str:
