@@ -26,15 +26,15 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 from scipy import special, stats
+from scipy.linalg import lapack as _lapack
 from scipy.linalg import solve_triangular
 
 from .anova import anova_table
 from .diagnostics import diagnostic_arrays, run_diagnostics
 from .errors import DataError, ModelError, StudyError
 from .lenth import half_normal_points, lenth
-from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
-                    model_terms, named_model_size, parse_term, term_label)
-from .terms import qr as _qr
+from .terms import (QRFactors, Term, block_terms, find_aliases, hierarchy_closure,
+                    model_matrix, model_terms, named_model_size, parse_term, term_label)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 
 __all__ = ["ResponseModel", "StudyFit", "fit_study", "fit_response", "DEFAULT_ALPHA"]
@@ -42,22 +42,40 @@ __all__ = ["ResponseModel", "StudyFit", "fit_study", "fit_response", "DEFAULT_AL
 DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
 
 
-class _Solution:
-    """A least-squares solution by QR: coefficients and what follows from them."""
+# Above this condition number of R, leverages come from Q itself (formed from the
+# Householder reflectors) rather than from M R^-1, whose rounding grows with it;
+# coded designs sit near 1.
+_LEVERAGE_COND = 1e4
 
-    def __init__(self, M: np.ndarray, z: np.ndarray, qr=None):
+
+class _Solution:
+    """A least-squares solution by QR: coefficients and what follows from them.
+
+    Q is not formed: Q'z and Q(Q'z) are applied from the Householder
+    reflectors (``QRFactors``); ``qr.Q`` forms it when something needs it.
+    """
+
+    def __init__(self, M: np.ndarray, z: np.ndarray, qr: QRFactors | None = None):
         n, p = M.shape
-        Q, R = _qr(M) if qr is None else qr
-        qty = Q.T @ z
-        self.coef = solve_triangular(R, qty)
-        self.fitted = Q @ qty
+        fac = QRFactors(M) if qr is None else qr
+        R = fac.R
+        qty = fac.qt(z)[:p]
+        self.coef = solve_triangular(R, qty, check_finite=False)
+        w = np.zeros(n)
+        w[:p] = qty
+        self.fitted = fac.q(w)  # Q Q'z, the projection of z
         self.resid = z - self.fitted
         self.sse = float(self.resid @ self.resid)
         self.df = n - p
-        self.Q = Q
-        self.Rinv = solve_triangular(R, np.eye(p))
+        self.qr = fac
+        self.Rinv, info = _lapack.dtrtri(R)
+        if info != 0:  # pragma: no cover - a zero pivot, excluded by find_aliases
+            raise ModelError(f"the model matrix is singular (LAPACK info {info})")
         # diag((X'X)^-1) = row sums of Rinv^2, because (X'X)^-1 = Rinv Rinv'
         self.cdiag = np.einsum("ij,ij->i", self.Rinv, self.Rinv)
+        # leverage = row sums of Q^2, and Q = M Rinv
+        cond = np.abs(R).sum(axis=0).max() * np.abs(self.Rinv).sum(axis=0).max()
+        Q = fac.Q if cond > _LEVERAGE_COND else M @ self.Rinv
         self.leverage = np.einsum("ij,ij->i", Q, Q)
         if self.df > 0:
             s2 = self.sse / self.df
@@ -405,7 +423,7 @@ class ResponseModel:
                             "reducing it")
 
         # Box-Cox suggestion on the natural scale with the same terms: on first use.
-        self._box_cox_input = (y, sol.Q) if sol.df > 0 else None
+        self._box_cox_input = (y, sol.qr) if sol.df > 0 else None
         self._box_cox = None
         self.natural_coefficients_ = self._natural(terms, sol.coef)
         self._warnings = warnings
@@ -456,8 +474,8 @@ class ResponseModel:
         """
         self._check_fitted()
         if self._box_cox is None and self._box_cox_input is not None:
-            y, Q = self._box_cox_input
-            self._box_cox = box_cox(y, Q, level=self.confidence) or {}
+            y, fac = self._box_cox_input
+            self._box_cox = box_cox(y, fac.Q, level=self.confidence) or {}
             self._box_cox_input = None
         return self._box_cox or None
 

@@ -15,13 +15,14 @@ from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
+from scipy.linalg import lapack as _lapack
 from scipy.linalg import qr as _scipy_qr
 
 from .errors import ModelError
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
-           "qr", "find_aliases", "hierarchy_closure", "named_model_size", "BlockTerm",
-           "block_terms"]
+           "qr", "QRFactors", "find_aliases", "hierarchy_closure", "named_model_size",
+           "BlockTerm", "block_terms"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 
@@ -38,19 +39,22 @@ class Term:
     label: str
     powers: tuple[int, ...]
 
-    @property
+    # Cached: a fit reads these for every term several times, and the Term
+    # objects of a named model are shared between fits (model_terms caches them).
+    # cached_property writes the instance __dict__ directly, so frozen is kept.
+    @functools.cached_property
     def order(self) -> int:
         return int(sum(self.powers))
 
-    @property
+    @functools.cached_property
     def is_intercept(self) -> bool:
         return self.order == 0
 
-    @property
+    @functools.cached_property
     def is_square(self) -> bool:
         return 2 in self.powers
 
-    @property
+    @functools.cached_property
     def factors(self) -> tuple[int, ...]:
         return tuple(j for j, p in enumerate(self.powers) if p)
 
@@ -353,6 +357,59 @@ def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return _scipy_qr(np.asfortranarray(M), mode="economic", check_finite=False)
 
 
+class QRFactors:
+    """Householder QR of an (n, p) model matrix, n >= p, kept in LAPACK's raw form.
+
+    Q is never formed unless asked for (``Q``): products with Q' and Q are
+    applied from the Householder reflectors (LAPACK dormqr), which costs a
+    fraction of forming Q and is as accurate.
+
+    Attributes
+    ----------
+    R : (p, p) upper triangular factor.
+    """
+
+    __slots__ = ("_a", "_tau", "R", "_Q")
+
+    def __init__(self, M: np.ndarray):
+        n, p = M.shape
+        a = np.array(M, dtype=float, order="F")  # geqrf overwrites its input
+        # lwork 64 p: room for LAPACK's blocked algorithm (block size <= 64)
+        a, tau, _, info = _lapack.dgeqrf(a, lwork=max(1, 64 * p), overwrite_a=1)
+        if info != 0:  # pragma: no cover - LAPACK argument error
+            raise ValueError(f"QR factorization failed (LAPACK info {info})")
+        self._a, self._tau = a, tau
+        self.R = np.triu(a[:p])
+        self._Q = None
+
+    def qt(self, z: np.ndarray) -> np.ndarray:
+        """Q_full' z for a vector z of length n (all n rotated coordinates)."""
+        return self._apply("T", z)
+
+    def q(self, w: np.ndarray) -> np.ndarray:
+        """Q_full w for a vector w of length n."""
+        return self._apply("N", w)
+
+    def _apply(self, trans: str, v: np.ndarray) -> np.ndarray:
+        c = np.array(v, dtype=float, order="F").reshape(-1, 1, order="F")
+        out, _, info = _lapack.dormqr("L", trans, self._a, self._tau, c,
+                                      lwork=64 + 4160, overwrite_c=1)
+        if info != 0:  # pragma: no cover - LAPACK argument error
+            raise ValueError(f"applying Q failed (LAPACK info {info})")
+        return out[:, 0]
+
+    @property
+    def Q(self) -> np.ndarray:
+        """The (n, p) orthonormal factor, formed on first use."""
+        if self._Q is None:
+            p = self.R.shape[0]
+            Q, _, info = _lapack.dorgqr(self._a, self._tau, lwork=max(1, 64 * p))
+            if info != 0:  # pragma: no cover - LAPACK argument error
+                raise ValueError(f"forming Q failed (LAPACK info {info})")
+            self._Q = Q
+        return self._Q
+
+
 def find_aliases(M: np.ndarray, terms: Sequence[Term], *, return_qr: bool = False):
     """Which columns of the model matrix the runs can estimate.
 
@@ -364,18 +421,18 @@ def find_aliases(M: np.ndarray, terms: Sequence[Term], *, return_qr: bool = Fals
     -------
     keep : boolean mask over the columns.
     aliases : dropped label -> kept labels it is aliased with.
-    qr : only with ``return_qr``: the reduced (Q, R) of M when every column is
+    qr : only with ``return_qr``: the QRFactors of M when every column is
         kept (so a fit need not factor M again), else None.
     """
     n, p = M.shape
-    norms = np.linalg.norm(M, axis=0)
+    norms = np.sqrt(np.einsum("ij,ij->j", M, M))  # column lengths
     keep = np.zeros(p, dtype=bool)
     if p <= n:
-        Q, R = qr(M)
-        diag = np.abs(np.diag(R))
+        fac = QRFactors(M)
+        diag = np.abs(np.diag(fac.R))
         if np.all(diag > _ALIAS_TOL * np.maximum(norms, 1e-300)) and np.all(norms > 0):
             keep[:] = True
-            return (keep, {}, (Q, R)) if return_qr else (keep, {})
+            return (keep, {}, fac) if return_qr else (keep, {})
     # Sequential Gram-Schmidt (twice, for stability) over the columns in order:
     # exact, and it never lets a dropped column's rounding noise take a dimension.
     basis = np.empty((n, min(n, p)))
