@@ -37,8 +37,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import DataError, ModelError, StudyError, where
-from .study import SECTION_KEYS
+from .errors import DataError, ModelError, StudyError, did_you_mean, where
+from .study import SECTION_KEYS, check_keys
 
 __all__ = ["confirmation_runs", "confirmation_files", "check_confirmations",
            "ConfirmationCheck", "INTERVAL_FORMULA",
@@ -91,10 +91,7 @@ def confirmation_runs(study, *, read_files: bool = True,
     records: list[dict] = []
     for number, entry in enumerate(entries, start=1):
         what = f"[[confirmations]] number {number}"
-        for key in entry:
-            if key not in CONFIRM_KEYS:
-                raise StudyError(f"{fname}: {what}: unknown key '{key}'"
-                                 f"{_did_you_mean(key, sorted(CONFIRM_KEYS))}")
+        check_keys(entry, CONFIRM_KEYS, fname, what)
         if "data" in entry:
             clash = sorted(set(entry) & {"run", "settings", "measured"})
             if clash:
@@ -142,11 +139,11 @@ def _run_from_table(study, entry: dict, fname: str, what: str, number: int) -> d
     for key in settings:
         if key not in study.factor_names:
             raise StudyError(f"{fname}: {what}: settings: '{key}' is not a factor of "
-                             f"this study{_did_you_mean(key, study.factor_names)}")
+                             f"this study{did_you_mean(key, study.factor_names)}")
     for key in measured:
         if key not in study.response_names:
             raise StudyError(f"{fname}: {what}: measured: '{key}' is not a response of "
-                             f"this study{_did_you_mean(key, study.response_names)}")
+                             f"this study{did_you_mean(key, study.response_names)}")
     rec = {"run": run, "origin": fname, "row": number, "row_label": what}
     for f in study.factors:
         if f.name not in settings:
@@ -196,7 +193,7 @@ def _runs_from_file(study, entry: dict, files, fname: str, what: str) -> list[di
         if f.name not in index:
             raise DataError(f"{tname}: no column '{f.name}' for factor '{f.name}': a "
                             f"confirmation table needs every factor's setting; the "
-                            f"header has {header}{_did_you_mean(f.name, header)}")
+                            f"header has {header}{did_you_mean(f.name, header)}")
     measured = [r for r in study.response_names if r in index]
     if not measured:
         raise DataError(f"{tname}: no column named after a response "
@@ -236,13 +233,6 @@ def _runs_from_file(study, entry: dict, files, fname: str, what: str) -> list[di
     if not records:
         raise DataError(f"{tname}: the confirmation table has a header but no runs")
     return records
-
-
-def _did_you_mean(word: str, options) -> str:
-    import difflib
-
-    close = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
 
 
 def confirmation_files(study) -> dict[str, Path]:

@@ -16,13 +16,12 @@ A rule becomes ``a @ x_natural <= b``.
 """
 from __future__ import annotations
 
-import difflib
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import StudyError
+from .errors import StudyError, did_you_mean
 
 __all__ = ["LinearRule", "parse_rule", "study_rules", "check_rules",
            "rule_arrays", "rules_satisfied"]
@@ -193,9 +192,7 @@ def _tokenize(text: str, factors) -> list[tuple[str, object, int]]:
             match = _WORD.match(text, i)
             if match:
                 word = match.group()
-                close = difflib.get_close_matches(word, list(by_name), n=1, cutoff=0.6)
-                hint = f" (did you mean '{close[0]}'?)" if close else \
-                    f": the factors are {', '.join(by_name)}"
+                hint = did_you_mean(word, by_name) or f": the factors are {', '.join(by_name)}"
                 raise _Fail(f"'{word}' is not a factor of the study{hint}")
             raise _Fail(f"unexpected character '{ch}' at position {i + 1}: use numbers, "
                         "factor names, + - * / ( ) and one of <= >= < >")

@@ -17,12 +17,12 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import DataError, StudyError, where
+from .errors import DataError, StudyError, did_you_mean, where
 from .intake import RawTable, read_table
 from .panel import adjusted_means, assessor_agreement, read_panel, run_means
 from .storage import (DIRECTIONS, ORDERS, SHELF_LIFE_CAUTION, fit_kinetics,
                       fitted_value, interpolate_at, read_storage, time_to_limit)
-from .study import SECTION_KEYS, Response, Study
+from .study import SECTION_KEYS, Response, Study, check_keys
 
 __all__ = ["DERIVE_KINDS", "DERIVED_COLUMNS", "check_derived", "add_derived_responses",
            "derivation_table", "describe_derivation"]
@@ -55,13 +55,6 @@ def _fname(study: Study) -> str:
     return study.source.name if study.source is not None else "study"
 
 
-def _close(word, options) -> str:
-    import difflib
-
-    close = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
-
-
 def _num(value, fname, what) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or \
             not math.isfinite(value):
@@ -76,10 +69,7 @@ def _section(study: Study, name: str) -> dict | None:
         return None
     if not isinstance(sec, dict):
         raise StudyError(f"{fname}: [{name}] must be a table of keys")
-    for key in sec:
-        if key not in SECTION_KEYS[name]:
-            raise StudyError(f"{fname}: [{name}]: unknown key '{key}'"
-                             f"{_close(key, sorted(SECTION_KEYS[name]))}")
+    check_keys(sec, SECTION_KEYS[name], fname, f"[{name}]")
     if not isinstance(sec.get("data"), str) or not sec["data"].strip():
         raise StudyError(f"{fname}: [{name}] needs data = \"<file name>\" naming the "
                          f"{name} table")
@@ -128,7 +118,7 @@ def _options(study: Study, r: Response) -> dict:
         return {}
     if kind not in DERIVE_KINDS:
         raise StudyError(f"{fname}: {what}: derive = '{kind}' is not one I know: use one "
-                         f"of {', '.join(DERIVE_KINDS)}{_close(kind, DERIVE_KINDS)}")
+                         f"of {', '.join(DERIVE_KINDS)}{did_you_mean(kind, DERIVE_KINDS)}")
     for key in ex:
         if key in _DERIVE_KEYS and key != "derive" and key not in _USES[kind]:
             raise StudyError(f"{fname}: {what}: '{key}' is not used with derive = "
@@ -232,7 +222,7 @@ def _subset(frame: pd.DataFrame, column: str, name: str, fname: str,
     if sub.empty:
         found = sorted(set(frame[column]))
         raise DataError(f"{fname}: no rows with {column} '{name}' for response "
-                        f"'{r.name}': the table has {found}{_close(name, found)}")
+                        f"'{r.name}': the table has {found}{did_you_mean(name, found)}")
     return sub
 
 

@@ -6,6 +6,7 @@ prints it after ``error:`` and exits with status 2; the front end shows it.
 """
 from __future__ import annotations
 
+import difflib
 from pathlib import Path
 
 __all__ = [
@@ -16,6 +17,7 @@ __all__ = [
     "SearchError",
     "PlanError",
     "where",
+    "did_you_mean",
 ]
 
 
@@ -57,3 +59,13 @@ def where(file: str | Path | None = None, row: int | None = None,
     if column is not None:
         parts.append(f"column '{column}'")
     return (", ".join(parts) + ": ") if parts else ""
+
+
+def did_you_mean(word, options) -> str:
+    """A hint such as `` (did you mean 'protein'?)`` for a near miss, else "".
+
+    Appended to messages about an unknown name, key or choice, so every
+    module suggests the same way.
+    """
+    close = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""

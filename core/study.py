@@ -6,7 +6,6 @@ returns a frozen ``Study``. Later steps (coding, models, search) trust it.
 """
 from __future__ import annotations
 
-import difflib
 import math
 import tomllib
 import unicodedata
@@ -17,13 +16,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .errors import DataError, StudyError, where
+from .errors import DataError, StudyError, did_you_mean, where
 from .intake import RawTable, cell_text, parse_number, read_table
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
     "load_study", "parse_study_text", "study_from_dict", "study_to_dict", "attach_runs",
-    "SECTION_KEYS", "MAX_STUDY_BYTES",
+    "SECTION_KEYS", "check_keys", "MAX_STUDY_BYTES",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
@@ -204,14 +203,14 @@ class Study:
         for f in self.factors:
             if f.name == name:
                 return f
-        raise StudyError(f"no factor named '{name}'{_did_you_mean(name, self.factor_names)}")
+        raise StudyError(f"no factor named '{name}'{did_you_mean(name, self.factor_names)}")
 
     def response(self, name: str) -> Response:
         for r in self.responses:
             if r.name == name:
                 return r
         raise StudyError(f"no response named '{name}'"
-                         f"{_did_you_mean(name, self.response_names)}")
+                         f"{did_you_mean(name, self.response_names)}")
 
     def model_for(self, response: Response) -> str | tuple[str, ...]:
         """The model (name or explicit terms) a response is fitted with."""
@@ -292,11 +291,11 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
     """
     source = Path(source) if source is not None else None
     fname = source.name if source is not None else "study"
-    _check_keys(spec, SECTION_KEYS["top"], fname, "the top level")
+    check_keys(spec, SECTION_KEYS["top"], fname, "the top level")
     head = spec.get("study", {})
     if not isinstance(head, dict):
         raise StudyError(f"{fname}: [study] must be a table of keys")
-    _check_keys(head, SECTION_KEYS["study"], fname, "[study]")
+    check_keys(head, SECTION_KEYS["study"], fname, "[study]")
 
     factors = tuple(_factor(f, fname, i) for i, f in
                     enumerate(_list_of_tables(spec, "factors", fname), start=1))
@@ -310,7 +309,7 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
     model = head.get("model", "interactions")
     if model not in MODELS:
         raise StudyError(f"{fname}: [study] model = '{model}' is not a model I know: "
-                         f"use one of {', '.join(MODELS)}{_did_you_mean(model, MODELS)}")
+                         f"use one of {', '.join(MODELS)}{did_you_mean(model, MODELS)}")
     terms = head.get("terms")
     if terms is not None:
         terms = _string_list(terms, fname, "[study] terms")
@@ -392,7 +391,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
         if name not in columns:
             raise DataError(f"{fname}: no column '{name}' for {what}: the header has "
                             f"{[h for h in header if h]}"
-                            f"{_did_you_mean(name, list(columns))}")
+                            f"{did_you_mean(name, list(columns))}")
         return columns[name]
 
     def cells_of(index: int) -> list:
@@ -523,7 +522,7 @@ def _goal(table: dict, fname: str, what: str) -> Goal:
     kind = table.get("goal", "none")
     if kind not in GOALS:
         raise StudyError(f"{fname}: {what}: goal = '{kind}' is not a goal I know: use "
-                         f"one of {', '.join(GOALS)}{_did_you_mean(str(kind), GOALS)}")
+                         f"one of {', '.join(GOALS)}{did_you_mean(str(kind), GOALS)}")
     nums = {k: _number(table[k], fname, f"{what} {k}") if k in table else None
             for k in ("lower", "upper", "target")}
     shape = _positive(table.get("shape", 1.0), fname, f"{what} shape")
@@ -554,7 +553,7 @@ def _goal(table: dict, fname: str, what: str) -> Goal:
 
 def _factor(table: dict, fname: str, index: int) -> Factor:
     what = _what("factors", table, index)
-    _check_keys(table, SECTION_KEYS["factors"], fname, what)
+    check_keys(table, SECTION_KEYS["factors"], fname, what)
     name = _name(table, fname, what)
     label = str(table.get("label", name))
     unit = str(table.get("unit", ""))
@@ -598,12 +597,12 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
 
 def _response(table: dict, fname: str, index: int) -> Response:
     what = _what("responses", table, index)
-    _check_keys(table, SECTION_KEYS["responses"], fname, what)
+    check_keys(table, SECTION_KEYS["responses"], fname, what)
     name = _name(table, fname, what)
     model = table.get("model")
     if model is not None and model not in MODELS:
         raise StudyError(f"{fname}: {what}: model = '{model}' is not a model I know: "
-                         f"use one of {', '.join(MODELS)}{_did_you_mean(str(model), MODELS)}")
+                         f"use one of {', '.join(MODELS)}{did_you_mean(str(model), MODELS)}")
     terms = table.get("terms")
     if terms is not None:
         terms = tuple(_string_list(terms, fname, f"{what} terms"))
@@ -623,7 +622,7 @@ _BASE_RESPONSE_KEYS = {"name", "label", "unit", "model", "terms", "transform"} |
 
 def _constraint(table: dict, fname: str, index: int) -> dict:
     what = f"[[constraints]] number {index}"
-    _check_keys(table, SECTION_KEYS["constraints"], fname, what)
+    check_keys(table, SECTION_KEYS["constraints"], fname, what)
     if not isinstance(table.get("rule"), str) or not table["rule"].strip():
         raise StudyError(f"{fname}: {what}: needs rule = \"...\", for example "
                          "rule = \"protein + 2*glycerol <= 36\"")
@@ -637,11 +636,12 @@ def _list_of_tables(spec: dict, key: str, fname: str) -> list[dict]:
     return value
 
 
-def _check_keys(table: dict, allowed: set[str], fname: str, what: str) -> None:
+def check_keys(table: dict, allowed: set[str], fname: str, what: str) -> None:
+    """Refuse a key not in ``allowed``: one line naming the file, the place and the key."""
     for key in table:
         if key not in allowed:
             raise StudyError(f"{fname}: {what}: unknown key '{key}'"
-                             f"{_did_you_mean(key, sorted(allowed))}")
+                             f"{did_you_mean(key, sorted(allowed))}")
 
 
 def _check_unique(names: list[str], fname: str) -> None:
@@ -695,11 +695,6 @@ def _string_list(value, fname: str, what: str) -> list[str]:
         raise StudyError(f"{fname}: {what} must be a list of names in quotes, "
                          "for example [\"a\", \"b\"]")
     return [v.strip() for v in value]
-
-
-def _did_you_mean(word: str, options) -> str:
-    close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
 
 
 def _fmt(x: float) -> str:
