@@ -16,15 +16,12 @@ from __future__ import annotations
 from itertools import combinations
 from typing import Iterable, Sequence
 
-import numpy as np
-
 from .errors import PlanError
 
 __all__ = [
     "LETTERS", "parse_word", "word_letters", "word_term", "word_length",
     "span_words", "defining_subgroup", "word_length_pattern", "resolution",
     "generators_in_letters", "alias_structure", "alias_chains", "confounded_terms",
-    "aberration_key",
 ]
 
 # No "I": it is the identity in "I = ABCE".
@@ -87,11 +84,6 @@ def word_length_pattern(subgroup: Sequence[int], k: int) -> tuple[int, ...]:
         if w:
             counts[word_length(w) - 1] += 1
     return tuple(counts)
-
-
-def aberration_key(subgroup: Sequence[int], k: int) -> tuple[int, ...]:
-    """Sort key for minimum aberration: the word length pattern from length 1."""
-    return word_length_pattern(subgroup, k)
 
 
 def resolution(subgroup: Sequence[int]) -> int | None:
@@ -174,20 +166,3 @@ def confounded_terms(word: int, subgroup: Sequence[int], names: Sequence[str],
     if max_order is not None:
         coset = [e for e in coset if word_length(e) <= max_order]
     return [word_term(e, names) for e in coset if e]
-
-
-def coset_lengths(words: np.ndarray, subgroup: Sequence[int]) -> np.ndarray:
-    """Shortest word length in each word's coset (vectorised over ``words``)."""
-    words = np.asarray(words, dtype=np.int64)
-    sub = np.asarray(list(subgroup), dtype=np.int64)
-    prod = words[..., None] ^ sub
-    return _popcount(prod).min(axis=-1)
-
-
-def _popcount(a: np.ndarray) -> np.ndarray:
-    a = np.asarray(a, dtype=np.int64)
-    count = np.zeros(a.shape, dtype=np.int64)
-    while np.any(a):
-        count += a & 1
-        a = a >> 1
-    return count
