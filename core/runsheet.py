@@ -161,6 +161,8 @@ def plan_command(args) -> tuple[dict, str]:
 
 def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
     """The plan described in plain words for the terminal."""
+    from .designs import _roman
+
     lines = []
     letters = report["letters"]
     if report.get("alpha") is not None:
@@ -221,7 +223,3 @@ def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
                  "that order, fill in the response columns, and use the file as the "
                  "study's data file.")
     return "\n".join(lines)
-
-
-def _roman(r: int) -> str:
-    return ("I", "II", "III", "IV", "V", "VI", "VII", "VIII", "IX", "X", "XI")[r - 1]
