@@ -497,22 +497,18 @@ def plan_runs(study, *, runs: int | None = None, resolution: int | None = None,
         labels = [f"block generator {i + 1}" for i in range(len(block_words))]
         report_sub = design.subgroup
         design_used = design
-    for label, w in zip(labels, report_words):
-        conf = confounded_terms(w, report_sub, names)
-        short = [t for t in conf if t.count(":") <= 2] or conf[:1]
-        block_report.append({"generator": label, "word": word_letters(w),
-                             "confounded_with": short})
-    if len(report_words) > 1:
-        for r in range(2, len(report_words) + 1):
-            for combo in combinations(range(len(report_words)), r):
-                w = 0
-                for i in combo:
-                    w ^= report_words[i]
-                conf = confounded_terms(w, report_sub, names)
-                short = [t for t in conf if t.count(":") <= 2] or conf[:1]
-                block_report.append({
-                    "generator": " x ".join(labels[i].split(" (")[0] for i in combo),
-                    "word": word_letters(w), "confounded_with": short})
+    # Each block contrast: every generator, then every product of generators.
+    for r in range(1, len(report_words) + 1):
+        for combo in combinations(range(len(report_words)), r):
+            w = 0
+            for i in combo:
+                w ^= report_words[i]
+            conf = confounded_terms(w, report_sub, names)
+            short = [t for t in conf if t.count(":") <= 2] or conf[:1]
+            label = labels[combo[0]] if r == 1 else \
+                " x ".join(labels[i].split(" (")[0] for i in combo)
+            block_report.append({"generator": label, "word": word_letters(w),
+                                 "confounded_with": short})
     if any(":" in t and t.count(":") == 1 for b in block_report
            for t in b["confounded_with"]):
         notes.append("a two-factor interaction is confounded with the block differences: "
