@@ -268,7 +268,7 @@ def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.D
         ``feasible`` (both).
     """
     from .constraints import rules_satisfied
-    from .search import overall_desirability
+    from .search import goal_columns, overall_desirability
 
     if x == y:
         raise StudyError(f"a map needs two different factors, found '{x}' twice: "
@@ -312,9 +312,7 @@ def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.D
             lo, hi = limits(f.goal)
             value = np.asarray(natural[f.name], dtype=float)
             within &= (value >= lo) & (value <= hi)
-    active = [r for r in study.responses if r.goal.active and r.name in models] + \
-        [f for f in study.factors if not f.is_categorical and f.goal.active]
-    out["D"] = overall_desirability(study, fit, X)[0] if active else np.nan
+    out["D"] = overall_desirability(study, fit, X)[0] if goal_columns(study, fit) else np.nan
     out["within_limits"] = within
     out["allowed"] = rules_satisfied(study, X)
     out["feasible"] = out["within_limits"] & out["allowed"]
