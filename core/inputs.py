@@ -87,7 +87,11 @@ def table_columns(name: str, data: bytes) -> pd.DataFrame:
     numbers (low, centre, high) or exactly two words is suggested as a
     factor; other number columns as responses.
     """
-    table = read_table(Path(name), data=data)
+    return _column_roles(read_table(Path(name), data=data))
+
+
+def _column_roles(table) -> pd.DataFrame:
+    """``table_columns`` of a table already read."""
     rows = []
     for j, column in enumerate(table.header):
         if not column:
@@ -139,8 +143,8 @@ def draft_spec(name: str, data: bytes, factors: list[str],
     if both:
         raise StudyError(f"{name}: {both} chosen as factor and as response: each column "
                          "is one or the other")
-    columns = table_columns(name, data).set_index("column")
     table = read_table(Path(name), data=data)
+    columns = _column_roles(table).set_index("column")
     index = {c: j for j, c in enumerate(table.header)}
     spec_factors = []
     for f in factors:
