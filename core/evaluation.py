@@ -176,7 +176,9 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     if dropped:
         notes = list(notes) + [f"{dropped} term(s) of the model cannot be estimated "
                                "from these runs (aliased with earlier terms)"]
-    label = model if isinstance(model, str) else "terms: " + ", ".join(model)
+    from .summary import model_label
+
+    label = model_label(model)
     return DesignEvaluation(model=label, runs=n, parameters=rank, error_df=error_df,
                             table=table, effect=effect, sd=sd, alpha=alpha,
                             notes=tuple(notes))

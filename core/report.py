@@ -28,6 +28,7 @@ import pandas as pd
 from .cautions import FOOD_CAUTIONS
 from .errors import StudyError, TradeoffError
 from .files import write_atomic
+from .summary import model_label, study_summary
 
 __all__ = ["build_report_html", "build_workbook", "write_report", "report_data",
            "REPORT_SUFFIXES", "WORKBOOK_SHEETS", "CAUTIONS"]
@@ -89,7 +90,6 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     from .provenance import provenance
     from .search import optimize
     from .study import study_to_dict
-    from .summary import study_summary
 
     if study.runs is None:
         raise StudyError(f"study '{study.name}' has no runs loaded: a report needs the "
@@ -269,7 +269,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         anova = rep.get("anova") or {}
         lof, curv = anova.get("lack_of_fit") or {}, anova.get("curvature") or {}
         model_rows.append({
-            "response": name, "model": _model_name(rep["model"]),
+            "response": name, "model": model_label(rep["model"]),
             "transform": rep["transform"], "runs used": rep["n"],
             "terms": len(rep["terms"]), "residual df": rep["residual_df"],
             "R2": rep["r2"], "adjusted R2": rep["adj_r2"], "predicted R2": rep["pred_r2"],
@@ -373,10 +373,6 @@ def _is_clear(rep: dict, term: str, alpha: float) -> bool | None:
     if lenth and lenth.get("me") is not None and effect is not None:
         return bool(abs(effect) > lenth["me"])
     return None
-
-
-def _model_name(model) -> str:
-    return model if isinstance(model, str) else "terms: " + ", ".join(model)
 
 
 def _g(x, digits: int = 4) -> str:
@@ -774,7 +770,7 @@ class _Page:
     def _fit_stats(self, rep: dict) -> str:
         scale = {"log": " on the log scale", "sqrt": " on the square-root scale"}.get(
             rep["transform"], "")
-        rows = [["model", esc(_model_name(rep["model"])) + esc(scale)],
+        rows = [["model", esc(model_label(rep["model"])) + esc(scale)],
                 ["runs used", str(rep["n"])],
                 ["terms", str(len(rep["terms"]))],
                 ["residual degrees of freedom", str(rep["residual_df"])],

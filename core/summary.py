@@ -5,7 +5,7 @@ import numpy as np
 
 from .study import Study
 
-__all__ = ["study_summary", "summary_text"]
+__all__ = ["study_summary", "summary_text", "model_label"]
 
 
 def study_summary(study: Study) -> dict:
@@ -36,7 +36,7 @@ def study_summary(study: Study) -> dict:
         present = values[~np.isnan(values)]
         entry = {"name": r.name, "label": r.label, "unit": r.unit,
                  "measured": int(len(present)), "blank": int(np.isnan(values).sum()),
-                 "goal": r.goal.kind, "model": _model_name(study.model_for(r))}
+                 "goal": r.goal.kind, "model": model_label(study.model_for(r))}
         if len(present):
             entry["min"], entry["max"] = float(present.min()), float(present.max())
         if r.is_derived:
@@ -66,7 +66,8 @@ def _blocks(study) -> dict | None:
             "runs": {lev: int((labels == lev).sum()) for lev in levels}}
 
 
-def _model_name(model) -> str:
+def model_label(model) -> str:
+    """A model as text: its name, or ``terms: a, b, a:b`` for a list of terms."""
     return model if isinstance(model, str) else "terms: " + ", ".join(model)
 
 
