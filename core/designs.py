@@ -641,8 +641,8 @@ def augment_study(study, kind: str = "face", *, center: int | None = None,
     coded_new = np.vstack([axial, centre])
     point = ["axial"] * len(axial) + ["centre"] * len(centre)
     block_no = 2
-    if "block" in study.runs.columns:
-        existing = pd.to_numeric(study.runs["block"], errors="coerce")
+    if study.block_column is not None:  # [study] blocks, or a column named 'block'
+        existing = pd.to_numeric(study.runs[study.block_column], errors="coerce")
         if existing.notna().all() and len(existing):
             block_no = int(existing.max()) + 1
     first, prefix, width = _next_ids(study.runs["run"].astype(str).tolist())

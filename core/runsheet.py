@@ -130,8 +130,10 @@ def plan_command(args) -> tuple[dict, str]:
         plan = augment_study(study, args.augment, center=args.center,
                              replicates=args.replicates, seed=args.seed)
         old = study.coded().to_numpy(float)
-        old_block = (study.runs["block"].astype(str).to_numpy() if "block" in
-                     study.runs.columns else ["1"] * len(old))
+        # the runs' blocks as the models read them ([study] blocks or 'block')
+        column = study.block_column
+        old_block = (study.runs[column].astype(str).to_numpy() if column is not None
+                     else ["1"] * len(old))
         import numpy as np
         coded = np.vstack([old, plan.coded.to_numpy(float)])
         block = np.concatenate([np.asarray(old_block, dtype=object),
