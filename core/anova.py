@@ -86,12 +86,15 @@ def curvature_test(X: np.ndarray, y: np.ndarray, ss_pe: float, df_pe: int,
     centre runs or only factorial runs (nothing to compare within a block).
     """
     X = np.asarray(X, dtype=float)
-    numeric = ~np.all(np.isclose(np.abs(X), 1.0), axis=0)
+    # np.isclose(a, 1.0) and np.isclose(a, 0.0) with its default tolerances
+    # (rtol 1e-5, atol 1e-8), written out: isclose's generic path is slow.
+    absX = np.abs(X)
+    at_one = np.abs(absX - 1.0) <= 1e-8 + 1e-5 * 1.0
+    numeric = ~np.all(at_one, axis=0)
     if not numeric.any():
         return None
-    Xn = X[:, numeric]
-    factorial = np.all(np.isclose(np.abs(Xn), 1.0), axis=1)
-    centre = np.all(np.isclose(Xn, 0.0), axis=1)
+    factorial = np.all(at_one[:, numeric], axis=1)
+    centre = np.all(absX[:, numeric] <= 1e-8, axis=1)
     if not np.all(factorial | centre) or not factorial.any() or not centre.any():
         return None
     nf, nc = int(factorial.sum()), int(centre.sum())

@@ -26,6 +26,7 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 from scipy import special, stats
+from scipy.linalg import blas as _blas
 from scipy.linalg import lapack as _lapack
 from scipy.linalg import solve_triangular
 
@@ -73,9 +74,10 @@ class _Solution:
             raise ModelError(f"the model matrix is singular (LAPACK info {info})")
         # diag((X'X)^-1) = row sums of Rinv^2, because (X'X)^-1 = Rinv Rinv'
         self.cdiag = np.einsum("ij,ij->i", self.Rinv, self.Rinv)
-        # leverage = row sums of Q^2, and Q = M Rinv
+        # leverage = row sums of Q^2, and Q = M Rinv (a triangular product, trmm)
         cond = np.abs(R).sum(axis=0).max() * np.abs(self.Rinv).sum(axis=0).max()
-        Q = fac.Q if cond > _LEVERAGE_COND else M @ self.Rinv
+        Q = fac.Q if cond > _LEVERAGE_COND else _blas.dtrmm(
+            1.0, np.asfortranarray(self.Rinv), M, side=1, lower=0)
         self.leverage = np.einsum("ij,ij->i", Q, Q)
         if self.df > 0:
             s2 = self.sse / self.df
@@ -170,9 +172,13 @@ class ResponseModel:
             warnings.append(f"run(s) {', '.join(str(i) for i in ids[blank][:10])}"
                             f"{', ...' if blank.sum() > 10 else ''} have no value: left "
                             "out of this model")
-        X, y, ids = X[~blank], y[~blank], ids[~blank]
-        if block is not None:
-            block = block[~blank]
+            X, y, ids = X[~blank], y[~blank], ids[~blank]
+            if block is not None:
+                block = block[~blank]
+        else:
+            # X is only read during fit; y and the ids are kept, so they are copied
+            # (as the selection above copies them) and never share the caller's data.
+            y, ids = y.copy(), ids.copy()
         n = y.size
         if n < 2:
             raise ModelError(f"response '{name}': only {n} run(s) have a value: a model "
@@ -182,8 +188,12 @@ class ResponseModel:
             raise ModelError(f"response '{name}' is {y[0]:g} in every run: there is "
                              "nothing to model: check the data or remove the response")
 
-        Xs = np.sort(np.round(X, 9), axis=0)
-        n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
+        # Distinct settings per factor decide the squares: only a quadratic model
+        # or a list of terms has any (other named models do not need the count).
+        n_settings = None
+        if not isinstance(self.terms, str) or self.terms == "quadratic":
+            Xs = np.sort(np.round(X, 9), axis=0)
+            n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
         terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name)
         warnings += notes
         keep_terms = self._pinned(self.keep, terms, "keep")
@@ -225,8 +235,9 @@ class ResponseModel:
                                 f"{' + '.join(partners)} in these runs (aliased): only "
                                 f"{partners[0] if len(partners) == 1 else 'those'} "
                                 "estimated, standing for both")
-        terms = [t for t, k in zip(terms, keep_mask) if k]
-        M = M[:, keep_mask]
+        if not keep_mask.all():  # (no copy of M when every term is kept)
+            terms = [t for t, k in zip(terms, keep_mask) if k]
+            M = M[:, keep_mask]
         if len(terms) > n:  # cannot happen after alias removal, kept as a guard
             raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
 
@@ -239,7 +250,7 @@ class ResponseModel:
                 qr = None
 
         sol = _Solution(M, z, qr)
-        warnings += _near_alias_notes(terms, M, sol.cdiag)
+        warnings += _near_alias_notes(terms, M, sol.cdiag, sol.qr.R)
         self._terms = terms
         self._sol = sol
         self._set_results(X, y, z, ids, terms, sol, aliases, warnings,
@@ -656,7 +667,8 @@ class ResponseModel:
 NEAR_ALIAS_VIF = 10.0
 
 
-def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray) -> list[str]:
+def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray,
+                      R: np.ndarray | None = None) -> list[str]:
     """A warning per term whose variance inflation factor is above NEAR_ALIAS_VIF.
 
     VIF_j = diag((X'X)^-1)_j * sum((x_j - mean x_j)^2), the usual centred VIF
@@ -668,7 +680,12 @@ def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray) -> list[str]:
     if not any(t.is_intercept for t in terms):
         return []
     notes = []
-    centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
+    if R is not None and terms[0].is_intercept:
+        # M = QR with the column of ones first: R[0, j]^2 = n mean_j^2, so the
+        # rest of column j of R holds its centred sum of squares (no n x p pass).
+        centred = np.einsum("ij,ij->j", R[1:], R[1:])
+    else:
+        centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
     for t, c, ss in zip(terms, cdiag, centred):
         if t.is_intercept or ss == 0:
             continue
