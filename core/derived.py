@@ -437,8 +437,11 @@ def _derive_panel(study, r, opts, sec, fname, sub):
         res = run_means(scored["run"], scored["score"]).set_index("run")
         col = "mean"
     else:
-        res = adjusted_means(scored["run"], scored["assessor"],
-                             scored["score"]).set_index("run")
+        try:
+            res = adjusted_means(scored["run"], scored["assessor"],
+                                 scored["score"]).set_index("run")
+        except DataError as exc:  # the panel functions know no file: name it here
+            raise DataError(f"{fname}: response '{r.name}': {exc}") from None
         col = "adjusted_mean"
     notes = []
     for run, row in res.iterrows():

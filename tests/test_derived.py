@@ -354,6 +354,12 @@ LIKE = '[[responses]]\nname = "l"\nderive = "panel_mean"\nattribute = "liking"\n
      r"again \(first at row 2\)"),
     (LIKE, STORAGE, PANEL + "R7,A1,liking,4\n",
      r"panel\.csv, row 11, column 'run': run 'R7' is not in the runs table"),
+    # two groups of assessors with no run in common (common practice: a disconnected
+    # design cannot compare runs across groups)
+    (LIKE.replace("panel_mean", "panel_adjusted"), STORAGE,
+     "run,assessor,attribute,score\nR1,A1,liking,7\nR2,A1,liking,5\nR3,A2,liking,6\n"
+     "R4,A2,liking,8\n",
+     r"^panel\.csv: response 'l': the panel splits into groups of assessors"),
 ])
 def test_bad_tables_name_file_and_row(tmp_path, responses, storage, panel, pattern):
     with pytest.raises(DataError, match=pattern):
