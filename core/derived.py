@@ -129,11 +129,9 @@ def _options(study: Study, r: Response) -> dict:
             raise StudyError(f"{fname}: {what}: derive = '{kind}' needs {key} = ...")
     section = "storage" if kind in STORAGE_KINDS else "panel"
     if study.spec.get(section) is None:
-        example = ("[storage]\ndata = \"storage.csv\"" if section == "storage"
-                   else "[panel]\ndata = \"panel.csv\"")
         raise StudyError(f"{fname}: {what}: derive = '{kind}' reads the {section} table, "
                          f"but the study file has no [{section}] section: add one "
-                         f"({example.splitlines()[0]} with {example.splitlines()[1]})")
+                         f"([{section}] with data = \"{section}.csv\")")
     opts = {"kind": kind, "section": section}
     for key in ("property", "attribute"):
         if key in ex:
