@@ -333,7 +333,11 @@ class ResponseModel:
                           and not any(u.contains(t) for u in current)]
             if not candidates or sol.p is None:
                 break
-            worst = max(candidates, key=lambda j: (np.nan_to_num(sol.p[j], nan=1.0), j))
+            # Terms of an orthogonal design often tie exactly; rounding away the last
+            # digits lets the rule (the later term goes first) break the tie, not
+            # floating-point noise that changes with the QR route or the BLAS.
+            ranked = np.round(np.nan_to_num(sol.p, nan=1.0), 10)
+            worst = max(candidates, key=lambda j: (ranked[j], j))
             pw = float(sol.p[worst])
             if not pw > self.alpha:
                 break
