@@ -155,3 +155,31 @@ def test_the_report_is_offered_after_preparing_it():
     at.button(key="d_prepare").click().run()
     assert not at.exception and not at.error
     assert len(at.get("download_button")) == 4
+
+
+def test_uploaded_report_fingerprints_the_named_data_file(monkeypatch):
+    # Provenance hashes the data file the study names, not another table uploaded
+    # with it (common practice: the fingerprint identifies the data used).
+    import hashlib
+
+    import tradeoff.report
+
+    seen = {}
+    build = tradeoff.report.build_workbook
+
+    def spy(*args, **kwargs):
+        seen["data_bytes"] = kwargs.get("data_bytes")
+        return build(*args, **kwargs)
+
+    monkeypatch.setattr(tradeoff.report, "build_workbook", spy)
+    other = b"run,note\n1,first batch\n"
+    at = start("study")
+    at.file_uploader[0].set_value([("study.toml", BASIC_STUDY.encode(), "application/toml"),
+                                   ("notes.csv", other, "text/csv"),
+                                   ("runs.csv", BASIC_RUNS.encode(), "text/csv")]).run()
+    assert not at.exception and not at.error, [e.value for e in at.error]
+    at.switch_page("views/downloads.py")
+    at.run()
+    assert not at.exception and not at.error
+    assert hashlib.sha256(seen["data_bytes"]).hexdigest() == \
+        hashlib.sha256(BASIC_RUNS.encode()).hexdigest()

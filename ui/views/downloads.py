@@ -25,8 +25,9 @@ origin = ss["origin"]
 study_bytes = data_bytes = None
 if origin["kind"] == "files":
     study_bytes = next(b for n, b in origin["files"].items() if n.lower().endswith(".toml"))
+    # the data file the study names, not another upload (a confirmation table)
     data_bytes = next(b for n, b in origin["files"].items()
-                      if not n.lower().endswith(".toml"))
+                      if Path(n).name == study.data_path.name)
 elif origin["kind"] == "draft":
     data_bytes = origin["data"]
 stem = Path(study.source.name if study.source else "study").stem
