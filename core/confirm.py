@@ -83,6 +83,7 @@ def confirmation_runs(study, *, read_files: bool = True,
         those columns) when the study lists no confirmation runs.
     """
     fname = Path(study.source).name if study.source is not None else "study"
+    files = {**study.uploads, **(files or {})}
     entries = study.spec.get("confirmations", [])
     if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
         raise StudyError(f"{fname}: 'confirmations' must be written as "

@@ -18,11 +18,11 @@ import numpy as np
 import pandas as pd
 
 from .errors import DataError, StudyError, did_you_mean, where
-from .intake import RawTable, read_table
+from .intake import RawTable
 from .panel import adjusted_means, assessor_agreement, read_panel, run_means
 from .storage import (DIRECTIONS, ORDERS, SHELF_LIFE_CAUTION, fit_kinetics,
                       fitted_value, interpolate_at, read_storage, time_to_limit)
-from .study import SECTION_KEYS, Response, Study, check_keys
+from .study import SECTION_KEYS, Response, Study, check_keys, read_study_table
 
 __all__ = ["DERIVE_KINDS", "DERIVED_COLUMNS", "check_derived", "add_derived_responses",
            "derivation_table", "describe_derivation"]
@@ -203,12 +203,14 @@ def _tables(study: Study, storage: RawTable | None, panel: RawTable | None,
     out = {}
     if "storage" in wanted:
         sec = _section(study, "storage")
-        raw = storage if storage is not None else read_table(sec["data"], sheet=sec["sheet"])
+        raw = storage if storage is not None else read_study_table(study, sec["data"],
+                                                                   sheet=sec["sheet"])
         out["storage"] = (sec, raw.source.name,
                           read_storage(raw, time=sec["time"], run_ids=run_ids))
     if "panel" in wanted:
         sec = _section(study, "panel")
-        raw = panel if panel is not None else read_table(sec["data"], sheet=sec["sheet"])
+        raw = panel if panel is not None else read_study_table(study, sec["data"],
+                                                               sheet=sec["sheet"])
         out["panel"] = (sec, raw.source.name,
                         read_panel(raw, scale=sec["scale"], run_ids=run_ids))
     return out

@@ -74,7 +74,8 @@ def study_from_files(files: dict[str, bytes]) -> Study:
     else:
         raise StudyError(f"{name}: [study] names no data file: add data = \"runs.csv\" "
                          "or upload exactly one data file with it")
-    return study_from_dict(spec, source=Path(name), data_bytes=files[data_name])
+    return study_from_dict(spec, source=Path(name), data_bytes=files[data_name],
+                           uploads=files)
 
 
 def table_columns(name: str, data: bytes) -> pd.DataFrame:

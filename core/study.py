@@ -22,7 +22,7 @@ from .intake import RawTable, cell_text, parse_number, read_table
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
     "load_study", "parse_study_text", "study_from_dict", "study_to_dict", "attach_runs",
-    "SECTION_KEYS", "check_keys", "MAX_STUDY_BYTES",
+    "SECTION_KEYS", "read_study_table", "check_keys", "MAX_STUDY_BYTES",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
@@ -168,6 +168,9 @@ class Study:
     sheet: str | int | None = None
     description: str = ""
     runs: pd.DataFrame | None = field(default=None, compare=False, repr=False)
+    # Files given with the study rather than read from its folder (uploads):
+    # base file name -> content. Every table the study names is looked up here first.
+    uploads: dict = field(default_factory=dict, compare=False, repr=False)
     notes: tuple[str, ...] = ()
     spec: dict = field(default_factory=dict, compare=False, repr=False)
     blocks: str | None = None
@@ -283,11 +286,14 @@ def parse_study_text(data: bytes, name: str) -> dict:
 
 
 def study_from_dict(spec: dict, *, source: str | Path | None = None,
-                    with_data: bool = True, data_bytes: bytes | None = None) -> Study:
+                    with_data: bool = True, data_bytes: bytes | None = None,
+                    uploads: dict[str, bytes] | None = None) -> Study:
     """Build a study from an already parsed specification (a TOML document).
 
     ``source`` names the study file; a relative ``data`` path is taken from its
-    folder. ``data_bytes`` may carry the data file's content (an upload).
+    folder. ``data_bytes`` may carry the data file's content (an upload);
+    ``uploads`` (file name -> content) may carry every table the study names
+    (runs, storage, panel, confirmations), which are then not read from disk.
     """
     source = Path(source) if source is not None else None
     fname = source.name if source is not None else "study"
@@ -352,7 +358,7 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         factors=factors, responses=responses, model=model, terms=terms,
         constraints=constraints, confidence=confidence, seed=seed, source=source,
         data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
-        spec=spec, blocks=blocks,
+        spec=spec, uploads=dict(uploads or {}), blocks=blocks,
     )
     if "confirmations" in spec:
         from .confirm import confirmation_runs  # late: confirm reads Study from here
@@ -365,9 +371,24 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
         return study
     if data_path is None and data_bytes is None:
         raise StudyError(f"{fname}: [study] has no data file: add data = \"runs.csv\"")
-    table = read_table(data_path if data_path is not None else Path("data.csv"),
-                       sheet=sheet, data=data_bytes)
+    if data_bytes is not None:
+        table = read_table(data_path if data_path is not None else Path("data.csv"),
+                           sheet=sheet, data=data_bytes)
+    else:
+        table = read_study_table(study, data_path, sheet=sheet)
     return add_derived_responses(attach_runs(study, table))
+
+
+def read_study_table(study: Study, path: str | Path, *, sheet=None) -> RawTable:
+    """A table the study names: from the study's uploads if given there, else from disk."""
+    path = Path(path)
+    if study.uploads and path.name not in study.uploads:
+        # An uploaded study's tables come with it; never read a stray file
+        # that happens to sit in the server's working folder.
+        raise DataError(f"{path.name}: the study names this table but it was not "
+                        f"uploaded (uploaded: {', '.join(sorted(study.uploads))}): "
+                        "upload it together with the study file")
+    return read_table(path, sheet=sheet, data=study.uploads.get(path.name))
 
 
 def attach_runs(study: Study, table: RawTable) -> Study:

@@ -121,3 +121,33 @@ def test_with_response_model():
         with_response_model(study, "liking", "cubic")
     with pytest.raises(StudyError, match="needs at least one term"):
         with_response_model(study, "liking", ())
+
+
+def test_uploaded_study_with_raw_storage_and_panel_tables_opens_like_the_files():
+    # Every table a study names may come with the upload (runs, storage, panel):
+    # the uploaded study derives the same responses as the one read from disk.
+    from conftest import REPO
+
+    from tradeoff import load_study
+    from tradeoff.inputs import study_from_files
+
+    folder = REPO / "demo_data"
+    names = ["snack_bar_raw.toml", "snack_bar_runs.csv", "snack_bar_storage.csv",
+             "snack_bar_panel.csv"]
+    uploaded = study_from_files({n: (folder / n).read_bytes() for n in names})
+    on_disk = load_study(folder / "snack_bar_raw.toml")
+    for r in on_disk.responses:
+        assert uploaded.runs[r.name].to_numpy() == pytest.approx(
+            on_disk.runs[r.name].to_numpy(), nan_ok=True)
+
+
+def test_uploaded_study_missing_its_storage_table_says_which_file():
+    from conftest import REPO
+
+    from tradeoff.inputs import study_from_files
+
+    folder = REPO / "demo_data"
+    names = ["snack_bar_raw.toml", "snack_bar_runs.csv", "snack_bar_panel.csv"]
+    with pytest.raises(Exception, match=r"snack_bar_storage.csv: the study names this table but it "
+                                         r"was not uploaded.*upload it together"):
+        study_from_files({n: (folder / n).read_bytes() for n in names})
