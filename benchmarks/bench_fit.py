@@ -24,8 +24,8 @@ import time
 
 import numpy as np
 
-from tradeoff.models import ResponseModel
-from tradeoff.terms import model_matrix, model_terms
+from tradeoff.model.fit import ResponseModel
+from tradeoff.model.terms import model_matrix, model_terms
 
 
 def median_time(fn, repeat: int = 25) -> float:

@@ -1,57 +1,68 @@
 """tradeoff: find the factor settings that best balance several responses.
 
-The package root re-exports the public API; each name lives in one module.
+The package root re-exports the public API; each name lives in one module of
+one stage folder (see DEVELOPERS.md). Names resolve on first use (PEP 562), so
+``import tradeoff`` and ``tradeoff --help`` load neither pandas nor scipy.
 """
 from __future__ import annotations
 
+import importlib
+
 __version__ = "0.1.0"
 
-from .errors import (DataError, ModelError, PlanError, SearchError, StudyError,
-                     TradeoffError)
-from .study import Factor, Goal, Response, Study, load_study, study_from_dict
-from .coding import to_coded, to_natural
-from .models import ResponseModel, StudyFit, fit_response, fit_study
-from .storage import (SHELF_LIFE_CAUTION, fit_kinetics, interpolate_at, read_storage,
-                      time_to_limit)
-from .panel import (PANEL_CAUTION, adjusted_means, assessor_agreement, read_panel,
-                    run_means)
-from .derived import (DERIVE_KINDS, add_derived_responses, derivation_table,
-                      describe_derivation)
-from .designs import (GENERATOR_TABLE, Plan, TwoLevelDesign, augment_study,
-                      available_designs, fold_over, fractional_design, plan_runs)
-from .aliases import alias_structure
-from .evaluation import (DesignEvaluation, effect_power, evaluate_design, evaluate_plan,
-                         evaluate_study)
-from .runsheet import run_sheet, write_run_sheet
-from .desirability import combine_desirability, desirability, limits, shortfall
-from .constraints import LinearRule, parse_rule, rule_arrays, study_rules
-from .chance import ChanceEstimate, chance_in_limits
-from .search import (OptimizationResult, ResponseOutcome, Solution, goal_columns,
-                     optimize, overall_desirability)
-from .provenance import provenance
-from .confirm import ConfirmationCheck, check_confirmations, confirmation_runs
-from .report import build_report_html, build_workbook, report_data, write_report
+# public name -> the module (under tradeoff) that defines it
+_HOME = {
+    "TradeoffError": "errors", "StudyError": "errors", "DataError": "errors",
+    "ModelError": "errors", "SearchError": "errors", "PlanError": "errors",
+    "Factor": "study.spec", "Goal": "study.spec", "Response": "study.spec",
+    "Study": "study.spec",
+    "load_study": "derive.load", "study_from_dict": "derive.load",
+    "to_coded": "study.coding", "to_natural": "study.coding",
+    "LinearRule": "study.constraints", "parse_rule": "study.constraints",
+    "rule_arrays": "study.constraints", "study_rules": "study.constraints",
+    "SHELF_LIFE_CAUTION": "cautions", "PANEL_CAUTION": "cautions",
+    "fit_kinetics": "derive.storage", "interpolate_at": "derive.storage",
+    "read_storage": "derive.storage", "time_to_limit": "derive.storage",
+    "adjusted_means": "derive.panel", "assessor_agreement": "derive.panel",
+    "read_panel": "derive.panel", "run_means": "derive.panel",
+    "DERIVE_KINDS": "derive.derived", "add_derived_responses": "derive.derived",
+    "derivation_table": "derive.derived", "describe_derivation": "derive.derived",
+    "ResponseModel": "model.fit", "StudyFit": "model.fit",
+    "fit_response": "model.fit", "fit_study": "model.fit",
+    "GENERATOR_TABLE": "plan.designs", "Plan": "plan.designs",
+    "TwoLevelDesign": "plan.designs", "augment_study": "plan.designs",
+    "available_designs": "plan.designs", "fold_over": "plan.designs",
+    "fractional_design": "plan.designs", "plan_runs": "plan.designs",
+    "alias_structure": "plan.aliases",
+    "DesignEvaluation": "plan.evaluation", "effect_power": "plan.evaluation",
+    "evaluate_design": "plan.evaluation", "evaluate_plan": "plan.evaluation",
+    "evaluate_study": "plan.evaluation",
+    "run_sheet": "plan.runsheet", "write_run_sheet": "plan.runsheet",
+    "combine_desirability": "search.desirability", "desirability": "search.desirability",
+    "limits": "search.desirability", "shortfall": "search.desirability",
+    "ChanceEstimate": "search.chance", "chance_in_limits": "search.chance",
+    "OptimizationResult": "search.search", "ResponseOutcome": "search.search",
+    "Solution": "search.search", "goal_columns": "search.search",
+    "optimize": "search.search", "overall_desirability": "search.search",
+    "ConfirmationCheck": "confirm.check", "check_confirmations": "confirm.check",
+    "confirmation_runs": "confirm.check",
+    "provenance": "report.provenance",
+    "build_report_html": "report.page", "build_workbook": "report.page",
+    "report_data": "report.page", "write_report": "report.page",
+}
 
-__all__ = [
-    "__version__",
-    "TradeoffError", "StudyError", "DataError", "ModelError", "SearchError",
-    "PlanError",
-    "Factor", "Goal", "Response", "Study", "load_study", "study_from_dict",
-    "to_coded", "to_natural",
-    "ResponseModel", "StudyFit", "fit_response", "fit_study",
-    "SHELF_LIFE_CAUTION", "fit_kinetics", "interpolate_at", "read_storage",
-    "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
-    "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",
-    "derivation_table", "describe_derivation",
-    "GENERATOR_TABLE", "Plan", "TwoLevelDesign", "augment_study",
-    "available_designs", "fold_over", "fractional_design", "plan_runs",
-    "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",
-    "evaluate_plan", "evaluate_study", "run_sheet", "write_run_sheet",
-    "combine_desirability", "desirability", "limits", "shortfall",
-    "LinearRule", "parse_rule", "rule_arrays", "study_rules",
-    "ChanceEstimate", "chance_in_limits",
-    "OptimizationResult", "ResponseOutcome", "Solution", "goal_columns", "optimize",
-    "overall_desirability",
-    "provenance", "ConfirmationCheck", "check_confirmations", "confirmation_runs",
-    "build_report_html", "build_workbook", "report_data", "write_report",
-]
+__all__ = ["__version__", *_HOME]
+
+
+def __getattr__(name: str):
+    try:
+        home = _HOME[name]
+    except KeyError:
+        raise AttributeError(f"module 'tradeoff' has no attribute {name!r}") from None
+    value = getattr(importlib.import_module(f"{__name__}.{home}"), name)
+    globals()[name] = value  # later look-ups skip this function
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

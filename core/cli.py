@@ -141,13 +141,13 @@ _at_least_one = _whole_number(1)
 
 
 def _run_optimize(args) -> int:
-    from .search import optimize
-    from .study import load_study
+    from .search.search import optimize
+    from .derive.load import load_study
 
     study = load_study(args.study)
     result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by)
     if args.json:
-        from .provenance import provenance
+        from .report.provenance import provenance
 
         # tool version, file fingerprints, date and seed: enough to reproduce it
         block = provenance(study, seed=result.seed)
@@ -158,7 +158,7 @@ def _run_optimize(args) -> int:
 
 
 def _run_plan(args) -> int:
-    from .runsheet import plan_command
+    from .plan.runsheet import plan_command
 
     report, text = plan_command(args)
     print(json.dumps(report, indent=2) if args.json else text)
@@ -166,8 +166,8 @@ def _run_plan(args) -> int:
 
 
 def _run_check(args) -> int:
-    from .study import load_study
-    from .summary import study_summary, summary_text
+    from .derive.load import load_study
+    from .report.summary import study_summary, summary_text
 
     study = load_study(args.study)
     summary = study_summary(study)
@@ -179,9 +179,9 @@ def _run_check(args) -> int:
 
 
 def _run_fit(args) -> int:
-    from .fit_text import fit_text
-    from .models import fit_response, fit_study
-    from .study import load_study
+    from .report.fit_text import fit_text
+    from .model.fit import fit_response, fit_study
+    from .derive.load import load_study
 
     study = load_study(args.study)
     if args.response:
@@ -202,8 +202,8 @@ def _run_fit(args) -> int:
 
 
 def _run_report(args) -> int:
-    from .report import write_report
-    from .study import load_study
+    from .report.page import write_report
+    from .derive.load import load_study
 
     study = load_study(args.study)
     path = write_report(study, args.out, top=args.top, seed=args.seed)
@@ -212,9 +212,10 @@ def _run_report(args) -> int:
 
 
 def _run_confirm(args) -> int:
-    from .confirm import check_confirmations, confirmation_files
-    from .provenance import provenance
-    from .study import load_study
+    from .confirm.check import check_confirmations
+    from .study.confirmations import confirmation_files
+    from .report.provenance import provenance
+    from .derive.load import load_study
 
     study = load_study(args.study)
     check = check_confirmations(study)
@@ -242,9 +243,9 @@ def _run_app(args) -> int:
     import os
     from pathlib import Path
 
-    from .demo import demo_study_path
-    from .intake import MAX_TABLE_BYTES
-    from .study import load_study
+    from .study.demo import demo_study_path
+    from .study.intake import MAX_TABLE_BYTES
+    from .derive.load import load_study
 
     study = Path(args.study) if args.study else demo_study_path()
     load_study(study)  # a bad study file stops here with one line, not in the browser

@@ -14,9 +14,10 @@ import numpy as np
 import pandas as pd
 
 from .errors import StudyError, TradeoffError
-from .intake import MAX_TABLE_BYTES, parse_number, read_table
-from .study import (MAX_STUDY_BYTES, MODELS, Goal, Study, _goal, parse_study_text,
-                    study_from_dict)
+from .study.intake import MAX_TABLE_BYTES, parse_number, read_table
+from .study.spec import MAX_STUDY_BYTES, MODELS, Goal, Study
+from .study.reader import _goal, parse_study_text
+from .derive.load import study_from_dict
 
 __all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
            "checked_goal", "with_response_model"]

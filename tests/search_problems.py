@@ -3,7 +3,7 @@
 ``LstsqModel`` is a small ordinary-least-squares polynomial model written with
 numpy.linalg.lstsq and textbook formulas (confidence and prediction intervals
 from the t distribution, PRESS for predicted R2: common practice). It follows
-the same contract as tradeoff.models.ResponseModel, so the search can be
+the same contract as tradeoff.model.fit.ResponseModel, so the search can be
 checked on its own.
 
 ``random_problem`` draws a seeded random multi-response problem (2 to 8
@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, stats
 
-from tradeoff.study import study_from_dict
+from tradeoff.derive.load import study_from_dict
 
 
 def design_matrix(X, kind: str) -> np.ndarray:

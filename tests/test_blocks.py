@@ -20,9 +20,9 @@ import pytest
 
 from tradeoff.cli import main
 from tradeoff.errors import DataError, ModelError, StudyError
-from tradeoff.maps import effect_table
-from tradeoff.models import ResponseModel, fit_response, fit_study
-from tradeoff.study import load_study
+from tradeoff.report.maps import effect_table
+from tradeoff.model.fit import ResponseModel, fit_response, fit_study
+from tradeoff.derive.load import load_study
 
 NAMES = ["a", "b", "c", "d"]
 BLOCK = "C(block, Sum(omit=0))"  # omit the first level: columns block[2], ... as ours
@@ -219,7 +219,7 @@ def test_confounded_term_found_and_blocks_kept_out_of_lenth():
     """Unreplicated 2^4 in two blocks, 'full' model: a:b:c:d is the block contrast
     (Box, Hunter & Hunter 2005), so it is left out and named; the 14 other
     effects go to Lenth's method and the half-normal plot, the block does not."""
-    from tradeoff.lenth import lenth
+    from tradeoff.model.lenth import lenth
 
     X, block = blocked_factorial(centre=0)
     rng = np.random.default_rng(3)
@@ -392,7 +392,7 @@ def test_blocks_key_names_the_column(tmp_path):
     assert list(study.block_labels()) == ["Mon"] * 4 + ["Tue"] * 4
     m = fit_study(study).models["y"]
     assert m.terms_[1] == "block[Tue]" and m.blocks_["column"] == "day"
-    from tradeoff.study import study_to_dict
+    from tradeoff.study.writer import study_to_dict
 
     assert study_to_dict(study)["study"]["blocks"] == "day"
     with pytest.raises(DataError, match=r"no column 'day' for the blocks \(\[study\] blocks\)"):
@@ -404,8 +404,8 @@ def test_blocks_key_names_the_column(tmp_path):
 
 
 def test_check_summary_and_design_evaluation_use_the_named_block_column(tmp_path):
-    from tradeoff.evaluation import evaluate_study
-    from tradeoff.summary import study_summary, summary_text
+    from tradeoff.plan.evaluation import evaluate_study
+    from tradeoff.report.summary import study_summary, summary_text
 
     rows = [r.replace(",1,", ",Mon,", 1).replace(",2,", ",Tue,", 1) for r in ROWS]
     study = load_study(_write(tmp_path, rows, header="run,day,a,b,c,d,y",

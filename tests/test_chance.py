@@ -7,8 +7,8 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from tradeoff.chance import chance_in_limits, residual_correlation
-from tradeoff.study import study_from_dict
+from tradeoff.search.chance import chance_in_limits, residual_correlation
+from tradeoff.derive.load import study_from_dict
 
 
 class FixedModel:

@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from tradeoff import Factor, to_coded, to_natural
-from tradeoff.coding import code_values
+from tradeoff.study.coding import code_values
 
 PROTEIN = Factor(name="protein", label="protein", low=20.0, high=30.0)
 BINDER = Factor(name="binder", label="binder", levels=("rice syrup", "date paste"))

@@ -21,9 +21,10 @@ from scipy import stats
 
 import tradeoff
 from tradeoff.cli import main
-from tradeoff.confirm import check_confirmations, confirmation_runs
+from tradeoff.confirm.check import check_confirmations
+from tradeoff.study.confirmations import confirmation_runs
 from tradeoff.errors import DataError, StudyError
-from tradeoff.study import study_to_dict
+from tradeoff.study.writer import study_to_dict
 
 DATA = Path(__file__).parent / "data" / "tire_tread_1980.csv"
 

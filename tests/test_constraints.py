@@ -7,9 +7,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from tradeoff.constraints import parse_rule, rule_arrays, rules_satisfied
+from tradeoff.study.constraints import parse_rule, rule_arrays, rules_satisfied
 from tradeoff.errors import StudyError
-from tradeoff.study import Factor, study_from_dict
+from tradeoff.study.spec import Factor
+from tradeoff.derive.load import study_from_dict
 
 FACTORS = [Factor("protein", "protein", low=20, high=30),
            Factor("glycerol", "glycerol", low=4, high=10),

@@ -8,11 +8,12 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from tradeoff.derived import DERIVED_COLUMNS, derivation_table, describe_derivation
+from tradeoff.derive.derived import DERIVED_COLUMNS, derivation_table, describe_derivation
 from tradeoff.errors import DataError, StudyError
-from tradeoff.storage import SHELF_LIFE_CAUTION
-from tradeoff.study import load_study, study_to_dict
-from tradeoff.summary import study_summary, summary_text
+from tradeoff.cautions import SHELF_LIFE_CAUTION
+from tradeoff.derive.load import load_study
+from tradeoff.study.writer import study_to_dict
+from tradeoff.report.summary import study_summary, summary_text
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data"
 

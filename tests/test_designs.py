@@ -9,11 +9,11 @@ import numpy as np
 import pytest
 
 from tradeoff import PlanError, load_study
-from tradeoff.aliases import (LETTERS, alias_chains, defining_subgroup, parse_word,
+from tradeoff.plan.aliases import (LETTERS, alias_chains, defining_subgroup, parse_word,
                               resolution, word_length_pattern)
-from tradeoff.designs import (GENERATOR_TABLE, augment_study, choose_block_words,
+from tradeoff.plan.designs import (GENERATOR_TABLE, augment_study, choose_block_words,
                               fold_over, fractional_design, plan_runs)
-from tradeoff.evaluation import evaluate_design
+from tradeoff.plan.evaluation import evaluate_design
 
 from conftest import DEMO
 

@@ -7,8 +7,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from tradeoff.desirability import combine_desirability, desirability, limits, shortfall
-from tradeoff.study import Goal
+from tradeoff.search.desirability import combine_desirability, desirability, limits, shortfall
+from tradeoff.study.spec import Goal
 
 
 def test_maximize_one_sided_with_shape():

@@ -7,8 +7,8 @@ import pytest
 from scipy import stats
 
 from tradeoff import PlanError, load_study
-from tradeoff.designs import fractional_design, plan_runs
-from tradeoff.evaluation import effect_power, evaluate_design, evaluate_plan
+from tradeoff.plan.designs import fractional_design, plan_runs
+from tradeoff.plan.evaluation import effect_power, evaluate_design, evaluate_plan
 
 from conftest import DEMO
 
@@ -77,7 +77,7 @@ def test_vif_matches_statsmodels_for_central_composite():
     axial = np.vstack([s * np.eye(3)[j] for j in range(3) for s in (-1, 1)])
     X = np.vstack([F, axial, np.zeros((3, 3))])
     ev = evaluate_design(_factors("abc"), X, "quadratic")
-    from tradeoff.terms import model_matrix, model_terms
+    from tradeoff.model.terms import model_matrix, model_terms
 
     terms, _ = model_terms("quadratic", list("abc"), n_settings=[3, 3, 3])
     M = model_matrix(X, terms)
@@ -128,7 +128,7 @@ def test_evaluate_loaded_demo_study():
     """The demo's 2^4 + 4 centre runs: every interaction estimable, orthogonal,
     11 terms leave 20 - 11 = 9 degrees of freedom; the quadratic model can
     square no factor independently (one curvature direction from centre runs)."""
-    from tradeoff.evaluation import evaluate_study
+    from tradeoff.plan.evaluation import evaluate_study
 
     study = load_study(DEMO)
     ev = evaluate_study(study)

@@ -10,13 +10,13 @@ import pandas as pd
 import pytest
 
 from tradeoff import load_study
-from tradeoff.exports import (CAUTION, results_csv_bytes,
+from tradeoff.report.exports import (CAUTION, results_csv_bytes,
                               solutions_table, study_toml_bytes)
 from tradeoff.inputs import with_response_model
-from tradeoff.models import fit_study
-from tradeoff.report import build_workbook
-from tradeoff.search import optimize
-from tradeoff.study import study_from_dict
+from tradeoff.model.fit import fit_study
+from tradeoff.report.page import build_workbook
+from tradeoff.search.search import optimize
+from tradeoff.derive.load import study_from_dict
 
 from conftest import DEMO
 

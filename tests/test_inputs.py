@@ -10,7 +10,7 @@ import pytest
 from tradeoff import StudyError, load_study
 from tradeoff.inputs import (checked_goal, draft_spec, study_from_files, table_columns,
                              with_response_model)
-from tradeoff.study import study_from_dict
+from tradeoff.derive.load import study_from_dict
 
 from conftest import DEMO
 

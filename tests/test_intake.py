@@ -4,7 +4,7 @@ from __future__ import annotations
 import pytest
 
 from tradeoff import load_study
-from tradeoff.intake import read_table
+from tradeoff.study.intake import read_table
 
 from conftest import BASIC_RUNS
 

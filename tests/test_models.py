@@ -12,8 +12,8 @@ import pytest
 from scipy import stats
 
 from tradeoff.errors import ModelError
-from tradeoff.models import ResponseModel, StudyFit, fit_response, fit_study
-from tradeoff.study import load_study
+from tradeoff.model.fit import ResponseModel, StudyFit, fit_response, fit_study
+from tradeoff.derive.load import load_study
 
 DATA = Path(__file__).parent / "data"
 

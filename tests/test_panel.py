@@ -7,8 +7,8 @@ import pytest
 from scipy import stats
 
 from tradeoff.errors import DataError
-from tradeoff.intake import read_table
-from tradeoff.panel import (adjusted_means, assessor_agreement, read_panel,
+from tradeoff.study.intake import read_table
+from tradeoff.derive.panel import (adjusted_means, assessor_agreement, read_panel,
                             run_means)
 
 

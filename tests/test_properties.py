@@ -27,12 +27,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tradeoff.coding import code_values, decode_values, to_coded, to_natural
-from tradeoff.constraints import rules_satisfied
-from tradeoff.desirability import combine_desirability, desirability
-from tradeoff.models import ResponseModel, fit_study
-from tradeoff.search import optimize, overall_desirability
-from tradeoff.study import Factor, Goal, study_from_dict
+from tradeoff.study.coding import code_values, decode_values, to_coded, to_natural
+from tradeoff.study.constraints import rules_satisfied
+from tradeoff.search.desirability import combine_desirability, desirability
+from tradeoff.model.fit import ResponseModel, fit_study
+from tradeoff.search.search import optimize, overall_desirability
+from tradeoff.study.spec import Factor, Goal
+from tradeoff.derive.load import study_from_dict
 
 FAST = settings(max_examples=40, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.too_slow])

@@ -12,7 +12,7 @@ import json
 
 import tradeoff
 from tradeoff.cli import main
-from tradeoff.provenance import bytes_sha256, file_sha256, provenance, provenance_text
+from tradeoff.report.provenance import bytes_sha256, file_sha256, provenance, provenance_text
 
 
 def test_sha256_of_nothing():

@@ -29,8 +29,9 @@ import pytest
 from tradeoff import cli
 from tradeoff.errors import TradeoffError
 from tradeoff.inputs import draft_spec, study_from_files, table_columns
-from tradeoff.intake import MAX_TABLE_BYTES
-from tradeoff.study import MAX_STUDY_BYTES, load_study
+from tradeoff.study.intake import MAX_TABLE_BYTES
+from tradeoff.study.spec import MAX_STUDY_BYTES
+from tradeoff.derive.load import load_study
 
 from conftest import BASIC_RUNS, BASIC_STUDY
 

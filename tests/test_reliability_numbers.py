@@ -16,9 +16,9 @@ import pytest
 
 from tradeoff import cli
 from tradeoff.errors import ModelError
-from tradeoff.models import ResponseModel, fit_response, fit_study
-from tradeoff.search import optimize
-from tradeoff.study import study_from_dict
+from tradeoff.model.fit import ResponseModel, fit_response, fit_study
+from tradeoff.search.search import optimize
+from tradeoff.derive.load import study_from_dict
 
 CORNERS = np.array(list(itertools.product([-1, 1], repeat=3)), float)
 POINTS = np.vstack([CORNERS, np.zeros((3, 3))])

@@ -1,6 +1,6 @@
 """Nothing is lost, nothing from a user's file runs, the workbench stays on this computer.
 
-- Every save goes through ``tradeoff.files.write_atomic`` (a temporary file in
+- Every save goes through ``tradeoff.study.files.write_atomic`` (a temporary file in
   the same folder, then ``os.replace``): an interrupted save leaves the old
   file as it was and no temporary file behind.
 - No ``eval``, ``exec``, ``compile``, ``__import__``, pickle, marshal, shelve
@@ -21,13 +21,14 @@ import pandas as pd
 import pytest
 
 from tradeoff import cli
-from tradeoff.constraints import parse_rule
+from tradeoff.study.constraints import parse_rule
 from tradeoff.errors import PlanError, StudyError, TradeoffError
-from tradeoff.files import write_atomic
-from tradeoff.intake import MAX_TABLE_BYTES
-from tradeoff.report import write_report
-from tradeoff.runsheet import write_run_sheet
-from tradeoff.study import Factor, load_study
+from tradeoff.study.files import write_atomic
+from tradeoff.study.intake import MAX_TABLE_BYTES
+from tradeoff.report.page import write_report
+from tradeoff.plan.runsheet import write_run_sheet
+from tradeoff.study.spec import Factor
+from tradeoff.derive.load import load_study
 
 from conftest import DEMO
 
@@ -61,7 +62,7 @@ def test_an_interrupted_write_keeps_the_old_file(tmp_path, monkeypatch, failure)
     def fail(fd):  # the content is written, but the save stops before the rename
         raise failure
 
-    monkeypatch.setattr("tradeoff.files.os.fsync", fail)
+    monkeypatch.setattr("tradeoff.study.files.os.fsync", fail)
     expected = TradeoffError if isinstance(failure, OSError) else KeyboardInterrupt
     with pytest.raises(expected) as info:
         write_atomic(target, b"x" * 100_000)
@@ -88,7 +89,7 @@ def test_an_interrupted_run_sheet_keeps_the_old_sheet(tmp_path, monkeypatch):
     def fail(src, dst):
         raise OSError(13, "Permission denied")
 
-    monkeypatch.setattr("tradeoff.files.os.replace", fail)
+    monkeypatch.setattr("tradeoff.study.files.os.replace", fail)
     with pytest.raises(PlanError, match=r"plan\.xlsx: cannot write the file \(Permission "
                                         r"denied\)"):
         write_run_sheet(pd.DataFrame({"run": ["R1", "R2"], "protein": [20.0, 30.0]}),
@@ -106,7 +107,7 @@ def test_an_interrupted_report_keeps_the_old_report(tmp_path, monkeypatch):
     def stop(fd):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr("tradeoff.files.os.fsync", stop)
+    monkeypatch.setattr("tradeoff.study.files.os.fsync", stop)
     with pytest.raises(KeyboardInterrupt):
         write_report(study, out, top=1)
     assert out.read_bytes() == b"<p>old</p>"
@@ -224,7 +225,7 @@ def test_the_size_limits_are_checked_before_reading(tmp_path, monkeypatch):
     with big.open("wb") as handle:
         handle.truncate(MAX_TABLE_BYTES + 1)  # a sparse file: no time to write it
     from tradeoff.errors import DataError
-    from tradeoff.intake import read_table
+    from tradeoff.study.intake import read_table
 
     monkeypatch.setattr(Path, "read_bytes", lambda self: pytest.fail("file was read"))
     with pytest.raises(DataError, match=r"^runs\.csv: the file is larger than 50 MB"):
@@ -238,7 +239,7 @@ def test_saved_files_get_the_usual_permissions(tmp_path):
     import os
     import stat
 
-    from tradeoff.files import write_atomic
+    from tradeoff.study.files import write_atomic
 
     mask = os.umask(0o022)
     try:

@@ -22,10 +22,10 @@ import pytest
 import tradeoff
 from tradeoff.cli import main
 from tradeoff.errors import StudyError
-from tradeoff.models import fit_study
-from tradeoff.report import (CAUTIONS, build_report_html, build_workbook, report_data,
+from tradeoff.model.fit import fit_study
+from tradeoff.report.page import (CAUTIONS, build_report_html, build_workbook, report_data,
                              write_report)
-from tradeoff.search import optimize
+from tradeoff.search.search import optimize
 
 REPO = Path(__file__).resolve().parents[1]
 DEMO = REPO / "demo_data" / "snack_bar.toml"

@@ -10,8 +10,8 @@ import pytest
 
 from tradeoff import PlanError, load_study
 from tradeoff.cli import main
-from tradeoff.designs import plan_runs
-from tradeoff.runsheet import run_sheet, write_run_sheet
+from tradeoff.plan.designs import plan_runs
+from tradeoff.plan.runsheet import run_sheet, write_run_sheet
 
 from conftest import DEMO
 
@@ -38,7 +38,7 @@ def test_round_trip_plan_fill_load_fit(demo_copy, suffix):
     """Plan, fill in responses from a known model, load the sheet unchanged as
     the study's data file, fit: the coefficients come back (numpy least
     squares on the plan's coded matrix as the independent check)."""
-    from tradeoff.models import fit_study
+    from tradeoff.model.fit import fit_study
 
     study = load_study(demo_copy, with_data=False)
     plan = plan_runs(study, center=4, seed=7)

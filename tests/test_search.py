@@ -19,7 +19,7 @@ from search_problems import (d_overall_reference, dense_grid_optimum, design_mat
 from tradeoff import load_study, optimize, overall_desirability
 from tradeoff.cli import main
 from tradeoff.errors import SearchError
-from tradeoff.study import study_from_dict
+from tradeoff.derive.load import study_from_dict
 
 DATA = Path(__file__).parent / "data"
 TIRE = DATA / "tire_tread_1980.toml"
@@ -73,7 +73,7 @@ def test_same_seed_same_answer(tire_result):
 
 def test_overall_desirability_helper_matches_reference():
     study = load_study(TIRE)
-    from tradeoff.models import fit_study
+    from tradeoff.model.fit import fit_study
 
     fit = fit_study(study)
     X = np.random.default_rng(0).uniform(-1, 1, (50, 3))
@@ -176,7 +176,7 @@ def test_demo_study_alternative_per_binder():
     # every level combination with D > 0 gets its own peak among the answers; the
     # rice-syrup peak is checked against a 41^3 grid with the binder fixed
     study = load_study(DEMO)
-    from tradeoff.models import fit_study
+    from tradeoff.model.fit import fit_study
 
     fit = fit_study(study)
     result = optimize(study, fit=fit, top=3, seed=0)

@@ -8,9 +8,9 @@ import pytest
 from scipy import stats
 
 from tradeoff.errors import DataError
-from tradeoff.intake import read_table
-from tradeoff.storage import (SHELF_LIFE_CAUTION, fit_kinetics, fitted_value,
-                              interpolate_at, read_storage, time_to_limit)
+from tradeoff.study.intake import read_table
+from tradeoff.cautions import SHELF_LIFE_CAUTION
+from tradeoff.derive.storage import fit_kinetics, fitted_value, interpolate_at, read_storage, time_to_limit
 
 WEEKS = np.array([0.0, 2.0, 4.0, 8.0, 12.0])
 

@@ -10,7 +10,7 @@ import pytest
 
 import tradeoff
 from tradeoff import DataError, StudyError, load_study
-from tradeoff.study import study_to_dict
+from tradeoff.study.writer import study_to_dict
 
 from conftest import BASIC_RUNS, BASIC_STUDY, DEMO
 

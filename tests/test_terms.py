@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from tradeoff.errors import ModelError
-from tradeoff.terms import (find_aliases, hierarchy_closure, model_matrix, model_terms,
+from tradeoff.model.terms import (find_aliases, hierarchy_closure, model_matrix, model_terms,
                             parse_term)
 
 NAMES = ["protein", "glycerol", "binder", "mix_temp"]

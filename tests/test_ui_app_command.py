@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 
 from tradeoff import cli
-from tradeoff.demo import demo_study_path
+from tradeoff.study.demo import demo_study_path
 
 from conftest import DEMO
 

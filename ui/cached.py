@@ -82,7 +82,7 @@ def study_keys(study) -> tuple[str, str]:
 
 @st.cache_resource(max_entries=32, show_spinner=False)
 def _fit(key: str, _study, reduce: tuple):
-    from tradeoff.models import StudyFit, fit_study
+    from tradeoff.model.fit import StudyFit, fit_study
 
     full = fit_study(_study)
     if not reduce:
@@ -101,7 +101,7 @@ def fit(study):
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _optimize(key: str, top: int, rank_by: str, _study, _fit):
-    from tradeoff.search import optimize as search
+    from tradeoff.search.search import optimize as search
 
     return search(_study, top=top, seed=_study.seed, fit=_fit, rank_by=rank_by)
 
@@ -115,13 +115,13 @@ def optimize(study, fitted):
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _runs_table(key: str, _study, _fit):
-    from tradeoff.maps import runs_table as build
+    from tradeoff.report.maps import runs_table as build
 
     return build(_study, _fit)
 
 
 def runs_table(study, fitted=None):
-    """The runs with coded settings and marks (see ``tradeoff.maps.runs_table``)."""
+    """The runs with coded settings and marks (see ``tradeoff.report.maps.runs_table``)."""
     key = study_keys(study)[0] if fitted is not None else origin_key(
         st.session_state["origin"])
     return _runs_table(_digest(key, fitted is not None), study, fitted)
@@ -129,38 +129,38 @@ def runs_table(study, fitted=None):
 
 @st.cache_resource(max_entries=128, show_spinner=False)
 def _contour(key: str, _study, _fit, x: str, y: str, held_items: tuple, n: int):
-    from tradeoff.maps import contour_grid
+    from tradeoff.report.maps import contour_grid
 
     return contour_grid(_study, _fit, x, y, dict(held_items), n=n)
 
 
 def contour(study, fitted, x: str, y: str, held: dict, n: int = 41):
-    """Predictions and D over a grid of two factors (``tradeoff.maps.contour_grid``)."""
+    """Predictions and D over a grid of two factors (``tradeoff.report.maps.contour_grid``)."""
     items = tuple(sorted((k, v if isinstance(v, str) else float(v)) for k, v in held.items()))
     return _contour(study_keys(study)[1], study, fitted, x, y, items, n)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _curves(key: str, _study):
-    from tradeoff.maps import desirability_curves
+    from tradeoff.report.maps import desirability_curves
 
     return desirability_curves(_study)
 
 
 def curves(study):
-    """Each goal's desirability curve (``tradeoff.maps.desirability_curves``)."""
+    """Each goal's desirability curve (``tradeoff.report.maps.desirability_curves``)."""
     return _curves(study_keys(study)[1], study)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _what_if(key: str, _study, _fit, items: tuple):
-    from tradeoff.maps import what_if as build
+    from tradeoff.report.maps import what_if as build
 
     return build(_study, _fit, dict(items))
 
 
 def what_if(study, fitted, settings: dict):
-    """Predictions, intervals and chances at hand-set settings (``tradeoff.maps.what_if``)."""
+    """Predictions, intervals and chances at hand-set settings (``tradeoff.report.maps.what_if``)."""
     items = tuple((k, v if isinstance(v, str) else float(v)) for k, v in settings.items())
     return _what_if(study_keys(study)[1], study, fitted, items)
 
@@ -168,7 +168,7 @@ def what_if(study, fitted, settings: dict):
 @st.cache_resource(max_entries=8, show_spinner=False)
 def _report(key: str, kind: str, top: int, _study, _fit, _result, _study_bytes,
             _data_bytes):
-    from tradeoff.report import build_report_html, build_workbook
+    from tradeoff.report.page import build_report_html, build_workbook
 
     build = build_report_html if kind == "html" else build_workbook
     return build(_study, top=top, fit=_fit, result=_result, study_bytes=_study_bytes,

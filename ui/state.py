@@ -66,7 +66,7 @@ def init() -> None:
         if key not in ss:
             ss[key] = value
     if "origin" not in ss:
-        from tradeoff.demo import demo_study_path
+        from tradeoff.study.demo import demo_study_path
 
         from tradeoff_ui import cached
 

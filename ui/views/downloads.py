@@ -6,7 +6,7 @@ from pathlib import Path
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.exports import results_csv_bytes, study_toml_bytes
+from tradeoff.report.exports import results_csv_bytes, study_toml_bytes
 from tradeoff_ui import cached
 
 ss = st.session_state

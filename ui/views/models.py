@@ -5,10 +5,10 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.maps import (effect_lines, effect_table, half_normal_table,
+from tradeoff.report.maps import (effect_lines, effect_table, half_normal_table,
                            interaction_means, residual_table)
-from tradeoff.study import MODELS
-from tradeoff.terms import model_terms
+from tradeoff.study.spec import MODELS
+from tradeoff.model.terms import model_terms
 from tradeoff_ui import cached, charts
 
 ss = st.session_state

@@ -5,7 +5,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.exports import CAUTION, solutions_table
+from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff_ui import cached, charts
 
 ss = st.session_state

@@ -6,7 +6,7 @@ import hashlib
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.demo import demo_study_path
+from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
 from tradeoff_ui import cached, state
 

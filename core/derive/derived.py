@@ -1,0 +1,632 @@
+"""Derived responses: per-run responses computed from a storage or panel table.
+
+A response with ``derive = "..."`` in the study file is not read from the runs
+table; it is computed per run from the long-form table declared in
+``[storage]`` or ``[panel]`` and merged into ``study.runs`` by run id. From
+then on it is a response like any other (model, goal, search). Every run left
+out, every interpolated or extrapolated value and every panel warning is
+added to ``study.notes``, together with one line saying how the response was
+computed.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import DataError, StudyError, did_you_mean, where
+from ..study.intake import RawTable
+from .panel import adjusted_means, assessor_agreement, read_panel, run_means
+from .storage import DIRECTIONS, ORDERS, fit_kinetics, fitted_value, interpolate_at, read_storage, time_to_limit
+from ..cautions import SHELF_LIFE_CAUTION
+from ..study.spec import SECTION_KEYS, Response, Study
+from ..study.reader import check_keys
+from ..study.runs import read_study_table
+
+__all__ = ["DERIVE_KINDS", "DERIVED_COLUMNS", "check_derived", "add_derived_responses",
+           "derivation_table", "describe_derivation"]
+
+STORAGE_KINDS = ("value_at", "change", "rate", "time_to_limit")
+PANEL_KINDS = ("panel_mean", "panel_adjusted")
+DERIVE_KINDS = STORAGE_KINDS + PANEL_KINDS
+
+# The columns of every per-run derivation table.
+DERIVED_COLUMNS = ["run", "value", "points", "se", "r_squared", "flag"]
+
+_USES = {
+    "value_at": {"property", "at", "extrapolate", "order", "min_points"},
+    "change": {"property", "at", "from", "relative", "extrapolate", "order", "min_points"},
+    "rate": {"property", "order", "min_points"},
+    "time_to_limit": {"property", "limit", "direction", "order", "min_points"},
+    "panel_mean": {"attribute", "min_points"},
+    "panel_adjusted": {"attribute", "min_points"},
+}
+_NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
+          "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
+          "panel_mean": ("attribute",), "panel_adjusted": ("attribute",)}
+_DERIVE_KEYS = set().union(*_USES.values()) | {"derive"}
+# Agreement below this correlation with the rest of the panel is reported.
+_DEFAULT_AGREEMENT = 0.3
+_POOR_FIT_R2 = 0.8
+
+
+def _fname(study: Study) -> str:
+    return study.source.name if study.source is not None else "study"
+
+
+def _num(value, fname, what) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or \
+            not math.isfinite(value):
+        raise StudyError(f"{fname}: {what} must be a number, found {value!r}")
+    return float(value)
+
+
+def _section(study: Study, name: str) -> dict | None:
+    fname = _fname(study)
+    sec = study.spec.get(name)
+    if sec is None:
+        return None
+    if not isinstance(sec, dict):
+        raise StudyError(f"{fname}: [{name}] must be a table of keys")
+    check_keys(sec, SECTION_KEYS[name], fname, f"[{name}]")
+    if not isinstance(sec.get("data"), str) or not sec["data"].strip():
+        raise StudyError(f"{fname}: [{name}] needs data = \"<file name>\" naming the "
+                         f"{name} table")
+    path = Path(sec["data"])
+    if study.source is not None and not path.is_absolute():
+        path = study.source.parent / path
+    out = {"data": path, "sheet": sec.get("sheet")}
+    if name == "storage":
+        for key in ("time", "time_unit"):
+            if key in sec and (not isinstance(sec[key], str) or not sec[key].strip()):
+                raise StudyError(f"{fname}: [storage] {key} must be a name in quotes, "
+                                 "for example time = \"week\"")
+        out["time"] = sec.get("time", "time").strip()
+        out["time_unit"] = sec.get("time_unit", out["time"] + "s").strip()
+    else:
+        scale = sec.get("scale")
+        if not isinstance(scale, list) or len(scale) != 2:
+            raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
+                             "and highest score allowed, for example scale = [1, 9]")
+        lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
+        if lo >= hi:
+            raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
+                             "must come first and be below the high end")
+        out["scale"] = (lo, hi)
+        agree = _num(sec.get("min_agreement", _DEFAULT_AGREEMENT), fname,
+                     "[panel] min_agreement")
+        if not -1 <= agree <= 1:
+            raise StudyError(f"{fname}: [panel] min_agreement = {agree:g} must be a "
+                             "correlation between -1 and 1, such as 0.3")
+        out["min_agreement"] = agree
+    return out
+
+
+def _options(study: Study, r: Response) -> dict:
+    """The response's derivation options, checked, with defaults filled in."""
+    fname = _fname(study)
+    what = f"[[responses]] '{r.name}'"
+    ex = r.extra
+    kind = ex.get("derive")
+    if kind is None or kind is False or kind == "":
+        used = sorted(k for k in ex if k in _DERIVE_KEYS)
+        if used:
+            raise StudyError(f"{fname}: {what}: '{used[0]}' is only used with derive = "
+                             f"\"...\" (one of {', '.join(DERIVE_KINDS)}): add derive "
+                             "or remove the key")
+        return {}
+    if kind not in DERIVE_KINDS:
+        raise StudyError(f"{fname}: {what}: derive = '{kind}' is not one I know: use one "
+                         f"of {', '.join(DERIVE_KINDS)}{did_you_mean(kind, DERIVE_KINDS)}")
+    for key in ex:
+        if key in _DERIVE_KEYS and key != "derive" and key not in _USES[kind]:
+            raise StudyError(f"{fname}: {what}: '{key}' is not used with derive = "
+                             f"'{kind}' (it uses {', '.join(sorted(_USES[kind]))}): "
+                             "remove it")
+    for key in _NEEDS[kind]:
+        if key not in ex:
+            raise StudyError(f"{fname}: {what}: derive = '{kind}' needs {key} = ...")
+    section = "storage" if kind in STORAGE_KINDS else "panel"
+    if study.spec.get(section) is None:
+        raise StudyError(f"{fname}: {what}: derive = '{kind}' reads the {section} table, "
+                         f"but the study file has no [{section}] section: add one "
+                         f"([{section}] with data = \"{section}.csv\")")
+    opts = {"kind": kind, "section": section}
+    for key in ("property", "attribute"):
+        if key in ex:
+            if not isinstance(ex[key], str) or not ex[key].strip():
+                raise StudyError(f"{fname}: {what}: {key} must be a name in quotes, as "
+                                 f"written in the {section} table")
+            opts[key] = ex[key].strip()
+    for key in ("at", "from"):
+        if key in ex:
+            opts[key] = _num(ex[key], fname, f"{what} {key}")
+            if opts[key] < 0:
+                raise StudyError(f"{fname}: {what}: {key} = {opts[key]:g} is before the "
+                                 "start of storage: use a time of 0 or more")
+    if "from" in opts and opts["from"] == opts["at"]:
+        raise StudyError(f"{fname}: {what}: from and at are both {opts['at']:g}: a change "
+                         "needs two different times")
+    for key in ("relative", "extrapolate"):
+        if key in ex and not isinstance(ex[key], bool):
+            raise StudyError(f"{fname}: {what}: {key} must be true or false, found "
+                             f"{ex[key]!r}")
+        opts[key] = bool(ex.get(key, False))
+    order = ex.get("order", "zero")
+    if order not in ORDERS:
+        raise StudyError(f"{fname}: {what}: order = '{order}' is not one I know: use "
+                         "'zero' (straight line) or 'first' (log-linear)")
+    opts["order"] = order
+    if "limit" in ex:
+        opts["limit"] = _num(ex["limit"], fname, f"{what} limit")
+        if order == "first" and opts["limit"] <= 0:
+            raise StudyError(f"{fname}: {what}: a first-order fit cannot reach a limit "
+                             f"of {opts['limit']:g}: use a limit above 0 or order = 'zero'")
+    if "direction" in ex:
+        if ex["direction"] not in DIRECTIONS:
+            raise StudyError(f"{fname}: {what}: direction = '{ex['direction']}' is not "
+                             "one I know: use 'up' (the property rises to the limit) or "
+                             "'down' (it falls to it)")
+        opts["direction"] = ex["direction"]
+    default_min = 3 if kind in ("rate", "time_to_limit") else (
+        2 if kind in PANEL_KINDS else 3)
+    mp = ex.get("min_points", default_min)
+    if isinstance(mp, bool) or not isinstance(mp, int) or mp < 1:
+        raise StudyError(f"{fname}: {what}: min_points must be a whole number of 1 or "
+                         f"more, found {mp!r}")
+    if kind in ("rate", "time_to_limit") and mp < 2:
+        raise StudyError(f"{fname}: {what}: a fitted line needs min_points of 2 or more")
+    opts["min_points"] = mp
+    return opts
+
+
+def check_derived(study: Study) -> None:
+    """Check the [storage] and [panel] sections and every derived response's keys.
+
+    Raises ``StudyError`` with a one-line message naming the file, the section
+    or response and the key. Needs no data.
+    """
+    for name in ("storage", "panel"):
+        _section(study, name)
+    for r in study.responses:
+        _options(study, r)
+
+
+# --------------------------------------------------------------------------
+# Reading the tables
+
+
+def _tables(study: Study, storage: RawTable | None, panel: RawTable | None,
+            wanted: set[str]) -> dict:
+    run_ids = list(study.runs["run"]) if study.runs is not None else None
+    out = {}
+    if "storage" in wanted:
+        sec = _section(study, "storage")
+        raw = storage if storage is not None else read_study_table(study, sec["data"],
+                                                                   sheet=sec["sheet"])
+        out["storage"] = (sec, raw.source.name,
+                          read_storage(raw, time=sec["time"], run_ids=run_ids))
+    if "panel" in wanted:
+        sec = _section(study, "panel")
+        raw = panel if panel is not None else read_study_table(study, sec["data"],
+                                                               sheet=sec["sheet"])
+        out["panel"] = (sec, raw.source.name,
+                        read_panel(raw, scale=sec["scale"], run_ids=run_ids))
+    return out
+
+
+def _subset(frame: pd.DataFrame, column: str, name: str, fname: str,
+            r: Response) -> pd.DataFrame:
+    sub = frame[frame[column] == name]
+    if sub.empty:
+        found = sorted(set(frame[column]))
+        raise DataError(f"{fname}: no rows with {column} '{name}' for response "
+                        f"'{r.name}': the table has {found}{did_you_mean(name, found)}")
+    return sub
+
+
+def _list(items) -> str:
+    items = [str(i) for i in items]
+    return ", ".join(items[:40]) + (f" and {len(items) - 40} more" if len(items) > 40
+                                    else "")
+
+
+# --------------------------------------------------------------------------
+# Storage responses
+
+
+def _storage_gaps(study: Study, sub: pd.DataFrame, prop: str, sec: dict,
+                  fname: str) -> list[str]:
+    """Per-run notes on missing time points (once per property).
+
+    The schedule is every time measured in at least half the runs, so one
+    run's extra time point does not make all the others look incomplete.
+    """
+    per_time = sub.dropna(subset=["value"]).groupby("time")["run"].nunique()
+    n_runs = max(sub["run"].nunique(), 1)
+    times = per_time.index[per_time >= n_runs / 2].to_numpy()
+    notes = []
+    tname = sec["time"]
+    for run in study.runs["run"]:
+        mine = sub[sub["run"] == run]
+        if mine.empty:
+            notes.append(f"storage '{prop}': run {run} has no rows in {fname}")
+            continue
+        blank = mine[mine["value"].isna()]
+        missing = [t for t in times if t not in set(mine["time"])]
+        parts = []
+        if missing:
+            parts.append(f"no row at {tname} {_list(f'{t:g}' for t in missing)}")
+        if not blank.empty:
+            parts.append("blank value at " + _list(
+                f"{tname} {t:g} (row {row})" for t, row in zip(blank["time"], blank["row"])))
+        if parts:
+            notes.append(f"storage '{prop}': run {run} has " + "; ".join(parts))
+    return notes
+
+
+def _value_at_time(sub: pd.DataFrame, at: float, opts: dict, tname: str):
+    """Values at ``at`` per run: (values, flags, reasons, points) dicts by run."""
+    res = interpolate_at(sub["run"], sub["time"], sub["value"], at).set_index("run")
+    fits = None
+    values, flags, reasons, points = {}, {}, {}, {}
+    for run, row in res.iterrows():
+        points[run] = int(row["n_points"])
+        if row["status"] in ("measured", "interpolated"):
+            values[run] = row["value"]
+            if row["status"] == "interpolated":
+                flags[run] = (f"interpolated (no measurement at {tname} {at:g})",
+                              f"between {row['time_before']:g} and {row['time_after']:g}")
+        elif row["status"] == "no_data":
+            reasons[run] = "no measured values"
+        else:
+            side = ("after its last measurement" if row["status"] == "after_last"
+                    else "before its first measurement")
+            edge = row["last_time"] if row["status"] == "after_last" else row["first_time"]
+            if not opts["extrapolate"]:
+                reasons[run] = (f"{tname} {at:g} is {side} ({tname} {edge:g}); set "
+                                "extrapolate = true to extend the fitted curve (flagged)")
+                continue
+            if fits is None:
+                fits = fit_kinetics(sub["run"], sub["time"], sub["value"],
+                                    order=opts["order"]).set_index("run")
+            fit = fits.loc[run]
+            if fit["n_points"] < opts["min_points"] or np.isnan(fit["rate"]):
+                reasons[run] = (f"{tname} {at:g} is {side} and only "
+                                f"{int(fit['n_points'])} point(s) to extend (min_points "
+                                f"= {opts['min_points']})")
+                continue
+            values[run] = float(fitted_value(fit["start"], fit["rate"], at,
+                                             order=opts["order"]))
+            flags[run] = (f"EXTRAPOLATED to {tname} {at:g}, {side}, by a "
+                          f"{opts['order']}-order fit", f"measured to {tname} {edge:g}")
+    return values, flags, reasons, points
+
+
+def _check_positive(sub: pd.DataFrame, fname: str, r: Response) -> None:
+    bad = sub[sub["value"] <= 0]
+    if not bad.empty:
+        row = bad.iloc[0]
+        raise DataError(f"{where(fname, int(row['row']), 'value')}response '{r.name}' "
+                        f"uses a first-order (log-linear) fit, which needs values above 0, "
+                        f"found {row['value']:g}: use order = 'zero' or check the value")
+
+
+def _derive_storage(study, r, opts, sec, fname, sub):
+    tname = sec["time"]
+    runs = list(study.runs["run"])
+    values, flags, reasons, points, se, r2 = {}, {}, {}, {}, {}, {}
+    kind = opts["kind"]
+    notes = []
+    if kind == "value_at":
+        if opts["extrapolate"] and opts["order"] == "first":
+            _check_positive(sub, fname, r)
+        values, flags, reasons, points = _value_at_time(sub, opts["at"], opts, tname)
+    elif kind == "change":
+        if opts["extrapolate"] and opts["order"] == "first":
+            _check_positive(sub, fname, r)
+        t0 = opts.get("from", float(sub["time"].min()))
+        v1, f1, r1, points = _value_at_time(sub, opts["at"], opts, tname)
+        v0, f0, r0, _ = _value_at_time(sub, t0, opts, tname)
+        for run in points:
+            if run in r0 or run in r1:
+                reasons[run] = "; ".join(x for x in (r0.get(run), r1.get(run)) if x)
+                continue
+            if opts["relative"]:
+                if v0[run] == 0:
+                    reasons[run] = f"its value at {tname} {t0:g} is 0, so no relative change"
+                    continue
+                values[run] = 100.0 * (v1[run] - v0[run]) / v0[run]
+            else:
+                values[run] = v1[run] - v0[run]
+            for fl in (f0.get(run), f1.get(run)):
+                if fl:  # the end point needing the stronger flag wins
+                    if run not in flags or fl[0].startswith("EXTRAPOLATED"):
+                        flags[run] = fl
+    else:
+        if opts["order"] == "first":
+            _check_positive(sub, fname, r)
+        fits = fit_kinetics(sub["run"], sub["time"], sub["value"],
+                            order=opts["order"]).set_index("run")
+        if kind == "time_to_limit":
+            times = time_to_limit(fits["start"], fits["rate"], opts["limit"],
+                                  order=opts["order"], direction=opts["direction"])
+        for i, (run, fit) in enumerate(fits.iterrows()):
+            points[run] = int(fit["n_points"])
+            if fit["n_points"] < opts["min_points"] or np.isnan(fit["rate"]):
+                reasons[run] = (f"only {int(fit['n_points'])} measured point(s), "
+                                f"{opts['min_points']} needed for a fitted line "
+                                "(min_points)")
+                continue
+            r2[run] = fit["r_squared"]
+            if kind == "rate":
+                values[run], se[run] = fit["rate"], fit["rate_se"]
+                continue
+            t = times[i]
+            if np.isnan(t):
+                reasons[run] = (f"its fitted {r.extra['property']} moves away from "
+                                f"{opts['limit']:g} (rate {fit['rate']:.3g} per "
+                                f"{tname}), so it never reaches the limit")
+                continue
+            values[run] = float(t)
+            if t == 0:
+                flags[run] = (f"at or past {opts['limit']:g} from the start of the "
+                              "fitted curve, so set to 0", "")
+            elif t > fit["last_time"]:
+                flags[run] = (f"EXTRAPOLATED: the fitted curve reaches {opts['limit']:g} "
+                              f"after the last measured {tname} (the further beyond, the "
+                              "less trustworthy)",
+                              f"{tname} {t:.3g}, measured to {fit['last_time']:g}")
+        if r2:
+            vals = np.array([v for v in r2.values() if not np.isnan(v)])
+            scale = " (on the log scale)" if opts["order"] == "first" else ""
+            if len(vals):
+                notes.append(f"response '{r.name}': {opts['order']}-order fit quality "
+                             f"R-squared{scale} {vals.min():.3f} to {vals.max():.3f} "
+                             f"(median {np.median(vals):.3f}) over {len(vals)} runs")
+            poor = [run for run, v in r2.items() if v < _POOR_FIT_R2]
+            if poor:
+                notes.append(f"response '{r.name}': poor {opts['order']}-order fit "
+                             f"(R-squared below {_POOR_FIT_R2}) for run(s) {_list(poor)}: "
+                             "look at the curves; the other order may fit better, or "
+                             "the property may hardly change")
+    for run in runs:
+        if run not in points and run not in reasons:
+            reasons[run] = "no rows in the storage table"
+    flags = {run: fl for run, fl in flags.items() if run not in reasons}
+    return _table(runs, values, flags, reasons, points, se, r2), \
+        _flag_notes(r.name, flags) + notes
+
+
+# --------------------------------------------------------------------------
+# Panel responses
+
+
+def _panel_checks(study, sub, attr, sec, fname) -> list[str]:
+    notes = []
+    blank = sub[sub["score"].isna()]
+    for run, g in blank.groupby("run", sort=False):
+        notes.append(f"panel '{attr}': run {run} has {len(g)} blank score(s) (row(s) "
+                     f"{_list(g['row'])}), left out")
+    scored = sub.dropna(subset=["score"])
+    pairs = scored[["run", "assessor"]].drop_duplicates()
+    nr, na = scored["run"].nunique(), scored["assessor"].nunique()
+    if len(pairs) < nr * na:
+        notes.append(f"panel '{attr}': not every assessor scored every run ({len(pairs)} "
+                     f"of {nr * na} run-assessor pairs): plain run means then depend on "
+                     "who tasted what; derive = 'panel_adjusted' corrects for it")
+    agree = assessor_agreement(scored["run"], scored["assessor"], scored["score"])
+    for _, a in agree.iterrows():
+        if a["n_runs"] >= 3 and a["spread"] == 0:
+            notes.append(f"panel '{attr}': assessor {a['assessor']} gave the same score "
+                         f"to all {a['n_runs']} runs they scored: check their scoring")
+        elif not np.isnan(a["correlation"]) and a["correlation"] < sec["min_agreement"]:
+            notes.append(f"panel '{attr}': assessor {a['assessor']} disagrees with the "
+                         f"rest of the panel (correlation {a['correlation']:.2f} with the "
+                         f"others' run means over {a['n_runs']} runs, below "
+                         f"{sec['min_agreement']:g}): check their scores or training")
+    return notes
+
+
+def _derive_panel(study, r, opts, sec, fname, sub):
+    runs = list(study.runs["run"])
+    scored = sub.dropna(subset=["score"])
+    values, flags, reasons, points, se = {}, {}, {}, {}, {}
+    if opts["kind"] == "panel_mean":
+        res = run_means(scored["run"], scored["score"]).set_index("run")
+        col = "mean"
+    else:
+        try:
+            res = adjusted_means(scored["run"], scored["assessor"],
+                                 scored["score"]).set_index("run")
+        except DataError as exc:  # the panel functions know no file: name it here
+            raise DataError(f"{fname}: response '{r.name}': {exc}") from None
+        col = "adjusted_mean"
+    notes = []
+    for run, row in res.iterrows():
+        points[run] = int(row["n_scores"])
+        if row["n_scores"] < opts["min_points"]:
+            reasons[run] = (f"only {int(row['n_scores'])} score(s), {opts['min_points']} "
+                            "needed (min_points)")
+            continue
+        values[run], se[run] = row[col], row["se"]
+    if opts["kind"] == "panel_adjusted" and len(res) and res["df"].iloc[0] == 0:
+        notes.append(f"response '{r.name}': no residual degrees of freedom in the run + "
+                     "assessor model, so no standard errors")
+    for run in runs:
+        if run not in points:
+            reasons[run] = f"no '{opts['attribute']}' scores in the panel table"
+    ses = np.array([v for v in se.values() if not np.isnan(v)])
+    if len(ses):
+        span = (f"{ses.min():.3g}" if f"{ses.min():.3g}" == f"{ses.max():.3g}"
+                else f"{ses.min():.3g} to {ses.max():.3g}")
+        notes.append(f"response '{r.name}': standard error of each run's value {span}")
+    return _table(runs, values, flags, reasons, points, se, {}), notes
+
+
+def _flag_notes(name: str, flags: dict) -> list[str]:
+    """One note per kind of flag, listing the runs it applies to."""
+    kinds: dict[str, list[str]] = {}
+    for run, (kind, short) in flags.items():
+        kinds.setdefault(kind, []).append(f"{run} ({short})" if short else str(run))
+    return [f"response '{name}': {kind}: run(s) {_list(runs)}"
+            for kind, runs in kinds.items()]
+
+
+def _table(runs, values, flags, reasons, points, se, r2) -> pd.DataFrame:
+    rows = []
+    for run in runs:
+        fl = flags.get(run)
+        flag = ("left out: " + reasons[run]) if run in reasons else (
+            "" if fl is None else f"{fl[0]} ({fl[1]})" if fl[1] else fl[0])
+        rows.append({"run": run, "value": values.get(run, np.nan) if run not in reasons
+                     else np.nan, "points": points.get(run, 0),
+                     "se": se.get(run, np.nan), "r_squared": r2.get(run, np.nan),
+                     "flag": flag})
+    out = pd.DataFrame(rows, columns=DERIVED_COLUMNS)
+    out["value"] = out["value"].astype(float)
+    return out
+
+
+# --------------------------------------------------------------------------
+# Public entry points
+
+
+def _derive_all(study: Study, storage, panel, only: str | None = None):
+    derived = [r for r in study.responses if r.is_derived and (only is None or
+                                                                r.name == only)]
+    if study.runs is None:
+        raise StudyError(f"study '{study.name}' has no runs loaded yet")
+    opts = {r.name: _options(study, r) for r in derived}
+    wanted = {o["section"] for o in opts.values()}
+    tables = _tables(study, storage, panel, wanted)
+    results, notes, seen = {}, [], set()
+    for r in derived:
+        o = opts[r.name]
+        sec, fname, frame = tables[o["section"]]
+        if o["section"] == "storage":
+            sub = _subset(frame, "property", o["property"], fname, r)
+            if ("storage", o["property"]) not in seen:
+                seen.add(("storage", o["property"]))
+                notes += _storage_gaps(study, sub, o["property"], sec, fname)
+            table, extra = _derive_storage(study, r, o, sec, fname, sub)
+        else:
+            sub = _subset(frame, "attribute", o["attribute"], fname, r)
+            if ("panel", o["attribute"]) not in seen:
+                seen.add(("panel", o["attribute"]))
+                notes += _panel_checks(study, sub, o["attribute"], sec, fname)
+            table, extra = _derive_panel(study, r, o, sec, fname, sub)
+        kept = int(table["value"].notna().sum())
+        if kept == 0:
+            why = table["flag"].iloc[0] if len(table) else "no runs"
+            raise DataError(f"{fname}: response '{r.name}' could not be derived for any "
+                            f"run (run {table['run'].iloc[0]}: {why}): check the table "
+                            "and the response's keys")
+        notes.append(f"response '{r.name}' is derived ({kept} of {len(table)} runs): "
+                     f"{describe_derivation(study, r)}")
+        for _, row in table.iterrows():
+            if row["flag"].startswith("left out"):
+                notes.append(f"response '{r.name}': run {row['run']} {row['flag']}")
+        notes += extra
+        if o["kind"] == "time_to_limit":
+            notes.append(f"response '{r.name}': {SHELF_LIFE_CAUTION}")
+        results[r.name] = table
+    return results, notes
+
+
+def add_derived_responses(study: Study, *, storage: RawTable | None = None,
+                          panel: RawTable | None = None) -> Study:
+    """Compute every derived response and merge it into ``study.runs`` by run id.
+
+    ``storage`` and ``panel`` may carry already-read tables (uploads);
+    otherwise the files named in ``[storage]`` and ``[panel]`` are read.
+    Returns a copy of the study with one float column per derived response
+    (NaN for runs left out) and the derivation notes appended to ``notes``.
+    """
+    if not any(r.is_derived for r in study.responses):
+        notes = [f"[{s}] is declared but no response derives from it"
+                 for s in ("storage", "panel") if study.spec.get(s) is not None]
+        return replace(study, notes=study.notes + tuple(notes)) if notes else study
+    results, notes = _derive_all(study, storage, panel)
+    runs = study.runs.copy()
+    for r in study.responses:
+        if r.name not in results:
+            continue
+        values = results[r.name].set_index("run")["value"]
+        runs[r.name] = runs["run"].map(values).astype(float)
+        present = runs[r.name].dropna()
+        if r.transform == "log" and (present <= 0).any() or \
+                r.transform == "sqrt" and (present < 0).any():
+            raise DataError(f"response '{r.name}': transform = '{r.transform}' needs "
+                            "positive derived values: remove the transform or check "
+                            "the derivation")
+    return replace(study, runs=runs, notes=study.notes + tuple(notes))
+
+
+def derivation_table(study: Study, name: str, *, storage: RawTable | None = None,
+                     panel: RawTable | None = None) -> pd.DataFrame:
+    """Per-run detail of one derived response, for reports and the workbench.
+
+    Returns
+    -------
+    DataFrame
+        Columns ``run``, ``value`` (NaN when left out), ``points`` (measured
+        points or scores used), ``se`` (standard error: of the rate for
+        ``rate``, of the run mean for panel responses; NaN otherwise),
+        ``r_squared`` (fit quality for ``rate`` and ``time_to_limit``) and
+        ``flag`` (empty, or why the run was interpolated, extrapolated or
+        left out).
+    """
+    r = study.response(name)
+    if not r.is_derived:
+        raise StudyError(f"response '{name}' is read from the runs table, not derived")
+    results, _ = _derive_all(study, storage, panel, only=name)
+    return results[name]
+
+
+def describe_derivation(study: Study, response: Response) -> str:
+    """One sentence saying how a derived response is computed."""
+    o = _options(study, response)
+    if not o:
+        return "read from the runs table"
+    if o["section"] == "storage":
+        sec = _section(study, "storage")
+        t, unit, src = sec["time"], sec["time_unit"], sec["data"].name
+        p = o["property"]
+        order = ("zero-order (straight-line)" if o["order"] == "zero"
+                 else "first-order (log-linear)")
+        ext = (f"; beyond the measured times extended by a {order} fit per run, flagged"
+               if o.get("extrapolate") else "; never extrapolated")
+        if o["kind"] == "value_at":
+            return (f"{p} at {t} {o['at']:g} from {src}, as measured or by straight-line "
+                    f"interpolation between the nearest measured {unit}{ext}")
+        if o["kind"] == "change":
+            base = f"{t} {o['from']:g}" if "from" in o else f"the first {t} in the table"
+            how = ("relative change in percent of the starting value" if o["relative"]
+                   else "absolute change")
+            return (f"{how} in {p} from {base} to {t} {o['at']:g}, from {src} "
+                    f"(interpolated between measured {unit}{ext})")
+        per = (f"in {p} units per {t}" if o["order"] == "zero"
+               else f"per {t}, value = start x exp(rate x {t})")
+        if o["kind"] == "rate":
+            return (f"rate of change of {p} ({per}) from a {order} least-squares fit of "
+                    f"each run's {p} on {t} in {src}, at least {o['min_points']} points; "
+                    "R-squared gives the fit quality")
+        return (f"{unit} until {p} {'rises' if o['direction'] == 'up' else 'falls'} to "
+                f"{o['limit']:g}, from a {order} least-squares fit per run in {src} (at "
+                f"least {o['min_points']} points); 0 when the fit starts past the limit, "
+                "left out when it never reaches it, flagged beyond the last measured "
+                f"{t}; not a safety determination")
+    sec = _section(study, "panel")
+    lo, hi = sec["scale"]
+    a, src = o["attribute"], sec["data"].name
+    if o["kind"] == "panel_mean":
+        return (f"mean {a} score per run over the assessors who scored it (scale {lo:g} "
+                f"to {hi:g}) from {src}, with its standard error")
+    return (f"assessor-adjusted mean {a} score per run (scale {lo:g} to {hi:g}) from "
+            f"{src}: least-squares means of an additive run + assessor model, averaged "
+            "over all assessors, so a generous or strict assessor does not shift the "
+            "runs they scored; with standard errors")

@@ -1,0 +1,839 @@
+"""One least-squares model per response, in coded units.
+
+``ResponseModel`` fits a response to the coded factor settings: it picks the
+model's terms, drops the ones the runs cannot tell apart (aliases), fits by
+QR, and works out everything a practitioner reads off a model: effects,
+standard errors and p-values (or Lenth's margins when no degrees of freedom
+are left), the ANOVA with lack of fit and curvature, R2, adjusted and
+predicted R2, per-run diagnostics, a Box-Cox suggestion, the equation in
+natural units, and vectorised predictions with confidence and prediction
+intervals. ``fit_study`` fits every response of a study.
+
+Blocks (days, batches: a ``block`` column of the runs, or the column named by
+``[study] blocks``) enter every model as nuisance terms ``block[2]``, ...:
+b - 1 sum-to-zero (effects) coded columns right after the intercept, so a
+factor term confounded with blocks is the one left out and reported. They are
+never dropped by reduction, never in the hierarchy, not factor effects (no
+Lenth, no half-normal point), and predictions are for the average block
+(block columns 0): they still take coded factor settings (n, k) only.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Sequence
+
+import numpy as np
+import pandas as pd
+from scipy import special, stats
+from scipy.linalg import blas as _blas
+from scipy.linalg import lapack as _lapack
+from scipy.linalg import solve_triangular
+
+from .anova import anova_table
+from .diagnostics import diagnostic_arrays, run_diagnostics
+from ..errors import DataError, ModelError, StudyError
+from .lenth import half_normal_points, lenth
+from .terms import (QRFactors, Term, block_terms, find_aliases, hierarchy_closure,
+                    model_matrix, model_terms, named_model_size, parse_term, term_label)
+from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
+
+__all__ = ["ResponseModel", "StudyFit", "fit_study", "fit_response", "DEFAULT_ALPHA"]
+
+DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
+
+
+# Above this condition number of R, leverages come from Q itself (formed from the
+# Householder reflectors) rather than from M R^-1, whose rounding grows with it;
+# coded designs sit near 1.
+_LEVERAGE_COND = 1e4
+
+
+class _Solution:
+    """A least-squares solution by QR: coefficients and what follows from them.
+
+    Q is not formed: Q'z and Q(Q'z) are applied from the Householder
+    reflectors (``QRFactors``); ``qr.Q`` forms it when something needs it.
+    """
+
+    def __init__(self, M: np.ndarray, z: np.ndarray, qr: QRFactors | None = None):
+        n, p = M.shape
+        fac = QRFactors(M) if qr is None else qr
+        R = fac.R
+        qty = fac.qt(z)[:p]
+        self.coef = solve_triangular(R, qty, check_finite=False)
+        w = np.zeros(n)
+        w[:p] = qty
+        self.fitted = fac.q(w)  # Q Q'z, the projection of z
+        self.resid = z - self.fitted
+        self.sse = float(self.resid @ self.resid)
+        self.df = n - p
+        self.qr = fac
+        self.Rinv, info = _lapack.dtrtri(R)
+        if info != 0:  # pragma: no cover - a zero pivot, excluded by find_aliases
+            raise ModelError(f"the model matrix is singular (LAPACK info {info})")
+        # diag((X'X)^-1) = row sums of Rinv^2, because (X'X)^-1 = Rinv Rinv'
+        self.cdiag = np.einsum("ij,ij->i", self.Rinv, self.Rinv)
+        # leverage = row sums of Q^2, and Q = M Rinv (a triangular product, trmm)
+        cond = np.abs(R).sum(axis=0).max() * np.abs(self.Rinv).sum(axis=0).max()
+        Q = fac.Q if cond > _LEVERAGE_COND else _blas.dtrmm(
+            1.0, np.asfortranarray(self.Rinv), M, side=1, lower=0)
+        self.leverage = np.einsum("ij,ij->i", Q, Q)
+        if self.df > 0:
+            s2 = self.sse / self.df
+            self.se = np.sqrt(s2 * self.cdiag)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                self.t = self.coef / self.se
+            self.p = 2 * special.stdtr(self.df, -np.abs(self.t))  # two-sided t test
+        else:
+            self.se = self.t = self.p = None
+
+
+class ResponseModel:
+    """A least-squares model of one response in coded factor units.
+
+    Parameters
+    ----------
+    terms : a model name (``main``, ``interactions``, ``full``, ``quadratic``)
+        or a list of term labels such as ``["protein", "protein:glycerol"]``.
+    factor_names : every study factor, in study order (the columns of X).
+    transform : ``none``, ``log`` or ``sqrt``: the scale the response is modelled on.
+    confidence : level of the confidence and prediction intervals.
+    name : the response's name, used in messages.
+    reduce : backward elimination to a smaller hierarchical model.
+    alpha : p-value above which reduction drops a term.
+    keep, drop : terms pinned in (never dropped by reduction) or out (never fitted).
+    factors : the study's Factor objects, for the equation in natural units.
+    block_name : the data column the blocks passed to ``fit`` come from (for the report).
+    """
+
+    def __init__(self, *, terms: str | Sequence[str] = "interactions",
+                 factor_names: Sequence[str], transform: str = "none",
+                 confidence: float = 0.95, name: str = "response", reduce: bool = False,
+                 alpha: float = DEFAULT_ALPHA, keep: Sequence[str] = (),
+                 drop: Sequence[str] = (), factors: Sequence | None = None,
+                 block_name: str = "block"):
+        self.terms = terms
+        self.factor_names = factor_names
+        self.transform = transform
+        self.confidence = confidence
+        self.name = name
+        self.reduce = reduce
+        self.alpha = alpha
+        self.keep = keep
+        self.drop = drop
+        self.factors = factors
+        self.block_name = block_name
+
+    # ------------------------------------------------------------------ fit
+
+    def fit(self, X_coded, y, run_ids=None, block=None) -> "ResponseModel":
+        """Fit to coded settings X (n, k) and responses y (n,); blank (NaN) y rows are left out.
+
+        ``block`` (optional, one label per run) adds sum-to-zero block terms when
+        the runs fall in two or more blocks.
+        """
+        name = self.name
+        names = list(self.factor_names)
+        self._check_options()
+        X = np.asarray(X_coded, dtype=float)
+        if X.ndim != 2 or X.shape[1] != len(names):
+            raise ModelError(f"response '{name}': expected coded settings with one column "
+                             f"per factor ({len(names)}), found shape {X.shape}")
+        y = np.asarray(y, dtype=float).ravel()
+        if y.size != X.shape[0]:
+            raise ModelError(f"response '{name}': {y.size} values for {X.shape[0]} runs")
+        # run ids stay as given; they become text only where shown (cheap fit)
+        ids = np.arange(1, y.size + 1) if run_ids is None else np.asarray(run_ids,
+                                                                            dtype=object)
+        if ids.size != y.size:
+            raise ModelError(f"response '{name}': {ids.size} run ids for {y.size} runs")
+        bad = ~np.isfinite(X)
+        if bad.any():
+            j = int(np.flatnonzero(bad.any(axis=0))[0])
+            raise ModelError(f"response '{name}': factor '{names[j]}' has a blank or "
+                             f"non-numeric setting in run {ids[bad[:, j]][0]}")
+        if np.isinf(y).any():
+            raise ModelError(f"response '{name}': an infinite value in run "
+                             f"{ids[np.isinf(y)][0]}: check the data")
+        if block is not None:
+            block = np.asarray(block, dtype=object).ravel()
+            if block.size != y.size:
+                raise ModelError(f"response '{name}': {block.size} block labels for "
+                                 f"{y.size} runs")
+            blank_block = np.array([_blank(v) for v in block], dtype=bool)
+            if blank_block.any():
+                raise ModelError(f"response '{name}': run {ids[blank_block][0]} has no "
+                                 f"block: give every run its block ({self.block_name})")
+
+        warnings: list[str] = []
+        blank = np.isnan(y)
+        if blank.any():
+            warnings.append(f"run(s) {', '.join(str(i) for i in ids[blank][:10])}"
+                            f"{', ...' if blank.sum() > 10 else ''} have no value: left "
+                            "out of this model")
+            X, y, ids = X[~blank], y[~blank], ids[~blank]
+            if block is not None:
+                block = block[~blank]
+        else:
+            # X is only read during fit; y and the ids are kept, so they are copied
+            # (as the selection above copies them) and never share the caller's data.
+            y, ids = y.copy(), ids.copy()
+        n = y.size
+        if n < 2:
+            raise ModelError(f"response '{name}': only {n} run(s) have a value: a model "
+                             "needs at least 2, and a useful one many more")
+        z = forward(y, self.transform, response=name)
+        if np.ptp(z) == 0:
+            raise ModelError(f"response '{name}' is {y[0]:g} in every run: there is "
+                             "nothing to model: check the data or remove the response")
+
+        # Distinct settings per factor decide the squares: only a quadratic model
+        # or a list of terms has any (other named models do not need the count).
+        n_settings = None
+        if not isinstance(self.terms, str) or self.terms == "quadratic":
+            Xs = np.sort(np.round(X, 9), axis=0)
+            n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
+        terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name)
+        warnings += notes
+        keep_terms = self._pinned(self.keep, terms, "keep")
+        drop_terms = self._pinned(self.drop, terms, "drop")
+        if any(t.is_intercept for t in drop_terms):
+            raise ModelError(f"response '{name}': the intercept cannot be dropped")
+        terms = [t for t in terms if t not in drop_terms]
+
+        M = model_matrix(X, terms)
+        # Block columns right after the intercept: a factor term confounded with
+        # the blocks is then the one left out (the blocks always stay).
+        bterms, B, levels = (block_terms(block, len(names)) if block is not None
+                             else ([], None, []))
+        if bterms:
+            terms = terms[:1] + bterms + terms[1:]
+            M = np.asfortranarray(np.hstack([M[:, :1], B, M[:, 1:]]))
+        keep_mask, aliases, qr = find_aliases(M, terms, return_qr=True)
+        clean = all(len(v) == 1 for v in aliases.values())
+        if len(terms) > n and not clean:
+            raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
+        block_labels = {t.label for t in bterms}
+        confounded = {}
+        for dropped, partners in aliases.items():
+            if any(q in block_labels for q in partners):
+                confounded[dropped] = list(partners)
+                others = [q for q in partners if q not in block_labels]
+                warnings.append(f"term '{dropped}' is confounded with the blocks"
+                                f"{' and ' + ' + '.join(others) if others else ''}: a "
+                                "shift between blocks cannot be told apart from it, so "
+                                "it is left out of the model")
+            elif not partners:
+                warnings.append(f"term '{dropped}' is 0 in every run and cannot be "
+                                "estimated: left out")
+            elif partners == ["intercept"]:
+                warnings.append(f"term '{dropped}' does not vary in these runs (it is "
+                                "aliased with the intercept): left out")
+            else:
+                warnings.append(f"term '{dropped}' cannot be told apart from "
+                                f"{' + '.join(partners)} in these runs (aliased): only "
+                                f"{partners[0] if len(partners) == 1 else 'those'} "
+                                "estimated, standing for both")
+        if not keep_mask.all():  # (no copy of M when every term is kept)
+            terms = [t for t, k in zip(terms, keep_mask) if k]
+            M = M[:, keep_mask]
+        if len(terms) > n:  # cannot happen after alias removal, kept as a guard
+            raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
+
+        self.requested_terms_ = [t.label for t in terms]
+        self.reduction_ = None
+        if self.reduce:
+            terms, M, dropped_log = self._reduce(terms, M, z, keep_terms, qr)
+            self.reduction_ = dropped_log
+            if dropped_log:
+                qr = None
+
+        sol = _Solution(M, z, qr)
+        warnings += _near_alias_notes(terms, M, sol.cdiag, sol.qr.R)
+        self._terms = terms
+        self._sol = sol
+        self._set_results(X, y, z, ids, terms, sol, aliases, warnings,
+                          block if bterms else None, levels, confounded)
+        return self
+
+    def _check_options(self) -> None:
+        name = self.name
+        if self.transform not in TRANSFORM_NAMES:
+            raise ModelError(f"response '{name}': transform '{self.transform}' is not one I "
+                             f"know: use one of {', '.join(TRANSFORM_NAMES)}")
+        if not 0.5 <= float(self.confidence) < 1:
+            raise ModelError(f"response '{name}': confidence {self.confidence} must be a "
+                             "fraction such as 0.95")
+        if not 0 < float(self.alpha) < 1:
+            raise ModelError(f"response '{name}': alpha {self.alpha} must be a fraction "
+                             "such as 0.10")
+        if isinstance(self.factor_names, str) or len(self.factor_names) == 0:
+            raise ModelError(f"response '{name}': factor_names must list the study's "
+                             "factors")
+
+    def _pinned(self, labels, terms: list[Term], what: str) -> list[Term]:
+        if isinstance(labels, str):
+            labels = [labels]
+        out = []
+        for text in labels or ():
+            if isinstance(text, str) and text.strip().startswith("block["):
+                raise ModelError(f"response '{self.name}': '{text}' is a block term: "
+                                 "blocks are always in the model; list factor terms "
+                                 f"to {what}")
+            t = parse_term(text, list(self.factor_names), response=self.name)
+            match = [u for u in terms if u.powers == t.powers]
+            if not match:
+                raise ModelError(f"response '{self.name}': term '{text}' to {what} is not "
+                                 f"in the model {[u.label for u in terms]}: check the name")
+            out.append(match[0])
+        return out
+
+    def _too_many(self, p: int, n: int, k: int, n_blocks: int = 0) -> str:
+        spec = self.terms
+        what = f"the '{spec}' model" if isinstance(spec, str) else "the listed model"
+        fits = [m for m in ("interactions", "main") if named_model_size(m, k) <= n]
+        if fits:
+            hint = (f"'{fits[0]}' ({named_model_size(fits[0], k)} terms) would fit, or "
+                    f"list at most {n} terms")
+        else:
+            hint = (f"even main effects need {k + 1} runs: add runs or list at most "
+                    f"{n} terms")
+        with_blocks = (f" (with {n_blocks} block term{'s' if n_blocks > 1 else ''})"
+                       if n_blocks else "")
+        return (f"response '{self.name}': {what} has {p} terms{with_blocks} but only {n} "
+                f"runs have a value: a model cannot have more terms than runs: {hint}")
+
+    def _reduce(self, terms: list[Term], M: np.ndarray, z: np.ndarray,
+                keep_terms: list[Term], qr=None) -> tuple[list[Term], np.ndarray, dict[str, str]]:
+        """Hierarchical backward elimination (p-values, or Lenth's ME when saturated)."""
+        pinned = (hierarchy_closure(keep_terms, terms) | {"intercept"}
+                  | {t.label for t in terms if t.is_block})
+        log: dict[str, str] = {}
+        sol = _Solution(M, z, qr)
+        if sol.df == 0:
+            eff_idx = _effect_index(terms)
+            if len(eff_idx) < 3:
+                return terms, M, log
+            effects = 2 * sol.coef[eff_idx]
+            res = lenth(effects, level=self.confidence)
+            active = [terms[i] for i, e in zip(eff_idx, effects) if abs(e) > res.me]
+            active += [t for t in terms if t.is_square]
+            keep = hierarchy_closure(active, terms) | pinned
+            kept_idx = [i for i, t in enumerate(terms) if t.label in keep]
+            for i, e in zip(eff_idx, effects):
+                if terms[i].label not in keep:
+                    log[terms[i].label] = f"|effect| {abs(e):.4g} below Lenth ME {res.me:.4g}"
+            return [terms[i] for i in kept_idx], M[:, kept_idx], log
+        idx = list(range(len(terms)))
+        while True:
+            current = [terms[i] for i in idx]
+            candidates = [j for j, t in enumerate(current)
+                          if t.label not in pinned
+                          and not any(u.contains(t) for u in current)]
+            if not candidates or sol.p is None:
+                break
+            # Terms of an orthogonal design often tie exactly; rounding away the last
+            # digits lets the rule (the later term goes first) break the tie, not
+            # floating-point noise that changes with the QR route or the BLAS.
+            ranked = np.round(np.nan_to_num(sol.p, nan=1.0), 10)
+            worst = max(candidates, key=lambda j: (ranked[j], j))
+            pw = float(sol.p[worst])
+            if not pw > self.alpha:
+                break
+            log[current[worst].label] = f"p = {pw:.3g}"
+            del idx[worst]
+            sol = _Solution(M[:, idx], z)
+        return [terms[i] for i in idx], M[:, idx], log
+
+    def _set_results(self, X, y, z, ids, terms, sol: _Solution, aliases, warnings,
+                     block=None, levels=(), confounded=None) -> None:
+        n, p = z.size, len(terms)
+        self.terms_ = [t.label for t in terms]
+        self.coef_ = sol.coef.copy()
+        self.aliases_ = dict(aliases)
+        self.n_ = int(n)
+        self.residual_df_ = int(sol.df)
+        sst = float(np.sum((z - z.mean()) ** 2))
+        self.r2_ = float(1 - sol.sse / sst)
+        if sol.df > 0:
+            self.residual_sd_ = float(math.sqrt(sol.sse / sol.df))
+            self.adj_r2_ = float(1 - (sol.sse / sol.df) / (sst / (n - 1)))
+        else:
+            self.residual_sd_ = float("nan")
+            self.adj_r2_ = float("nan")
+        h = sol.leverage
+        if np.all(h < 1 - 1e-10):
+            press = float(np.sum((sol.resid / (1 - h)) ** 2))
+            self.press_ = press
+            self.pred_r2_ = float(1 - press / sst)
+        else:
+            self.press_ = float("nan")
+            self.pred_r2_ = float("nan")
+        self.std_errors_ = None if sol.se is None else sol.se.copy()
+        self.t_values_ = None if sol.t is None else sol.t.copy()
+        self.p_values_ = None if sol.p is None else sol.p.copy()
+        self.effects_ = np.array([np.nan if (t.is_square or t.is_intercept or t.is_block)
+                                  else 2 * b for t, b in zip(terms, sol.coef)])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            self.sum_squares_ = sol.coef ** 2 / sol.cdiag  # adjusted SS, 1 df each
+
+        # Lenth's method when nothing is left for an error estimate.
+        self.lenth_ = None
+        self.half_normal_ = None
+        self.sigma_, self.sigma_df_ = self.residual_sd_, self.residual_df_
+        if sol.df == 0:
+            eff_idx = _effect_index(terms)
+            if len(eff_idx) >= 3:
+                effects = self.effects_[eff_idx]
+                res = lenth(effects, level=self.confidence)
+                self.lenth_ = res
+                self.half_normal_ = half_normal_points([self.terms_[i] for i in eff_idx],
+                                                       effects)
+                # PSE estimates the standard error of an effect, 2 sigma sqrt(c_jj):
+                # turn it into sigma so predictions still get intervals.
+                scale = float(np.mean(2 * np.sqrt(sol.cdiag[eff_idx])))
+                if res.pse > 0:
+                    self.sigma_ = res.pse / scale
+                    self.sigma_df_ = max(1, int(res.df))
+                warnings.append("no residual degrees of freedom (every run is used by a "
+                                "term): effects are judged with Lenth's margins of error "
+                                f"(ME {res.me:.4g}, SME {res.sme:.4g}), and intervals use "
+                                "Lenth's pseudo standard error")
+            else:
+                warnings.append("no residual degrees of freedom and too few effects for "
+                                "Lenth's method: no error estimate, no intervals")
+
+        # ANOVA, lack of fit and curvature on the modelling scale.
+        self.anova_ = anova_table(X, z, sol.sse, p, block)
+        self.blocks_ = self._block_results(terms, sol, levels, block, confounded or {})
+        lof = self.anova_.get("lack_of_fit")
+        if lof is not None and lof["p"] == lof["p"] and lof["p"] < 0.05:
+            warnings.append(f"lack of fit is significant (p = {lof['p']:.3g}): the model "
+                            "misses a pattern the replicates show: consider more terms "
+                            "or a transform")
+        curv = self.anova_.get("curvature")
+        if curv is not None and curv["p"] == curv["p"] and curv["p"] < 0.05:
+            warnings.append(f"curvature is significant (p = {curv['p']:.3g}): the centre "
+                            "points do not lie on the plane of the factorial runs; the "
+                            "model cannot say which factor bends, and predictions between "
+                            "centre and corners are less trustworthy (axial runs would "
+                            "locate it)")
+
+        # Per-run diagnostics (the table itself is built on first use).
+        self._diag = diagnostic_arrays(z, sol.fitted, sol.leverage, sol.df, p)
+        self._ids = ids
+        flagged = self._diag["flagged"]
+        self.flagged_runs_ = [str(i) for i in ids[flagged]]
+        for run, t in zip(self.flagged_runs_, self._diag["studentized_deleted"][flagged]):
+            warnings.append(f"run {run} has a studentized (deleted) residual of "
+                            f"{t:.2f}, beyond +-3: check it for a recording or making "
+                            "error")
+        if sol.df > 0 and sol.sse <= 1e-20 * max(sst, 1e-300):
+            warnings.append("the model passes through every run exactly: its standard "
+                            "errors are 0 and its p-values mean nothing")
+        if self.pred_r2_ == self.pred_r2_ and self.r2_ - self.pred_r2_ > 0.2:
+            warnings.append(f"predicted R2 ({self.pred_r2_:.2f}) is far below R2 "
+                            f"({self.r2_:.2f}): the model may follow noise; consider "
+                            "reducing it")
+
+        # Box-Cox suggestion on the natural scale with the same terms: on first use.
+        self._box_cox_input = (y, sol.qr) if sol.df > 0 else None
+        self._box_cox = None
+        self.natural_coefficients_ = self._natural(terms, sol.coef)
+        self._warnings = warnings
+        # What prediction needs, precomputed once: block columns are 0 at the
+        # average block, so only the factor terms' rows take part.
+        idx = [i for i, t in enumerate(terms) if not t.is_block]
+        self._pred_terms = [terms[i] for i in idx]
+        self._pred_coef = sol.coef[idx]
+        self._Rinv = sol.Rinv[idx]
+
+    def _block_results(self, terms, sol: _Solution, levels, block, confounded) -> dict | None:
+        """Block effects (one per block, summing to 0), their adjusted SS and test."""
+        bidx = [i for i, t in enumerate(terms) if t.is_block]
+        if not bidx:
+            return None
+        b = len(levels)
+        beta = sol.coef[bidx]
+        # effects of all b blocks: the first is minus the sum of the others
+        L = np.vstack([-np.ones(len(bidx)), np.eye(len(bidx))])
+        effects = L @ beta
+        C = sol.Rinv[bidx] @ sol.Rinv[bidx].T  # block part of (X'X)^-1
+        # extra SS of the block columns given every other term: beta' C^-1 beta
+        ss = float(beta @ np.linalg.solve(C, beta))
+        df = len(bidx)
+        labels = np.asarray([str(v) for v in block], dtype=object)
+        counts = {lev: int(np.sum(labels == lev)) for lev in levels}
+        if sol.df > 0:
+            s2 = sol.sse / sol.df
+            se = np.sqrt(s2 * np.einsum("ij,jk,ik->i", L, C, L))
+            f = (ss / df) / s2 if s2 > 0 else (np.inf if ss > 0 else np.nan)
+            p = float(special.fdtrc(df, sol.df, f)) if f == f else np.nan
+        else:
+            se = np.full(b, np.nan)
+            f = p = np.nan
+        return {"column": self.block_name, "levels": list(levels), "runs": counts,
+                "terms": [terms[i].label for i in bidx],
+                "effects": dict(zip(levels, effects.tolist())),
+                "std_errors": dict(zip(levels, se.tolist())),
+                "ss": ss, "df": df, "f": float(f), "p": float(p),
+                "confounded": {k: list(v) for k, v in confounded.items()}}
+
+    @property
+    def box_cox_(self) -> dict | None:
+        """Box-Cox lambda (with its likelihood interval) and the suggested transform.
+
+        None when some value is 0 or negative or no residual degrees of freedom are
+        left. Computed on first use: it is not needed for predictions.
+        """
+        self._check_fitted()
+        if self._box_cox is None and self._box_cox_input is not None:
+            y, fac = self._box_cox_input
+            self._box_cox = box_cox(y, fac.Q, level=self.confidence) or {}
+            self._box_cox_input = None
+        return self._box_cox or None
+
+    @property
+    def warnings_(self) -> list[str]:
+        """What the user should know about this model, one sentence each."""
+        self._check_fitted()
+        out = list(self._warnings)
+        bc = self.box_cox_
+        current = {"none": 1.0, "sqrt": 0.5, "log": 0.0}[self.transform]
+        if bc is not None and bc["suggest"] in TRANSFORM_NAMES and \
+                bc["suggest"] != self.transform and not bc["low"] <= current <= bc["high"]:
+            out.append(f"Box-Cox suggests transform '{bc['suggest']}' (lambda "
+                       f"{bc['lambda']:.2f}, range {bc['low']:.2f} to {bc['high']:.2f}); "
+                       f"this model uses '{self.transform}'")
+        return out
+
+    @property
+    def residuals_(self) -> pd.Series:
+        """Residuals (observed - fitted, modelling scale) indexed by run id (text)."""
+        self._check_fitted()
+        return pd.Series(self._diag["residual"], index=pd.Index(
+            [str(i) for i in self._ids], dtype=object, name="run"), name=self.name)
+
+    @property
+    def diagnostics_(self) -> pd.DataFrame:
+        """Per-run table indexed by run id: observed, fitted, residual, leverage,
+        studentized, studentized_deleted, cooks_distance, flagged (modelling scale)."""
+        self._check_fitted()
+        return run_diagnostics(self._ids, self._diag)
+
+    def _natural(self, terms: list[Term], coef: np.ndarray) -> dict[str, float] | None:
+        """The fitted equation with numeric factors in natural units.
+
+        Categorical factors stay coded: -1 at their first level, +1 at their second.
+        """
+        if self.factors is None:
+            return None
+        k = len(self.factor_names)
+        poly: dict[tuple[int, ...], float] = {}
+        for t, b in zip(terms, coef):
+            if t.is_block:
+                continue  # the equation is for the average block
+            part = {(0,) * k: float(b)}
+            for j, pw in enumerate(t.powers):
+                if not pw:
+                    continue
+                f = self.factors[j]
+                c, h = (0.0, 1.0) if f.is_categorical else (f.centre, f.half_range)
+                new: dict[tuple[int, ...], float] = {}
+                for powers, val in part.items():
+                    for i in range(pw + 1):
+                        a = math.comb(pw, i) * (-c) ** (pw - i) / h ** pw
+                        if a == 0:
+                            continue
+                        q = list(powers)
+                        q[j] += i
+                        new[tuple(q)] = new.get(tuple(q), 0.0) + val * a
+                part = new
+            for powers, val in part.items():
+                poly[powers] = poly.get(powers, 0.0) + val
+        order = {t.powers: i for i, t in enumerate(terms) if not t.is_block}
+        keys = sorted(poly, key=lambda q: (sum(q), order.get(q, len(order)), q))
+        return {term_label(q, list(self.factor_names)): poly[q] for q in keys}
+
+    # -------------------------------------------------------------- predict
+
+    def _check_fitted(self) -> None:
+        if not hasattr(self, "coef_"):
+            raise ModelError(f"response '{self.name}': the model is not fitted yet: call "
+                             "fit first")
+
+    def _matrix(self, X_coded) -> np.ndarray:
+        X = np.asarray(X_coded, dtype=float)
+        if X.ndim == 1:
+            X = X.reshape(1, -1)
+        if X.ndim != 2 or X.shape[1] != len(self.factor_names):
+            raise ModelError(f"response '{self.name}': expected settings with one column "
+                             f"per factor ({len(self.factor_names)}), found shape {X.shape}")
+        return model_matrix(X, self._pred_terms)
+
+    def predictive(self, X_coded) -> tuple[np.ndarray, np.ndarray, float, int]:
+        """Mean, its standard error, sigma and its degrees of freedom, on the modelling scale.
+
+        For Monte Carlo: a new observation at x is mean + se_mean * t + sigma * t'.
+        In a saturated model sigma comes from Lenth's PSE (df = m/3, rounded down).
+        """
+        self._check_fitted()
+        M = self._matrix(X_coded)
+        mean = M @ self._pred_coef
+        A = M @ self._Rinv
+        se = np.sqrt(np.einsum("ij,ij->i", A, A)) * self.sigma_
+        return mean, se, float(self.sigma_), int(self.sigma_df_)
+
+    def predict(self, X_coded) -> np.ndarray:
+        """Mean prediction in natural units (for log: the back-transformed mean, a median)."""
+        self._check_fitted()
+        return inverse(self._matrix(X_coded) @ self._pred_coef, self.transform)
+
+    def intervals(self, X_coded, level: float | None = None) -> pd.DataFrame:
+        """Predictions with confidence (mean) and prediction (new run) intervals, natural units.
+
+        Columns: predicted, ci_low, ci_high, pi_low, pi_high. Intervals are NaN
+        when the model has no error estimate.
+        """
+        level = self.confidence if level is None else float(level)
+        if not 0 < level < 1:
+            raise ModelError(f"response '{self.name}': level {level} must be a fraction "
+                             "such as 0.95")
+        mean, se, sigma, df = self.predictive(X_coded)
+        if df > 0 and sigma == sigma:
+            q = stats.t.ppf(0.5 + level / 2, df)
+            ci = q * se
+            pi = q * np.sqrt(se ** 2 + sigma ** 2)
+        else:
+            ci = pi = np.full_like(mean, np.nan)
+        tr = self.transform
+        return pd.DataFrame({"predicted": inverse(mean, tr),
+                             "ci_low": inverse(mean - ci, tr), "ci_high": inverse(mean + ci, tr),
+                             "pi_low": inverse(mean - pi, tr), "pi_high": inverse(mean + pi, tr)})
+
+    def inverse_transform(self, y) -> np.ndarray:
+        """Modelling scale -> natural scale."""
+        return inverse(y, self.transform)
+
+    # --------------------------------------------------------------- report
+
+    def report(self) -> dict:
+        """The JSON-ready summary printed by ``tradeoff fit --json`` for this response."""
+        self._check_fitted()
+        labels = self.terms_
+        saturated = self.residual_df_ == 0
+
+        def per_term(values, skip_intercept=False):
+            if values is None:
+                return None
+            return {lab: _num(v) for lab, v in zip(labels, values)
+                    if not (skip_intercept and lab == "intercept")}
+
+        out = {
+            "response": self.name,
+            "transform": self.transform,
+            "model": self.terms if isinstance(self.terms, str) else list(self.terms),
+            "n": self.n_,
+            "terms": list(labels),
+            "coefficients": per_term(self.coef_),
+            "effects": per_term(self.effects_, skip_intercept=True),
+            "std_errors": None if saturated else per_term(self.std_errors_),
+            "t_values": None if saturated else per_term(self.t_values_),
+            "p_values": None if saturated else per_term(self.p_values_),
+            "sums_of_squares": per_term(self.sum_squares_, skip_intercept=True),
+            "residual_df": self.residual_df_,
+            "r2": _num(self.r2_), "adj_r2": _num(self.adj_r2_),
+            "pred_r2": _num(self.pred_r2_), "residual_sd": _num(self.residual_sd_),
+            "lenth": None if self.lenth_ is None else {
+                "pse": _num(self.lenth_.pse), "me": _num(self.lenth_.me),
+                "sme": _num(self.lenth_.sme), "df": _num(self.lenth_.df)},
+            "half_normal": None if self.half_normal_ is None else [
+                {"term": r.term, "effect": _num(r.effect), "quantile": _num(r.quantile)}
+                for r in self.half_normal_.itertuples()],
+            "aliases": {k: list(v) for k, v in self.aliases_.items()},
+            "blocks": _clean(self.blocks_),
+            "anova": _clean(self.anova_),
+            "natural_coefficients": _clean(self.natural_coefficients_),
+            "box_cox": _clean(self.box_cox_),
+            "reduction": None if self.reduction_ is None else {
+                "from": list(self.requested_terms_), "dropped": dict(self.reduction_)},
+            "flagged_runs": list(self.flagged_runs_),
+            "confidence": self.confidence,
+            "warnings": list(self.warnings_),
+        }
+        return out
+
+
+# Variance inflation above this marks a term as nearly aliased (a VIF above 10
+# is the usual sign of serious collinearity; Montgomery, Design and Analysis of
+# Experiments, "common practice").
+NEAR_ALIAS_VIF = 10.0
+
+
+def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray,
+                      R: np.ndarray | None = None) -> list[str]:
+    """A warning per term whose variance inflation factor is above NEAR_ALIAS_VIF.
+
+    VIF_j = diag((X'X)^-1)_j * sum((x_j - mean x_j)^2), the usual centred VIF
+    when the model has an intercept; 1 for every term of an orthogonal design.
+    Exactly aliased terms were already left out, so this flags runs whose
+    settings nearly tie two terms together (a factor that hardly changes apart
+    from another), where coefficients become large and unstable.
+    """
+    if not any(t.is_intercept for t in terms):
+        return []
+    notes = []
+    if R is not None and terms[0].is_intercept:
+        # M = QR with the column of ones first: R[0, j]^2 = n mean_j^2, so the
+        # rest of column j of R holds its centred sum of squares (no n x p pass).
+        centred = np.einsum("ij,ij->j", R[1:], R[1:])
+    else:
+        centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
+    for t, c, ss in zip(terms, cdiag, centred):
+        if t.is_intercept or ss == 0:
+            continue
+        vif = float(c * ss)
+        if vif > NEAR_ALIAS_VIF:
+            notes.append(f"term '{t.label}' is nearly aliased with other terms in these "
+                         f"runs (variance inflation {vif:.3g}, above {NEAR_ALIAS_VIF:g}): "
+                         "its coefficient is poorly determined: check the factor "
+                         "settings, or add runs that set the factors apart")
+    return notes
+
+
+def _effect_index(terms) -> list[int]:
+    """Positions of the factor effects (no intercept, square or block term)."""
+    return [i for i, t in enumerate(terms)
+            if not (t.is_intercept or t.is_square or t.is_block)]
+
+
+def _blank(value) -> bool:
+    if value is None:
+        return True
+    if isinstance(value, (float, np.floating)):
+        return not math.isfinite(value)
+    return isinstance(value, str) and not value.strip()
+
+
+def _num(v):
+    if v is None:
+        return None
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def _clean(obj):
+    """NaN and infinities -> None, numpy scalars -> Python, recursively (valid JSON)."""
+    if isinstance(obj, dict):
+        return {k: _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (int, np.integer)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return _num(obj)
+    return obj
+
+
+# ------------------------------------------------------------------ study level
+
+
+@dataclass(frozen=True)
+class StudyFit:
+    """Fitted models of a study's responses.
+
+    ``models``: response name -> fitted ResponseModel, in study order.
+    ``skipped``: response name -> why it has no model (the error message).
+    """
+
+    study: object
+    models: dict = field(default_factory=dict)
+    skipped: dict = field(default_factory=dict)
+
+    def predict(self, settings) -> pd.DataFrame:
+        """Predictions at settings in natural units (categorical by level name).
+
+        Returns a tidy table with columns point (row position of the settings),
+        response, predicted, ci_low, ci_high, pi_low, pi_high.
+        """
+        from ..study.coding import to_coded
+
+        if isinstance(settings, dict):
+            settings = pd.DataFrame({k: np.atleast_1d(v) for k, v in settings.items()})
+        if not isinstance(settings, pd.DataFrame):
+            raise DataError("settings must be a table (or dict) with one column per factor")
+        missing = [f.name for f in self.study.factors if f.name not in settings.columns]
+        if missing:
+            raise DataError(f"settings have no column for factor(s) {missing}: give a "
+                            "value for every factor")
+        try:
+            X = to_coded(self.study.factors, settings)
+        except (ValueError, TypeError):
+            raise DataError("settings of numeric factors must be numbers: check the "
+                            "values given") from None
+        cols = ["point", "response", "predicted", "ci_low", "ci_high", "pi_low", "pi_high"]
+        frames = []
+        for name, model in self.models.items():
+            table = model.intervals(X)
+            table.insert(0, "response", name)
+            table.insert(0, "point", np.arange(X.shape[0]))
+            frames.append(table)
+        if not frames:
+            return pd.DataFrame(columns=cols)
+        return pd.concat(frames, ignore_index=True)[cols]
+
+    def report(self) -> dict:
+        """``{"responses": {name: model.report()}, "skipped": {name: reason}}``."""
+        return {"responses": {k: m.report() for k, m in self.models.items()},
+                "skipped": dict(self.skipped)}
+
+
+def fit_response(study, name: str, *, reduce: bool = False, terms=None,
+                 alpha: float = DEFAULT_ALPHA, keep=None, drop=None) -> ResponseModel:
+    """Fit one response of a study (with block terms when its runs fall in blocks).
+
+    ``terms`` overrides the study's model (a name or a list of terms); ``keep``
+    and ``drop`` override the response's ``keep_terms`` / ``drop_terms`` keys.
+    Raises ModelError when the response cannot be modelled.
+    """
+    response = study.response(name)
+    if study.runs is None:
+        raise StudyError(f"study '{study.name}' has no runs loaded: load it with its data")
+    if name not in study.runs.columns:
+        raise ModelError(f"response '{name}' has no values in the runs yet (it is "
+                         "computed from a storage or panel table): compute it first")
+    spec = terms if terms is not None else study.model_for(response)
+    if not isinstance(spec, str):
+        spec = list(spec)
+    keep = response.extra.get("keep_terms", ()) if keep is None else keep
+    drop = response.extra.get("drop_terms", ()) if drop is None else drop
+    model = ResponseModel(terms=spec, factor_names=study.factor_names,
+                          transform=response.transform, confidence=study.confidence,
+                          name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
+                          factors=study.factors, block_name=study.block_column or "block")
+    return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+                     study.runs["run"].to_numpy(), block=study.block_labels())
+
+
+def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
+    """Fit every response of a study (or those named in ``responses``).
+
+    A response that cannot be modelled is listed in ``skipped`` with the
+    reason, so the others can still be used.
+    """
+    names = study.response_names if responses is None else list(responses)
+    for name in names:
+        study.response(name)  # unknown names are an error, not a skip
+    models: dict[str, ResponseModel] = {}
+    skipped: dict[str, str] = {}
+    for name in study.response_names:
+        if name not in names:
+            continue
+        try:
+            models[name] = fit_response(study, name, reduce=reduce)
+        except ModelError as exc:
+            skipped[name] = str(exc)
+    return StudyFit(study=study, models=models, skipped=skipped)

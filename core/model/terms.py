@@ -1,0 +1,464 @@
+"""Model terms: their labels, the model matrix built from coded settings, aliases.
+
+A term is a product of coded factor columns. Labels: ``intercept``; a main
+effect is the factor's name; an interaction joins names with ``:`` in the
+study's factor order (``protein:glycerol``); a square is ``name^2``.
+Internally a term is a tuple of powers, one per factor in study order.
+"""
+from __future__ import annotations
+
+import difflib
+import functools
+import itertools
+import math
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+from scipy.linalg import lapack as _lapack
+from scipy.linalg import qr as _scipy_qr
+
+from ..errors import ModelError
+
+__all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
+           "qr", "QRFactors", "find_aliases", "hierarchy_closure", "named_model_size",
+           "BlockTerm", "block_terms"]
+
+MODEL_NAMES = ("main", "interactions", "full", "quadratic")
+
+# A column counts as linearly dependent on the earlier ones when what is left
+# of it after projection is this small relative to its length. Exact aliasing in
+# a design leaves ~1e-15; genuine near-collinearity of measured settings stays far above.
+_ALIAS_TOL = 1e-9
+
+
+@dataclass(frozen=True)
+class Term:
+    """One model term: ``powers[j]`` is the power of factor j (0, 1 or 2)."""
+
+    label: str
+    powers: tuple[int, ...]
+
+    # Cached: a fit reads these for every term several times, and the Term
+    # objects of a named model are shared between fits (model_terms caches them).
+    # cached_property writes the instance __dict__ directly, so frozen is kept.
+    @functools.cached_property
+    def order(self) -> int:
+        return int(sum(self.powers))
+
+    @functools.cached_property
+    def is_intercept(self) -> bool:
+        return self.order == 0
+
+    @functools.cached_property
+    def is_square(self) -> bool:
+        return 2 in self.powers
+
+    @functools.cached_property
+    def factors(self) -> tuple[int, ...]:
+        return tuple(j for j, p in enumerate(self.powers) if p)
+
+    @property
+    def is_block(self) -> bool:
+        return False
+
+    def contains(self, other: "Term") -> bool:
+        """True when ``other`` is a strict lower-order part of this term (a parent)."""
+        if self.is_block or other.is_block:
+            return False  # blocks are outside the hierarchy of factor terms
+        return other.powers != self.powers and all(
+            o <= s for o, s in zip(other.powers, self.powers))
+
+
+@dataclass(frozen=True)
+class BlockTerm(Term):
+    """A block column (a nuisance term): not a product of factors.
+
+    ``level`` is the block it stands for; in sum-to-zero (effects) coding the
+    column is +1 in that block, -1 in the first block and 0 elsewhere, so its
+    coefficient is the block's shift from the average over blocks.
+    """
+
+    level: str = ""
+
+    @property
+    def is_intercept(self) -> bool:
+        return False
+
+    @property
+    def is_square(self) -> bool:
+        return False
+
+    @property
+    def is_block(self) -> bool:
+        return True
+
+
+def block_terms(block, k: int) -> tuple[list[BlockTerm], np.ndarray, list[str]]:
+    """Sum-to-zero (effects) coded block columns of run labels ``block``.
+
+    Parameters
+    ----------
+    block : (n,) block label of each run (any values; compared as text).
+    k : number of factors (the length of a term's powers).
+
+    Returns
+    -------
+    terms : one BlockTerm per block after the first, labelled ``block[<level>]``.
+    columns : (n, b - 1) array: +1 in the term's block, -1 in the first block, else 0.
+    levels : the b block labels, the first being the one left out (its effect is
+        minus the sum of the others). Numbers sort as numbers, other labels as text.
+        With fewer than two blocks: no terms, an (n, 0) array.
+    """
+    labels = np.asarray([str(v) for v in np.asarray(block, dtype=object).ravel()],
+                        dtype=object)
+    levels = sorted(set(labels.tolist()), key=_level_key)
+    n = labels.size
+    if len(levels) < 2:
+        return [], np.empty((n, 0)), levels
+    first = labels == levels[0]
+    columns = np.zeros((n, len(levels) - 1))
+    terms = []
+    for j, level in enumerate(levels[1:]):
+        columns[labels == level, j] = 1.0
+        columns[first, j] = -1.0
+        terms.append(BlockTerm(f"block[{level}]", (0,) * k, level))
+    return terms, columns, levels
+
+
+def _level_key(text: str):
+    try:
+        value = float(text)
+    except ValueError:
+        return (1, 0.0, text)
+    return (0, value, text) if math.isfinite(value) else (1, 0.0, text)
+
+
+def term_label(powers: Sequence[int], names: Sequence[str]) -> str:
+    """The label of the term with these powers (``intercept``, ``a``, ``a:b``, ``a^2``)."""
+    if not any(powers):
+        return "intercept"
+    parts = [names[j] if p == 1 else f"{names[j]}^{p}" for j, p in enumerate(powers) if p]
+    return ":".join(parts)
+
+
+def _term(powers: Sequence[int], names: Sequence[str]) -> Term:
+    return Term(term_label(powers, names), tuple(int(p) for p in powers))
+
+
+def parse_term(text: str, factor_names: Sequence[str], *, response: str = "response") -> Term:
+    """Parse a term label such as ``protein:glycerol`` or ``protein^2``.
+
+    Names may be given in any order; the label comes back in study order.
+    """
+    names = list(factor_names)
+    where = f"response '{response}': term '{text}'"
+    if not isinstance(text, str) or not text.strip():
+        raise ModelError(f"response '{response}': a term is blank: write factor names "
+                         "joined by ':' (for example 'protein:glycerol') or 'name^2'")
+    text = text.strip()
+    if text in ("intercept", "1"):
+        return _term([0] * len(names), names)
+    if "*" in text:
+        raise ModelError(f"{where}: join factor names with ':' (for example "
+                         f"'{text.replace('*', ':')}'), not '*'")
+    powers = [0] * len(names)
+    for part in text.split(":"):
+        part = part.strip()
+        base, power = part, 1
+        if "^" in part:
+            base, _, exp = part.partition("^")
+            base = base.strip()
+            if exp.strip() != "2":
+                raise ModelError(f"{where}: only squares ('{base}^2') are supported, "
+                                 f"found power '{exp.strip()}'")
+            power = 2
+        if base not in names:
+            close = difflib.get_close_matches(base, names, n=1, cutoff=0.6)
+            hint = f" (did you mean '{close[0]}'?)" if close else ""
+            raise ModelError(f"{where}: '{base}' is not a factor of the study{hint}: "
+                             f"the factors are {names}")
+        j = names.index(base)
+        if powers[j]:
+            raise ModelError(f"{where}: '{base}' appears twice: write '{base}^2' for "
+                             "a square")
+        powers[j] = power
+    if 2 in powers and sum(1 for p in powers if p) > 1:
+        raise ModelError(f"{where}: a square cannot be combined with other factors: "
+                         "use plain squares ('a^2') and two-factor interactions ('a:b')")
+    return _term(powers, names)
+
+
+def named_model_size(model: str, k: int, n_squares: int | None = None) -> int:
+    """Number of terms (with intercept) of a named model for k factors."""
+    if model == "main":
+        return 1 + k
+    if model == "interactions":
+        return 1 + k + k * (k - 1) // 2
+    if model == "full":
+        return 2 ** k
+    if model == "quadratic":
+        return 1 + k + k * (k - 1) // 2 + (k if n_squares is None else n_squares)
+    raise ValueError(model)
+
+
+def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
+                n_settings: Sequence[int] | None = None,
+                response: str = "response") -> tuple[list[Term], list[str]]:
+    """The terms of a named model or an explicit list, intercept first.
+
+    Parameters
+    ----------
+    spec : one of MODEL_NAMES, or a list of term labels.
+    factor_names : the study's factors, in study order.
+    n_settings : number of distinct coded settings of each factor in the runs.
+        ``quadratic`` squares only factors with three or more settings; an
+        explicit square of a factor with two settings is refused.
+    response : the response's name, for messages.
+
+    Returns
+    -------
+    terms, notes : the terms (intercept first, then by order) and remarks for the user.
+    """
+    key_spec = spec if isinstance(spec, str) else tuple(spec) if not isinstance(
+        spec, (bytes, dict)) else spec
+    try:
+        terms, notes = _model_terms_cached(
+            key_spec, tuple(factor_names),
+            None if n_settings is None else tuple(int(v) for v in n_settings), response)
+    except TypeError:  # unhashable: let the uncached path explain what is wrong
+        terms, notes = _model_terms(spec, factor_names, n_settings, response)
+    return list(terms), list(notes)
+
+
+@functools.lru_cache(maxsize=256)
+def _model_terms_cached(spec, factor_names, n_settings, response):
+    terms, notes = _model_terms(spec, factor_names, n_settings, response)
+    return tuple(terms), tuple(notes)
+
+
+def _model_terms(spec, factor_names, n_settings, response):
+    names = list(factor_names)
+    k = len(names)
+    notes: list[str] = []
+    zero = [0] * k
+    if isinstance(spec, str):
+        if spec not in MODEL_NAMES:
+            close = difflib.get_close_matches(spec, MODEL_NAMES, n=1, cutoff=0.6)
+            hint = f" (did you mean '{close[0]}'?)" if close else ""
+            raise ModelError(f"response '{response}': model '{spec}' is not one I know"
+                             f"{hint}: use one of {', '.join(MODEL_NAMES)} or a list "
+                             "of terms")
+        top = {"main": 1, "interactions": 2, "full": k, "quadratic": 2}[spec]
+        terms = [_term(zero, names)]
+        for order in range(1, top + 1):
+            for combo in itertools.combinations(range(k), order):
+                powers = list(zero)
+                for j in combo:
+                    powers[j] = 1
+                terms.append(_term(powers, names))
+        if spec == "quadratic":
+            skipped = []
+            for j in range(k):
+                if n_settings is not None and n_settings[j] < 3:
+                    skipped.append(names[j])
+                    continue
+                powers = list(zero)
+                powers[j] = 2
+                terms.append(_term(powers, names))
+            if skipped:
+                notes.append(f"no square term for {', '.join(skipped)}: "
+                             f"{'it has' if len(skipped) == 1 else 'they have'} only two "
+                             "settings in the runs")
+        return terms, notes
+
+    if isinstance(spec, (bytes, dict)) or not all(isinstance(t, str) for t in spec):
+        raise ModelError(f"response '{response}': terms must be a list of names such as "
+                         "[\"protein\", \"glycerol\", \"protein:glycerol\"]")
+    parsed = [_term(zero, names)]
+    seen = {parsed[0].powers: "intercept"}
+    for text in spec:
+        term = parse_term(text, names, response=response)
+        if term.powers in seen:
+            if term.is_intercept:
+                continue  # the intercept is always in the model
+            raise ModelError(f"response '{response}': term '{text}' is listed twice "
+                             f"(as '{seen[term.powers]}'): remove one")
+        seen[term.powers] = text
+        if term.is_square and n_settings is not None and n_settings[term.factors[0]] < 3:
+            raise ModelError(f"response '{response}': term '{term.label}': factor "
+                             f"'{names[term.factors[0]]}' has only two settings in the "
+                             "runs, so its square cannot be estimated: remove the term "
+                             "or add runs at a third setting (centre or axial points)")
+        parsed.append(term)
+    parsed.sort(key=lambda t: t.order)  # stable: main effects before interactions
+    present = {t.powers for t in parsed}
+    missing = sorted({term_label(p, names) for t in parsed for p in _parents(t.powers)
+                      if p not in present and any(p)})
+    if missing:
+        notes.append("the model is not hierarchical (missing "
+                     f"{', '.join(missing)}): coefficients then depend on how the "
+                     "factors are coded")
+    return parsed, notes
+
+
+def _parents(powers: Sequence[int]) -> list[tuple[int, ...]]:
+    out = []
+    for j, p in enumerate(powers):
+        if p:
+            q = list(powers)
+            q[j] -= 1
+            out.append(tuple(q))
+    return out
+
+
+def hierarchy_closure(terms: Sequence[Term], within: Sequence[Term]) -> set[str]:
+    """Labels of ``terms`` and every lower-order term of ``within`` they contain."""
+    labels = {t.label for t in terms}
+    for t in terms:
+        for other in within:
+            if t.contains(other):
+                labels.add(other.label)
+    return labels
+
+
+def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
+    """The (n, p) model matrix of coded settings ``X`` (n, k) for ``terms``."""
+    X = np.asarray(X, dtype=float)
+    if X.ndim == 1:
+        X = X.reshape(1, -1)
+    X = np.asfortranarray(X)  # contiguous columns: the products below read columns
+    n = X.shape[0]
+    out = np.empty((n, len(terms)), order="F")  # columns contiguous, as LAPACK wants
+    cache: dict[tuple[int, ...], np.ndarray] = {}
+    for i, t in enumerate(terms):
+        f = t.factors
+        if not f:
+            out[:, i] = 1.0
+        elif t.is_square:
+            col = X[:, f[0]]
+            np.multiply(col, col, out=out[:, i])
+        elif len(f) == 1:
+            out[:, i] = X[:, f[0]]
+        else:
+            # Reuse the product of the first factors when an earlier term had it.
+            head = X[:, f[0]] if len(f) == 2 else cache.get(f[:-1])
+            if head is None:
+                head = X[:, f[0]] * X[:, f[1]]
+                for j in f[2:-1]:
+                    head = head * X[:, j]
+            np.multiply(head, X[:, f[-1]], out=out[:, i])
+            cache[f] = out[:, i]
+    return out
+
+
+def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Economic QR of a model matrix (Q is n x p, R is p x p upper triangular)."""
+    return _scipy_qr(np.asfortranarray(M), mode="economic", check_finite=False)
+
+
+class QRFactors:
+    """Householder QR of an (n, p) model matrix, n >= p, kept in LAPACK's raw form.
+
+    Q is never formed unless asked for (``Q``): products with Q' and Q are
+    applied from the Householder reflectors (LAPACK dormqr), which costs a
+    fraction of forming Q and is as accurate.
+
+    Attributes
+    ----------
+    R : (p, p) upper triangular factor.
+    """
+
+    __slots__ = ("_a", "_tau", "R", "_Q")
+
+    def __init__(self, M: np.ndarray):
+        n, p = M.shape
+        a = np.array(M, dtype=float, order="F")  # geqrf overwrites its input
+        # lwork 64 p: room for LAPACK's blocked algorithm (block size <= 64)
+        a, tau, _, info = _lapack.dgeqrf(a, lwork=max(1, 64 * p), overwrite_a=1)
+        if info != 0:  # pragma: no cover - LAPACK argument error
+            raise ValueError(f"QR factorization failed (LAPACK info {info})")
+        self._a, self._tau = a, tau
+        self.R = np.triu(a[:p])
+        self._Q = None
+
+    def qt(self, z: np.ndarray) -> np.ndarray:
+        """Q_full' z for a vector z of length n (all n rotated coordinates)."""
+        return self._apply("T", z)
+
+    def q(self, w: np.ndarray) -> np.ndarray:
+        """Q_full w for a vector w of length n."""
+        return self._apply("N", w)
+
+    def _apply(self, trans: str, v: np.ndarray) -> np.ndarray:
+        c = np.array(v, dtype=float, order="F").reshape(-1, 1, order="F")
+        # lwork 1: the unblocked algorithm, several times faster for one column
+        out, _, info = _lapack.dormqr("L", trans, self._a, self._tau, c, lwork=1,
+                                      overwrite_c=1)
+        if info != 0:  # pragma: no cover - LAPACK argument error
+            raise ValueError(f"applying Q failed (LAPACK info {info})")
+        return out[:, 0]
+
+    @property
+    def Q(self) -> np.ndarray:
+        """The (n, p) orthonormal factor, formed on first use."""
+        if self._Q is None:
+            p = self.R.shape[0]
+            Q, _, info = _lapack.dorgqr(self._a, self._tau, lwork=max(1, 64 * p))
+            if info != 0:  # pragma: no cover - LAPACK argument error
+                raise ValueError(f"forming Q failed (LAPACK info {info})")
+            self._Q = Q
+        return self._Q
+
+
+def find_aliases(M: np.ndarray, terms: Sequence[Term], *, return_qr: bool = False):
+    """Which columns of the model matrix the runs can estimate.
+
+    Columns are taken in order; a column that is a linear combination of the
+    columns kept before it is dropped (the first term of each alias chain is
+    kept) and reported with the kept terms it is combined from.
+
+    Returns
+    -------
+    keep : boolean mask over the columns.
+    aliases : dropped label -> kept labels it is aliased with.
+    qr : only with ``return_qr``: the QRFactors of M when every column is
+        kept (so a fit need not factor M again), else None.
+    """
+    n, p = M.shape
+    norms = np.sqrt(np.einsum("ij,ij->j", M, M))  # column lengths
+    keep = np.zeros(p, dtype=bool)
+    if p <= n:
+        fac = QRFactors(M)
+        diag = np.abs(np.diag(fac.R))
+        if np.all(diag > _ALIAS_TOL * np.maximum(norms, 1e-300)) and np.all(norms > 0):
+            keep[:] = True
+            return (keep, {}, fac) if return_qr else (keep, {})
+    # Sequential Gram-Schmidt (twice, for stability) over the columns in order:
+    # exact, and it never lets a dropped column's rounding noise take a dimension.
+    basis = np.empty((n, min(n, p)))
+    rank = 0
+    for j in range(p):
+        v = M[:, j].copy()
+        if norms[j] == 0 or rank == n:
+            continue
+        for _ in range(2):
+            if rank:
+                B = basis[:, :rank]
+                v -= B @ (B.T @ v)
+        r = np.linalg.norm(v)
+        if r > _ALIAS_TOL * norms[j]:
+            basis[:, rank] = v / r
+            rank += 1
+            keep[j] = True
+    aliases: dict[str, list[str]] = {}
+    kept_idx = np.flatnonzero(keep)
+    Mk = M[:, kept_idx]
+    for j in np.flatnonzero(~keep):
+        if norms[j] == 0:
+            aliases[terms[j].label] = []
+            continue
+        b = np.linalg.lstsq(Mk, M[:, j], rcond=None)[0]
+        big = np.abs(b) > 1e-6 * max(1.0, np.abs(b).max())
+        aliases[terms[j].label] = [terms[kept_idx[i]].label for i in np.flatnonzero(big)]
+    return (keep, aliases, None) if return_qr else (keep, aliases)

@@ -1,0 +1,391 @@
+"""Tables behind the workbench's pictures: runs with marks, desirability
+curves, interaction means, contour grids of predictions and D, chances.
+
+Every function returns a tidy DataFrame with fixed, documented columns, so a
+front end (or a report) only draws them. Grids are evaluated in one batch:
+an (n*n, k) array of coded settings in, one prediction per row out.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from ..study.coding import code_values, to_coded
+from ..search.desirability import desirability, limits
+from ..errors import StudyError
+
+__all__ = ["OUTSIDE_TOL", "runs_table", "desirability_curves", "interaction_means",
+           "effect_table", "effect_lines", "half_normal_table", "residual_table",
+           "contour_grid", "WhatIf", "what_if"]
+
+# A run counts as outside the tested box when a coded setting passes +-1 by more
+# than this (settings typed with a few decimals land a hair outside).
+OUTSIDE_TOL = 1e-6
+
+
+def runs_table(study, fit=None, *, unusual: float = 3.0) -> pd.DataFrame:
+    """The runs with natural and coded settings and a plain-words mark per run.
+
+    Parameters
+    ----------
+    study : Study
+        With runs loaded.
+    fit : StudyFit, optional
+        When given, runs whose externally studentized residual for a response
+        exceeds ``unusual`` in size are marked (3 is a common practice cut-off).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Indexed by spreadsheet row. Columns: ``run``; one column per factor
+        (natural settings); ``<factor> coded`` per factor; one per response;
+        ``outside`` (True when any coded setting lies beyond -1..+1);
+        ``marks`` (text: outside the tested box, blank responses, unusual
+        results; empty when nothing to say).
+    """
+    runs = study.runs
+    if runs is None:
+        raise StudyError(f"study '{study.name}' has no runs loaded yet")
+    coded = to_coded(study.factors, runs)
+    out = pd.DataFrame({"run": runs["run"].to_numpy()}, index=runs.index)
+    for j, f in enumerate(study.factors):
+        out[f.name] = runs[f.name].to_numpy()
+    for j, f in enumerate(study.factors):
+        out[f"{f.name} coded"] = coded[:, j]
+    for r in study.responses:
+        if r.name in runs:
+            out[r.name] = runs[r.name].to_numpy(float)
+    beyond = np.abs(coded) > 1 + OUTSIDE_TOL
+    out["outside"] = beyond.any(axis=1)
+    marks: list[list[str]] = [[] for _ in range(len(out))]
+    for j, f in enumerate(study.factors):
+        for i in np.flatnonzero(beyond[:, j]):
+            marks[i].append(f"outside the tested box in {f.name} "
+                            f"(coded {coded[i, j]:+.2f})")
+    for r in study.responses:
+        if r.name in runs:
+            for i in np.flatnonzero(np.isnan(runs[r.name].to_numpy(float))):
+                marks[i].append(f"{r.name} blank")
+    if fit is not None:
+        run_ids = {run: i for i, run in enumerate(out["run"])}
+        for name, model in fit.models.items():
+            t = _studentized(model)
+            if t is None:
+                continue
+            for key, value in t.items():
+                i = run_ids.get(str(key))
+                if i is not None and np.isfinite(value) and abs(value) > unusual:
+                    marks[i].append(f"unusual {name} (studentized residual {value:+.1f})")
+    out["marks"] = ["; ".join(m) for m in marks]
+    return out
+
+
+def _studentized(model) -> pd.Series | None:
+    """A model's deleted studentized residuals keyed by run id (None when absent)."""
+    diag = getattr(model, "diagnostics_", None)
+    if diag is None or "studentized_deleted" not in diag:
+        return None
+    return diag["studentized_deleted"]
+
+
+def desirability_curves(study, *, n: int = 201, margin: float = 0.25) -> pd.DataFrame:
+    """Each active goal's desirability over its limits and a margin either side.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``name`` (response or factor), ``value`` (natural units) and
+        ``desirability`` (0..1), ``n`` rows per active goal, values from
+        ``lower - margin*(upper - lower)`` to ``upper + margin*(upper - lower)``.
+    """
+    frames = []
+    for item in (*study.responses, *study.factors):
+        goal = item.goal
+        if not goal.active:
+            continue
+        width = goal.upper - goal.lower
+        values = np.linspace(goal.lower - margin * width, goal.upper + margin * width, n)
+        # Make the kinks (limits and target) exact points of the curve.
+        kinks = [goal.lower, goal.upper] + ([goal.target] if goal.kind == "target" else [])
+        values = np.unique(np.concatenate([values, kinks]))
+        frames.append(pd.DataFrame({"name": item.name, "value": values,
+                                    "desirability": desirability(values, goal)}))
+    if not frames:
+        return pd.DataFrame(columns=["name", "value", "desirability"])
+    return pd.concat(frames, ignore_index=True)
+
+
+def interaction_means(study, response: str, a: str, b: str) -> pd.DataFrame:
+    """Mean of a response at each low/high combination of two factors (measured runs).
+
+    Runs at the centre of either factor (coded 0) are left out; runs outside
+    -1..+1 are counted at the nearer end. Blank results are skipped.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Four rows (fewer when a combination was not run). Columns ``a_level``
+        and ``b_level`` (natural setting or level name at the low/high end),
+        ``a_coded`` and ``b_coded`` (-1 or +1), ``mean`` and ``runs``.
+    """
+    if a == b:
+        raise StudyError(f"an interaction plot needs two different factors, found "
+                         f"'{a}' twice: choose another factor")
+    fa, fb = study.factor(a), study.factor(b)
+    runs = study.runs
+    y = runs[study.response(response).name].to_numpy(float)
+    ca = code_values(fa, runs[a].to_numpy())
+    cb = code_values(fb, runs[b].to_numpy())
+    keep = (np.abs(ca) > 1e-9) & (np.abs(cb) > 1e-9) & ~np.isnan(y)
+    sa, sb = np.sign(ca[keep]), np.sign(cb[keep])
+    frame = pd.DataFrame({"a_coded": sa, "b_coded": sb, "y": y[keep]})
+    cells = frame.groupby(["a_coded", "b_coded"])["y"].agg(["mean", "size"]).reset_index()
+    cells = cells.rename(columns={"size": "runs"})
+
+    def end(factor, coded):
+        return factor.levels[0 if coded < 0 else 1] if factor.is_categorical else \
+            (factor.low if coded < 0 else factor.high)
+
+    cells.insert(0, "a_level", [end(fa, c) for c in cells["a_coded"]])
+    cells.insert(1, "b_level", [end(fb, c) for c in cells["b_coded"]])
+    return cells[["a_level", "b_level", "a_coded", "b_coded", "mean", "runs"]]
+
+
+def effect_table(model) -> pd.DataFrame:
+    """A fitted model's effects (change from coded -1 to +1, twice the coefficient).
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per main effect or interaction (not the intercept nor
+        squares), largest size first. Columns ``term``, ``effect``,
+        ``std_error`` (of the effect; NaN without residual degrees of freedom)
+        and ``p_value`` (NaN likewise).
+    """
+    labels = list(model.terms_)
+    effects = np.asarray(model.effects_, dtype=float)
+    se = (np.full(len(labels), np.nan) if model.std_errors_ is None or
+          model.residual_df_ == 0 else 2 * np.asarray(model.std_errors_, dtype=float))
+    p = (np.full(len(labels), np.nan) if model.p_values_ is None or
+         model.residual_df_ == 0 else np.asarray(model.p_values_, dtype=float))
+    keep = ~np.isnan(effects)
+    table = pd.DataFrame({"term": np.array(labels, dtype=object)[keep],
+                          "effect": effects[keep], "std_error": se[keep],
+                          "p_value": p[keep]})
+    order = np.argsort(-np.abs(table["effect"].to_numpy()), kind="stable")
+    return table.iloc[order].reset_index(drop=True)
+
+
+def effect_lines(model, *, level: float | None = None) -> pd.DataFrame:
+    """Reference sizes for the effects chart: beyond a line, an effect is likely real.
+
+    With residual degrees of freedom: ``t(1 - alpha/2, df) * se(effect)``,
+    the size at which an effect's two-sided t-test reaches the chosen level
+    (se is the largest effect standard error, so the line is never
+    optimistic). Without them: Lenth's (1989) ME and SME.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``label`` and ``value``; empty when no error estimate exists.
+    """
+    from scipy import stats
+
+    level = model.confidence if level is None else level
+    if model.residual_df_ > 0 and model.std_errors_ is not None:
+        table = effect_table(model)
+        se = float(np.nanmax(table["std_error"])) if len(table) else np.nan
+        if np.isfinite(se) and se > 0:
+            value = float(stats.t.ppf(0.5 + level / 2, model.residual_df_) * se)
+            return pd.DataFrame({"label": [f"t limit {level:.0%}"], "value": [value]})
+        return pd.DataFrame({"label": [], "value": []})
+    if model.lenth_ is not None and np.isfinite(model.lenth_.me):
+        return pd.DataFrame({"label": ["ME (Lenth)", "SME (Lenth)"],
+                             "value": [model.lenth_.me, model.lenth_.sme]})
+    return pd.DataFrame({"label": [], "value": []})
+
+
+def half_normal_table(model) -> pd.DataFrame:
+    """Half-normal plot coordinates of a model's effects (see ``tradeoff.lenth``).
+
+    Columns ``term``, ``effect``, ``abs_effect``, ``quantile``.
+    """
+    from ..model.lenth import half_normal_points
+
+    table = effect_table(model)
+    return half_normal_points(list(table["term"]), table["effect"].to_numpy())
+
+
+def residual_table(model) -> pd.DataFrame:
+    """Per-run residuals of a model with normal quantiles for a quantile plot.
+
+    Columns ``run``, ``order`` (position in the data file), ``observed``,
+    ``fitted``, ``residual`` (modelling scale), ``studentized``,
+    ``studentized_deleted``, ``leverage``, ``cooks_distance``, ``flagged``
+    and ``quantile``: the standard normal quantile of the studentized
+    residual's rank, ``Phi^-1((i - 0.5) / n)`` (common practice).
+    """
+    from scipy import stats
+
+    diag = model.diagnostics_.reset_index()
+    diag.insert(1, "order", np.arange(1, len(diag) + 1))
+    values = diag["studentized"].to_numpy(float)
+    if np.isnan(values).all():
+        values = diag["residual"].to_numpy(float)
+    ranks = pd.Series(values).rank(method="first").to_numpy()
+    diag["quantile"] = stats.norm.ppf((ranks - 0.5) / len(diag))
+    diag["studentized"] = values
+    return diag
+
+
+def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.DataFrame:
+    """Predictions of every modelled response and D over a grid of two factors.
+
+    Parameters
+    ----------
+    study : Study
+    fit : StudyFit
+        The fitted models (``fit.models``: response name -> model whose
+        ``predict`` takes coded (n, k) settings and returns natural units).
+    x, y : str
+        Two different numeric factors, spanned over their searched ranges.
+    held : dict
+        Natural settings of the other factors (level names for categorical
+        ones), typically a chosen solution's settings.
+    n : int
+        Grid points per axis (n * n points, evaluated in one batch).
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``n * n`` rows. Columns ``x`` and ``y`` (natural settings), one column
+        per modelled response (predicted mean, natural units), ``D`` (overall
+        desirability; NaN when no goal is set), ``within_limits`` (every
+        response with a goal predicted within its limits, and every factor
+        goal met), ``allowed`` (the study's rules among factors hold) and
+        ``feasible`` (both).
+    """
+    from ..study.constraints import rules_satisfied
+    from ..search.search import goal_columns, overall_desirability
+
+    if x == y:
+        raise StudyError(f"a map needs two different factors, found '{x}' twice: "
+                         "choose another factor")
+    fx, fy = study.factor(x), study.factor(y)
+    for f in (fx, fy):
+        if f.is_categorical:
+            raise StudyError(f"factor '{f.name}' is categorical: a map needs numeric "
+                             "factors on its axes; hold it at a level instead")
+    if n < 2:
+        raise StudyError(f"a map needs at least 2 points per axis, found {n}")
+    xs = np.linspace(*fx.search_range, n)
+    ys = np.linspace(*fy.search_range, n)
+    gx, gy = np.meshgrid(xs, ys, indexing="xy")
+    natural = {}
+    for f in study.factors:
+        if f.name == x:
+            natural[f.name] = gx.ravel()
+        elif f.name == y:
+            natural[f.name] = gy.ravel()
+        else:
+            if f.name not in held:
+                raise StudyError(f"no setting given for factor '{f.name}': the map "
+                                 "holds every other factor at a setting")
+            natural[f.name] = np.repeat(np.array([held[f.name]], dtype=object
+                                                 if f.is_categorical else float), n * n)
+    X = to_coded(study.factors, pd.DataFrame(natural))
+    out = pd.DataFrame({"x": gx.ravel(), "y": gy.ravel()})
+    models = dict(fit.models)
+    within = np.ones(n * n, dtype=bool)
+    for r in study.responses:
+        if r.name not in models:
+            continue
+        pred = np.asarray(models[r.name].predict(X), dtype=float).reshape(n * n)
+        out[r.name] = pred
+        if r.goal.active:
+            lo, hi = limits(r.goal)
+            within &= (pred >= lo) & (pred <= hi)
+    for j, f in enumerate(study.factors):
+        if not f.is_categorical and f.goal.active:
+            lo, hi = limits(f.goal)
+            value = np.asarray(natural[f.name], dtype=float)
+            within &= (value >= lo) & (value <= hi)
+    out["D"] = overall_desirability(study, fit, X)[0] if goal_columns(study, fit) else np.nan
+    out["within_limits"] = within
+    out["allowed"] = rules_satisfied(study, X)
+    out["feasible"] = out["within_limits"] & out["allowed"]
+    return out
+
+
+@dataclass(frozen=True)
+class WhatIf:
+    """Predictions at settings typed by hand.
+
+    Attributes
+    ----------
+    table : pandas.DataFrame
+        One row per modelled response. Columns ``response``, ``predicted``,
+        ``ci_low``, ``ci_high``, ``pi_low``, ``pi_high`` (intervals at the
+        study's confidence level), ``lower_limit``, ``upper_limit`` (the goal's
+        acceptable interval; NaN when unbounded or no goal), ``desirability``
+        (NaN when no goal) and ``chance_in_limits`` (NaN when no goal).
+    desirability : float
+        Overall desirability D (NaN when no goal is set).
+    chance_all : float
+        Chance that every response with a goal lands within its limits at once.
+    outside : tuple of str
+        Factors set outside their tested range (the model is extrapolating).
+    allowed : bool
+        The study's rules among factors hold.
+    """
+
+    table: pd.DataFrame
+    desirability: float
+    chance_all: float
+    outside: tuple
+    allowed: bool
+
+
+def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
+    """Predictions, intervals, desirability and chances at one hand-set point.
+
+    ``settings`` holds a natural value (level name for a categorical factor)
+    for every factor. Chances use the seeded Monte Carlo of
+    ``tradeoff.chance.chance_in_limits`` with the study's seed.
+    """
+    from ..search.chance import chance_in_limits
+    from ..study.constraints import rules_satisfied
+    from ..search.search import goal_columns, overall_desirability
+
+    missing = [f.name for f in study.factors if f.name not in settings]
+    if missing:
+        raise StudyError(f"no setting given for factor(s) {missing}: set every factor")
+    X = to_coded(study.factors, pd.DataFrame({k: [settings[k]] for k in study.factor_names}))
+    pred = fit.predict({k: settings[k] for k in study.factor_names})
+    table = pred.drop(columns=["point"], errors="ignore").reset_index(drop=True)
+    columns = goal_columns(study, fit)
+    d_by_name = {}
+    D = np.nan
+    if columns:
+        D_arr, d = overall_desirability(study, fit, X)
+        D = float(D_arr[0])
+        d_by_name = {name: float(d[0, i]) for i, (_, name) in enumerate(columns)}
+    chance = chance_in_limits(study, dict(fit.models), X, draws=draws, seed=study.seed)
+    chance_by_name = {name: float(chance.each[0, i])
+                      for i, name in enumerate(chance.responses)}
+    lows, highs = [], []
+    for name in table["response"]:
+        goal = study.response(name).goal
+        lo, hi = limits(goal) if goal.active else (np.nan, np.nan)
+        lows.append(lo if np.isfinite(lo) else np.nan)
+        highs.append(hi if np.isfinite(hi) else np.nan)
+    table["lower_limit"], table["upper_limit"] = lows, highs
+    table["desirability"] = [d_by_name.get(n, np.nan) for n in table["response"]]
+    table["chance_in_limits"] = [chance_by_name.get(n, np.nan) for n in table["response"]]
+    outside = tuple(f.name for j, f in enumerate(study.factors)
+                    if abs(X[0, j]) > 1 + OUTSIDE_TOL)
+    return WhatIf(table=table, desirability=D,
+                  chance_all=float(chance.all[0]) if chance.responses else np.nan,
+                  outside=outside, allowed=bool(rules_satisfied(study, X)[0]))

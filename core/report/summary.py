@@ -1,0 +1,108 @@
+"""The study summary printed by ``tradeoff check``: runs, factors, responses, notes."""
+from __future__ import annotations
+
+import numpy as np
+
+from ..study.spec import Study
+
+__all__ = ["study_summary", "summary_text", "model_label"]
+
+
+def study_summary(study: Study) -> dict:
+    """A JSON-ready summary of a loaded study."""
+    runs = study.runs
+    factors = []
+    for f in study.factors:
+        if f.is_categorical:
+            counts = runs[f.name].value_counts()
+            factors.append({"name": f.name, "label": f.label, "kind": "categorical",
+                            "levels": {lv: int(counts.get(lv, 0)) for lv in f.levels},
+                            "coded": {f.levels[0]: -1, f.levels[1]: 1}})
+        else:
+            values = runs[f.name].to_numpy(float)
+            coded = (values - f.centre) / f.half_range
+            factors.append({
+                "name": f.name, "label": f.label, "unit": f.unit, "kind": "numeric",
+                "low": f.low, "high": f.high,
+                "tested": [float(values.min()), float(values.max())],
+                "coded_tested": [round(float(coded.min()), 4),
+                                 round(float(coded.max()), 4)],
+                "distinct_settings": int(len(np.unique(values))),
+                "search": list(f.search_range),
+            })
+    responses = []
+    for r in study.responses:
+        values = runs[r.name].to_numpy(float)
+        present = values[~np.isnan(values)]
+        entry = {"name": r.name, "label": r.label, "unit": r.unit,
+                 "measured": int(len(present)), "blank": int(np.isnan(values).sum()),
+                 "goal": r.goal.kind, "model": model_label(study.model_for(r))}
+        if len(present):
+            entry["min"], entry["max"] = float(present.min()), float(present.max())
+        if r.is_derived:
+            from ..derive.derived import describe_derivation  # late: derived reads Study
+
+            entry["derived"] = {k: v for k, v in r.extra.items()}
+            entry["derived_how"] = describe_derivation(study, r)
+        responses.append(entry)
+    return {"study": study.name,
+            "source": str(study.source) if study.source else None,
+            "data": str(study.data_path) if study.data_path else None,
+            "runs": int(len(runs)), "factors": factors, "responses": responses,
+            "blocks": _blocks(study),
+            "constraints": [c["rule"] for c in study.constraints],
+            "warnings": list(study.notes)}
+
+
+def _blocks(study) -> dict | None:
+    """The runs per block when the runs fall in two or more blocks (models add block terms)."""
+    labels = study.block_labels()
+    if labels is None:
+        return None
+    from ..model.terms import block_terms
+
+    levels = block_terms(labels, 0)[2]
+    return {"column": study.block_column,
+            "runs": {lev: int((labels == lev).sum()) for lev in levels}}
+
+
+def model_label(model) -> str:
+    """A model as text: its name, or ``terms: a, b, a:b`` for a list of terms."""
+    return model if isinstance(model, str) else "terms: " + ", ".join(model)
+
+
+def summary_text(summary: dict) -> str:
+    """The summary as readable text for the terminal."""
+    lines = [f"Study: {summary['study']}", f"Data:  {summary['data']}",
+             f"Runs:  {summary['runs']}", "", "Factors"]
+    for f in summary["factors"]:
+        if f["kind"] == "categorical":
+            levels = ", ".join(f"{lv} (coded {f['coded'][lv]:+d}, {n} runs)"
+                               for lv, n in f["levels"].items())
+            lines.append(f"  {f['name']:<20} categorical: {levels}")
+        else:
+            unit = f" {f['unit']}" if f["unit"] else ""
+            lines.append(
+                f"  {f['name']:<20} low {f['low']:g} .. high {f['high']:g}{unit} "
+                f"(coded -1 .. +1); tested {f['tested'][0]:g} .. {f['tested'][1]:g} "
+                f"(coded {f['coded_tested'][0]:+.3g} .. {f['coded_tested'][1]:+.3g}), "
+                f"{f['distinct_settings']} settings")
+    b = summary.get("blocks")
+    if b:
+        counts = ", ".join(f"{lev}: {n} runs" for lev, n in b["runs"].items())
+        lines += ["", f"Blocks (column '{b['column']}'): {counts}; every model gets a "
+                  "block term for each block after the first"]
+    lines += ["", "Responses"]
+    for r in summary["responses"]:
+        unit = f" {r['unit']}" if r["unit"] else ""
+        span = (f", {r['min']:g} .. {r['max']:g}{unit}" if "min" in r else "")
+        lines.append(f"  {r['name']:<20} {r['measured']} measured, {r['blank']} blank"
+                     f"{span}; goal {r['goal']}; model {r['model']}")
+        if "derived" in r:
+            lines.append(f"  {'':<20} derived: " + r.get("derived_how", ", ".join(
+                f"{k} = {v}" for k, v in r["derived"].items())))
+    if summary["constraints"]:
+        lines += ["", "Constraints"] + [f"  {c}" for c in summary["constraints"]]
+    lines += ["", "Warnings" if summary["warnings"] else "Warnings: none"]
+    lines += [f"  - {w}" for w in summary["warnings"]]
+    return "\n".join(lines)

@@ -1,0 +1,317 @@
+"""Reading a study file: its text, its sections and keys, checked once.
+
+Every message names the file and the table (``[[factors]]`` number 2, ...) and
+says how to fix it.
+"""
+from __future__ import annotations
+
+import math
+import tomllib
+import unicodedata
+from pathlib import Path
+
+
+from ..errors import StudyError, did_you_mean
+from .constraints import check_rules
+from .spec import (GOALS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS, Factor, Goal,
+                   Response, Study, _GOAL_KEYS)
+
+__all__ = ["read_study_bytes", "parse_study_text", "build_study", "check_keys"]
+
+def read_study_bytes(path: str | Path) -> bytes:
+    """The bytes of a study file, with one-line errors for a missing, huge or unreadable file."""
+    path = Path(path)
+    if not path.exists():
+        raise StudyError(f"{path}: study file not found: check the name and folder")
+    if not path.is_file():
+        raise StudyError(f"{path}: that is a folder, not a study file: name the .toml "
+                         "file itself")
+    if path.stat().st_size > MAX_STUDY_BYTES:
+        raise StudyError(f"{path.name}: the file is larger than "
+                         f"{MAX_STUDY_BYTES // 2**20} MB, far more than a study file "
+                         "holds: is it the right file?")
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise StudyError(f"{path}: cannot read the study file ({exc.strerror or exc}): "
+                         "is it yours to read?") from None
+    return data
+
+
+def parse_study_text(data: bytes, name: str) -> dict:
+    """A study file's bytes -> its TOML document, with one-line errors naming ``name``."""
+    try:
+        return tomllib.loads(data.decode("utf-8-sig"))
+    except UnicodeDecodeError:
+        raise StudyError(f"{name}: the study file is not UTF-8 text: save it "
+                         "as UTF-8 in a text editor") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(f"{name}: not a valid study file ({exc}): check quotes, "
+                         "brackets and '=' signs on that line") from None
+
+
+def build_study(spec: dict, *, source: str | Path | None = None,
+                uploads: dict[str, bytes] | None = None) -> Study:
+    """A checked study from a parsed study file, without its runs.
+
+    ``source`` names the study file; a relative ``data`` path is taken from its
+    folder. ``uploads`` (file name -> content) may carry every table the study
+    names. Confirmation tables, derived responses and the runs are added by
+    ``tradeoff.load_study`` (derive/load.py).
+    """
+    source = Path(source) if source is not None else None
+    fname = source.name if source is not None else "study"
+    check_keys(spec, SECTION_KEYS["top"], fname, "the top level")
+    head = spec.get("study", {})
+    if not isinstance(head, dict):
+        raise StudyError(f"{fname}: [study] must be a table of keys")
+    check_keys(head, SECTION_KEYS["study"], fname, "[study]")
+
+    factors = tuple(_factor(f, fname, i) for i, f in
+                    enumerate(_list_of_tables(spec, "factors", fname), start=1))
+    if not factors:
+        raise StudyError(f"{fname}: no factors: add at least one [[factors]] table "
+                         "with a name and low/high or levels")
+    responses = tuple(_response(r, fname, i) for i, r in
+                      enumerate(_list_of_tables(spec, "responses", fname), start=1))
+    _check_unique([f.name for f in factors] + [r.name for r in responses], fname)
+
+    model = head.get("model", "interactions")
+    if model not in MODELS:
+        raise StudyError(f"{fname}: [study] model = '{model}' is not a model I know: "
+                         f"use one of {', '.join(MODELS)}{did_you_mean(model, MODELS)}")
+    terms = head.get("terms")
+    if terms is not None:
+        terms = _string_list(terms, fname, "[study] terms")
+    constraints = tuple(_constraint(c, fname, i) for i, c in
+                        enumerate(_list_of_tables(spec, "constraints", fname), start=1))
+    check_rules(factors, constraints, fname)
+    confidence = _number(head.get("confidence", 0.95), fname, "[study] confidence")
+    if not 0.5 <= confidence < 1:
+        raise StudyError(f"{fname}: [study] confidence = {confidence} must be a "
+                         "fraction such as 0.95")
+    seed = head.get("seed", 0)
+    if not isinstance(seed, int) or isinstance(seed, bool) or seed < 0:
+        raise StudyError(f"{fname}: [study] seed must be a whole number, 0 or more, "
+                         f"found {seed!r}")
+
+    data_path = None
+    if head.get("data") is not None:
+        if not isinstance(head["data"], str):
+            raise StudyError(f"{fname}: [study] data must be a file name in quotes")
+        data_path = Path(head["data"])
+        if source is not None and not data_path.is_absolute():
+            data_path = source.parent / data_path
+    sheet = head.get("sheet")
+    blocks = head.get("blocks")
+    if blocks is not None:
+        if not isinstance(blocks, str) or not blocks.strip():
+            raise StudyError(f"{fname}: [study] blocks must be the name of the data "
+                             "column that gives each run's block, in quotes, for "
+                             "example blocks = \"day\"")
+        blocks = unicodedata.normalize("NFC", blocks.strip())
+        if blocks in [f.name for f in factors] + [r.name for r in responses]:
+            raise StudyError(f"{fname}: [study] blocks = '{blocks}' is a factor or "
+                             "response of the study: name the column of days or "
+                             "batches instead")
+
+    study = Study(
+        name=str(head.get("name", source.stem if source else "study")),
+        factors=factors, responses=responses, model=model, terms=terms,
+        constraints=constraints, confidence=confidence, seed=seed, source=source,
+        data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
+        spec=spec, uploads=dict(uploads or {}), blocks=blocks,
+    )
+    return study
+
+
+def _goal(table: dict, fname: str, what: str) -> Goal:
+    kind = table.get("goal", "none")
+    if kind not in GOALS:
+        raise StudyError(f"{fname}: {what}: goal = '{kind}' is not a goal I know: use "
+                         f"one of {', '.join(GOALS)}{did_you_mean(str(kind), GOALS)}")
+    nums = {k: _number(table[k], fname, f"{what} {k}") if k in table else None
+            for k in ("lower", "upper", "target")}
+    shape = _positive(table.get("shape", 1.0), fname, f"{what} shape")
+    goal = Goal(kind=kind, lower=nums["lower"], upper=nums["upper"],
+                target=nums["target"], shape=shape,
+                shape_below=_positive(table.get("shape_below", shape), fname,
+                                      f"{what} shape_below"),
+                shape_above=_positive(table.get("shape_above", shape), fname,
+                                      f"{what} shape_above"),
+                weight=_positive(table.get("weight", 1.0), fname, f"{what} weight"))
+    if kind == "none":
+        return goal
+    for key in ("lower", "upper") + (("target",) if kind == "target" else ()):
+        if nums[key] is None:
+            raise StudyError(f"{fname}: {what}: goal = '{kind}' needs {key} = <number>")
+    if goal.lower >= goal.upper:
+        raise StudyError(f"{fname}: {what}: lower ({_fmt(goal.lower)}) is not below "
+                         f"upper ({_fmt(goal.upper)}): did you swap them?")
+    if kind == "target" and not goal.lower < goal.target < goal.upper:
+        raise StudyError(f"{fname}: {what}: target ({_fmt(goal.target)}) must lie "
+                         f"strictly between lower ({_fmt(goal.lower)}) and upper "
+                         f"({_fmt(goal.upper)})")
+    if kind != "target" and nums["target"] is not None:
+        raise StudyError(f"{fname}: {what}: target is only used with goal = 'target': "
+                         "remove it or change the goal")
+    return goal
+
+
+def _factor(table: dict, fname: str, index: int) -> Factor:
+    what = _what("factors", table, index)
+    check_keys(table, SECTION_KEYS["factors"], fname, what)
+    name = _name(table, fname, what)
+    label = str(table.get("label", name))
+    unit = str(table.get("unit", ""))
+    has_range = "low" in table or "high" in table
+    if "levels" in table:
+        if has_range:
+            raise StudyError(f"{fname}: {what}: give either low/high (numeric) or "
+                             "levels (categorical), not both")
+        levels = tuple(_string_list(table["levels"], fname, f"{what} levels"))
+        if len(levels) != 2 or levels[0] == levels[1]:
+            raise StudyError(f"{fname}: {what}: a categorical factor needs exactly two "
+                             f"different levels, found {list(levels)}")
+        if "search" in table:
+            raise StudyError(f"{fname}: {what}: search = [min, max] is for numeric "
+                             "factors; categorical factors are searched over their levels")
+        if table.get("goal", "none") != "none":
+            raise StudyError(f"{fname}: {what}: goals apply to numeric factors only")
+        return Factor(name=name, label=label, unit=unit, levels=levels)
+    for key in ("low", "high"):
+        if key not in table:
+            raise StudyError(f"{fname}: {what}: needs low = <number> and high = <number> "
+                             "(or levels = [\"a\", \"b\"] for a categorical factor)")
+    low = _number(table["low"], fname, f"{what} low")
+    high = _number(table["high"], fname, f"{what} high")
+    if low >= high:
+        raise StudyError(f"{fname}: {what}: low ({_fmt(low)}) is not below high "
+                         f"({_fmt(high)}): did you swap them?")
+    search = None
+    if "search" in table:
+        pair = table["search"]
+        if not isinstance(pair, list) or len(pair) != 2:
+            raise StudyError(f"{fname}: {what}: search must be [min, max] in natural units")
+        search = (_number(pair[0], fname, f"{what} search"),
+                  _number(pair[1], fname, f"{what} search"))
+        if search[0] >= search[1]:
+            raise StudyError(f"{fname}: {what}: search min ({_fmt(search[0])}) is not "
+                             f"below max ({_fmt(search[1])}): did you swap them?")
+    return Factor(name=name, label=label, unit=unit, low=low, high=high, search=search,
+                  goal=_goal(table, fname, what))
+
+
+def _response(table: dict, fname: str, index: int) -> Response:
+    what = _what("responses", table, index)
+    check_keys(table, SECTION_KEYS["responses"], fname, what)
+    name = _name(table, fname, what)
+    model = table.get("model")
+    if model is not None and model not in MODELS:
+        raise StudyError(f"{fname}: {what}: model = '{model}' is not a model I know: "
+                         f"use one of {', '.join(MODELS)}{did_you_mean(str(model), MODELS)}")
+    terms = table.get("terms")
+    if terms is not None:
+        terms = tuple(_string_list(terms, fname, f"{what} terms"))
+    transform = table.get("transform", "none")
+    if transform not in TRANSFORMS:
+        raise StudyError(f"{fname}: {what}: transform = '{transform}' is not one I know: "
+                         f"use one of {', '.join(TRANSFORMS)}")
+    # Keys that other modules registered (derived responses, for example).
+    extra = {k: v for k, v in table.items() if k not in _BASE_RESPONSE_KEYS}
+    return Response(name=name, label=str(table.get("label", name)),
+                    unit=str(table.get("unit", "")), goal=_goal(table, fname, what),
+                    model=model, terms=terms, transform=transform, extra=extra)
+
+
+_BASE_RESPONSE_KEYS = {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
+
+
+def _constraint(table: dict, fname: str, index: int) -> dict:
+    what = f"[[constraints]] number {index}"
+    check_keys(table, SECTION_KEYS["constraints"], fname, what)
+    if not isinstance(table.get("rule"), str) or not table["rule"].strip():
+        raise StudyError(f"{fname}: {what}: needs rule = \"...\", for example "
+                         "rule = \"protein + 2*glycerol <= 36\"")
+    return {"rule": table["rule"].strip(), "label": str(table.get("label", table["rule"]))}
+
+
+def _list_of_tables(spec: dict, key: str, fname: str) -> list[dict]:
+    value = spec.get(key, [])
+    if not isinstance(value, list) or not all(isinstance(t, dict) for t in value):
+        raise StudyError(f"{fname}: '{key}' must be written as [[{key}]] tables")
+    return value
+
+
+def check_keys(table: dict, allowed: set[str], fname: str, what: str) -> None:
+    """Refuse a key not in ``allowed``: one line naming the file, the place and the key."""
+    for key in table:
+        if key not in allowed:
+            raise StudyError(f"{fname}: {what}: unknown key '{key}'"
+                             f"{did_you_mean(key, sorted(allowed))}")
+
+
+def _check_unique(names: list[str], fname: str) -> None:
+    seen = set()
+    for name in names:
+        if name in seen:
+            raise StudyError(f"{fname}: the name '{name}' is used twice among factors "
+                             "and responses: each needs its own name")
+        seen.add(name)
+
+
+def _name(table: dict, fname: str, what: str) -> str:
+    name = table.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise StudyError(f"{fname}: {what}: needs name = \"<column name in the data>\"")
+    # NFC, as the data file's header: an accented name matches however it was typed
+    name = unicodedata.normalize("NFC", name)
+    if name != name.strip():
+        raise StudyError(f"{fname}: {what}: name '{name}' starts or ends with a space: "
+                         "remove it")
+    if any(ch in name for ch in ":^*+/<>=()"):
+        raise StudyError(f"{fname}: {what}: name '{name}' contains one of : ^ * + / < > "
+                         "= ( ), which are kept for model terms and rules: use letters, "
+                         "digits and _")
+    return name
+
+
+def _what(section: str, table: dict, index: int) -> str:
+    name = table.get("name")
+    return f"[[{section}]] '{name}'" if isinstance(name, str) else \
+        f"[[{section}]] number {index}"
+
+
+def _number(value, fname: str, what: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise StudyError(f"{fname}: {what} must be a number, found {value!r}")
+    if not math.isfinite(value):
+        raise StudyError(f"{fname}: {what} must be a finite number, found {value!r}")
+    return float(value)
+
+
+def _positive(value, fname: str, what: str) -> float:
+    value = _number(value, fname, what)
+    if value <= 0:
+        raise StudyError(f"{fname}: {what} must be above 0, found {_fmt(value)}")
+    return value
+
+
+def _string_list(value, fname: str, what: str) -> list[str]:
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise StudyError(f"{fname}: {what} must be a list of names in quotes, "
+                         "for example [\"a\", \"b\"]")
+    return [v.strip() for v in value]
+
+
+def _fmt(x: float) -> str:
+    return f"{x:g}"
+
+
+def _rows(rows: list[int]) -> str:
+    shown = ", ".join(str(r) for r in rows[:8])
+    return shown + (", ..." if len(rows) > 8 else "")
+
+
+# --------------------------------------------------------------------------
+# Writing a study back (downloads, saved targets)
