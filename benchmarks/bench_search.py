@@ -34,8 +34,9 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 from search_problems import dense_grid_optimum, random_problem  # noqa: E402
 from tradeoff import load_study, optimize  # noqa: E402
-from tradeoff.model.fit import fit_study  # noqa: E402
-from tradeoff.search.search import _Problem, _search  # noqa: E402
+from tradeoff.model.study_fit import fit_study
+from tradeoff.search.problem import _Problem
+from tradeoff.search.search import _search
 
 
 REPEAT = 3  # timings are the fastest of 3 runs: the machine is shared

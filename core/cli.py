@@ -180,7 +180,7 @@ def _run_check(args) -> int:
 
 def _run_fit(args) -> int:
     from .report.fit_text import fit_text
-    from .model.fit import fit_response, fit_study
+    from .model.study_fit import fit_response, fit_study
     from .derive.load import load_study
 
     study = load_study(args.study)
@@ -202,7 +202,7 @@ def _run_fit(args) -> int:
 
 
 def _run_report(args) -> int:
-    from .report.page import write_report
+    from .report.write import write_report
     from .derive.load import load_study
 
     study = load_study(args.study)

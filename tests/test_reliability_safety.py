@@ -25,7 +25,7 @@ from tradeoff.study.constraints import parse_rule
 from tradeoff.errors import PlanError, StudyError, TradeoffError
 from tradeoff.study.files import write_atomic
 from tradeoff.study.intake import MAX_TABLE_BYTES
-from tradeoff.report.page import write_report
+from tradeoff.report.write import write_report
 from tradeoff.plan.runsheet import write_run_sheet
 from tradeoff.study.spec import Factor
 from tradeoff.derive.load import load_study

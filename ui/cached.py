@@ -82,7 +82,7 @@ def study_keys(study) -> tuple[str, str]:
 
 @st.cache_resource(max_entries=32, show_spinner=False)
 def _fit(key: str, _study, reduce: tuple):
-    from tradeoff.model.fit import StudyFit, fit_study
+    from tradeoff.model.study_fit import StudyFit, fit_study
 
     full = fit_study(_study)
     if not reduce:
@@ -168,7 +168,8 @@ def what_if(study, fitted, settings: dict):
 @st.cache_resource(max_entries=8, show_spinner=False)
 def _report(key: str, kind: str, top: int, _study, _fit, _result, _study_bytes,
             _data_bytes):
-    from tradeoff.report.page import build_report_html, build_workbook
+    from tradeoff.report.html import build_report_html
+    from tradeoff.report.workbook import build_workbook
 
     build = build_report_html if kind == "html" else build_workbook
     return build(_study, top=top, fit=_fit, result=_result, study_bytes=_study_bytes,

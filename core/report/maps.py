@@ -268,7 +268,7 @@ def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.D
         ``feasible`` (both).
     """
     from ..study.constraints import rules_satisfied
-    from ..search.search import goal_columns, overall_desirability
+    from ..search.problem import goal_columns, overall_desirability
 
     if x == y:
         raise StudyError(f"a map needs two different factors, found '{x}' twice: "
@@ -357,7 +357,7 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
     """
     from ..search.chance import chance_in_limits
     from ..study.constraints import rules_satisfied
-    from ..search.search import goal_columns, overall_desirability
+    from ..search.problem import goal_columns, overall_desirability
 
     missing = [f.name for f in study.factors if f.name not in settings]
     if missing:

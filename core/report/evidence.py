@@ -1,0 +1,168 @@
+"""The page's sections about the evidence: each response's model and the runs.
+
+``_EvidenceSections`` renders "What drives each response" (fit statistics,
+effects chart, clear terms, tests, flagged runs) and "The runs (design)".
+"""
+from __future__ import annotations
+
+import pandas as pd
+
+from ..model.terms import model_label
+from .charts import _chart_div, _effects_chart
+from .data import _g, _get, _is_clear, _p, _r2
+from .sections import _Sections, _table, esc
+
+__all__ = ["_EvidenceSections"]
+
+
+class _EvidenceSections(_Sections):
+    """The sections about the models and the runs, rendered from ``report_data``'s dict."""
+
+    def models(self) -> str:
+        out = [f"<p>For each response: which terms matter (effects), how well the model "
+               f"fits, and whether anything looks off. A term is <b>clear</b> when its "
+               f"p-value is below {_g(1 - self.study.confidence, 2)} (or, with no "
+               "residual degrees of freedom, when its effect passes Lenth's margin of "
+               "error).</p>"]
+        alpha = 1 - self.study.confidence
+        for r in self.study.responses:
+            out.append(f'<div class="response"><h3>{esc(r.display())}</h3>')
+            if r.name in self.data["skipped"]:
+                out.append(f"<p>No model: {esc(self.data['skipped'][r.name])}</p></div>")
+                continue
+            if r.name not in self.data["models"]:
+                out.append("<p>Not modelled.</p></div>")
+                continue
+            rep = self.data["models"][r.name]
+            out.append(self._fit_stats(rep))
+            out.append(_chart_div(_effects_chart(r, rep, alpha)))
+            out.append(self._terms_table(rep, alpha))
+            out.append(self._tests(rep))
+            out.append(self._flagged(r.name, rep))
+            for w in rep.get("warnings", []):
+                out.append(f'<p class="note">Note: {esc(w)}</p>')
+            out.append("</div>")
+        return "".join(out)
+
+    def _fit_stats(self, rep: dict) -> str:
+        scale = {"log": " on the log scale", "sqrt": " on the square-root scale"}.get(
+            rep["transform"], "")
+        rows = [["model", esc(model_label(rep["model"])) + esc(scale)],
+                ["runs used", str(rep["n"])],
+                ["terms", str(len(rep["terms"]))],
+                ["residual degrees of freedom", str(rep["residual_df"])],
+                ["R2 (share of variation explained)", _r2(rep["r2"])],
+                ["adjusted R2", _r2(rep["adj_r2"])],
+                ["predicted R2 (how well it predicts runs left out)",
+                 _r2(rep["pred_r2"])],
+                ["residual standard deviation", _g(rep["residual_sd"])]]
+        red = rep.get("reduction")
+        if red and red.get("dropped"):
+            rows.append(["terms dropped by reduction",
+                         esc(", ".join(red["dropped"]))])
+        return _table(["fit statistic", "value"], rows, raw=True, numeric={1})
+
+    def _terms_table(self, rep: dict, alpha: float) -> str:
+        rows = []
+        blocks = set((rep.get("blocks") or {}).get("terms", ()))
+        for term in rep["terms"]:
+            clear = _is_clear(rep, term, alpha)
+            if term in blocks or (term != "intercept" and not clear):
+                continue
+            rows.append([esc(term), _g(_get(rep["coefficients"], term)),
+                         _g(_get(rep["effects"], term)),
+                         _g(_get(rep["std_errors"], term)),
+                         _p(_get(rep["p_values"], term))])
+        hidden = len(rep["terms"]) - len(rows)
+        note = (f'<p class="note">{hidden} other term(s) are within the noise; all terms '
+                "are in the workbook's terms sheet.</p>" if hidden else "")
+        return ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
+                "the low to the high setting)</p>"
+                + _table(["term", "coefficient", "effect", "std error", "p"], rows,
+                         numeric={1, 2, 3, 4}) + note)
+
+    def _tests(self, rep: dict) -> str:
+        anova = rep.get("anova") or {}
+        lines = []
+        lof = anova.get("lack_of_fit")
+        pe = anova.get("pure_error")
+        if lof and lof.get("p") is not None:
+            verdict = ("the model misses a pattern the repeated runs show" if lof["p"] < 0.05
+                       else "no sign that the model misses a pattern")
+            lines.append(f"Lack of fit: F = {_g(lof['f'], 3)} on {lof['df']} and "
+                         f"{pe['df'] if pe else '?'} degrees of freedom, p = {_p(lof['p'])}: "
+                         f"{verdict}.")
+        else:
+            lines.append("Lack of fit: not tested (it needs repeated runs at the same "
+                         "settings and spare degrees of freedom).")
+        curv = anova.get("curvature")
+        if curv and curv.get("p") is not None:
+            verdict = ("the centre points sit off the plane of the corner runs: the "
+                       "response bends" if curv["p"] < 0.05 else "no sign of curvature")
+            lines.append(f"Curvature: centre mean {_g(curv['centre_mean'])} against corner "
+                         f"mean {_g(curv['factorial_mean'])}, F = {_g(curv['f'], 3)}, "
+                         f"p = {_p(curv['p'])}: {verdict}.")
+        else:
+            lines.append("Curvature: not tested (it needs centre points and corner runs, "
+                         "and a model without squared terms).")
+        lenth = rep.get("lenth")
+        if lenth:
+            lines.append(f"No residual degrees of freedom: effects judged against Lenth's "
+                         f"margin of error ME = {_g(lenth['me'])} (pseudo standard error "
+                         f"{_g(lenth['pse'])}).")
+        return "<ul>" + "".join(f"<li>{esc(x)}</li>" for x in lines) + "</ul>"
+
+    def _flagged(self, name: str, rep: dict) -> str:
+        flagged = rep.get("flagged_runs") or []
+        if not flagged:
+            return '<p class="small">Flagged runs: none.</p>'
+        model = self.data["fitted"].get(name)
+        diag = getattr(model, "diagnostics_", None)
+        rows = []
+        for run in flagged:
+            value = None
+            if isinstance(diag, pd.DataFrame) and "studentized_deleted" in diag and \
+                    run in diag.index:
+                value = diag.loc[run, "studentized_deleted"]
+            rows.append([esc(run), _g(value, 3)])
+        return ("<p><b>Flagged runs</b> (studentized deleted residual beyond +-3: check "
+                "them for a recording or making error)</p>"
+                + _table(["run", "studentized residual"], rows, numeric={1}))
+
+    def design(self) -> str:
+        s = self.data["study"]
+        rows = []
+        for f in s["factors"]:
+            if f["kind"] == "categorical":
+                (a, b) = list(f["coded"])
+                counts = f["levels"]
+                rows.append([esc(f["label"]), esc(f["name"]), "categorical", "",
+                             f"{esc(a)} (-1)", f"{esc(b)} (+1)",
+                             f"{counts[a]} / {counts[b]} runs", "levels"])
+            else:
+                rows.append([esc(f["label"]), esc(f["name"]), "numeric", esc(f["unit"]),
+                             f"{_g(f['low'])} (-1)", f"{_g(f['high'])} (+1)",
+                             f"{_g(f['tested'][0])} .. {_g(f['tested'][1])} (coded "
+                             f"{f['coded_tested'][0]:+.3g} .. {f['coded_tested'][1]:+.3g})",
+                             f"{_g(f['search'][0])} .. {_g(f['search'][1])}"])
+        out = ["<p>Coded units put every factor on the same scale: -1 at its low "
+               "setting, +1 at its high, 0 at the centre.</p>",
+               _table(["factor", "name", "kind", "unit", "low", "high", "tested",
+                       "searched"], rows, raw=True)]
+        if self.study.constraints:
+            out.append("<p>Rules limiting the searched region: " + "; ".join(
+                esc(c["label"]) for c in self.study.constraints) + "</p>")
+        runs = self.data["runs"]
+        # Coded settings are in the workbook's runs sheet; here they would make the
+        # table too wide to read (the coded ranges are in the table above).
+        cols = (["run"] + self.study.factor_names
+                + [r for r in self.study.response_names if r in runs] + ["marks"])
+        numeric = {i for i, c in enumerate(cols)
+                   if c not in ("run", "marks") and pd.api.types.is_numeric_dtype(runs[c])}
+        rows = [[esc(_g(v) if not isinstance(v, str) else v) for v in rec]
+                for rec in runs[cols].itertuples(index=False)]
+        head = [esc(c) for c in cols]
+        out.append(f"<h3>{len(runs)} runs, in the order of the data file</h3>")
+        out.append('<div class="scroll">' + _table(head, rows, numeric=numeric,
+                                                    cls="runs") + "</div>")
+        return "".join(out)

@@ -1,0 +1,142 @@
+"""The report as an Excel workbook: the same content as the page, one table per sheet.
+
+``build_workbook`` returns the workbook's bytes; ``WORKBOOK_SHEETS`` lists
+its sheets in order.
+"""
+from __future__ import annotations
+
+import io
+
+import pandas as pd
+
+from ..model.terms import model_label
+from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
+
+__all__ = ["build_workbook", "WORKBOOK_SHEETS"]
+
+# Sheet names of the workbook, in order (confirmation sheets only when the
+# study lists confirmation runs).
+WORKBOOK_SHEETS = ("summary", "runs", "factors", "models", "terms", "goals", "solutions",
+                   "confirmations", "verdicts", "warnings", "specification", "provenance")
+
+
+def build_workbook(study, *, top: int = 5, seed: int | None = None, fit=None,
+                   result=None, data: dict | None = None, **kwargs) -> bytes:
+    """The report's tables as an Excel workbook (bytes).
+
+    Sheets (see ``WORKBOOK_SHEETS``): summary, runs, factors, models (fit
+    statistics per response), terms (coefficients per response and term),
+    goals, solutions (one row per solution and response), confirmations and
+    verdicts (when the study lists confirmation runs), warnings, specification
+    (the study file, one line per row) and provenance. Further keywords go to
+    ``report_data``; ``data`` may carry its result.
+    """
+    data = data if data is not None else report_data(
+        study, top=top, seed=seed, fit=fit, result=result, **kwargs)
+    sheets = _workbook_tables(study, data)
+    buffer = io.BytesIO()
+    with pd.ExcelWriter(buffer, engine="openpyxl") as writer:
+        for name, frame in sheets.items():
+            frame.to_excel(writer, sheet_name=name, index=False)
+            sheet = writer.sheets[name]
+            for column in sheet.columns:  # readable widths, capped
+                width = max(len(str(c.value)) if c.value is not None else 0
+                            for c in column)
+                sheet.column_dimensions[column[0].column_letter].width = \
+                    min(max(10, width + 2), 60)
+    return buffer.getvalue()
+
+
+def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
+    res = data["result"]
+    summary = [("study", study.name), ("runs", data["study"]["runs"]),
+               ("factors", ", ".join(study.factor_names)),
+               ("responses", ", ".join(study.response_names)),
+               ("confidence", study.confidence), ("seed", data["seed"]),
+               ("solutions asked", data["top"])]
+    if res is not None:
+        best = res["best"]
+        summary += [("best solution", best["label"]),
+                    ("overall desirability D", best["desirability"]),
+                    ("chance every response within limits", best["chance_all"])]
+        summary += [(f"best setting: {k}", v) for k, v in best["settings"].items()]
+    else:
+        summary.append(("search", data["search_note"]))
+    check = data["confirmation"]
+    if check is not None:
+        summary += [(f"confirmation: {v['response']}", v["verdict"])
+                    for _, v in check.verdicts.iterrows()]
+    summary += [("caution", c) for c in CAUTIONS]
+    tables = {"summary": pd.DataFrame(summary, columns=["item", "value"]).astype(
+        {"value": str})}
+
+    runs = data["runs"].reset_index()
+    tables["runs"] = runs
+
+    factors = []
+    for f in data["study"]["factors"]:
+        row = {"factor": f["name"], "label": f["label"], "kind": f["kind"]}
+        if f["kind"] == "categorical":
+            (a, b) = list(f["coded"])
+            row.update({"low (coded -1)": a, "high (coded +1)": b})
+        else:
+            row.update({"unit": f["unit"], "low (coded -1)": f["low"],
+                        "high (coded +1)": f["high"], "tested min": f["tested"][0],
+                        "tested max": f["tested"][1], "search min": f["search"][0],
+                        "search max": f["search"][1]})
+        factors.append(row)
+    tables["factors"] = pd.DataFrame(factors)
+
+    model_rows, term_rows = [], []
+    alpha = 1 - study.confidence
+    for name, rep in data["models"].items():
+        anova = rep.get("anova") or {}
+        lof, curv = anova.get("lack_of_fit") or {}, anova.get("curvature") or {}
+        model_rows.append({
+            "response": name, "model": model_label(rep["model"]),
+            "transform": rep["transform"], "runs used": rep["n"],
+            "terms": len(rep["terms"]), "residual df": rep["residual_df"],
+            "R2": rep["r2"], "adjusted R2": rep["adj_r2"], "predicted R2": rep["pred_r2"],
+            "residual sd": rep["residual_sd"], "lack of fit p": lof.get("p"),
+            "curvature p": curv.get("p"),
+            "flagged runs": ", ".join(rep["flagged_runs"]),
+            "warnings": " | ".join(rep["warnings"])})
+        for term in rep["terms"]:
+            term_rows.append({
+                "response": name, "term": term,
+                "coefficient": _get(rep["coefficients"], term),
+                "effect": _get(rep["effects"], term),
+                "std error": _get(rep["std_errors"], term),
+                "p value": _get(rep["p_values"], term),
+                "clear": _is_clear(rep, term, alpha)})
+    for name, why in data["skipped"].items():
+        model_rows.append({"response": name, "model": "none", "warnings": why})
+    tables["models"] = pd.DataFrame(model_rows)
+    tables["terms"] = pd.DataFrame(term_rows, columns=["response", "term", "coefficient",
+                                                       "effect", "std error", "p value",
+                                                       "clear"])
+    tables["goals"] = pd.DataFrame(_goal_rows(study))
+
+    sol_rows = []
+    if res is not None:
+        for s in res["solutions"]:
+            for rname, o in s["responses"].items():
+                row = {"solution": s["label"], "rank": s["rank"],
+                       "D": s["desirability"], "chance all within limits": s["chance_all"]}
+                row.update(s["settings"])
+                row.update({"response": rname, "goal": o["goal"],
+                            "predicted": o["predicted"], "desirability": o["desirability"],
+                            "pi low": o["pi"][0], "pi high": o["pi"][1],
+                            "ci low": o["ci"][0], "ci high": o["ci"][1],
+                            "chance within limits": o["chance_in_limits"]})
+                sol_rows.append(row)
+    tables["solutions"] = pd.DataFrame(sol_rows)
+    if check is not None:
+        tables["confirmations"] = check.table
+        tables["verdicts"] = check.verdicts
+    tables["warnings"] = pd.DataFrame({"warning": data["warnings"]})
+    tables["specification"] = pd.DataFrame(
+        {"study file line": data["specification"].splitlines()})
+    tables["provenance"] = pd.DataFrame(_provenance_rows(data["provenance"]),
+                                        columns=["key", "value"])
+    return tables

@@ -1,0 +1,388 @@
+"""The search's result: Solution, ResponseOutcome, OptimizationResult.
+
+Also the assembly of the result from the settings found (intervals, chances,
+ranking, labels) and the warnings about the whole search and about each
+solution's settings.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from .chance import chance_in_limits
+from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
+
+__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
+
+_EDGE = 1e-3  # coded distance that counts as "on the edge"
+
+
+@dataclass(frozen=True)
+class ResponseOutcome:
+    """One response at one solution.
+
+    Attributes
+    ----------
+    name : str
+    goal : str
+        The goal kind (``none`` when the response takes no part).
+    predicted : float
+        Model prediction of the mean, natural units.
+    desirability : float or None
+        Individual desirability (None when the goal is ``none``).
+    ci, pi : tuple of float
+        Confidence interval of the mean and prediction interval of one new
+        measurement, at the study's confidence level.
+    chance_in_limits : float or None
+        Monte Carlo chance that one batch made at these settings lands within
+        the goal's limits (None when the goal is ``none``).
+    """
+
+    name: str
+    goal: str
+    predicted: float
+    desirability: float | None
+    ci: tuple
+    pi: tuple
+    chance_in_limits: float | None
+
+
+@dataclass(frozen=True)
+class Solution:
+    """One recommended setting.
+
+    Attributes
+    ----------
+    rank : int
+        Position in the result (1 = best under the chosen ranking).
+    label : str
+        ``S1``, ``S2``, ... in order of D, stable whatever the ranking.
+    settings : dict
+        Factor name -> natural value (level name for a categorical factor).
+    coded : dict
+        Factor name -> coded value (-1/+1 for a categorical factor).
+    desirability : float
+        Overall desirability D at these settings.
+    predictions : dict
+        Response name -> predicted value (every modelled response).
+    responses : dict
+        Response name -> ResponseOutcome.
+    factor_desirability : dict
+        Factor name -> desirability, for factors that have a goal.
+    chance_all : float or None
+        Chance that every response with a goal lands within its limits at once.
+    out_of_limits : tuple of str
+        Goals (responses or factors) whose desirability is 0 here.
+    shortfall : float
+        Weighted squared distance outside the limits (0 when D > 0).
+    warnings : tuple of str
+        Warnings about these settings (edge of the region, outside the data).
+        Warnings about the whole search are in ``OptimizationResult.warnings``;
+        ``OptimizationResult.to_dict`` lists both under each solution.
+    """
+
+    rank: int
+    label: str
+    settings: dict
+    coded: dict
+    desirability: float
+    predictions: dict
+    responses: dict
+    factor_desirability: dict
+    chance_all: float | None
+    out_of_limits: tuple
+    shortfall: float
+    warnings: tuple
+
+    def to_dict(self, digits: int = 6) -> dict:
+        """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
+        r = _rounder(digits)
+        return {
+            "rank": self.rank, "label": self.label,
+            "settings": {k: (v if isinstance(v, str) else r(v))
+                         for k, v in self.settings.items()},
+            "coded": {k: (v if isinstance(v, int) else r(v)) for k, v in self.coded.items()},
+            "desirability": r(self.desirability),
+            "responses": {
+                name: {"predicted": r(o.predicted), "desirability": r(o.desirability),
+                       "ci": [r(o.ci[0]), r(o.ci[1])], "pi": [r(o.pi[0]), r(o.pi[1])],
+                       "chance_in_limits": r(o.chance_in_limits), "goal": o.goal}
+                for name, o in self.responses.items()},
+            "factor_desirability": {k: r(v) for k, v in self.factor_desirability.items()},
+            "chance_all": r(self.chance_all),
+            "out_of_limits": list(self.out_of_limits),
+            "warnings": list(self.warnings),
+        }
+
+
+@dataclass(frozen=True)
+class OptimizationResult:
+    """What ``optimize`` found.
+
+    Attributes
+    ----------
+    study : str
+        The study's name.
+    solutions : tuple of Solution
+        Best first (by D, or by the chance of meeting all limits when
+        ``rank_by == "chance"``); distinct local optima at least
+        ``min_distance`` coded units apart.
+    rank_by : str
+        ``desirability`` or ``chance``.
+    seed : int
+        Seed of the Sobol batch and of the Monte Carlo draws.
+    feasible : bool
+        True when some setting makes every desirability positive (D > 0).
+    unreachable : tuple of str
+        Goals that no setting in the searched region brings within limits.
+    warnings : tuple of str
+        Warnings about the whole search (models left out, poor models).
+    assumptions : tuple of str
+        How the chances were computed.
+    evaluations : int
+        Number of points at which the models were evaluated.
+    correlation : pandas.DataFrame
+        Correlation between responses used for the chances.
+    """
+
+    study: str
+    solutions: tuple
+    rank_by: str
+    seed: int
+    feasible: bool
+    unreachable: tuple
+    warnings: tuple
+    assumptions: tuple
+    evaluations: int
+    correlation: pd.DataFrame = field(default=None, compare=False, repr=False)
+
+    @property
+    def best(self) -> Solution:
+        """The first solution."""
+        return self.solutions[0]
+
+    def to_dict(self, digits: int = 6) -> dict:
+        """The CLI's ``--json`` output: ``best``, ``solutions`` and a few more keys."""
+        solutions = []
+        for s in self.solutions:
+            entry = s.to_dict(digits)
+            entry["warnings"] = list(s.warnings) + list(self.warnings)
+            solutions.append(entry)
+        return {
+            "best": solutions[0],
+            "solutions": solutions,
+            "study": self.study, "rank_by": self.rank_by, "seed": self.seed,
+            "feasible": self.feasible, "unreachable": list(self.unreachable),
+            "warnings": list(self.warnings), "assumptions": list(self.assumptions),
+            "cautions": list(FOOD_CAUTIONS),
+            "evaluations": self.evaluations,
+        }
+
+    def table(self) -> pd.DataFrame:
+        """Tidy table: one row per solution and response.
+
+        Columns: solution (label), rank, one column per factor (natural
+        setting), response, predicted, desirability, ci_low, ci_high, pi_low,
+        pi_high, chance_in_limits, D (overall desirability), chance_all.
+        """
+        rows = []
+        for s in self.solutions:
+            for name, o in s.responses.items():
+                row = {"solution": s.label, "rank": s.rank}
+                row.update(s.settings)
+                row.update({"response": name, "predicted": o.predicted,
+                            "desirability": o.desirability, "ci_low": o.ci[0],
+                            "ci_high": o.ci[1], "pi_low": o.pi[0], "pi_high": o.pi[1],
+                            "chance_in_limits": o.chance_in_limits,
+                            "D": s.desirability, "chance_all": s.chance_all})
+                rows.append(row)
+        return pd.DataFrame(rows)
+
+    def text(self) -> str:
+        """A readable summary for the terminal."""
+        lines = []
+        if not self.feasible:
+            lines.append("No setting in the searched region brings every goal within its "
+                         "limits (D = 0 everywhere). Closest settings shown.")
+            if self.unreachable:
+                lines.append("Cannot be brought within limits anywhere: "
+                             + ", ".join(self.unreachable))
+        for s in self.solutions:
+            head = "Best settings" if s.rank == 1 else f"Alternative {s.rank - 1}"
+            chance = "" if s.chance_all is None else \
+                f", chance all within limits {s.chance_all:.0%}"
+            lines.append(f"\n{head} ({s.label}): overall desirability D = "
+                         f"{s.desirability:.3f}{chance}")
+            for name, value in s.settings.items():
+                shown = value if isinstance(value, str) else f"{value:.4g}"
+                code = s.coded[name]
+                code = f"{code:+d}" if isinstance(code, int) else f"{code:+.3f}"
+                lines.append(f"  {name:<18} {shown:>12}   (coded {code})")
+            lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
+                         f"{'prediction interval':>23} {'chance':>7}")
+            for name, o in s.responses.items():
+                d = "-" if o.desirability is None else f"{o.desirability:.3f}"
+                ch = "-" if o.chance_in_limits is None else f"{o.chance_in_limits:.0%}"
+                pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
+                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>7}")
+            for name, d in s.factor_desirability.items():
+                lines.append(f"  factor goal {name}: d = {d:.3f}")
+            if s.out_of_limits:
+                lines.append("  outside limits: " + ", ".join(s.out_of_limits))
+            for w in s.warnings:
+                lines.append(f"  note: {w}")
+        for w in self.warnings:
+            lines.append(f"note: {w}")
+        for a in self.assumptions:
+            lines.append(f"chances: {a}")
+        lines.append("cautions: " + FOOD_CAUTION)
+        return "\n".join(lines).lstrip("\n")
+
+
+def _rounder(digits):
+    def r(x):
+        if x is None:
+            return None
+        x = float(x)
+        if not math.isfinite(x):
+            return None
+        return float(f"{x:.{digits}g}")
+    return r
+
+
+def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreachable,
+            draws) -> OptimizationResult:
+    Y = problem.values(X)
+    D, d = problem.score(Y)
+    S = problem.shortfall(Y)
+    names = problem.names()
+    chances = chance_in_limits(study, models, X, draws=draws, seed=seed)
+    # Each response's interval table as one array (rows: solutions; columns:
+    # predicted, ci_low, ci_high, pi_low, pi_high), so no table is indexed per cell.
+    intervals = {r.name: models[r.name].intervals(X, level=study.confidence)[
+        ["predicted", "ci_low", "ci_high", "pi_low", "pi_high"]].to_numpy(dtype=float)
+        for r in study.responses if r.name in models}
+    chance_col = {n: i for i, n in enumerate(chances.responses)}
+    order = np.arange(len(X))
+    if rank_by == "chance":
+        order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
+    order = order[:top]
+    by_d = {int(i): n for n, i in enumerate(np.lexsort((S, -D)), start=1)}
+    general = _general_warnings(study, problem, models, fit)
+
+    solutions = []
+    for rank, i in enumerate(order, start=1):
+        i = int(i)
+        x = X[i]
+        settings, coded = {}, {}
+        for j, f in enumerate(study.factors):
+            if f.is_categorical:
+                settings[f.name] = f.levels[0] if x[j] < 0 else f.levels[1]
+                coded[f.name] = int(x[j])
+            else:
+                settings[f.name] = float(f.centre + f.half_range * x[j])
+                coded[f.name] = float(x[j])
+        outcomes, predictions = {}, {}
+        for r in study.responses:
+            if r.name not in models:
+                continue
+            pred, ci_low, ci_high, pi_low, pi_high = intervals[r.name][i].tolist()
+            col = names.index(r.name) if r.name in names else None
+            outcomes[r.name] = ResponseOutcome(
+                name=r.name, goal=r.goal.kind if col is not None else "none",
+                predicted=pred,
+                desirability=float(d[i, col]) if col is not None else None,
+                ci=(ci_low, ci_high),
+                pi=(pi_low, pi_high),
+                chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
+                                  if r.name in chance_col else None))
+            predictions[r.name] = pred
+        factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
+                    if kind == "factor"}
+        out = tuple(n for k, n in enumerate(names) if d[i, k] == 0)
+        solutions.append(Solution(
+            rank=rank, label=f"S{by_d[i]}", settings=settings, coded=coded,
+            desirability=float(D[i]), predictions=predictions, responses=outcomes,
+            factor_desirability=factor_d,
+            chance_all=_finite(chances.all[i]) if chances.responses else None,
+            out_of_limits=out, shortfall=float(S[i]),
+            warnings=tuple(_point_warnings(study, problem, x, D[i]))))
+    assumptions = (
+        f"{chances.assumption}; each chance is for one batch made at the settings and "
+        f"measured once, from the models' prediction distributions ({chances.draws} "
+        f"seeded draws, seed {seed})",)
+    return OptimizationResult(
+        study=study.name, solutions=tuple(solutions), rank_by=rank_by, seed=seed,
+        feasible=feasible, unreachable=unreachable, warnings=tuple(general),
+        assumptions=assumptions, evaluations=problem.evaluations,
+        correlation=chances.correlation)
+
+
+def _general_warnings(study, problem, models, fit) -> list[str]:
+    out = []
+    skipped = getattr(fit, "skipped", {}) or {}
+    for r in study.responses:
+        if r.goal.active and r.name not in models:
+            why = skipped.get(r.name, "it has no fitted model")
+            out.append(f"response '{r.name}' has a goal but was left out of the search: "
+                       f"{why}")
+    for kind, name in problem.columns:
+        if kind != "response":
+            continue
+        r2 = getattr(models[name], "pred_r2_", None)
+        if r2 is not None and np.isfinite(r2) and r2 < 0.5:
+            out.append(f"the model for '{name}' predicts poorly (predicted R2 = {r2:.2f}, "
+                       "below 0.5) yet takes part in the search: treat its prediction "
+                       "and the balance it drives with caution")
+    return out
+
+
+def _point_warnings(study, problem, x, D) -> list[str]:
+    out = []
+    runs = study.runs
+    for pos, j in enumerate(problem.num):
+        f = study.factors[j]
+        value = f.centre + f.half_range * x[j]
+        unit = f" {f.unit}" if f.unit else ""
+        for side, bound, outward in (("low", problem.lo[pos], -1.0),
+                                     ("high", problem.hi[pos], 1.0)):
+            if abs(x[j] - bound) > _EDGE:
+                continue
+            beyond = x.copy()
+            beyond[j] += outward * 0.05
+            D_beyond = problem.score(problem.values(beyond[None, :]))[0][0]
+            edge = f.centre + f.half_range * bound
+            tested_edge = (f.low if side == "low" else f.high)
+            inside_tests = (edge > f.low + 1e-9) if side == "low" else (edge < f.high - 1e-9)
+            if inside_tests:
+                how = (f"widen its search range (search = [min, max]) up to the tested "
+                       f"{_g(tested_edge)}{unit}")
+            else:
+                how = "if such settings are possible, extend the range there with new runs"
+            if D_beyond > D + 1e-9:
+                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
+                           f"({_g(edge)}{unit}) and D would still rise beyond it: {how}")
+            else:
+                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
+                           f"({_g(edge)}{unit}), where the models rest on few runs: {how} "
+                           "to see whether the balance holds beyond it")
+        if runs is not None and f.name in runs:
+            tested = runs[f.name].to_numpy(float)
+            if value < tested.min() - 1e-9 * f.half_range or \
+                    value > tested.max() + 1e-9 * f.half_range:
+                out.append(f"'{f.name}' = {_g(value)}{unit} lies outside the tested "
+                           f"settings ({_g(tested.min())}..{_g(tested.max())}{unit}): the "
+                           "predictions there extrapolate the models")
+    return out
+
+
+def _finite(x) -> float | None:
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _g(x: float) -> str:
+    return f"{x:.4g}"
