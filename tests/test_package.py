@@ -1,14 +1,79 @@
-"""The library stays light: importing it loads no front end (house style)."""
+"""The package root: every public name, and an import that stays light.
+
+``import tradeoff`` resolves its public names on first use (PEP 562), so the
+command line starts without pandas, scipy.stats or any front end (house style).
+"""
 from __future__ import annotations
 
 import subprocess
 import sys
 
+import pytest
 
-def test_import_leaves_streamlit_out():
-    code = ("import sys, tradeoff; "
-            "bad = [m for m in ('streamlit', 'altair', 'statsmodels', 'sklearn') "
-            "if m in sys.modules]; print(bad)")
+# Every name importable from ``tradeoff``; the list is the public interface
+# and changes only on purpose (add a name here when you add it to the root).
+PUBLIC_NAMES = sorted([
+    "__version__",
+    "TradeoffError", "StudyError", "DataError", "ModelError", "SearchError", "PlanError",
+    "Factor", "Goal", "Response", "Study", "load_study", "study_from_dict",
+    "to_coded", "to_natural",
+    "ResponseModel", "StudyFit", "fit_response", "fit_study",
+    "SHELF_LIFE_CAUTION", "fit_kinetics", "interpolate_at", "read_storage",
+    "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
+    "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",
+    "derivation_table", "describe_derivation",
+    "GENERATOR_TABLE", "Plan", "TwoLevelDesign", "augment_study",
+    "available_designs", "fold_over", "fractional_design", "plan_runs",
+    "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",
+    "evaluate_plan", "evaluate_study", "run_sheet", "write_run_sheet",
+    "combine_desirability", "desirability", "limits", "shortfall",
+    "LinearRule", "parse_rule", "rule_arrays", "study_rules",
+    "ChanceEstimate", "chance_in_limits",
+    "OptimizationResult", "ResponseOutcome", "Solution", "goal_columns", "optimize",
+    "overall_desirability",
+    "provenance", "ConfirmationCheck", "check_confirmations", "confirmation_runs",
+    "build_report_html", "build_workbook", "report_data", "write_report",
+])
+
+
+def _run(code: str) -> str:
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
-    assert out.stdout.strip() == "[]"
+    return out.stdout.strip()
+
+
+def test_every_public_name_is_listed_and_importable():
+    import tradeoff
+
+    assert sorted(tradeoff.__all__) == PUBLIC_NAMES
+    for name in PUBLIC_NAMES:
+        assert getattr(tradeoff, name) is not None, name
+    # the star import sees the same names
+    namespace: dict = {}
+    exec("from tradeoff import *", namespace)
+    assert set(PUBLIC_NAMES) <= set(namespace)
+
+
+@pytest.mark.parametrize("name", [n for n in PUBLIC_NAMES if n != "__version__"])
+def test_each_name_resolves_in_a_fresh_process(name):
+    # a name must resolve on its own, not only after others loaded its module
+    assert _run(f"import tradeoff; print(type(tradeoff.{name}).__name__)")
+
+
+def test_import_leaves_front_end_and_heavy_libraries_out():
+    bad = _run("import sys, tradeoff; print([m for m in ('streamlit', 'altair', "
+               "'statsmodels', 'sklearn', 'pandas', 'scipy.stats') if m in sys.modules])")
+    assert bad == "[]"
+
+
+def test_command_line_help_loads_no_pandas():
+    bad = _run("import sys; from tradeoff.cli import build_parser; build_parser(); "
+               "print([m for m in ('pandas', 'scipy', 'numpy') if m in sys.modules])")
+    assert bad == "[]"
+
+
+def test_unknown_name_is_an_attribute_error():
+    import tradeoff
+
+    with pytest.raises(AttributeError, match="no attribute 'optimise'"):
+        tradeoff.optimise

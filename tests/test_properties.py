@@ -30,8 +30,10 @@ from hypothesis import strategies as st
 from tradeoff.study.coding import code_values, decode_values, to_coded, to_natural
 from tradeoff.study.constraints import rules_satisfied
 from tradeoff.search.desirability import combine_desirability, desirability
-from tradeoff.model.fit import ResponseModel, fit_study
-from tradeoff.search.search import optimize, overall_desirability
+from tradeoff.model.fit import ResponseModel
+from tradeoff.model.study_fit import fit_study
+from tradeoff.search.search import optimize
+from tradeoff.search.problem import overall_desirability
 from tradeoff.study.spec import Factor, Goal
 from tradeoff.derive.load import study_from_dict
 

@@ -16,7 +16,8 @@ import pytest
 
 from tradeoff import cli
 from tradeoff.errors import ModelError
-from tradeoff.model.fit import ResponseModel, fit_response, fit_study
+from tradeoff.model.fit import ResponseModel
+from tradeoff.model.study_fit import fit_response, fit_study
 from tradeoff.search.search import optimize
 from tradeoff.derive.load import study_from_dict
 

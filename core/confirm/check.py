@@ -170,7 +170,7 @@ def check_confirmations(study, *, fit=None, confidence: float | None = None,
         raise StudyError(f"{fname}: the study lists no confirmation runs: add "
                          "[[confirmations]] tables with settings and measured values")
     if fit is None:
-        from ..model.fit import fit_study
+        from ..model.study_fit import fit_study
 
         fit = fit_study(study)
     level = study.confidence if confidence is None else float(confidence)

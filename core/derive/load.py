@@ -14,7 +14,8 @@ from ..study.intake import read_table
 from ..study.reader import build_study, parse_study_text, read_study_bytes
 from ..study.runs import attach_runs, read_study_table
 from ..study.spec import Study
-from .derived import add_derived_responses, check_derived
+from .derived import add_derived_responses
+from .options import check_derived
 
 __all__ = ["load_study", "study_from_dict"]
 

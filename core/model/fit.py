@@ -20,73 +20,26 @@ Lenth, no half-normal point), and predictions are for the average block
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
 import pandas as pd
 from scipy import special, stats
-from scipy.linalg import blas as _blas
-from scipy.linalg import lapack as _lapack
-from scipy.linalg import solve_triangular
 
 from .anova import anova_table
 from .diagnostics import diagnostic_arrays, run_diagnostics
-from ..errors import DataError, ModelError, StudyError
+from ..errors import ModelError
 from .lenth import half_normal_points, lenth
-from .terms import (QRFactors, Term, block_terms, find_aliases, hierarchy_closure,
-                    model_matrix, model_terms, named_model_size, parse_term, term_label)
+from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
+                    model_terms, named_model_size, parse_term, term_label)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
+from .describe import response_report
+from .notes import effect_index, near_alias_notes
+from .solve import LeastSquares
 
-__all__ = ["ResponseModel", "StudyFit", "fit_study", "fit_response", "DEFAULT_ALPHA"]
+__all__ = ["ResponseModel", "DEFAULT_ALPHA"]
 
 DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
-
-
-# Above this condition number of R, leverages come from Q itself (formed from the
-# Householder reflectors) rather than from M R^-1, whose rounding grows with it;
-# coded designs sit near 1.
-_LEVERAGE_COND = 1e4
-
-
-class _Solution:
-    """A least-squares solution by QR: coefficients and what follows from them.
-
-    Q is not formed: Q'z and Q(Q'z) are applied from the Householder
-    reflectors (``QRFactors``); ``qr.Q`` forms it when something needs it.
-    """
-
-    def __init__(self, M: np.ndarray, z: np.ndarray, qr: QRFactors | None = None):
-        n, p = M.shape
-        fac = QRFactors(M) if qr is None else qr
-        R = fac.R
-        qty = fac.qt(z)[:p]
-        self.coef = solve_triangular(R, qty, check_finite=False)
-        w = np.zeros(n)
-        w[:p] = qty
-        self.fitted = fac.q(w)  # Q Q'z, the projection of z
-        self.resid = z - self.fitted
-        self.sse = float(self.resid @ self.resid)
-        self.df = n - p
-        self.qr = fac
-        self.Rinv, info = _lapack.dtrtri(R)
-        if info != 0:  # pragma: no cover - a zero pivot, excluded by find_aliases
-            raise ModelError(f"the model matrix is singular (LAPACK info {info})")
-        # diag((X'X)^-1) = row sums of Rinv^2, because (X'X)^-1 = Rinv Rinv'
-        self.cdiag = np.einsum("ij,ij->i", self.Rinv, self.Rinv)
-        # leverage = row sums of Q^2, and Q = M Rinv (a triangular product, trmm)
-        cond = np.abs(R).sum(axis=0).max() * np.abs(self.Rinv).sum(axis=0).max()
-        Q = fac.Q if cond > _LEVERAGE_COND else _blas.dtrmm(
-            1.0, np.asfortranarray(self.Rinv), M, side=1, lower=0)
-        self.leverage = np.einsum("ij,ij->i", Q, Q)
-        if self.df > 0:
-            s2 = self.sse / self.df
-            self.se = np.sqrt(s2 * self.cdiag)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                self.t = self.coef / self.se
-            self.p = 2 * special.stdtr(self.df, -np.abs(self.t))  # two-sided t test
-        else:
-            self.se = self.t = self.p = None
 
 
 class ResponseModel:
@@ -161,7 +114,7 @@ class ResponseModel:
             if block.size != y.size:
                 raise ModelError(f"response '{name}': {block.size} block labels for "
                                  f"{y.size} runs")
-            blank_block = np.array([_blank(v) for v in block], dtype=bool)
+            blank_block = np.array([is_blank(v) for v in block], dtype=bool)
             if blank_block.any():
                 raise ModelError(f"response '{name}': run {ids[blank_block][0]} has no "
                                  f"block: give every run its block ({self.block_name})")
@@ -249,8 +202,8 @@ class ResponseModel:
             if dropped_log:
                 qr = None
 
-        sol = _Solution(M, z, qr)
-        warnings += _near_alias_notes(terms, M, sol.cdiag, sol.qr.R)
+        sol = LeastSquares(M, z, qr)
+        warnings += near_alias_notes(terms, M, sol.cdiag, sol.qr.R)
         self._terms = terms
         self._sol = sol
         self._set_results(X, y, z, ids, terms, sol, aliases, warnings,
@@ -310,9 +263,9 @@ class ResponseModel:
         pinned = (hierarchy_closure(keep_terms, terms) | {"intercept"}
                   | {t.label for t in terms if t.is_block})
         log: dict[str, str] = {}
-        sol = _Solution(M, z, qr)
+        sol = LeastSquares(M, z, qr)
         if sol.df == 0:
-            eff_idx = _effect_index(terms)
+            eff_idx = effect_index(terms)
             if len(eff_idx) < 3:
                 return terms, M, log
             effects = 2 * sol.coef[eff_idx]
@@ -343,10 +296,10 @@ class ResponseModel:
                 break
             log[current[worst].label] = f"p = {pw:.3g}"
             del idx[worst]
-            sol = _Solution(M[:, idx], z)
+            sol = LeastSquares(M[:, idx], z)
         return [terms[i] for i in idx], M[:, idx], log
 
-    def _set_results(self, X, y, z, ids, terms, sol: _Solution, aliases, warnings,
+    def _set_results(self, X, y, z, ids, terms, sol: LeastSquares, aliases, warnings,
                      block=None, levels=(), confounded=None) -> None:
         n, p = z.size, len(terms)
         self.terms_ = [t.label for t in terms]
@@ -383,7 +336,7 @@ class ResponseModel:
         self.half_normal_ = None
         self.sigma_, self.sigma_df_ = self.residual_sd_, self.residual_df_
         if sol.df == 0:
-            eff_idx = _effect_index(terms)
+            eff_idx = effect_index(terms)
             if len(eff_idx) >= 3:
                 effects = self.effects_[eff_idx]
                 res = lenth(effects, level=self.confidence)
@@ -449,7 +402,7 @@ class ResponseModel:
         self._pred_coef = sol.coef[idx]
         self._Rinv = sol.Rinv[idx]
 
-    def _block_results(self, terms, sol: _Solution, levels, block, confounded) -> dict | None:
+    def _block_results(self, terms, sol: LeastSquares, levels, block, confounded) -> dict | None:
         """Block effects (one per block, summing to 0), their adjusted SS and test."""
         bidx = [i for i, t in enumerate(terms) if t.is_block]
         if not bidx:
@@ -616,224 +569,15 @@ class ResponseModel:
         """Modelling scale -> natural scale."""
         return inverse(y, self.transform)
 
-    # --------------------------------------------------------------- report
-
     def report(self) -> dict:
         """The JSON-ready summary printed by ``tradeoff fit --json`` for this response."""
         self._check_fitted()
-        labels = self.terms_
-        saturated = self.residual_df_ == 0
-
-        def per_term(values, skip_intercept=False):
-            if values is None:
-                return None
-            return {lab: _num(v) for lab, v in zip(labels, values)
-                    if not (skip_intercept and lab == "intercept")}
-
-        out = {
-            "response": self.name,
-            "transform": self.transform,
-            "model": self.terms if isinstance(self.terms, str) else list(self.terms),
-            "n": self.n_,
-            "terms": list(labels),
-            "coefficients": per_term(self.coef_),
-            "effects": per_term(self.effects_, skip_intercept=True),
-            "std_errors": None if saturated else per_term(self.std_errors_),
-            "t_values": None if saturated else per_term(self.t_values_),
-            "p_values": None if saturated else per_term(self.p_values_),
-            "sums_of_squares": per_term(self.sum_squares_, skip_intercept=True),
-            "residual_df": self.residual_df_,
-            "r2": _num(self.r2_), "adj_r2": _num(self.adj_r2_),
-            "pred_r2": _num(self.pred_r2_), "residual_sd": _num(self.residual_sd_),
-            "lenth": None if self.lenth_ is None else {
-                "pse": _num(self.lenth_.pse), "me": _num(self.lenth_.me),
-                "sme": _num(self.lenth_.sme), "df": _num(self.lenth_.df)},
-            "half_normal": None if self.half_normal_ is None else [
-                {"term": r.term, "effect": _num(r.effect), "quantile": _num(r.quantile)}
-                for r in self.half_normal_.itertuples()],
-            "aliases": {k: list(v) for k, v in self.aliases_.items()},
-            "blocks": _clean(self.blocks_),
-            "anova": _clean(self.anova_),
-            "natural_coefficients": _clean(self.natural_coefficients_),
-            "box_cox": _clean(self.box_cox_),
-            "reduction": None if self.reduction_ is None else {
-                "from": list(self.requested_terms_), "dropped": dict(self.reduction_)},
-            "flagged_runs": list(self.flagged_runs_),
-            "confidence": self.confidence,
-            "warnings": list(self.warnings_),
-        }
-        return out
+        return response_report(self)
 
 
-# Variance inflation above this marks a term as nearly aliased (a VIF above 10
-# is the usual sign of serious collinearity; Montgomery, Design and Analysis of
-# Experiments, "common practice").
-NEAR_ALIAS_VIF = 10.0
-
-
-def _near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray,
-                      R: np.ndarray | None = None) -> list[str]:
-    """A warning per term whose variance inflation factor is above NEAR_ALIAS_VIF.
-
-    VIF_j = diag((X'X)^-1)_j * sum((x_j - mean x_j)^2), the usual centred VIF
-    when the model has an intercept; 1 for every term of an orthogonal design.
-    Exactly aliased terms were already left out, so this flags runs whose
-    settings nearly tie two terms together (a factor that hardly changes apart
-    from another), where coefficients become large and unstable.
-    """
-    if not any(t.is_intercept for t in terms):
-        return []
-    notes = []
-    if R is not None and terms[0].is_intercept:
-        # M = QR with the column of ones first: R[0, j]^2 = n mean_j^2, so the
-        # rest of column j of R holds its centred sum of squares (no n x p pass).
-        centred = np.einsum("ij,ij->j", R[1:], R[1:])
-    else:
-        centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
-    for t, c, ss in zip(terms, cdiag, centred):
-        if t.is_intercept or ss == 0:
-            continue
-        vif = float(c * ss)
-        if vif > NEAR_ALIAS_VIF:
-            notes.append(f"term '{t.label}' is nearly aliased with other terms in these "
-                         f"runs (variance inflation {vif:.3g}, above {NEAR_ALIAS_VIF:g}): "
-                         "its coefficient is poorly determined: check the factor "
-                         "settings, or add runs that set the factors apart")
-    return notes
-
-
-def _effect_index(terms) -> list[int]:
-    """Positions of the factor effects (no intercept, square or block term)."""
-    return [i for i, t in enumerate(terms)
-            if not (t.is_intercept or t.is_square or t.is_block)]
-
-
-def _blank(value) -> bool:
+def is_blank(value) -> bool:
     if value is None:
         return True
     if isinstance(value, (float, np.floating)):
         return not math.isfinite(value)
     return isinstance(value, str) and not value.strip()
-
-
-def _num(v):
-    if v is None:
-        return None
-    v = float(v)
-    return v if math.isfinite(v) else None
-
-
-def _clean(obj):
-    """NaN and infinities -> None, numpy scalars -> Python, recursively (valid JSON)."""
-    if isinstance(obj, dict):
-        return {k: _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, (bool, np.bool_)):
-        return bool(obj)
-    if isinstance(obj, (int, np.integer)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        return _num(obj)
-    return obj
-
-
-# ------------------------------------------------------------------ study level
-
-
-@dataclass(frozen=True)
-class StudyFit:
-    """Fitted models of a study's responses.
-
-    ``models``: response name -> fitted ResponseModel, in study order.
-    ``skipped``: response name -> why it has no model (the error message).
-    """
-
-    study: object
-    models: dict = field(default_factory=dict)
-    skipped: dict = field(default_factory=dict)
-
-    def predict(self, settings) -> pd.DataFrame:
-        """Predictions at settings in natural units (categorical by level name).
-
-        Returns a tidy table with columns point (row position of the settings),
-        response, predicted, ci_low, ci_high, pi_low, pi_high.
-        """
-        from ..study.coding import to_coded
-
-        if isinstance(settings, dict):
-            settings = pd.DataFrame({k: np.atleast_1d(v) for k, v in settings.items()})
-        if not isinstance(settings, pd.DataFrame):
-            raise DataError("settings must be a table (or dict) with one column per factor")
-        missing = [f.name for f in self.study.factors if f.name not in settings.columns]
-        if missing:
-            raise DataError(f"settings have no column for factor(s) {missing}: give a "
-                            "value for every factor")
-        try:
-            X = to_coded(self.study.factors, settings)
-        except (ValueError, TypeError):
-            raise DataError("settings of numeric factors must be numbers: check the "
-                            "values given") from None
-        cols = ["point", "response", "predicted", "ci_low", "ci_high", "pi_low", "pi_high"]
-        frames = []
-        for name, model in self.models.items():
-            table = model.intervals(X)
-            table.insert(0, "response", name)
-            table.insert(0, "point", np.arange(X.shape[0]))
-            frames.append(table)
-        if not frames:
-            return pd.DataFrame(columns=cols)
-        return pd.concat(frames, ignore_index=True)[cols]
-
-    def report(self) -> dict:
-        """``{"responses": {name: model.report()}, "skipped": {name: reason}}``."""
-        return {"responses": {k: m.report() for k, m in self.models.items()},
-                "skipped": dict(self.skipped)}
-
-
-def fit_response(study, name: str, *, reduce: bool = False, terms=None,
-                 alpha: float = DEFAULT_ALPHA, keep=None, drop=None) -> ResponseModel:
-    """Fit one response of a study (with block terms when its runs fall in blocks).
-
-    ``terms`` overrides the study's model (a name or a list of terms); ``keep``
-    and ``drop`` override the response's ``keep_terms`` / ``drop_terms`` keys.
-    Raises ModelError when the response cannot be modelled.
-    """
-    response = study.response(name)
-    if study.runs is None:
-        raise StudyError(f"study '{study.name}' has no runs loaded: load it with its data")
-    if name not in study.runs.columns:
-        raise ModelError(f"response '{name}' has no values in the runs yet (it is "
-                         "computed from a storage or panel table): compute it first")
-    spec = terms if terms is not None else study.model_for(response)
-    if not isinstance(spec, str):
-        spec = list(spec)
-    keep = response.extra.get("keep_terms", ()) if keep is None else keep
-    drop = response.extra.get("drop_terms", ()) if drop is None else drop
-    model = ResponseModel(terms=spec, factor_names=study.factor_names,
-                          transform=response.transform, confidence=study.confidence,
-                          name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
-                          factors=study.factors, block_name=study.block_column or "block")
-    return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
-                     study.runs["run"].to_numpy(), block=study.block_labels())
-
-
-def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
-    """Fit every response of a study (or those named in ``responses``).
-
-    A response that cannot be modelled is listed in ``skipped`` with the
-    reason, so the others can still be used.
-    """
-    names = study.response_names if responses is None else list(responses)
-    for name in names:
-        study.response(name)  # unknown names are an error, not a skip
-    models: dict[str, ResponseModel] = {}
-    skipped: dict[str, str] = {}
-    for name in study.response_names:
-        if name not in names:
-            continue
-        try:
-            models[name] = fit_response(study, name, reduce=reduce)
-        except ModelError as exc:
-            skipped[name] = str(exc)
-    return StudyFit(study=study, models=models, skipped=skipped)

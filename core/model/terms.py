@@ -22,9 +22,14 @@ from ..errors import ModelError
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
            "qr", "QRFactors", "find_aliases", "hierarchy_closure", "named_model_size",
-           "BlockTerm", "block_terms"]
+           "BlockTerm", "block_terms", "model_label"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
+
+
+def model_label(model) -> str:
+    """A model as text: its name, or ``terms: a, b, a:b`` for a list of terms."""
+    return model if isinstance(model, str) else "terms: " + ", ".join(model)
 
 # A column counts as linearly dependent on the earlier ones when what is left
 # of it after projection is this small relative to its length. Exact aliasing in

@@ -176,7 +176,7 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     if dropped:
         notes = list(notes) + [f"{dropped} term(s) of the model cannot be estimated "
                                "from these runs (aliased with earlier terms)"]
-    from ..report.summary import model_label
+    from ..model.terms import model_label
 
     label = model_label(model)
     return DesignEvaluation(model=label, runs=n, parameters=rank, error_df=error_df,

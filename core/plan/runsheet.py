@@ -113,7 +113,8 @@ def plan_command(args) -> tuple[dict, str]:
 
     Returns the JSON report and the text for the terminal.
     """
-    from .designs import augment_study, plan_runs
+    from .augment import augment_study
+    from .designs import plan_runs
     from .evaluation import evaluate_design, evaluate_plan
     from ..derive.load import load_study
 

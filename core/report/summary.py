@@ -3,9 +3,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..model.terms import model_label
 from ..study.spec import Study
 
-__all__ = ["study_summary", "summary_text", "model_label"]
+__all__ = ["study_summary", "summary_text"]
 
 
 def study_summary(study: Study) -> dict:
@@ -64,11 +65,6 @@ def _blocks(study) -> dict | None:
     levels = block_terms(labels, 0)[2]
     return {"column": study.block_column,
             "runs": {lev: int((labels == lev).sum()) for lev in levels}}
-
-
-def model_label(model) -> str:
-    """A model as text: its name, or ``terms: a, b, a:b`` for a list of terms."""
-    return model if isinstance(model, str) else "terms: " + ", ".join(model)
 
 
 def summary_text(summary: dict) -> str:

@@ -11,8 +11,8 @@ import pytest
 from tradeoff import PlanError, load_study
 from tradeoff.plan.aliases import (LETTERS, alias_chains, defining_subgroup, parse_word,
                               resolution, word_length_pattern)
-from tradeoff.plan.designs import (GENERATOR_TABLE, augment_study, choose_block_words,
-                              fold_over, fractional_design, plan_runs)
+from tradeoff.plan.designs import GENERATOR_TABLE, choose_block_words, fold_over, fractional_design, plan_runs
+from tradeoff.plan.augment import augment_study
 from tradeoff.plan.evaluation import evaluate_design
 
 from conftest import DEMO

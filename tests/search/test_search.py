@@ -21,9 +21,9 @@ from tradeoff.cli import main
 from tradeoff.errors import SearchError
 from tradeoff.derive.load import study_from_dict
 
-DATA = Path(__file__).parent / "data"
+DATA = Path(__file__).resolve().parents[1] / "data"
 TIRE = DATA / "tire_tread_1980.toml"
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "snack_bar.toml"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "snack_bar.toml"
 
 
 @pytest.fixture(scope="module")
@@ -73,7 +73,7 @@ def test_same_seed_same_answer(tire_result):
 
 def test_overall_desirability_helper_matches_reference():
     study = load_study(TIRE)
-    from tradeoff.model.fit import fit_study
+    from tradeoff.model.study_fit import fit_study
 
     fit = fit_study(study)
     X = np.random.default_rng(0).uniform(-1, 1, (50, 3))
@@ -176,7 +176,7 @@ def test_demo_study_alternative_per_binder():
     # every level combination with D > 0 gets its own peak among the answers; the
     # rice-syrup peak is checked against a 41^3 grid with the binder fixed
     study = load_study(DEMO)
-    from tradeoff.model.fit import fit_study
+    from tradeoff.model.study_fit import fit_study
 
     fit = fit_study(study)
     result = optimize(study, fit=fit, top=3, seed=0)

@@ -162,16 +162,16 @@ def test_uploaded_report_fingerprints_the_named_data_file(monkeypatch):
     # with it (common practice: the fingerprint identifies the data used).
     import hashlib
 
-    import tradeoff.report.page
+    import tradeoff.report.workbook
 
     seen = {}
-    build = tradeoff.report.page.build_workbook
+    build = tradeoff.report.workbook.build_workbook
 
     def spy(*args, **kwargs):
         seen["data_bytes"] = kwargs.get("data_bytes")
         return build(*args, **kwargs)
 
-    monkeypatch.setattr(tradeoff.report.page, "build_workbook", spy)
+    monkeypatch.setattr(tradeoff.report.workbook, "build_workbook", spy)
     other = b"run,note\n1,first batch\n"
     at = start("study")
     at.file_uploader[0].set_value([("study.toml", BASIC_STUDY.encode(), "application/toml"),

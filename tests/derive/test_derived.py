@@ -8,14 +8,15 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from tradeoff.derive.derived import DERIVED_COLUMNS, derivation_table, describe_derivation
+from tradeoff.derive.options import DERIVED_COLUMNS
+from tradeoff.derive.derived import derivation_table, describe_derivation
 from tradeoff.errors import DataError, StudyError
 from tradeoff.cautions import SHELF_LIFE_CAUTION
 from tradeoff.derive.load import load_study
 from tradeoff.study.writer import study_to_dict
 from tradeoff.report.summary import study_summary, summary_text
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
 
 RUNS = "run,protein\nR1,20\nR2,30\nR3,20\nR4,30\n"
 # R3 lacks week 8 (interpolated at 8), R4 stops at week 2 (too few points to fit).

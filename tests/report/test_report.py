@@ -22,14 +22,16 @@ import pytest
 import tradeoff
 from tradeoff.cli import main
 from tradeoff.errors import StudyError
-from tradeoff.model.fit import fit_study
-from tradeoff.report.page import (CAUTIONS, build_report_html, build_workbook, report_data,
-                             write_report)
+from tradeoff.model.study_fit import fit_study
+from tradeoff.report.data import CAUTIONS, report_data
+from tradeoff.report.html import build_report_html
+from tradeoff.report.workbook import build_workbook
+from tradeoff.report.write import write_report
 from tradeoff.search.search import optimize
 
-REPO = Path(__file__).resolve().parents[1]
+REPO = Path(__file__).resolve().parents[2]
 DEMO = REPO / "demo_data" / "snack_bar.toml"
-TIRE = Path(__file__).parent / "data" / "tire_tread_1980.toml"
+TIRE = Path(__file__).resolve().parents[1] / "data" / "tire_tread_1980.toml"
 NOW = dt.datetime(2026, 1, 15, 9, 30, tzinfo=dt.timezone.utc)
 TOP, SEED = 3, 0
 
@@ -152,7 +154,7 @@ def test_workbook_sheets_and_numbers(tire):
         assert name in sheets
     assert "confirmations" not in sheets  # the study lists none
     assert len(sheets["runs"]) == 20
-    runs = pd.read_csv(Path(__file__).parent / "data" / "tire_tread_1980.csv")
+    runs = pd.read_csv(Path(__file__).resolve().parents[1] / "data" / "tire_tread_1980.csv")
     models = sheets["models"].set_index("response")
     terms = sheets["terms"]
     for y in ("y1", "y3"):

@@ -13,8 +13,8 @@ from tradeoff import load_study
 from tradeoff.report.exports import (CAUTION, results_csv_bytes,
                               solutions_table, study_toml_bytes)
 from tradeoff.inputs import with_response_model
-from tradeoff.model.fit import fit_study
-from tradeoff.report.page import build_workbook
+from tradeoff.model.study_fit import fit_study
+from tradeoff.report.workbook import build_workbook
 from tradeoff.search.search import optimize
 from tradeoff.derive.load import study_from_dict
 

@@ -38,7 +38,7 @@ def test_round_trip_plan_fill_load_fit(demo_copy, suffix):
     """Plan, fill in responses from a known model, load the sheet unchanged as
     the study's data file, fit: the coefficients come back (numpy least
     squares on the plan's coded matrix as the independent check)."""
-    from tradeoff.model.fit import fit_study
+    from tradeoff.model.study_fit import fit_study
 
     study = load_study(demo_copy, with_data=False)
     plan = plan_runs(study, center=4, seed=7)

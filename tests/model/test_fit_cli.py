@@ -7,7 +7,7 @@ import pytest
 
 from tradeoff.cli import main
 
-from test_models import RUNS, STUDY
+from test_fit import RUNS, STUDY
 
 REQUIRED = {"n", "terms", "coefficients", "effects", "std_errors", "p_values",
             "residual_df", "r2", "adj_r2", "pred_r2", "lenth", "aliases", "warnings"}

@@ -71,7 +71,7 @@ def test_interaction_means_match_a_groupby(demo):
 
 @pytest.fixture(scope="module")
 def fitted(demo):
-    from tradeoff.model.fit import fit_study
+    from tradeoff.model.study_fit import fit_study
 
     return fit_study(demo)
 
@@ -108,7 +108,7 @@ def test_effect_lines_without_residual_df_are_lenths(write_study):
     from scipy import stats
 
     from tradeoff.report.maps import effect_lines, effect_table
-    from tradeoff.model.fit import fit_study
+    from tradeoff.model.study_fit import fit_study
 
     study_text = ("[study]\nname = \"sat\"\ndata = \"runs.csv\"\nmodel = \"full\"\n"
                   + "".join(f"[[factors]]\nname = \"{n}\"\nlow = -1\nhigh = 1\n"

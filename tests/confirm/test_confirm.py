@@ -26,7 +26,7 @@ from tradeoff.study.confirmations import confirmation_runs
 from tradeoff.errors import DataError, StudyError
 from tradeoff.study.writer import study_to_dict
 
-DATA = Path(__file__).parent / "data" / "tire_tread_1980.csv"
+DATA = Path(__file__).resolve().parents[1] / "data" / "tire_tread_1980.csv"
 
 TIRE = """\
 [study]

@@ -12,10 +12,11 @@ import pytest
 from scipy import stats
 
 from tradeoff.errors import ModelError
-from tradeoff.model.fit import ResponseModel, StudyFit, fit_response, fit_study
+from tradeoff.model.fit import ResponseModel
+from tradeoff.model.study_fit import StudyFit, fit_response, fit_study
 from tradeoff.derive.load import load_study
 
-DATA = Path(__file__).parent / "data"
+DATA = Path(__file__).resolve().parents[1] / "data"
 
 
 def factorial(k: int) -> np.ndarray:

@@ -1,0 +1,181 @@
+"""The derived-response keys of a study file: which kinds exist, what each needs,
+and the check of every ``derive = ...`` response when the study loads.
+"""
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+
+from ..errors import StudyError, did_you_mean
+from .storage import DIRECTIONS, ORDERS
+from ..study.spec import SECTION_KEYS, Response, Study
+from ..study.reader import check_keys
+
+__all__ = ["STORAGE_KINDS", "PANEL_KINDS", "DERIVE_KINDS", "DERIVED_COLUMNS",
+           "check_derived"]
+
+STORAGE_KINDS = ("value_at", "change", "rate", "time_to_limit")
+PANEL_KINDS = ("panel_mean", "panel_adjusted")
+DERIVE_KINDS = STORAGE_KINDS + PANEL_KINDS
+
+# The columns of every per-run derivation table.
+DERIVED_COLUMNS = ["run", "value", "points", "se", "r_squared", "flag"]
+
+_USES = {
+    "value_at": {"property", "at", "extrapolate", "order", "min_points"},
+    "change": {"property", "at", "from", "relative", "extrapolate", "order", "min_points"},
+    "rate": {"property", "order", "min_points"},
+    "time_to_limit": {"property", "limit", "direction", "order", "min_points"},
+    "panel_mean": {"attribute", "min_points"},
+    "panel_adjusted": {"attribute", "min_points"},
+}
+_NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
+          "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
+          "panel_mean": ("attribute",), "panel_adjusted": ("attribute",)}
+_DERIVE_KEYS = set().union(*_USES.values()) | {"derive"}
+# Agreement below this correlation with the rest of the panel is reported.
+_DEFAULT_AGREEMENT = 0.3
+_POOR_FIT_R2 = 0.8
+
+
+def _fname(study: Study) -> str:
+    return study.source.name if study.source is not None else "study"
+
+
+def _num(value, fname, what) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or \
+            not math.isfinite(value):
+        raise StudyError(f"{fname}: {what} must be a number, found {value!r}")
+    return float(value)
+
+
+def _section(study: Study, name: str) -> dict | None:
+    fname = _fname(study)
+    sec = study.spec.get(name)
+    if sec is None:
+        return None
+    if not isinstance(sec, dict):
+        raise StudyError(f"{fname}: [{name}] must be a table of keys")
+    check_keys(sec, SECTION_KEYS[name], fname, f"[{name}]")
+    if not isinstance(sec.get("data"), str) or not sec["data"].strip():
+        raise StudyError(f"{fname}: [{name}] needs data = \"<file name>\" naming the "
+                         f"{name} table")
+    path = Path(sec["data"])
+    if study.source is not None and not path.is_absolute():
+        path = study.source.parent / path
+    out = {"data": path, "sheet": sec.get("sheet")}
+    if name == "storage":
+        for key in ("time", "time_unit"):
+            if key in sec and (not isinstance(sec[key], str) or not sec[key].strip()):
+                raise StudyError(f"{fname}: [storage] {key} must be a name in quotes, "
+                                 "for example time = \"week\"")
+        out["time"] = sec.get("time", "time").strip()
+        out["time_unit"] = sec.get("time_unit", out["time"] + "s").strip()
+    else:
+        scale = sec.get("scale")
+        if not isinstance(scale, list) or len(scale) != 2:
+            raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
+                             "and highest score allowed, for example scale = [1, 9]")
+        lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
+        if lo >= hi:
+            raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
+                             "must come first and be below the high end")
+        out["scale"] = (lo, hi)
+        agree = _num(sec.get("min_agreement", _DEFAULT_AGREEMENT), fname,
+                     "[panel] min_agreement")
+        if not -1 <= agree <= 1:
+            raise StudyError(f"{fname}: [panel] min_agreement = {agree:g} must be a "
+                             "correlation between -1 and 1, such as 0.3")
+        out["min_agreement"] = agree
+    return out
+
+
+def _options(study: Study, r: Response) -> dict:
+    """The response's derivation options, checked, with defaults filled in."""
+    fname = _fname(study)
+    what = f"[[responses]] '{r.name}'"
+    ex = r.extra
+    kind = ex.get("derive")
+    if kind is None or kind is False or kind == "":
+        used = sorted(k for k in ex if k in _DERIVE_KEYS)
+        if used:
+            raise StudyError(f"{fname}: {what}: '{used[0]}' is only used with derive = "
+                             f"\"...\" (one of {', '.join(DERIVE_KINDS)}): add derive "
+                             "or remove the key")
+        return {}
+    if kind not in DERIVE_KINDS:
+        raise StudyError(f"{fname}: {what}: derive = '{kind}' is not one I know: use one "
+                         f"of {', '.join(DERIVE_KINDS)}{did_you_mean(kind, DERIVE_KINDS)}")
+    for key in ex:
+        if key in _DERIVE_KEYS and key != "derive" and key not in _USES[kind]:
+            raise StudyError(f"{fname}: {what}: '{key}' is not used with derive = "
+                             f"'{kind}' (it uses {', '.join(sorted(_USES[kind]))}): "
+                             "remove it")
+    for key in _NEEDS[kind]:
+        if key not in ex:
+            raise StudyError(f"{fname}: {what}: derive = '{kind}' needs {key} = ...")
+    section = "storage" if kind in STORAGE_KINDS else "panel"
+    if study.spec.get(section) is None:
+        raise StudyError(f"{fname}: {what}: derive = '{kind}' reads the {section} table, "
+                         f"but the study file has no [{section}] section: add one "
+                         f"([{section}] with data = \"{section}.csv\")")
+    opts = {"kind": kind, "section": section}
+    for key in ("property", "attribute"):
+        if key in ex:
+            if not isinstance(ex[key], str) or not ex[key].strip():
+                raise StudyError(f"{fname}: {what}: {key} must be a name in quotes, as "
+                                 f"written in the {section} table")
+            opts[key] = ex[key].strip()
+    for key in ("at", "from"):
+        if key in ex:
+            opts[key] = _num(ex[key], fname, f"{what} {key}")
+            if opts[key] < 0:
+                raise StudyError(f"{fname}: {what}: {key} = {opts[key]:g} is before the "
+                                 "start of storage: use a time of 0 or more")
+    if "from" in opts and opts["from"] == opts["at"]:
+        raise StudyError(f"{fname}: {what}: from and at are both {opts['at']:g}: a change "
+                         "needs two different times")
+    for key in ("relative", "extrapolate"):
+        if key in ex and not isinstance(ex[key], bool):
+            raise StudyError(f"{fname}: {what}: {key} must be true or false, found "
+                             f"{ex[key]!r}")
+        opts[key] = bool(ex.get(key, False))
+    order = ex.get("order", "zero")
+    if order not in ORDERS:
+        raise StudyError(f"{fname}: {what}: order = '{order}' is not one I know: use "
+                         "'zero' (straight line) or 'first' (log-linear)")
+    opts["order"] = order
+    if "limit" in ex:
+        opts["limit"] = _num(ex["limit"], fname, f"{what} limit")
+        if order == "first" and opts["limit"] <= 0:
+            raise StudyError(f"{fname}: {what}: a first-order fit cannot reach a limit "
+                             f"of {opts['limit']:g}: use a limit above 0 or order = 'zero'")
+    if "direction" in ex:
+        if ex["direction"] not in DIRECTIONS:
+            raise StudyError(f"{fname}: {what}: direction = '{ex['direction']}' is not "
+                             "one I know: use 'up' (the property rises to the limit) or "
+                             "'down' (it falls to it)")
+        opts["direction"] = ex["direction"]
+    default_min = 3 if kind in ("rate", "time_to_limit") else (
+        2 if kind in PANEL_KINDS else 3)
+    mp = ex.get("min_points", default_min)
+    if isinstance(mp, bool) or not isinstance(mp, int) or mp < 1:
+        raise StudyError(f"{fname}: {what}: min_points must be a whole number of 1 or "
+                         f"more, found {mp!r}")
+    if kind in ("rate", "time_to_limit") and mp < 2:
+        raise StudyError(f"{fname}: {what}: a fitted line needs min_points of 2 or more")
+    opts["min_points"] = mp
+    return opts
+
+
+def check_derived(study: Study) -> None:
+    """Check the [storage] and [panel] sections and every derived response's keys.
+
+    Raises ``StudyError`` with a one-line message naming the file, the section
+    or response and the key. Needs no data.
+    """
+    for name in ("storage", "panel"):
+        _section(study, name)
+    for r in study.responses:
+        _options(study, r)

@@ -1,0 +1,51 @@
+"""Warnings a fit attaches to its terms: nearly aliased terms; which terms are effects."""
+from __future__ import annotations
+
+
+import numpy as np
+
+
+__all__ = ["NEAR_ALIAS_VIF", "near_alias_notes", "effect_index"]
+
+
+# Variance inflation above this marks a term as nearly aliased (a VIF above 10
+# is the usual sign of serious collinearity; Montgomery, Design and Analysis of
+# Experiments, "common practice").
+NEAR_ALIAS_VIF = 10.0
+
+
+def near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray,
+                      R: np.ndarray | None = None) -> list[str]:
+    """A warning per term whose variance inflation factor is above NEAR_ALIAS_VIF.
+
+    VIF_j = diag((X'X)^-1)_j * sum((x_j - mean x_j)^2), the usual centred VIF
+    when the model has an intercept; 1 for every term of an orthogonal design.
+    Exactly aliased terms were already left out, so this flags runs whose
+    settings nearly tie two terms together (a factor that hardly changes apart
+    from another), where coefficients become large and unstable.
+    """
+    if not any(t.is_intercept for t in terms):
+        return []
+    notes = []
+    if R is not None and terms[0].is_intercept:
+        # M = QR with the column of ones first: R[0, j]^2 = n mean_j^2, so the
+        # rest of column j of R holds its centred sum of squares (no n x p pass).
+        centred = np.einsum("ij,ij->j", R[1:], R[1:])
+    else:
+        centred = np.sum((M - M.mean(axis=0)) ** 2, axis=0)
+    for t, c, ss in zip(terms, cdiag, centred):
+        if t.is_intercept or ss == 0:
+            continue
+        vif = float(c * ss)
+        if vif > NEAR_ALIAS_VIF:
+            notes.append(f"term '{t.label}' is nearly aliased with other terms in these "
+                         f"runs (variance inflation {vif:.3g}, above {NEAR_ALIAS_VIF:g}): "
+                         "its coefficient is poorly determined: check the factor "
+                         "settings, or add runs that set the factors apart")
+    return notes
+
+
+def effect_index(terms) -> list[int]:
+    """Positions of the factor effects (no intercept, square or block term)."""
+    return [i for i, t in enumerate(terms)
+            if not (t.is_intercept or t.is_square or t.is_block)]

@@ -1,0 +1,110 @@
+"""Every response of a study fitted at once, and predictions in natural units."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from ..errors import DataError, ModelError, StudyError
+from .fit import DEFAULT_ALPHA, ResponseModel
+
+__all__ = ["StudyFit", "fit_study", "fit_response"]
+
+
+@dataclass(frozen=True)
+class StudyFit:
+    """Fitted models of a study's responses.
+
+    ``models``: response name -> fitted ResponseModel, in study order.
+    ``skipped``: response name -> why it has no model (the error message).
+    """
+
+    study: object
+    models: dict = field(default_factory=dict)
+    skipped: dict = field(default_factory=dict)
+
+    def predict(self, settings) -> pd.DataFrame:
+        """Predictions at settings in natural units (categorical by level name).
+
+        Returns a tidy table with columns point (row position of the settings),
+        response, predicted, ci_low, ci_high, pi_low, pi_high.
+        """
+        from ..study.coding import to_coded
+
+        if isinstance(settings, dict):
+            settings = pd.DataFrame({k: np.atleast_1d(v) for k, v in settings.items()})
+        if not isinstance(settings, pd.DataFrame):
+            raise DataError("settings must be a table (or dict) with one column per factor")
+        missing = [f.name for f in self.study.factors if f.name not in settings.columns]
+        if missing:
+            raise DataError(f"settings have no column for factor(s) {missing}: give a "
+                            "value for every factor")
+        try:
+            X = to_coded(self.study.factors, settings)
+        except (ValueError, TypeError):
+            raise DataError("settings of numeric factors must be numbers: check the "
+                            "values given") from None
+        cols = ["point", "response", "predicted", "ci_low", "ci_high", "pi_low", "pi_high"]
+        frames = []
+        for name, model in self.models.items():
+            table = model.intervals(X)
+            table.insert(0, "response", name)
+            table.insert(0, "point", np.arange(X.shape[0]))
+            frames.append(table)
+        if not frames:
+            return pd.DataFrame(columns=cols)
+        return pd.concat(frames, ignore_index=True)[cols]
+
+    def report(self) -> dict:
+        """``{"responses": {name: model.report()}, "skipped": {name: reason}}``."""
+        return {"responses": {k: m.report() for k, m in self.models.items()},
+                "skipped": dict(self.skipped)}
+
+
+def fit_response(study, name: str, *, reduce: bool = False, terms=None,
+                 alpha: float = DEFAULT_ALPHA, keep=None, drop=None) -> ResponseModel:
+    """Fit one response of a study (with block terms when its runs fall in blocks).
+
+    ``terms`` overrides the study's model (a name or a list of terms); ``keep``
+    and ``drop`` override the response's ``keep_terms`` / ``drop_terms`` keys.
+    Raises ModelError when the response cannot be modelled.
+    """
+    response = study.response(name)
+    if study.runs is None:
+        raise StudyError(f"study '{study.name}' has no runs loaded: load it with its data")
+    if name not in study.runs.columns:
+        raise ModelError(f"response '{name}' has no values in the runs yet (it is "
+                         "computed from a storage or panel table): compute it first")
+    spec = terms if terms is not None else study.model_for(response)
+    if not isinstance(spec, str):
+        spec = list(spec)
+    keep = response.extra.get("keep_terms", ()) if keep is None else keep
+    drop = response.extra.get("drop_terms", ()) if drop is None else drop
+    model = ResponseModel(terms=spec, factor_names=study.factor_names,
+                          transform=response.transform, confidence=study.confidence,
+                          name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
+                          factors=study.factors, block_name=study.block_column or "block")
+    return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+                     study.runs["run"].to_numpy(), block=study.block_labels())
+
+
+def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
+    """Fit every response of a study (or those named in ``responses``).
+
+    A response that cannot be modelled is listed in ``skipped`` with the
+    reason, so the others can still be used.
+    """
+    names = study.response_names if responses is None else list(responses)
+    for name in names:
+        study.response(name)  # unknown names are an error, not a skip
+    models: dict[str, ResponseModel] = {}
+    skipped: dict[str, str] = {}
+    for name in study.response_names:
+        if name not in names:
+            continue
+        try:
+            models[name] = fit_response(study, name, reduce=reduce)
+        except ModelError as exc:
+            skipped[name] = str(exc)
+    return StudyFit(study=study, models=models, skipped=skipped)
