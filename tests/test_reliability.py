@@ -241,8 +241,8 @@ CASES = [
     Case("csv-blank-factor", _basic(_runs("2,30,", "2,,")),
          error=r"^runs\.csv, row 3, column 'protein': blank factor setting"),
     Case("csv-duplicate-run-id", _basic(_runs("\n3,", "\n2,")),
-         error=r"^runs\.csv, row 4, column 'run': run id '2' is used again \(first at "
-               r"row 3\)"),
+         error=r"^runs\.csv, rows 3 and 4, column 'protein': run '2' has two settings "
+               r"\(30 and 20\)"),
     Case("csv-decimal-comma-with-comma-separator",
          _basic(_runs("18.5", '"18,5"')),
          error=r"^runs\.csv, row 2, column 'hardness': expected a number, found '18,5': "

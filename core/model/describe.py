@@ -52,6 +52,8 @@ def response_report(model) -> dict:
         "flagged_runs": list(model.flagged_runs_),
         "confidence": model.confidence,
         "warnings": list(model.warnings_),
+        # measurement noise against batch noise (model/pieces.py), set by fit_response
+        "pieces": clean_json(getattr(model, "pieces_", None)),
     }
     return out
 

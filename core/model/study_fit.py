@@ -8,6 +8,8 @@ import pandas as pd
 
 from ..errors import DataError, ModelError, StudyError
 from .fit import DEFAULT_ALPHA, ResponseModel
+from .pieces import piece_components
+from .transforms import forward
 
 __all__ = ["StudyFit", "fit_study", "fit_response"]
 
@@ -85,8 +87,31 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
                           transform=response.transform, confidence=study.confidence,
                           name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
                           factors=study.factors, block_name=study.block_column or "block")
-    return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
-                     study.runs["run"].to_numpy(), block=study.block_labels())
+    model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+              study.runs["run"].to_numpy(), block=study.block_labels())
+    model.pieces_ = _pieces(study, response, model)
+    return model
+
+
+def _pieces(study, response, model) -> dict | None:
+    """Measurement noise against batch noise when the response's runs have pieces."""
+    table = getattr(study, "pieces", None)
+    if table is None:
+        return None
+    table = table[table["response"] == response.name]
+    if table.empty:
+        return None
+    values = table["value"].to_numpy(dtype=float)
+    scale = model.transform
+    try:
+        values = forward(values, scale, response=response.name)
+    except ModelError:
+        return None  # a piece the transform cannot take: no split on the model's scale
+    return piece_components(values, table["run"].to_numpy(dtype=object),
+                            [str(i) for i in model.residuals_.index],
+                            residual_sd=model.residual_sd_,
+                            residual_df=model.residual_df_, unit=response.unit,
+                            scale=scale)
 
 
 def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:

@@ -92,6 +92,12 @@ def _response_text(r: dict) -> list[str]:
                   "none of the offered transforms (none, sqrt, log) lies in that range")
         out.append(f"  Box-Cox: lambda {bc['lambda']:.2f} (range {bc['low']:.2f} to "
                    f"{bc['high']:.2f}): {advice}")
+    pc = r.get("pieces")
+    if pc is not None:
+        out.append(f"  pieces: {pc['runs_with_several']} runs measured in several pieces "
+                   f"({pc['pieces']} pieces); SD within a batch {_f(pc['within_sd'], '.3g')} "
+                   f"({pc['within_df']} df), batch to batch {_f(pc['batch_sd'], '.3g')}")
+        out.append(f"  {pc['summary']}")
     for w in r["warnings"]:
         out.append(f"  warning: {w}")
     return out

@@ -40,6 +40,7 @@ def study_summary(study: Study) -> dict:
                  "goal": r.goal.kind, "model": model_label(study.model_for(r))}
         if len(present):
             entry["min"], entry["max"] = float(present.min()), float(present.max())
+        entry["pieces"] = _pieces(study, r.name)
         if r.is_derived:
             from ..derive.derived import describe_derivation  # late: derived reads Study
 
@@ -53,6 +54,18 @@ def study_summary(study: Study) -> dict:
             "blocks": _blocks(study),
             "constraints": [c["rule"] for c in study.constraints],
             "warnings": list(study.notes)}
+
+
+def _pieces(study, name: str) -> dict | None:
+    """Runs measured in several pieces and the pieces in all (None: one value a run)."""
+    table = getattr(study, "pieces", None)
+    if table is None:
+        return None
+    counts = table.loc[table["response"] == name, "run"].value_counts()
+    if not (counts > 1).any():
+        return None
+    return {"runs_with_several": int((counts > 1).sum()), "pieces": int(counts.sum()),
+            "most": int(counts.max()), "fewest": int(counts.min())}
 
 
 def _blocks(study) -> dict | None:
@@ -94,6 +107,13 @@ def summary_text(summary: dict) -> str:
         span = (f", {r['min']:g} .. {r['max']:g}{unit}" if "min" in r else "")
         lines.append(f"  {r['name']:<20} {r['measured']} measured, {r['blank']} blank"
                      f"{span}; goal {r['goal']}; model {r['model']}")
+        pc = r.get("pieces")
+        if pc:
+            each = (f"{pc['most']} each" if pc["most"] == pc["fewest"]
+                    else f"{pc['fewest']} to {pc['most']} each")
+            lines.append(f"  {'':<20} pieces: {pc['runs_with_several']} runs measured in "
+                         f"several pieces ({pc['pieces']} pieces, {each}); the model "
+                         "uses each run's mean")
         if "derived" in r:
             lines.append(f"  {'':<20} derived: " + r.get("derived_how", ", ".join(
                 f"{k} = {v}" for k, v in r["derived"].items())))

@@ -13,6 +13,7 @@ from pathlib import Path
 
 from ..errors import StudyError, did_you_mean
 from .constraints import check_rules
+from .pieces import piece_columns
 from .spec import (GOALS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS, Factor, Goal,
                    Response, Study, _GOAL_KEYS)
 
@@ -219,6 +220,8 @@ def _response(table: dict, fname: str, index: int) -> Response:
                          f"use one of {', '.join(TRANSFORMS)}")
     # Keys that other modules registered (derived responses, for example).
     extra = {k: v for k, v in table.items() if k not in _BASE_RESPONSE_KEYS}
+    if "columns" in extra:
+        extra["columns"] = piece_columns(table, fname, what)
     return Response(name=name, label=str(table.get("label", name)),
                     unit=str(table.get("unit", "")), goal=_goal(table, fname, what),
                     model=model, terms=terms, transform=transform, extra=extra)

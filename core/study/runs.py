@@ -14,6 +14,7 @@ import pandas as pd
 
 from ..errors import DataError, did_you_mean, where
 from .intake import RawTable, cell_text, parse_number, read_table
+from .pieces import check_same_settings, pieces_table, run_groups, run_means
 from .spec import Study
 from .reader import _fmt, _rows
 
@@ -68,18 +69,16 @@ def attach_runs(study: Study, table: RawTable) -> Study:
                 raise DataError(f"{where(fname, row, 'run')}blank run id: give every "
                                 "run an id, or delete the 'run' column to number runs "
                                 "automatically")
-        seen: dict[str, int] = {}
-        for row, run in zip(row_numbers, ids):
-            if run in seen:
-                raise DataError(f"{where(fname, row, 'run')}run id '{run}' is used "
-                                f"again (first at row {seen[run]}): give each run its "
-                                "own id")
-            seen[run] = row
     else:
         ids = [str(i) for i in range(1, len(row_numbers) + 1)]
+    # Rows sharing a run id are pieces of one batch (study/pieces.py): they must
+    # agree on every setting, and the run's responses are their means.
+    codes, first = run_groups(ids)
     data["run"] = ids
 
     notes: list[str] = []
+    piece_frames: list[pd.DataFrame] = []
+    response_names = {r.name for r in study.responses if not r.is_derived}
     for f in study.factors:
         raw = cells_of(column_index(f.name, f"factor '{f.name}'"))
         if f.is_categorical:
@@ -92,6 +91,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
                                     f"expected one of the levels {list(f.levels)}: fix "
                                     "the cell or add the level to the study file")
                 values.append(text)
+            check_same_settings(fname, f.name, values, ids, row_numbers, codes, first)
             data[f.name] = values
             if len(set(values)) < 2:
                 notes.append(f"factor '{f.name}' is '{values[0]}' in every run: its "
@@ -105,6 +105,7 @@ def attach_runs(study: Study, table: RawTable) -> Study:
                 values.append(parse_number(cell, decimal_comma=table.decimal_comma,
                                            location=where(fname, row, f.name)))
             values = np.array(values)
+            check_same_settings(fname, f.name, values, ids, row_numbers, codes, first)
             data[f.name] = values
             tol = 1e-9 * max(1.0, abs(f.high - f.low))
             outside = [row for row, v in zip(row_numbers, values)
@@ -119,25 +120,42 @@ def attach_runs(study: Study, table: RawTable) -> Study:
     for r in study.responses:
         if r.is_derived:
             continue  # computed from a storage or panel table, not read here
-        raw = cells_of(column_index(r.name, f"response '{r.name}'"))
-        values = np.array([parse_number(c, decimal_comma=table.decimal_comma,
-                                        location=where(fname, row, r.name))
-                           for row, c in zip(row_numbers, raw)])
-        data[r.name] = values
-        blank = [ids[i] for i in np.flatnonzero(np.isnan(values))]
-        if len(blank) == len(values):
-            raise DataError(f"{fname}, column '{r.name}': every cell is blank: enter "
+        sources = r.extra.get("columns") or [r.name]
+        if r.extra.get("columns") and r.name in columns:
+            raise DataError(f"{fname}: response '{r.name}' is a column of its own and "
+                            f"also listed in columns = {list(sources)}: keep one (delete "
+                            "or rename the column, or remove columns from the study file)")
+        pieces = np.column_stack([
+            [parse_number(c, decimal_comma=table.decimal_comma,
+                          location=where(fname, row, name))
+             for row, c in zip(row_numbers, cells_of(column_index(
+                 name, f"response '{r.name}'" + (" (listed in its columns)"
+                                                 if name != r.name else ""))))]
+            for name in sources]).astype(float)
+        if np.isnan(pieces).all():
+            raise DataError(f"{fname}, column '{sources[0]}': every cell is blank: enter "
                             "the measurements, or remove the response from the study")
+        data[r.name], count = run_means(pieces, codes, len(first))
+        if (count > 1).any():
+            piece_frames.append(pieces_table(r.name, pieces, list(sources), ids,
+                                             row_numbers))
+            several = int((count > 1).sum())
+            notes.append(f"response '{r.name}': {several} run(s) measured in several "
+                         f"pieces ({int(count.sum())} pieces in all): each run's value "
+                         "is the mean of its pieces; the model counts runs, not pieces")
+        values = data[r.name]
+        blank = [ids[first[i]] for i in np.flatnonzero(np.isnan(values))]
         if blank:
             notes.append(f"response '{r.name}': run(s) {', '.join(blank)} blank, "
                          "left out of its model only")
         if r.transform in ("log", "sqrt"):
-            bad = values[~np.isnan(values)]
+            bad = pieces[~np.isnan(pieces)]
             if (r.transform == "log" and (bad <= 0).any()) or (bad < 0).any():
                 raise DataError(f"{fname}, column '{r.name}': transform = "
                                 f"'{r.transform}' needs positive values: remove the "
                                 "transform or check the data")
-    modelled = {f.name for f in study.factors} | {r.name for r in study.responses} | {"run"}
+    modelled = ({f.name for f in study.factors} | {r.name for r in study.responses}
+                | {"run"} | {c for r in study.responses for c in r.extra.get("columns") or ()})
     for name, index in columns.items():
         if name not in modelled:
             data[name] = cells_of(index)
@@ -155,9 +173,21 @@ def attach_runs(study: Study, table: RawTable) -> Study:
                                 "column: fill it in, or delete the column if the runs "
                                 "were not made in blocks")
             labels.append(text)
+        check_same_settings(fname, block, labels, ids, row_numbers, codes, first,
+                            what="block")
         data[block] = labels
-    runs = pd.DataFrame(data, index=pd.Index(row_numbers, name="row"))
-    return replace(study, runs=runs, notes=tuple(notes))
+    # One row per run (its first row in the file); responses are already run means.
+    data = {k: v if k in response_names else _first_of_run(v, first)
+            for k, v in data.items()}
+    runs = pd.DataFrame(data, index=pd.Index(np.asarray(row_numbers)[first], name="row"))
+    piece_table = (pd.concat(piece_frames, ignore_index=True) if piece_frames else None)
+    return replace(study, runs=runs, notes=tuple(notes), pieces=piece_table)
+
+
+def _first_of_run(values, first: np.ndarray):
+    if isinstance(values, np.ndarray):
+        return values[first]
+    return [values[i] for i in first]
 
 
 def _refuse_title_rows(study: Study, table: RawTable) -> None:

@@ -42,6 +42,8 @@ SECTION_KEYS: dict[str, set[str]] = {
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
     # terms pinned in or out of a response's model (core/models.py)
     | {"keep_terms", "drop_terms"}
+    # several columns of one row holding pieces of one batch (study/pieces.py)
+    | {"columns"}
     # derived responses (core/derived.py): computed from [storage] or [panel]
     | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
        "direction", "min_points", "extrapolate"},
@@ -169,6 +171,9 @@ class Study:
     notes: tuple[str, ...] = ()
     spec: dict = field(default_factory=dict, compare=False, repr=False)
     blocks: str | None = None
+    # Pieces of a batch (study/pieces.py): one row per measured piece, columns
+    # run, response, row, column, value; None when every run has one value.
+    pieces: pd.DataFrame | None = field(default=None, compare=False, repr=False)
 
     @property
     def block_column(self) -> str | None:

@@ -81,7 +81,8 @@ def test_missing_study_file(tmp_path):
     (BASIC_RUNS.replace("run,protein,binder,hardness", "run,protein,binder,hardness,protein"),
      r"runs.csv, row 1, column 'protein': the column name appears twice"),
     (BASIC_RUNS.replace("5,25", "4,25"),
-     r"runs.csv, row 6, column 'run': run id '4' is used again \(first at row 5\)"),
+     # a repeated id is a second piece of that batch: its settings must agree
+     r"runs.csv, rows 5 and 6, column 'protein': run '4' has two settings \(30 and 25\)"),
     ("run,protein,binder,hardness\n", r"runs.csv: the table has a header but no runs"),
     ("", r"runs.csv: the table is empty"),
     (BASIC_RUNS.replace("18.5", "").replace("27.0", "").replace("16.0", "")
