@@ -43,6 +43,9 @@ def build_parser() -> argparse.ArgumentParser:
                      help="fit only this response (may be given more than once)")
     fit.add_argument("--reduce", action="store_true",
                      help="drop terms that are not needed (keeping the model hierarchical)")
+    fit.add_argument("--compare", action="store_true",
+                     help="rank the models main, interactions, quadratic and smooth by how "
+                          "well each predicts runs left out of its fit")
     fit.set_defaults(run=_run_fit)
 
     plan = commands.add_parser(
@@ -109,6 +112,24 @@ def build_parser() -> argparse.ArgumentParser:
                            "chance of meeting every limit")
     best.set_defaults(run=_run_optimize)
 
+    make_next = commands.add_parser(
+        "next", help="suggest the next runs to make: those most likely to improve the "
+                     "best balance (expected improvement of D)")
+    make_next.add_argument("study", help="the study file (.toml) with goals and runs")
+    make_next.add_argument("--runs", type=_at_least_one, required=True, metavar="N",
+                           help="how many runs to suggest")
+    make_next.add_argument("--seed", type=_seed, default=None, metavar="S",
+                           help="seed of the candidates and draws (default: the study's "
+                                "seed)")
+    make_next.add_argument("--min-distance", type=_positive, default=None, metavar="D",
+                           help="no suggestion closer than D coded units to a run made or "
+                                "another suggestion (default 0.3)")
+    make_next.add_argument("--json", action="store_true", help="print the batch as JSON")
+    make_next.add_argument("--out", metavar="SHEET",
+                           help="also write the suggestions as a run sheet (.csv or .xlsx) "
+                                "with the data file's columns, responses blank")
+    make_next.set_defaults(run=_run_next)
+
     app = commands.add_parser(
         "app", help="open the point-and-click workbench in your web browser")
     app.add_argument("study", nargs="?",
@@ -137,6 +158,17 @@ def _whole_number(minimum: int):
 
 
 _seed = _whole_number(0)
+
+
+def _positive(text: str) -> float:
+    """An argparse type: a number above 0."""
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(f"expected a number above 0, found '{text}'")
+    return value
 _at_least_one = _whole_number(1)
 
 
@@ -194,10 +226,51 @@ def _run_fit(args) -> int:
         if not report["responses"]:
             raise TradeoffError("no response could be modelled: "
                                 + "; ".join(report["skipped"].values()))
+    comparisons, not_compared = {}, {}
+    if args.compare:
+        from .model.compare import compare_models
+
+        comparisons, not_compared = compare_models(study, responses=args.response)
+        for name, c in comparisons.items():
+            entry = report["responses"].get(name)
+            if entry is not None:
+                entry.update(comparison=c.to_list(), comparison_method=c.method,
+                             best_model=c.best, comparison_notes=list(c.notes))
+        report["not_compared"] = not_compared
     if args.json:
         print(json.dumps(report, indent=2))
+    elif args.compare:
+        from .model.compare import comparison_text
+
+        print(comparison_text(comparisons, not_compared), end="")
     else:
         print(fit_text(report), end="")
+    return 0
+
+
+def _run_next(args) -> int:
+    from .derive.load import load_study
+    from .search.next_batch import DEFAULT_MIN_DISTANCE, next_batch
+
+    study = load_study(args.study)
+    distance = DEFAULT_MIN_DISTANCE if args.min_distance is None else args.min_distance
+    batch = next_batch(study, runs=args.runs, seed=args.seed, min_distance=distance)
+    path = None
+    if args.out:
+        from .plan.runsheet import write_run_sheet
+
+        # refuses the study file, its data file and a sheet holding measurements
+        path = write_run_sheet(batch.sheet, args.out, study=study)
+    if args.json:
+        from .report.provenance import provenance
+
+        out = batch.to_dict() | {"sheet": None if path is None else str(path)}
+        print(json.dumps(out | {"provenance": provenance(study, seed=batch.seed)},
+                         indent=2))
+    else:
+        print(batch.text())
+        if path is not None:
+            print(f"wrote {path}")
     return 0
 
 

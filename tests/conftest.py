@@ -55,3 +55,49 @@ def write_study(tmp_path):
         return path
 
     return write
+
+
+# An invented peaked response (liking with one sharp peak and flat shoulders)
+# on a 5 x 5 grid: a quadratic cannot follow it, a smooth model can. The peak
+# sits at coded (0.3, -0.2), that is sugar 4.6 g, acid 0.26 g.
+PEAKED_STUDY = """\
+[study]
+name = "peaked (invented)"
+data = "runs.csv"
+model = "{model}"
+
+[[factors]]
+name = "sugar"
+unit = "g"
+low = 2
+high = 6
+
+[[factors]]
+name = "acid"
+unit = "g"
+low = 0.1
+high = 0.5
+
+[[responses]]
+name = "liking"
+goal = "maximize"
+lower = 4
+upper = 8
+"""
+
+
+def peaked_runs(seed: int = 11) -> str:
+    """The invented peaked data: 25 grid runs, seeded noise (SD 0.05)."""
+    import numpy as np
+
+    rng = np.random.default_rng(seed)
+    levels = np.linspace(-1, 1, 5)
+    rows = ["run,sugar,acid,liking"]
+    run = 0
+    for a in levels:
+        for b in levels:
+            run += 1
+            liking = 4 + 4 * np.exp(-((a - 0.3) ** 2 + (b + 0.2) ** 2) / (2 * 0.35 ** 2))
+            liking += rng.normal(0, 0.05)
+            rows.append(f"{run},{4 + 2 * a:g},{0.3 + 0.2 * b:g},{liking:.4f}")
+    return "\n".join(rows) + "\n"

@@ -33,6 +33,9 @@ PUBLIC_NAMES = sorted([
     "overall_desirability",
     "provenance", "ConfirmationCheck", "check_confirmations", "confirmation_runs",
     "build_report_html", "build_workbook", "report_data", "write_report",
+    # smooth models, the model comparison and the next batch (issue 17)
+    "SmoothModel", "ModelComparison", "compare_models", "NextBatch", "SuggestedRun",
+    "next_batch", "normal_ei",
 ])
 
 

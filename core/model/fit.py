@@ -538,6 +538,16 @@ class ResponseModel:
         se = np.sqrt(np.einsum("ij,ij->i", A, A)) * self.sigma_
         return mean, se, float(self.sigma_), int(self.sigma_df_)
 
+    def mean_covariance(self, X1, X2) -> np.ndarray:
+        """Covariance of the fitted means between two sets of settings (n1, n2),
+        modelling scale: ``sigma^2 m(x1)' (X'X)^-1 m(x2)`` with ``(X'X)^-1 = Rinv Rinv'``
+        (NaN without an estimate of sigma). The next batch uses it to update the
+        uncertainty after a run it plans (core/search/next_batch.py)."""
+        self._check_fitted()
+        A = self._matrix(X1) @ self._Rinv
+        B = self._matrix(X2) @ self._Rinv
+        return float(self.sigma_) ** 2 * (A @ B.T)
+
     def predict(self, X_coded) -> np.ndarray:
         """Mean prediction in natural units (for log: the back-transformed mean, a median)."""
         self._check_fitted()

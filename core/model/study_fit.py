@@ -81,6 +81,14 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     spec = terms if terms is not None else study.model_for(response)
     if not isinstance(spec, str):
         spec = list(spec)
+    if spec == "smooth":
+        from .smooth import SmoothModel  # a Gaussian process: no terms to keep or drop
+
+        model = SmoothModel(factor_names=study.factor_names, transform=response.transform,
+                            confidence=study.confidence, name=name, factors=study.factors,
+                            seed=study.seed)
+        return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+                         study.runs["run"].to_numpy(), block=study.block_labels())
     keep = response.extra.get("keep_terms", ()) if keep is None else keep
     drop = response.extra.get("drop_terms", ()) if drop is None else drop
     model = ResponseModel(terms=spec, factor_names=study.factor_names,

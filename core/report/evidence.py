@@ -34,6 +34,12 @@ class _EvidenceSections(_Sections):
                 out.append("<p>Not modelled.</p></div>")
                 continue
             rep = self.data["models"][r.name]
+            if rep["model"] == "smooth":
+                out.append(_smooth_section(rep))
+                out.append(self._flagged(r.name, rep))
+                out.extend(f'<p class="note">Note: {esc(w)}</p>' for w in rep["warnings"])
+                out.append("</div>")
+                continue
             out.append(self._fit_stats(rep))
             out.append(_chart_div(_effects_chart(r, rep, alpha)))
             out.append(self._terms_table(rep, alpha))
@@ -166,3 +172,21 @@ class _EvidenceSections(_Sections):
         out.append('<div class="scroll">' + _table(head, rows, numeric=numeric,
                                                     cls="runs") + "</div>")
         return "".join(out)
+
+
+def _smooth_section(rep: dict) -> str:
+    """A smooth model: its fit statistics and length scales (it has no terms)."""
+    rows = [["model", "smooth (Gaussian process: no terms, effects or p-values)"],
+            ["runs used", str(rep["n"])],
+            ["R2 (share of variation explained)", _r2(rep["r2"])],
+            ["leave-one-out R2 (how well it predicts runs left out)", _r2(rep["loo_r2"])],
+            ["leave-one-out RMSE", _g(rep["loo_rmse"])],
+            ["noise standard deviation", _g(rep["noise_sd"])]]
+    scales = sorted(rep["length_scales"].items(), key=lambda kv: kv[1] or 0.0)
+    lengths = [[esc(f), _g(v), _g(rep["length_scales_natural"].get(f))] for f, v in scales]
+    return (_table(["fit statistic", "value"], rows, raw=True, numeric={1})
+            + "<p><b>Length scales</b>: how far (coded units, and in the factor's own "
+              "units) a factor must move before the response changes appreciably; short "
+              "= it matters a lot, long = it hardly matters.</p>"
+            + _table(["factor", "length scale (coded)", "in its units"], lengths,
+                     numeric={1, 2}))

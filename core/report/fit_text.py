@@ -103,11 +103,31 @@ def _response_text(r: dict) -> list[str]:
     return out
 
 
+def _smooth_text(r: dict) -> list[str]:
+    """A smooth model's block: length scales and leave-one-out R2 (no effects)."""
+    scale = "" if r["transform"] == "none" else f", modelled as {r['transform']}(response)"
+    out = [f"{r['response']}: smooth model (Gaussian process){scale}; {r['n']} runs",
+           f"  R2 {_f(r['r2'], '.4f')}   leave-one-out R2 {_f(r['loo_r2'], '.4f')}   "
+           f"leave-one-out RMSE {_f(r['loo_rmse'])}   noise SD {_f(r['noise_sd'])}", "",
+           f"  {'factor':<28}{'length scale (coded)':>22}{'in its units':>16}"]
+    order = sorted(r["length_scales"], key=lambda f: r["length_scales"][f] or 0.0)
+    for f in order:
+        out.append(f"  {f:<28}{_f(r['length_scales'][f]):>22}"
+                   f"{_f(r['length_scales_natural'].get(f)):>16}")
+    out.append("  a short length scale: the response changes quickly along that factor; "
+               "a long one: it hardly changes")
+    out.append(f"  share of the variation in the noise term {_f(r['noise_share'], '.2f')}; "
+               f"hyperparameters from {r['restarts'] + 1} seeded starts (seed {r['seed']})")
+    for w in r["warnings"]:
+        out.append(f"  warning: {w}")
+    return out
+
+
 def fit_text(report: dict) -> str:
     """Text tables of ``StudyFit.report()``: one block per response, then skipped ones."""
     lines: list[str] = []
     for r in report["responses"].values():
-        lines += _response_text(r)
+        lines += _smooth_text(r) if r["model"] == "smooth" else _response_text(r)
         lines.append("")
     for name, reason in report.get("skipped", {}).items():
         lines.append(f"{name}: no model: {reason}")

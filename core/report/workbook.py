@@ -87,20 +87,27 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         factors.append(row)
     tables["factors"] = pd.DataFrame(factors)
 
-    model_rows, term_rows = [], []
+    model_rows, term_rows, scale_rows = [], [], []
     alpha = 1 - study.confidence
     for name, rep in data["models"].items():
         anova = rep.get("anova") or {}
         lof, curv = anova.get("lack_of_fit") or {}, anova.get("curvature") or {}
+        smooth = rep["model"] == "smooth"  # a Gaussian process: no terms (model/smooth.py)
         model_rows.append({
             "response": name, "model": model_label(rep["model"]),
             "transform": rep["transform"], "runs used": rep["n"],
-            "terms": len(rep["terms"]), "residual df": rep["residual_df"],
-            "R2": rep["r2"], "adjusted R2": rep["adj_r2"], "predicted R2": rep["pred_r2"],
+            "terms": None if smooth else len(rep["terms"]),
+            "residual df": rep.get("residual_df"),
+            "R2": rep["r2"], "adjusted R2": rep.get("adj_r2"), "predicted R2": rep["pred_r2"],
             "residual sd": rep["residual_sd"], "lack of fit p": lof.get("p"),
             "curvature p": curv.get("p"),
             "flagged runs": ", ".join(rep["flagged_runs"]),
             "warnings": " | ".join(rep["warnings"])})
+        if smooth:
+            scale_rows += [{"response": name, "factor": f, "length scale (coded)": v,
+                            "in its units": rep["length_scales_natural"].get(f)}
+                           for f, v in rep["length_scales"].items()]
+            continue
         for term in rep["terms"]:
             term_rows.append({
                 "response": name, "term": term,
@@ -115,6 +122,8 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
     tables["terms"] = pd.DataFrame(term_rows, columns=["response", "term", "coefficient",
                                                        "effect", "std error", "p value",
                                                        "clear"])
+    if scale_rows:
+        tables["length scales"] = pd.DataFrame(scale_rows)
     tables["goals"] = pd.DataFrame(_goal_rows(study))
 
     sol_rows = []

@@ -23,7 +23,8 @@ __all__ = [
 GOALS = ("maximize", "minimize", "target", "range", "none")
 # A study file is a page of text; anything this large is the wrong file.
 MAX_STUDY_BYTES = 1024 * 1024
-MODELS = ("main", "interactions", "full", "quadratic")
+# "smooth" is a Gaussian process (core/model/smooth.py), the others polynomials.
+MODELS = ("main", "interactions", "full", "quadratic", "smooth")
 TRANSFORMS = ("none", "log", "sqrt")
 
 _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",

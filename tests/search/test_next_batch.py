@@ -1,0 +1,130 @@
+"""The next batch: expected improvement against its closed form, and the batch's rules."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy import integrate, stats
+
+from conftest import DEMO, PEAKED_STUDY, peaked_runs
+from tradeoff.errors import SearchError
+from tradeoff.search.next_batch import _Goals, expected_improvement, next_batch, normal_ei
+
+
+def test_normal_ei_matches_its_closed_form_and_a_numerical_integral():
+    # Jones, Schonlau & Welch (1998), eq. 15: at mu = best, EI = sd * phi(0).
+    assert normal_ei(1.0, 2.0, 1.0) == pytest.approx(2.0 / math.sqrt(2 * math.pi))
+    for mu, sd, best in [(0.3, 0.2, 0.5), (0.9, 0.1, 0.5), (0.5, 1.5, -1.0)]:
+        # E[max(Y - best, 0)] for Y ~ N(mu, sd^2), by quadrature
+        value, _ = integrate.quad(lambda y: (y - best) * stats.norm.pdf(y, mu, sd),
+                                  best, mu + 12 * sd)
+        assert normal_ei(mu, sd, best) == pytest.approx(value, rel=1e-7)
+    assert normal_ei(0.7, 0.0, 0.5) == pytest.approx(0.2)
+    assert normal_ei(0.3, 0.0, 0.5) == 0.0
+
+
+def test_monte_carlo_ei_of_d_matches_the_closed_form_where_d_is_linear(write_study):
+    # One response, maximize with limits far outside the predictive: D = (y - L) / (U - L)
+    # is linear, so EI of D is the normal closed form with mean and SD scaled.
+    from tradeoff import load_study
+
+    spec = PEAKED_STUDY.format(model="interactions").replace(
+        "lower = 4\nupper = 8", "lower = -100\nupper = 100")
+    study = load_study(write_study(spec, peaked_runs()))
+    from tradeoff.model.study_fit import fit_study
+
+    fit = fit_study(study)
+    goals = _Goals(study, fit.models)
+    X = np.array([[0.0, 0.0], [0.3, -0.2], [1.0, 1.0]])
+    mu, sd = goals.moments(X)
+    E = np.random.default_rng(0).standard_normal((200_000, 1))
+    best = 0.52
+    ei = expected_improvement(goals, X, mu, sd, best, E)
+    closed = normal_ei((mu[:, 0] + 100) / 200, sd[:, 0] / 200, best)
+    # Monte Carlo error: sd/200 * 0.6 / sqrt(200000), a few parts in 1e5 of sd/200
+    np.testing.assert_allclose(ei, closed, atol=5 * sd[:, 0].max() / 200 / math.sqrt(2e5))
+
+
+def batch_fit(study):
+    from tradeoff.model.study_fit import fit_study
+
+    return fit_study(study)
+
+
+def _peaked(write_study, model="smooth", extra=""):
+    from tradeoff import load_study
+
+    return load_study(write_study(PEAKED_STUDY.format(model=model) + extra, peaked_runs()))
+
+
+RULE = """
+[[constraints]]
+rule = "sugar + 4*acid <= 6"
+"""
+
+
+def test_batch_lies_in_the_region_obeys_the_rules_and_keeps_its_distances(write_study):
+    from tradeoff.study.constraints import rules_satisfied
+
+    study = _peaked(write_study, "quadratic", RULE)
+    batch = next_batch(study, runs=4, seed=2, draws=128, min_distance=0.3)
+    X = np.array([[s.coded["sugar"], s.coded["acid"]] for s in batch.runs])
+    assert len(X) == 4
+    assert (np.abs(X) <= 1 + 1e-12).all()
+    assert rules_satisfied(study, X).all()
+    made = study.coded().to_numpy()
+    everything = np.vstack([made, X])
+    for i in range(len(made), len(everything)):
+        gaps = np.linalg.norm(everything[:i] - everything[i], axis=1)
+        assert gaps.min() >= 0.3 - 1e-3  # settings are rounded to 1/1000 of the range
+    again = next_batch(study, runs=4, seed=2, draws=128, min_distance=0.3)
+    assert again.to_dict() == batch.to_dict()
+
+
+def test_smooth_batch_starts_at_the_peak_and_spreads(write_study):
+    study = _peaked(write_study)
+    batch = next_batch(study, runs=3, seed=0, draws=128)
+    first = batch.runs[0]
+    assert first.expected_improvement > 0
+    assert abs(first.coded["sugar"] - 0.3) < 0.35 and abs(first.coded["acid"] + 0.2) < 0.35
+    d = batch.to_dict()
+    assert set(d) >= {"runs", "best_so_far"}
+    assert set(d["runs"][0]) >= {"settings", "coded", "expected_improvement", "predicted",
+                                 "why"}
+    from tradeoff.search.problem import overall_desirability
+
+    D_made = overall_desirability(study, batch_fit(study), study.coded().to_numpy())[0]
+    assert d["best_so_far"]["desirability"] == pytest.approx(D_made.max(), rel=1e-5)
+    assert d["best_so_far"]["run"] == str(study.runs["run"].iloc[int(D_made.argmax())])
+
+
+def test_run_sheet_has_the_data_columns_blank_responses_and_suggested(write_study):
+    study = _peaked(write_study, "interactions")
+    batch = next_batch(study, runs=2, seed=0, draws=64)
+    sheet = batch.sheet
+    assert list(sheet.columns) == ["run", "sugar", "acid", "liking", "point"]
+    assert sheet["liking"].isna().all()
+    assert (sheet["point"] == "suggested").all()
+    assert list(sheet["run"]) == ["26", "27"]
+
+
+def test_bad_requests_are_one_line_errors(write_study):
+    study = _peaked(write_study, "interactions")
+    with pytest.raises(SearchError, match="whole number, 1 or more, found 0"):
+        next_batch(study, runs=0)
+    no_goal = _peaked(write_study, "interactions").with_goal(
+        "liking", type(study.response("liking").goal)())
+    with pytest.raises(SearchError, match="no response or factor has a goal"):
+        next_batch(no_goal, runs=2)
+
+
+def test_demo_batch_of_four_is_seeded():
+    from tradeoff import load_study
+
+    study = load_study(DEMO)
+    a = next_batch(study, runs=4, seed=5, draws=64)
+    b = next_batch(study, runs=4, seed=5, draws=64)
+    assert len(a.runs) == 4
+    assert a.to_dict() == b.to_dict()
+    assert all(s.settings["binder"] in ("rice syrup", "date paste") for s in a.runs)
