@@ -517,10 +517,24 @@ def _next_ids(ids: list[str], count: int) -> list[str]:
     return out
 
 
+def _data_columns(study) -> list[str]:
+    """The data file's column names in its own order (the loaded runs' when the
+    file cannot be read again)."""
+    from ..errors import TradeoffError
+    from ..study.runs import read_study_table
+
+    try:
+        header = read_study_table(study, study.data_path, sheet=study.sheet).header
+    except (TradeoffError, OSError, TypeError):
+        return list(study.runs.columns)
+    names = [str(h) for h in header if h not in (None, "")]
+    return names + [c for c in study.runs.columns if c not in names]
+
+
 def suggestion_sheet(study, suggestions) -> pd.DataFrame:
     """The run sheet of suggestions: the data file's columns, responses blank,
     ``point`` = ``suggested``, run ids continuing the study's."""
-    columns = list(study.runs.columns)
+    columns = _data_columns(study)
     if "point" not in columns:
         columns.append("point")
     ids = _next_ids([str(v) for v in study.runs["run"]], len(suggestions))
