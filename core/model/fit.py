@@ -34,6 +34,7 @@ from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_ma
                     model_terms, named_model_size, parse_term, term_label)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 from .describe import response_report
+from .equation import fitted_equations
 from .notes import effect_index, near_alias_notes
 from .solve import LeastSquares
 
@@ -58,6 +59,9 @@ class ResponseModel:
     keep, drop : terms pinned in (never dropped by reduction) or out (never fitted).
     factors : the study's Factor objects, for the equation in natural units.
     block_name : the data column the blocks passed to ``fit`` come from (for the report).
+    mixture : for a blend, a ``MixtureInfo`` (model/scheffe.py): the model has no
+        intercept (Scheffe), its blending terms have no +-1 effects, and the
+        equation is also given in proportions of the total.
     """
 
     def __init__(self, *, terms: str | Sequence[str] = "interactions",
@@ -65,7 +69,7 @@ class ResponseModel:
                  confidence: float = 0.95, name: str = "response", reduce: bool = False,
                  alpha: float = DEFAULT_ALPHA, keep: Sequence[str] = (),
                  drop: Sequence[str] = (), factors: Sequence | None = None,
-                 block_name: str = "block"):
+                 block_name: str = "block", mixture=None):
         self.terms = terms
         self.factor_names = factor_names
         self.transform = transform
@@ -77,6 +81,7 @@ class ResponseModel:
         self.drop = drop
         self.factors = factors
         self.block_name = block_name
+        self.mixture = mixture
 
     # ------------------------------------------------------------------ fit
 
@@ -148,6 +153,8 @@ class ResponseModel:
             Xs = np.sort(np.round(X, 9), axis=0)
             n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
         terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name)
+        if self.mixture is not None:  # Scheffe: the blending terms stand for the intercept
+            terms = [t for t in terms if not t.is_intercept]
         warnings += notes
         keep_terms = self._pinned(self.keep, terms, "keep")
         drop_terms = self._pinned(self.drop, terms, "drop")
@@ -265,7 +272,7 @@ class ResponseModel:
         log: dict[str, str] = {}
         sol = LeastSquares(M, z, qr)
         if sol.df == 0:
-            eff_idx = effect_index(terms)
+            eff_idx = self._effect_index(terms)
             if len(eff_idx) < 3:
                 return terms, M, log
             effects = 2 * sol.coef[eff_idx]
@@ -326,8 +333,9 @@ class ResponseModel:
         self.std_errors_ = None if sol.se is None else sol.se.copy()
         self.t_values_ = None if sol.t is None else sol.t.copy()
         self.p_values_ = None if sol.p is None else sol.p.copy()
-        self.effects_ = np.array([np.nan if (t.is_square or t.is_intercept or t.is_block)
-                                  else 2 * b for t, b in zip(terms, sol.coef)])
+        eff = set(self._effect_index(terms))
+        self.effects_ = np.array([2 * b if i in eff else np.nan
+                                  for i, b in enumerate(sol.coef)])
         with np.errstate(divide="ignore", invalid="ignore"):
             self.sum_squares_ = sol.coef ** 2 / sol.cdiag  # adjusted SS, 1 df each
 
@@ -336,7 +344,7 @@ class ResponseModel:
         self.half_normal_ = None
         self.sigma_, self.sigma_df_ = self.residual_sd_, self.residual_df_
         if sol.df == 0:
-            eff_idx = effect_index(terms)
+            eff_idx = self._effect_index(terms)
             if len(eff_idx) >= 3:
                 effects = self.effects_[eff_idx]
                 res = lenth(effects, level=self.confidence)
@@ -393,7 +401,9 @@ class ResponseModel:
         # Box-Cox suggestion on the natural scale with the same terms: on first use.
         self._box_cox_input = (y, sol.qr) if sol.df > 0 else None
         self._box_cox = None
-        self.natural_coefficients_ = self._natural(terms, sol.coef)
+        # the equation in natural units, or for a blend in proportions of the total
+        self.natural_coefficients_, self.proportion_coefficients_ = fitted_equations(
+            terms, sol.coef, self.factors, list(self.factor_names), self.mixture)
         self._warnings = warnings
         # What prediction needs, precomputed once: block columns are 0 at the
         # average block, so only the factor terms' rows take part.
@@ -475,40 +485,6 @@ class ResponseModel:
         self._check_fitted()
         return run_diagnostics(self._ids, self._diag)
 
-    def _natural(self, terms: list[Term], coef: np.ndarray) -> dict[str, float] | None:
-        """The fitted equation with numeric factors in natural units.
-
-        Categorical factors stay coded: -1 at their first level, +1 at their second.
-        """
-        if self.factors is None:
-            return None
-        k = len(self.factor_names)
-        poly: dict[tuple[int, ...], float] = {}
-        for t, b in zip(terms, coef):
-            if t.is_block:
-                continue  # the equation is for the average block
-            part = {(0,) * k: float(b)}
-            for j, pw in enumerate(t.powers):
-                if not pw:
-                    continue
-                f = self.factors[j]
-                c, h = (0.0, 1.0) if f.is_categorical else (f.centre, f.half_range)
-                new: dict[tuple[int, ...], float] = {}
-                for powers, val in part.items():
-                    for i in range(pw + 1):
-                        a = math.comb(pw, i) * (-c) ** (pw - i) / h ** pw
-                        if a == 0:
-                            continue
-                        q = list(powers)
-                        q[j] += i
-                        new[tuple(q)] = new.get(tuple(q), 0.0) + val * a
-                part = new
-            for powers, val in part.items():
-                poly[powers] = poly.get(powers, 0.0) + val
-        order = {t.powers: i for i, t in enumerate(terms) if not t.is_block}
-        keys = sorted(poly, key=lambda q: (sum(q), order.get(q, len(order)), q))
-        return {term_label(q, list(self.factor_names)): poly[q] for q in keys}
-
     # -------------------------------------------------------------- predict
 
     def _check_fitted(self) -> None:
@@ -582,7 +558,20 @@ class ResponseModel:
     def report(self) -> dict:
         """The JSON-ready summary printed by ``tradeoff fit --json`` for this response."""
         self._check_fitted()
-        return response_report(self)
+        out = response_report(self)
+        if self.mixture is not None:
+            # which units the coefficients are for, and the equation in proportions
+            out["mixture_scale"] = self.mixture.scale
+            out["proportion_coefficients"] = dict(self.proportion_coefficients_)
+        return out
+
+    def _effect_index(self, terms) -> list[int]:
+        """Positions of the factor effects: no blending term of a mixture model
+        (a proportion has no low-to-high effect), no intercept, square or block."""
+        idx = effect_index(terms)
+        if self.mixture is None:
+            return idx
+        return [i for i in idx if not self.mixture.is_mixture_term(terms[i])]
 
 
 def is_blank(value) -> bool:

@@ -91,11 +91,20 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
                          study.runs["run"].to_numpy(), block=study.block_labels())
     keep = response.extra.get("keep_terms", ()) if keep is None else keep
     drop = response.extra.get("drop_terms", ()) if drop is None else drop
+    X = study.coded().to_numpy()
+    mixture = None
+    if study.mixture is not None:
+        # Scheffe terms, no intercept; the linear blending terms are never dropped
+        from .scheffe import mixture_fit_options
+
+        spec, linear, mixture = mixture_fit_options(study, response, spec, X)
+        keep = list(keep) + [t for t in linear if t not in keep]
     model = ResponseModel(terms=spec, factor_names=study.factor_names,
                           transform=response.transform, confidence=study.confidence,
                           name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
-                          factors=study.factors, block_name=study.block_column or "block")
-    model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+                          factors=study.factors, block_name=study.block_column or "block",
+                          mixture=mixture)
+    model.fit(X, study.runs[name].to_numpy(dtype=float),
               study.runs["run"].to_numpy(), block=study.block_labels())
     model.pieces_ = _pieces(study, response, model)
     return model

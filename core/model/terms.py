@@ -22,7 +22,7 @@ from ..errors import ModelError
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
            "qr", "QRFactors", "find_aliases", "hierarchy_closure", "named_model_size",
-           "BlockTerm", "block_terms", "model_label"]
+           "BlockTerm", "block_terms", "model_label", "ContrastTerm"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 
@@ -43,6 +43,8 @@ class Term:
 
     label: str
     powers: tuple[int, ...]
+    # True for a term whose column is not a product of powers (ContrastTerm)
+    custom = False
 
     # Cached: a fit reads these for every term several times, and the Term
     # objects of a named model are shared between fits (model_terms caches them).
@@ -97,6 +99,47 @@ class BlockTerm(Term):
     @property
     def is_block(self) -> bool:
         return True
+
+
+@dataclass(frozen=True)
+class ContrastTerm(Term):
+    """The full cubic mixture model's x_a x_b (x_a - x_b), labelled ``a:b:(a-b)``.
+
+    It is not a product of powers, so its column comes from ``column``. Its
+    ``powers`` hold 2 for a and 1 for b (plus any process part): a key that no
+    plain term label can take (a square is never combined with another
+    factor), so it never clashes with ``a:b``, and ``a:b``, ``a`` and ``b``
+    count as its parents in the hierarchy.
+    """
+
+    first: int = 0
+    second: int = 0
+    custom = True
+
+    @classmethod
+    def make(cls, i: int, j: int, powers: Sequence[int], names: Sequence[str]):
+        rest = [p if n not in (i, j) else 0 for n, p in enumerate(powers)]
+        label = f"{names[i]}:{names[j]}:({names[i]}-{names[j]})"
+        if any(rest):
+            label += ":" + term_label(rest, names)
+        return cls(label, tuple(int(p) for p in powers), i, j)
+
+    @property
+    def order(self) -> int:
+        return 3 + sum(p for n, p in enumerate(self.powers) if n not in (self.first,
+                                                                          self.second))
+
+    @property
+    def is_square(self) -> bool:
+        return False
+
+    def column(self, X: np.ndarray) -> np.ndarray:
+        a, b = X[:, self.first], X[:, self.second]
+        out = a * b * (a - b)
+        for n, p in enumerate(self.powers):
+            if p and n not in (self.first, self.second):
+                out = out * X[:, n] ** p
+        return out
 
 
 def block_terms(block, k: int) -> tuple[list[BlockTerm], np.ndarray, list[str]]:
@@ -167,9 +210,11 @@ def parse_term(text: str, factor_names: Sequence[str], *, response: str = "respo
     if "*" in text:
         raise ModelError(f"{where}: join factor names with ':' (for example "
                          f"'{text.replace('*', ':')}'), not '*'")
+    parts = [part.strip() for part in text.split(":")]
+    if parts[-1].startswith("("):  # a full cubic mixture term a:b:(a-b)
+        return _contrast_term(parts, names, where)
     powers = [0] * len(names)
-    for part in text.split(":"):
-        part = part.strip()
+    for part in parts:
         base, power = part, 1
         if "^" in part:
             base, _, exp = part.partition("^")
@@ -192,6 +237,20 @@ def parse_term(text: str, factor_names: Sequence[str], *, response: str = "respo
         raise ModelError(f"{where}: a square cannot be combined with other factors: "
                          "use plain squares ('a^2') and two-factor interactions ('a:b')")
     return _term(powers, names)
+
+
+def _contrast_term(parts: list[str], names: list[str], where: str) -> Term:
+    """``a:b:(a-b)`` (a before b in study order), optionally with process factors."""
+    last = parts.pop()
+    if len(parts) < 2 or parts[0] not in names or parts[1] not in names \
+            or names.index(parts[0]) >= names.index(parts[1]) \
+            or last != f"({parts[0]}-{parts[1]})":
+        raise ModelError(f"{where}: a cubic blending term is written 'a:b:(a-b)', the "
+                         "two components in study order, for example "
+                         f"'{names[0]}:{names[1]}:({names[0]}-{names[1]})'")
+    rest = parse_term(":".join(parts[2:]), names).powers if parts[2:] else (0,) * len(names)
+    return ContrastTerm.make(names.index(parts[0]), names.index(parts[1]),
+                             tuple(rest), names)
 
 
 def named_model_size(model: str, k: int, n_squares: int | None = None) -> int:
@@ -225,6 +284,9 @@ def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
     -------
     terms, notes : the terms (intercept first, then by order) and remarks for the user.
     """
+    if not isinstance(spec, (str, bytes, dict)) and spec and all(
+            isinstance(t, Term) for t in spec):
+        return list(spec), []  # terms built already (mixture models, model/scheffe.py)
     key_spec = spec if isinstance(spec, str) else tuple(spec) if not isinstance(
         spec, (bytes, dict)) else spec
     try:
@@ -338,8 +400,12 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
     cache: dict[tuple[int, ...], np.ndarray] = {}
     for i, t in enumerate(terms):
         f = t.factors
-        if not f:
+        if t.custom:
+            out[:, i] = t.column(X)
+        elif not f:
             out[:, i] = 1.0
+        elif t.order != len(f) and len(f) > 1:  # a blend times a square (mixtures)
+            out[:, i] = np.prod([X[:, j] ** t.powers[j] for j in f], axis=0)
         elif t.is_square:
             col = X[:, f[0]]
             np.multiply(col, col, out=out[:, i])

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..study.constraints import rule_arrays
+from .mixture import simplex_region
 from .desirability import limits
 from ..errors import SearchError
 
@@ -57,9 +58,13 @@ class _Problem:
         self.k = len(factors)
         self.num = [j for j, f in enumerate(factors) if not f.is_categorical]
         self.cat = [j for j, f in enumerate(factors) if f.is_categorical]
+        # a blend: one component always makes up the rest (search/mixture.py)
+        self.region = simplex_region(study)
+        if self.region is not None:
+            self.num.remove(self.region.dep)
         self.centre = np.array([0.0 if f.is_categorical else f.centre for f in factors])
         self.half = np.array([1.0 if f.is_categorical else f.half_range for f in factors])
-        rng = [f.search_range for f in factors if not f.is_categorical]
+        rng = [factors[j].search_range for j in self.num]
         self.lo = np.array([(a - self.centre[j]) / self.half[j]
                             for (a, _), j in zip(rng, self.num)])
         self.hi = np.array([(b - self.centre[j]) / self.half[j]
@@ -72,6 +77,9 @@ class _Problem:
                            if kind == "factor"]
         self.weights = np.array([g.weight for g in self.goals])
         self.A, self.b = rule_arrays(study, coded=True)
+        if self.region is not None:  # the dependent component's own bounds
+            A, b = self.region.rules(self.k)
+            self.A, self.b = np.vstack([self.A, A]), np.concatenate([self.b, b])
         self.evaluations = 0
         self._goal_arrays()
         # Box bounds over every column (categorical ones unbounded), for clipping.
@@ -115,7 +123,7 @@ class _Problem:
 
     def values(self, X) -> np.ndarray:
         """(n, m) natural values of every goal column at coded points X (n, k)."""
-        X = np.atleast_2d(X)
+        X = self.tidy(np.atleast_2d(X))
         n = len(X)
         self.evaluations += n
         Y = np.empty((n, len(self.columns)))
@@ -153,16 +161,21 @@ class _Problem:
 
     def full(self, Z, cat_values) -> np.ndarray:
         """Numeric coded points Z (n, p) and categorical values -> (n, k)."""
-        if not self.cat:
+        if not self.cat and self.region is None:
             return np.asarray(Z, dtype=float)
-        X = np.empty((len(Z), self.k))
+        X = np.zeros((len(Z), self.k))
         X[:, self.num] = Z
         X[:, self.cat] = np.asarray(cat_values, dtype=float)
-        return X
+        return self.tidy(X)
+
+    def tidy(self, X) -> np.ndarray:
+        """X with a blend's dependent component making up the rest (X itself otherwise)."""
+        return X if self.region is None else self.region.complete(X)
 
     def feasible(self, X, tol=1e-7) -> np.ndarray:
         if len(self.b) == 0:
             return np.ones(len(X), dtype=bool)
+        X = self.tidy(np.atleast_2d(X))
         return np.all(X @ self.A.T - self.b <= tol * np.maximum(1.0, np.abs(self.b)), axis=1)
 
 
@@ -197,4 +210,6 @@ def _rule_parts(problem, cat_values):
         return None, None
     A_num = problem.A[:, problem.num]
     b_eff = problem.b - problem.A[:, problem.cat] @ np.asarray(cat_values, dtype=float)
+    if problem.region is not None:  # the dependent component is 1 - the others
+        return problem.region.substitute(problem.A, b_eff, problem.num)
     return A_num, b_eff

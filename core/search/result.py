@@ -13,6 +13,8 @@ import numpy as np
 import pandas as pd
 
 from .chance import chance_in_limits
+from .mixture import bound_warnings
+from ..study.mixture import is_component
 from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
 
 __all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
@@ -82,6 +84,9 @@ class Solution:
         Warnings about these settings (edge of the region, outside the data).
         Warnings about the whole search are in ``OptimizationResult.warnings``;
         ``OptimizationResult.to_dict`` lists both under each solution.
+    proportions : dict
+        For a blend: component name -> its proportion of the total (the
+        settings give the amounts); empty otherwise.
     """
 
     rank: int
@@ -96,10 +101,13 @@ class Solution:
     out_of_limits: tuple
     shortfall: float
     warnings: tuple
+    proportions: dict = field(default_factory=dict)
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
         r = _rounder(digits)
+        blend = {"proportions": {k: r(v) for k, v in self.proportions.items()}} \
+            if self.proportions else {}
         return {
             "rank": self.rank, "label": self.label,
             "settings": {k: (v if isinstance(v, str) else r(v))
@@ -115,7 +123,7 @@ class Solution:
             "chance_all": r(self.chance_all),
             "out_of_limits": list(self.out_of_limits),
             "warnings": list(self.warnings),
-        }
+        } | blend
 
 
 @dataclass(frozen=True)
@@ -220,7 +228,9 @@ class OptimizationResult:
                 shown = value if isinstance(value, str) else f"{value:.4g}"
                 code = s.coded[name]
                 code = f"{code:+d}" if isinstance(code, int) else f"{code:+.3f}"
-                lines.append(f"  {name:<18} {shown:>12}   (coded {code})")
+                share = s.proportions.get(name)
+                lines.append(f"  {name:<18} {shown:>12}   " + (
+                    f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
                          f"{'prediction interval':>23} {'chance':>7}")
             for name, o in s.responses.items():
@@ -309,7 +319,9 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             factor_desirability=factor_d,
             chance_all=_finite(chances.all[i]) if chances.responses else None,
             out_of_limits=out, shortfall=float(S[i]),
-            warnings=tuple(_point_warnings(study, problem, x, D[i]))))
+            warnings=tuple(_point_warnings(study, problem, x, D[i])),
+            proportions={f.name: settings[f.name] / f.total for f in study.factors
+                         if is_component(f)}))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
@@ -343,8 +355,11 @@ def _general_warnings(study, problem, models, fit) -> list[str]:
 def _point_warnings(study, problem, x, D) -> list[str]:
     out = []
     runs = study.runs
+    out += bound_warnings(study, x)  # components: their own bounds (search/mixture.py)
     for pos, j in enumerate(problem.num):
         f = study.factors[j]
+        if is_component(f):
+            continue
         value = f.centre + f.half_range * x[j]
         unit = f" {f.unit}" if f.unit else ""
         for side, bound, outward in (("low", problem.lo[pos], -1.0),

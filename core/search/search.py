@@ -168,7 +168,9 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
         # stretched past the region and clipped back onto its boundary.
         sob[n // 2:] = np.clip(0.5 + (sob[n // 2:] - 0.5) * 1.4, 0.0, 1.0)
         Z = problem.lo + sob * (problem.hi - problem.lo)
-        if p <= 10:
+        if problem.region is not None:  # a blend: candidates on the simplex instead
+            Z = problem.region.batch(sob, problem.num, problem.lo, problem.hi, rng)
+        elif p <= 10:
             corners = np.array(list(itertools.product([0.0, 1.0], repeat=p)))
             Z = np.vstack([Z, problem.lo + corners * (problem.hi - problem.lo)])
     else:
@@ -228,6 +230,7 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
         # All starts climb together first (one batch per step); starts that end in
         # the same place share one basin, and only one of them is polished.
         Xr, Dr, Yr = _climb(problem, Xs[chosen], Ds[chosen], Ys[chosen])
+        Xr = problem.tidy(Xr)
         reps = []
         near = (_distances(Xr) < min_distance).tolist()
         height = Dr.tolist()
@@ -255,7 +258,7 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
         optima_y += list(np.where(better, Yp, Yr[reps]))
     if not optima:  # only categorical factors: the batch is exhaustive
         optima, optima_y = list(X), list(Y)
-    Xo, Yo = np.array(optima), np.array(optima_y)
+    Xo, Yo = problem.tidy(np.array(optima)), np.array(optima_y)
     inside = problem.feasible(Xo)
     Xo, Yo = Xo[inside], Yo[inside]
     if not len(Xo):  # a polish drifted past a rule: fall back on the batch's best

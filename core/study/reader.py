@@ -14,6 +14,7 @@ from pathlib import Path
 from ..errors import StudyError, did_you_mean
 from .constraints import check_rules
 from .pieces import piece_columns
+from .mixture import MIXTURE_MODELS, PROCESS_MODES, build_components
 from .spec import (GOALS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS, Factor, Goal,
                    Response, Study, _GOAL_KEYS)
 
@@ -70,6 +71,9 @@ def build_study(spec: dict, *, source: str | Path | None = None,
 
     factors = tuple(_factor(f, fname, i) for i, f in
                     enumerate(_list_of_tables(spec, "factors", fname), start=1))
+    # blend components come first among the factors (study/mixture.py)
+    components, mixture = _mixture(spec, fname, [f.name for f in factors])
+    factors = components + factors
     if not factors:
         raise StudyError(f"{fname}: no factors: add at least one [[factors]] table "
                          "with a name and low/high or levels")
@@ -121,7 +125,7 @@ def build_study(spec: dict, *, source: str | Path | None = None,
         factors=factors, responses=responses, model=model, terms=terms,
         constraints=constraints, confidence=confidence, seed=seed, source=source,
         data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
-        spec=spec, uploads=dict(uploads or {}), blocks=blocks,
+        spec=spec, uploads=dict(uploads or {}), blocks=blocks, mixture=mixture,
     )
     return study
 
@@ -237,6 +241,62 @@ def _constraint(table: dict, fname: str, index: int) -> dict:
         raise StudyError(f"{fname}: {what}: needs rule = \"...\", for example "
                          "rule = \"protein + 2*glycerol <= 36\"")
     return {"rule": table["rule"].strip(), "label": str(table.get("label", table["rule"]))}
+
+
+def _mixture(spec: dict, fname: str, factor_names: list[str]):
+    """``[[components]]`` and ``[mixture]`` -> (components, Mixture), or ((), None)."""
+    tables = _list_of_tables(spec, "components", fname)
+    head = spec.get("mixture")
+    if not tables and head is None:
+        return (), None
+    if head is None:
+        raise StudyError(f"{fname}: [[components]] are given but no [mixture] section: "
+                         "add [mixture] with total = <what the components add up to>, "
+                         "for example total = 100")
+    if not isinstance(head, dict):
+        raise StudyError(f"{fname}: [mixture] must be a table of keys")
+    check_keys(head, SECTION_KEYS["mixture"], fname, "[mixture]")
+    if len(tables) < 2:
+        raise StudyError(f"{fname}: [mixture] needs at least two [[components]] "
+                         f"tables, found {len(tables)}")
+    if "total" not in head:
+        raise StudyError(f"{fname}: [mixture] needs total = <number>: what the "
+                         "components add up to in every run (100 for %, 1, or a batch "
+                         "mass)")
+    total = _positive(head["total"], fname, "[mixture] total")
+    choices = {"model": (head.get("model", "quadratic"), MIXTURE_MODELS),
+               "process": (head.get("process", "none"), PROCESS_MODES)}
+    for key, (value, allowed) in choices.items():
+        if value not in allowed:
+            raise StudyError(f"{fname}: [mixture] {key} = '{value}' is not one I know: "
+                             f"use one of {', '.join(allowed)}"
+                             f"{did_you_mean(str(value), allowed)}")
+    raw, seen = [], set()
+    for i, table in enumerate(tables, start=1):
+        what = _what("components", table, i)
+        check_keys(table, SECTION_KEYS["components"], fname, what)
+        name = _name(table, fname, what)
+        if name in factor_names:
+            raise StudyError(f"{fname}: {what}: '{name}' is also the name of a factor: "
+                             "a component and a process factor need different names")
+        if name in seen:
+            raise StudyError(f"{fname}: the component name '{name}' is used twice: each "
+                             "needs its own name")
+        seen.add(name)
+        if "low" not in table or "high" not in table:
+            raise StudyError(f"{fname}: {what}: needs low = <amount> and high = <amount> "
+                             f"(0 and {_fmt(total)} when it may take any share)")
+        low = _number(table["low"], fname, f"{what} low")
+        high = _number(table["high"], fname, f"{what} high")
+        if low < 0:
+            raise StudyError(f"{fname}: {what}: low ({_fmt(low)}) is below 0: an amount "
+                             "cannot be negative")
+        if low >= high:
+            raise StudyError(f"{fname}: {what}: low ({_fmt(low)}) is not below high "
+                             f"({_fmt(high)}): did you swap them?")
+        raw.append((name, str(table.get("label", name)), str(table.get("unit", "")),
+                    low, high))
+    return build_components(raw, total, choices["model"][0], choices["process"][0], fname)
 
 
 def _list_of_tables(spec: dict, key: str, fname: str) -> list[dict]:

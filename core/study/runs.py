@@ -15,6 +15,7 @@ import pandas as pd
 from ..errors import DataError, did_you_mean, where
 from .intake import RawTable, cell_text, parse_number, read_table
 from .pieces import check_same_settings, pieces_table, run_groups, run_means
+from .mixture import check_blend_rows
 from .spec import Study
 from .reader import _fmt, _rows
 
@@ -181,7 +182,11 @@ def attach_runs(study: Study, table: RawTable) -> Study:
             for k, v in data.items()}
     runs = pd.DataFrame(data, index=pd.Index(np.asarray(row_numbers)[first], name="row"))
     piece_table = (pd.concat(piece_frames, ignore_index=True) if piece_frames else None)
-    return replace(study, runs=runs, notes=tuple(notes), pieces=piece_table)
+    study = replace(study, runs=runs, notes=tuple(notes), pieces=piece_table)
+    if study.mixture is not None:  # every run adds up to the total (study/mixture.py)
+        check_blend_rows(study, fname)
+        study = replace(study, notes=study.mixture.notes + study.notes)
+    return study
 
 
 def _first_of_run(values, first: np.ndarray):

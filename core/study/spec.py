@@ -34,7 +34,9 @@ _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",
 # them here, so the "did you mean" check knows them.
 SECTION_KEYS: dict[str, set[str]] = {
     "top": {"study", "factors", "responses", "constraints", "confirmations",
-            "storage", "panel"},
+            "storage", "panel",
+            # blends (core/study/mixture.py)
+            "components", "mixture"},
     "study": {"name", "data", "model", "terms", "sheet", "description",
               "confidence", "seed",
               # the runs' block column when not named 'block' (core/models.py)
@@ -54,6 +56,9 @@ SECTION_KEYS: dict[str, set[str]] = {
     # long-form tables for derived responses (core/storage.py, core/panel.py)
     "storage": {"data", "sheet", "time", "time_unit"},
     "panel": {"data", "sheet", "scale", "min_agreement"},
+    # blends (core/study/mixture.py)
+    "components": {"name", "label", "unit", "low", "high"},
+    "mixture": {"total", "model", "process"},
 }
 # The sections study_to_dict writes itself; any other top-level section
 # (confirmations, for example) travels unchanged.
@@ -175,6 +180,8 @@ class Study:
     # Pieces of a batch (study/pieces.py): one row per measured piece, columns
     # run, response, row, column, value; None when every run has one value.
     pieces: pd.DataFrame | None = field(default=None, compare=False, repr=False)
+    # the [mixture] section (study/mixture.py) when the study has components
+    mixture: object | None = None
 
     @property
     def block_column(self) -> str | None:

@@ -4,6 +4,7 @@ from __future__ import annotations
 from typing import Any
 
 
+from .mixture import is_component
 from .spec import (Factor, Goal, Response, Study, _BASE_TOP)
 
 __all__ = ["study_to_dict"]
@@ -34,7 +35,10 @@ def study_to_dict(study: Study) -> dict:
     for key, value in study.spec.items():
         if key not in _BASE_TOP:
             out[key] = value  # sections added by other modules travel unchanged
-    out["factors"] = [_factor_dict(f) for f in study.factors]
+    # components travel in the spec's [[components]] (study/mixture.py)
+    factors = [_factor_dict(f) for f in study.factors if not is_component(f)]
+    if factors:
+        out["factors"] = factors
     out["responses"] = [_response_dict(r) for r in study.responses]
     if study.constraints:
         out["constraints"] = [dict(c) for c in study.constraints]

@@ -1,0 +1,281 @@
+"""Tidy tables for blends: response traces along Cox directions and ternary grids.
+
+``mixture_trace``: how each response changes as one component is raised or
+lowered from a reference blend while the others keep their ratios to each
+other (Cox's direction; Cox 1971, Cornell (2002), Experiments with Mixtures,
+3rd ed., sec. 5.8). ``mixture_effects`` sums each trace up: the change over the
+component's whole feasible stretch (its total effect) and the slope at the
+reference blend. ``ternary_grid``: predictions over every blend of three chosen
+components, the others held at the reference blend, for a ternary map.
+
+The reference blend is, by default, the centroid of the constrained region
+(the mean of its extreme vertices); process factors sit at their centre
+(categorical ones at their first level) unless ``settings`` says otherwise.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ..errors import ModelError, StudyError
+from ..study.mixture import components_of, process_factors_of
+
+__all__ = ["reference_blend", "cox_direction", "mixture_trace", "mixture_effects",
+           "ternary_grid"]
+
+
+def _require_components(study) -> list:
+    comps = components_of(study)
+    if not comps:
+        raise StudyError(f"study '{study.name}' has no [[components]]: traces and ternary "
+                         "maps are for blends")
+    return comps
+
+
+def reference_blend(study, reference: dict | None = None) -> dict:
+    """The reference blend as component amounts: given, or the region's centroid."""
+    from ..study.mixture_region import extreme_vertices
+
+    comps = _require_components(study)
+    total = comps[0].total
+    if reference is None:
+        V = extreme_vertices([c.low for c in comps], [c.high for c in comps], total)
+        centre = V.mean(axis=0)
+        return {c.name: float(v) for c, v in zip(comps, centre)}
+    missing = [c.name for c in comps if c.name not in reference]
+    if missing:
+        raise StudyError(f"the reference blend has no amount for {', '.join(missing)}: "
+                         "give every component")
+    amounts = np.array([float(reference[c.name]) for c in comps])
+    if abs(amounts.sum() - total) > 0.005 * total:
+        raise StudyError(f"the reference blend adds up to {amounts.sum():.6g}, not the "
+                         f"total {total:g}: adjust the amounts")
+    amounts *= total / amounts.sum()
+    return {c.name: float(v) for c, v in zip(comps, amounts)}
+
+
+def _process_settings(study, settings: dict | None) -> dict:
+    out = {}
+    for f in process_factors_of(study):
+        if settings is not None and f.name in settings:
+            out[f.name] = settings[f.name]
+        else:
+            out[f.name] = f.levels[0] if f.is_categorical else f.centre
+    return out
+
+
+def _coded(study, table: pd.DataFrame) -> np.ndarray:
+    from ..study.coding import to_coded
+
+    return to_coded(study.factors, table)
+
+
+def cox_direction(s: np.ndarray, i: int) -> np.ndarray:
+    """Direction (q,) of Cox's effect of component i at the blend s (proportions):
+    +1 for i, the others falling in proportion to their shares of the rest."""
+    s = np.asarray(s, dtype=float)
+    rest = 1.0 - s[i]
+    if rest <= 0:
+        raise StudyError("the reference blend is a pure component: Cox directions need "
+                         "some of the others")
+    a = -s / rest
+    a[i] = 1.0
+    return a
+
+
+def _stretch(s, a, lo, hi) -> tuple[float, float]:
+    """The deviations t with lo <= s + t a <= hi (proportions)."""
+    t_lo, t_hi = -np.inf, np.inf
+    for sc, ac, lc, hc in zip(s, a, lo, hi):
+        if abs(ac) < 1e-15:
+            continue
+        b1, b2 = (lc - sc) / ac, (hc - sc) / ac
+        t_lo, t_hi = max(t_lo, min(b1, b2)), min(t_hi, max(b1, b2))
+    return float(t_lo), float(t_hi)
+
+
+def _models(fit) -> dict:
+    return dict(fit.models) if hasattr(fit, "models") else dict(fit)
+
+
+def mixture_trace(study, fit, *, reference: dict | None = None,
+                  settings: dict | None = None, steps: int = 41) -> pd.DataFrame:
+    """Each response along each component's Cox direction through the reference blend.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per response, component and step, columns: ``response``,
+        ``component``, ``deviation`` (change of that component's proportion of
+        the total from the reference blend; 0 at the reference), ``amount`` (its
+        amount, study units), ``proportion`` (its proportion of the total),
+        ``predicted``, ``ci_low``, ``ci_high`` (the mean's confidence interval),
+        ``at_reference`` (True on the row of the reference blend itself).
+        Each component's stretch runs over every deviation that keeps all
+        components within their bounds.
+    """
+    comps = _require_components(study)
+    models = _models(fit)
+    if not models:
+        raise ModelError("no fitted model to trace: fit the responses first")
+    total = comps[0].total
+    ref = reference_blend(study, reference)
+    s = np.array([ref[c.name] for c in comps]) / total
+    lo = np.array([c.low for c in comps]) / total
+    hi = np.array([c.high for c in comps]) / total
+    proc = _process_settings(study, settings)
+    frames = []
+    for i, c in enumerate(comps):
+        a = cox_direction(s, i)
+        t_lo, t_hi = _stretch(s, a, lo, hi)
+        t = np.unique(np.concatenate([np.linspace(t_lo, t_hi, steps), [0.0]]))
+        P = s[None, :] + t[:, None] * a[None, :]
+        table = pd.DataFrame({cc.name: P[:, j] * total for j, cc in enumerate(comps)})
+        for name, value in proc.items():
+            table[name] = [value] * len(t)
+        X = _coded(study, table)
+        for rname, model in models.items():
+            iv = model.intervals(X)
+            frames.append(pd.DataFrame({
+                "response": rname, "component": c.name, "deviation": t,
+                "amount": P[:, i] * total, "proportion": P[:, i],
+                "predicted": iv["predicted"].to_numpy(),
+                "ci_low": iv["ci_low"].to_numpy(), "ci_high": iv["ci_high"].to_numpy(),
+                "at_reference": np.abs(t) < 1e-12}))
+    return pd.concat(frames, ignore_index=True)
+
+
+def mixture_effects(study, fit, *, reference: dict | None = None,
+                    settings: dict | None = None) -> pd.DataFrame:
+    """Cox effects of each component on each response at the reference blend.
+
+    Columns: ``response``, ``component``, ``low_amount`` and ``high_amount``
+    (the ends of the component's feasible stretch along its Cox direction),
+    ``effect`` (predicted at the high end minus at the low end: the total
+    effect), ``slope`` (change of the prediction per unit of proportion at the
+    reference blend, by central differences).
+    """
+    trace = mixture_trace(study, fit, reference=reference, settings=settings, steps=3)
+    comps = components_of(study)
+    total = comps[0].total
+    ref = reference_blend(study, reference)
+    s = np.array([ref[c.name] for c in comps]) / total
+    proc = _process_settings(study, settings)
+    models = _models(fit)
+    rows = []
+    h = 1e-5
+    for i, c in enumerate(comps):
+        a = cox_direction(s, i)
+        P = np.vstack([s + h * a, s - h * a])
+        table = pd.DataFrame({cc.name: P[:, j] * total for j, cc in enumerate(comps)})
+        for name, value in proc.items():
+            table[name] = [value] * 2
+        X = _coded(study, table)
+        for rname, model in models.items():
+            part = trace[(trace.response == rname) & (trace.component == c.name)]
+            ends = part.sort_values("deviation")
+            pred = np.asarray(model.predict(X), dtype=float)
+            rows.append({"response": rname, "component": c.name,
+                         "low_amount": float(ends["amount"].iloc[0]),
+                         "high_amount": float(ends["amount"].iloc[-1]),
+                         "effect": float(ends["predicted"].iloc[-1]
+                                         - ends["predicted"].iloc[0]),
+                         "slope": float((pred[0] - pred[1]) / (2 * h))})
+    return pd.DataFrame(rows, columns=["response", "component", "low_amount",
+                                       "high_amount", "effect", "slope"])
+
+
+def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
+                 settings: dict | None = None, steps: int = 30) -> pd.DataFrame:
+    """Predictions over every blend of three components, the others held fixed.
+
+    Parameters
+    ----------
+    study, fit : the mixture study and its fitted models (StudyFit or dict).
+    components : three component names (default: the study's first three).
+    reference : component amounts of the reference blend (default: the
+        centroid of the constrained region); the components not mapped keep
+        their reference amounts, and the three share what is left.
+    settings : process factor settings (default: centre, first level).
+    steps : grid lines per side: (steps + 1)(steps + 2)/2 blends.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per blend and response, columns: ``point`` (blend number),
+        ``first_share``, ``second_share``, ``third_share`` (the three mapped
+        components' shares of what they split between them; they add up to 1:
+        the ternary coordinates), one column per component with its amount
+        (study units), ``inside`` (True when every component is within its
+        bounds and every rule of the study holds), ``response``, ``predicted``,
+        ``desirability`` (the response's own desirability, NaN when it has no
+        goal) and ``D`` (overall desirability, NaN when no goal takes part).
+        ``attrs["components"]`` holds the three names in the order of the
+        share columns, ``attrs["held"]`` the amounts of the others.
+    """
+    comps = _require_components(study)
+    names = [c.name for c in comps]
+    if components is None:
+        if len(comps) < 3:
+            raise StudyError("a ternary map needs three components; this study has "
+                             f"{len(comps)}")
+        components = names[:3]
+    components = list(components)
+    if len(components) != 3 or len(set(components)) != 3:
+        raise StudyError(f"a ternary map needs three different components, found "
+                         f"{components}")
+    for n in components:
+        if n not in names:
+            from ..errors import did_you_mean
+
+            raise StudyError(f"'{n}' is not a component of the study"
+                             f"{did_you_mean(n, names)}: the components are {names}")
+    if not isinstance(steps, int) or steps < 1:
+        raise StudyError(f"steps must be a whole number of at least 1, found {steps!r}")
+    models = _models(fit)
+    total = comps[0].total
+    ref = reference_blend(study, reference)
+    held = {n: ref[n] for n in names if n not in components}
+    rest = total - sum(held.values())
+    grid = np.array([(i, j, steps - i - j) for i in range(steps + 1)
+                     for j in range(steps + 1 - i)], dtype=float) / steps
+    table = pd.DataFrame({n: np.full(len(grid), held[n]) if n in held
+                          else grid[:, components.index(n)] * rest for n in names})
+    proc = _process_settings(study, settings)
+    for name, value in proc.items():
+        table[name] = [value] * len(grid)
+    X = _coded(study, table)
+    lo = np.array([c.low for c in comps])
+    hi = np.array([c.high for c in comps])
+    amounts = table[names].to_numpy(float)
+    tol = 1e-9 * total
+    inside = np.all((amounts >= lo - tol) & (amounts <= hi + tol), axis=1)
+    from ..study.constraints import rules_satisfied
+
+    inside &= rules_satisfied(study, X)
+    D = np.full(len(grid), np.nan)
+    dcols: dict[str, np.ndarray] = {}
+    from ..search.search import goal_columns, overall_desirability
+
+    cols = goal_columns(study, models)
+    if cols:
+        D, d = overall_desirability(study, models, X)
+        dcols = {n: d[:, i] for i, (kind, n) in enumerate(cols) if kind == "response"}
+    base = pd.DataFrame({"point": np.arange(len(grid)), "first_share": grid[:, 0],
+                         "second_share": grid[:, 1], "third_share": grid[:, 2]})
+    for n in names:
+        base[n] = table[n].to_numpy(float)
+    base["inside"] = inside
+    frames = []
+    for rname, model in models.items():
+        part = base.copy()
+        part["response"] = rname
+        part["predicted"] = np.asarray(model.predict(X), dtype=float)
+        part["desirability"] = dcols.get(rname, np.full(len(grid), np.nan))
+        part["D"] = D
+        frames.append(part)
+    out = pd.concat(frames, ignore_index=True) if frames else base.assign(
+        response=pd.Series(dtype=object), predicted=np.nan, desirability=np.nan, D=np.nan)
+    out.attrs["components"] = tuple(components)
+    out.attrs["held"] = dict(held)
+    return out
