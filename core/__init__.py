@@ -52,7 +52,14 @@ _HOME = {
     "confirmation_runs": "confirm.check",
     "provenance": "report.provenance",
     "build_report_html": "report.html", "build_workbook": "report.workbook",
-    "report_data": "report.data", "write_report": "report.write",
+    "report_data": "report.data",
+    # blends (issue 14)
+    "Component": "study.mixture", "Mixture": "study.mixture",
+    "extreme_vertices": "study.mixture_region", "face_centroids": "study.mixture_region",
+    "simplex_lattice": "plan.mixture_designs", "simplex_centroid": "plan.mixture_designs",
+    "plan_mixture": "plan.mixture_plan",
+    "mixture_trace": "report.mixture_tables", "mixture_effects": "report.mixture_tables",
+    "ternary_grid": "report.mixture_tables", "write_report": "report.write",
 }
 
 __all__ = ["__version__", *_HOME]

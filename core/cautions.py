@@ -4,7 +4,8 @@ Results, reports, the workbook and the front end all show these same words.
 """
 from __future__ import annotations
 
-__all__ = ["FOOD_CAUTIONS", "FOOD_CAUTION", "SHELF_LIFE_CAUTION", "PANEL_CAUTION"]
+__all__ = ["FOOD_CAUTIONS", "FOOD_CAUTION", "SHELF_LIFE_CAUTION", "PANEL_CAUTION",
+           "BLEND_CAUTION"]
 
 FOOD_CAUTIONS = (
     "A recommendation is a suggestion for what to make and test next, not a release "
@@ -27,6 +28,11 @@ SHELF_LIFE_CAUTION = (
     "determination and not a shelf life: microbiological shelf life, sensory "
     "validation and local food regulations govern, and any prediction must be "
     "confirmed by real storage tests.")
+
+BLEND_CAUTION = (
+    "A predicted blend says nothing about allergens, gluten or any other claim: such "
+    "claims rest on verified ingredients, testing and local food regulations, not on a "
+    "model; ingredient lots vary, so confirm a new blend with real batches.")
 
 PANEL_CAUTION = (
     "Panel scores from a development panel describe these samples only: they do not "

@@ -73,6 +73,19 @@ def build_parser() -> argparse.ArgumentParser:
                       help="smallest change (low to high) worth detecting, for power")
     plan.add_argument("--sd", type=float, metavar="SD",
                       help="expected run-to-run standard deviation, for power")
+    # blends (plan/mixture_plan.py)
+    plan.add_argument("--design", metavar="NAME",
+                      help="for a study with components: lattice, centroid or vertices "
+                           "(extreme vertices of the bounded region)")
+    plan.add_argument("--degree", type=int, metavar="M",
+                      help="with --design lattice: the lattice's degree (proportions in "
+                           "steps of 1/M; default: the mixture model's degree)")
+    plan.add_argument("--centroids", metavar="LIST",
+                      help="with --design vertices: centroids to add, any of edges,faces,"
+                           "overall (default overall)")
+    plan.add_argument("--axial", action="store_true",
+                      help="with a mixture design: add check blends half-way between the "
+                           "overall centroid and each vertex")
     plan.add_argument("--out", required=True, metavar="FILE",
                       help="the run sheet to write (.csv or .xlsx)")
     plan.add_argument("--json", action="store_true", help="print the plan as JSON")
@@ -190,9 +203,12 @@ def _run_optimize(args) -> int:
 
 
 def _run_plan(args) -> int:
+    from .plan.mixture_plan import mixture_route
     from .plan.runsheet import plan_command
 
-    report, text = plan_command(args)
+    # a study with components (or a mixture design asked for) gets a blend plan
+    routed = mixture_route(args)
+    report, text = routed if routed is not None else plan_command(args)
     print(json.dumps(report, indent=2) if args.json else text)
     return 0
 

@@ -36,6 +36,9 @@ PUBLIC_NAMES = sorted([
     # smooth models, the model comparison and the next batch (issue 17)
     "SmoothModel", "ModelComparison", "compare_models", "NextBatch", "SuggestedRun",
     "next_batch", "normal_ei",
+    # blends (issue 14)
+    "Component", "Mixture", "extreme_vertices", "face_centroids", "simplex_lattice",
+    "simplex_centroid", "plan_mixture", "mixture_trace", "mixture_effects", "ternary_grid",
 ])
 
 

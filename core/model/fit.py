@@ -561,6 +561,7 @@ class ResponseModel:
         out = response_report(self)
         if self.mixture is not None:
             # which units the coefficients are for, and the equation in proportions
+            out["model"] = [getattr(t, "label", t) for t in self.terms]
             out["mixture_scale"] = self.mixture.scale
             out["proportion_coefficients"] = dict(self.proportion_coefficients_)
         return out

@@ -21,10 +21,11 @@ import pandas as pd
 from ..errors import PlanError
 from ..study.mixture import components_of, process_factors_of
 from ..study.mixture_region import extreme_vertices, face_centroids
-from .mixture_designs import (axial_blends, round_to_total, simplex_centroid,
-                              simplex_lattice)
+from .mixture_designs import (MIXTURE_DESIGNS, axial_blends, round_to_total,
+                              simplex_centroid, simplex_lattice)
 
-__all__ = ["MixturePlan", "plan_mixture", "mixture_plan_command", "CENTROID_KINDS"]
+__all__ = ["MixturePlan", "plan_mixture", "mixture_plan_command", "mixture_route",
+           "CENTROID_KINDS"]
 
 CENTROID_KINDS = ("edges", "faces", "overall")
 _DEGREE = {"linear": 1, "quadratic": 2, "special_cubic": 3, "cubic": 3}
@@ -231,6 +232,38 @@ def _evaluate(study, plan: MixturePlan) -> dict:
             "terms": len(terms), "estimable": [t.label for t, k in zip(terms, keep) if k],
             "not_estimable": {k: list(v) for k, v in aliases.items()},
             "error_df": int(len(X) - p)}
+
+
+def mixture_route(args) -> tuple[dict, str] | None:
+    """``tradeoff plan`` for a study with components: (report, text), else None.
+
+    A mixture design asked for a study without components is an error; so is a
+    factorial plan asked for a blend. Without ``--design`` a blend gets the
+    simplex-lattice of its model's degree when no bound cuts into the simplex
+    of the lows, else the extreme vertices.
+    """
+    from ..derive.load import load_study
+
+    design = getattr(args, "design", None)
+    study = load_study(args.study, with_data=False)
+    if study.mixture is None:
+        if design in MIXTURE_DESIGNS:
+            plan_mixture(study, design)  # raises: no components
+        return None
+    comps = components_of(study)
+    if design is None:
+        free = all(abs(c.high - c.low - c.half_range) <= 1e-9 * c.total for c in comps)
+        design = "lattice" if free else "vertices"
+        args.design = design
+    if design == "optimal":
+        raise PlanError("an optimal design on the constrained simplex is not available yet: "
+                        "use --design vertices (with --centroids edges,overall) or lattice")
+    if design not in MIXTURE_DESIGNS:
+        raise PlanError(f"'{design}' is a plan for independent factors, but this study's "
+                        "components add up to a whole: use --design lattice, centroid or "
+                        "vertices")
+    report, _, text = mixture_plan_command(args, study)
+    return report, text
 
 
 def mixture_plan_command(args, study) -> tuple[dict, pd.DataFrame, str]:

@@ -17,13 +17,18 @@ def _p(v) -> str:
 def _response_text(r: dict) -> list[str]:
     out = []
     model = r["model"] if isinstance(r["model"], str) else "listed terms"
+    blend = r.get("mixture_scale")
+    if blend is not None:  # Scheffe blending terms, no intercept (model/scheffe.py)
+        model = ("for a blend (Scheffe, no intercept; coefficients for "
+                 + ("proportions of the total)" if blend == "proportion"
+                    else "L-pseudo-components)"))
     scale = "" if r["transform"] == "none" else f", modelled as {r['transform']}(response)"
     out.append(f"{r['response']}: model {model}{scale}; {r['n']} runs, "
                f"{r['residual_df']} residual degrees of freedom")
     out.append(f"  R2 {_f(r['r2'], '.4f')}   adjusted R2 {_f(r['adj_r2'], '.4f')}   "
                f"predicted R2 {_f(r['pred_r2'], '.4f')}   residual SD {_f(r['residual_sd'])}")
     out.append("")
-    head = f"  {'term':<28}{'coef (coded)':>14}{'effect':>12}"
+    head = f"  {'term':<28}{'coef' if blend else 'coef (coded)':>14}{'effect':>12}"
     saturated = r["p_values"] is None
     if not saturated:
         head += f"{'std error':>12}{'t':>9}{'p':>10}"
@@ -82,6 +87,11 @@ def _response_text(r: dict) -> list[str]:
         parts = [f"{_f(v)}" if k == "intercept" else f"{v:+.4g}*{k}"
                  for k, v in nat.items() if v is not None]
         out.append(f"  natural units: {lhs} = " + " ".join(parts))
+    props = r.get("proportion_coefficients")
+    if props and blend == "pseudo":
+        lhs = r["response"] if r["transform"] == "none" else f"{r['transform']}({r['response']})"
+        out.append(f"  in proportions of the total: {lhs} = " + " ".join(
+            f"{v:+.4g}*{k}" for k, v in props.items() if v))
     red = r.get("reduction")
     if red is not None:
         dropped = ", ".join(f"{k} ({v})" for k, v in red["dropped"].items())

@@ -255,7 +255,7 @@ def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
     inside &= rules_satisfied(study, X)
     D = np.full(len(grid), np.nan)
     dcols: dict[str, np.ndarray] = {}
-    from ..search.search import goal_columns, overall_desirability
+    from ..search.problem import goal_columns, overall_desirability
 
     cols = goal_columns(study, models)
     if cols:

@@ -31,13 +31,20 @@ def study_summary(study: Study) -> dict:
                 "distinct_settings": int(len(np.unique(values))),
                 "search": list(f.search_range),
             })
+            if getattr(f, "is_component", False):  # a blend's component: bounds as given
+                factors[-1] |= {"kind": "component", "given": [f.given_low, f.given_high]}
     responses = []
     for r in study.responses:
         values = runs[r.name].to_numpy(float)
         present = values[~np.isnan(values)]
+        model = model_label(study.model_for(r))
+        if study.mixture is not None and r.terms is None and study.terms is None:
+            model = f"{study.mixture.model} mixture" + (
+                "" if study.mixture.process == "none" else
+                f" x process {study.mixture.process} ({model})")
         entry = {"name": r.name, "label": r.label, "unit": r.unit,
                  "measured": int(len(present)), "blank": int(np.isnan(values).sum()),
-                 "goal": r.goal.kind, "model": model_label(study.model_for(r))}
+                 "goal": r.goal.kind, "model": model}
         if len(present):
             entry["min"], entry["max"] = float(present.min()), float(present.max())
         entry["pieces"] = _pieces(study, r.name)
@@ -53,6 +60,10 @@ def study_summary(study: Study) -> dict:
             "runs": int(len(runs)), "factors": factors, "responses": responses,
             "blocks": _blocks(study),
             "constraints": [c["rule"] for c in study.constraints],
+            "mixture": None if study.mixture is None else {
+                "total": study.mixture.total, "model": study.mixture.model,
+                "process": study.mixture.process, "scale": study.mixture.scale,
+                "tightened": list(study.mixture.notes)},
             "warnings": list(study.notes)}
 
 
@@ -85,7 +96,14 @@ def summary_text(summary: dict) -> str:
     lines = [f"Study: {summary['study']}", f"Data:  {summary['data']}",
              f"Runs:  {summary['runs']}", "", "Factors"]
     for f in summary["factors"]:
-        if f["kind"] == "categorical":
+        if f["kind"] == "component":
+            unit = f" {f['unit']}" if f["unit"] else ""
+            given = "" if f["given"] == [f["low"], f["high"]] else \
+                f" (given {f['given'][0]:g} .. {f['given'][1]:g})"
+            lines.append(f"  {f['name']:<20} component, low {f['low']:g} .. high "
+                         f"{f['high']:g}{unit}{given}; tested {f['tested'][0]:g} .. "
+                         f"{f['tested'][1]:g}, {f['distinct_settings']} amounts")
+        elif f["kind"] == "categorical":
             levels = ", ".join(f"{lv} (coded {f['coded'][lv]:+d}, {n} runs)"
                                for lv, n in f["levels"].items())
             lines.append(f"  {f['name']:<20} categorical: {levels}")
@@ -96,6 +114,13 @@ def summary_text(summary: dict) -> str:
                 f"(coded -1 .. +1); tested {f['tested'][0]:g} .. {f['tested'][1]:g} "
                 f"(coded {f['coded_tested'][0]:+.3g} .. {f['coded_tested'][1]:+.3g}), "
                 f"{f['distinct_settings']} settings")
+    mix = summary.get("mixture")
+    if mix:
+        lines += ["", f"Blend: the components add up to {mix['total']:g} in every run; "
+                  f"model {mix['model']} (Scheffe, no intercept), process terms "
+                  f"{mix['process']}; coefficients for "
+                  + ("proportions of the total" if mix["scale"] == "proportion"
+                     else "L-pseudo-components (some low above 0)")]
     b = summary.get("blocks")
     if b:
         counts = ", ".join(f"{lev}: {n} runs" for lev, n in b["runs"].items())

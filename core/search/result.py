@@ -15,7 +15,7 @@ import pandas as pd
 from .chance import chance_in_limits
 from .mixture import bound_warnings
 from ..study.mixture import is_component
-from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
+from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
 
 __all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
 
@@ -334,7 +334,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
 
 
 def _general_warnings(study, problem, models, fit) -> list[str]:
-    out = []
+    out = [BLEND_CAUTION] if getattr(study, "mixture", None) is not None else []
     skipped = getattr(fit, "skipped", {}) or {}
     for r in study.responses:
         if r.goal.active and r.name not in models:

@@ -1,0 +1,131 @@
+"""Write the second invented demo study: a gluten-free bread flour blend.
+
+EVERY NUMBER THIS SCRIPT WRITES IS INVENTED. The "true" behaviour below was
+made up to look like a plausible blend study (tapioca starch lifts the loaf
+and softens the crumb, sorghum flour firms it and darkens the crust, a hotter
+oven browns the crust and dries the crumb); it is not a measurement of any
+real flour, bread or product, and it makes no claim about gluten content.
+
+Run it again to get the same files (the random seed is fixed):
+
+    python demo_data/make_flour_blend.py
+
+It writes, next to itself:
+- flour_blend_runs.csv   one row per loaf: the blend (% of the flour), the bake
+                         temperature and three measured responses
+The study file flour_blend.toml is written by hand and sits beside it.
+"""
+from __future__ import annotations
+
+import itertools
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+SEED = 20261206
+HERE = Path(__file__).resolve().parent
+TOTAL = 100.0  # % of the flour blend
+# Bounds in % of the blend, as the study file gives them (tapioca's high of 50 can
+# never be reached: the other lows leave 45, which the loader reports and uses).
+COMPONENTS = {"rice_flour": (40.0, 70.0), "sorghum_flour": (15.0, 45.0),
+              "tapioca_starch": (10.0, 50.0)}
+BAKE_TEMP = (175.0, 205.0)  # degrees C
+
+
+def vertices() -> np.ndarray:
+    """Extreme vertices of the bounded blend region (two at bounds, one makes up the rest)."""
+    lows = np.array([lo for lo, _ in COMPONENTS.values()])
+    highs = np.array([hi for _, hi in COMPONENTS.values()])
+    highs = np.minimum(highs, TOTAL - (lows.sum() - lows))
+    found = []
+    for free in range(3):
+        others = [j for j in range(3) if j != free]
+        for pick in itertools.product((0, 1), repeat=2):
+            x = np.empty(3)
+            for j, hi in zip(others, pick):
+                x[j] = highs[j] if hi else lows[j]
+            x[free] = TOTAL - x[others].sum()
+            if lows[free] - 1e-9 <= x[free] <= highs[free] + 1e-9:
+                found.append(np.round(x, 6))
+    return np.unique(np.array(found), axis=0)
+
+
+def blends() -> tuple[np.ndarray, list[str]]:
+    """Vertices, edge mid-points (between vertices sharing a bound) and the centroid."""
+    V = vertices()
+    lows = np.array([lo for lo, _ in COMPONENTS.values()])
+    highs = np.minimum(np.array([hi for _, hi in COMPONENTS.values()]),
+                       TOTAL - (lows.sum() - lows))
+    on = np.hstack([np.isclose(V, lows), np.isclose(V, highs)])
+    edges = [(V[a] + V[b]) / 2 for a, b in itertools.combinations(range(len(V)), 2)
+             if (on[a] & on[b]).any()]
+    points = np.vstack([V, np.array(edges), V.mean(axis=0)[None, :]])
+    kinds = ["vertex"] * len(V) + ["edge"] * len(edges) + ["centroid"]
+    return points, kinds
+
+
+def truth(P: np.ndarray, t: np.ndarray) -> dict[str, np.ndarray]:
+    """Invented Scheffe quadratic blending x linear temperature behaviour.
+
+    ``P``: proportions of rice, sorghum, tapioca (rows add up to 1); ``t``: bake
+    temperature coded -1 (175 C) to +1 (205 C).
+    """
+    r, s, k = P.T
+    volume = (2.05 * r + 2.35 * s + 3.10 * k + 0.90 * r * s - 1.40 * s * k + 0.60 * r * k
+              + t * (0.12 * r - 0.04 * s + 0.10 * k))
+    hardness = (6.8 * r + 9.6 * s + 3.6 * k - 3.5 * r * s + 2.4 * s * k - 1.5 * r * k
+                + t * (0.7 * r + 0.9 * s + 0.3 * k))
+    crust = (63.0 * r + 50.0 * s + 70.0 * k - 6.0 * r * s + 4.0 * s * k - 8.0 * r * k
+             + t * (-4.5 * r - 3.0 * s - 5.5 * k))
+    return {"specific_volume": volume, "crumb_hardness": hardness, "crust_lightness": crust}
+
+
+def runs(rng: np.random.Generator) -> pd.DataFrame:
+    points, kinds = blends()
+    rows = []
+    for p, kind in zip(points, kinds):
+        for t in (-1.0, 1.0):
+            rows.append((p, kind, t))
+    centre = points[-1]
+    for _ in range(3):  # replicated centroid at the middle temperature: pure error
+        rows.append((centre, "centroid", 0.0))
+    order = rng.permutation(len(rows))
+    rows = [rows[i] for i in order]
+    A = np.array([r[0] for r in rows])
+    t = np.array([r[2] for r in rows])
+    temp = (BAKE_TEMP[0] + BAKE_TEMP[1]) / 2 + t * (BAKE_TEMP[1] - BAKE_TEMP[0]) / 2
+    # amounts to 0.1 %, rice flour taking the rounding so each blend adds up to 100
+    A = np.round(A, 1)
+    A[:, 0] = np.round(TOTAL - A[:, 1:].sum(axis=1), 1)
+    y = truth(A / TOTAL, t)
+    noise = {"specific_volume": 0.05, "crumb_hardness": 0.30, "crust_lightness": 0.8}
+    table = pd.DataFrame({"run": [f"L{i:02d}" for i in range(1, len(rows) + 1)],
+                          "point": [r[1] for r in rows]})
+    for j, name in enumerate(COMPONENTS):
+        table[name] = A[:, j]
+    table["bake_temp"] = temp
+    for name, values in y.items():
+        table[name] = np.round(values + rng.normal(0.0, noise[name], len(values)),
+                               2 if name == "specific_volume" else 1)
+    return table
+
+
+def write_atomic(path: Path, text: str) -> None:
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
+        handle.write(text)
+    os.replace(tmp, path)
+
+
+def main() -> None:
+    rng = np.random.default_rng(SEED)
+    table = runs(rng)
+    write_atomic(HERE / "flour_blend_runs.csv", table.to_csv(index=False))
+    print(f"wrote {HERE / 'flour_blend_runs.csv'} ({len(table)} runs)")
+
+
+if __name__ == "__main__":
+    main()

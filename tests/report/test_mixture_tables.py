@@ -1,0 +1,90 @@
+"""Cox-direction traces and ternary grids, checked against closed forms.
+
+Cox's direction (Cox 1971; Cornell (2002), Experiments with Mixtures, 3rd
+ed., sec. 5.8): moving component i by t changes every other component j by
+-t s_j / (1 - s_i), so the others keep their ratios. For the quadratic yarn
+model (tests/data, Cornell's example) at the centroid the slope of the
+prediction along component 1's direction is worked by hand below.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from tradeoff import (StudyError, fit_study, load_study, mixture_effects, mixture_trace,
+                      ternary_grid)
+
+DATA = Path(__file__).resolve().parents[1] / "data"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml"
+B = [11.7, 9.4, 16.4, 19.0, 11.4, -9.6]  # the fitted yarn model, to one decimal
+
+
+@pytest.fixture(scope="module")
+def yarn():
+    study = load_study(DATA / "yarn_elongation_cornell.toml")
+    return study, fit_study(study)
+
+
+def test_trace_keeps_the_others_ratios_and_spans_the_bounds(yarn):
+    study, fit = yarn
+    t = mixture_trace(study, fit, steps=11)
+    assert list(t.columns) == ["response", "component", "deviation", "amount",
+                               "proportion", "predicted", "ci_low", "ci_high",
+                               "at_reference"]
+    part = t[t.component == "polyethylene"]
+    # from the centroid, polyethylene runs from 0 to 1 (its bounds)
+    np.testing.assert_allclose([part.amount.min(), part.amount.max()], [0.0, 1.0],
+                               atol=1e-12)
+    ref = part[part.at_reference]
+    np.testing.assert_allclose(ref.proportion, 1 / 3)
+
+
+def test_cox_slope_at_the_centroid_by_hand(yarn):
+    study, fit = yarn
+    eff = mixture_effects(study, fit).set_index("component")
+    m = fit.models["elongation"]
+    b = m.coef_
+    s = np.full(3, 1 / 3)
+    # d/dt of y(s + t a) with a = (1, -1/2, -1/2): gradient . a (worked by hand)
+    grad = np.array([b[0] + b[3] * s[1] + b[4] * s[2], b[1] + b[3] * s[0] + b[5] * s[2],
+                     b[2] + b[4] * s[0] + b[5] * s[1]])
+    a = np.array([1.0, -0.5, -0.5])
+    np.testing.assert_allclose(eff.loc["polyethylene", "slope"], grad @ a, rtol=1e-6)
+    # total effect: prediction at pure polyethylene minus at (0, 1/2, 1/2)
+    total = b[0] - (b[1] / 2 + b[2] / 2 + b[5] / 4)
+    np.testing.assert_allclose(eff.loc["polyethylene", "effect"], total, rtol=1e-9)
+
+
+def test_ternary_grid_columns_and_values(yarn):
+    study, fit = yarn
+    g = ternary_grid(study, fit, steps=10)
+    assert len(g) == 66
+    assert list(g.columns[:4]) == ["point", "first_share", "second_share", "third_share"]
+    for col in ("inside", "response", "predicted", "desirability", "D"):
+        assert col in g.columns
+    np.testing.assert_allclose(g[["first_share", "second_share", "third_share"]].sum(axis=1),
+                               1.0)
+    x = g[["polyethylene", "polystyrene", "polypropylene"]].to_numpy()
+    hand = (B[0] * x[:, 0] + B[1] * x[:, 1] + B[2] * x[:, 2] + B[3] * x[:, 0] * x[:, 1]
+            + B[4] * x[:, 0] * x[:, 2] + B[5] * x[:, 1] * x[:, 2])
+    np.testing.assert_allclose(g.predicted, hand, atol=1e-9)
+    assert g.inside.all()
+    assert g.attrs["components"] == ("polyethylene", "polystyrene", "polypropylene")
+
+
+def test_ternary_grid_marks_blends_outside_the_bounds():
+    study = load_study(DEMO)
+    fit = fit_study(study)
+    g = ternary_grid(study, fit, steps=20, settings={"bake_temp": 205})
+    assert 0 < g.inside.mean() < 1
+    inside = g[g.inside]
+    assert (inside.rice_flour >= 40 - 1e-9).all() and (inside.tapioca_starch <= 45 + 1e-9).all()
+    assert g.D.notna().all()
+
+
+def test_ternary_grid_refuses_unknown_components(yarn):
+    study, fit = yarn
+    with pytest.raises(StudyError, match=r"'polyethylen' is not a component.*did you mean"):
+        ternary_grid(study, fit, ["polyethylen", "polystyrene", "polypropylene"])

@@ -1,0 +1,72 @@
+"""The search on the constrained simplex against brute-force enumeration.
+
+The best overall desirability found must match (or beat) the best of a dense
+grid of blends, enumerated here independently of the search; every blend it
+returns must add up to the total and keep every component within its bounds.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from tradeoff import fit_study, load_study, optimize, overall_desirability
+
+DATA = Path(__file__).resolve().parents[1] / "data"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml"
+
+
+def _grid(n: int) -> np.ndarray:
+    """Every blend of three with proportions i/n (a dense simplex grid)."""
+    g = [(i, j, n - i - j) for i in range(n + 1) for j in range(n + 1 - i)]
+    return np.array(g, dtype=float) / n
+
+
+def test_yarn_optimum_matches_a_dense_simplex_grid():
+    study = load_study(DATA / "yarn_elongation_cornell.toml")
+    fit = fit_study(study)
+    result = optimize(study, fit=fit, top=3)
+    P = _grid(400)
+    D, _ = overall_desirability(study, fit, P)
+    best = result.best
+    assert best.desirability >= D.max() - 1e-9
+    # the grid's best blend is next to the one found (independent enumeration)
+    found = np.array([best.settings[n] for n in ("polyethylene", "polystyrene",
+                                                 "polypropylene")])
+    assert np.abs(found - P[np.argmax(D)]).max() < 0.01
+    for s in result.solutions:
+        assert abs(sum(s.settings.values()) - 1.0) < 1e-9
+        assert abs(sum(s.proportions.values()) - 1.0) < 1e-9
+
+
+def test_flour_demo_optimum_matches_grid_over_blend_and_temperature():
+    study = load_study(DEMO)
+    fit = fit_study(study)
+    result = optimize(study, fit=fit, top=3, seed=3)
+    names = ["rice_flour", "sorghum_flour", "tapioca_starch"]
+    lows, highs = np.array([40.0, 15, 10]), np.array([70.0, 45, 45])
+    P = _grid(120) * 100
+    P = P[np.all((P >= lows - 1e-9) & (P <= highs + 1e-9), axis=1)]
+    temps = np.linspace(-1, 1, 31)
+    Z = (P - lows) / 35.0
+    X = np.vstack([np.column_stack([Z, np.full(len(Z), t)]) for t in temps])
+    D, _ = overall_desirability(study, fit, X)
+    assert result.best.desirability >= D.max() - 1e-6
+    for s in result.solutions:
+        amounts = np.array([s.settings[n] for n in names])
+        assert abs(amounts.sum() - 100) < 1e-6
+        assert np.all(amounts >= lows - 1e-6) and np.all(amounts <= highs + 1e-6)
+    text = result.text()
+    assert "% of the total" in text
+    assert any("sits at its" in w for w in result.best.warnings)
+
+
+def test_same_seed_same_blend():
+    study = load_study(DEMO)
+    fit = fit_study(study)
+    a = optimize(study, fit=fit, top=2, seed=7).to_dict()
+    b = optimize(study, fit=fit, top=2, seed=7).to_dict()
+    assert a["solutions"] == b["solutions"]
+    assert set(a["best"]["proportions"]) == {"rice_flour", "sorghum_flour",
+                                             "tapioca_starch"}
