@@ -62,10 +62,7 @@ def scheffe_terms(model: str, q: int, names: Sequence[str]) -> list[Term]:
 
 def contrast_term(i: int, j: int, names: Sequence[str], process=None) -> ContrastTerm:
     """x_i x_j (x_i - x_j), optionally times a process part (powers on other columns)."""
-    powers = [0] * len(names)
-    if process is not None:
-        powers = list(process)
-    powers[i], powers[j] = 2, 1  # a key no monomial label can take (see ContrastTerm)
+    powers = [0] * len(names) if process is None else list(process)
     return ContrastTerm.make(i, j, tuple(powers), names)
 
 

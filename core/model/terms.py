@@ -122,7 +122,9 @@ class ContrastTerm(Term):
         label = f"{names[i]}:{names[j]}:({names[i]}-{names[j]})"
         if any(rest):
             label += ":" + term_label(rest, names)
-        return cls(label, tuple(int(p) for p in powers), i, j)
+        key = list(rest)
+        key[i], key[j] = 2, 1
+        return cls(label, tuple(int(p) for p in key), i, j)
 
     @property
     def order(self) -> int:

@@ -295,6 +295,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             else:
                 settings[f.name] = float(f.centre + f.half_range * x[j])
                 coded[f.name] = float(x[j])
+                if is_component(f):  # 1 - (the others) leaves rounding dust at a bound
+                    settings[f.name] = round(settings[f.name], 12) + 0.0
         outcomes, predictions = {}, {}
         for r in study.responses:
             if r.name not in models:

@@ -86,6 +86,8 @@ def test_term_counts_and_labels():
     assert "a:b:(a-b)" in labels and "a:b:c" in labels
     t = parse_term("a:b:(a-b)", ["a", "b", "c"])
     assert isinstance(t, ContrastTerm) and t.label == "a:b:(a-b)"
+    assert t.powers == (2, 1, 0)  # the key no plain label takes; a:b, a, b are its parents
+    assert t.contains(parse_term("a:b", ["a", "b", "c"]))
     with pytest.raises(ModelError, match=r"written 'a:b:\(a-b\)'"):
         parse_term("b:a:(b-a)", ["a", "b", "c"])
 
