@@ -8,13 +8,13 @@ other columns as they are, so the filled-in sheet is the study's data file.
 """
 from __future__ import annotations
 
-import io
 from pathlib import Path
 
 import pandas as pd
 
 from ..errors import PlanError
 from ..study.files import write_atomic
+from ..study.safe_cells import table_bytes
 
 __all__ = ["run_sheet", "write_run_sheet", "SHEET_SUFFIXES"]
 
@@ -66,13 +66,8 @@ def write_run_sheet(table: pd.DataFrame, path: str | Path, *, study=None,
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
         raise PlanError(f"{path}: the folder {folder} does not exist: create it first")
-    if suffix == ".csv":
-        content = table.to_csv(index=False).encode("utf-8")
-    else:
-        buffer = io.BytesIO()
-        table.to_excel(buffer, index=False, sheet_name="runs", engine="openpyxl")
-        content = buffer.getvalue()
-    write_atomic(path, content, error=PlanError)
+    # text such as a level name "=1+2" is written as text, never as a formula
+    write_atomic(path, table_bytes(table, suffix, sheet="runs"), error=PlanError)
     return path
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import pandas as pd
 
 from ..cautions import FOOD_CAUTION
+from ..study.safe_cells import csv_bytes
 
 __all__ = ["study_toml_bytes", "solutions_table", "results_csv_bytes", "CAUTION"]
 
@@ -45,4 +46,4 @@ def solutions_table(result) -> pd.DataFrame:
 
 def results_csv_bytes(result) -> bytes:
     """The result's tidy table (``OptimizationResult.table()``) as UTF-8 CSV."""
-    return result.table().to_csv(index=False).encode("utf-8")
+    return csv_bytes(result.table())

@@ -5,11 +5,10 @@ its sheets in order.
 """
 from __future__ import annotations
 
-import io
-
 import pandas as pd
 
 from ..model.terms import model_label
+from ..study.safe_cells import workbook_bytes
 from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
 
 __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
@@ -33,18 +32,8 @@ def build_workbook(study, *, top: int = 5, seed: int | None = None, fit=None,
     """
     data = data if data is not None else report_data(
         study, top=top, seed=seed, fit=fit, result=result, **kwargs)
-    sheets = _workbook_tables(study, data)
-    buffer = io.BytesIO()
-    with pd.ExcelWriter(buffer, engine="openpyxl") as writer:
-        for name, frame in sheets.items():
-            frame.to_excel(writer, sheet_name=name, index=False)
-            sheet = writer.sheets[name]
-            for column in sheet.columns:  # readable widths, capped
-                width = max(len(str(c.value)) if c.value is not None else 0
-                            for c in column)
-                sheet.column_dimensions[column[0].column_letter].width = \
-                    min(max(10, width + 2), 60)
-    return buffer.getvalue()
+    # text from the study (run ids, labels, level names) stays text, never a formula
+    return workbook_bytes(_workbook_tables(study, data))
 
 
 def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:

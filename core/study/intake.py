@@ -17,6 +17,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import DataError, where
+from .limits import check_cell_count, check_csv_shape, check_workbook
+from .safe_cells import restore_text
 
 __all__ = ["RawTable", "read_table", "parse_number", "cell_text", "MAX_TABLE_BYTES"]
 
@@ -122,18 +124,27 @@ def _read_csv(path: Path, data: bytes) -> RawTable:
     separator = max([",", ";", "\t"], key=first.count) if first else ","
     if first.count(separator) == 0:
         separator = ","
+    check_csv_shape(path, lines, separator)
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=separator)
     header: list[str] | None = None
     rows: list[tuple[int, list]] = []
-    for line_number, cells in enumerate(reader, start=1):
-        cells = [c.strip() for c in cells]
-        if not any(cells):
-            continue
-        if header is None:
-            header = cells
-            header_row = line_number
-            continue
-        rows.append((line_number, [c if c != "" else None for c in cells]))
+    count = 0
+    try:
+        for line_number, cells in enumerate(reader, start=1):
+            count += len(cells)
+            check_cell_count(path, count)
+            # the apostrophe the tool's own exports put before "=1+2" comes off
+            cells = [restore_text(c.strip()) for c in cells]
+            if not any(cells):
+                continue
+            if header is None:
+                header = cells
+                header_row = line_number
+                continue
+            rows.append((line_number, [c if c != "" else None for c in cells]))
+    except csv.Error as exc:
+        raise DataError(f"{path.name}: cannot read the table ({exc}): is a quote (\") "
+                        "left open? Save it again as CSV from the spreadsheet") from None
     if header is None:
         return RawTable(path, [], [], False)
     # A decimal comma can only be told apart when commas do not separate.
@@ -145,6 +156,8 @@ def _read_csv(path: Path, data: bytes) -> RawTable:
 def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
     import openpyxl  # imported here: only Excel users pay for it
 
+    # sizes and cell counts from the archive, before anything is expanded
+    check_workbook(path, data)
     try:
         book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises many kinds for a damaged file
@@ -165,11 +178,19 @@ def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
                 raise DataError(f"{path.name}: no sheet named '{sheet}'; the workbook "
                                 f"has {book.sheetnames}")
             ws = book[sheet]
+        # The sheet's stated size may claim a million rows and columns, which the
+        # reader would fill with blanks: read only the cells that are there.
+        ws.reset_dimensions()
         header = None
         rows: list[tuple[int, list]] = []
+        count = width = 0
         for row_number, values in enumerate(ws.iter_rows(values_only=True), start=1):
+            count += len(values)
+            check_cell_count(path, count)
+            width = max(width, len(values))
             cells = [None if v is None or (isinstance(v, str) and not v.strip())
-                     else (v.strip() if isinstance(v, str) else v) for v in values]
+                     else (restore_text(v.strip()) if isinstance(v, str) else v)
+                     for v in values]
             if not any(c is not None for c in cells):
                 continue
             if header is None:
@@ -179,10 +200,18 @@ def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
             rows.append((row_number, [float(c) if isinstance(c, (int, float))
                                       and not isinstance(c, bool) else
                                       (None if c is None else str(c)) for c in cells]))
+    except DataError:
+        raise
+    except Exception as exc:  # a damaged sheet shows only while it is read
+        raise DataError(f"{path.name}: cannot read the workbook ({exc}): save it again "
+                        "as .xlsx or as CSV") from None
     finally:
         book.close()
     if header is None:
         return RawTable(path, [], [], False)
+    # every row as wide as the widest, as a spreadsheet shows the sheet
+    header += [""] * (width - len(header))
+    rows = [(r, cells + [None] * (width - len(cells))) for r, cells in rows]
     # Excel keeps trailing empty header cells when a column was once used.
     while header and header[-1] == "":
         header.pop()
@@ -203,14 +232,20 @@ def _refuse_unsaved_formulas(path: Path, data: bytes, title: str, blanks: set,
 
     book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False)
     try:
-        for row_number, values in enumerate(book[title].iter_rows(values_only=True),
-                                            start=1):
+        ws = book[title]
+        ws.reset_dimensions()
+        for row_number, values in enumerate(ws.iter_rows(values_only=True), start=1):
             for j, v in enumerate(values):
                 if (row_number, j) in blanks and isinstance(v, str) and v.startswith("="):
                     raise DataError(f"{where(path, row_number, header[j] or None)}the "
                                     f"cell holds the formula '{v}' but no computed "
                                     "value: open the workbook in a spreadsheet program "
                                     "and save it again, or type the value")
+    except DataError:
+        raise
+    except Exception as exc:  # a damaged sheet shows only while it is read
+        raise DataError(f"{path.name}: cannot read the workbook ({exc}): save it again "
+                        "as .xlsx or as CSV") from None
     finally:
         book.close()
 

@@ -50,6 +50,9 @@ def parse_study_text(data: bytes, name: str) -> dict:
     except tomllib.TOMLDecodeError as exc:
         raise StudyError(f"{name}: not a valid study file ({exc}): check quotes, "
                          "brackets and '=' signs on that line") from None
+    except RecursionError:  # brackets nested thousands deep: no study looks like that
+        raise StudyError(f"{name}: lists or tables are nested too deeply to be a study "
+                         "file: is it the right file?") from None
 
 
 def build_study(spec: dict, *, source: str | Path | None = None,
