@@ -411,7 +411,8 @@ def test_a_zip_directory_that_understates_a_part_cannot_unpack_more():
 
 
 def test_a_file_that_is_not_a_zip_is_refused_as_not_a_workbook():
-    with pytest.raises(DataError, match=r"^fake\.xlsx: this is not an \.xlsx workbook"):
+    with pytest.raises(DataError, match=r"^fake\.xlsx: cannot open it as an Excel "
+                                        r"workbook \(it is not a zip"):
         read_table("fake.xlsx", data=b"run,x\n1,2\n")
 
 

@@ -9,7 +9,7 @@ import altair as alt
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff_ui import state
+from tradeoff_ui import state, text
 
 st.set_page_config(page_title="tradeoff workbench", page_icon=":material/balance:",
                    layout="wide")
@@ -19,7 +19,7 @@ alt.data_transformers.disable_max_rows()
 try:
     state.init()
 except TradeoffError as exc:
-    st.error(f"Could not open the study: {exc}")
+    st.error(f"Could not open the study: {text.plain(exc)}")
     st.stop()
 
 pages = [
@@ -31,5 +31,5 @@ pages = [
     st.Page("views/results.py", title="Recommended settings", icon=":material/flag:"),
     st.Page("views/downloads.py", title="Take it with you", icon=":material/download:"),
 ]
-st.sidebar.caption(f"Open study: **{st.session_state['origin_label']}**")
+st.sidebar.caption(f"Open study: **{text.plain(st.session_state['origin_label'])}**")
 st.navigation(pages).run()

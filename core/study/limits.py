@@ -56,8 +56,9 @@ def check_workbook(path: str | Path, data: bytes) -> None:
     try:
         archive = zipfile.ZipFile(io.BytesIO(data))
     except (zipfile.BadZipFile, OSError, ValueError):
-        raise DataError(f"{path.name}: this is not an .xlsx workbook (it is not a zip "
-                        "archive): save it again as .xlsx or as CSV") from None
+        raise DataError(f"{path.name}: cannot open it as an Excel workbook (it is not "
+                        "a zip archive, as an .xlsx file is): save it again as .xlsx or "
+                        "as CSV") from None
     with archive:
         members = archive.infolist()
         if len(members) > MAX_MEMBERS:

@@ -7,7 +7,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import results_csv_bytes, study_toml_bytes
-from tradeoff_ui import cached
+from tradeoff_ui import cached, text
 
 ss = st.session_state
 
@@ -18,7 +18,7 @@ try:
     fitted = cached.fit(study)
     result = cached.optimize(study, fitted)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 
 origin = ss["origin"]
@@ -38,7 +38,7 @@ try:
     csv_bytes = results_csv_bytes(result)
     xlsx_bytes = cached.report(study, fitted, result, "xlsx", study_bytes, data_bytes)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 
 # -- show -------------------------------------------------------------------------
@@ -72,7 +72,7 @@ if st.button("Prepare the report", key="d_prepare") or ss["report_ready"]:
     try:
         page = cached.report(study, fitted, result, "html", study_bytes, data_bytes)
     except TradeoffError as exc:
-        st.error(str(exc))
+        st.error(text.plain(exc))
     else:
         st.download_button("Report (.html)", page, file_name=f"{stem}_report.html",
                            mime="text/html", key="d_report")

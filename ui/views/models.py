@@ -9,7 +9,7 @@ from tradeoff.report.maps import (effect_lines, effect_table, half_normal_table,
                            interaction_means, residual_table)
 from tradeoff.study.spec import MODELS
 from tradeoff.model.terms import model_terms
-from tradeoff_ui import cached, charts
+from tradeoff_ui import cached, charts, text
 
 ss = st.session_state
 OWN = "my own choice of terms"
@@ -19,7 +19,7 @@ st.title("What drives each response")
 try:
     study = cached.current_study()
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 
 # -- widgets --------------------------------------------------------------------
@@ -62,10 +62,10 @@ ss["reduce"] = (ss["reduce"] | {name}) if reduce else (ss["reduce"] - {name})
 try:
     fitted = cached.fit(study)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 if name in fitted.skipped:
-    st.error(f"No model for {response.label}: {fitted.skipped[name]}")
+    st.error(text.plain(f"No model for {response.label}: {fitted.skipped[name]}"))
     st.stop()
 model = fitted.models[name]
 report = model.report()
@@ -86,10 +86,11 @@ st.caption("R² is the share of the variation between runs the model explains; a
            "when it is left out of the fit. A predicted R² far below R² means the model "
            "follows noise.")
 for warning in report["warnings"]:
-    st.warning(warning)
+    st.warning(text.plain(warning))
 if report.get("reduction"):
     dropped = report["reduction"]["dropped"]
-    st.info("Reduction dropped: " + ", ".join(f"{t} ({p})" for t, p in dropped.items())
+    st.info("Reduction dropped: " + text.plain(", ".join(f"{t} ({p})"
+                                                         for t, p in dropped.items()))
             if dropped else "Reduction kept every term.")
 
 left, right = st.columns([3, 2])
@@ -123,7 +124,7 @@ try:
     ab = interaction_means(study, name, a, b)
     ba = interaction_means(study, name, b, a)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
 else:
     st.caption("Mean measured response at each low/high combination (centre points left "
                "out). Parallel lines: no interaction; lines that cross or fan out: the "

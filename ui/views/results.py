@@ -6,7 +6,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
-from tradeoff_ui import cached, charts
+from tradeoff_ui import cached, charts, text
 
 ss = st.session_state
 
@@ -17,7 +17,7 @@ try:
     study = cached.current_study()
     fitted = cached.fit(study)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 numeric = [f.name for f in study.factors if not f.is_categorical]
 
@@ -35,14 +35,14 @@ ss["rank_by"] = c2.radio("Order them by", list(rank_labels), format_func=rank_la
 try:
     result = cached.optimize(study, fitted)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 
 # -- show: the solutions ------------------------------------------------------------------
 if not result.feasible:
     st.error("No setting in the searched region brings every goal within its limits "
              "(D = 0 everywhere); the settings shown come closest."
-             + (" Out of reach anywhere: " + ", ".join(result.unreachable)
+             + (" Out of reach anywhere: " + text.plain(", ".join(result.unreachable))
                 if result.unreachable else ""))
 table = solutions_table(result)
 units = {f.name: f.unit for f in study.factors}
@@ -73,7 +73,7 @@ for name, o in chosen.responses.items():
                  "mean from": o.ci[0], "mean to": o.ci[1],
                  "one batch from": o.pi[0], "one batch to": o.pi[1],
                  "desirability": o.desirability, "chance within limits": o.chance_in_limits})
-st.markdown(f"**{chosen.label}**: D = {chosen.desirability:.3f}"
+st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
             + ("" if chosen.chance_all is None else
                f", chance that every response lands within its limits: "
                f"**{chosen.chance_all:.1%}**"))
@@ -85,11 +85,12 @@ st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions",
                  format="percent"), "desirability": st.column_config.NumberColumn(
                  format="%.3f")})
 for w in (*chosen.warnings, *result.warnings):
-    st.warning(w)
+    st.warning(text.plain(w))
 for name, reason in fitted.skipped.items():
-    st.warning(f"{name} has no model and takes no part: {reason}")
+    st.warning(text.plain(f"{name} has no model and takes no part: {reason}"))
 if result.assumptions:
-    st.caption("How the chances were worked out: " + " ".join(result.assumptions))
+    st.caption("How the chances were worked out: "
+               + text.plain(" ".join(result.assumptions)))
 
 # -- maps ---------------------------------------------------------------------------------
 st.subheader("Maps over two factors")
@@ -109,7 +110,7 @@ else:
     try:
         grid = cached.contour(study, fitted, x, y, chosen.settings)
     except TradeoffError as exc:
-        st.error(str(exc))
+        st.error(text.plain(exc))
     else:
         fx, fy = study.factor(x), study.factor(y)
         title = "D" if shown_value == "D" else charts.titled(
@@ -117,17 +118,17 @@ else:
         marker = pd.DataFrame({"x": [chosen.settings[x]], "y": [chosen.settings[y]]})
         st.altair_chart(charts.contour_chart(grid, shown_value, title, fx.display(),
                                              fy.display(), marker, n=41), width="stretch")
-        st.caption("Held at " + ", ".join(
+        st.caption("Held at " + text.plain(", ".join(
             f"{k} = {v if isinstance(v, str) else format(v, '.4g')}"
-            for k, v in held.items())
+            for k, v in held.items()))
             + f". Grey veil: some response is predicted outside its limits (or a rule "
-              f"among factors is broken). Cross: {chosen.label}.")
+              f"among factors is broken). Cross: {text.plain(chosen.label)}.")
 
 # -- what-if ------------------------------------------------------------------------------
 st.subheader("What if I make it like this?")
 st.caption("Set the factors by hand; predictions update with their intervals.")
 nonce = ss["whatif_nonce"]
-if st.button(f"Start from {chosen.label}", key="r_whatif_reset"):
+if st.button(f"Start from {text.plain(chosen.label)}", key="r_whatif_reset"):
     ss["whatif"], ss["whatif_nonce"] = {}, nonce + 1
     nonce += 1
 settings = {}
@@ -136,20 +137,20 @@ for col, f in zip(cols, study.factors):
     start = ss["whatif"].get(f.name, chosen.settings[f.name])
     key = f"w{ss['epoch']}.{nonce}.{f.name}"
     if f.is_categorical:
-        settings[f.name] = col.selectbox(f.display(), list(f.levels),
+        settings[f.name] = col.selectbox(text.plain(f.display()), list(f.levels),
                                          index=list(f.levels).index(start), key=key)
     else:
         span = f.high - f.low
-        settings[f.name] = col.number_input(f.display(), value=float(start),
+        settings[f.name] = col.number_input(text.plain(f.display()), value=float(start),
                                             step=float(span / 20), format="%.4g", key=key)
 ss["whatif"] = settings
 try:
     answer = cached.what_if(study, fitted, settings)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
 else:
     if answer.outside:
-        st.warning("Outside the tested range: " + ", ".join(answer.outside)
+        st.warning("Outside the tested range: " + text.plain(", ".join(answer.outside))
                    + ". The model is extrapolating; predictions there are guesses.")
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")

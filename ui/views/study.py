@@ -8,7 +8,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
-from tradeoff_ui import cached, state
+from tradeoff_ui import cached, state, text
 
 ss = st.session_state
 
@@ -58,7 +58,7 @@ if uploads:
 if ss["draft"] is not None:
     draft = ss["draft"]
     columns = draft["columns"]
-    st.subheader(f"Name the columns of {draft['name']}")
+    st.subheader(f"Name the columns of {text.plain(draft['name'])}")
     st.dataframe(columns, hide_index=True)
     with st.form("draft_form"):
         chosen_f = st.multiselect("Factor columns (what you set)",
@@ -80,7 +80,7 @@ if ss["draft"] is not None:
             ss["open_error"] = str(exc)
 
 if ss["open_error"]:
-    st.error(f"Could not open the files: {ss['open_error']}. The study below is "
+    st.error(f"Could not open the files: {text.plain(ss['open_error'])}. The study below is "
              "still the one in use.")
 
 # -- call the library ---------------------------------------------------------
@@ -88,15 +88,15 @@ try:
     study = cached.current_study()
     table = cached.runs_table(study)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 
 # -- show ---------------------------------------------------------------------
-st.header(study.name)
+st.header(text.plain(study.name))
 if study.description:
-    st.caption(study.description)
+    st.caption(text.plain(study.description))
 for note in study.notes:
-    st.warning(note)
+    st.warning(text.plain(note))
 
 left, right = st.columns(2)
 with left:

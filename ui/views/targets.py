@@ -8,7 +8,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.inputs import checked_goal
-from tradeoff_ui import cached, charts
+from tradeoff_ui import cached, charts, text
 
 ss = st.session_state
 KINDS = {"maximize": "higher is better", "minimize": "lower is better",
@@ -25,7 +25,7 @@ st.caption("For each response, say what you want. Desirability runs from 0 (not 
 try:
     study = cached.current_study()
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 epoch = ss["epoch"]
 
@@ -53,7 +53,8 @@ for item in items:
     with st.container(border=True):
         left, right = st.columns([2, 3])
         with left:
-            st.markdown(f"**{item.display()}**" + (" (factor)" if is_factor else ""))
+            st.markdown(f"**{text.plain(item.display())}**"
+                        + (" (factor)" if is_factor else ""))
             kinds = list(KINDS)
             kind = st.selectbox("Goal", kinds, index=kinds.index(goal.kind),
                                 format_func=KINDS.get, key=f"{key}.kind")
@@ -95,7 +96,8 @@ for item in items:
             try:
                 new = checked_goal(item.name, **values)
             except TradeoffError as exc:
-                st.error(f"{exc}. The previous goal stays in use until this is fixed.")
+                st.error(f"{text.plain(exc)}. The previous goal stays in use until this "
+                         "is fixed.")
             else:
                 if new != goal:
                     ss["goals"] = {**ss["goals"], item.name: new}
@@ -108,7 +110,7 @@ try:
     result = cached.optimize(study, fitted)
     curves = cached.curves(study)
 except TradeoffError as exc:
-    st.error(str(exc))
+    st.error(text.plain(exc))
     st.stop()
 best = result.best
 
@@ -131,7 +133,7 @@ for name, (slot, item, is_factor) in slots.items():
         st.altair_chart(charts.desirability_chart(curve, marker,
                                                   charts.titled(item.label, item.unit)),
                         width="stretch")
-        st.caption(f"At the best settings: {value:.4g} {item.unit} -> desirability "
+        st.caption(f"At the best settings: {value:.4g} {text.plain(item.unit)} -> desirability "
                    f"{d:.3f}")
 
 with st.sidebar.container(key="best_now"):
@@ -139,6 +141,6 @@ with st.sidebar.container(key="best_now"):
     for f in study.factors:
         value = best.settings[f.name]
         shown = value if isinstance(value, str) else f"{value:.4g} {f.unit}".strip()
-        lines.append(f"- {f.label}: **{shown}**")
+        lines.append(f"- {text.plain(f.label)}: **{text.plain(shown)}**")
     st.markdown(f"**Best settings now** (D = {best.desirability:.3f})\n\n"
                 + "\n".join(lines))
