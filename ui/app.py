@@ -11,8 +11,9 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff_ui import state, text
 
-st.set_page_config(page_title="tradeoff workbench", page_icon=":material/balance:",
-                   layout="wide")
+# An emoji icon is drawn by the page itself; a ":material/..." page icon would be
+# fetched from a font server on the internet, and nothing may leave this computer.
+st.set_page_config(page_title="tradeoff workbench", page_icon="⚖️", layout="wide")
 # Contour grids hold a few thousand points; they are small, draw them whole.
 alt.data_transformers.disable_max_rows()
 
