@@ -18,7 +18,8 @@ import pandas as pd
 from ..errors import DataError, StudyError, did_you_mean, where
 from ..study.intake import RawTable
 from .panel import adjusted_means, assessor_agreement, read_panel, run_means
-from .storage import fit_kinetics, fitted_value, interpolate_at, read_storage, time_to_limit
+from .storage import (fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage,
+                      time_to_limit)
 from ..cautions import SHELF_LIFE_CAUTION
 from ..study.spec import Response, Study
 from ..study.runs import read_study_table
@@ -232,8 +233,33 @@ def _derive_storage(study, r, opts, sec, fname, sub):
         if run not in points and run not in reasons:
             reasons[run] = "no rows in the storage table"
     flags = {run: fl for run, fl in flags.items() if run not in reasons}
-    return _table(runs, values, flags, reasons, points, se, r2), \
-        _flag_notes(r.name, flags) + notes
+    pieces, piece_notes = _storage_pieces(r, kind, sub, tname)
+    return _table(runs, values, flags, reasons, points, se, r2, pieces), \
+        _flag_notes(r.name, flags) + notes + piece_notes
+
+
+def _storage_pieces(r, kind: str, sub: pd.DataFrame, tname: str) -> tuple[dict, list[str]]:
+    """Per run, the pieces at each time and their SD (text), and what was done with them."""
+    spread = piece_spread(sub["run"], sub["time"], sub["value"])
+    if not (spread["pieces"] > 1).any():
+        return {}, []
+    text = {}
+    for run, part in spread.groupby("run", sort=False):
+        lo, hi = int(part["pieces"].min()), int(part["pieces"].max())
+        each = f"{lo}" if lo == hi else f"{lo} to {hi}"
+        sds = part["sd"].dropna()
+        sd = ("" if sds.empty else f", SD {sds.min():.3g}" if len(sds) == 1 or
+              sds.min() == sds.max() else f", SD {sds.min():.3g} to {sds.max():.3g}")
+        text[run] = f"{each} per {tname}{sd}"
+    several = spread[spread["pieces"] > 1]
+    head = (f"response '{r.name}': {int(several['pieces'].sum())} pieces at "
+            f"{len(several)} run-{tname} pairs")
+    if kind in ("value_at", "change"):
+        return text, [head + ": each time's value is the mean of its pieces"]
+    return text, [head + f": the {kind} line is fitted to every piece, and its "
+                  "standard error uses the pieces' scatter around each run's line (not "
+                  f"the scatter of pieces at one {tname}, which understates it when the "
+                  "pieces of one time share a pack history)"]
 
 
 # --------------------------------------------------------------------------
@@ -311,7 +337,8 @@ def _flag_notes(name: str, flags: dict) -> list[str]:
             for kind, runs in kinds.items()]
 
 
-def _table(runs, values, flags, reasons, points, se, r2) -> pd.DataFrame:
+def _table(runs, values, flags, reasons, points, se, r2, pieces=None) -> pd.DataFrame:
+    pieces = pieces or {}
     rows = []
     for run in runs:
         fl = flags.get(run)
@@ -320,7 +347,7 @@ def _table(runs, values, flags, reasons, points, se, r2) -> pd.DataFrame:
         rows.append({"run": run, "value": values.get(run, np.nan) if run not in reasons
                      else np.nan, "points": points.get(run, 0),
                      "se": se.get(run, np.nan), "r_squared": r2.get(run, np.nan),
-                     "flag": flag})
+                     "flag": flag, "pieces": pieces.get(run, "")})
     out = pd.DataFrame(rows, columns=DERIVED_COLUMNS)
     out["value"] = out["value"].astype(float)
     return out
@@ -413,7 +440,8 @@ def derivation_table(study: Study, name: str, *, storage: RawTable | None = None
         ``rate``, of the run mean for panel responses; NaN otherwise),
         ``r_squared`` (fit quality for ``rate`` and ``time_to_limit``) and
         ``flag`` (empty, or why the run was interpolated, extrapolated or
-        left out).
+        left out) and ``pieces`` (storage: the pieces at each time and their
+        SD, such as "3 per week, SD 0.2 to 0.5"; empty with one value a time).
     """
     r = study.response(name)
     if not r.is_derived:

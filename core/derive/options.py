@@ -20,7 +20,7 @@ PANEL_KINDS = ("panel_mean", "panel_adjusted")
 DERIVE_KINDS = STORAGE_KINDS + PANEL_KINDS
 
 # The columns of every per-run derivation table.
-DERIVED_COLUMNS = ["run", "value", "points", "se", "r_squared", "flag"]
+DERIVED_COLUMNS = ["run", "value", "points", "se", "r_squared", "flag", "pieces"]
 
 _USES = {
     "value_at": {"property", "at", "extrapolate", "order", "min_points"},

@@ -29,7 +29,7 @@ from ..study.intake import RawTable, cell_text, parse_number
 
 __all__ = [
     "SHELF_LIFE_CAUTION", "ORDERS", "DIRECTIONS", "read_storage", "interpolate_at",
-    "fit_kinetics", "fitted_value", "time_to_limit",
+    "fit_kinetics", "fitted_value", "time_to_limit", "piece_spread",
 ]
 
 
@@ -69,7 +69,6 @@ def read_storage(table: RawTable, *, time: str = "time",
                             f"{[h for h in table.header if h]}")
     known = set(run_ids) if run_ids is not None else None
     rows, runs, times, props, values = [], [], [], [], []
-    first_seen: dict[tuple, int] = {}
     for row, cells in table.rows:
         def cell(name):
             i = columns[name]
@@ -99,13 +98,8 @@ def read_storage(table: RawTable, *, time: str = "time",
         prop = str(prop).strip()
         value = parse_number(cell("value"), decimal_comma=table.decimal_comma,
                              location=where(fname, row, "value"))
-        key = (run, prop, t)
-        if key in first_seen:
-            raise DataError(f"{where(fname, row, time)}run '{run}' has a second "
-                            f"'{prop}' value at {time} {t:g} (first at row "
-                            f"{first_seen[key]}): keep one row per run, time and "
-                            "property (enter the mean of replicate measurements)")
-        first_seen[key] = row
+        # several rows for one run, time and property are pieces (packs pulled
+        # together): kept as they are; value_at and change use their mean
         rows.append(row)
         runs.append(run)
         times.append(t)
@@ -124,7 +118,8 @@ def _groups(run) -> tuple[np.ndarray, np.ndarray]:
 def interpolate_at(run, time, value, at: float) -> pd.DataFrame:
     """Each run's value at time ``at``, linear between measured times.
 
-    Blank (NaN) values are ignored. Never extrapolates: a run whose
+    Blank (NaN) values are ignored; several values of one run at one time
+    (pieces) enter as their mean, and ``n_points`` counts measured times. Never extrapolates: a run whose
     measurements do not reach ``at`` gets NaN and status ``before_first`` or
     ``after_last``.
 
@@ -142,9 +137,10 @@ def interpolate_at(run, time, value, at: float) -> pd.DataFrame:
     out = []
     for g, label in enumerate(labels):
         keep = (codes == g) & ~np.isnan(value)
-        t, y = time[keep], value[keep]
-        order = np.argsort(t, kind="stable")
-        t, y = t[order], y[order]
+        # pieces at one time (several packs) enter as their mean
+        t, inverse = np.unique(time[keep], return_inverse=True)
+        y = (np.bincount(inverse, value[keep], len(t))
+             / np.bincount(inverse, minlength=len(t)))
         rec = {"run": label, "value": math.nan, "status": "no_data",
                "time_before": math.nan, "time_after": math.nan,
                "first_time": t[0] if len(t) else math.nan,
@@ -171,7 +167,9 @@ def interpolate_at(run, time, value, at: float) -> pd.DataFrame:
 def fit_kinetics(run, time, value, *, order: str = "zero") -> pd.DataFrame:
     """Per-run least-squares kinetic fit (zero or first order).
 
-    Blank (NaN) values are ignored. First order fits ``ln(value)`` and needs
+    Blank (NaN) values are ignored; several values at one time (pieces) each
+    enter the fit, so ``n_points`` counts pieces and ``rate_se`` uses the pieces'
+    scatter around the run's line. First order fits ``ln(value)`` and needs
     values above 0 (raises ``DataError`` otherwise). Runs with fewer than two
     distinct times get NaN estimates.
 
@@ -267,3 +265,23 @@ def time_to_limit(start, rate, limit: float, *, order: str = "zero",
         t = gap / rate
     out = np.where(sign * gap <= 0, 0.0, np.where(sign * rate > 0, t, np.nan))
     return np.where(np.isnan(start) | np.isnan(rate), np.nan, out)
+
+
+def piece_spread(run, time, value) -> pd.DataFrame:
+    """Pieces at each run and time: their number, mean and SD (blanks left out).
+
+    Returns
+    -------
+    DataFrame
+        One row per run and time (first-seen run order, times ascending):
+        ``run``, ``time``, ``pieces``, ``mean``, ``sd`` (NaN with one piece).
+    """
+    frame = pd.DataFrame({"run": pd.Series(run, dtype=object).to_numpy(),
+                          "time": np.asarray(time, float),
+                          "value": np.asarray(value, float)}).dropna(subset=["value"])
+    order = {r: i for i, r in enumerate(pd.unique(frame["run"]))}
+    out = (frame.groupby(["run", "time"], sort=False)["value"]
+           .agg(pieces="count", mean="mean", sd="std").reset_index())
+    out["pieces"] = out["pieces"].astype(int)
+    out = out.assign(_o=out["run"].map(order)).sort_values(["_o", "time"], kind="stable")
+    return out.drop(columns="_o").reset_index(drop=True)

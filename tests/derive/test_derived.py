@@ -335,9 +335,6 @@ LIKE = '[[responses]]\nname = "l"\nderive = "panel_mean"\nattribute = "liking"\n
 
 
 @pytest.mark.parametrize("responses, storage, panel, pattern", [
-    (RATE, STORAGE + "R1,4,hardness,13\n", PANEL,
-     r"storage\.csv, row 15, column 'week': run 'R1' has a second 'hardness' value at "
-     r"week 4 \(first at row 3\)"),
     (RATE, STORAGE + "R1,-1,hardness,13\n", PANEL,
      r"storage\.csv, row 15, column 'week': negative storage time"),
     (RATE, STORAGE + "R1,6 weeks,hardness,13\n", PANEL,

@@ -137,9 +137,6 @@ def test_read_storage_tidy(tmp_path):
 
 
 @pytest.mark.parametrize("text, pattern", [
-    (GOOD + "R1,4,hardness,14.5\n",
-     r"storage\.csv, row 5, column 'week': run 'R1' has a second 'hardness' value at "
-     r"week 4 \(first at row 3\)"),
     (GOOD + "R2,-2,hardness,15\n",
      r"storage\.csv, row 5, column 'week': negative storage time \(-2\)"),
     (GOOD + "R2,two,hardness,15\n",
