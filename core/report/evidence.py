@@ -62,6 +62,14 @@ class _EvidenceSections(_Sections):
                 ["predicted R2 (how well it predicts runs left out)",
                  _r2(rep["pred_r2"])],
                 ["residual standard deviation", _g(rep["residual_sd"])]]
+        pc = rep.get("pieces")
+        if pc:
+            # several pieces per batch (model/pieces.py): the run mean is the unit
+            rows += [["runs measured in several pieces",
+                      f"{pc['runs_with_several']} ({pc['pieces']} pieces)"],
+                     ["SD of pieces within a batch", _g(pc["within_sd"])],
+                     ["SD from batch to batch", _g(pc["batch_sd"])],
+                     ["pieces or batches?", esc(pc["summary"])]]
         red = rep.get("reduction")
         if red and red.get("dropped"):
             rows.append(["terms dropped by reduction",

@@ -26,7 +26,7 @@ def piece_columns(table: dict, fname: str, what: str) -> tuple[str, ...] | None:
     value = table.get("columns")
     if value is None:
         return None
-    if (not isinstance(value, list) or not value
+    if (not isinstance(value, (list, tuple)) or not value
             or not all(isinstance(v, str) and v.strip() for v in value)):
         raise StudyError(f"{fname}: {what}: columns must list the data columns that hold "
                          "its pieces, in quotes, for example columns = [\"hard_1\", "

@@ -220,3 +220,15 @@ def test_a_pieces_study_optimizes(write_study):
     result = optimize(load_study(write_study(STUDY, csv)), seed=1)
     best = result.best
     assert 20 <= best.settings["protein"] <= 30 and math.isfinite(best.predictions["hardness"])
+
+
+def test_the_report_carries_the_pieces_line(write_study):
+    from tradeoff.report.data import report_data
+    from tradeoff.report.html import build_report_html
+
+    csv, _ = _pieces_csv(CORNERS + [(25, 4)] * 3, 3, seed=2, batch_sd=1.0, within_sd=1.0)
+    study = load_study(write_study(STUDY, csv))
+    page = build_report_html(study, data=report_data(study, top=1, seed=0)).decode("utf-8")
+    summary = fit_response(study, "hardness").pieces_["summary"]
+    assert "SD of pieces within a batch" in page and "runs measured in several pieces" in page
+    assert summary.split(";")[0] in page

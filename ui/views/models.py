@@ -85,6 +85,20 @@ st.caption("R² is the share of the variation between runs the model explains; a
            "R² charges for each term; predicted R² is how well each run is predicted "
            "when it is left out of the fit. A predicted R² far below R² means the model "
            "follows noise.")
+pieces = report.get("pieces")
+if pieces:
+    with st.container(border=True):
+        st.markdown("**Pieces per batch: measurement noise against batch noise**")
+        pc = st.columns(4)
+        pc[0].metric("Runs with several pieces", pieces["runs_with_several"])
+        pc[1].metric("Pieces", pieces["pieces"])
+        for col, key, title in ((pc[2], "within_sd", "SD within a batch"),
+                                (pc[3], "batch_sd", "SD batch to batch")):
+            col.metric(title, "-" if pieces[key] is None else f"{pieces[key]:.3g}")
+        st.info(pieces["summary"])
+        st.caption("The model sees one value per run, the mean of its pieces; pure error "
+                   "and lack of fit come from repeated runs, never from pieces of one "
+                   "batch.")
 for warning in report["warnings"]:
     st.warning(text.plain(warning))
 if report.get("reduction"):
