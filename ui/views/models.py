@@ -95,7 +95,7 @@ if pieces:
         for col, key, title in ((pc[2], "within_sd", "SD within a batch"),
                                 (pc[3], "batch_sd", "SD batch to batch")):
             col.metric(title, "-" if pieces[key] is None else f"{pieces[key]:.3g}")
-        st.info(pieces["summary"][:1].upper() + pieces["summary"][1:])
+        st.info(text.plain(pieces["summary"][:1].upper() + pieces["summary"][1:]))
         st.caption("The model sees one value per run, the mean of its pieces; pure error "
                    "and lack of fit come from repeated runs, never from pieces of one "
                    "batch.")
