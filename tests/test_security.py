@@ -30,7 +30,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from tradeoff import DataError, StudyError
+from tradeoff import DataError, StudyError, TradeoffError
 from tradeoff.study.intake import read_table
 from tradeoff.study.limits import MAX_CELLS, MAX_UNPACKED_BYTES
 from tradeoff.study.safe_cells import (csv_bytes, inert_text, restore_text, table_bytes,
@@ -419,3 +419,64 @@ def test_a_damaged_sheet_is_one_line_not_a_crash():
     members["xl/worksheets/sheet1.xml"] = members["xl/worksheets/sheet1.xml"][:300]
     with pytest.raises(DataError, match=r"^cut\.xlsx: cannot read the workbook"):
         read_table("cut.xlsx", data=_zip(members))
+
+
+# -- the command line and the workbench refuse, in one line -------------------------
+
+def test_the_command_line_refuses_a_bomb_with_one_line_and_status_2(tmp_path, bomb, capsys):
+    from tradeoff.cli import main
+
+    study = tmp_path / "study.toml"
+    study.write_text(PAYLOAD_STUDY.replace('data = "runs.csv"', 'data = "runs.xlsx"'),
+                     encoding="utf-8")
+    (tmp_path / "runs.xlsx").write_bytes(bomb)
+    start = time.perf_counter()
+    assert main(["check", str(study)]) == 2
+    assert time.perf_counter() - start < 5.0  # the whole command, start-up included
+    err = capsys.readouterr().err
+    assert err.startswith("error: runs.xlsx: the workbook unpacks to 201 MB")
+    assert err.count("\n") == 1 and "Traceback" not in err
+
+
+@pytest.mark.parametrize("section", [
+    '[study]\ndata = "{target}"',
+    '[[confirmations]]\ndata = "{target}"',
+])
+def test_an_uploaded_study_cannot_name_a_file_outside_its_uploads(tmp_path, section):
+    """A shared study naming a file on the computer the workbench runs on gets
+    only what was uploaded with it: the file is never read."""
+    from tradeoff.inputs import study_from_files
+
+    secret = tmp_path / "secret.csv"
+    secret.write_text("run,protein,binder,hardness\n9,25,x,1\n", encoding="utf-8")
+    text = PAYLOAD_STUDY
+    if section.startswith("[study]"):
+        text = text.replace('data = "runs.csv"', f'data = "{secret}"')
+        files = {"study.toml": text.encode(), "runs.csv": payload_runs()}
+        match = r"secret\.csv.*upload"
+    else:
+        text += "\n" + section.format(target=secret) + "\n"
+        files = {"study.toml": text.encode(), "runs.csv": payload_runs()}
+        match = r"secret\.csv.*not uploaded"
+    with pytest.raises(TradeoffError, match=match):
+        study_from_files(files)
+
+
+def test_the_html_report_loads_nothing_and_runs_nothing(payload_study):
+    """The report page: the payloads appear escaped, never as a tag, and the one
+    script element is the inert JSON copy of the numbers."""
+    from tradeoff import build_report_html, load_study
+
+    page = build_report_html(load_study(payload_study), top=2, seed=1)
+    page = page.decode("utf-8") if isinstance(page, bytes) else page
+    # the payloads' address only as text (chart captions hold it in quoted
+    # attribute values, which show text), never in an address to load or follow
+    tags = re.findall(r"<[A-Za-z][^>]*>", page)
+    assert [t for t in tags if re.search(r"\b(?:src|href|action)\s*=\s*\"[^\"]*203\.0\.113",
+                                         t)] == []
+    assert re.findall(r"<(?:img|iframe|object|embed|link|base|meta http)\b", page, re.I) == []
+    # links only within the page (its table of contents)
+    assert all(href.startswith("#") for href in re.findall(r'href="([^"]*)"', page))
+    assert re.findall(r"<script\b[^>]*>", page) == [
+        '<script type="application/json" id="tradeoff-data">']
+    assert "&lt;img src=x onerror=alert(1)&gt;" in page

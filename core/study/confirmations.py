@@ -148,9 +148,11 @@ def _runs_from_file(study, entry: dict, files, fname: str, what: str) -> list[di
     data = None
     if files and (name in files or path.name in files):
         data = files.get(name, files.get(path.name))
-    elif study.source is None:
-        raise DataError(f"{fname}: {what}: the confirmation table '{name}' was not "
-                        "given: upload it with the study")
+    elif study.source is None or study.uploads:
+        # An uploaded study's tables come with it: never read a file of the
+        # computer the workbench runs on because a shared study names it.
+        raise DataError(f"{fname}: {what}: the confirmation table '{path.name}' was not "
+                        "uploaded: upload it together with the study file")
     table = read_table(path, sheet=entry.get("sheet"), data=data)
     tname = path.name
     header = [h for h in table.header if h]
