@@ -330,7 +330,9 @@ def test_a_sheet_of_too_many_cells_is_refused_before_it_is_read(monkeypatch):
     start = time.perf_counter()
     with pytest.raises(DataError, match=r"more than 1,000,000 cells in one sheet"):
         read_table("big.xlsx", data=data)
-    assert time.perf_counter() - start < 1.0
+    # about 0.1 s on a quiet machine (22 MB counted as it is unpacked); the
+    # bound leaves room for a busy test machine
+    assert time.perf_counter() - start < 3.0
 
 
 def test_a_sheet_that_claims_a_million_rows_is_read_as_it_is():
@@ -345,7 +347,8 @@ def test_a_sheet_that_claims_a_million_rows_is_read_as_it_is():
     assert members["xl/worksheets/sheet1.xml"] != sheet
     start = time.perf_counter()
     table = read_table("claims.xlsx", data=_zip(members))
-    assert time.perf_counter() - start < 1.0
+    # filling the stated size would take hours; reading what is there, moments
+    assert time.perf_counter() - start < 5.0
     assert table.header == ["run", "x"]
     assert table.rows == [(2, ["a", 1.0]), (3, ["b", 2.0])]
 

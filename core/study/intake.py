@@ -154,10 +154,11 @@ def _read_csv(path: Path, data: bytes) -> RawTable:
 
 
 def _read_excel(path: Path, data: bytes, sheet) -> RawTable:
+    # sizes and cell counts from the archive, before anything is expanded (or
+    # even the workbook reader loaded)
+    check_workbook(path, data)
     import openpyxl  # imported here: only Excel users pay for it
 
-    # sizes and cell counts from the archive, before anything is expanded
-    check_workbook(path, data)
     try:
         book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises many kinds for a damaged file
