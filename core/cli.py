@@ -119,10 +119,11 @@ def build_parser() -> argparse.ArgumentParser:
                            "(default 5)")
     best.add_argument("--seed", type=_seed, default=None, metavar="S",
                       help="seed of the search and of the chances (default: the study's seed)")
-    best.add_argument("--rank-by", choices=("desirability", "chance"),
+    best.add_argument("--rank-by", choices=("desirability", "chance", "production"),
                       default="desirability",
-                      help="order solutions by overall desirability (default) or by the "
-                           "chance of meeting every limit")
+                      help="order solutions by overall desirability (default), by the "
+                           "chance of meeting every limit, or by that chance for one "
+                           "production batch (factors spread by their production_sd)")
     best.set_defaults(run=_run_optimize)
 
     make_next = commands.add_parser(

@@ -19,6 +19,7 @@ Lenth, no half-normal point), and predictions are for the average block
 """
 from __future__ import annotations
 
+import functools
 import math
 from typing import Sequence
 
@@ -535,21 +536,27 @@ class ResponseModel:
         Columns: predicted, ci_low, ci_high, pi_low, pi_high. Intervals are NaN
         when the model has no error estimate.
         """
+        return pd.DataFrame(self.interval_array(X_coded, level), columns=[
+            "predicted", "ci_low", "ci_high", "pi_low", "pi_high"])
+
+    def interval_array(self, X_coded, level: float | None = None) -> np.ndarray:
+        """``intervals`` as a bare (n, 5) array in the same column order (no table)."""
         level = self.confidence if level is None else float(level)
         if not 0 < level < 1:
             raise ModelError(f"response '{self.name}': level {level} must be a fraction "
                              "such as 0.95")
         mean, se, sigma, df = self.predictive(X_coded)
+        ci = pi = np.full_like(mean, np.nan)
         if df > 0 and sigma == sigma:
-            q = stats.t.ppf(0.5 + level / 2, df)
-            ci = q * se
-            pi = q * np.sqrt(se ** 2 + sigma ** 2)
-        else:
-            ci = pi = np.full_like(mean, np.nan)
-        tr = self.transform
-        return pd.DataFrame({"predicted": inverse(mean, tr),
-                             "ci_low": inverse(mean - ci, tr), "ci_high": inverse(mean + ci, tr),
-                             "pi_low": inverse(mean - pi, tr), "pi_high": inverse(mean + pi, tr)})
+            q = _t_quantile(0.5 + level / 2, df)
+            ci, pi = q * se, q * np.sqrt(se ** 2 + sigma ** 2)
+        z = np.column_stack([mean, mean - ci, mean + ci, mean - pi, mean + pi])
+        return inverse(z, self.transform)
+
+    def polynomial(self) -> tuple[list, np.ndarray]:
+        """The mean model on the modelling scale: its terms (with powers) and coefficients."""
+        self._check_fitted()
+        return list(self._pred_terms), self._pred_coef.copy()
 
     def inverse_transform(self, y) -> np.ndarray:
         """Modelling scale -> natural scale."""
@@ -573,6 +580,11 @@ class ResponseModel:
         if self.mixture is None:
             return idx
         return [i for i in idx if not self.mixture.is_mixture_term(terms[i])]
+
+
+@functools.lru_cache(maxsize=256)
+def _t_quantile(p: float, df: int) -> float:
+    return float(stats.t.ppf(p, df))  # the same few (level, df) pairs come back often
 
 
 def is_blank(value) -> bool:

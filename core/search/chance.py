@@ -17,6 +17,7 @@ on the same random numbers (same seed, same answer).
 """
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -70,17 +71,68 @@ def residual_correlation(models: dict, *, min_runs: int | None = None) -> pd.Dat
     names = list(models)
     if len(names) < 2:
         return pd.DataFrame(np.eye(len(names)), index=names, columns=names)
-    table = pd.concat([pd.Series(models[n].residuals_) for n in names], axis=1,
-                      join="inner").to_numpy(dtype=float)
+    R = _correlation_array(models, min_runs)
+    return None if R is None else pd.DataFrame(R, index=names, columns=names)
+
+
+def _correlation_array(models: dict, min_runs: int | None = None) -> np.ndarray | None:
+    """``residual_correlation`` as a bare array (None when too few runs)."""
+    series = [models[n].residuals_ for n in models]
+    first = series[0].index
+    if all(s.index.equals(first) for s in series[1:]):
+        # The usual case (every response on every run): no join needed.
+        table = np.column_stack([s.to_numpy(dtype=float) for s in series])
+    else:
+        table = pd.concat(series, axis=1, join="inner").to_numpy(dtype=float)
     table = table[~np.isnan(table).any(axis=1)]
-    need = min_runs if min_runs is not None else len(names) + 3
+    need = min_runs if min_runs is not None else len(series) + 3
     if len(table) < need or (table.std(axis=0, ddof=1) <= 0).any():
         return None
-    return pd.DataFrame(np.corrcoef(table, rowvar=False), index=names, columns=names)
+    return np.corrcoef(table, rowvar=False)
+
+
+@functools.lru_cache(maxsize=8)
+def _standard_draws(seed, draws: int, R_key: bytes, m: int, dfs: tuple) -> np.ndarray:
+    """The seeded standard draws (draws, m): correlated normals over sqrt(chi2/df).
+
+    Column i is a Student t with ``dfs[i]`` degrees of freedom (NaN where the
+    df is None: no error estimate), the normal parts correlated by R. They
+    depend only on the seed, the number of draws, R and the dfs, so they are
+    drawn once and shared by every call that asks again (a search, then its
+    result, then a map). Read-only.
+    """
+    R = np.frombuffer(R_key, dtype=float).reshape(m, m)
+    rng = np.random.default_rng(seed)
+    # A small ridge keeps the factorisation stable when two responses move as one.
+    L = np.linalg.cholesky(R + 1e-9 * np.eye(m))
+    Q = rng.standard_normal((draws, m)) @ L.T
+    for i, df in enumerate(dfs):
+        if df is None:
+            Q[:, i] = np.nan
+            continue
+        # Student t with the model's df: the correlated normal over an independent
+        # sqrt(chi-square / df) (as fast as normal draws, exact t marginals).
+        Q[:, i] /= np.sqrt(rng.chisquare(df, draws) / df)
+    Q.flags.writeable = False
+    return Q
+
+
+def _spread_draws(seed, draws: int, spread: np.ndarray) -> np.ndarray:
+    """Factor deviations in coded units (draws, k), from a stream of their own.
+
+    Separate from the noise draws, so adding a production spread leaves the
+    noise draws (and every chance without spread) exactly as they were.
+    """
+    rng = np.random.default_rng([0 if seed is None else int(seed), 16])
+    return rng.standard_normal((draws, len(spread))) * spread
+
+
+_CHUNK = 200_000  # rows of settings evaluated at once when factors spread
 
 
 def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
-                     seed: int = 0, correlated: bool = True) -> ChanceEstimate:
+                     seed: int = 0, correlated: bool = True,
+                     spread=None) -> ChanceEstimate:
     """Seeded Monte Carlo chance of each response, and all together, within limits.
 
     Parameters
@@ -100,9 +152,13 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
     correlated : bool
         Use the residual correlation between responses (when enough runs have
         all of them); False assumes independence.
+    spread : array_like, shape (k,), optional
+        Standard deviation of each factor's actual setting around the intended
+        one, coded units (see ``tradeoff.production_chance``): each draw then
+        takes the model's mean and standard error at its own drawn settings.
     """
     X = np.atleast_2d(np.asarray(X_coded, dtype=float))
-    n = len(X)
+    n, k = X.shape
     used = {r.name: models[r.name] for r in study.responses
             if r.goal.active and r.name in models}
     names = list(used)
@@ -111,8 +167,8 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         empty = pd.DataFrame(np.eye(0))
         return ChanceEstimate((), np.empty((n, 0)), np.ones(n), draws, False, empty,
                               "no response has a goal")
-    corr = residual_correlation(used) if correlated else None
-    if corr is None or m == 1:
+    corr = _correlation_array(used) if correlated and m > 1 else None
+    if corr is None:
         R = np.eye(m)
         is_corr = False
         if m == 1:
@@ -123,38 +179,56 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         else:
             assumption = "responses treated as independent (as asked)"
     else:
-        R = corr.to_numpy()
+        R = corr
         is_corr = True
         assumption = ("responses tied together by the correlation of their model "
                       "residuals (matched by run id)")
-    rng = np.random.default_rng(seed)
-    # A small ridge keeps the factorisation stable when two responses move as one.
-    L = np.linalg.cholesky(R + 1e-9 * np.eye(m))
-    Z = rng.standard_normal((draws, m)) @ L.T
+    E = None
+    if spread is not None and np.any(np.asarray(spread, dtype=float) > 0):
+        E = _spread_draws(seed, draws, np.asarray(spread, dtype=float))
+    # Each model's error estimate decides whether (and with which df) it draws a t.
+    info = {}
+    for name in names:
+        _, _, sigma, df = used[name].predictive(X[:1])
+        sigma = float(np.asarray(sigma, dtype=float).ravel()[0])
+        df = float(np.asarray(df, dtype=float).ravel()[0])
+        info[name] = (sigma, df) if np.isfinite(sigma) and np.isfinite(df) and df > 0 \
+            else None
+    dfs = tuple(None if info[nm] is None else info[nm][1] for nm in names)
+    R = np.ascontiguousarray(R, dtype=float)
+    Q = _standard_draws(seed, int(draws), R.tobytes(), m, dfs)
     inside_all = np.ones((n, draws), dtype=bool)
     each = np.empty((n, m))
     unknown = []
     for i, name in enumerate(names):
         model = used[name]
-        mean, se, sigma, df = model.predictive(X)
-        mean = np.broadcast_to(np.asarray(mean, dtype=float), (n,))
-        se = np.broadcast_to(np.asarray(se, dtype=float), (n,))
-        sigma = float(np.asarray(sigma, dtype=float).ravel()[0])
-        df = float(np.asarray(df, dtype=float).ravel()[0])
-        if not (np.isfinite(sigma) and np.isfinite(df) and df > 0):
+        if info[name] is None:
             # No error estimate (a saturated model without one): no chance can be given.
             each[:, i] = np.nan
             inside_all[:] = False
             unknown.append(name)
             continue
-        # Student t with the model's df: the correlated normal over an independent
-        # sqrt(chi-square / df) (as fast as normal draws, exact t marginals).
-        q = Z[:, i] / np.sqrt(rng.chisquare(df, draws) / df)
-        scale = np.sqrt(se ** 2 + sigma ** 2)
-        y = mean[:, None] + scale[:, None] * q[None, :]
-        y = np.asarray(model.inverse_transform(y), dtype=float).reshape(n, draws)
+        sigma = info[name][0]
         lo, hi = limits(study.response(name).goal)
-        ok = (y >= lo) & (y <= hi)
+        q = Q[:, i]
+        if E is None:
+            mean, se, _, _ = model.predictive(X)
+            mean = np.broadcast_to(np.asarray(mean, dtype=float), (n,))
+            se = np.broadcast_to(np.asarray(se, dtype=float), (n,))
+            scale = np.sqrt(se ** 2 + sigma ** 2)
+            y = mean[:, None] + scale[:, None] * q[None, :]
+            y = np.asarray(model.inverse_transform(y), dtype=float).reshape(n, draws)
+            ok = (y >= lo) & (y <= hi)
+        else:
+            ok = np.empty((n, draws), dtype=bool)
+            step = max(1, _CHUNK // draws)
+            for a in range(0, n, step):
+                Xd = (X[a:a + step, None, :] + E[None, :, :]).reshape(-1, k)
+                mean, se, _, _ = model.predictive(Xd)
+                c = min(step, n - a)
+                y = mean + np.sqrt(se ** 2 + sigma ** 2) * np.tile(q, c)
+                y = np.asarray(model.inverse_transform(y), dtype=float).reshape(c, draws)
+                ok[a:a + c] = (y >= lo) & (y <= hi)
         each[:, i] = ok.mean(axis=1)
         inside_all &= ok
     frame = pd.DataFrame(R, index=names, columns=names)

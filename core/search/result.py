@@ -16,6 +16,8 @@ from .chance import chance_in_limits
 from .mixture import bound_warnings
 from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
+from .production import production_chance
+from .spread import transmitted_spread
 
 __all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
 
@@ -41,6 +43,12 @@ class ResponseOutcome:
     chance_in_limits : float or None
         Monte Carlo chance that one batch made at these settings lands within
         the goal's limits (None when the goal is ``none``).
+    transmitted_sd : float or None
+        Standard deviation of the response caused by the factors' production
+        spread at these settings (natural units; None when no factor has a
+        ``production_sd``).
+    mean_shift : float or None
+        How far the average response moves because of that spread.
     """
 
     name: str
@@ -50,6 +58,8 @@ class ResponseOutcome:
     ci: tuple
     pi: tuple
     chance_in_limits: float | None
+    transmitted_sd: float | None = None
+    mean_shift: float | None = None
 
 
 @dataclass(frozen=True)
@@ -87,6 +97,12 @@ class Solution:
     proportions : dict
         For a blend: component name -> its proportion of the total (the
         settings give the amounts); empty otherwise.
+    chance_all_production : float or None
+        Chance that one production batch (factors drawn from their production
+        spread) meets every limit; None when no factor has a ``production_sd``
+        and no production ranking was asked for.
+    d_given_up : float
+        How much lower D is here than at the best balance found.
     """
 
     rank: int
@@ -102,6 +118,8 @@ class Solution:
     shortfall: float
     warnings: tuple
     proportions: dict = field(default_factory=dict)
+    chance_all_production: float | None = None
+    d_given_up: float = 0.0
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
@@ -117,10 +135,13 @@ class Solution:
             "responses": {
                 name: {"predicted": r(o.predicted), "desirability": r(o.desirability),
                        "ci": [r(o.ci[0]), r(o.ci[1])], "pi": [r(o.pi[0]), r(o.pi[1])],
-                       "chance_in_limits": r(o.chance_in_limits), "goal": o.goal}
+                       "chance_in_limits": r(o.chance_in_limits), "goal": o.goal,
+                       "transmitted_sd": r(o.transmitted_sd), "mean_shift": r(o.mean_shift)}
                 for name, o in self.responses.items()},
             "factor_desirability": {k: r(v) for k, v in self.factor_desirability.items()},
             "chance_all": r(self.chance_all),
+            "chance_all_production": r(self.chance_all_production),
+            "d_given_up": r(self.d_given_up),
             "out_of_limits": list(self.out_of_limits),
             "warnings": list(self.warnings),
         } | blend
@@ -139,7 +160,10 @@ class OptimizationResult:
         ``rank_by == "chance"``); distinct local optima at least
         ``min_distance`` coded units apart.
     rank_by : str
-        ``desirability`` or ``chance``.
+        ``desirability``, ``chance`` or ``production``.
+    aim : str
+        ``balance`` (the best D first) or ``production`` (the settings most
+        likely to hold in production first, then the best balance).
     seed : int
         Seed of the Sobol batch and of the Monte Carlo draws.
     feasible : bool
@@ -166,6 +190,8 @@ class OptimizationResult:
     assumptions: tuple
     evaluations: int
     correlation: pd.DataFrame = field(default=None, compare=False, repr=False)
+    aim: str = "balance"
+    production_sd: dict = field(default_factory=dict)
 
     @property
     def best(self) -> Solution:
@@ -182,7 +208,8 @@ class OptimizationResult:
         return {
             "best": solutions[0],
             "solutions": solutions,
-            "study": self.study, "rank_by": self.rank_by, "seed": self.seed,
+            "study": self.study, "rank_by": self.rank_by, "aim": self.aim,
+            "seed": self.seed, "production_sd": dict(self.production_sd),
             "feasible": self.feasible, "unreachable": list(self.unreachable),
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
             "cautions": list(FOOD_CAUTIONS),
@@ -194,7 +221,8 @@ class OptimizationResult:
 
         Columns: solution (label), rank, one column per factor (natural
         setting), response, predicted, desirability, ci_low, ci_high, pi_low,
-        pi_high, chance_in_limits, D (overall desirability), chance_all.
+        pi_high, chance_in_limits, transmitted_sd, mean_shift, D (overall
+        desirability), chance_all, chance_all_production, d_given_up.
         """
         rows = []
         for s in self.solutions:
@@ -205,7 +233,10 @@ class OptimizationResult:
                             "desirability": o.desirability, "ci_low": o.ci[0],
                             "ci_high": o.ci[1], "pi_low": o.pi[0], "pi_high": o.pi[1],
                             "chance_in_limits": o.chance_in_limits,
-                            "D": s.desirability, "chance_all": s.chance_all})
+                            "transmitted_sd": o.transmitted_sd, "mean_shift": o.mean_shift,
+                            "D": s.desirability, "chance_all": s.chance_all,
+                            "chance_all_production": s.chance_all_production,
+                            "d_given_up": s.d_given_up})
                 rows.append(row)
         return pd.DataFrame(rows)
 
@@ -218,12 +249,19 @@ class OptimizationResult:
             if self.unreachable:
                 lines.append("Cannot be brought within limits anywhere: "
                              + ", ".join(self.unreachable))
+        spread = bool(self.production_sd)
         for s in self.solutions:
             head = "Best settings" if s.rank == 1 else f"Alternative {s.rank - 1}"
+            if self.aim == "production":
+                head = ("Most likely to hold in production" if s.rank == 1 else
+                        "Best balance" if s.d_given_up == 0 else f"Alternative {s.rank - 1}")
             chance = "" if s.chance_all is None else \
                 f", chance all within limits {s.chance_all:.0%}"
+            if s.chance_all_production is not None:
+                chance += f", in production {s.chance_all_production:.0%}"
+            gave = f" (gives up {s.d_given_up:.3f} of D)" if s.d_given_up > 0 else ""
             lines.append(f"\n{head} ({s.label}): overall desirability D = "
-                         f"{s.desirability:.3f}{chance}")
+                         f"{s.desirability:.3f}{gave}{chance}")
             for name, value in s.settings.items():
                 shown = value if isinstance(value, str) else f"{value:.4g}"
                 code = s.coded[name]
@@ -232,12 +270,18 @@ class OptimizationResult:
                 lines.append(f"  {name:<18} {shown:>12}   " + (
                     f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
-                         f"{'prediction interval':>23} {'chance':>7}")
+                         f"{'prediction interval':>23} {'chance':>7}"
+                         + (f" {'spread SD':>10} {'shift':>9}" if spread else ""))
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
                 ch = "-" if o.chance_in_limits is None else f"{o.chance_in_limits:.0%}"
                 pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
-                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>7}")
+                extra = ""
+                if spread:
+                    extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
+                             f"{_g_or_dash(o.mean_shift, signed=True):>9}")
+                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>7}"
+                             + extra)
             for name, d in s.factor_desirability.items():
                 lines.append(f"  factor goal {name}: d = {d:.3f}")
             if s.out_of_limits:
@@ -252,6 +296,12 @@ class OptimizationResult:
         return "\n".join(lines).lstrip("\n")
 
 
+def _g_or_dash(x, signed: bool = False) -> str:
+    if x is None:
+        return "-"
+    return f"{x:+.3g}" if signed else f"{x:.3g}"
+
+
 def _rounder(digits):
     def r(x):
         if x is None:
@@ -264,23 +314,40 @@ def _rounder(digits):
 
 
 def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreachable,
-            draws) -> OptimizationResult:
+            draws, aim="balance", extra_notes=()) -> OptimizationResult:
+    """Assemble the result for the settings X (coded, best first by D).
+
+    With ``aim == "production"``, ``X[0]`` is the setting most likely to hold
+    in production: it comes first and the rest follow ``rank_by``.
+    """
     Y = problem.values(X)
     D, d = problem.score(Y)
     S = problem.shortfall(Y)
     names = problem.names()
     chances = chance_in_limits(study, models, X, draws=draws, seed=seed)
-    # Each response's interval table as one array (rows: solutions; columns:
+    # Each response's intervals as one array (rows: solutions; columns:
     # predicted, ci_low, ci_high, pi_low, pi_high), so no table is indexed per cell.
-    intervals = {r.name: models[r.name].intervals(X, level=study.confidence)[
-        ["predicted", "ci_low", "ci_high", "pi_low", "pi_high"]].to_numpy(dtype=float)
-        for r in study.responses if r.name in models}
+    intervals = {r.name: _interval_array(models[r.name], X, study.confidence)
+                 for r in study.responses if r.name in models}
     chance_col = {n: i for i, n in enumerate(chances.responses)}
+    spread_sd = {f.name: f.production_sd for f in study.factors
+                 if not f.is_categorical and f.production_sd}
+    held = spread = None
+    if spread_sd:
+        spread = transmitted_spread(study, models, X, seed=seed)
+        held = production_chance(study, models, X, draws=draws, seed=seed).all
+    elif rank_by == "production" or aim == "production":
+        held = chances.all  # no spread: the chance in production is the ordinary one
     order = np.arange(len(X))
     if rank_by == "chance":
         order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
+    elif rank_by == "production":
+        order = np.lexsort((-D, -np.nan_to_num(held, nan=-1.0)))
+    if aim == "production":
+        order = np.concatenate([[0], order[order != 0]])
     order = order[:top]
     by_d = {int(i): n for n, i in enumerate(np.lexsort((S, -D)), start=1)}
+    d_best = float(D.max()) if len(D) else 0.0
     general = _general_warnings(study, problem, models, fit)
 
     solutions = []
@@ -301,6 +368,11 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         for r in study.responses:
             if r.name not in models:
                 continue
+            sd = shift = None
+            if spread is not None:
+                col_s = spread.responses.index(r.name)
+                sd = float(spread.sd[i, col_s])
+                shift = float(spread.mean_shift[i, col_s])
             pred, ci_low, ci_high, pi_low, pi_high = intervals[r.name][i].tolist()
             col = names.index(r.name) if r.name in names else None
             outcomes[r.name] = ResponseOutcome(
@@ -310,7 +382,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 ci=(ci_low, ci_high),
                 pi=(pi_low, pi_high),
                 chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
-                                  if r.name in chance_col else None))
+                                  if r.name in chance_col else None),
+                transmitted_sd=sd, mean_shift=shift)
             predictions[r.name] = pred
         factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
                     if kind == "factor"}
@@ -323,16 +396,41 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             out_of_limits=out, shortfall=float(S[i]),
             warnings=tuple(_point_warnings(study, problem, x, D[i])),
             proportions={f.name: settings[f.name] / f.total for f in study.factors
-                         if is_component(f)}))
+                         if is_component(f)},
+            chance_all_production=(_finite(held[i]) if held is not None and
+                                   chances.responses else None),
+            d_given_up=max(0.0, d_best - float(D[i]))))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
         f"seeded draws, seed {seed})",)
+    if spread_sd:
+        listed = ", ".join(f"{k} {_g(v)}" for k, v in spread_sd.items())
+        exact = all(m == "exact" for m in spread.method.values())
+        assumptions += (
+            f"in production each factor lands around its setting with the given standard "
+            f"deviation ({listed}), independently of the others; the chance in production "
+            "draws the settings from that spread as well as the run-to-run noise and the "
+            "models' uncertainty; the spread SD and shift of each response are "
+            + ("exact moments of the fitted polynomial" if exact else
+               "exact moments for polynomial models, Monte Carlo for transformed ones"),)
+    elif held is not None:
+        assumptions += ("no factor has a production_sd: the chance in production counts "
+                        "the run-to-run noise and the models' uncertainty only",)
     return OptimizationResult(
         study=study.name, solutions=tuple(solutions), rank_by=rank_by, seed=seed,
-        feasible=feasible, unreachable=unreachable, warnings=tuple(general),
+        feasible=feasible, unreachable=unreachable, warnings=tuple(general) + tuple(extra_notes),
         assumptions=assumptions, evaluations=problem.evaluations,
-        correlation=chances.correlation)
+        correlation=chances.correlation, aim=aim, production_sd=spread_sd)
+
+
+def _interval_array(model, X, level) -> np.ndarray:
+    """(n, 5) predicted, ci_low, ci_high, pi_low, pi_high, without building a table."""
+    fast = getattr(model, "interval_array", None)
+    if fast is not None:
+        return np.asarray(fast(X, level=level), dtype=float)
+    return model.intervals(X, level=level)[
+        ["predicted", "ci_low", "ci_high", "pi_low", "pi_high"]].to_numpy(dtype=float)
 
 
 def _general_warnings(study, problem, models, fit) -> list[str]:

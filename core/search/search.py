@@ -49,7 +49,7 @@ from .result import OptimizationResult, _result
 
 __all__ = ["optimize", "RANKINGS"]
 
-RANKINGS = ("desirability", "chance")
+RANKINGS = ("desirability", "chance", "production")
 _SAME = 0.05  # climbed starts closer than this (coded) share one basin
 _JOINT = 30  # at most this many variables in one joint polish
 
@@ -73,9 +73,10 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     fit : StudyFit, optional
         Already fitted models (``tradeoff.models.fit_study(study)`` is used
         when omitted).
-    rank_by : {"desirability", "chance"}
-        Order solutions by D, or by the chance that every response lands
-        within its limits.
+    rank_by : {"desirability", "chance", "production"}
+        Order solutions by D, by the chance that every response lands
+        within its limits, or by the chance that one production batch (the
+        factors drawn from their ``production_sd``) does; ties go to D.
     min_distance : float
         Optima closer than this (coded units) to a better one are the same
         solution.
@@ -90,7 +91,7 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     """
     if rank_by not in RANKINGS:
         raise SearchError(f"rank_by = '{rank_by}' is not a ranking I know: use "
-                          "'desirability' or 'chance'")
+                          "'desirability', 'chance' or 'production'")
     if not isinstance(top, int) or top < 1:
         raise SearchError(f"top must be a whole number of at least 1, found {top!r}")
     seed = study.seed if seed is None else seed
@@ -275,7 +276,7 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
         if any(near[i][j] for j in pool):
             continue
         pool.append(i)
-        if len(pool) >= (3 * top if rank_by == "chance" else top):
+        if len(pool) >= (3 * top if rank_by in ("chance", "production") else top):
             break
     Xbest = Xo[pool]
 

@@ -18,7 +18,8 @@ from .mixture import MIXTURE_MODELS, PROCESS_MODES, build_components
 from .spec import (GOALS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS, Factor, Goal,
                    Response, Study, _GOAL_KEYS)
 
-__all__ = ["read_study_bytes", "parse_study_text", "build_study", "check_keys"]
+__all__ = ["read_study_bytes", "parse_study_text", "build_study", "check_keys",
+           "check_production_sd"]
 
 def read_study_bytes(path: str | Path) -> bytes:
     """The bytes of a study file, with one-line errors for a missing, huge or unreadable file."""
@@ -186,6 +187,10 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
                              "factors; categorical factors are searched over their levels")
         if table.get("goal", "none") != "none":
             raise StudyError(f"{fname}: {what}: goals apply to numeric factors only")
+        if "production_sd" in table:
+            raise StudyError(f"{fname}: {what}: production_sd is for numeric factors: a "
+                             "categorical factor is made at one level or the other, so it "
+                             "has no spread around its setting; remove the key")
         return Factor(name=name, label=label, unit=unit, levels=levels)
     for key in ("low", "high"):
         if key not in table:
@@ -206,8 +211,35 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
         if search[0] >= search[1]:
             raise StudyError(f"{fname}: {what}: search min ({_fmt(search[0])}) is not "
                              f"below max ({_fmt(search[1])}): did you swap them?")
+    spread = None
+    if "production_sd" in table:
+        spread = check_production_sd(table["production_sd"], low, high,
+                                     f"{fname}: {what}")
     return Factor(name=name, label=label, unit=unit, low=low, high=high, search=search,
-                  goal=_goal(table, fname, what))
+                  goal=_goal(table, fname, what), production_sd=spread)
+
+
+def check_production_sd(value, low: float, high: float, where: str) -> float:
+    """A factor's ``production_sd`` checked: a number, 0 or more, at most half the range.
+
+    ``where`` starts the message (file and factor). Used by the study file and
+    by the workbench, so a typed value is checked like the file's.
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or \
+            not math.isfinite(value):
+        raise StudyError(f"{where}: production_sd must be a number (the standard deviation "
+                         f"of the actual setting in the factor's units), found {value!r}")
+    value = float(value)
+    if value < 0:
+        raise StudyError(f"{where}: production_sd must be 0 or more (a standard "
+                         f"deviation), found {_fmt(value)}")
+    half = (high - low) / 2.0
+    if value > half:
+        raise StudyError(f"{where}: production_sd ({_fmt(value)}) is larger than half the "
+                         f"factor's range ({_fmt(low)}..{_fmt(high)}, half {_fmt(half)}): the "
+                         "region is too narrow for that spread; check the units, or widen "
+                         "low and high")
+    return value
 
 
 def _response(table: dict, fname: str, index: int) -> Response:

@@ -41,7 +41,8 @@ SECTION_KEYS: dict[str, set[str]] = {
               "confidence", "seed",
               # the runs' block column when not named 'block' (core/models.py)
               "blocks"},
-    "factors": {"name", "label", "unit", "low", "high", "levels", "search"} | _GOAL_KEYS,
+    "factors": {"name", "label", "unit", "low", "high", "levels", "search",
+                "production_sd"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
     # terms pinned in or out of a response's model (core/models.py)
     | {"keep_terms", "drop_terms"}
@@ -103,6 +104,8 @@ class Factor:
     levels: tuple[str, ...] | None = None
     search: tuple[float, float] | None = None
     goal: Goal = field(default_factory=Goal)
+    # SD of the actual setting around the intended one in production (factor's units)
+    production_sd: float | None = None
 
     @property
     def is_categorical(self) -> bool:

@@ -71,6 +71,8 @@ def _factor_dict(f: Factor) -> dict:
     out["low"], out["high"] = f.low, f.high
     if f.search is not None:
         out["search"] = list(f.search)
+    if f.production_sd is not None:
+        out["production_sd"] = f.production_sd
     out.update(_goal_dict(f.goal))
     return out
 
