@@ -124,6 +124,12 @@ def build_parser() -> argparse.ArgumentParser:
                       help="order solutions by overall desirability (default), by the "
                            "chance of meeting every limit, or by that chance for one "
                            "production batch (factors spread by their production_sd)")
+    best.add_argument("--for", dest="aim", choices=("balance", "production"),
+                      default="balance",
+                      help="balance: the best overall desirability first (default); "
+                           "production: first the settings most likely to meet every limit "
+                           "in production (factors spread by their production_sd), beside "
+                           "the best balance, with the D each gives up")
     best.set_defaults(run=_run_optimize)
 
     make_next = commands.add_parser(
@@ -191,7 +197,8 @@ def _run_optimize(args) -> int:
     from .derive.load import load_study
 
     study = load_study(args.study)
-    result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by)
+    result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by,
+                      aim=args.aim)
     if args.json:
         from .report.provenance import provenance
 

@@ -7,14 +7,16 @@ inside the rules (the Chebyshev centre) for a region cut by linear rules.
 from __future__ import annotations
 
 import functools
+import itertools
 import math
 
 import numpy as np
 
+from ..errors import SearchError
 from .problem import _rule_parts
 
 __all__ = ["_batch_size", "_sobol", "_sobol_bits", "_distances", "_starts",
-           "_chebyshev_centre"]
+           "_chebyshev_centre", "_candidate_batch"]
 
 _SOBOL_BITS = 30
 
@@ -109,3 +111,41 @@ def _chebyshev_centre(problem, cat_values):
     if res.status != 0:
         return None
     return res.x[:p]
+
+
+def _candidate_batch(study, problem, combos, rng) -> np.ndarray:
+    """The space-filling batch (n, k): Sobol points, corners and, under rules, a
+    point well inside them, for every level combination; only feasible points."""
+    p = len(problem.num)
+    if p:
+        n = _batch_size(p, len(combos))
+        sob = _sobol(p, n, rng)
+        # Optima of D often sit on faces, edges or corners of the region, which a
+        # uniform batch in several dimensions barely reaches: half the batch is
+        # stretched past the region and clipped back onto its boundary.
+        sob[n // 2:] = np.clip(0.5 + (sob[n // 2:] - 0.5) * 1.4, 0.0, 1.0)
+        Z = problem.lo + sob * (problem.hi - problem.lo)
+        if getattr(problem, "region", None) is not None:  # a blend: on the simplex instead
+            Z = problem.region.batch(sob, problem.num, problem.lo, problem.hi, rng)
+        elif p <= 10:
+            corners = np.array(list(itertools.product([0.0, 1.0], repeat=p)))
+            Z = np.vstack([Z, problem.lo + corners * (problem.hi - problem.lo)])
+    else:
+        Z = np.zeros((1, 0))
+    blocks = []
+    for combo in combos:
+        Zc = Z
+        if len(problem.b):
+            centre = _chebyshev_centre(problem, combo)
+            if centre is None:
+                continue
+            Zc = np.vstack([Z, centre])
+        blocks.append(problem.full(Zc, combo))
+    if not blocks:
+        rules = "; ".join(f"'{c['rule']}'" for c in study.constraints)
+        raise SearchError(f"no setting inside the search ranges meets every rule ({rules}): "
+                          "relax a rule or widen a factor's search range")
+    X = np.vstack(blocks)
+    if len(problem.b):
+        X = X[problem.feasible(X)]
+    return X

@@ -41,22 +41,25 @@ import numpy as np
 
 from ..study.constraints import study_rules
 from ..errors import SearchError
-from .candidates import _batch_size, _chebyshev_centre, _distances, _sobol, _starts
+from .candidates import _candidate_batch, _distances, _starts
 from .climb import _climb, _one_per_hill
 from .polish import _polish_d, _polish_shortfall
 from .problem import _Problem, _models_of, _no_goal_error
+from .hold import hold_search
 from .result import OptimizationResult, _result
 
-__all__ = ["optimize", "RANKINGS"]
+__all__ = ["optimize", "RANKINGS", "AIMS"]
 
 RANKINGS = ("desirability", "chance", "production")
+AIMS = ("balance", "production")
 _SAME = 0.05  # climbed starts closer than this (coded) share one basin
 _JOINT = 30  # at most this many variables in one joint polish
 
 
 def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
              rank_by: str = "desirability", min_distance: float = 0.25,
-             draws: int = 20000, starts: int | None = None) -> OptimizationResult:
+             draws: int = 20000, starts: int | None = None,
+             aim: str = "balance") -> OptimizationResult:
     """Find the settings that best balance every goal, with alternatives.
 
     Parameters
@@ -84,6 +87,13 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         Monte Carlo draws for the chances.
     starts : int, optional
         Number of candidates polished (default ``max(12, 2 * top)``).
+    aim : {"balance", "production"}
+        ``balance`` puts the best D first. ``production`` (the command line's
+        ``--for production``) puts first the settings with the highest chance
+        that one production batch meets every limit (factors drawn from their
+        ``production_sd``, run-to-run noise, the models' uncertainty; ties go
+        to D), searched over the whole region, then the best balance and its
+        alternatives; each solution says how much D it gives up.
 
     Returns
     -------
@@ -92,6 +102,8 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     if rank_by not in RANKINGS:
         raise SearchError(f"rank_by = '{rank_by}' is not a ranking I know: use "
                           "'desirability', 'chance' or 'production'")
+    if aim not in AIMS:
+        raise SearchError(f"aim = '{aim}' is not one I know: use 'balance' or 'production'")
     if not isinstance(top, int) or top < 1:
         raise SearchError(f"top must be a whole number of at least 1, found {top!r}")
     seed = study.seed if seed is None else seed
@@ -107,8 +119,18 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     X, feasible, unreachable = _search(study, problem, top=top, seed=seed,
                                        rank_by=rank_by, min_distance=min_distance,
                                        starts=starts)
+    if aim == "production":
+        with _one_blas_thread():
+            held = hold_search(study, problem, models, X, seed=seed, draws=draws,
+                               n_starts=starts if starts is not None else max(12, 2 * top),
+                               min_distance=min_distance)
+        # the held setting first, then the balance settings (kept even when close by,
+        # so the D given up can be read off; only the very same setting is dropped)
+        apart = np.sqrt(((X - held) ** 2).sum(axis=1)) > 1e-6
+        X = np.vstack([held, X[apart]])
+        top = max(top, 2)  # always show the best balance beside it
     return _result(study, problem, models, fit, X, top, seed, rank_by, feasible,
-                   unreachable, draws)
+                   unreachable, draws, aim=aim)
 
 
 _BLAS_LOCK = threading.Lock()
@@ -161,37 +183,7 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
     n_starts = starts if starts is not None else max(12, 2 * top)
 
     # 1. Space-filling batch, every level combination at once.
-    if p:
-        n = _batch_size(p, len(combos))
-        sob = _sobol(p, n, rng)
-        # Optima of D often sit on faces, edges or corners of the region, which a
-        # uniform batch in several dimensions barely reaches: half the batch is
-        # stretched past the region and clipped back onto its boundary.
-        sob[n // 2:] = np.clip(0.5 + (sob[n // 2:] - 0.5) * 1.4, 0.0, 1.0)
-        Z = problem.lo + sob * (problem.hi - problem.lo)
-        if problem.region is not None:  # a blend: candidates on the simplex instead
-            Z = problem.region.batch(sob, problem.num, problem.lo, problem.hi, rng)
-        elif p <= 10:
-            corners = np.array(list(itertools.product([0.0, 1.0], repeat=p)))
-            Z = np.vstack([Z, problem.lo + corners * (problem.hi - problem.lo)])
-    else:
-        Z = np.zeros((1, 0))
-    blocks = []
-    for combo in combos:
-        Zc = Z
-        if len(problem.b):
-            centre = _chebyshev_centre(problem, combo)
-            if centre is None:
-                continue
-            Zc = np.vstack([Z, centre])
-        blocks.append(problem.full(Zc, combo))
-    if not blocks:
-        rules = "; ".join(f"'{c['rule']}'" for c in study.constraints)
-        raise SearchError(f"no setting inside the search ranges meets every rule ({rules}): "
-                          "relax a rule or widen a factor's search range")
-    X = np.vstack(blocks)
-    if len(problem.b):
-        X = X[problem.feasible(X)]
+    X = _candidate_batch(study, problem, combos, rng)
     Y = problem.values(X)
     D, d = problem.score(Y)
     feasible = bool(D.max() > 0)
