@@ -546,12 +546,10 @@ class ResponseModel:
             raise ModelError(f"response '{self.name}': level {level} must be a fraction "
                              "such as 0.95")
         mean, se, sigma, df = self.predictive(X_coded)
-        ci = pi = np.full_like(mean, np.nan)
-        if df > 0 and sigma == sigma:
-            q = _t_quantile(0.5 + level / 2, df)
-            ci, pi = q * se, q * np.sqrt(se ** 2 + sigma ** 2)
-        z = np.column_stack([mean, mean - ci, mean + ci, mean - pi, mean + pi])
-        return inverse(z, self.transform)
+        q = _t_quantile(0.5 + level / 2, df) if df > 0 and sigma == sigma else np.nan
+        ci, pi = q * se, q * np.sqrt(se ** 2 + sigma ** 2)  # NaN without an error estimate
+        return inverse(np.column_stack([mean, mean - ci, mean + ci, mean - pi, mean + pi]),
+                       self.transform)
 
     def polynomial(self) -> tuple[list, np.ndarray]:
         """The mean model on the modelling scale: its terms (with powers) and coefficients."""

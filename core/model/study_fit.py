@@ -65,12 +65,15 @@ class StudyFit:
 
 
 def fit_response(study, name: str, *, reduce: bool = False, terms=None,
-                 alpha: float = DEFAULT_ALPHA, keep=None, drop=None) -> ResponseModel:
+                 alpha: float = DEFAULT_ALPHA, keep=None, drop=None,
+                 _runs=None) -> ResponseModel:
     """Fit one response of a study (with block terms when its runs fall in blocks).
 
     ``terms`` overrides the study's model (a name or a list of terms); ``keep``
     and ``drop`` override the response's ``keep_terms`` / ``drop_terms`` keys.
-    Raises ModelError when the response cannot be modelled.
+    Raises ModelError when the response cannot be modelled. (``_runs``: the
+    coded settings, run ids and blocks, when a caller fitting several responses
+    has them already.)
     """
     response = study.response(name)
     if study.runs is None:
@@ -91,7 +94,7 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
                          study.runs["run"].to_numpy(), block=study.block_labels())
     keep = response.extra.get("keep_terms", ()) if keep is None else keep
     drop = response.extra.get("drop_terms", ()) if drop is None else drop
-    X = study.coded().to_numpy()
+    X = _runs[0] if _runs is not None else study.coded().to_numpy()
     mixture = None
     if study.mixture is not None:
         # Scheffe terms, no intercept; the linear blending terms are never dropped
@@ -104,8 +107,9 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
                           name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
                           factors=study.factors, block_name=study.block_column or "block",
                           mixture=mixture)
-    model.fit(X, study.runs[name].to_numpy(dtype=float),
-              study.runs["run"].to_numpy(), block=study.block_labels())
+    _, ids, block = _runs if _runs is not None else (None, study.runs["run"].to_numpy(),
+                                                     study.block_labels())
+    model.fit(X, study.runs[name].to_numpy(dtype=float), ids, block=block)
     model.pieces_ = _pieces(study, response, model)
     return model
 
@@ -131,6 +135,11 @@ def _pieces(study, response, model) -> dict | None:
                             scale=scale)
 
 
+def _shared_runs(study):
+    """What every response's fit reads from the runs: coded settings, ids, blocks."""
+    return (study.coded().to_numpy(), study.runs["run"].to_numpy(), study.block_labels())
+
+
 def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
     """Fit every response of a study (or those named in ``responses``).
 
@@ -142,11 +151,13 @@ def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
         study.response(name)  # unknown names are an error, not a skip
     models: dict[str, ResponseModel] = {}
     skipped: dict[str, str] = {}
+    # the runs' coded settings are the same for every response: code them once
+    shared = _shared_runs(study) if study.runs is not None else None
     for name in study.response_names:
         if name not in names:
             continue
         try:
-            models[name] = fit_response(study, name, reduce=reduce)
+            models[name] = fit_response(study, name, reduce=reduce, _runs=shared)
         except ModelError as exc:
             skipped[name] = str(exc)
     return StudyFit(study=study, models=models, skipped=skipped)

@@ -10,6 +10,8 @@ import numpy as np
 
 from ..study.constraints import rule_arrays
 from .mixture import simplex_region
+from ..model.terms import model_matrix
+from ..model.transforms import inverse
 from .desirability import limits
 from ..errors import SearchError
 
@@ -86,6 +88,33 @@ class _Problem:
         self.lo_k = np.full(self.k, -np.inf)
         self.hi_k = np.full(self.k, np.inf)
         self.lo_k[self.num], self.hi_k[self.num] = self.lo, self.hi
+        self._stack_polynomials()
+
+    def _stack_polynomials(self) -> None:
+        """One model matrix for every response's polynomial, when all are polynomials.
+
+        The models of a study mostly share their terms; building the union of
+        their terms once per batch and multiplying by a (terms, responses)
+        coefficient table replaces one model matrix per response (the search's
+        largest cost). Models that are not polynomials keep their own predict.
+        """
+        self._terms = None
+        polys = [getattr(m, "polynomial", None) for m in self.col_models]
+        if not self.col_models or any(p is None for p in polys):
+            return
+        union, coef_of = {}, []
+        for get in polys:
+            terms, coef = get()
+            coef_of.append((terms, coef))
+            for t in terms:
+                union.setdefault(t.powers, t)
+        where = {powers: i for i, powers in enumerate(union)}
+        C = np.zeros((len(union), len(polys)))
+        for c, (terms, coef) in enumerate(coef_of):
+            for t, b in zip(terms, coef):
+                C[where[t.powers], c] += b
+        self._terms, self._C = list(union.values()), C
+        self._transforms = [getattr(m, "transform", "none") for m in self.col_models]
 
     def _goal_arrays(self) -> None:
         """Every goal's curve as arrays, so all columns are scored at once.
@@ -127,8 +156,15 @@ class _Problem:
         n = len(X)
         self.evaluations += n
         Y = np.empty((n, len(self.columns)))
-        for i, m in enumerate(self.col_models):
-            Y[:, i] = np.asarray(m.predict(X), dtype=float).reshape(n)
+        if self._terms is not None:
+            r = len(self.col_models)
+            Y[:, :r] = model_matrix(np.asarray(X, dtype=float), self._terms) @ self._C
+            for i, tr in enumerate(self._transforms):
+                if tr != "none":
+                    Y[:, i] = inverse(Y[:, i], tr)
+        else:
+            for i, m in enumerate(self.col_models):
+                Y[:, i] = np.asarray(m.predict(X), dtype=float).reshape(n)
         for i, j in enumerate(self.col_factor, start=len(self.col_models)):
             Y[:, i] = self.centre[j] + self.half[j] * X[:, j]
         return Y
