@@ -137,7 +137,11 @@ def _pieces(study, response, model) -> dict | None:
 
 def _shared_runs(study):
     """What every response's fit reads from the runs: coded settings, ids, blocks."""
-    return (study.coded().to_numpy(), study.runs["run"].to_numpy(), study.block_labels())
+    from ..study.coding import to_coded
+
+    # the array itself: the coded table (study.coded()) would only be unwrapped again
+    return (to_coded(study.factors, study.runs), study.runs["run"].to_numpy(),
+            study.block_labels())
 
 
 def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:

@@ -77,18 +77,31 @@ def residual_correlation(models: dict, *, min_runs: int | None = None) -> pd.Dat
 
 def _correlation_array(models: dict, min_runs: int | None = None) -> np.ndarray | None:
     """``residual_correlation`` as a bare array (None when too few runs)."""
-    series = [models[n].residuals_ for n in models]
-    first = series[0].index
-    if all(s.index.equals(first) for s in series[1:]):
-        # The usual case (every response on every run): no join needed.
-        table = np.column_stack([s.to_numpy(dtype=float) for s in series])
-    else:
+    table = _same_runs(models)
+    if table is None:
+        series = [models[n].residuals_ for n in models]
         table = pd.concat(series, axis=1, join="inner").to_numpy(dtype=float)
     table = table[~np.isnan(table).any(axis=1)]
-    need = min_runs if min_runs is not None else len(series) + 3
+    need = min_runs if min_runs is not None else len(models) + 3
     if len(table) < need or (table.std(axis=0, ddof=1) <= 0).any():
         return None
     return np.corrcoef(table, rowvar=False)
+
+
+def _same_runs(models: dict) -> np.ndarray | None:
+    """The residuals side by side (runs, m) when every model has the very same runs.
+
+    The usual case (every response measured on every run) needs no join by run
+    id, and reading the fitted models' own arrays skips building a labelled
+    series per response (most of the cost of a small chance). None otherwise.
+    """
+    ids = [getattr(m, "_ids", None) for m in models.values()]
+    diag = [getattr(m, "_diag", None) for m in models.values()]
+    if any(i is None for i in ids) or any(not isinstance(d, dict) for d in diag):
+        return None
+    if not all(len(i) == len(ids[0]) and np.array_equal(i, ids[0]) for i in ids[1:]):
+        return None
+    return np.column_stack([np.asarray(d["residual"], dtype=float) for d in diag])
 
 
 @functools.lru_cache(maxsize=8)

@@ -145,6 +145,7 @@ class _Problem:
             else:  # range
                 self.is_range[i] = True
         self.any_range = bool(self.is_range.any())
+        self.shaped = bool(np.any(self.s_b != 1) or np.any(self.s_a != 1))
         self.w_norm = self.weights / self.weights.sum() if m else self.weights
 
     def names(self) -> list[str]:
@@ -171,8 +172,12 @@ class _Problem:
 
     def score(self, Y):
         """Overall D (n,) and individual desirabilities (n, m) of goal values Y (n, m)."""
-        d = np.clip((Y - self.lo_b) / self.w_b, 0.0, 1.0) ** self.s_b
-        d *= np.clip((self.hi_a - Y) / self.w_a, 0.0, 1.0) ** self.s_a
+        d = np.clip((Y - self.lo_b) / self.w_b, 0.0, 1.0)
+        up = np.clip((self.hi_a - Y) / self.w_a, 0.0, 1.0)
+        if self.shaped:  # powers only where some goal has a shape other than 1
+            d **= self.s_b
+            up **= self.s_a
+        d *= up
         if self.any_range:
             inside = ((Y >= self.lim_lo) & (Y <= self.lim_hi)).astype(float)
             d = np.where(self.is_range, inside, d)
