@@ -16,11 +16,11 @@ import pandas as pd
 from .errors import StudyError, TradeoffError
 from .study.intake import MAX_TABLE_BYTES, parse_number, read_table
 from .study.spec import MAX_STUDY_BYTES, MODELS, Goal, Study
-from .study.reader import _goal, parse_study_text
+from .study.reader import _goal, check_production_sd, parse_study_text
 from .derive.load import study_from_dict
 
 __all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
-           "checked_goal", "with_response_model"]
+           "checked_goal", "with_response_model", "with_production_sd"]
 
 DATA_SUFFIXES = (".csv", ".txt", ".tsv", ".xlsx", ".xlsm")
 
@@ -212,6 +212,23 @@ def checked_goal(name: str, *, kind: str, lower: float | None = None,
             table["target"] = target
     table = {k: v for k, v in table.items() if v is not None}
     return _goal(table, "targets", f"'{name}'")
+
+
+def with_production_sd(study: Study, name: str, value) -> Study:
+    """A copy of the study with one factor's production SD typed in the front end.
+
+    Checked as the study file's ``production_sd`` is (a number, 0 or more, at
+    most half the factor's range); ``None`` removes it.
+    """
+    factor = study.factor(name)
+    if value is not None:
+        if factor.is_categorical:
+            raise StudyError(f"factor '{name}': a production SD is for numeric factors: a "
+                             "categorical factor is made at one level or the other")
+        value = check_production_sd(value, factor.low, factor.high, f"factor '{name}'")
+    factors = tuple(replace(f, production_sd=value) if f.name == name else f
+                    for f in study.factors)
+    return replace(study, factors=factors)
 
 
 def with_response_model(study: Study, name: str, model: str | tuple[str, ...]) -> Study:

@@ -15,7 +15,8 @@ from pathlib import Path
 import streamlit as st
 
 import tradeoff
-from tradeoff.inputs import draft_spec, study_from_files, with_response_model
+from tradeoff.inputs import (draft_spec, study_from_files, with_production_sd,
+                             with_response_model)
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
            "contour", "curves", "runs_table", "what_if"]
@@ -66,6 +67,9 @@ def current_study():
         study = with_response_model(study, name, model)
     for name, goal in ss["goals"].items():
         study = study.with_goal(name, goal)
+    for name, value in ss.get("spread", {}).items():
+        if name in study.factor_names and value != study.factor(name).production_sd:
+            study = with_production_sd(study, name, value)
     return study
 
 
@@ -75,8 +79,9 @@ def study_keys(study) -> tuple[str, str]:
     fit_part = [(r.name, study.model_for(r), r.transform) for r in study.responses]
     fit_key = _digest(origin_key(st.session_state["origin"]), fit_part, reduce)
     goals = [(x.name, asdict(x.goal)) for x in (*study.factors, *study.responses)]
+    spread = [(f.name, f.production_sd) for f in study.factors]
     search_key = _digest(fit_key, goals, list(study.constraints), study.seed,
-                         study.confidence)
+                         study.confidence, spread)
     return fit_key, search_key
 
 
@@ -100,17 +105,18 @@ def fit(study):
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
-def _optimize(key: str, top: int, rank_by: str, _study, _fit):
+def _optimize(key: str, top: int, rank_by: str, _study, _fit, aim: str = "balance"):
     from tradeoff.search.search import optimize as search
 
-    return search(_study, top=top, seed=_study.seed, fit=_fit, rank_by=rank_by)
+    return search(_study, top=top, seed=_study.seed, fit=_fit, rank_by=rank_by, aim=aim)
 
 
 def optimize(study, fitted):
     """The best settings and alternatives (cached by data, models, goals and options)."""
     ss = st.session_state
     with st.spinner("Searching the tested region for the best balance..."):
-        return _optimize(study_keys(study)[1], ss["top"], ss["rank_by"], study, fitted)
+        return _optimize(study_keys(study)[1], ss["top"], ss["rank_by"], study, fitted,
+                         ss.get("aim", "balance"))
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)

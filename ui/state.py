@@ -21,7 +21,10 @@ KEYS = {
     "models": "response name -> model name or tuple of terms chosen by the user",
     "reduce": "set of response names whose model is reduced to its active terms",
     "top": "how many solutions to list (the best and its alternatives)",
-    "rank_by": "order of the solutions: 'desirability' (D) or 'chance' (all limits met)",
+    "rank_by": "order of the solutions: 'desirability' (D), 'chance' (all limits met) or "
+               "'production' (all limits met by a production batch)",
+    "aim": "what comes first: 'balance' (best D) or 'production' (most likely to hold)",
+    "spread": "factor name -> production SD typed on the targets view (None: none)",
     "chosen": "index of the solution the maps and what-if panel start from",
     "whatif": "factor name -> natural setting typed in the what-if panel",
     "open_error": "the last error from opening files (kept while they stay uploaded)",
@@ -54,6 +57,8 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["reduce"] = set()
     st.session_state["chosen"] = 0
     st.session_state["whatif"] = {}
+    st.session_state["spread"] = {f.name: f.production_sd for f in study.factors
+                                  if not f.is_categorical}
 
 
 def init() -> None:
@@ -61,7 +66,8 @@ def init() -> None:
     ss = st.session_state
     defaults = {"top": 5, "rank_by": "desirability", "reduce": set(), "chosen": 0,
                 "whatif": {}, "open_error": None, "upload_digest": None, "draft": None,
-                "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {}}
+                "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
+                "aim": "balance", "spread": {}}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

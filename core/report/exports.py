@@ -29,14 +29,20 @@ def study_toml_bytes(study) -> bytes:
 def solutions_table(result) -> pd.DataFrame:
     """One row per solution: label, rank, D, chance of meeting all limits, settings.
 
-    Columns ``solution``, ``rank``, ``D``, ``chance_all``, then one column per
-    factor (natural setting or level name), then ``out_of_limits`` and
-    ``notes`` (the solution's warnings joined by " | ").
+    Columns ``solution``, ``rank``, ``D``, ``chance_all``, (when some factor
+    has a production SD or production was asked for: ``chance_all_production``
+    and ``d_given_up``), then one column per factor (natural setting or level
+    name), then ``out_of_limits`` and ``notes`` (the solution's warnings
+    joined by " | ").
     """
     rows = []
+    production = any(s.chance_all_production is not None for s in result.solutions)
     for s in result.solutions:
         row = {"solution": s.label, "rank": s.rank, "D": s.desirability,
                "chance_all": s.chance_all}
+        if production:
+            row["chance_all_production"] = s.chance_all_production
+            row["d_given_up"] = s.d_given_up
         row.update(s.settings)
         row["out_of_limits"] = ", ".join(s.out_of_limits)
         row["notes"] = " | ".join(s.warnings)

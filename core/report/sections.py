@@ -135,10 +135,26 @@ class _AnswerSections(_Sections):
                    f"settings should land, {self.pct} of the time. Mean interval: where the "
                    "long-run average should lie. Chance: Monte Carlo estimate that one "
                    "batch meets the goal's limits. d: the response's desirability.</p>")
+        out.append(self._production(best))
         for w in best["warnings"]:
             if w not in self.res["warnings"]:
                 out.append(f'<p class="note">Note: {esc(w)}</p>')
         return "".join(out)
+
+    def _production(self, sol: dict) -> str:
+        """Spread and chance in production, when some factor has a production SD."""
+        spread = self.res.get("production_sd") or {}
+        if not spread:
+            return ""
+        listed = ", ".join(f"{esc(k)} {_g(v)}" for k, v in spread.items())
+        rows = [[esc(self.study.response(name).label), esc(self.study.response(name).unit),
+                 _g(o.get("transmitted_sd")), _g(o.get("mean_shift"))]
+                for name, o in sol["responses"].items()]
+        return (f"<h3>In production</h3><p>Each factor strays from its setting with the "
+                f"standard deviation given ({listed}). Chance that one production batch "
+                f"meets every limit: <b>{_pct(sol.get('chance_all_production'))}</b>.</p>"
+                + _table(["response", "unit", "spread SD", "mean shift"], rows,
+                         numeric={2, 3}))
 
     def _predictions(self, sol: dict) -> str:
         rows = []

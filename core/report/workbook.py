@@ -127,6 +127,11 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
                             "pi low": o["pi"][0], "pi high": o["pi"][1],
                             "ci low": o["ci"][0], "ci high": o["ci"][1],
                             "chance within limits": o["chance_in_limits"]})
+                if res.get("production_sd"):
+                    row.update({"spread SD in production": o.get("transmitted_sd"),
+                                "mean shift in production": o.get("mean_shift"),
+                                "chance all in production": s.get("chance_all_production"),
+                                "D given up": s.get("d_given_up")})
                 sol_rows.append(row)
     tables["solutions"] = pd.DataFrame(sol_rows)
     if check is not None:

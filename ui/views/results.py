@@ -22,12 +22,21 @@ except TradeoffError as exc:
 numeric = [f.name for f in study.factors if not f.is_categorical]
 
 # -- widgets: search options ------------------------------------------------------
-c1, c2 = st.columns(2)
+c1, c2, c3 = st.columns([2, 3, 3])
 ss["top"] = c1.number_input("Solutions to list (best + alternatives)", 1, 10,
                             value=int(ss["top"]), key="r_top")
+aim_labels = {"balance": "best balance",
+              "production": "most likely to hold in production"}
+ss["aim"] = c2.radio("Put first", list(aim_labels), format_func=aim_labels.get,
+                     index=list(aim_labels).index(ss["aim"]), horizontal=True, key="r_aim",
+                     help="Most likely to hold in production: the settings with the highest "
+                          "chance that one production batch meets every limit, allowing for "
+                          "each factor's spread in production (set on the targets view), "
+                          "shown beside the best balance with the D it gives up.")
 rank_labels = {"desirability": "overall desirability D",
-               "chance": "chance of meeting every limit"}
-ss["rank_by"] = c2.radio("Order them by", list(rank_labels), format_func=rank_labels.get,
+               "chance": "chance of meeting every limit",
+               "production": "that chance in production"}
+ss["rank_by"] = c3.radio("Order the rest by", list(rank_labels), format_func=rank_labels.get,
                          index=list(rank_labels).index(ss["rank_by"]), horizontal=True,
                          key="r_rank")
 
@@ -52,10 +61,19 @@ st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance al
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed.")
 shown = table.rename(columns={n: f"{n} ({u})" if u else n for n, u in units.items()})
+if "chance_all_production" in table:
+    st.caption("'Chance in production' also lets each factor stray from its setting by its "
+               "production spread: " + ", ".join(
+                   f"{text.plain(k)} SD {v:g}" for k, v in result.production_sd.items())
+               + ". 'D given up' is how much lower D is than at the best balance.")
 st.dataframe(shown, hide_index=True, key="r_solutions",
              column_config={"D": st.column_config.NumberColumn(format="%.3f"),
                             "chance_all": st.column_config.NumberColumn(
                                 "chance all within limits", format="percent"),
+                            "chance_all_production": st.column_config.NumberColumn(
+                                "chance in production", format="percent"),
+                            "d_given_up": st.column_config.NumberColumn(
+                                "D given up", format="%.3f"),
                             **{(f"{n} ({u})" if u else n): st.column_config.NumberColumn(
                                 format="%.4g") for n, u in units.items()
                                if n in numeric}})
@@ -73,10 +91,15 @@ for name, o in chosen.responses.items():
                  "mean from": o.ci[0], "mean to": o.ci[1],
                  "one batch from": o.pi[0], "one batch to": o.pi[1],
                  "desirability": o.desirability, "chance within limits": o.chance_in_limits})
+    if o.transmitted_sd is not None:
+        rows[-1].update({"spread SD in production": o.transmitted_sd,
+                         "mean shift": o.mean_shift})
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
             + ("" if chosen.chance_all is None else
                f", chance that every response lands within its limits: "
-               f"**{chosen.chance_all:.1%}**"))
+               f"**{chosen.chance_all:.1%}**")
+            + ("" if chosen.chance_all_production is None else
+               f"; in production: **{chosen.chance_all_production:.1%}**"))
 st.caption(f"'mean from/to' is the {study.confidence:.0%} confidence interval of the "
            "average of many batches; 'one batch from/to' is the prediction interval for a "
            "single new batch (wider, because one batch scatters).")

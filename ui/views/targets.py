@@ -7,7 +7,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.inputs import checked_goal
+from tradeoff.inputs import checked_goal, with_production_sd
 from tradeoff_ui import cached, charts, text
 
 ss = st.session_state
@@ -41,6 +41,28 @@ def _span(item) -> tuple[float, float]:
 
 def _step(lo: float, hi: float) -> float:
     return 10.0 ** math.floor(math.log10(max(hi - lo, 1e-12)) - 1)
+
+
+def _production_sd_input(factor, key: str) -> None:
+    """How far the factor strays from its setting in production (a standard deviation)."""
+    old = ss["spread"].get(factor.name)
+    unit = f" ({factor.unit})" if factor.unit else ""
+    typed = st.number_input(
+        f"Spread in production, SD{unit}", min_value=0.0, value=float(old or 0.0),
+        step=_step(factor.low, factor.high), format="%g", key=f"{key}.spread",
+        help="The standard deviation of the actual setting around the intended one when "
+             "made in production (say a dosing scatter of +-0.5 % is an SD of about "
+             "0.25 %). 0: made exactly. The results then show each response's spread "
+             "and the chance that a production batch meets every limit.")
+    value = typed if typed > 0 else None
+    if value == old:
+        return
+    try:
+        with_production_sd(study, factor.name, value)
+    except TradeoffError as exc:
+        st.error(f"{text.plain(exc)}. The previous spread stays in use until this is fixed.")
+    else:
+        ss["spread"] = {**ss["spread"], factor.name: value}
 
 
 # -- widgets -------------------------------------------------------------------
@@ -101,6 +123,8 @@ for item in items:
             else:
                 if new != goal:
                     ss["goals"] = {**ss["goals"], item.name: new}
+            if is_factor:
+                _production_sd_input(item, key)
         slots[item.name] = (right, item, is_factor)
 
 # -- call the library ---------------------------------------------------------------
