@@ -200,9 +200,10 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
     if spread is not None and np.any(np.asarray(spread, dtype=float) > 0):
         E = _spread_draws(seed, draws, np.asarray(spread, dtype=float))
     # Each model's error estimate decides whether (and with which df) it draws a t.
-    info = {}
+    info, at_x = {}, {}
     for name in names:
-        _, _, sigma, df = used[name].predictive(X[:1])
+        mean, se, sigma, df = used[name].predictive(X if E is None else X[:1])
+        at_x[name] = (mean, se)  # the mean and its error at X, when no spread moves X
         sigma = float(np.asarray(sigma, dtype=float).ravel()[0])
         df = float(np.asarray(df, dtype=float).ravel()[0])
         info[name] = (sigma, df) if np.isfinite(sigma) and np.isfinite(df) and df > 0 \
@@ -225,7 +226,7 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         lo, hi = limits(study.response(name).goal)
         q = Q[:, i]
         if E is None:
-            mean, se, _, _ = model.predictive(X)
+            mean, se = at_x[name]
             mean = np.broadcast_to(np.asarray(mean, dtype=float), (n,))
             se = np.broadcast_to(np.asarray(se, dtype=float), (n,))
             scale = np.sqrt(se ** 2 + sigma ** 2)

@@ -107,6 +107,14 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
     if not isinstance(top, int) or top < 1:
         raise SearchError(f"top must be a whole number of at least 1, found {top!r}")
     seed = study.seed if seed is None else seed
+    # The whole call on one BLAS thread: the fit's, the search's and the result's
+    # matrices are all small (see _one_blas_thread), and one limit set once costs
+    # less than a thread pool woken for every product.
+    with _one_blas_thread():
+        return _optimize(study, top, seed, fit, rank_by, min_distance, draws, starts, aim)
+
+
+def _optimize(study, top, seed, fit, rank_by, min_distance, draws, starts, aim):
     if fit is None:
         from ..model.study_fit import fit_study
 
@@ -120,10 +128,9 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
                                        rank_by=rank_by, min_distance=min_distance,
                                        starts=starts)
     if aim == "production":
-        with _one_blas_thread():
-            held = hold_search(study, problem, models, X, seed=seed, draws=draws,
-                               n_starts=starts if starts is not None else max(12, 2 * top),
-                               min_distance=min_distance)
+        held = hold_search(study, problem, models, X, seed=seed, draws=draws,
+                           n_starts=starts if starts is not None else max(12, 2 * top),
+                           min_distance=min_distance)
         # the held setting first, then the balance settings (kept even when close by,
         # so the D given up can be read off; only the very same setting is dropped)
         apart = np.sqrt(((X - held) ** 2).sum(axis=1)) > 1e-6
@@ -131,7 +138,6 @@ def optimize(study, *, top: int = 5, seed: int | None = None, fit=None,
         top = max(top, 2)  # always show the best balance beside it
     return _result(study, problem, models, fit, X, top, seed, rank_by, feasible,
                    unreachable, draws, aim=aim)
-
 
 _BLAS_LOCK = threading.Lock()
 _BLAS = {"controller": None, "limiter": None, "depth": 0}
