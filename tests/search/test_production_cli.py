@@ -98,3 +98,27 @@ def test_production_sd_on_a_categorical_factor_says_why(write_study):
     assert out.returncode == 2 and len(out.stderr.strip().splitlines()) == 1
     assert "production_sd is for numeric factors" in out.stderr
     assert "no spread" in out.stderr
+
+
+def test_smooth_model_spread_by_monte_carlo_and_held_settings(write_study):
+    # a model that is not a polynomial (Gaussian process): the spread comes from draws,
+    # against an independent seeded Monte Carlo of the same model's predictions
+    from conftest import PEAKED_STUDY, peaked_runs
+
+    from tradeoff.derive.load import load_study
+    from tradeoff.search.search import optimize
+
+    text = PEAKED_STUDY.format(model="smooth").replace(
+        'high = 6\n', 'high = 6\nproduction_sd = 0.2\n')
+    study = load_study(write_study(text, peaked_runs()))
+    result = optimize(study, top=1, aim="production", draws=4000)
+    best = result.solutions[0]
+    coded = np.array([[best.coded["sugar"], best.coded["acid"]]])
+    from tradeoff.model.study_fit import fit_study
+
+    model = fit_study(study).models["liking"]
+    e = np.random.default_rng(5).standard_normal((40000, 2)) * [0.2 / 2, 0.0]
+    y = model.predict(coded + e)
+    assert best.responses["liking"].transmitted_sd == pytest.approx(y.std(), rel=0.05)
+    balance = next(s for s in result.solutions if s.d_given_up == 0)
+    assert best.chance_all_production >= balance.chance_all_production
