@@ -140,6 +140,18 @@ def _spread_draws(seed, draws: int, spread: np.ndarray) -> np.ndarray:
     return rng.standard_normal((draws, len(spread))) * spread
 
 
+def _factors_within(study, X, E) -> np.ndarray:
+    """(n, draws): every factor with a goal lands within the goal's limits in production."""
+    ok = np.ones((len(X), len(E)), dtype=bool)
+    for j, f in enumerate(study.factors):
+        if f.is_categorical or not f.goal.active:
+            continue
+        lo, hi = limits(f.goal)
+        x = f.centre + f.half_range * (X[:, j, None] + E[None, :, j])
+        ok &= (x >= lo) & (x <= hi)
+    return ok
+
+
 _CHUNK = 200_000  # rows of settings evaluated at once when factors spread
 
 
@@ -245,6 +257,8 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
                 ok[a:a + c] = (y >= lo) & (y <= hi)
         each[:, i] = ok.mean(axis=1)
         inside_all &= ok
+    if E is not None:
+        inside_all &= _factors_within(study, X, E)
     frame = pd.DataFrame(R, index=names, columns=names)
     together = inside_all.mean(axis=1)
     if unknown:

@@ -77,6 +77,13 @@ class HoldScore:
         self.unknown = []
         rng = np.random.default_rng(16)
         self._E = rng.standard_normal((_MC_MOMENTS, len(self.spread))) * self.spread
+        # factor goals' limits in coded units: (column, low, high)
+        self.factor_limits = []
+        for j, f in enumerate(study.factors):
+            if not f.is_categorical and f.goal.active:
+                lo, hi = limits(f.goal)
+                self.factor_limits.append((j, (lo - f.centre) / f.half_range,
+                                           (hi - f.centre) / f.half_range))
         for r in study.responses:
             if not (r.goal.active and r.name in models):
                 continue
@@ -119,6 +126,16 @@ class HoldScore:
             scale = np.sqrt(np.asarray(se, dtype=float) ** 2 + sigma ** 2 + var)
             centre = np.asarray(mean, dtype=float) + shift
             out *= _t_between(df, (lo - centre) / scale, (hi - centre) / scale)
+        for j, lo, hi in self.factor_limits:
+            # a factor with a goal must land within the goal's limits too; with a
+            # production spread that is a normal chance (smooth), without it a yes/no
+            x = X[:, j]
+            if self.spread[j] > 0:
+                s = self.spread[j]
+                out *= np.clip(special.ndtr((hi - x) / s) - special.ndtr((lo - x) / s),
+                               0.0, 1.0)
+            else:
+                out *= ((x >= lo) & (x <= hi)).astype(float)
         return out
 
 
@@ -219,7 +236,26 @@ def hold_search(study, problem, models: dict, X_balance, *, seed: int, draws: in
     # the Monte Carlo chance decides, on the best distinct peaks and the balance optima
     order = _starts(peaks, score(peaks), _JUDGED, 1e-3)
     pool = np.vstack([peaks[order], np.atleast_2d(X_balance)])
-    chance = production_chance(study, models, pool, draws=draws, seed=seed).all
+    chance = np.nan_to_num(production_chance(study, models, pool, draws=draws,
+                                             seed=seed).all, nan=-1.0)
     D = problem.score(problem.values(pool))[0]
-    best = int(np.lexsort((-D, -np.nan_to_num(chance, nan=-1.0)))[0])
-    return pool[best]
+    return pool[_pick(chance, D, len(order), draws)]
+
+
+def _pick(chance, D, balance: int, draws: int) -> int:
+    """The most likely to hold; ties (within Monte Carlo resolution) go to the higher D.
+
+    Settings with D = 0 fail some goal outright and are passed over whenever
+    another has D > 0. A chance within two standard errors of the highest
+    counts as a tie, but never one below the best balance's own chance (row
+    ``balance``), so the answer is never less likely to hold than the best
+    balance.
+    """
+    ok = D > 0 if (D > 0).any() else np.ones(len(D), dtype=bool)
+    top = chance[ok].max()
+    tol = 2 * math.sqrt(max(top * (1 - top), 0.0) / draws)
+    floor = chance[balance] if ok[balance] else -np.inf
+    tied = ok & (chance >= top - tol) & (chance >= floor)
+    if not tied.any():
+        tied = ok & (chance >= top)
+    return int(np.flatnonzero(tied)[np.argmax(D[tied])])

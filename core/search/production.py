@@ -6,7 +6,9 @@ independent). One production batch at settings ``x`` is then drawn as in
 ``tradeoff.search.chance``, but with the model's mean and its standard error
 taken at the drawn settings ``x + e``: the factors' spread, the run-to-run
 noise and the models' uncertainty together, the responses tied by the
-correlation of their residuals. The draws of the noise are the very ones the
+correlation of their residuals. A factor with a goal of its own (keep protein
+above 20 %, say) must also land within that goal's limits after its spread.
+The draws of the noise are the very ones the
 ordinary chance uses (same seed), and the factor deviations come from a
 stream of their own, so with no production spread the production chance
 equals the ordinary one exactly.

@@ -93,3 +93,17 @@ def test_command_line_prints_held_settings_beside_the_best_balance(tmp_path, cap
     text = capsys.readouterr().out
     assert "Most likely to hold in production" in text and "Best balance" in text
     assert "gives up" in text
+
+
+def test_pick_passes_over_failed_goals_and_sends_ties_to_d():
+    # the rule as documented (common practice for Monte Carlo comparisons: differences
+    # within two standard errors are not told apart)
+    from tradeoff.search.hold import _pick
+
+    # a setting with D = 0 fails some goal outright: never picked while another has D > 0
+    assert _pick(np.array([0.9994, 0.9986, 0.9154]), np.array([0.0, 0.741, 0.587]),
+                 1, 20000) == 1
+    # clearly more likely to hold: picked although it gives up D
+    assert _pick(np.array([0.95, 0.80]), np.array([0.5, 0.6]), 1, 20000) == 0
+    # within the resolution of 20 000 draws: a tie, which goes to the higher D
+    assert _pick(np.array([0.951, 0.950]), np.array([0.5, 0.6]), 1, 20000) == 1
