@@ -46,7 +46,7 @@ def _step(lo: float, hi: float) -> float:
 def _production_sd_input(factor, key: str) -> None:
     """How far the factor strays from its setting in production (a standard deviation)."""
     old = ss["spread"].get(factor.name)
-    unit = f" ({factor.unit})" if factor.unit else ""
+    unit = f" ({text.plain(factor.unit)})" if factor.unit else ""
     typed = st.number_input(
         f"Spread in production, SD{unit}", min_value=0.0, value=float(old or 0.0),
         step=_step(factor.low, factor.high), format="%g", key=f"{key}.spread",
