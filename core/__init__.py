@@ -64,6 +64,10 @@ _HOME = {
     "plan_mixture": "plan.mixture_plan",
     "mixture_trace": "report.mixture_tables", "mixture_effects": "report.mixture_tables",
     "ternary_grid": "report.mixture_tables", "write_report": "report.write",
+    "chance_text": "search.chance",
+    "contour_lines": "report.contours", "limits_map": "report.contours",
+    "LimitsMap": "report.contours", "slices": "report.slices",
+    "model_interaction": "report.slices",
 }
 
 __all__ = ["__version__", *_HOME]

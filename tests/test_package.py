@@ -40,6 +40,8 @@ PUBLIC_NAMES = sorted([
     # blends (issue 14)
     "Component", "Mixture", "extreme_vertices", "face_centroids", "simplex_lattice",
     "simplex_centroid", "plan_mixture", "mixture_trace", "mixture_effects", "ternary_grid",
+    "chance_text", "contour_lines", "limits_map", "LimitsMap", "slices",
+    "model_interaction",
 ])
 
 

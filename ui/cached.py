@@ -19,7 +19,8 @@ from tradeoff.inputs import (draft_spec, study_from_files, with_production_sd,
                              with_response_model)
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
-           "contour", "curves", "runs_table", "what_if"]
+           "contour", "contour_lines", "limits_map", "slices", "model_interaction",
+           "curves", "runs_table", "what_if"]
 
 
 def _digest(*parts) -> str:
@@ -144,6 +145,59 @@ def contour(study, fitted, x: str, y: str, held: dict, n: int = 41):
     """Predictions and D over a grid of two factors (``tradeoff.report.maps.contour_grid``)."""
     items = tuple(sorted((k, v if isinstance(v, str) else float(v)) for k, v in held.items()))
     return _contour(study_keys(study)[1], study, fitted, x, y, items, n)
+
+
+def _held_items(held: dict) -> tuple:
+    return tuple(sorted((k, v if isinstance(v, str) else float(v)) for k, v in held.items()))
+
+
+@st.cache_resource(max_entries=128, show_spinner=False)
+def _contour_lines(key: str, _study, _fit, value: str, x: str, y: str, held_items: tuple):
+    from tradeoff.report.contours import contour_lines as build
+
+    return build(_study, value, x, y, fixed=dict(held_items), fit=_fit)
+
+
+def contour_lines(study, fitted, value: str, x: str, y: str, held: dict):
+    """Lines of equal response or D (``tradeoff.report.contours.contour_lines``)."""
+    return _contour_lines(study_keys(study)[1], study, fitted, value, x, y,
+                          _held_items(held))
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def _limits_map(key: str, _study, _fit, x: str, y: str, held_items: tuple):
+    from tradeoff.report.contours import limits_map as build
+
+    return build(_study, x, y, fixed=dict(held_items), fit=_fit)
+
+
+def limits_map(study, fitted, x: str, y: str, held: dict):
+    """Every limit's line and the region where all hold (``contours.limits_map``)."""
+    return _limits_map(study_keys(study)[1], study, fitted, x, y, _held_items(held))
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def _slices(key: str, _study, _fit, items: tuple):
+    from tradeoff.report.slices import slices as build
+
+    return build(_study, dict(items), fit=_fit)
+
+
+def slices(study, fitted, settings: dict):
+    """Each response and D along each factor (``tradeoff.report.slices.slices``)."""
+    return _slices(study_keys(study)[1], study, fitted, _held_items(settings))
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def _model_interaction(key: str, _study, _fit, response: str, a: str, b: str):
+    from tradeoff.report.slices import model_interaction as build
+
+    return build(_study, response, a, b, fit=_fit)
+
+
+def model_interaction(study, fitted, response: str, a: str, b: str):
+    """The model's predictions at the ends of two factors (``slices.model_interaction``)."""
+    return _model_interaction(study_keys(study)[0], study, fitted, response, a, b)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)

@@ -10,16 +10,30 @@ import altair as alt
 import pandas as pd
 
 __all__ = ["SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
-           "residual_charts", "desirability_chart", "contour_chart", "titled"]
+           "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
+           "slice_chart", "titled", "fit_width", "BAR_STEP"]
 
 SCHEME = "viridis"
 DARK, LIGHT, MID = "#440154", "#fde725", "#21918c"  # viridis ends and middle
 SIGN_COLOURS = alt.Scale(domain=["raises", "lowers"], range=[MID, DARK])
 
 
+# Height of one bar in bar charts: 3 bars need at least 60 px of plotting area.
+BAR_STEP = 22
+
+
 def titled(label: str, unit: str = "") -> str:
     """An axis title with its unit in brackets."""
     return f"{label} ({unit})" if unit else label
+
+
+def fit_width(chart):
+    """Stretch a single view to its column while its height stays the plotting area.
+
+    Streamlit's default ("fit") squeezes axes, titles and legends into the
+    given height, which collapses short charts; "fit-x" only fits the width.
+    """
+    return chart.properties(autosize=alt.AutoSizeParams(type="fit-x", contains="padding"))
 
 
 def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.LayerChart:
@@ -43,7 +57,7 @@ def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.
         text = alt.Chart(lines).mark_text(align="left", dx=3, dy=-6, color="#333").encode(
             x="value:Q", y=alt.value(0), text="label:N")
         layers += [rules, text]
-    return alt.layer(*layers).properties(height=max(120, 24 * len(data)))
+    return fit_width(alt.layer(*layers).properties(height=max(3, len(data)) * BAR_STEP))
 
 
 def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> alt.LayerChart:
@@ -58,55 +72,53 @@ def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> al
     dots = base.mark_circle(size=70, color=DARK).encode(
         tooltip=["term", alt.Tooltip("effect:Q", format=".4g")])
     text = base.mark_text(align="left", dx=6).encode(text="label:N")
-    return alt.layer(dots, text).properties(height=320)
+    return fit_width(alt.layer(dots, text).properties(height=320))
 
 
-def interaction_chart(cells: pd.DataFrame, a_title: str, b_title: str,
-                      y_title: str) -> alt.Chart:
-    """Mean response at the two ends of factor a, one line per end of factor b."""
-    def shown(v):
-        return v if isinstance(v, str) else f"{v:g}"
+def interaction_chart(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
+                      b_title: str, y_title: str):
+    """The model's lines with intervals at the ends of factor a, one per end of b,
+    over the measured cell means (open circles); see
+    ``tradeoff.report.pictures.interaction_picture``."""
+    from tradeoff.report.pictures import interaction_picture
 
-    data = cells.assign(a=[shown(v) for v in cells["a_level"]],
-                        b=[shown(v) for v in cells["b_level"]])
-    order = list(dict.fromkeys(data.sort_values("a_coded")["a"]))
-    b_order = list(dict.fromkeys(data.sort_values("b_coded")["b"]))
-    return alt.Chart(data).mark_line(point=True, strokeWidth=3).encode(
-        x=alt.X("a:N", sort=order, title=a_title, axis=alt.Axis(labelAngle=0)),
-        y=alt.Y("mean:Q", title=y_title, scale=alt.Scale(zero=False)),
-        color=alt.Color("b:N", title=b_title, sort=b_order,
-                        scale=alt.Scale(domain=b_order, range=[MID, DARK])),
-        tooltip=["a", "b", alt.Tooltip("mean:Q", format=".4g"), "runs"],
-    ).properties(height=280)
+    return fit_width(interaction_picture(cells, model, a_title, b_title, y_title,
+                                         height=260))
 
 
-def residual_charts(table: pd.DataFrame, unit: str) -> alt.HConcatChart:
-    """Residual against fitted value, normal quantile plot, residual in run order.
+def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
+    """Three panels (each stretched to its own column): residual against fitted
+    value, normal quantile plot of the deleted studentized residual, residual in
+    run order. Dark points: runs flagged (deleted studentized residual beyond
+    +-3), the very value the quantile panel plots, so colour and caption agree.
 
-    ``table``: columns run, order, fitted, residual, studentized, quantile, flagged.
+    ``table``: columns run, order, fitted, residual, studentized_deleted,
+    quantile, flagged (``tradeoff.report.maps.residual_table``).
     """
     base = alt.Chart(table).encode(
         color=alt.Color("flagged:N", scale=alt.Scale(domain=[False, True],
                                                      range=[MID, DARK]), legend=None),
         tooltip=["run", alt.Tooltip("fitted:Q", format=".4g"),
                  alt.Tooltip("residual:Q", format=".4g"),
-                 alt.Tooltip("studentized:Q", format=".2f")])
+                 alt.Tooltip("studentized_deleted:Q", format=".2f",
+                             title="deleted studentized")])
     zero = alt.Chart(pd.DataFrame({"y": [0.0]})).mark_rule(color="#888").encode(y="y:Q")
     vs_fit = alt.layer(zero, base.mark_circle(size=60).encode(
         x=alt.X("fitted:Q", title=titled("Fitted value", unit), scale=alt.Scale(zero=False)),
         y=alt.Y("residual:Q", title=titled("Residual", unit)))).properties(
-        width=250, height=230, title="Against fitted value")
-    normal = base.mark_circle(size=60).encode(
+        height=230, title="Against fitted value")
+    limit = alt.Chart(pd.DataFrame({"y": [-3.0, 3.0]})).mark_rule(
+        color=DARK, strokeDash=[4, 3]).encode(y="y:Q")
+    normal = alt.layer(limit, base.mark_circle(size=60).encode(
         x=alt.X("quantile:Q", title="Normal quantile"),
-        y=alt.Y("studentized:Q", title="Studentized residual")).properties(
-        width=250, height=230, title="Normal quantile plot")
+        y=alt.Y("studentized_deleted:Q", title="Deleted studentized residual"))).properties(
+        height=230, title="Normal quantile plot")
     trace = alt.Chart(table).mark_line(color="#999").encode(
-        x=alt.X("order:O", title="Run (file order)"),
+        x=alt.X("order:O", title="Run (file order)", axis=alt.Axis(labelOverlap=True)),
         y=alt.Y("residual:Q", title=titled("Residual", unit)))
     order = alt.layer(zero, trace, base.mark_circle(size=60).encode(
-        x="order:O", y="residual:Q")).properties(
-        width=250, height=230, title="In run order")
-    return alt.hconcat(vs_fit, normal, order)
+        x="order:O", y="residual:Q")).properties(height=230, title="In run order")
+    return fit_width(vs_fit), fit_width(normal), fit_width(order)
 
 
 def desirability_chart(curve: pd.DataFrame, marker: pd.DataFrame, x_title: str) -> alt.LayerChart:
@@ -123,34 +135,31 @@ def desirability_chart(curve: pd.DataFrame, marker: pd.DataFrame, x_title: str) 
         x="value:Q", y="desirability:Q",
         tooltip=[alt.Tooltip("value:Q", format=".4g", title="predicted"),
                  alt.Tooltip("desirability:Q", format=".3f")])
-    return alt.layer(line, dot).properties(height=170)
+    return fit_width(alt.layer(line, dot).properties(height=170))
 
 
-def contour_chart(grid: pd.DataFrame, value: str, value_title: str, x_title: str,
-                  y_title: str, marker: pd.DataFrame, n: int) -> alt.LayerChart:
-    """A filled contour map (banded colours) of ``value`` over the grid's x and y.
+def contour_chart(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_title: str,
+                  x_title: str, y_title: str, marks: pd.DataFrame):
+    """Labelled lines of equal ``value`` over a light wash (see
+    ``tradeoff.report.pictures.contour_picture``)."""
+    from tradeoff.report.pictures import contour_picture
 
-    Cells outside the region where every response meets its limits are
-    veiled in grey, so the region that meets them all stands out.
-    ``grid``: columns x, y, ``value``, feasible. ``marker``: columns x, y.
-    """
-    dx = (grid["x"].max() - grid["x"].min()) / max(n - 1, 1)
-    dy = (grid["y"].max() - grid["y"].min()) / max(n - 1, 1)
-    data = grid.assign(x2=grid["x"] + dx, y2=grid["y"] + dy,
-                       x1=grid["x"] - dx / 2, y1=grid["y"] - dy / 2)
-    data["x2"], data["y2"] = data["x1"] + dx, data["y1"] + dy
-    xs = alt.X("x1:Q", title=x_title, scale=alt.Scale(zero=False, nice=False))
-    ys = alt.Y("y1:Q", title=y_title, scale=alt.Scale(zero=False, nice=False))
-    heat = alt.Chart(data).mark_rect().encode(
-        x=xs, x2="x2:Q", y=ys, y2="y2:Q",
-        color=alt.Color(f"{value}:Q", bin=alt.Bin(maxbins=12),
-                        scale=alt.Scale(scheme=SCHEME), title=value_title),
-        tooltip=[alt.Tooltip("x:Q", format=".4g", title=x_title),
-                 alt.Tooltip("y:Q", format=".4g", title=y_title),
-                 alt.Tooltip(f"{value}:Q", format=".4g", title=value_title),
-                 alt.Tooltip("feasible:N", title="meets every limit")])
-    veil = alt.Chart(data[~data["feasible"]]).mark_rect(color="#bbbbbb", opacity=0.55).encode(
-        x=xs, x2="x2:Q", y=ys, y2="y2:Q")
-    dot = alt.Chart(marker).mark_point(shape="cross", size=220, color="white",
-                                       strokeWidth=3).encode(x="x:Q", y="y:Q")
-    return alt.layer(heat, veil, dot).properties(height=420)
+    return fit_width(contour_picture(grid, lines, value, value_title, x_title, y_title,
+                                     marks, height=420))
+
+
+def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataFrame,
+                 d_lines: pd.DataFrame | None = None):
+    """Each limit as its own labelled line, failing side ticked, the region where all
+    hold outlined (see ``tradeoff.report.pictures.limits_picture``)."""
+    from tradeoff.report.pictures import limits_picture
+
+    return fit_width(limits_picture(lmap, titles, x_title, y_title, marks,
+                                    d_lines=d_lines, height=420))
+
+
+def slice_chart(part: pd.DataFrame, title: str, x_title: str):
+    """One response (or D) along one factor with its band, limits and the setting."""
+    from tradeoff.report.pictures import slice_panel
+
+    return fit_width(slice_panel(part, title, x_title, height=140))

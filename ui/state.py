@@ -32,6 +32,8 @@ KEYS = {
     "draft": "a bare data table waiting for its factor and response columns",
     "report_ready": "True once the user asked for the report (then it follows every change)",
     "whatif_nonce": "bumped by 'start from the chosen solution' to reset the what-if widgets",
+    "whatif_from": "label of the solution the what-if panel started from (another one "
+                   "chosen resets the panel to it)",
     "epoch": "counts opened studies; part of widget keys so a new study starts fresh",
 }
 
@@ -59,6 +61,7 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["whatif"] = {}
     st.session_state["spread"] = {f.name: f.production_sd for f in study.factors
                                   if not f.is_categorical}
+    st.session_state["whatif_from"] = None
 
 
 def init() -> None:
@@ -67,7 +70,8 @@ def init() -> None:
     defaults = {"top": 5, "rank_by": "desirability", "reduce": set(), "chosen": 0,
                 "whatif": {}, "open_error": None, "upload_digest": None, "draft": None,
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
-                "aim": "balance", "spread": {}}
+                "aim": "balance", "spread": {},
+                "whatif_from": None}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

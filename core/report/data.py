@@ -196,7 +196,10 @@ def _g(x, digits: int = 4) -> str:
 
 
 def _pct(x) -> str:
-    return "-" if x is None else f"{float(x):.0%}"
+    """A chance, by the one rule every view and command uses (``chance_text``)."""
+    from ..search.chance import chance_text
+
+    return chance_text(x)
 
 
 def _r2(x) -> str:

@@ -42,6 +42,7 @@ class _EvidenceSections(_Sections):
                 continue
             out.append(self._fit_stats(rep))
             out.append(_chart_div(_effects_chart(r, rep, alpha)))
+            out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))
             out.append(self._flagged(r.name, rep))

@@ -19,6 +19,7 @@ import json
 
 from .data import CAUTIONS, _provenance_rows, report_data
 from .evidence import _EvidenceSections
+from .map_sections import _MapSections
 from .sections import _AnswerSections, _table, esc
 
 __all__ = ["build_report_html"]
@@ -90,6 +91,9 @@ td.num, th.num { text-align:right; font-variant-numeric: tabular-nums; }
 .charts { display:flex; flex-wrap:wrap; gap:14px; }
 .chart { background:#fff; border:1px solid var(--line); padding:6px; display:inline-block; }
 table.runs td { white-space:nowrap; }
+table.runs { font-size:12.5px; }
+table.runs td, table.runs th { padding:3px 6px; }
+table.runs td:last-child { white-space:normal; min-width:11em; }
 .scroll { overflow-x:auto; }
 ul.warn li { margin-bottom:4px; }
 .caution { background:#fff7ea; border:1px solid #e6cfa5; padding:10px 16px; }
@@ -101,7 +105,7 @@ pre { background:#f4f2ee; border:1px solid var(--line); padding:10px 12px;
 """
 
 
-class _Page(_AnswerSections, _EvidenceSections):
+class _Page(_AnswerSections, _EvidenceSections, _MapSections):
     """Renders the report's sections from ``report_data``'s dict."""
 
     # -- the page
@@ -111,6 +115,7 @@ class _Page(_AnswerSections, _EvidenceSections):
             ("summary", "Summary", self.summary()),
             ("recommended", "Recommended settings", self.recommended()),
             ("alternatives", "Alternatives", self.alternatives()),
+            ("maps", "Maps around the recommendation", self.maps()),
             ("confirmation", "Confirmation runs", self.confirmation()),
             ("targets", "Targets", self.targets()),
             ("models", "What drives each response", self.models()),

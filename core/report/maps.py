@@ -224,19 +224,24 @@ def residual_table(model) -> pd.DataFrame:
     Columns ``run``, ``order`` (position in the data file), ``observed``,
     ``fitted``, ``residual`` (modelling scale), ``studentized``,
     ``studentized_deleted``, ``leverage``, ``cooks_distance``, ``flagged``
-    and ``quantile``: the standard normal quantile of the studentized
-    residual's rank, ``Phi^-1((i - 0.5) / n)`` (common practice).
+    and ``quantile``: the standard normal quantile of the deleted studentized
+    residual's rank, ``Phi^-1((i - 0.5) / n)`` (common practice). The quantile
+    plot shows the deleted studentized residual, the value runs are flagged
+    on (beyond +-3), so a flagged run sits beyond +-3 in the plot too. When it
+    does not exist (no spare degrees of freedom) the column falls back to the
+    internally studentized residual, then to the raw residual.
     """
     from scipy import stats
 
     diag = model.diagnostics_.reset_index()
     diag.insert(1, "order", np.arange(1, len(diag) + 1))
-    values = diag["studentized"].to_numpy(float)
-    if np.isnan(values).all():
-        values = diag["residual"].to_numpy(float)
+    values = diag["studentized_deleted"].to_numpy(float)
+    for fallback in ("studentized", "residual"):
+        if np.isnan(values).all():
+            values = diag[fallback].to_numpy(float)
     ranks = pd.Series(values).rank(method="first").to_numpy()
     diag["quantile"] = stats.norm.ppf((ranks - 0.5) / len(diag))
-    diag["studentized"] = values
+    diag["studentized_deleted"] = values
     return diag
 
 

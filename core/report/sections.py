@@ -213,7 +213,7 @@ class _AnswerSections(_Sections):
             return self._no_confirmation()
         out = [f"<p>{len(check.runs)} confirmation run(s) were made at chosen settings. "
                "Each measured value (or the mean of the runs at the same settings) is "
-               f"compared with the model's {_pct(check.confidence)} prediction interval "
+               f"compared with the model's {check.confidence:.0%} prediction interval "
                "for that many new runs. Inside the interval: the model predicted what "
                "was made. Outside: the model misses something there.</p>"]
         rows = []

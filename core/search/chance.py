@@ -25,7 +25,31 @@ import pandas as pd
 
 from .desirability import limits
 
-__all__ = ["ChanceEstimate", "residual_correlation", "chance_in_limits"]
+__all__ = ["ChanceEstimate", "residual_correlation", "chance_in_limits", "chance_text",
+           "CHANCE_RULE"]
+
+CHANCE_RULE = ("Chances are shown in percent with one decimal; an estimate above 99.9 % "
+               "shows as '> 99.9 %' and one below 0.1 % as '< 0.1 %', because a Monte "
+               "Carlo estimate from a fitted model is never a certainty.")
+
+
+def chance_text(p) -> str:
+    """A chance as every view, report and command shows it (see ``CHANCE_RULE``).
+
+    >>> chance_text(0.9984), chance_text(0.12345), chance_text(1.0), chance_text(0.0)
+    ('99.8 %', '12.3 %', '> 99.9 %', '< 0.1 %')
+    """
+    if p is None:
+        return "-"
+    p = float(p)
+    if not np.isfinite(p):
+        return "-"
+    percent = 100.0 * p
+    if percent >= 99.95:
+        return "> 99.9 %"
+    if percent < 0.05:
+        return "< 0.1 %"
+    return f"{percent:.1f} %"
 
 
 @dataclass(frozen=True)

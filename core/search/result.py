@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .chance import chance_in_limits
+from .chance import chance_in_limits, chance_text
 from .mixture import bound_warnings
 from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
@@ -256,9 +256,9 @@ class OptimizationResult:
                 head = ("Most likely to hold in production" if s.rank == 1 else
                         "Best balance" if s.d_given_up == 0 else f"Alternative {s.rank - 1}")
             chance = "" if s.chance_all is None else \
-                f", chance all within limits {s.chance_all:.0%}"
+                f", chance all within limits {chance_text(s.chance_all)}"
             if s.chance_all_production is not None:
-                chance += f", in production {s.chance_all_production:.0%}"
+                chance += f", in production {chance_text(s.chance_all_production)}"
             gave = f" (gives up {s.d_given_up:.3f} of D)" if s.d_given_up > 0 else ""
             lines.append(f"\n{head} ({s.label}): overall desirability D = "
                          f"{s.desirability:.3f}{gave}{chance}")
@@ -270,17 +270,17 @@ class OptimizationResult:
                 lines.append(f"  {name:<18} {shown:>12}   " + (
                     f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
-                         f"{'prediction interval':>23} {'chance':>7}"
+                         f"{'prediction interval':>23} {'chance':>8}"
                          + (f" {'spread SD':>10} {'shift':>9}" if spread else ""))
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
-                ch = "-" if o.chance_in_limits is None else f"{o.chance_in_limits:.0%}"
+                ch = chance_text(o.chance_in_limits)
                 pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
                 extra = ""
                 if spread:
                     extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
                              f"{_g_or_dash(o.mean_shift, signed=True):>9}")
-                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>7}"
+                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>8}"
                              + extra)
             for name, d in s.factor_desirability.items():
                 lines.append(f"  factor goal {name}: d = {d:.3f}")

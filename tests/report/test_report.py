@@ -68,14 +68,24 @@ def tire():
 
 def test_demo_page_has_every_section(demo):
     study, result, page, _ = demo
-    for section in ("summary", "recommended", "alternatives", "confirmation", "targets",
-                    "models", "design", "warnings", "cautions", "reproduce"):
+    for section in ("summary", "recommended", "alternatives", "maps", "confirmation",
+                    "targets", "models", "design", "warnings", "cautions", "reproduce"):
         assert f'<section id="{section}">' in page
     for caution in CAUTIONS:
         assert caution in page
     assert "does not replace a shelf-life study" in page
-    # one effects chart per modelled response, one curve per goal (5 responses + protein)
-    assert page.count("<svg") == 5 + 6
+    # one curve per goal (5 responses + protein); the maps: the limits map and D's
+    # lines, one slice chart per factor (4); per modelled response its effects and,
+    # when it has a clear two-factor interaction, the model's interaction chart
+    def section(key):
+        start = page.index(f'<section id="{key}">')
+        return page[start:page.index("</section>", start)]
+
+    assert section("targets").count("<svg") == 6
+    assert section("maps").count("<svg") == 2 + 4
+    models = section("models")
+    clear = models.count("Largest clear interaction")
+    assert models.count("<svg") == 5 + clear and clear >= 1
     # the exact study specification and the provenance block
     assert "[[responses]]" in page and 'name = &quot;hardness_fresh&quot;' in page
     sha = hashlib.sha256(DEMO.read_bytes()).hexdigest()
@@ -116,7 +126,7 @@ def test_numbers_match_the_cli_json(demo, capsys):
         for name, o in sol["responses"].items():
             assert f"{o['predicted']:.4g}" in text
             assert f"{o['pi'][0]:.4g} .. {o['pi'][1]:.4g}" in text
-            assert f"{o['chance_in_limits']:.0%}" in text
+            assert tradeoff.chance_text(o["chance_in_limits"]) in text
         for name, value in sol["settings"].items():
             shown_value = value if isinstance(value, str) else f"{value:.4g}"
             assert shown_value in text

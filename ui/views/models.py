@@ -10,6 +10,7 @@ from tradeoff.report.maps import (effect_lines, effect_table, half_normal_table,
 from tradeoff.study.spec import MODELS
 from tradeoff.model.terms import model_terms
 from tradeoff_ui import cached, charts, text
+from tradeoff_ui.shown import blank_none, num, p_text
 
 ss = st.session_state
 OWN = "my own choice of terms"
@@ -32,16 +33,15 @@ candidates = [t.label for t in model_terms("full", study.factor_names)[0]
               if t.label != "intercept"]
 with st.container(border=True):
     st.markdown("**Model terms**")
-    left, right = st.columns([2, 1])
     options = list(MODELS) + [OWN]
-    choice = left.selectbox(
+    choice = st.selectbox(
         "Start from", options,
         index=options.index(current) if isinstance(current, str) else len(MODELS),
         help="main: one effect per factor; interactions: plus every pair; full: every "
              "combination; quadratic: plus squares (needs three or more settings).",
         key=f"m_model.{name}")
     if choice == OWN:
-        own = left.multiselect("Terms", candidates,
+        own = st.multiselect("Terms", candidates,
                                default=[t for t in (current if not isinstance(current, str)
                                                     else candidates[:len(study.factors)])
                                         if t in candidates],
@@ -49,9 +49,11 @@ with st.container(border=True):
         wanted = tuple(own)
     else:
         wanted = choice
-    reduce = right.checkbox("Keep only the terms that matter (backward reduction, "
-                            "keeping the hierarchy)", value=name in ss["reduce"],
-                            key=f"m_reduce.{name}")
+    reduce = st.checkbox("Keep only the terms that matter", value=name in ss["reduce"],
+                         help="Backward reduction: the least clear term is dropped "
+                              "again and again while it is within the noise; a term "
+                              "stays while a higher term contains it (the hierarchy).",
+                         key=f"m_reduce.{name}")
 
 if wanted != current and wanted != ():
     ss["models"] = {**ss["models"], name: wanted}
@@ -137,41 +139,49 @@ b = b_col.selectbox("Second factor", [n for n in numeric_or_all if n != a], inde
 try:
     ab = interaction_means(study, name, a, b)
     ba = interaction_means(study, name, b, a)
+    model_ab = cached.model_interaction(study, fitted, name, a, b)
+    model_ba = cached.model_interaction(study, fitted, name, b, a)
 except TradeoffError as exc:
     st.error(text.plain(exc))
 else:
-    st.caption("Mean measured response at each low/high combination (centre points left "
-               "out). Parallel lines: no interaction; lines that cross or fan out: the "
-               "effect of one factor depends on the other.")
+    st.caption(f"Lines: the model's prediction at the low and high ends, the other "
+               f"factors at their centre, with {study.confidence:.0%} confidence intervals "
+               "of the mean, so the chart agrees with the equation. Open circles: the "
+               "measured means of the runs at those ends (centre points left out). "
+               "Parallel lines: no interaction; lines that cross or fan out: the effect "
+               "of one factor depends on the other.")
     p1, p2 = st.columns(2)
     y_title = charts.titled(response.label, response.unit)
-    p1.altair_chart(charts.interaction_chart(ab, study.factor(a).display(),
+    p1.altair_chart(charts.interaction_chart(ab, model_ab, study.factor(a).display(),
                                              study.factor(b).display(), y_title),
                     width="stretch")
-    p2.altair_chart(charts.interaction_chart(ba, study.factor(b).display(),
+    p2.altair_chart(charts.interaction_chart(ba, model_ba, study.factor(b).display(),
                                              study.factor(a).display(), y_title),
                     width="stretch")
 
 st.subheader("Residuals: what the model leaves unexplained")
 st.caption("Look for patterns: a funnel against the fitted value suggests a transform; "
            "a curve in the quantile plot suggests non-normal errors; a trend in run "
-           "order suggests drift. Dark points are runs with a studentized residual "
-           "beyond ±3.")
-st.altair_chart(charts.residual_charts(residual_table(model), unit), width="content")
+           "order suggests drift. Dark points are runs whose deleted studentized "
+           "residual (the value the quantile plot shows) is beyond ±3 (dashed lines).")
+for col, chart in zip(st.columns(3), charts.residual_charts(residual_table(model), unit)):
+    col.altair_chart(chart, width="stretch")
 
 with st.expander("Coefficients, analysis of variance and the equation"):
     coef = pd.DataFrame({"term": report["terms"],
-                         "coefficient (coded)": [report["coefficients"][t]
+                         "coefficient (coded)": [num(report["coefficients"][t])
                                                  for t in report["terms"]]})
     if report["std_errors"]:
-        coef["std. error"] = [report["std_errors"][t] for t in report["terms"]]
-        coef["p-value"] = [report["p_values"][t] for t in report["terms"]]
-    st.dataframe(coef, hide_index=True)
-    anova = pd.DataFrame([{"source": k.replace("_", " "), **{c: v.get(c) for c in
-                                                            ("ss", "df", "ms", "f", "p")}}
+        coef["std. error"] = [num(report["std_errors"][t]) for t in report["terms"]]
+        coef["p-value"] = [p_text(report["p_values"][t]) for t in report["terms"]]
+    # every row shown: no inner scroll hiding the last terms
+    st.dataframe(coef, hide_index=True, height=35 * (len(coef) + 1) + 3)
+    anova = pd.DataFrame([{"source": k.replace("_", " "),
+                           **{c: (p_text(v.get(c)) if c == "p" else num(v.get(c)))
+                              for c in ("ss", "df", "ms", "f", "p")}}
                           for k, v in report["anova"].items()
                           if isinstance(v, dict) and k != "curvature"])
-    st.dataframe(anova, hide_index=True)
+    st.dataframe(blank_none(anova), hide_index=True, height=35 * (len(anova) + 1) + 3)
     curvature = report["anova"].get("curvature")
     if curvature:
         st.write(f"Curvature check: centre points average {curvature['centre_mean']:.4g}, "
@@ -183,6 +193,7 @@ with st.expander("Coefficients, analysis of variance and the equation"):
         st.json(report["aliases"])
     if report["natural_coefficients"]:
         st.write("The equation in natural units (categorical factors coded -1/+1):")
-        st.dataframe(pd.DataFrame({"term": list(report["natural_coefficients"]),
-                                   "coefficient": list(report["natural_coefficients"]
-                                                       .values())}), hide_index=True)
+        natural = report["natural_coefficients"]
+        st.dataframe(pd.DataFrame({"term": list(natural),
+                                   "coefficient": [num(v, 6) for v in natural.values()]}),
+                     hide_index=True, height=35 * (len(natural) + 1) + 3)

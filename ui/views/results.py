@@ -6,7 +6,9 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
+from tradeoff.search.chance import CHANCE_RULE, chance_text
 from tradeoff_ui import cached, charts, text
+from tradeoff_ui.shown import num, span
 
 ss = st.session_state
 
@@ -59,24 +61,22 @@ st.subheader("Best settings and alternatives")
 st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance all within "
            "limits' is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
-           "the runs showed.")
-shown = table.rename(columns={n: f"{n} ({u})" if u else n for n, u in units.items()})
+           "the runs showed. " + CHANCE_RULE)
+shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
+                      "chance all within limits": table["chance_all"].map(chance_text)})
 if "chance_all_production" in table:
     st.caption("'Chance in production' also lets each factor stray from its setting by its "
                "production spread: " + ", ".join(
                    f"{text.plain(k)} SD {v:g}" for k, v in result.production_sd.items())
                + ". 'D given up' is how much lower D is than at the best balance.")
-st.dataframe(shown, hide_index=True, key="r_solutions",
-             column_config={"D": st.column_config.NumberColumn(format="%.3f"),
-                            "chance_all": st.column_config.NumberColumn(
-                                "chance all within limits", format="percent"),
-                            "chance_all_production": st.column_config.NumberColumn(
-                                "chance in production", format="percent"),
-                            "d_given_up": st.column_config.NumberColumn(
-                                "D given up", format="%.3f"),
-                            **{(f"{n} ({u})" if u else n): st.column_config.NumberColumn(
-                                format="%.4g") for n, u in units.items()
-                               if n in numeric}})
+    shown["chance in production"] = table["chance_all_production"].map(chance_text)
+if "d_given_up" in table:
+    shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
+for f in study.factors:
+    title = f"{f.name} ({f.unit})" if f.unit else f.name
+    shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
+shown["outside limits"] = table["out_of_limits"]
+st.dataframe(shown, hide_index=True, key="r_solutions")
 
 labels = [s.label for s in result.solutions]
 chosen_label = st.selectbox("Look closer at", labels,
@@ -84,29 +84,27 @@ chosen_label = st.selectbox("Look closer at", labels,
 ss["chosen"] = labels.index(chosen_label)
 chosen = result.solutions[ss["chosen"]]
 
+pct = f"{study.confidence:.0%}"
 rows = []
 for name, o in chosen.responses.items():
     r = study.response(name)
-    rows.append({"response": r.display(), "goal": o.goal, "predicted": o.predicted,
-                 "mean from": o.ci[0], "mean to": o.ci[1],
-                 "one batch from": o.pi[0], "one batch to": o.pi[1],
-                 "desirability": o.desirability, "chance within limits": o.chance_in_limits})
+    rows.append({"response": r.display(), "predicted": num(o.predicted),
+                 f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
+                 "desirability": num(o.desirability, 3),
+                 "chance within limits": chance_text(o.chance_in_limits)})
     if o.transmitted_sd is not None:
-        rows[-1].update({"spread SD in production": o.transmitted_sd,
-                         "mean shift": o.mean_shift})
+        rows[-1].update({"spread SD in production": num(o.transmitted_sd),
+                         "mean shift": num(o.mean_shift)})
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
             + ("" if chosen.chance_all is None else
                f", chance that every response lands within its limits: "
-               f"**{chosen.chance_all:.1%}**")
+               f"**{chance_text(chosen.chance_all)}**")
             + ("" if chosen.chance_all_production is None else
-               f"; in production: **{chosen.chance_all_production:.1%}**"))
-st.caption(f"'mean from/to' is the {study.confidence:.0%} confidence interval of the "
-           "average of many batches; 'one batch from/to' is the prediction interval for a "
-           "single new batch (wider, because one batch scatters).")
-st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions",
-             column_config={"chance within limits": st.column_config.NumberColumn(
-                 format="percent"), "desirability": st.column_config.NumberColumn(
-                 format="%.3f")})
+               f"; in production: **{chance_text(chosen.chance_all_production)}**"))
+st.caption(f"'mean' is the {pct} confidence interval of the average of many batches; "
+           f"'one batch' is the prediction interval for a single new batch (wider, "
+           "because one batch scatters).")
+st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions")
 for w in (*chosen.warnings, *result.warnings):
     st.warning(text.plain(w))
 for name, reason in fitted.skipped.items():
@@ -117,39 +115,87 @@ if result.assumptions:
 
 # -- maps ---------------------------------------------------------------------------------
 st.subheader("Maps over two factors")
+best = result.solutions[0]
 if len(numeric) < 2:
     st.caption("Maps need two numeric factors.")
 else:
-    what_options = ["D"] + list(fitted.models)
+    has_d = bool(fitted.models) and any(r.goal.active for r in study.responses)
+    what_options = (["limits", "D"] if has_d else []) + list(fitted.models)
+    what_labels = {"limits": "every limit at once", "D": "overall desirability D"}
     m1, m2, m3 = st.columns(3)
     shown_value = m1.selectbox("Show", what_options, key="r_map_value",
-                               format_func=lambda n: "overall desirability D" if n == "D"
-                               else study.response(n).display())
+                               format_func=lambda n: what_labels.get(n) or
+                               study.response(n).display())
     x = m2.selectbox("Across", numeric, index=0, key="r_map_x",
                      format_func=lambda n: study.factor(n).display())
     y = m3.selectbox("Up", [n for n in numeric if n != x], index=0, key="r_map_y",
                      format_func=lambda n: study.factor(n).display())
     held = {k: v for k, v in chosen.settings.items() if k not in (x, y)}
+    fx, fy = study.factor(x), study.factor(y)
+    marks = pd.DataFrame({"what": [f"{best.label} (recommended)"],
+                          "x": [best.settings[x]], "y": [best.settings[y]]})
+    if chosen is not best:
+        marks.loc[1] = [f"{chosen.label} (chosen)", chosen.settings[x], chosen.settings[y]]
     try:
-        grid = cached.contour(study, fitted, x, y, chosen.settings)
+        if shown_value == "limits":
+            lmap = cached.limits_map(study, fitted, x, y, held)
+            d_lines = cached.contour_lines(study, fitted, "D", x, y, held) if has_d else None
+        else:
+            grid = cached.contour(study, fitted, x, y, chosen.settings)
+            lines = cached.contour_lines(study, fitted, shown_value, x, y, held)
     except TradeoffError as exc:
         st.error(text.plain(exc))
     else:
-        fx, fy = study.factor(x), study.factor(y)
-        title = "D" if shown_value == "D" else charts.titled(
-            study.response(shown_value).label, study.response(shown_value).unit)
-        marker = pd.DataFrame({"x": [chosen.settings[x]], "y": [chosen.settings[y]]})
-        st.altair_chart(charts.contour_chart(grid, shown_value, title, fx.display(),
-                                             fy.display(), marker, n=41), width="stretch")
-        st.caption("Held at " + text.plain(", ".join(
-            f"{k} = {v if isinstance(v, str) else format(v, '.4g')}"
-            for k, v in held.items()))
-            + f". Grey veil: some response is predicted outside its limits (or a rule "
-              f"among factors is broken). Cross: {text.plain(chosen.label)}.")
+        held_text = text.plain(", ".join(
+            f"{k} = {v if isinstance(v, str) else format(v, '.4g')}" for k, v in held.items()))
+        if shown_value == "limits":
+            titles = {r.name: r.display() for r in study.responses}
+            st.altair_chart(charts.limits_chart(lmap, titles, fx.display(), fy.display(),
+                                                marks, d_lines), width="stretch")
+            st.caption(f"Held at {held_text}. Each line is one response's limit, in that "
+                       "response's colour and dash, with short ticks on the side where the "
+                       "limit fails. The thick grey outline surrounds the settings where "
+                       f"every limit (and every rule among factors) holds: "
+                       f"{lmap.share:.0%} of this map. Faint dotted lines: D.")
+        else:
+            title = "D" if shown_value == "D" else charts.titled(
+                study.response(shown_value).label, study.response(shown_value).unit)
+            st.altair_chart(charts.contour_chart(grid, lines, shown_value, title,
+                                                 fx.display(), fy.display(), marks),
+                            width="stretch")
+            st.caption(f"Held at {held_text}. Each line joins settings with the same "
+                       f"predicted {'D' if shown_value == 'D' else 'value'}; the number "
+                       "on it is that value.")
+
+# -- slices -------------------------------------------------------------------------------
+st.subheader("Along each factor")
+st.caption(f"One factor moves across its searched range; every other factor stays at "
+           f"{text.plain(chosen.label)}. Band: where one new batch is expected ({pct} prediction "
+           "interval); dashed lines: the limits; the upright line marks the current setting.")
+try:
+    along = cached.slices(study, fitted, chosen.settings)
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+else:
+    factor = st.selectbox("Factor", study.factor_names, key="r_slice_factor",
+                          format_func=lambda n: study.factor(n).display())
+    part = along[along["factor"] == factor]
+    names = list(dict.fromkeys(part["response"]))
+    cols = st.columns(3)
+    for i, name in enumerate(names):
+        title = ("overall desirability D" if name == "D" else
+                 study.response(name).display())
+        cols[i % 3].altair_chart(charts.slice_chart(part[part["response"] == name], title,
+                                                    study.factor(factor).display()),
+                                 width="stretch")
 
 # -- what-if ------------------------------------------------------------------------------
 st.subheader("What if I make it like this?")
 st.caption("Set the factors by hand; predictions update with their intervals.")
+if ss["whatif_from"] != chosen.label:
+    # another solution was chosen: start the panel from it, as its button says
+    ss["whatif"], ss["whatif_nonce"] = {}, ss["whatif_nonce"] + 1
+    ss["whatif_from"] = chosen.label
 nonce = ss["whatif_nonce"]
 if st.button(f"Start from {text.plain(chosen.label)}", key="r_whatif_reset"):
     ss["whatif"], ss["whatif_nonce"] = {}, nonce + 1
@@ -163,9 +209,9 @@ for col, f in zip(cols, study.factors):
         settings[f.name] = col.selectbox(text.plain(f.display()), list(f.levels),
                                          index=list(f.levels).index(start), key=key)
     else:
-        span = f.high - f.low
+        step = (f.high - f.low) / 20
         settings[f.name] = col.number_input(text.plain(f.display()), value=float(start),
-                                            step=float(span / 20), format="%.4g", key=key)
+                                            step=float(step), format="%.4g", key=key)
 ss["whatif"] = settings
 try:
     answer = cached.what_if(study, fitted, settings)
@@ -178,14 +224,14 @@ else:
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")
     st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{answer.chance_all:.1%}**")
-    shown = answer.table.assign(response=[study.response(n).display()
-                                          for n in answer.table["response"]])
-    st.dataframe(shown.rename(columns={
-        "ci_low": "mean from", "ci_high": "mean to", "pi_low": "one batch from",
-        "pi_high": "one batch to", "lower_limit": "lower limit",
-        "upper_limit": "upper limit", "chance_in_limits": "chance within limits"}),
-        hide_index=True, key="r_whatif_table",
-        column_config={"chance within limits": st.column_config.NumberColumn(
-            format="percent"), "desirability": st.column_config.NumberColumn(
-            format="%.3f")})
+                f"within its limits: **{chance_text(answer.chance_all)}**")
+    t = answer.table
+    st.dataframe(pd.DataFrame({
+        "response": [study.response(n).display() for n in t["response"]],
+        "predicted": t["predicted"].map(num),
+        f"mean ({pct})": [span(a, b) for a, b in zip(t["ci_low"], t["ci_high"])],
+        f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
+        "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
+        "desirability": t["desirability"].map(lambda v: num(v, 3)),
+        "chance within limits": t["chance_in_limits"].map(chance_text)}),
+        hide_index=True, key="r_whatif_table")

@@ -3,12 +3,14 @@ from __future__ import annotations
 
 import hashlib
 
+import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
 from tradeoff_ui import cached, state, text
+from tradeoff_ui.shown import blank_none
 
 ss = st.session_state
 
@@ -86,7 +88,16 @@ if ss["open_error"]:
 # -- call the library ---------------------------------------------------------
 try:
     study = cached.current_study()
-    table = cached.runs_table(study)
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+    st.stop()
+try:
+    # with the models, unusual results are marked exactly as the report marks them
+    fitted = cached.fit(study)
+except TradeoffError:
+    fitted = None  # the runs still show, marked for the box and blanks only
+try:
+    table = cached.runs_table(study, fitted)
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
@@ -98,30 +109,42 @@ if study.description:
 for note in study.notes:
     st.warning(text.plain(note))
 
-left, right = st.columns(2)
-with left:
-    st.subheader("Factors (what you set)")
-    st.dataframe([{"factor": f.name, "label": f.label, "unit": f.unit,
-                   "coded -1": f.levels[0] if f.is_categorical else f"{f.low:g}",
-                   "coded +1": f.levels[1] if f.is_categorical else f"{f.high:g}"}
-                  for f in study.factors], hide_index=True)
-with right:
-    st.subheader("Responses (what you measured)")
-    st.dataframe([{"response": r.name, "label": r.label, "unit": r.unit,
-                   "goal": r.goal.kind,
-                   "measured runs": int(study.runs[r.name].notna().sum())
-                   if r.name in study.runs else 0}
-                  for r in study.responses], hide_index=True)
+st.subheader("Factors (what you set)")
+st.dataframe(blank_none(pd.DataFrame(
+    [{"factor": f.name, "label": f.label, "unit": f.unit or "",
+      "coded -1": f.levels[0] if f.is_categorical else f"{f.low:g}",
+      "coded +1": f.levels[1] if f.is_categorical else f"{f.high:g}"}
+     for f in study.factors])), hide_index=True)
+st.subheader("Responses (what you measured)")
+st.dataframe(blank_none(pd.DataFrame(
+    [{"response": r.name, "label": r.label, "unit": r.unit or "", "goal": r.goal.kind,
+      "measured runs": int(study.runs[r.name].notna().sum()) if r.name in study.runs else 0}
+     for r in study.responses])), hide_index=True)
+
+
+def _short(marks: str) -> str:
+    """One word per kind of mark; the full text is listed under the table."""
+    kinds = {"unusual" if m.startswith("unusual") else "outside the box"
+             if m.startswith("outside") else "blank" for m in marks.split("; ") if m}
+    return ", ".join(sorted(kinds))
+
 
 st.subheader(f"The {len(table)} runs")
-marked = int((table["marks"] != "").sum())
-st.write("Each factor appears twice: as set, and in coded units (-1 at its low "
-         "setting, +1 at its high, 0 at the centre). "
-         + (f"**{marked} run(s) carry a mark** (last column)." if marked else
-            "No run is outside the tested box or has a blank result."))
-st.dataframe(
-    table, height=min(38 * (len(table) + 1), 600),
-    column_config={**{f"{f.name} coded": st.column_config.NumberColumn(format="%+.2f")
-                      for f in study.factors},
-                   "outside": st.column_config.CheckboxColumn("outside the box"),
-                   "marks": st.column_config.TextColumn("marks", width="large")})
+marked = table[table["marks"] != ""]
+st.write("Settings as made and responses as measured. "
+         + (f"**{len(marked)} run(s) carry a mark**, listed under the table."
+            if len(marked) else "No run is outside the tested box, has a blank result "
+            "or an unusual one."))
+factors = [f.name for f in study.factors]
+responses = [r.name for r in study.responses if r.name in table]
+main = table[["run", *factors, *responses]].assign(mark=table["marks"].map(_short))
+rows = min(len(main), 40)  # up to 40 runs show whole; longer tables scroll
+st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
+             column_config={"mark": st.column_config.TextColumn("mark")})
+for _, row in marked.iterrows():
+    st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(row['marks'])}")
+with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"):
+    coded = table[["run", *[f"{f} coded" for f in factors]]]
+    st.dataframe(coded, hide_index=True, height=35 * (rows + 1) + 3,
+                 column_config={f"{f} coded": st.column_config.NumberColumn(format="%+.2f")
+                                for f in factors})

@@ -1,0 +1,118 @@
+"""The page's maps: the limits map and D's contour lines around the recommendation,
+slices through it along each factor, and the model's interaction charts.
+
+Everything is drawn from the tidy tables of ``contours`` and ``slices`` by the
+drawings of ``pictures``, rendered to inline SVG (no browser, no network).
+Only what the page shows is computed: one pair of maps over the first two
+numeric factors, one slice chart per factor, and for each response its
+largest clear interaction.
+"""
+from __future__ import annotations
+
+import pandas as pd
+
+from .charts import _chart_div, _svg
+from .data import _get, _is_clear
+from .sections import _Sections, esc
+
+__all__ = ["_MapSections"]
+
+
+class _MapSections(_Sections):
+    """Renders the maps, slices and interaction charts."""
+
+    def _study_fit(self):
+        from ..model.study_fit import StudyFit
+
+        return StudyFit(study=self.study, models=dict(self.data["fitted"]),
+                        skipped=dict(self.data["skipped"]))
+
+    def maps(self) -> str:
+        if self.res is None:
+            return "<p>No maps: there is no recommendation to draw them around.</p>"
+        from .contours import contour_lines, limits_map
+        from .pictures import contour_picture, limits_picture
+
+        best = self.res["best"]
+        settings = best["settings"]
+        numeric = [f for f in self.study.factors if not f.is_categorical]
+        out = []
+        if len(numeric) >= 2:
+            fx, fy = numeric[0], numeric[1]
+            held = {k: v for k, v in settings.items() if k not in (fx.name, fy.name)}
+            fit = self._study_fit()
+            lmap = limits_map(self.study, fx.name, fy.name, fixed=held, fit=fit)
+            d_lines = contour_lines(self.study, "D", fx.name, fy.name, fixed=held, fit=fit)
+            marks = pd.DataFrame({"what": [f"{best['label']} (recommended)"],
+                                  "x": [settings[fx.name]], "y": [settings[fy.name]]})
+            titles = {r.name: r.display() for r in self.study.responses}
+            held_text = ", ".join(f"{esc(k)} = {esc(self._setting(k, v))}"
+                                  for k, v in held.items())
+            out.append(f"<p>Over {esc(fx.display())} and {esc(fy.display())}, the other "
+                       f"factors held at the recommendation ({held_text}).</p>")
+            out.append('<div class="charts">')
+            out.append(_chart_div(_svg(limits_picture(
+                lmap, titles, fx.display(), fy.display(), marks, height=360, width=430))))
+            out.append(_chart_div(_svg(contour_picture(
+                lmap.grid, d_lines, "D", "overall desirability D", fx.display(),
+                fy.display(), marks, height=360, width=430))))
+            out.append("</div>")
+            out.append(f'<p class="note">Left: each line is one response\'s limit, in its '
+                       "colour and dash, with short ticks on the side where the limit fails; "
+                       "the thick grey outline surrounds the settings where every limit "
+                       f"holds ({lmap.share:.0%} of the map); faint dotted lines: D. Right: "
+                       "lines of equal overall desirability D, each labelled with its "
+                       "value.</p>")
+        else:
+            out.append("<p>Maps need two numeric factors.</p>")
+        out.append(self._slices(settings, best["label"]))
+        return "".join(out)
+
+    def _slices(self, settings: dict, label: str) -> str:
+        from .pictures import slices_picture
+        from .slices import slices
+
+        table = slices(self.study, settings, fit=self._study_fit(), n=31)
+        if table.empty:
+            return ""
+        titles = {r.name: r.display() for r in self.study.responses
+                  if r.name in self.data["fitted"]}
+        if (table["response"] == "D").any():
+            titles["D"] = "overall desirability D"
+        charts = [_chart_div(_svg(slices_picture(table, f.name, titles, f.display(),
+                                                  width=190, height=70)))
+                  for f in self.study.factors]
+        return (f"<h3>Along each factor, through {esc(label)}</h3>"
+                f"<p class='note'>One factor moves across its searched range while the "
+                f"others stay at {esc(label)}. Band: where one new batch is expected "
+                f"({self.pct} prediction interval); dashed lines: the limits; the upright "
+                "line marks the recommended setting.</p>"
+                '<div class="charts">' + "".join(charts) + "</div>")
+
+    def interaction_chart(self, name: str, rep: dict, alpha: float) -> str:
+        """The model's chart of a response's largest clear two-factor interaction."""
+        from .maps import interaction_means
+        from .pictures import interaction_picture
+        from .slices import model_interaction
+
+        pairs = []
+        for term in rep["terms"]:
+            parts = term.split(":")
+            if len(parts) != 2 or not _is_clear(rep, term, alpha):
+                continue
+            effect = _get(rep["effects"], term)
+            if effect is not None:
+                pairs.append((abs(effect), parts))
+        if not pairs:
+            return ""
+        a, b = max(pairs)[1]
+        fa, fb = self.study.factor(a), self.study.factor(b)
+        r = self.study.response(name)
+        model = model_interaction(self.study, name, a, b, fit=self._study_fit())
+        cells = interaction_means(self.study, name, a, b)
+        y_title = f"{r.label} ({r.unit})" if r.unit else r.label
+        chart = interaction_picture(cells, model, fa.display(), fb.display(), y_title,
+                                    height=200, width=260)
+        return (f"<p><b>Largest clear interaction: {esc(a)} with {esc(b)}</b> (lines: the "
+                f"model, others at their centre, with {self.pct} intervals of the mean; "
+                "open circles: measured means)</p>" + _chart_div(_svg(chart)))

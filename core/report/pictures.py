@@ -1,0 +1,311 @@
+"""Altair drawings of the maps and slices, shared by the workbench and the report.
+
+Drawing only: every number comes from the tidy tables of
+``tradeoff.report.contours`` and ``tradeoff.report.slices``. The look is our
+own: lines with their values written on them over a light wash, limits as
+labelled lines with short ticks on the failing side, the region where every
+limit holds outlined in black, so the maps read in black-and-white print.
+Altair is imported inside each function (``import tradeoff`` stays light).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["LINE_COLOURS", "LINE_DASHES", "contour_picture", "limits_picture",
+           "slice_panel", "slices_picture", "interaction_picture"]
+
+# One colour and one dash pattern per response, so lines part in grey print too.
+LINE_COLOURS = ["#1b6f8a", "#b5651d", "#6a3d9a", "#2e7d4f", "#a8322d", "#4f5b66",
+                "#8c6d1f", "#c2417a"]
+LINE_DASHES = [[1, 0], [7, 3], [2, 2], [9, 3, 2, 3], [4, 2], [12, 4], [1, 3], [6, 2, 1, 2]]
+INK, REGION = "#23262b", "#111111"
+# the wash runs from cream (low) to pale teal (high): light enough to keep the
+# lines and their labels the map's main message
+WASH = ["#fbf6e9", "#a9cfcb"]
+
+
+def _fmt(value: float) -> str:
+    return f"{value:.4g}"
+
+
+def _label_points(lines: pd.DataFrame, key: str = "line") -> pd.DataFrame:
+    """One label position per polyline, staggered along neighbouring lines (at
+    a half, a third, two thirds of the way) so crowded labels part."""
+    if lines.empty:
+        return lines.iloc[0:0]
+    pos = lines.groupby(key, sort=False).cumcount()
+    size = lines.groupby(key, sort=False)[key].transform("size")
+    share = np.array([0.5, 0.3, 0.7])[lines[key].to_numpy(int) % 3]
+    return lines[pos == (size * share).astype(int)]
+
+
+def _order(lines: pd.DataFrame) -> pd.DataFrame:
+    return lines.assign(i=lines.groupby("line", sort=False).cumcount())
+
+
+def _marks_layer(alt, marks: pd.DataFrame | None):
+    """The recommendation (diamond) and the chosen solution (cross), with a legend."""
+    if marks is None or marks.empty:
+        return []
+    shapes = alt.Scale(domain=list(marks["what"]),
+                       range=["diamond", "cross", "circle", "square"][:len(marks)])
+    halo = alt.Chart(marks).mark_point(size=260, filled=True, color="white",
+                                       opacity=0.9).encode(
+        x="x:Q", y="y:Q", shape=alt.Shape("what:N", scale=shapes, legend=None))
+    dots = alt.Chart(marks).mark_point(size=150, filled=True, color=INK, opacity=1).encode(
+        x="x:Q", y="y:Q",
+        shape=alt.Shape("what:N", scale=shapes,
+                        legend=alt.Legend(title=None, orient="bottom")),
+        tooltip=["what:N", alt.Tooltip("x:Q", format=".4g"),
+                 alt.Tooltip("y:Q", format=".4g")])
+    return [halo, dots]
+
+
+def _axis(alt):
+    return alt.Axis(tickCount=8, labelOverlap=True, labelFlush=True)
+
+
+def _axes(alt, grid, x_title, y_title):
+    xs = alt.X("x:Q", title=x_title, axis=_axis(alt), scale=alt.Scale(
+        domain=[float(grid["x"].min()), float(grid["x"].max())], zero=False, nice=False))
+    ys = alt.Y("y:Q", title=y_title, axis=_axis(alt), scale=alt.Scale(
+        domain=[float(grid["y"].min()), float(grid["y"].max())], zero=False, nice=False))
+    return xs, ys
+
+
+def _wash(alt, grid, value, value_title, x_title, y_title, n):
+    """The light fill: the grid's cells, faintly coloured by value (no bands)."""
+    xs_u = np.unique(grid["x"].to_numpy(float))
+    ys_u = np.unique(grid["y"].to_numpy(float))
+    dx = (xs_u[-1] - xs_u[0]) / max(len(xs_u) - 1, 1)
+    dy = (ys_u[-1] - ys_u[0]) / max(len(ys_u) - 1, 1)
+    data = grid[["x", "y", value]].rename(columns={value: "v"})
+    # cells overlap a little so no hairline seams show between them
+    data = data.assign(x1=(data["x"] - 0.55 * dx).clip(xs_u[0]),
+                       x2=(data["x"] + 0.55 * dx).clip(upper=xs_u[-1]),
+                       y1=(data["y"] - 0.55 * dy).clip(ys_u[0]),
+                       y2=(data["y"] + 0.55 * dy).clip(upper=ys_u[-1]))
+    return alt.Chart(data).mark_rect(opacity=0.9, stroke=None).encode(
+        x=alt.X("x1:Q", title=x_title, scale=alt.Scale(zero=False, nice=False),
+                axis=_axis(alt)),
+        x2="x2:Q",
+        y=alt.Y("y1:Q", title=y_title, scale=alt.Scale(zero=False, nice=False),
+                axis=_axis(alt)),
+        y2="y2:Q",
+        color=alt.Color("v:Q", scale=alt.Scale(range=WASH), title=value_title,
+                        legend=alt.Legend(orient="bottom", titleLimit=0, gradientLength=220)),
+        tooltip=[alt.Tooltip("x:Q", format=".4g", title=x_title),
+                 alt.Tooltip("y:Q", format=".4g", title=y_title),
+                 alt.Tooltip("v:Q", format=".4g", title=value_title)])
+
+
+def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_title: str,
+                    x_title: str, y_title: str, marks: pd.DataFrame | None = None, *,
+                    height: int = 420, width: int | None = None):
+    """Labelled lines of equal ``value`` over a light wash of the same value.
+
+    ``grid``: columns x, y, ``value`` (``tradeoff.report.maps.contour_grid``).
+    ``lines``: columns level, line, x, y (``contour_lines``). ``marks``:
+    columns what, x, y (the recommendation, the chosen solution).
+    """
+    import altair as alt
+
+    wash = _wash(alt, grid, value, value_title, x_title, y_title, None)
+    xs, ys = _axes(alt, grid, x_title, y_title)
+    layers = [wash]
+    if not lines.empty:
+        drawn = _order(lines)
+        layers.append(alt.Chart(drawn).mark_line(color=INK, strokeWidth=1.4).encode(
+            x=xs, y=ys, detail="line:N", order="i:Q",
+            tooltip=[alt.Tooltip("level:Q", format=".4g", title=value_title)]))
+        labels = _label_points(drawn).assign(text=lambda t: t["level"].map(_fmt))
+        base = alt.Chart(labels).encode(x="x:Q", y="y:Q", text="text:N")
+        layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
+                                  strokeOpacity=0.9),
+                   base.mark_text(fontSize=11, color=INK, fontWeight="bold")]
+    layers += _marks_layer(alt, marks)
+    chart = alt.layer(*layers).resolve_scale(shape="independent").properties(height=height)
+    return chart.properties(width=width) if width else chart
+
+
+def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
+                   marks: pd.DataFrame | None = None, *, d_lines: pd.DataFrame | None = None,
+                   height: int = 420, width: int | None = None):
+    """Each limit as a labelled line in its response's colour, failing-side ticks,
+    the region where every limit holds outlined, D's lines faint behind.
+
+    ``lmap``: a ``LimitsMap``. ``titles``: response name -> short label.
+    ``d_lines``: optional contour lines of D drawn faintly for orientation.
+    """
+    import altair as alt
+
+    grid = lmap.grid
+    xs, ys = _axes(alt, grid, x_title, y_title)
+    lines = lmap.lines
+    names = list(dict.fromkeys(lines["name"])) if not lines.empty else []
+    colours = alt.Scale(domain=names or ["-"],
+                        range=[LINE_COLOURS[i % len(LINE_COLOURS)] for i in
+                               range(max(len(names), 1))])
+    dashes = alt.Scale(domain=names or ["-"],
+                       range=[LINE_DASHES[i % len(LINE_DASHES)] for i in
+                              range(max(len(names), 1))])
+    # an invisible frame fixes the axes to the map's span
+    frame = alt.Chart(pd.DataFrame({"x": [grid["x"].min(), grid["x"].max()],
+                                    "y": [grid["y"].min(), grid["y"].max()]})).mark_point(
+        opacity=0).encode(x=xs, y=ys)
+    layers = [frame]
+    if d_lines is not None and not d_lines.empty:
+        layers.append(alt.Chart(_order(d_lines)).mark_line(
+            color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
+            x="x:Q", y="y:Q", detail="line:N", order="i:Q"))
+    if not lmap.region.empty:
+        layers.append(alt.Chart(_order(lmap.region)).mark_line(
+            color=REGION, strokeWidth=4, opacity=0.55).encode(
+            x="x:Q", y="y:Q", detail="line:N", order="i:Q"))
+    if not lines.empty:
+        drawn = _order(lines).assign(
+            title=lambda t: [titles.get(nm, nm) for nm in t["name"]])
+        legend = alt.Legend(title=None, orient="bottom", columns=3, labelLimit=260,
+                            symbolStrokeWidth=2.5)
+        layers.append(alt.Chart(drawn).mark_line(strokeWidth=2).encode(
+            x="x:Q", y="y:Q", detail="line:N", order="i:Q",
+            color=alt.Color("name:N", scale=colours, legend=legend),
+            strokeDash=alt.StrokeDash("name:N", scale=dashes, legend=legend),
+            tooltip=[alt.Tooltip("title:N", title="response"), "limit:N",
+                     alt.Tooltip("level:Q", format=".4g", title="limit")]))
+        if not lmap.ticks.empty:
+            layers.append(alt.Chart(lmap.ticks).mark_rule(strokeWidth=1.4).encode(
+                x="x:Q", y="y:Q", x2="x2:Q", y2="y2:Q",
+                color=alt.Color("name:N", scale=colours, legend=None)))
+        sign = {"lower": "\u2265", "upper": "\u2264", "rule": ""}
+        labels = _label_points(drawn).assign(
+            text=lambda t: [f"{nm} {sign[lim]} {_fmt(lv)}" if lim != "rule" else nm
+                            for nm, lim, lv in zip(t["name"], t["limit"], t["level"])])
+        base = alt.Chart(labels).encode(x="x:Q", y="y:Q", text="text:N")
+        layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
+                                  strokeOpacity=0.9),
+                   base.mark_text(fontSize=11, fontWeight="bold").encode(
+                       color=alt.Color("name:N", scale=colours, legend=None))]
+    layers += _marks_layer(alt, marks)
+    chart = alt.layer(*layers).resolve_scale(color="independent", shape="independent",
+                                             strokeDash="independent")
+    chart = chart.properties(height=height)
+    return chart.properties(width=width) if width else chart
+
+
+def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 150,
+                width: int | None = None, show_x_title: bool = True):
+    """One response (or D) along one factor: band, line, limits, current setting.
+
+    ``part``: rows of ``slices`` for one factor and one response.
+    """
+    import altair as alt
+
+    categorical = part["value"].isna().all()
+    x_field = "level:N" if categorical else "value:Q"
+    x_enc = (alt.X("level:N", title=x_title if show_x_title else None,
+                   axis=alt.Axis(labelAngle=0)) if categorical else
+             alt.X("value:Q", title=x_title if show_x_title else None,
+                   scale=alt.Scale(zero=False, nice=False)))
+    y_title = None  # the panel's title names it: long names would not fit upright
+    layers = []
+    has_band = part["pi_low"].notna().any()
+    if has_band:
+        if categorical:
+            layers.append(alt.Chart(part).mark_rule(strokeWidth=2, color="#9aa3ad").encode(
+                x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
+                y2="pi_high:Q"))
+        else:
+            layers.append(alt.Chart(part).mark_area(opacity=0.22, color=LINE_COLOURS[0]
+                                                    ).encode(
+                x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
+                y2="pi_high:Q"))
+    y_enc = alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False))
+    mark = (alt.Chart(part).mark_point(filled=True, size=70, color=INK) if categorical else
+            alt.Chart(part).mark_line(color=INK, strokeWidth=2))
+    tip = [alt.Tooltip(x_field, title=x_title),
+           alt.Tooltip("predicted:Q", format=".4g", title="predicted")]
+    if has_band:
+        tip += [alt.Tooltip("pi_low:Q", format=".4g", title="one batch from"),
+                alt.Tooltip("pi_high:Q", format=".4g", title="one batch to")]
+    layers.append(mark.encode(x=x_enc, y=y_enc, tooltip=tip))
+    limit_rows = []
+    for col, name in (("lower_limit", "lower limit"), ("upper_limit", "upper limit")):
+        v = part[col].dropna()
+        if len(v):
+            limit_rows.append({"limit": name, "at": float(v.iloc[0])})
+    if limit_rows:
+        layers.append(alt.Chart(pd.DataFrame(limit_rows)).mark_rule(
+            strokeDash=[5, 3], color=LINE_COLOURS[4], strokeWidth=1.5).encode(
+            y="at:Q", tooltip=["limit:N", alt.Tooltip("at:Q", format=".4g")]))
+    now = part[part["current"]]
+    if len(now):
+        if categorical:
+            layers.append(alt.Chart(now).mark_point(shape="diamond", size=160, filled=True,
+                                                    color=LINE_COLOURS[1]).encode(
+                x=x_enc, y="predicted:Q"))
+        else:
+            layers.append(alt.Chart(now).mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5
+                                                   ).encode(x="value:Q"))
+    chart = alt.layer(*layers).properties(
+        height=height, title=alt.TitleParams(title, anchor="start", fontSize=12,
+                                             fontWeight="normal", limit=0))
+    return chart.properties(width=width) if width else chart
+
+
+def slices_picture(table: pd.DataFrame, factor: str, titles: dict, x_title: str, *,
+                   width: int = 300, height: int = 110):
+    """Every response (and D) along one factor, one panel under another (static pages)."""
+    import altair as alt
+
+    part = table[table["factor"] == factor]
+    panels = [slice_panel(part[part["response"] == name], titles.get(name, name), x_title,
+                          width=width, height=height,
+                          show_x_title=(i == len(titles) - 1))
+              for i, name in enumerate(titles) if (part["response"] == name).any()]
+    return alt.vconcat(*panels, spacing=6)
+
+
+def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
+                        b_title: str, y_title: str, *, height: int = 280,
+                        width: int | None = None):
+    """Measured cell means (open circles) and the model's lines with intervals.
+
+    ``cells``: ``interaction_means`` (a_level, b_level, a_coded, b_coded, mean,
+    runs). ``model``: ``model_interaction`` (a_level, b_level, a_coded,
+    b_coded, predicted, ci_low, ci_high).
+    """
+    import altair as alt
+
+    def shown(v):
+        return v if isinstance(v, str) else f"{v:g}"
+
+    fit = model.assign(a=[shown(v) for v in model["a_level"]],
+                       b=[shown(v) for v in model["b_level"]])
+    order = list(dict.fromkeys(fit.sort_values("a_coded")["a"]))
+    b_order = list(dict.fromkeys(fit.sort_values("b_coded")["b"]))
+    colours = alt.Scale(domain=b_order, range=[LINE_COLOURS[0], LINE_COLOURS[1]])
+    x = alt.X("a:N", sort=order, title=a_title, axis=alt.Axis(labelAngle=0))
+    # the two ends of b sit a little apart so their intervals do not overlap
+    offset = alt.XOffset("b:N", sort=b_order, scale=alt.Scale(paddingOuter=0.6))
+    legend = alt.Legend(title=b_title, orient="bottom", titleLimit=0)
+    band = alt.Chart(fit).mark_rule(strokeWidth=2, opacity=0.6).encode(
+        x=x, xOffset=offset, y=alt.Y("ci_low:Q", title=y_title, scale=alt.Scale(zero=False)),
+        y2="ci_high:Q", color=alt.Color("b:N", scale=colours, legend=legend))
+    line = alt.Chart(fit).mark_line(strokeWidth=2.5, point=True).encode(
+        x=x, xOffset=offset, y=alt.Y("predicted:Q"), color=alt.Color("b:N", scale=colours, legend=legend),
+        tooltip=["a", "b", alt.Tooltip("predicted:Q", format=".4g", title="model"),
+                 alt.Tooltip("ci_low:Q", format=".4g", title="mean from"),
+                 alt.Tooltip("ci_high:Q", format=".4g", title="mean to")])
+    layers = [band, line]
+    if not cells.empty:
+        raw = cells.assign(a=[shown(v) for v in cells["a_level"]],
+                           b=[shown(v) for v in cells["b_level"]])
+        layers.append(alt.Chart(raw).mark_point(size=80, filled=False, strokeWidth=2).encode(
+            x=x, xOffset=offset, y="mean:Q",
+            color=alt.Color("b:N", scale=colours, legend=legend),
+            tooltip=["a", "b", alt.Tooltip("mean:Q", format=".4g", title="measured mean"),
+                     "runs"]))
+    chart = alt.layer(*layers).properties(height=height)
+    return chart.properties(width=width) if width else chart

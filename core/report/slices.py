@@ -1,0 +1,163 @@
+"""Slices through a chosen setting, and interaction charts from the model.
+
+A slice moves one factor across its searched range with every other factor
+held at the chosen settings, and follows each response's prediction with its
+prediction interval, and the overall desirability D. The model's interaction
+table predicts a response at the low/high ends of two factors, the others at
+their centre, so an interaction chart drawn from it agrees with the equation.
+
+Both return tidy DataFrames with fixed, documented columns; each is one batch
+of predictions (every point of every slice in one array).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ..errors import StudyError
+from ..search.desirability import limits
+from ..study.coding import code_values
+
+__all__ = ["slices", "model_interaction"]
+
+SLICE_COLUMNS = ["factor", "value", "level", "response", "predicted", "pi_low", "pi_high",
+                 "lower_limit", "upper_limit", "current"]
+
+
+def _fitted(study, fit):
+    if fit is not None:
+        return fit
+    from ..model.study_fit import fit_study
+
+    return fit_study(study)
+
+
+def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
+    """Each response's prediction (and D) along each factor, the others held.
+
+    Parameters
+    ----------
+    study : Study
+    settings : dict
+        Natural settings (level names for categorical factors) of every
+        factor: the point the slices pass through, typically a chosen solution.
+    fit : StudyFit, optional
+        Fitted models (fitted here when omitted).
+    n : int
+        Points along each numeric factor's searched range (the current
+        setting is added when it is not among them).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``factor``; ``value`` (natural setting along a numeric factor,
+        NaN for a categorical one); ``level`` (the level name along a
+        categorical factor, empty otherwise); ``response`` (a modelled
+        response, or ``"D"``); ``predicted``; ``pi_low`` and ``pi_high`` (the
+        prediction interval of one new batch at the study's confidence; NaN
+        for D and without an error estimate); ``lower_limit`` and
+        ``upper_limit`` (the goal's limits, NaN when unbounded or no goal);
+        ``current`` (True at the held setting).
+    """
+    from ..search.problem import goal_columns, overall_desirability
+
+    fit = _fitted(study, fit)
+    missing = [f.name for f in study.factors if f.name not in settings]
+    if missing:
+        raise StudyError(f"no setting given for factor(s) {missing}: a slice holds every "
+                         "other factor at a setting")
+    base = np.array([code_values(f, np.array([settings[f.name]],
+                                              dtype=object if f.is_categorical else float))[0]
+                     for f in study.factors])
+    blocks, meta = [], []
+    for j, f in enumerate(study.factors):
+        if f.is_categorical:
+            coded = np.array([-1.0, 1.0])
+            values = np.array([np.nan, np.nan])
+            levels = np.array(list(f.levels), dtype=object)
+            current = levels == settings[f.name]
+        else:
+            lo, hi = f.search_range
+            now = float(settings[f.name])
+            values = np.unique(np.concatenate([np.linspace(min(lo, now), max(hi, now), n),
+                                               [now]]))
+            coded = code_values(f, values)
+            levels = np.full(len(values), "", dtype=object)
+            current = np.isclose(values, now, rtol=0, atol=1e-12 * max(1.0, abs(now)))
+        X = np.repeat(base[None, :], len(coded), axis=0)
+        X[:, j] = coded
+        blocks.append(X)
+        meta.append((f.name, values, levels, current))
+    X = np.vstack(blocks)
+    sizes = [len(m[1]) for m in meta]
+    factor_col = np.repeat([m[0] for m in meta], sizes)
+    value_col = np.concatenate([m[1] for m in meta])
+    level_col = np.concatenate([m[2] for m in meta])
+    current_col = np.concatenate([m[3] for m in meta])
+
+    frames = []
+    for r in study.responses:
+        if r.name not in fit.models:
+            continue
+        table = fit.models[r.name].intervals(X)
+        lo, hi = limits(r.goal) if r.goal.active else (np.nan, np.nan)
+        frames.append(pd.DataFrame({
+            "factor": factor_col, "value": value_col, "level": level_col,
+            "response": r.name, "predicted": table["predicted"].to_numpy(),
+            "pi_low": table["pi_low"].to_numpy(), "pi_high": table["pi_high"].to_numpy(),
+            "lower_limit": lo if np.isfinite(lo) else np.nan,
+            "upper_limit": hi if np.isfinite(hi) else np.nan,
+            "current": current_col}))
+    if goal_columns(study, fit):
+        D = overall_desirability(study, fit, X)[0]
+        frames.append(pd.DataFrame({
+            "factor": factor_col, "value": value_col, "level": level_col, "response": "D",
+            "predicted": D, "pi_low": np.nan, "pi_high": np.nan, "lower_limit": np.nan,
+            "upper_limit": np.nan, "current": current_col}))
+    if not frames:
+        return pd.DataFrame({c: [] for c in SLICE_COLUMNS})
+    return pd.concat(frames, ignore_index=True)[SLICE_COLUMNS]
+
+
+def model_interaction(study, response: str, a: str, b: str, *, fit=None) -> pd.DataFrame:
+    """The model's prediction at the low/high ends of two factors, others at centre.
+
+    The other factors sit at coded 0: the centre of a numeric factor, the
+    average of a categorical factor's two levels (as the coefficients of a
+    coded model are read), so the four points follow the fitted equation.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Four rows. Columns ``a_level`` and ``b_level`` (natural setting or
+        level name at the low/high end), ``a_coded`` and ``b_coded`` (-1 or
+        +1), ``predicted``, ``ci_low`` and ``ci_high`` (the confidence
+        interval of the mean at the study's confidence; NaN without an error
+        estimate).
+    """
+    if a == b:
+        raise StudyError(f"an interaction chart needs two different factors, found "
+                         f"'{a}' twice: choose another factor")
+    fit = _fitted(study, fit)
+    fa, fb = study.factor(a), study.factor(b)
+    if response not in fit.models:
+        reason = fit.skipped.get(response, "it is not modelled")
+        raise StudyError(f"no model for response '{response}': {reason}")
+    ia, ib = study.factor_names.index(a), study.factor_names.index(b)
+    ca = np.array([-1.0, -1.0, 1.0, 1.0])
+    cb = np.array([-1.0, 1.0, -1.0, 1.0])
+    X = np.zeros((4, len(study.factors)))
+    X[:, ia], X[:, ib] = ca, cb
+    table = fit.models[response].intervals(X)
+
+    def end(factor, coded):
+        if factor.is_categorical:
+            return factor.levels[0 if coded < 0 else 1]
+        return factor.low if coded < 0 else factor.high
+
+    return pd.DataFrame({"a_level": [end(fa, c) for c in ca],
+                         "b_level": [end(fb, c) for c in cb],
+                         "a_coded": ca, "b_coded": cb,
+                         "predicted": table["predicted"].to_numpy(),
+                         "ci_low": table["ci_low"].to_numpy(),
+                         "ci_high": table["ci_high"].to_numpy()})

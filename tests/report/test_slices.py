@@ -1,0 +1,97 @@
+"""Slices through a setting and the model's interaction table, checked against
+statsmodels OLS on the published tire tread compound of Derringer & Suich (1980),
+Journal of Quality Technology 12(4), 214-219 (tests/data/tire_tread_1980.*).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from tradeoff import StudyError, load_study
+from tradeoff.model.study_fit import fit_study
+from tradeoff.report.slices import model_interaction, slices
+
+DATA = Path(__file__).resolve().parents[1] / "data"
+SETTINGS = {"x1": -0.05, "x2": 0.15, "x3": -0.87}
+
+
+@pytest.fixture(scope="module")
+def tire():
+    study = load_study(DATA / "tire_tread_1980.toml")
+    return study, fit_study(study)
+
+
+def _ols(response: str):
+    """The full quadratic fitted by statsmodels (the reference library)."""
+    sm = pytest.importorskip("statsmodels.formula.api")
+    runs = pd.read_csv(DATA / "tire_tread_1980.csv")
+    formula = (f"{response} ~ x1 + x2 + x3 + x1:x2 + x1:x3 + x2:x3 + I(x1**2) + I(x2**2)"
+               " + I(x3**2)")
+    return sm.ols(formula, data=runs).fit()
+
+
+def test_slice_matches_statsmodels_prediction_intervals(tire):
+    study, fit = tire
+    table = slices(study, SETTINGS, fit=fit, n=11)
+    part = table[(table["factor"] == "x2") & (table["response"] == "y1")]
+    assert len(part) == 12  # 11 points plus the held setting 0.15
+    points = pd.DataFrame({"x1": SETTINGS["x1"], "x2": part["value"].to_numpy(),
+                           "x3": SETTINGS["x3"]})
+    frame = _ols("y1").get_prediction(points).summary_frame(alpha=0.05)
+    assert np.allclose(part["predicted"], frame["mean"])
+    assert np.allclose(part["pi_low"], frame["obs_ci_lower"])
+    assert np.allclose(part["pi_high"], frame["obs_ci_upper"])
+    # the published lower limit of the abrasion index is 120 (maximize, no upper limit)
+    assert (part["lower_limit"] == 120).all() and part["upper_limit"].isna().all()
+
+
+def test_slice_marks_the_held_setting_and_carries_d(tire):
+    from tradeoff.search.problem import overall_desirability
+
+    study, fit = tire
+    table = slices(study, SETTINGS, fit=fit, n=21)
+    assert set(table["response"]) == {"y1", "y2", "y3", "y4", "D"}
+    now = table[table["current"]]
+    # one held point per factor and response
+    assert len(now) == 3 * 5
+    for f, value in SETTINGS.items():
+        assert np.allclose(now[now["factor"] == f]["value"], value)
+    d = table[(table["response"] == "D") & (table["factor"] == "x1")]
+    X = np.column_stack([d["value"], np.full(len(d), SETTINGS["x2"]),
+                         np.full(len(d), SETTINGS["x3"])])
+    assert np.allclose(d["predicted"], overall_desirability(study, fit, X)[0])
+    assert d["pi_low"].isna().all()
+
+
+def test_slice_needs_every_setting(tire):
+    study, fit = tire
+    with pytest.raises(StudyError, match=r"no setting given for factor\(s\) \['x3'\]"):
+        slices(study, {"x1": 0, "x2": 0}, fit=fit)
+
+
+def test_model_interaction_agrees_with_the_equation(tire):
+    study, fit = tire
+    cells = model_interaction(study, "y2", "x1", "x3", fit=fit)
+    assert list(cells["a_coded"]) == [-1, -1, 1, 1] and list(cells["b_coded"]) == [-1, 1, -1, 1]
+    ols = _ols("y2")
+    points = pd.DataFrame({"x1": cells["a_coded"], "x2": 0.0, "x3": cells["b_coded"]})
+    frame = ols.get_prediction(points).summary_frame(alpha=0.05)
+    assert np.allclose(cells["predicted"], frame["mean"])
+    assert np.allclose(cells["ci_low"], frame["mean_ci_lower"])
+    # the interaction contrast of the four points is the x1:x3 coefficient
+    p = cells["predicted"].to_numpy()
+    assert (p[3] - p[2] - p[1] + p[0]) / 4 == pytest.approx(ols.params["x1:x3"])
+
+
+def test_model_interaction_with_a_categorical_factor():
+    from conftest import DEMO
+
+    study = load_study(DEMO)
+    cells = model_interaction(study, "liking", "protein", "binder")
+    assert list(cells["b_level"]) == ["rice syrup", "date paste"] * 2
+    assert list(cells["a_level"]) == [20, 20, 30, 30]
+    with pytest.raises(StudyError, match="two different factors"):
+        model_interaction(study, "liking", "binder", "binder")

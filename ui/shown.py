@@ -1,0 +1,46 @@
+"""How numbers and blanks look in the workbench's tables (formatting only).
+
+Streamlit prints a missing cell as a grey "None" and a float in full
+(0.000000000000000004); tables pass through these helpers first so a blank
+stays blank and every number reads like the report's.
+"""
+from __future__ import annotations
+
+import math
+
+import pandas as pd
+
+__all__ = ["num", "span", "blank_none", "p_text"]
+
+
+def num(x, digits: int = 4) -> str:
+    """A number with ``digits`` significant digits; blank when missing."""
+    if x is None or isinstance(x, str):
+        return x or ""
+    x = float(x)
+    return "" if not math.isfinite(x) else f"{x:.{digits}g}"
+
+
+def span(low, high, digits: int = 4) -> str:
+    """An interval as 'low .. high' (an open end is left blank)."""
+    lo, hi = num(low, digits), num(high, digits)
+    return "" if not (lo or hi) else f"{lo} .. {hi}".strip()
+
+
+def p_text(p) -> str:
+    """A p-value as the report prints it: 4 decimals, '< 0.0001' below that."""
+    from tradeoff.report.data import _p
+
+    if p is None or (isinstance(p, float) and not math.isfinite(p)):
+        return ""
+    return _p(float(p))
+
+
+def blank_none(table: pd.DataFrame) -> pd.DataFrame:
+    """Empty text instead of None/NaN in text columns (numbers are left alone)."""
+    out = table.copy()
+    for col in out.columns:
+        if out[col].dtype == object:
+            out[col] = out[col].map(lambda v: "" if v is None or (isinstance(v, float)
+                                                                  and math.isnan(v)) else v)
+    return out
