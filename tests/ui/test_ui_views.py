@@ -39,8 +39,10 @@ def headers(at: AppTest) -> list[str]:
     return [h.value for h in at.header]
 
 
-@pytest.mark.parametrize("page, charts", [("study", 0), ("models", 5), ("targets", 6),
-                                          ("results", 1), ("downloads", 0)])
+# models: effects, half-normal, two interaction charts, three residual panels;
+# results: one map and one slice per response and D (5 + 1)
+@pytest.mark.parametrize("page, charts", [("study", 0), ("models", 7), ("targets", 6),
+                                          ("results", 7), ("downloads", 0)])
 def test_each_view_runs_on_the_demo(page, charts):
     at = start(page)
     assert not at.error, [e.value for e in at.error]
@@ -48,7 +50,8 @@ def test_each_view_runs_on_the_demo(page, charts):
     if page == "study":
         assert DEMO_NAME in headers(at)
         runs = at.dataframe[2].value
-        assert len(runs) == 20 and "protein coded" in runs.columns
+        assert len(runs) == 20 and "mark" in runs.columns
+        assert "protein coded" in at.dataframe[3].value.columns  # in the expander
     if page == "results":
         assert any("shelf-life" in i.value for i in at.info)  # the food caution
         solutions = at.dataframe[0].value
