@@ -1,0 +1,147 @@
+"""Benchmark: the workbench as a user sees it, in a real browser (demo study).
+
+Starts ``tradeoff app`` on the demo and drives it with playwright and Debian's
+chromium (/usr/bin/chromium; never a downloaded browser), as the browser test
+does. Every time runs from the user's action to the page settled: no script
+running, no placeholder showing, every chart drawn, nothing changing for
+``QUIET`` seconds (the quiet time itself is not counted).
+
+- first load of each view, in a fresh browser tab (the server has already
+  opened the study once, as after any first visit);
+- targets: a weight changed to a value not seen before, so the search runs
+  again (the worst case a user meets);
+- targets: a weight changed back to a value seen before (served from cache).
+
+Printed side by side with the issue's targets (first load 1.5 s, a weight
+change 0.5 s median). Run: .venv/bin/python benchmarks/bench_browser.py
+"""
+from __future__ import annotations
+
+import os
+import signal
+import socket
+import statistics
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+CHROMIUM = "/usr/bin/chromium"
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+        "--disable-component-update", "--disable-sync", "--no-first-run"]
+QUIET = 0.5
+REPEAT = 7
+VIEWS = {"study and runs": ("", "The same runs in coded units"),
+         "what drives each response": ("models", "Coefficients, analysis of variance"),
+         "targets and weights": ("targets", "Best settings now"),
+         "recommended settings": ("results", "What if I make it like this?"),
+         "take it with you": ("downloads", "The report")}
+LOAD_TARGET, CHANGE_TARGET = 1.5, 0.5
+
+_STATE = """() => [
+  document.querySelectorAll('[data-testid="stStatusWidget"]').length,
+  document.querySelectorAll('[data-testid="stSkeleton"]').length,
+  document.querySelectorAll('[data-testid="stElementContainer"]').length,
+  document.querySelectorAll('.vega-embed').length,
+  document.querySelectorAll('.vega-embed svg, .vega-embed canvas').length,
+  document.body.innerText.length]"""
+
+
+def settle(page, start: float, timeout: float = 120.0) -> float:
+    """Seconds from ``start`` to the last change before a quiet spell."""
+    last, changed = None, time.perf_counter()
+    while time.perf_counter() - start < timeout:
+        s = page.evaluate(_STATE)
+        busy = s[0] > 0 or s[1] > 0 or s[2] == 0 or s[4] < s[3]
+        now = time.perf_counter()
+        if s != last or busy:
+            last, changed = s, now
+        elif now - changed >= QUIET:
+            return changed - start
+        page.wait_for_timeout(20)
+    raise RuntimeError("the page did not settle")
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def wait_healthy(port: int) -> None:
+    for _ in range(300):
+        try:
+            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health",
+                                        timeout=2) as r:
+                if r.read().strip() == b"ok":
+                    return
+        except OSError:
+            time.sleep(0.3)
+    raise RuntimeError("the workbench did not start")
+
+
+def main() -> None:
+    from playwright.sync_api import sync_playwright
+
+    port = free_port()
+    tradeoff = Path(sys.executable).with_name("tradeoff")
+    proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port)],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+    rows = []
+    try:
+        wait_healthy(port)
+        base = f"http://127.0.0.1:{port}"
+        with sync_playwright() as pw:
+            browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            for path, ready in VIEWS.values():  # warm up: the server opens the study once
+                page.goto(f"{base}/{path}")
+                page.get_by_text(ready).first.wait_for(timeout=120_000)
+                settle(page, time.perf_counter())
+            page.close()
+            for name, (path, ready) in VIEWS.items():
+                times = []
+                for _ in range(3):
+                    page = browser.new_page(viewport={"width": 1400, "height": 1100})
+                    start = time.perf_counter()
+                    page.goto(f"{base}/{path}")
+                    page.get_by_text(ready).first.wait_for(timeout=120_000)
+                    times.append(settle(page, start))
+                    page.close()
+                rows.append((f"first load: {name}", times, LOAD_TARGET))
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"{base}/targets")
+            page.get_by_text("Best settings now").first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            box = page.locator('input[aria-label="Weight"]').first
+            new, seen = [], []
+            for i in range(REPEAT):
+                for value, times in ((f"{1.25 + 0.25 * i:g}", new), ("1", seen)):
+                    box.fill(value)
+                    start = time.perf_counter()
+                    box.press("Enter")
+                    page.wait_for_timeout(30)
+                    times.append(settle(page, start))
+            rows.append(("targets: new weight (search runs)", new, CHANGE_TARGET))
+            rows.append(("targets: weight seen before (cached)", seen, CHANGE_TARGET))
+            browser.close()
+    finally:
+        if proc.poll() is None:
+            proc.terminate()
+        try:
+            os.killpg(proc.pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
+    print(f"Workbench in chromium at 1400 px, demo study, to the page settled "
+          f"(nothing running or changing for {QUIET:.1f} s, not counted)")
+    print(f"{'case':<44} {'median s':>9} {'max s':>7} {'target s':>9}  met")
+    for name, t, target in rows:
+        med = statistics.median(t)
+        print(f"{name:<44} {med:>9.2f} {max(t):>7.2f} {target:>9.1f}  "
+              f"{'yes' if med <= target else 'NO'}")
+
+
+if __name__ == "__main__":
+    main()
