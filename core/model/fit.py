@@ -32,7 +32,7 @@ from .diagnostics import diagnostic_arrays, run_diagnostics
 from ..errors import ModelError
 from .lenth import half_normal_points, lenth
 from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
-                    model_terms, named_model_size, parse_term, term_label)
+                    model_terms, named_model_size, parse_term)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 from .describe import response_report
 from .equation import fitted_equations

@@ -44,6 +44,7 @@ from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
 from ..errors import SearchError
 from ..study.constraints import rule_arrays
 from .desirability import desirability
+from .mixture import simplex_region
 
 __all__ = ["NextBatch", "SuggestedRun", "next_batch", "normal_ei", "expected_improvement",
            "DEFAULT_MIN_DISTANCE"]
@@ -278,6 +279,16 @@ def _region(study, seed: int):
         blocks.append(block)
     X = np.vstack(blocks)
     A, bvec = rule_arrays(study, coded=True)
+    region = simplex_region(study)
+    if region is not None:
+        # a blend: one component makes up the rest, and the components must add up
+        # (coded shares sum to 1), which also keeps the refinement's moves on the simplex
+        X = region.complete(X)
+        A_dep, b_dep = region.rules(len(factors))
+        total = np.zeros((2, len(factors)))
+        total[0, region.comp], total[1, region.comp] = 1.0, -1.0
+        A = np.vstack([A, A_dep, total])
+        bvec = np.concatenate([bvec, b_dep, [1.0, -1.0]])
     return X[_allowed(X, A, bvec)], lo, hi, (A, bvec)
 
 

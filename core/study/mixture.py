@@ -25,7 +25,7 @@ on implied bounds, "common practice" for the rest):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 

@@ -184,3 +184,26 @@ def test_proportion_equation_identity_for_proportions():
     info = MixtureInfo(components=("a", "b", "c"), lows=(0.0, 0.0, 0.0))
     eq = proportion_equation(terms, np.arange(1.0, 7.0), ["a", "b", "c"], info)
     assert list(eq.values()) == [1.0, 2.0, 3.0, 4.0, 5.0, 6.0]
+
+
+def test_full_process_crossing_against_statsmodels(tmp_path):
+    for name in ("flour_blend.toml", "flour_blend_runs.csv"):
+        shutil.copy(DEMO.parent / name, tmp_path / name)
+    path = tmp_path / "flour_blend.toml"
+    path.write_text(path.read_text().replace('process = "linear"', 'process = "full"'))
+    study = load_study(path)
+    model = fit_response(study, "crumb_hardness")
+    runs = study.runs
+    z = (runs[["rice_flour", "sorghum_flour", "tapioca_starch"]].to_numpy(float)
+         - [40, 15, 10]) / 35
+    t = (runs["bake_temp"].to_numpy(float) - 190) / 15
+    mix = [z[:, 0], z[:, 1], z[:, 2], z[:, 0] * z[:, 1], z[:, 0] * z[:, 2], z[:, 1] * z[:, 2]]
+    res = sm.OLS(runs["crumb_hardness"].to_numpy(float),
+                 np.column_stack(mix + [m * t for m in mix])).fit()
+    assert model.terms_[6:] == ["rice_flour:bake_temp", "sorghum_flour:bake_temp",
+                                "tapioca_starch:bake_temp",
+                                "rice_flour:sorghum_flour:bake_temp",
+                                "rice_flour:tapioca_starch:bake_temp",
+                                "sorghum_flour:tapioca_starch:bake_temp"]
+    np.testing.assert_allclose(model.coef_, res.params, rtol=1e-8)
+    np.testing.assert_allclose(model.r2_, 1 - res.ssr / res.centered_tss, rtol=1e-10)

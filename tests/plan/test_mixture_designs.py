@@ -144,3 +144,56 @@ def test_lattice_refused_where_highs_cut_the_simplex():
     study = load_study(DEMO, with_data=False)
     with pytest.raises(PlanError, match=r"use --design vertices"):
         plan_mixture(study, "lattice")
+
+
+CATEGORICAL = """\
+[study]
+name = "blend with an oven type"
+
+[mixture]
+total = 500
+model = "linear"
+process = "linear"
+
+[[components]]
+name = "flour"
+unit = "g"
+low = 250
+high = 400
+
+[[components]]
+name = "water"
+unit = "g"
+low = 80
+high = 200
+
+[[components]]
+name = "oil"
+unit = "g"
+low = 10
+high = 60
+
+[[factors]]
+name = "oven"
+levels = ["deck", "convection"]
+
+[[responses]]
+name = "volume"
+"""
+
+
+def test_blend_plan_with_a_categorical_process_factor(tmp_path, capsys):
+    study = tmp_path / "s.toml"
+    study.write_text(CATEGORICAL, encoding="utf-8")
+    out = tmp_path / "p.csv"
+    assert main(["plan", str(study), "--out", str(out)]) == 0  # default: vertices
+    text = capsys.readouterr().out
+    assert "extreme vertices" in text and "6 of 6 terms estimable" in text
+    sheet = pd.read_csv(out)
+    amounts = sheet[["flour", "water", "oil"]].to_numpy()
+    np.testing.assert_allclose(amounts.sum(axis=1), 500.0, atol=1e-9)
+    blends = sheet.groupby(["flour", "water", "oil"])["oven"].apply(set)
+    assert all(s == {"deck", "convection"} for s in blends)
+    # vertices of {250..400, 80..200, 10..60, sum 500} by brute force
+    V = _brute_vertices([250, 80, 10], [400, 200, 60], 500.0)
+    assert len(blends) == len(V) + 1  # and the overall centroid

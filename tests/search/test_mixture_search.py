@@ -70,3 +70,16 @@ def test_same_seed_same_blend():
     assert a["solutions"] == b["solutions"]
     assert set(a["best"]["proportions"]) == {"rice_flour", "sorghum_flour",
                                              "tapioca_starch"}
+
+
+def test_next_runs_for_a_blend_add_up_and_keep_the_bounds():
+    from tradeoff import next_batch
+
+    study = load_study(DEMO)
+    batch = next_batch(study, runs=3, seed=1, draws=256)
+    names = ["rice_flour", "sorghum_flour", "tapioca_starch"]
+    for run in batch.runs:
+        amounts = np.array([run.settings[n] for n in names])
+        assert abs(amounts.sum() - 100) < 1e-6
+        assert np.all(amounts >= [40 - 1e-6, 15 - 1e-6, 10 - 1e-6])
+        assert np.all(amounts <= [70 + 1e-6, 45 + 1e-6, 45 + 1e-6])
