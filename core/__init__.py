@@ -23,6 +23,8 @@ _HOME = {
     "SHELF_LIFE_CAUTION": "cautions", "PANEL_CAUTION": "cautions",
     "fit_kinetics": "derive.storage", "interpolate_at": "derive.storage",
     "read_storage": "derive.storage", "time_to_limit": "derive.storage",
+    "ACCELERATED_CAUTIONS": "cautions", "ArrheniusFit": "derive.kinetics",
+    "fit_arrhenius": "derive.kinetics",
     "adjusted_means": "derive.panel", "assessor_agreement": "derive.panel",
     "read_panel": "derive.panel", "run_means": "derive.panel",
     "DERIVE_KINDS": "derive.derived", "add_derived_responses": "derive.derived",

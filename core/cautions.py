@@ -4,8 +4,8 @@ Results, reports, the workbook and the front end all show these same words.
 """
 from __future__ import annotations
 
-__all__ = ["FOOD_CAUTIONS", "FOOD_CAUTION", "SHELF_LIFE_CAUTION", "PANEL_CAUTION",
-           "BLEND_CAUTION"]
+__all__ = ["FOOD_CAUTIONS", "FOOD_CAUTION", "SHELF_LIFE_CAUTION", "ACCELERATED_CAUTIONS",
+           "PANEL_CAUTION", "BLEND_CAUTION"]
 
 FOOD_CAUTIONS = (
     "A recommendation is a suggestion for what to make and test next, not a release "
@@ -33,6 +33,16 @@ BLEND_CAUTION = (
     "A predicted blend says nothing about allergens, gluten or any other claim: such "
     "claims rest on verified ingredients, testing and local food regulations, not on a "
     "model; ingredient lots vary, so confirm a new blend with real batches.")
+
+# Storage at several temperatures (accelerated shelf-life testing), every result.
+ACCELERATED_CAUTIONS = (
+    "A prediction across storage temperatures assumes the same mechanism at every "
+    "temperature: melting of fats, a glass transition or moisture migration at the warmer "
+    "temperatures can break it.",
+    "It says nothing about microbial safety.",
+    "It does not replace a real-time storage study at the temperature of use.",
+    "Local regulations and qualified people decide date marking.",
+)
 
 PANEL_CAUTION = (
     "Panel scores from a development panel describe these samples only: they do not "

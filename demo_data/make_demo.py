@@ -13,6 +13,7 @@ It writes, next to itself:
 - snack_bar_runs.csv     one row per run: settings and the per-run responses
 - snack_bar_storage.csv  hardness of every run at weeks 0, 2, 4, 8 and 12
 - snack_bar_panel.csv    every panel member's liking score for every run
+- snack_bar_storage_temps.csv  hardness of every run stored at 20, 30 and 40 degC
 """
 from __future__ import annotations
 
@@ -67,6 +68,39 @@ def storage_table(coded: pd.DataFrame, rng) -> pd.DataFrame:
             value = fresh[i] * np.exp(rate[i] * week) + rng.normal(0, 0.5)
             rows.append({"run": run, "week": week, "property": "hardness",
                          "value": round(float(value), 1)})
+    return pd.DataFrame(rows)
+
+
+# Storage at three temperatures (a separate table, own random stream, so the
+# other demo files stay exactly as they were).
+TEMPS_SEED = SEED + 15
+STORAGE_PLAN = {20: (4, 8, 13, 26), 30: (2, 4, 8, 13), 40: (1, 2, 4, 6)}
+R_GAS = 8.314462618
+
+
+def storage_temperature_table(coded: pd.DataFrame) -> pd.DataFrame:
+    """Hardness at 20, 30 and 40 degC: first-order hardening with an Arrhenius rate.
+
+    Invented: the rate at 20 degC follows the same recipe pattern as the main
+    storage table; the activation energy (kJ/mol) rises with glycerol and falls
+    with protein, so recipes differ in how much warm storage speeds them up.
+    """
+    rng = np.random.default_rng(TEMPS_SEED)
+    p, g, b, t = (coded[c].to_numpy(float) for c in "pgbt")
+    fresh = 17.0 + 3.2 * p - 2.4 * g + 1.1 * b + 0.7 * t - 0.6 * p * g
+    k20 = 0.8 * (0.034 + 0.010 * p - 0.008 * g - 0.006 * p * g + 0.002 * t + 0.003 * b) + 0.004
+    ea = 65.0 + 10.0 * g - 6.0 * p + 3.0 * p * g          # kJ/mol
+    rows = []
+    for i, run in enumerate(coded["run"]):
+        v0 = fresh[i] + rng.normal(0, 0.3)
+        rows.append({"run": run, "week": 0, "storage_temp": "", "property": "hardness",
+                     "value": round(float(v0), 1)})
+        for temp, weeks in STORAGE_PLAN.items():
+            k = k20[i] * np.exp(-ea[i] * 1e3 / R_GAS * (1 / (temp + 273.15) - 1 / 293.15))
+            for week in weeks:
+                value = fresh[i] * np.exp(k * week) * np.exp(rng.normal(0, 0.02))
+                rows.append({"run": run, "week": week, "storage_temp": temp,
+                             "property": "hardness", "value": round(float(value), 1)})
     return pd.DataFrame(rows)
 
 
@@ -125,6 +159,8 @@ def main() -> None:
     write_csv(runs, HERE / "snack_bar_runs.csv")
     write_csv(storage, HERE / "snack_bar_storage.csv")
     write_csv(panel, HERE / "snack_bar_panel.csv")
+    temps = storage_temperature_table(coded)
+    write_csv(temps, HERE / "snack_bar_storage_temps.csv")
     print(f"wrote {len(runs)} runs, {len(storage)} storage values, "
           f"{len(panel)} panel scores to {HERE}")
 

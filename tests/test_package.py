@@ -22,6 +22,7 @@ PUBLIC_NAMES = sorted([
     "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
     "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",
     "derivation_table", "describe_derivation",
+    "ACCELERATED_CAUTIONS", "ArrheniusFit", "fit_arrhenius",
     "GENERATOR_TABLE", "Plan", "TwoLevelDesign", "augment_study",
     "available_designs", "fold_over", "fractional_design", "plan_runs",
     "alias_structure", "DesignEvaluation", "effect_power", "evaluate_design",

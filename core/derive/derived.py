@@ -18,9 +18,9 @@ import pandas as pd
 from ..errors import DataError, StudyError, did_you_mean, where
 from ..study.intake import RawTable
 from .panel import adjusted_means, assessor_agreement, read_panel, run_means
-from .storage import (fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage,
-                      time_to_limit)
-from ..cautions import SHELF_LIFE_CAUTION
+from .shelf import TEMPERATURE_KINDS, derive_kinetic, describe_kinetic, rows_at_temperature
+from .storage import fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage
+from .table import flag_notes as _flag_notes, name_list as _list, run_table as _table
 from ..study.spec import Response, Study
 from ..study.runs import read_study_table
 
@@ -44,7 +44,8 @@ def _tables(study: Study, storage: RawTable | None, panel: RawTable | None,
         raw = storage if storage is not None else read_study_table(study, sec["data"],
                                                                    sheet=sec["sheet"])
         out["storage"] = (sec, raw.source.name,
-                          read_storage(raw, time=sec["time"], run_ids=run_ids))
+                          read_storage(raw, time=sec["time"], temperature=sec["temperature"],
+                                       run_ids=run_ids))
     if "panel" in wanted:
         sec = _section(study, "panel")
         raw = panel if panel is not None else read_study_table(study, sec["data"],
@@ -62,12 +63,6 @@ def _subset(frame: pd.DataFrame, column: str, name: str, fname: str,
         raise DataError(f"{fname}: no rows with {column} '{name}' for response "
                         f"'{r.name}': the table has {found}{did_you_mean(name, found)}")
     return sub
-
-
-def _list(items) -> str:
-    items = [str(i) for i in items]
-    return ", ".join(items[:40]) + (f" and {len(items) - 40} more" if len(items) > 40
-                                    else "")
 
 
 # --------------------------------------------------------------------------
@@ -154,8 +149,16 @@ def _check_positive(sub: pd.DataFrame, fname: str, r: Response) -> None:
 def _derive_storage(study, r, opts, sec, fname, sub):
     tname = sec["time"]
     runs = list(study.runs["run"])
-    values, flags, reasons, points, se, r2 = {}, {}, {}, {}, {}, {}
     kind = opts["kind"]
+    if kind in TEMPERATURE_KINDS:
+        if opts["order"] == "first":
+            _check_positive(sub, fname, r)
+        table, notes = derive_kinetic(study, r, opts, sec, fname, sub)
+        pieces, piece_notes = _storage_pieces(r, kind, sub, tname)
+        table["pieces"] = table["run"].map(pieces).fillna("")
+        return table, notes + piece_notes
+    sub = rows_at_temperature(study, sub, opts, fname, r, sec["temperature"] is not None)
+    values, flags, reasons, points, se, r2 = {}, {}, {}, {}, {}, {}
     notes = []
     if kind == "value_at":
         if opts["extrapolate"] and opts["order"] == "first":
@@ -187,10 +190,7 @@ def _derive_storage(study, r, opts, sec, fname, sub):
             _check_positive(sub, fname, r)
         fits = fit_kinetics(sub["run"], sub["time"], sub["value"],
                             order=opts["order"]).set_index("run")
-        if kind == "time_to_limit":
-            times = time_to_limit(fits["start"], fits["rate"], opts["limit"],
-                                  order=opts["order"], direction=opts["direction"])
-        for i, (run, fit) in enumerate(fits.iterrows()):
+        for run, fit in fits.iterrows():
             points[run] = int(fit["n_points"])
             if fit["n_points"] < opts["min_points"] or np.isnan(fit["rate"]):
                 reasons[run] = (f"only {int(fit['n_points'])} measured point(s), "
@@ -198,24 +198,7 @@ def _derive_storage(study, r, opts, sec, fname, sub):
                                 "(min_points)")
                 continue
             r2[run] = fit["r_squared"]
-            if kind == "rate":
-                values[run], se[run] = fit["rate"], fit["rate_se"]
-                continue
-            t = times[i]
-            if np.isnan(t):
-                reasons[run] = (f"its fitted {r.extra['property']} moves away from "
-                                f"{opts['limit']:g} (rate {fit['rate']:.3g} per "
-                                f"{tname}), so it never reaches the limit")
-                continue
-            values[run] = float(t)
-            if t == 0:
-                flags[run] = (f"at or past {opts['limit']:g} from the start of the "
-                              "fitted curve, so set to 0", "")
-            elif t > fit["last_time"]:
-                flags[run] = (f"EXTRAPOLATED: the fitted curve reaches {opts['limit']:g} "
-                              f"after the last measured {tname} (the further beyond, the "
-                              "less trustworthy)",
-                              f"{tname} {t:.3g}, measured to {fit['last_time']:g}")
+            values[run], se[run] = fit["rate"], fit["rate_se"]
         if r2:
             vals = np.array([v for v in r2.values() if not np.isnan(v)])
             scale = " (on the log scale)" if opts["order"] == "first" else ""
@@ -328,31 +311,6 @@ def _derive_panel(study, r, opts, sec, fname, sub):
     return _table(runs, values, flags, reasons, points, se, {}), notes
 
 
-def _flag_notes(name: str, flags: dict) -> list[str]:
-    """One note per kind of flag, listing the runs it applies to."""
-    kinds: dict[str, list[str]] = {}
-    for run, (kind, short) in flags.items():
-        kinds.setdefault(kind, []).append(f"{run} ({short})" if short else str(run))
-    return [f"response '{name}': {kind}: run(s) {_list(runs)}"
-            for kind, runs in kinds.items()]
-
-
-def _table(runs, values, flags, reasons, points, se, r2, pieces=None) -> pd.DataFrame:
-    pieces = pieces or {}
-    rows = []
-    for run in runs:
-        fl = flags.get(run)
-        flag = ("left out: " + reasons[run]) if run in reasons else (
-            "" if fl is None else f"{fl[0]} ({fl[1]})" if fl[1] else fl[0])
-        rows.append({"run": run, "value": values.get(run, np.nan) if run not in reasons
-                     else np.nan, "points": points.get(run, 0),
-                     "se": se.get(run, np.nan), "r_squared": r2.get(run, np.nan),
-                     "flag": flag, "pieces": pieces.get(run, "")})
-    out = pd.DataFrame(rows, columns=DERIVED_COLUMNS)
-    out["value"] = out["value"].astype(float)
-    return out
-
-
 # --------------------------------------------------------------------------
 # Public entry points
 
@@ -393,10 +351,8 @@ def _derive_all(study: Study, storage, panel, only: str | None = None):
             if row["flag"].startswith("left out"):
                 notes.append(f"response '{r.name}': run {row['run']} {row['flag']}")
         notes += extra
-        if o["kind"] == "time_to_limit":
-            notes.append(f"response '{r.name}': {SHELF_LIFE_CAUTION}")
         results[r.name] = table
-    return results, notes
+    return results, list(dict.fromkeys(notes))  # each note once, first place kept
 
 
 def add_derived_responses(study: Study, *, storage: RawTable | None = None,
@@ -435,13 +391,16 @@ def derivation_table(study: Study, name: str, *, storage: RawTable | None = None
     Returns
     -------
     DataFrame
-        Columns ``run``, ``value`` (NaN when left out), ``points`` (measured
-        points or scores used), ``se`` (standard error: of the rate for
-        ``rate``, of the run mean for panel responses; NaN otherwise),
-        ``r_squared`` (fit quality for ``rate`` and ``time_to_limit``) and
-        ``flag`` (empty, or why the run was interpolated, extrapolated or
-        left out) and ``pieces`` (storage: the pieces at each time and their
-        SD, such as "3 per week, SD 0.2 to 0.5"; empty with one value a time).
+        ``DERIVED_COLUMNS``: ``run``, ``value`` (NaN when left out),
+        ``points`` (measured points or scores used), ``se`` (standard error
+        of the value where there is one; NaN otherwise), ``r_squared`` (fit
+        quality of the fitted kinds), ``flag`` (empty, or why the run was
+        interpolated, extrapolated, flagged or left out), ``lower`` and
+        ``upper`` (the interval of the temperature-aware storage kinds, see
+        ``derive.shelf``; NaN otherwise) and ``per_temperature`` (storage
+        times at each temperature behind those fits) and ``pieces`` (storage:
+        the pieces at each time and their SD, such as "3 per week, SD 0.2 to
+        0.5"; empty with one value a time).
     """
     r = study.response(name)
     if not r.is_derived:
@@ -474,15 +433,11 @@ def describe_derivation(study: Study, response: Response) -> str:
                     f"(interpolated between measured {unit}{ext})")
         per = (f"in {p} units per {t}" if o["order"] == "zero"
                else f"per {t}, value = start x exp(rate x {t})")
-        if o["kind"] == "rate":
-            return (f"rate of change of {p} ({per}) from a {order} least-squares fit of "
+        if o["kind"] in TEMPERATURE_KINDS:
+            return describe_kinetic(o, sec)
+        return (f"rate of change of {p} ({per}) from a {order} least-squares fit of "
                     f"each run's {p} on {t} in {src}, at least {o['min_points']} points; "
                     "R-squared gives the fit quality")
-        return (f"{unit} until {p} {'rises' if o['direction'] == 'up' else 'falls'} to "
-                f"{o['limit']:g}, from a {order} least-squares fit per run in {src} (at "
-                f"least {o['min_points']} points); 0 when the fit starts past the limit, "
-                "left out when it never reaches it, flagged beyond the last measured "
-                f"{t}; not a safety determination")
     sec = _section(study, "panel")
     lo, hi = sec["scale"]
     a, src = o["attribute"], sec["data"].name

@@ -8,32 +8,42 @@ from pathlib import Path
 
 
 from ..errors import StudyError, did_you_mean
+from .shelf import TEMPERATURE_KINDS, kinetic_options
 from .storage import DIRECTIONS, ORDERS
+from .table import DERIVED_COLUMNS
 from ..study.spec import SECTION_KEYS, Response, Study
 from ..study.reader import check_keys
 
 __all__ = ["STORAGE_KINDS", "PANEL_KINDS", "DERIVE_KINDS", "DERIVED_COLUMNS",
            "check_derived"]
 
-STORAGE_KINDS = ("value_at", "change", "rate", "time_to_limit")
+STORAGE_KINDS = ("value_at", "change", "rate") + TEMPERATURE_KINDS
 PANEL_KINDS = ("panel_mean", "panel_adjusted")
 DERIVE_KINDS = STORAGE_KINDS + PANEL_KINDS
 
-# The columns of every per-run derivation table.
-DERIVED_COLUMNS = ["run", "value", "points", "se", "r_squared", "flag", "pieces"]
-
 _USES = {
-    "value_at": {"property", "at", "extrapolate", "order", "min_points"},
-    "change": {"property", "at", "from", "relative", "extrapolate", "order", "min_points"},
-    "rate": {"property", "order", "min_points"},
-    "time_to_limit": {"property", "limit", "direction", "order", "min_points"},
+    "value_at": {"property", "at", "extrapolate", "order", "min_points", "at_temperature"},
+    "change": {"property", "at", "from", "relative", "extrapolate", "order", "min_points",
+               "at_temperature"},
+    "rate": {"property", "order", "min_points", "at_temperature"},
+    "time_to_limit": {"property", "limit", "direction", "order", "min_points",
+                      "at_temperature"},
+    "shelf_life": {"property", "limit", "direction", "order", "min_points",
+                   "at_temperature", "estimate"},
+    "activation_energy": {"property", "order", "min_points"},
+    "q10": {"property", "order", "min_points", "at_temperature"},
+    "rate_at": {"property", "order", "min_points", "at_temperature"},
     "panel_mean": {"attribute", "min_points"},
     "panel_adjusted": {"attribute", "min_points"},
 }
 _NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
           "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
+          "shelf_life": ("property", "limit", "direction"),
+          "activation_energy": ("property",), "q10": ("property", "at_temperature"),
+          "rate_at": ("property",),
           "panel_mean": ("attribute",), "panel_adjusted": ("attribute",)}
 _DERIVE_KEYS = set().union(*_USES.values()) | {"derive"}
+_EXAMPLE = {"time": "week", "time_unit": "weeks", "temperature": "storage_temp"}
 # Agreement below this correlation with the rest of the panel is reported.
 _DEFAULT_AGREEMENT = 0.3
 _POOR_FIT_R2 = 0.8
@@ -66,12 +76,14 @@ def _section(study: Study, name: str) -> dict | None:
         path = study.source.parent / path
     out = {"data": path, "sheet": sec.get("sheet")}
     if name == "storage":
-        for key in ("time", "time_unit"):
+        for key in ("time", "time_unit", "temperature"):
             if key in sec and (not isinstance(sec[key], str) or not sec[key].strip()):
                 raise StudyError(f"{fname}: [storage] {key} must be a name in quotes, "
-                                 "for example time = \"week\"")
+                                 f"for example {key} = \"{_EXAMPLE[key]}\"")
         out["time"] = sec.get("time", "time").strip()
         out["time_unit"] = sec.get("time_unit", out["time"] + "s").strip()
+        # the column of each measurement's storage temperature (degC), if any
+        out["temperature"] = sec["temperature"].strip() if "temperature" in sec else None
     else:
         scale = sec.get("scale")
         if not isinstance(scale, list) or len(scale) != 2:
@@ -157,13 +169,13 @@ def _options(study: Study, r: Response) -> dict:
                              "one I know: use 'up' (the property rises to the limit) or "
                              "'down' (it falls to it)")
         opts["direction"] = ex["direction"]
-    default_min = 3 if kind in ("rate", "time_to_limit") else (
-        2 if kind in PANEL_KINDS else 3)
+    opts.update(kinetic_options(ex, kind, fname, what))
+    default_min = 2 if kind in PANEL_KINDS else 3
     mp = ex.get("min_points", default_min)
     if isinstance(mp, bool) or not isinstance(mp, int) or mp < 1:
         raise StudyError(f"{fname}: {what}: min_points must be a whole number of 1 or "
                          f"more, found {mp!r}")
-    if kind in ("rate", "time_to_limit") and mp < 2:
+    if kind in ("rate",) + TEMPERATURE_KINDS and mp < 2:
         raise StudyError(f"{fname}: {what}: a fitted line needs min_points of 2 or more")
     opts["min_points"] = mp
     return opts

@@ -37,7 +37,7 @@ ORDERS = ("zero", "first")
 DIRECTIONS = ("up", "down")
 
 
-def read_storage(table: RawTable, *, time: str = "time",
+def read_storage(table: RawTable, *, time: str = "time", temperature: str | None = None,
                  run_ids: Iterable[str] | None = None) -> pd.DataFrame:
     """Check a long-form storage table and return it tidy.
 
@@ -48,6 +48,9 @@ def read_storage(table: RawTable, *, time: str = "time",
         given), ``property`` and ``value``.
     time : str
         Name of the time column.
+    temperature : str, optional
+        Name of the storage-temperature column (degC); it may be blank at
+        time 0 only (time 0 is before storage).
     run_ids : iterable of str, optional
         The study's run ids; a storage row for any other run is an error.
 
@@ -55,20 +58,22 @@ def read_storage(table: RawTable, *, time: str = "time",
     -------
     DataFrame
         Columns ``row`` (spreadsheet row), ``run``, ``time``, ``property``,
-        ``value`` (NaN where the cell is blank), in file order.
+        ``value`` (NaN where the cell is blank), ``temperature`` (degC; NaN
+        with no temperature column or a blank at time 0), in file order.
     """
     fname = table.source.name
     columns = {name: i for i, name in enumerate(table.header) if name}
-    needed = ("run", time, "property", "value")
+    needed = ("run", time, "property", "value") + ((temperature,) if temperature else ())
     for name in needed:
         if name not in columns:
             hint = (" (the time column is named by time = \"...\" in [storage])"
-                    if name == time else "")
+                    if name == time else " (named by temperature = \"...\" in [storage])"
+                    if name == temperature else "")
             raise DataError(f"{fname}: no column '{name}' in the storage table{hint}: "
                             f"expected columns {list(needed)}, found "
                             f"{[h for h in table.header if h]}")
     known = set(run_ids) if run_ids is not None else None
-    rows, runs, times, props, values = [], [], [], [], []
+    rows, runs, times, props, values, temps = [], [], [], [], [], []
     for row, cells in table.rows:
         def cell(name):
             i = columns[name]
@@ -100,14 +105,32 @@ def read_storage(table: RawTable, *, time: str = "time",
                              location=where(fname, row, "value"))
         # several rows for one run, time and property are pieces (packs pulled
         # together): kept as they are; value_at and change use their mean
+        temp = _temperature(cell(temperature), t, table, where(fname, row, temperature)) \
+            if temperature else math.nan
         rows.append(row)
         runs.append(run)
         times.append(t)
         props.append(prop)
         values.append(value)
+        temps.append(temp)
     return pd.DataFrame({"row": np.array(rows, dtype=int), "run": runs,
                          "time": np.array(times, float), "property": props,
-                         "value": np.array(values, float)})
+                         "value": np.array(values, float),
+                         "temperature": np.array(temps, float)})
+
+
+def _temperature(raw, t: float, table: RawTable, location: str) -> float:
+    """A storage temperature in degC: blank only at time 0 (before storage)."""
+    if raw is None:
+        if t > 0:
+            raise DataError(f"{location}blank storage temperature: every measurement "
+                            "after time 0 needs the temperature it was stored at (degC)")
+        return math.nan
+    temp = parse_number(raw, decimal_comma=table.decimal_comma, location=location)
+    if not -80 <= temp <= 150:
+        raise DataError(f"{location}storage temperature {temp:g} is not in degC (expected "
+                        "-80 to 150; a value in kelvin needs 273.15 taken off)")
+    return temp
 
 
 def _groups(run) -> tuple[np.ndarray, np.ndarray]:

@@ -50,12 +50,14 @@ SECTION_KEYS: dict[str, set[str]] = {
     | {"columns"}
     # derived responses (core/derived.py): computed from [storage] or [panel]
     | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
-       "direction", "min_points", "extrapolate"},
+       "direction", "min_points", "extrapolate",
+       # storage at several temperatures (core/derive/shelf.py)
+       "at_temperature", "estimate"},
     "constraints": {"rule", "label"},
     # confirmation runs (core/confirm.py): one run per table, or data = "file"
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
     # long-form tables for derived responses (core/storage.py, core/panel.py)
-    "storage": {"data", "sheet", "time", "time_unit"},
+    "storage": {"data", "sheet", "time", "time_unit", "temperature"},
     "panel": {"data", "sheet", "scale", "min_agreement"},
     # blends (core/study/mixture.py)
     "components": {"name", "label", "unit", "low", "high"},

@@ -181,7 +181,9 @@ min_points = 2
     assert t["R2"] == pytest.approx((30 - 20) / 1.0)       # 10 weeks, inside
     assert t["R4"] == pytest.approx((30 - 18) / 0.5)
     notes = "\n".join(study.notes)
-    assert "EXTRAPOLATED: the fitted curve reaches 30 after the last measured week" in notes
+    # 40 weeks is beyond 1.5 times the last measured week (12): the stronger flag
+    assert ("EXTRAPOLATED FAR BEYOND THE DATA: the fitted curve reaches 30 after more "
+            "than 1.5 times the last measured week") in notes
     assert "R1 (week 40, measured to 12)" in notes and "R2 (" not in notes.split(
         "EXTRAPOLATED")[1].split("\n")[0]
     assert SHELF_LIFE_CAUTION in notes

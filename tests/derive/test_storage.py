@@ -131,7 +131,8 @@ GOOD = "run,week,property,value\nR1,0,hardness,12\nR1,4,hardness,14\nR2,0,hardne
 
 def test_read_storage_tidy(tmp_path):
     frame = read_storage(_table(tmp_path, GOOD), time="week", run_ids=["R1", "R2"])
-    assert list(frame.columns) == ["row", "run", "time", "property", "value"]
+    assert list(frame.columns) == ["row", "run", "time", "property", "value", "temperature"]
+    assert frame["temperature"].isna().all()  # no temperature column named
     assert list(frame["row"]) == [2, 3, 4]
     assert list(frame["time"]) == [0, 4, 0]
 
