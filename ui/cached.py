@@ -20,7 +20,7 @@ from tradeoff.inputs import (draft_spec, study_from_files, with_production_sd,
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
            "contour", "contour_lines", "limits_map", "slices", "model_interaction",
-           "curves", "runs_table", "what_if"]
+           "curves", "runs_table", "what_if", "kinetics"]
 
 
 def _digest(*parts) -> str:
@@ -198,6 +198,20 @@ def _model_interaction(key: str, _study, _fit, response: str, a: str, b: str):
 def model_interaction(study, fitted, response: str, a: str, b: str):
     """The model's predictions at the ends of two factors (``slices.model_interaction``)."""
     return _model_interaction(study_keys(study)[0], study, fitted, response, a, b)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _kinetics(key: str, _study):
+    from tradeoff.derive.derived import kinetic_tables
+
+    return kinetic_tables(_study)
+
+
+def kinetics(study):
+    """Per-run tables and Arrhenius points of the responses fitted across storage
+    temperatures (``tradeoff.derive.derived.kinetic_tables``)."""
+    return _kinetics(_digest(origin_key(st.session_state["origin"]), study.confidence),
+                     study)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)

@@ -11,7 +11,7 @@ import pandas as pd
 
 __all__ = ["SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
            "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
-           "slice_chart", "titled", "fit_width", "BAR_STEP"]
+           "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart"]
 
 SCHEME = "viridis"
 DARK, LIGHT, MID = "#440154", "#fde725", "#21918c"  # viridis ends and middle
@@ -163,3 +163,25 @@ def slice_chart(part: pd.DataFrame, title: str, x_title: str):
     from tradeoff.report.pictures import slice_panel
 
     return fit_width(slice_panel(part, title, x_title, height=140))
+
+
+def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart:
+    """ln k against 1000 / T, one small panel per run (``arrhenius_table``'s columns).
+
+    Dots: each temperature's own straight-line rate; line: the one-step fit;
+    diamond: the temperature asked for.
+    """
+    data = points.dropna(subset=["ln_rate"])
+    x = alt.X("inv_temperature:Q", title="1000 / T (T in kelvin)",
+              scale=alt.Scale(zero=False))
+    y = alt.Y("ln_rate:Q", title="ln k", scale=alt.Scale(zero=False))
+    tips = ["run", "series", alt.Tooltip("temperature:Q", title="degC", format=".3g"),
+            alt.Tooltip("rate:Q", title="k", format=".4g")]
+    base = alt.Chart().encode(x=x, y=y, tooltip=tips)
+    line = base.transform_filter(alt.datum.series == "one-step fit").mark_line(color=MID)
+    dots = base.transform_filter(alt.datum.series == "own line").mark_circle(
+        size=60, color=DARK)
+    asked = base.transform_filter(alt.datum.series == "asked").mark_point(
+        shape="diamond", size=120, filled=True, color="#b5651d")
+    return alt.layer(line, dots, asked, data=data).properties(
+        width=220, height=160).facet(facet=alt.Facet("run:N", title=None), columns=columns)

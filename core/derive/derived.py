@@ -18,14 +18,15 @@ import pandas as pd
 from ..errors import DataError, StudyError, did_you_mean, where
 from ..study.intake import RawTable
 from .panel import adjusted_means, assessor_agreement, read_panel, run_means
-from .shelf import TEMPERATURE_KINDS, derive_kinetic, describe_kinetic, rows_at_temperature
+from .shelf import (TEMPERATURE_KINDS, arrhenius_points, derive_kinetic, describe_kinetic,
+                    rows_at_temperature)
 from .storage import fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage
 from .table import flag_notes as _flag_notes, name_list as _list, run_table as _table
 from ..study.spec import Response, Study
 from ..study.runs import read_study_table
 
 __all__ = ["DERIVE_KINDS", "DERIVED_COLUMNS", "check_derived", "add_derived_responses",
-           "derivation_table", "describe_derivation"]
+           "derivation_table", "describe_derivation", "arrhenius_table", "kinetic_tables"]
 
 from .options import (DERIVE_KINDS, DERIVED_COLUMNS, _POOR_FIT_R2, _options, _section,
                       check_derived)
@@ -407,6 +408,30 @@ def derivation_table(study: Study, name: str, *, storage: RawTable | None = None
         raise StudyError(f"response '{name}' is read from the runs table, not derived")
     results, _ = _derive_all(study, storage, panel, only=name)
     return results[name]
+
+
+def arrhenius_table(study: Study, name: str, *,
+                    storage: RawTable | None = None) -> pd.DataFrame:
+    """ln k against 1000 / T for each run of a temperature-aware storage response.
+
+    The tidy table behind the Arrhenius chart of the workbench and the report;
+    columns ``shelf.ARRHENIUS_COLUMNS`` (see ``shelf.arrhenius_points``).
+    """
+    r = study.response(name)
+    o = _options(study, r) if r.is_derived else {}
+    if o.get("kind") not in TEMPERATURE_KINDS:
+        raise StudyError(f"response '{name}' is not fitted across storage temperatures "
+                         f"(derive = one of {', '.join(TEMPERATURE_KINDS)})")
+    sec, fname, frame = _tables(study, storage, None, {"storage"})["storage"]
+    return arrhenius_points(_subset(frame, "property", o["property"], fname, r), o)
+
+
+def kinetic_tables(study: Study) -> dict:
+    """Every response fitted across storage temperatures: name -> {"table":
+    its derivation table, "points": its Arrhenius table}, in study order."""
+    return {r.name: {"table": derivation_table(study, r.name),
+                     "points": arrhenius_table(study, r.name)}
+            for r in study.responses if r.extra.get("derive") in TEMPERATURE_KINDS}
 
 
 def describe_derivation(study: Study, response: Response) -> str:

@@ -25,7 +25,7 @@ from .table import flag_notes, name_list, run_table
 
 __all__ = ["TEMPERATURE_KINDS", "ESTIMATES", "EA_TYPICAL", "FAR_BEYOND",
            "kinetic_options", "tested_temperatures", "rows_at_temperature",
-           "derive_kinetic", "describe_kinetic"]
+           "derive_kinetic", "describe_kinetic", "ARRHENIUS_COLUMNS", "arrhenius_points"]
 
 TEMPERATURE_KINDS = ("time_to_limit", "shelf_life", "activation_energy", "q10", "rate_at")
 ESTIMATES = ("bound", "mean")
@@ -364,3 +364,45 @@ def describe_kinetic(opts: dict, sec: dict) -> str:
     return (f"{what}, from {fit}; 0 when already past at the start, left out when it "
             f"never reaches it, flagged beyond the last measured {t}; not a safety "
             "determination")
+
+
+ARRHENIUS_COLUMNS = ["run", "series", "temperature", "inv_temperature", "ln_rate", "rate"]
+
+
+def arrhenius_points(sub: pd.DataFrame, opts: dict) -> pd.DataFrame:
+    """The tidy table behind the Arrhenius chart: ln k against 1000 / T per run.
+
+    ``series`` is ``"own line"`` (each tested temperature's own straight-line
+    rate, time 0 shared), ``"one-step fit"`` (the fitted Arrhenius line, its two
+    ends) or ``"asked"`` (the fit at ``at_temperature``). ``inv_temperature`` is
+    1000 / T in 1/kK (T in kelvin), ``ln_rate`` is ln |k| (a falling property
+    has k < 0; rates of the other sign are left out of the log).
+    """
+    from .kinetics import per_temperature_rates
+
+    order = opts["order"]
+    own = per_temperature_rates(sub["run"], sub["time"], sub["temperature"], sub["value"],
+                                order=order)
+    fit = fit_arrhenius(sub["run"], sub["time"], sub["temperature"], sub["value"],
+                        order=order)
+    at = opts.get("at_temperature")
+    rows = [{"run": r["run"], "series": "own line", "temperature": r["temperature"],
+             "rate": r["rate"]} for _, r in own.iterrows()]
+    for i, run in enumerate(fit.runs):
+        temps = own.loc[own["run"] == run, "temperature"].to_numpy(float)
+        if not fit.ok[i] or fit.n_temperatures[i] < 2:
+            continue
+        ends = [temps.min(), temps.max()] + ([at] if at is not None else [])
+        for T in (min(ends), max(ends)):
+            rows.append({"run": run, "series": "one-step fit", "temperature": T,
+                         "rate": float(rate_at(fit, T)[0][i])})
+        if at is not None:
+            rows.append({"run": run, "series": "asked", "temperature": at,
+                         "rate": float(rate_at(fit, at)[0][i])})
+    out = pd.DataFrame(rows, columns=["run", "series", "temperature", "rate"])
+    sign = np.sign(np.nanmedian(out["rate"])) if len(out) else 1.0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out["ln_rate"] = np.log(np.where(sign * out["rate"] > 0, np.abs(out["rate"]),
+                                         np.nan))
+    out["inv_temperature"] = 1000.0 / kelvin(out["temperature"].to_numpy(float))
+    return out[ARRHENIUS_COLUMNS]

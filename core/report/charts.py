@@ -9,7 +9,7 @@ import pandas as pd
 
 from .data import _get, _is_clear
 
-__all__ = ["_svg", "_chart_div", "_effects_chart", "_curve_chart"]
+__all__ = ["_svg", "_chart_div", "_effects_chart", "_curve_chart", "_arrhenius_chart"]
 
 _CLEAR, _NOISE, _CURVE, _MARK = "#2d4a53", "#cbbfa9", "#b5651d", "#2d4a53"
 
@@ -82,3 +82,26 @@ def _curve_chart(item, part: pd.DataFrame, marker) -> str:
             x="value:Q", y="desirability:Q")
         layers.append(dot)
     return _svg(alt.layer(*layers).properties(width=230, height=150))
+
+
+def _arrhenius_chart(title: str, points: pd.DataFrame) -> str:
+    """ln k against 1000 / T per run: own-line rates, the one-step fit, the asked point."""
+    import altair as alt
+
+    data = points.dropna(subset=["ln_rate"])
+    if data.empty:
+        return ""
+    base = alt.Chart().encode(
+        x=alt.X("inv_temperature:Q", title="1000 / T (T in kelvin)",
+                scale=alt.Scale(zero=False)),
+        y=alt.Y("ln_rate:Q", title="ln k", scale=alt.Scale(zero=False)))
+    line = base.transform_filter(alt.datum.series == "one-step fit").mark_line(
+        color=_CURVE, strokeWidth=2)
+    dots = base.transform_filter(alt.datum.series == "own line").mark_circle(
+        size=40, color=_MARK)
+    asked = base.transform_filter(alt.datum.series == "asked").mark_point(
+        shape="diamond", size=90, filled=True, color=_CURVE)
+    chart = alt.layer(line, dots, asked, data=data).properties(
+        width=150, height=110).facet(facet=alt.Facet("run:N", title=None), columns=5,
+                                     title=title)
+    return _svg(chart)

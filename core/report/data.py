@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from ..cautions import FOOD_CAUTIONS
+from ..cautions import ACCELERATED_CAUTIONS, FOOD_CAUTIONS
 from ..errors import StudyError, TradeoffError
 from .summary import study_summary
 
@@ -54,11 +54,16 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         ``search_note`` (why there is no result), ``confirmation``
         (ConfirmationCheck or None), ``curves`` (DataFrame of desirability
         curves), ``warnings`` (list of text), ``specification`` (TOML text),
-        ``provenance`` (dict), ``top``, ``seed``.
+        ``provenance`` (dict), ``top``, ``seed``, ``kinetics`` (response ->
+        {"table": derivation table, "points": Arrhenius table} for the
+        responses fitted across storage temperatures) and ``cautions`` (the
+        food cautions, plus the accelerated-storage ones when storage at
+        several temperatures was fitted).
     """
     import tomli_w
 
     from ..confirm.check import check_confirmations
+    from ..derive.derived import kinetic_tables
     from ..study.confirmations import confirmation_files
     from .maps import desirability_curves, runs_table
     from ..model.study_fit import fit_study
@@ -112,7 +117,11 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     seen: set[str] = set()
     warnings = [w for w in warnings if not (w in seen or seen.add(w))]
 
+    kinetics = kinetic_tables(study)
+    several = any((k["points"]["series"] == "one-step fit").any() for k in kinetics.values())
     return {
+        "kinetics": kinetics,
+        "cautions": list(CAUTIONS) + (list(ACCELERATED_CAUTIONS) if several else []),
         "study": study_summary(study),
         "runs": runs_table(study, fit),
         "models": models,

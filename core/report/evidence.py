@@ -8,7 +8,7 @@ from __future__ import annotations
 import pandas as pd
 
 from ..model.terms import model_label
-from .charts import _chart_div, _effects_chart
+from .charts import _arrhenius_chart, _chart_div, _effects_chart
 from .data import _g, _get, _is_clear, _p, _r2
 from .sections import _Sections, _table, esc
 
@@ -48,6 +48,38 @@ class _EvidenceSections(_Sections):
             out.append(self._flagged(r.name, rep))
             for w in rep.get("warnings", []):
                 out.append(f'<p class="note">Note: {esc(w)}</p>')
+            out.append("</div>")
+        return "".join(out)
+
+    def kinetics(self) -> str:
+        """Each response fitted across storage temperatures: its per-run table and,
+        once per property, the Arrhenius chart."""
+        from ..derive.derived import describe_derivation
+
+        out = ["<p>Each run's storage measurements at every temperature are fitted at "
+               "once, with a rate that follows the Arrhenius law. Lower and upper give "
+               "each estimate's interval; the counts are storage times per temperature, "
+               "time 0 included. The charts show ln k against 1000 / T per run: dots "
+               "are each temperature's own straight-line rate, the line is the one-step "
+               "fit, the diamond the temperature asked for.</p>"]
+        charted = set()
+        for name, k in self.data["kinetics"].items():
+            r = self.study.response(name)
+            out.append(f'<div class="response"><h3>{esc(r.display())}</h3>'
+                       f'<p class="note">{esc(describe_derivation(self.study, r))}</p>')
+            rows = [[esc(t["run"]), _g(t["value"]), _g(t["lower"]), _g(t["upper"]),
+                     _g(t["se"]), _g(t["r_squared"], 3), esc(t["per_temperature"]),
+                     esc(t["flag"])] for _, t in k["table"].iterrows()]
+            out.append(f"<details><summary>Per-run values ({len(rows)} runs)</summary>"
+                       '<div class="scroll">' + _table(
+                           ["run", "value", "lower", "upper", "standard error", "R2",
+                            "storage times per temperature", "flag"], rows,
+                           numeric={1, 2, 3, 4, 5}) + "</div></details>")
+            key = (r.extra.get("property"), r.extra.get("order", "zero"))
+            if key not in charted:
+                charted.add(key)
+                out.append(_chart_div(_arrhenius_chart(
+                    f"Arrhenius chart: {key[0]} ({key[1]} order)", k["points"])))
             out.append("</div>")
         return "".join(out)
 

@@ -119,6 +119,8 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections):
             ("confirmation", "Confirmation runs", self.confirmation()),
             ("targets", "Targets", self.targets()),
             ("models", "What drives each response", self.models()),
+            *([("kinetics", "Storage kinetics", self.kinetics())]
+              if self.data.get("kinetics") else []),
             ("design", "The runs (design)", self.design()),
             ("warnings", "Warnings", self.warnings()),
             ("cautions", "Cautions", self.cautions()),
@@ -146,7 +148,9 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections):
 
     def cautions(self) -> str:
         return ('<div class="caution"><ul>' + "".join(f"<li>{esc(c)}</li>"
-                                                      for c in CAUTIONS) + "</ul></div>")
+                                                      for c in self.data.get(
+                                                          "cautions", CAUTIONS))
+                + "</ul></div>")
 
     def reproduce(self) -> str:
         prov = self.data["provenance"]

@@ -187,3 +187,17 @@ def test_uploaded_report_fingerprints_the_named_data_file(monkeypatch):
     assert not at.exception and not at.error
     assert hashlib.sha256(seen["data_bytes"]).hexdigest() == \
         hashlib.sha256(BASIC_RUNS.encode()).hexdigest()
+
+
+def test_storage_kinetics_show_a_table_and_an_arrhenius_chart():
+    # The invented three-temperature demo, uploaded with its tables.
+    at = start("study")
+    names = ("snack_bar_shelf.toml", "snack_bar_runs.csv", "snack_bar_storage_temps.csv")
+    at.file_uploader[0].set_value([(n, (DEMO.parent / n).read_bytes(), "text/plain")
+                                   for n in names]).run()
+    assert not at.exception and not at.error
+    assert any(s.value == "Storage kinetics" for s in at.subheader)
+    table = at.dataframe[3].value
+    assert len(table) == 20 and {"lower", "upper", "per_temperature"} <= set(table.columns)
+    assert len(at.get("vega_lite_chart")) == 1
+    assert any("microbial safety" in c.value for c in at.caption)

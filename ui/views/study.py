@@ -6,10 +6,10 @@ import hashlib
 import pandas as pd
 import streamlit as st
 
-from tradeoff import TradeoffError
+from tradeoff import ACCELERATED_CAUTIONS, TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
-from tradeoff_ui import cached, state, text
+from tradeoff_ui import cached, charts, state, text
 from tradeoff_ui.shown import blank_none
 
 ss = st.session_state
@@ -98,6 +98,7 @@ except TradeoffError:
     fitted = None  # the runs still show, marked for the box and blanks only
 try:
     table = cached.runs_table(study, fitted)
+    kinetics = cached.kinetics(study)
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
@@ -148,3 +149,25 @@ with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"):
     st.dataframe(coded, hide_index=True, height=35 * (rows + 1) + 3,
                  column_config={f"{f} coded": st.column_config.NumberColumn(format="%+.2f")
                                 for f in factors})
+
+if kinetics:
+    st.subheader("Storage kinetics")
+    st.write("Each run's storage measurements at every temperature are fitted at once, "
+             "with a rate that follows the Arrhenius law. Lower and upper give each "
+             "estimate's interval; the counts are storage times per temperature, time 0 "
+             "included.")
+    st.info(" ".join(ACCELERATED_CAUTIONS))
+    name = st.selectbox("Response", list(kinetics), key=f"kinetics_response_{ss['epoch']}",
+                        format_func=lambda n: study.response(n).display())
+    st.dataframe(kinetics[name]["table"][
+        ["run", "value", "lower", "upper", "se", "r_squared", "points", "per_temperature",
+         "flag"]], hide_index=True,
+        column_config={"r_squared": st.column_config.NumberColumn("R2", format="%.3f"),
+                       "se": st.column_config.NumberColumn("standard error"),
+                       "per_temperature": st.column_config.TextColumn(
+                           "storage times per temperature"),
+                       "flag": st.column_config.TextColumn("flag", width="large")})
+    st.write("ln k against 1000 / T for each run: dots are each temperature's own "
+             "straight-line rate, the line is the one-step fit, the diamond the "
+             "temperature asked for.")
+    st.altair_chart(charts.arrhenius_chart(kinetics[name]["points"]))
