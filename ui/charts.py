@@ -183,5 +183,6 @@ def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart
         size=60, color=DARK)
     asked = base.transform_filter(alt.datum.series == "asked").mark_point(
         shape="diamond", size=120, filled=True, color="#b5651d")
+    # four small panels fit a 1280-pixel-wide window beside the sidebar
     return alt.layer(line, dots, asked, data=data).properties(
-        width=220, height=160).facet(facet=alt.Facet("run:N", title=None), columns=columns)
+        width=150, height=120).facet(facet=alt.Facet("run:N", title=None), columns=columns)

@@ -55,7 +55,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
     if check is not None:
         summary += [(f"confirmation: {v['response']}", v["verdict"])
                     for _, v in check.verdicts.iterrows()]
-    summary += [("caution", c) for c in CAUTIONS]
+    summary += [("caution", c) for c in data.get("cautions", CAUTIONS)]
     tables = {"summary": pd.DataFrame(summary, columns=["item", "value"]).astype(
         {"value": str})}
 
@@ -113,6 +113,11 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
                                                        "clear"])
     if scale_rows:
         tables["length scales"] = pd.DataFrame(scale_rows)
+    if data.get("kinetics"):  # responses fitted across storage temperatures
+        tables["storage kinetics"] = pd.concat(
+            [k["table"].assign(response=name) for name, k in data["kinetics"].items()],
+            ignore_index=True)[["response", "run", "value", "lower", "upper", "se",
+                                "r_squared", "points", "per_temperature", "flag"]]
     tables["goals"] = pd.DataFrame(_goal_rows(study))
 
     sol_rows = []

@@ -200,4 +200,4 @@ def test_storage_kinetics_show_a_table_and_an_arrhenius_chart():
     table = at.dataframe[3].value
     assert len(table) == 20 and {"lower", "upper", "per_temperature"} <= set(table.columns)
     assert len(at.get("vega_lite_chart")) == 1
-    assert any("microbial safety" in c.value for c in at.caption)
+    assert any("microbial safety" in i.value for i in at.info)
