@@ -71,10 +71,11 @@ def pure_error(X: np.ndarray, y: np.ndarray, block=None) -> tuple[float, int, np
 
 
 def curvature_test(X: np.ndarray, y: np.ndarray, ss_pe: float, df_pe: int,
-                   block=None) -> dict | None:
+                   block=None, categorical=None) -> dict | None:
     """Curvature test for a two-level design with centre points, or None.
 
-    Numeric factors are the columns with a setting other than -1 and +1. The
+    Numeric factors are the columns with a setting other than -1 and +1 (and
+    not marked in ``categorical``, one boolean per column). The
     test applies when every run has all numeric factors at -1/+1 (factorial)
     or all at 0 (centre), with some of each. SS = nF nC (yF - yC)^2 / (nF + nC)
     on 1 degree of freedom, tested against pure error.
@@ -91,6 +92,8 @@ def curvature_test(X: np.ndarray, y: np.ndarray, ss_pe: float, df_pe: int,
     absX = np.abs(X)
     at_one = np.abs(absX - 1.0) <= 1e-8 + 1e-5 * 1.0
     numeric = ~np.all(at_one, axis=0)
+    if categorical is not None:
+        numeric &= ~np.asarray(categorical, dtype=bool)
     if not numeric.any():
         return None
     factorial = np.all(at_one[:, numeric], axis=1)
@@ -125,7 +128,7 @@ def _lstsq(A: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float]:
 
 
 def anova_table(X: np.ndarray, y: np.ndarray, sse: float, n_terms: int,
-                block=None) -> dict:
+                block=None, categorical=None) -> dict:
     """The ANOVA of a model with an intercept and ``n_terms`` terms in all.
 
     ``block`` (one label per run) marks a model with b - 1 block columns
@@ -165,7 +168,7 @@ def anova_table(X: np.ndarray, y: np.ndarray, sse: float, n_terms: int,
     elif df_pe > 0:
         rows["pure_error"] = _row(ss_pe, df_pe)
     rows["total"] = _row(sst, n - 1)
-    rows["curvature"] = curvature_test(X, y, ss_pe, df_pe, block)
+    rows["curvature"] = curvature_test(X, y, ss_pe, df_pe, block, categorical)
     return rows
 
 

@@ -5,6 +5,8 @@ import math
 
 import numpy as np
 
+from .levels import level_means
+
 
 __all__ = ["response_report", "clean_json", "finite_or_none"]
 
@@ -46,6 +48,9 @@ def response_report(model) -> dict:
         "blocks": clean_json(model.blocks_),
         "anova": clean_json(model.anova_),
         "natural_coefficients": clean_json(model.natural_coefficients_),
+        # last levels of factors with three or more levels (minus the sum of the others)
+        "derived_coefficients": clean_json(model.derived_coefficients_),
+        "level_means": clean_json(level_means(model)),
         "box_cox": clean_json(model.box_cox_),
         "reduction": None if model.reduction_ is None else {
             "from": list(model.requested_terms_), "dropped": dict(model.reduction_)},

@@ -6,39 +6,42 @@ from typing import Sequence
 
 import numpy as np
 
-from .terms import Term, term_label
+from .terms import Term, column_label, term_label
 
 __all__ = ["fitted_equations", "natural_equation"]
 
 
 def fitted_equations(terms: Sequence[Term], coef: np.ndarray, factors,
-                     factor_names: list[str], mixture=None):
+                     factor_names: list[str], mixture=None, levels=None):
     """(natural, proportion): the equation in natural units (None for a blend, or
     without the Factor objects) and, for a blend (``mixture``, a MixtureInfo),
     the Scheffe equation in proportions of the total (model/scheffe.py)."""
     if mixture is None:
-        return natural_equation(terms, coef, factors, factor_names), None
+        return natural_equation(terms, coef, factors, factor_names, levels), None
     from .scheffe import proportion_equation
 
     return None, proportion_equation(terms, coef, factor_names, mixture)
 
 
 def natural_equation(terms: Sequence[Term], coef: np.ndarray, factors,
-                     factor_names: list[str]) -> dict[str, float] | None:
+                     factor_names: list[str], levels=None) -> dict[str, float] | None:
     """The fitted equation with numeric factors in natural units.
 
-    Categorical factors stay coded: -1 at their first level, +1 at their second.
+    Categorical factors stay coded: -1 at their first level, +1 at their
+    second; a level column of a factor with three or more levels (``levels``,
+    as ``tradeoff.model.terms.model_terms`` takes them) stays as it is.
     """
     if factors is None:
         return None
     k = len(factor_names)
-    poly: dict[tuple[int, ...], float] = {}
+    poly: dict[tuple, float] = {}  # (powers, level cells) -> coefficient
     for t, b in zip(terms, coef):
         if t.is_block:
             continue  # the equation is for the average block
         part = {(0,) * k: float(b)}
+        levelled = {j for j, _, _ in t.cells}
         for j, pw in enumerate(t.powers):
-            if not pw:
+            if not pw or j in levelled:
                 continue
             f = factors[j]
             c, h = (0.0, 1.0) if f.is_categorical else (f.centre, f.half_range)
@@ -53,7 +56,10 @@ def natural_equation(terms: Sequence[Term], coef: np.ndarray, factors,
                     new[tuple(q)] = new.get(tuple(q), 0.0) + val * a
             part = new
         for powers, val in part.items():
-            poly[powers] = poly.get(powers, 0.0) + val
-    order = {t.powers: i for i, t in enumerate(terms) if not t.is_block}
-    keys = sorted(poly, key=lambda q: (sum(q), order.get(q, len(order)), q))
-    return {term_label(q, list(factor_names)): poly[q] for q in keys}
+            q = tuple(1 if j in levelled else v for j, v in enumerate(powers))
+            key = (q, tuple(c for c in t.cells if q[c[0]]))
+            poly[key] = poly.get(key, 0.0) + val
+    order = {(t.powers, t.cells): i for i, t in enumerate(terms) if not t.is_block}
+    keys = sorted(poly, key=lambda q: (sum(q[0]), order.get(q, len(order)), q))
+    return {column_label(q, list(factor_names), cells, levels): poly[(q, cells)]
+            for q, cells in keys}

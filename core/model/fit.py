@@ -31,6 +31,8 @@ from .anova import anova_table
 from .diagnostics import diagnostic_arrays, run_diagnostics
 from ..errors import ModelError
 from .lenth import half_normal_points, lenth
+from .levels import derived_coefficients, factor_levels, term_tests
+from .reduce import backward_eliminate
 from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
@@ -153,7 +155,9 @@ class ResponseModel:
         if not isinstance(self.terms, str) or self.terms == "quadratic":
             Xs = np.sort(np.round(X, 9), axis=0)
             n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
-        terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name)
+        self._levels = factor_levels(self.factors)
+        terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name,
+                                   levels=self._levels)
         if self.mixture is not None:  # Scheffe: the blending terms stand for the intercept
             terms = [t for t in terms if not t.is_intercept]
         warnings += notes
@@ -243,11 +247,11 @@ class ResponseModel:
                                  "blocks are always in the model; list factor terms "
                                  f"to {what}")
             t = parse_term(text, list(self.factor_names), response=self.name)
-            match = [u for u in terms if u.powers == t.powers]
+            match = [u for u in terms if u.powers == t.powers]  # every column of it
             if not match:
                 raise ModelError(f"response '{self.name}': term '{text}' to {what} is not "
                                  f"in the model {[u.label for u in terms]}: check the name")
-            out.append(match[0])
+            out.extend(match)
         return out
 
     def _too_many(self, p: int, n: int, k: int, n_blocks: int = 0) -> str:
@@ -270,42 +274,9 @@ class ResponseModel:
         """Hierarchical backward elimination (p-values, or Lenth's ME when saturated)."""
         pinned = (hierarchy_closure(keep_terms, terms) | {"intercept"}
                   | {t.label for t in terms if t.is_block})
-        log: dict[str, str] = {}
-        sol = LeastSquares(M, z, qr)
-        if sol.df == 0:
-            eff_idx = self._effect_index(terms)
-            if len(eff_idx) < 3:
-                return terms, M, log
-            effects = 2 * sol.coef[eff_idx]
-            res = lenth(effects, level=self.confidence)
-            active = [terms[i] for i, e in zip(eff_idx, effects) if abs(e) > res.me]
-            active += [t for t in terms if t.is_square]
-            keep = hierarchy_closure(active, terms) | pinned
-            kept_idx = [i for i, t in enumerate(terms) if t.label in keep]
-            for i, e in zip(eff_idx, effects):
-                if terms[i].label not in keep:
-                    log[terms[i].label] = f"|effect| {abs(e):.4g} below Lenth ME {res.me:.4g}"
-            return [terms[i] for i in kept_idx], M[:, kept_idx], log
-        idx = list(range(len(terms)))
-        while True:
-            current = [terms[i] for i in idx]
-            candidates = [j for j, t in enumerate(current)
-                          if t.label not in pinned
-                          and not any(u.contains(t) for u in current)]
-            if not candidates or sol.p is None:
-                break
-            # Terms of an orthogonal design often tie exactly; rounding away the last
-            # digits lets the rule (the later term goes first) break the tie, not
-            # floating-point noise that changes with the QR route or the BLAS.
-            ranked = np.round(np.nan_to_num(sol.p, nan=1.0), 10)
-            worst = max(candidates, key=lambda j: (ranked[j], j))
-            pw = float(sol.p[worst])
-            if not pw > self.alpha:
-                break
-            log[current[worst].label] = f"p = {pw:.3g}"
-            del idx[worst]
-            sol = LeastSquares(M[:, idx], z)
-        return [terms[i] for i in idx], M[:, idx], log
+        return backward_eliminate(terms, M, z, pinned, alpha=self.alpha,
+                                  confidence=self.confidence, qr=qr,
+                                  effect_index=self._effect_index)
 
     def _set_results(self, X, y, z, ids, terms, sol: LeastSquares, aliases, warnings,
                      block=None, levels=(), confounded=None) -> None:
@@ -335,8 +306,11 @@ class ResponseModel:
         self.t_values_ = None if sol.t is None else sol.t.copy()
         self.p_values_ = None if sol.p is None else sol.p.copy()
         eff = set(self._effect_index(terms))
-        self.effects_ = np.array([2 * b if i in eff else np.nan
-                                  for i, b in enumerate(sol.coef)])
+        # low-to-high change; for a level of a factor with three or more levels,
+        # its deviation from the average over levels (its coefficient)
+        self.effects_ = np.array([b if t.cells and not t.is_square else
+                                  2 * b if i in eff else np.nan
+                                  for i, (t, b) in enumerate(zip(terms, sol.coef))])
         with np.errstate(divide="ignore", invalid="ignore"):
             self.sum_squares_ = sol.coef ** 2 / sol.cdiag  # adjusted SS, 1 df each
 
@@ -367,7 +341,14 @@ class ResponseModel:
                                 "Lenth's method: no error estimate, no intervals")
 
         # ANOVA, lack of fit and curvature on the modelling scale.
-        self.anova_ = anova_table(X, z, sol.sse, p, block)
+        cat = [f is not None and f.is_categorical for f in (self.factors or [None] * len(
+            self.factor_names))]
+        self.anova_ = anova_table(X, z, sol.sse, p, block, categorical=cat)
+        # each term as a whole (all its columns, one F test), and last levels
+        self.anova_["terms"] = term_tests(terms, sol.coef, sol.Rinv, sol.sse, sol.df)
+        self.derived_coefficients_ = derived_coefficients(
+            terms, sol.coef, sol.Rinv, self.sigma_, self.sigma_df_,
+            list(self.factor_names), self._levels)
         self.blocks_ = self._block_results(terms, sol, levels, block, confounded or {})
         lof = self.anova_.get("lack_of_fit")
         if lof is not None and lof["p"] == lof["p"] and lof["p"] < 0.05:
@@ -404,7 +385,8 @@ class ResponseModel:
         self._box_cox = None
         # the equation in natural units, or for a blend in proportions of the total
         self.natural_coefficients_, self.proportion_coefficients_ = fitted_equations(
-            terms, sol.coef, self.factors, list(self.factor_names), self.mixture)
+            terms, sol.coef, self.factors, list(self.factor_names), self.mixture,
+            levels=self._levels)
         self._warnings = warnings
         # What prediction needs, precomputed once: block columns are 0 at the
         # average block, so only the factor terms' rows take part.

@@ -46,6 +46,8 @@ def near_alias_notes(terms, M: np.ndarray, cdiag: np.ndarray,
 
 
 def effect_index(terms) -> list[int]:
-    """Positions of the factor effects (no intercept, square or block term)."""
+    """Positions of the factor effects: no intercept, square, block term, nor a
+    level column of a factor with three or more levels (a deviation from the
+    average over levels, not a low-to-high change)."""
     return [i for i, t in enumerate(terms)
-            if not (t.is_intercept or t.is_square or t.is_block)]
+            if not (t.is_intercept or t.is_square or t.is_block or t.cells)]

@@ -4,6 +4,16 @@ A term is a product of coded factor columns. Labels: ``intercept``; a main
 effect is the factor's name; an interaction joins names with ``:`` in the
 study's factor order (``protein:glycerol``); a square is ``name^2``.
 Internally a term is a tuple of powers, one per factor in study order.
+
+A categorical factor with three or more levels is sum-to-zero (effect) coded:
+one column per level but the last, +1 at that level, -1 at the last level, 0
+elsewhere, so each coefficient is that level's deviation from the average over
+levels (the last level's is minus the sum of the others). Its columns are
+labelled ``flour[oat]``, ``sugar:flour[oat]``, ``flour[oat]:film[pe]``; every
+column of one model term shares the term's ``group`` label (``flour``,
+``sugar:flour``), which tests, reduction and hierarchy treat as a whole. In
+the coded settings such a factor's column holds the level's position 0, 1, ...
+(``tradeoff.study.coding``); two-level categorical factors keep -1/+1.
 """
 from __future__ import annotations
 
@@ -20,9 +30,9 @@ from scipy.linalg import qr as _scipy_qr
 
 from ..errors import ModelError
 
-__all__ = ["MODEL_NAMES", "Term", "term_label", "parse_term", "model_terms", "model_matrix",
-           "qr", "QRFactors", "find_aliases", "hierarchy_closure", "named_model_size",
-           "BlockTerm", "block_terms", "model_label", "ContrastTerm"]
+__all__ = ["MODEL_NAMES", "Term", "term_label", "column_label", "parse_term", "model_terms",
+           "model_matrix", "qr", "QRFactors", "find_aliases", "hierarchy_closure",
+           "named_model_size", "BlockTerm", "block_terms", "model_label", "ContrastTerm"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 
@@ -39,12 +49,24 @@ _ALIAS_TOL = 1e-9
 
 @dataclass(frozen=True)
 class Term:
-    """One model term: ``powers[j]`` is the power of factor j (0, 1 or 2)."""
+    """One model column: ``powers[j]`` is the power of factor j (0, 1 or 2).
+
+    ``cells`` holds ``(factor, level, n_levels)`` for each factor of three or
+    more levels in the term (the level whose sum-to-zero column this is);
+    ``group`` is the label of the whole term the column belongs to (the
+    column's own label when the term has one column).
+    """
 
     label: str
     powers: tuple[int, ...]
+    cells: tuple = ()
+    group: str = ""
     # True for a term whose column is not a product of powers (ContrastTerm)
     custom = False
+
+    def __post_init__(self):
+        if not self.group:
+            object.__setattr__(self, "group", self.label)
 
     # Cached: a fit reads these for every term several times, and the Term
     # objects of a named model are shared between fits (model_terms caches them).
@@ -124,7 +146,7 @@ class ContrastTerm(Term):
             label += ":" + term_label(rest, names)
         key = list(rest)
         key[i], key[j] = 2, 1
-        return cls(label, tuple(int(p) for p in key), i, j)
+        return cls(label, tuple(int(p) for p in key), first=i, second=j)
 
     @property
     def order(self) -> int:
@@ -172,7 +194,7 @@ def block_terms(block, k: int) -> tuple[list[BlockTerm], np.ndarray, list[str]]:
     for j, level in enumerate(levels[1:]):
         columns[labels == level, j] = 1.0
         columns[first, j] = -1.0
-        terms.append(BlockTerm(f"block[{level}]", (0,) * k, level))
+        terms.append(BlockTerm(f"block[{level}]", (0,) * k, level=level))
     return terms, columns, levels
 
 
@@ -194,6 +216,41 @@ def term_label(powers: Sequence[int], names: Sequence[str]) -> str:
 
 def _term(powers: Sequence[int], names: Sequence[str]) -> Term:
     return Term(term_label(powers, names), tuple(int(p) for p in powers))
+
+
+def column_label(powers: Sequence[int], names: Sequence[str], cells=(),
+                 levels: Sequence | None = None) -> str:
+    """The label of one column: ``term_label`` with ``name[level]`` for the
+    factors listed in ``cells`` as ``(factor, level index, n_levels)``."""
+    if not cells:
+        return term_label(powers, names)
+    at = {j: l for j, l, _ in cells}
+    parts = []
+    for j, p in enumerate(powers):
+        if not p:
+            continue
+        if j in at:
+            parts.append(f"{names[j]}[{levels[j][at[j]]}]")
+        else:
+            parts.append(names[j] if p == 1 else f"{names[j]}^{p}")
+    return ":".join(parts)
+
+
+def _expand_levels(terms: list[Term], names: Sequence[str], levels) -> list[Term]:
+    """Each term with a factor of three or more levels -> its sum-to-zero columns."""
+    if levels is None or not any(v is not None for v in levels):
+        return terms
+    out = []
+    for t in terms:
+        multi = [j for j in t.factors if levels[j] is not None]
+        if not multi:
+            out.append(t)
+            continue
+        for combo in itertools.product(*[range(len(levels[j]) - 1) for j in multi]):
+            cells = tuple((j, l, len(levels[j])) for j, l in zip(multi, combo))
+            out.append(Term(column_label(t.powers, names, cells, levels), t.powers,
+                            cells=cells, group=t.label))
+    return out
 
 
 def parse_term(text: str, factor_names: Sequence[str], *, response: str = "response") -> Term:
@@ -225,6 +282,11 @@ def parse_term(text: str, factor_names: Sequence[str], *, response: str = "respo
                 raise ModelError(f"{where}: only squares ('{base}^2') are supported, "
                                  f"found power '{exp.strip()}'")
             power = 2
+        if "[" in base and base.partition("[")[0].strip() in names:
+            whole = base.partition("[")[0].strip()
+            raise ModelError(f"{where}: name the whole factor '{whole}', not one of its "
+                             "levels: a categorical factor's levels enter and leave the "
+                             "model together")
         if base not in names:
             close = difflib.get_close_matches(base, names, n=1, cutoff=0.6)
             hint = f" (did you mean '{close[0]}'?)" if close else ""
@@ -270,7 +332,8 @@ def named_model_size(model: str, k: int, n_squares: int | None = None) -> int:
 
 def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
                 n_settings: Sequence[int] | None = None,
-                response: str = "response") -> tuple[list[Term], list[str]]:
+                response: str = "response",
+                levels: Sequence | None = None) -> tuple[list[Term], list[str]]:
     """The terms of a named model or an explicit list, intercept first.
 
     Parameters
@@ -281,10 +344,13 @@ def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
         ``quadratic`` squares only factors with three or more settings; an
         explicit square of a factor with two settings is refused.
     response : the response's name, for messages.
+    levels : per factor, its level names when it is categorical with three or
+        more levels (None otherwise): such a term expands to its sum-to-zero
+        columns (see the module's docstring) and has no square.
 
     Returns
     -------
-    terms, notes : the terms (intercept first, then by order) and remarks for the user.
+    terms, notes : the columns (intercept first, then by order) and remarks for the user.
     """
     if not isinstance(spec, (str, bytes, dict)) and spec and all(
             isinstance(t, Term) for t in spec):
@@ -292,22 +358,31 @@ def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
     key_spec = spec if isinstance(spec, str) else tuple(spec) if not isinstance(
         spec, (bytes, dict)) else spec
     try:
+        key_levels = None if levels is None else tuple(
+            None if v is None else tuple(v) for v in levels)
         terms, notes = _model_terms_cached(
             key_spec, tuple(factor_names),
-            None if n_settings is None else tuple(int(v) for v in n_settings), response)
+            None if n_settings is None else tuple(int(v) for v in n_settings), response,
+            key_levels)
     except TypeError:  # unhashable: let the uncached path explain what is wrong
-        terms, notes = _model_terms(spec, factor_names, n_settings, response)
+        terms, notes = _model_terms(spec, factor_names, n_settings, response, levels)
     return list(terms), list(notes)
 
 
 @functools.lru_cache(maxsize=256)
-def _model_terms_cached(spec, factor_names, n_settings, response):
-    terms, notes = _model_terms(spec, factor_names, n_settings, response)
+def _model_terms_cached(spec, factor_names, n_settings, response, levels):
+    terms, notes = _model_terms(spec, factor_names, n_settings, response, levels)
     return tuple(terms), tuple(notes)
 
 
-def _model_terms(spec, factor_names, n_settings, response):
+def _model_terms(spec, factor_names, n_settings, response, levels=None):
+    terms, notes = _grouped_terms(spec, factor_names, n_settings, response, levels)
+    return _expand_levels(terms, list(factor_names), levels), notes
+
+
+def _grouped_terms(spec, factor_names, n_settings, response, levels):
     names = list(factor_names)
+    multi = [False] * len(names) if levels is None else [v is not None for v in levels]
     k = len(names)
     notes: list[str] = []
     zero = [0] * k
@@ -329,6 +404,8 @@ def _model_terms(spec, factor_names, n_settings, response):
         if spec == "quadratic":
             skipped = []
             for j in range(k):
+                if multi[j]:
+                    continue  # a categorical factor has levels, not a curve
                 if n_settings is not None and n_settings[j] < 3:
                     skipped.append(names[j])
                     continue
@@ -354,6 +431,10 @@ def _model_terms(spec, factor_names, n_settings, response):
             raise ModelError(f"response '{response}': term '{text}' is listed twice "
                              f"(as '{seen[term.powers]}'): remove one")
         seen[term.powers] = text
+        if term.is_square and multi[term.factors[0]]:
+            raise ModelError(f"response '{response}': term '{term.label}': factor "
+                             f"'{names[term.factors[0]]}' is categorical, so it has no "
+                             "square: its levels are compared directly; remove the term")
         if term.is_square and n_settings is not None and n_settings[term.factors[0]] < 3:
             raise ModelError(f"response '{response}': term '{term.label}': factor "
                              f"'{names[term.factors[0]]}' has only two settings in the "
@@ -384,10 +465,14 @@ def _parents(powers: Sequence[int]) -> list[tuple[int, ...]]:
 def hierarchy_closure(terms: Sequence[Term], within: Sequence[Term]) -> set[str]:
     """Labels of ``terms`` and every lower-order term of ``within`` they contain."""
     labels = {t.label for t in terms}
+    groups = {t.group for t in terms}
     for t in terms:
         for other in within:
             if t.contains(other):
                 labels.add(other.label)
+                groups.add(other.group)
+    # a term with several columns (a categorical factor's levels) stays whole
+    labels |= {other.label for other in within if other.group in groups}
     return labels
 
 
@@ -404,7 +489,11 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
         f = t.factors
         if t.custom:
             out[:, i] = t.column(X)
-        elif not f:
+            continue
+        if t.cells:
+            out[:, i] = _level_column(X, t)
+            continue
+        if not f:
             out[:, i] = 1.0
         elif t.order != len(f) and len(f) > 1:  # a blend times a square (mixtures)
             out[:, i] = np.prod([X[:, j] ** t.powers[j] for j in f], axis=0)
@@ -423,6 +512,23 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
             np.multiply(head, X[:, f[-1]], out=out[:, i])
             cache[f] = out[:, i]
     return out
+
+
+def _level_column(X: np.ndarray, t: Term) -> np.ndarray:
+    """One sum-to-zero column: +1 at the term's level, -1 at the last level, 0
+    elsewhere, for each factor of ``t.cells``; times the other factors' powers."""
+    col = np.ones(X.shape[0])
+    at = {j: (level, n) for j, level, n in t.cells}
+    for j, p in enumerate(t.powers):
+        if not p:
+            continue
+        if j in at:
+            level, n = at[j]
+            code = np.rint(X[:, j])
+            col = col * ((code == level).astype(float) - (code == n - 1))
+        else:
+            col = col * X[:, j] ** p
+    return col
 
 
 def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

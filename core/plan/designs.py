@@ -21,7 +21,7 @@ import pandas as pd
 from .aliases import (LETTERS, alias_structure, confounded_terms, defining_subgroup,
                       generators_in_letters, parse_word, resolution, word_length,
                       word_length_pattern, word_letters, word_term)
-from ..study.coding import to_natural
+from ..study.coding import level_codes, to_natural
 from ..errors import PlanError
 
 __all__ = [
@@ -336,10 +336,14 @@ class Plan:
     notes: tuple[str, ...] = ()
     alpha: float | None = None
     kind: str = ""
+    # the factors the two-level design is written in (letters, generators,
+    # aliases), when some factor (three or more levels) is crossed with it
+    design_names: tuple | None = None
 
     @property
     def names(self) -> list[str]:
-        return [f.name for f in self.factors]
+        return list(self.design_names) if self.design_names is not None else \
+            [f.name for f in self.factors]
 
     def summary(self) -> dict:
         """JSON-ready description (runs, resolution, generators, aliases, blocks)."""
@@ -370,8 +374,8 @@ class Plan:
 
 def _categorical_cells(factors) -> list[tuple[float, ...]]:
     """Every combination of coded levels of the categorical factors."""
-    n_cat = sum(1 for f in factors if f.is_categorical)
-    return [tuple(c) for c in product((-1.0, 1.0), repeat=n_cat)]
+    return [tuple(c) for c in product(*[level_codes(f) for f in factors
+                                        if f.is_categorical])]
 
 
 def _centre_rows(factors, n: int, what: str) -> np.ndarray:
@@ -462,14 +466,21 @@ def plan_runs(study, *, runs: int | None = None, resolution: int | None = None,
     Plan
     """
     factors = tuple(study.factors)
-    names = [f.name for f in factors]
-    k = len(factors)
+    # Factors of three or more levels are crossed with the two-level design of
+    # the others: the design is run at every combination of their levels.
+    multi = [j for j, f in enumerate(factors) if f.is_categorical and len(f.levels) > 2]
+    two_idx = [j for j in range(len(factors)) if j not in multi]
+    names = [factors[j].name for j in two_idx]
+    k = len(two_idx)
     seed = study.seed if seed is None else seed
     for value, what, least in ((center, "--center", 0), (replicates, "--replicates", 1),
                                (blocks, "--blocks", 1)):
         if not isinstance(value, (int, np.integer)) or value < least:
             raise PlanError(f"{what} must be a whole number of at least {least}, "
                             f"found {value}")
+    if multi and not k:
+        raise PlanError("every factor here is categorical with three or more levels, so "
+                        "there is no two-level design to make: use --design optimal")
     design = fractional_design(k, runs, resolution)
     notes: list[str] = []
     # Block words are chosen in the design as run (before any fold-over).
@@ -512,6 +523,19 @@ def plan_runs(study, *, runs: int | None = None, resolution: int | None = None,
            for t in b["confounded_with"]):
         notes.append("a two-factor interaction is confounded with the block differences: "
                      "it cannot be told apart from a shift between blocks")
+    if multi:
+        cells = list(product(*[level_codes(factors[j]) for j in multi]))
+        parts = []
+        for cell in cells:
+            rows = np.zeros((two.shape[0], len(factors)))
+            rows[:, two_idx] = two
+            rows[:, multi] = cell
+            parts.append(rows)
+        two = np.vstack(parts)
+        block = np.tile(block, len(cells))
+        notes.append("the two-level design is run at each of the "
+                     f"{len(cells)} level combinations of "
+                     f"{', '.join(factors[j].name for j in multi)}")
     n_two = two.shape[0]
     coded = np.vstack([two] * replicates)
     block_all = np.concatenate([block] * replicates)
@@ -538,4 +562,5 @@ def plan_runs(study, *, runs: int | None = None, resolution: int | None = None,
     if foldover:
         kind += " with its fold-over"
     return Plan(factors=factors, runs=table, coded=coded_df, design=design_used,
-                blocks=block_report, notes=tuple(notes), kind=kind)
+                blocks=block_report, notes=tuple(notes), kind=kind,
+                design_names=tuple(names) if multi else None)

@@ -102,6 +102,7 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     alpha : significance level of the tests (1 - the study's confidence).
     """
     from ..errors import ModelError
+    from ..model.levels import factor_levels
     from ..model.terms import Term, find_aliases, model_matrix, model_terms
 
     names = [f.name for f in factors]
@@ -121,7 +122,8 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     n_settings = [len(np.unique(np.round(X[:, j], 6))) for j in range(X.shape[1])]
     try:
         terms, notes = model_terms(model if isinstance(model, str) else list(model),
-                                   names, n_settings=n_settings)
+                                   names, n_settings=n_settings,
+                                   levels=factor_levels(factors))
     except ModelError as exc:
         raise PlanError(str(exc)) from None
     M = model_matrix(X, terms)

@@ -134,6 +134,10 @@ def interaction_means(study, response: str, a: str, b: str) -> pd.DataFrame:
         raise StudyError(f"an interaction plot needs two different factors, found "
                          f"'{a}' twice: choose another factor")
     fa, fb = study.factor(a), study.factor(b)
+    for f in (fa, fb):
+        if f.is_categorical and len(f.levels) > 2:
+            raise StudyError(f"factor '{f.name}' has {len(f.levels)} levels: this plot "
+                             "compares low and high ends; see its level means instead")
     runs = study.runs
     y = runs[study.response(response).name].to_numpy(float)
     ca = code_values(fa, runs[a].to_numpy())
@@ -154,7 +158,9 @@ def interaction_means(study, response: str, a: str, b: str) -> pd.DataFrame:
 
 
 def effect_table(model) -> pd.DataFrame:
-    """A fitted model's effects (change from coded -1 to +1, twice the coefficient).
+    """A fitted model's effects (change from coded -1 to +1, twice the coefficient;
+    for each level of a factor with three or more levels, the last one derived,
+    its deviation from the average over levels).
 
     Returns
     -------
@@ -166,14 +172,21 @@ def effect_table(model) -> pd.DataFrame:
     """
     labels = list(model.terms_)
     effects = np.asarray(model.effects_, dtype=float)
+    # a level of a factor with three or more levels shows its deviation from the
+    # average over levels (its coefficient, standard error once, not twice)
+    scale = np.array([1.0 if "[" in lab and not lab.startswith("block[") else 2.0
+                      for lab in labels])
     se = (np.full(len(labels), np.nan) if model.std_errors_ is None or
-          model.residual_df_ == 0 else 2 * np.asarray(model.std_errors_, dtype=float))
+          model.residual_df_ == 0 else scale * np.asarray(model.std_errors_, dtype=float))
     p = (np.full(len(labels), np.nan) if model.p_values_ is None or
          model.residual_df_ == 0 else np.asarray(model.p_values_, dtype=float))
     keep = ~np.isnan(effects)
-    table = pd.DataFrame({"term": np.array(labels, dtype=object)[keep],
-                          "effect": effects[keep], "std_error": se[keep],
-                          "p_value": p[keep]})
+    derived = getattr(model, "derived_coefficients_", None) or []
+    table = pd.DataFrame({"term": list(np.array(labels, dtype=object)[keep])
+                          + [d["term"] for d in derived],
+                          "effect": list(effects[keep]) + [d["estimate"] for d in derived],
+                          "std_error": list(se[keep]) + [d["std_error"] for d in derived],
+                          "p_value": list(p[keep]) + [d["p"] for d in derived]})
     order = np.argsort(-np.abs(table["effect"].to_numpy()), kind="stable")
     return table.iloc[order].reset_index(drop=True)
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..model.terms import model_label
+from ..study.coding import level_codes
 from ..study.spec import Study
 
 __all__ = ["study_summary", "summary_text"]
@@ -18,7 +19,8 @@ def study_summary(study: Study) -> dict:
             counts = runs[f.name].value_counts()
             factors.append({"name": f.name, "label": f.label, "kind": "categorical",
                             "levels": {lv: int(counts.get(lv, 0)) for lv in f.levels},
-                            "coded": {f.levels[0]: -1, f.levels[1]: 1}})
+                            "coded": {lv: (int(c) if len(f.levels) == 2 else f"level {int(c) + 1}")
+                                      for lv, c in zip(f.levels, level_codes(f))}})
         else:
             values = runs[f.name].to_numpy(float)
             coded = (values - f.centre) / f.half_range

@@ -18,6 +18,7 @@ from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
 from .production import production_chance
 from .spread import transmitted_spread
+from ..study.coding import decode_values
 
 __all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
 
@@ -357,7 +358,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         settings, coded = {}, {}
         for j, f in enumerate(study.factors):
             if f.is_categorical:
-                settings[f.name] = f.levels[0] if x[j] < 0 else f.levels[1]
+                settings[f.name] = str(decode_values(f, x[j:j + 1])[0])
                 coded[f.name] = int(x[j])
             else:
                 settings[f.name] = float(f.centre + f.half_range * x[j])

@@ -15,7 +15,8 @@ from ..errors import StudyError, did_you_mean
 from .constraints import check_rules
 from .pieces import piece_columns
 from .mixture import MIXTURE_MODELS, PROCESS_MODES, build_components
-from .spec import (GOALS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS, Factor, Goal,
+from .spec import (GOALS, MAX_LEVELS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS,
+                   Factor, Goal,
                    Response, Study, _GOAL_KEYS)
 
 __all__ = ["read_study_bytes", "parse_study_text", "build_study", "check_keys",
@@ -179,9 +180,14 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
             raise StudyError(f"{fname}: {what}: give either low/high (numeric) or "
                              "levels (categorical), not both")
         levels = tuple(_string_list(table["levels"], fname, f"{what} levels"))
-        if len(levels) != 2 or levels[0] == levels[1]:
-            raise StudyError(f"{fname}: {what}: a categorical factor needs exactly two "
-                             f"different levels, found {list(levels)}")
+        twice = [v for i, v in enumerate(levels) if v in levels[:i]]
+        if twice:
+            raise StudyError(f"{fname}: {what}: level '{twice[0]}' is named twice in "
+                             f"levels {list(levels)}: give each level once")
+        if not 2 <= len(levels) <= MAX_LEVELS or not all(levels):
+            raise StudyError(f"{fname}: {what}: a categorical factor needs 2 to "
+                             f"{MAX_LEVELS} levels, each a non-blank name, found "
+                             f"{list(levels)}")
         if "search" in table:
             raise StudyError(f"{fname}: {what}: search = [min, max] is for numeric "
                              "factors; categorical factors are searched over their levels")

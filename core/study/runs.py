@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import DataError, did_you_mean, where
+from .coding import nearest_level
 from .intake import RawTable, cell_text, parse_number, read_table
 from .pieces import check_same_settings, pieces_table, run_groups, run_means
 from .mixture import check_blend_rows
@@ -88,9 +89,11 @@ def attach_runs(study: Study, table: RawTable) -> Study:
                 text = None if cell is None else cell_text(cell)
                 if text not in f.levels:
                     found = "a blank cell" if text is None else f"'{text}'"
+                    near = nearest_level(text or "", f.levels)
                     raise DataError(f"{where(fname, row, f.name)}found {found}, "
-                                    f"expected one of the levels {list(f.levels)}: fix "
-                                    "the cell or add the level to the study file")
+                                    f"expected one of the levels {list(f.levels)} "
+                                    f"(nearest: '{near}'): fix the cell or add the "
+                                    "level to the study file")
                 values.append(text)
             check_same_settings(fname, f.name, values, ids, row_numbers, codes, first)
             data[f.name] = values

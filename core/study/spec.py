@@ -17,7 +17,7 @@ from ..errors import StudyError, did_you_mean
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
-    "SECTION_KEYS", "MAX_STUDY_BYTES",
+    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
@@ -26,6 +26,9 @@ MAX_STUDY_BYTES = 1024 * 1024
 # "smooth" is a Gaussian process (core/model/smooth.py), the others polynomials.
 MODELS = ("main", "interactions", "full", "quadratic", "smooth")
 TRANSFORMS = ("none", "log", "sqrt")
+# A categorical factor has 2 to this many levels (each level beyond two costs a
+# model column, and so runs).
+MAX_LEVELS = 12
 
 _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",
               "shape_above", "weight"}
@@ -96,7 +99,12 @@ class Goal:
 
 @dataclass(frozen=True)
 class Factor:
-    """A factor: numeric (``low``..``high``) or two-level categorical (``levels``)."""
+    """A factor: numeric (``low``..``high``) or categorical (``levels``, 2 to 12).
+
+    A two-level categorical factor is coded -1/+1; one with three or more
+    levels is coded by its level's position 0, 1, ... and enters models as
+    sum-to-zero columns (``tradeoff.model.terms``).
+    """
 
     name: str
     label: str
