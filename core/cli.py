@@ -51,8 +51,24 @@ def build_parser() -> argparse.ArgumentParser:
     plan = commands.add_parser(
         "plan", help="plan the runs: factorial or fraction, aliases, blocks, run sheet")
     plan.add_argument("study", help="the study file (.toml); its data file need not exist")
+    plan.add_argument("--design", default="factorial",
+                      choices=("factorial", "central-composite", "box-behnken", "optimal"),
+                      help="the kind of plan (default factorial)")
     plan.add_argument("--runs", type=int, metavar="N",
-                      help="runs in the two-level part (a power of two: 8, 16, 32, ...)")
+                      help="runs in the two-level part (a power of two: 8, 16, 32, ...); "
+                           "with --design optimal, the number of runs to plan")
+    plan.add_argument("--alpha", metavar="A",
+                      help="axial distance of a central composite: face, rotatable "
+                           "(default), orthogonal or a number")
+    plan.add_argument("--criterion", choices=("d", "i"), default="d",
+                      help="optimal design: d (precise coefficients, default) or i "
+                           "(precise predictions over the region)")
+    plan.add_argument("--model", metavar="MODEL",
+                      help="the model to plan for: main, interactions, full, quadratic "
+                           "or terms joined by commas (a,b,a:b)")
+    plan.add_argument("--keep", action="store_true",
+                      help="optimal design: keep the study's measured runs and choose "
+                           "the new runs around them")
     plan.add_argument("--resolution", type=int, metavar="R",
                       help="least resolution wanted: 3, 4 or 5 (default: 5)")
     plan.add_argument("--center", type=int, metavar="N",

@@ -32,8 +32,8 @@ def factor_levels(factors) -> list | None:
     levels, else None; None when no factor is (or ``factors`` is None)."""
     if factors is None:
         return None
-    out = [tuple(f.levels) if f.is_categorical and len(f.levels) >= 3 else None
-           for f in factors]
+    out = [tuple(f.levels) if getattr(f, "levels", None) is not None and len(f.levels) >= 3
+           else None for f in factors]
     return out if any(v is not None for v in out) else None
 
 

@@ -339,6 +339,8 @@ class Plan:
     # the factors the two-level design is written in (letters, generators,
     # aliases), when some factor (three or more levels) is crossed with it
     design_names: tuple | None = None
+    # coded runs already made that the plan's runs were chosen around (--keep)
+    kept: np.ndarray | None = None
 
     @property
     def names(self) -> list[str]:

@@ -113,7 +113,39 @@ def plan_command(args) -> tuple[dict, str]:
     from .evaluation import evaluate_design, evaluate_plan
     from ..derive.load import load_study
 
-    if args.augment:
+    design = getattr(args, "design", None) or "factorial"
+    model_arg = _model_option(getattr(args, "model", None))
+    kept = None
+    if design != "factorial" or getattr(args, "keep", False):
+        from .layouts import plan_design
+
+        clash = [name for name, given in (("--augment", bool(args.augment)),
+                                          ("--resolution", args.resolution is not None),
+                                          ("--foldover", args.foldover),
+                                          ("--replicates", args.replicates != 1)) if given]
+        if clash:
+            raise PlanError(f"{', '.join(clash)} belong to factorial plans, not to "
+                            f"--design {design}: leave {'them' if len(clash) > 1 else 'it'}"
+                            " out")
+        keep = bool(getattr(args, "keep", False))
+        study = load_study(args.study, with_data=keep)
+        plan = plan_design(study, design, alpha=args.alpha or "rotatable",
+                           center=args.center, blocks=args.blocks, runs=args.runs,
+                           criterion=getattr(args, "criterion", "d"), model=model_arg,
+                           keep=keep, seed=args.seed)
+        model = model_arg or (("quadratic" if design != "optimal" else None)
+                              or (study.terms if study.terms is not None else study.model))
+        kept = plan.kept
+        if kept is not None:
+            import numpy as np
+
+            evaluation = evaluate_design(study.factors, np.vstack(
+                [kept, plan.coded.to_numpy(float)]), model, effect=args.effect,
+                sd=args.sd, alpha=1 - study.confidence)
+        else:
+            evaluation = evaluate_plan(plan, model, effect=args.effect, sd=args.sd,
+                                       alpha=1 - study.confidence)
+    elif args.augment:
         clash = [name for name, given in (("--runs", args.runs is not None),
                                           ("--resolution", args.resolution is not None),
                                           ("--blocks", args.blocks != 1),
@@ -134,6 +166,7 @@ def plan_command(args) -> tuple[dict, str]:
         coded = np.vstack([old, plan.coded.to_numpy(float)])
         block = np.concatenate([np.asarray(old_block, dtype=object),
                                 plan.runs["block"].astype(str).to_numpy(dtype=object)])
+        kept = old
         model = "quadratic"
         evaluation = evaluate_design(study.factors, coded, model, block=block,
                                      effect=args.effect, sd=args.sd,
@@ -143,18 +176,52 @@ def plan_command(args) -> tuple[dict, str]:
         plan = plan_runs(study, runs=args.runs, resolution=args.resolution,
                          center=args.center or 0, replicates=args.replicates,
                          blocks=args.blocks, foldover=args.foldover, seed=args.seed)
-        model = study.terms if study.terms is not None else study.model
+        model = model_arg or (study.terms if study.terms is not None else study.model)
         evaluation = evaluate_plan(plan, model, effect=args.effect, sd=args.sd,
                                    alpha=1 - study.confidence)
     sheet = run_sheet(plan, study)
+    if design != "factorial" and kept is not None:
+        sheet = _with_kept(sheet, study)
     path = write_run_sheet(sheet, args.out, study=study)
     report = plan.summary()
     if args.augment:
         report["runs"] = int(len(plan.runs))
         report["existing_runs"] = int(len(study.runs))
+    report["layout"] = design
+    if kept is not None:
+        report["kept_runs"] = int(len(kept))
     report["model"] = evaluation.summary()
+    from .layouts import prediction_figures
+
+    report["prediction_variance"] = prediction_figures(study, plan, model, kept=kept)
     report["run_sheet"] = str(path)
     return report, plan_text(report, sheet, path)
+
+
+def _model_option(text):
+    """``--model``: a model name, or terms joined by commas (``a,b,a:b``)."""
+    if text is None:
+        return None
+    text = text.strip()
+    if "," in text or ":" in text or "^" in text:
+        return [t.strip() for t in text.split(",") if t.strip()]
+    return text
+
+
+def _with_kept(sheet: pd.DataFrame, study) -> pd.DataFrame:
+    """The kept (measured) runs first, as they are, marked ``kept``; then the new runs."""
+    runs = study.runs
+    column = study.block_column
+    kept = pd.DataFrame({"run": runs["run"].astype(str).to_numpy(),
+                         "std_order": pd.array([pd.NA] * len(runs), dtype="Int64"),
+                         "run_order": pd.array([pd.NA] * len(runs), dtype="Int64"),
+                         "block": (runs[column].to_numpy() if column is not None
+                                   else [1] * len(runs)),
+                         "point": ["kept"] * len(runs)})
+    for name in sheet.columns:
+        if name not in kept.columns:
+            kept[name] = runs[name].to_numpy() if name in runs.columns else None
+    return pd.concat([kept[sheet.columns], sheet], ignore_index=True)
 
 
 def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
@@ -163,7 +230,17 @@ def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
 
     lines = []
     letters = report["letters"]
-    if report.get("alpha") is not None:
+    if report.get("layout", "factorial") != "factorial":
+        counts = sheet["point"].value_counts()
+        parts = [f"{int(counts[k])} {k}" for k in ("factorial", "axial", "edge", "optimal",
+                                                   "centre") if k in counts]
+        lines.append(f"Plan: {report['design']}: {' + '.join(parts)} = "
+                     f"{sum(int(v) for k, v in counts.items() if k != 'kept')} new runs in "
+                     f"{report['blocks_count']} block"
+                     f"{'s' if report['blocks_count'] > 1 else ''}"
+                     + (f", around {report['kept_runs']} kept runs"
+                        if report.get("kept_runs") else ""))
+    elif report.get("alpha") is not None:
         lines.append(f"Plan: {report['design']} added to {report['existing_runs']} "
                      f"measured runs: {report['axial_runs']} axial + "
                      f"{report['centre_runs']} centre = {report['total_runs']} new runs "
@@ -213,6 +290,14 @@ def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
         lines.append(f"  power: chance of finding a change of {power['effect']:g} "
                      f"(low to high) significant at {power['alpha']:g} when the "
                      f"run-to-run SD is {power['sd']:g}")
+    pv = report.get("prediction_variance") or {}
+    if pv:
+        q = pv["spv_quantiles"]
+        lines.append(f"Prediction over the region (scaled variance, {pv['region_points']} "
+                     f"points): average (I) {pv['i_average_spv']:.4g}, largest (G) "
+                     f"{pv['g_max_spv']:.4g}; 10/50/90 % of the region below "
+                     f"{q['10%']:.4g} / {q['50%']:.4g} / {q['90%']:.4g}; D-efficiency "
+                     f"{pv['d_efficiency']:.4g} %")
     notes = report["notes"] + m["notes"]
     if notes:
         lines.append("Notes:")

@@ -111,11 +111,17 @@ for note in study.notes:
     st.warning(text.plain(note))
 
 st.subheader("Factors (what you set)")
-st.dataframe(blank_none(pd.DataFrame(
-    [{"factor": f.name, "label": f.label, "unit": f.unit or "",
-      "coded -1": f.levels[0] if f.is_categorical else f"{f.low:g}",
-      "coded +1": f.levels[1] if f.is_categorical else f"{f.high:g}"}
-     for f in study.factors])), hide_index=True)
+_many = any(f.is_categorical and len(f.levels) > 2 for f in study.factors)
+_rows = []
+for f in study.factors:
+    _two = f.is_categorical and len(f.levels) == 2
+    _row = {"factor": f.name, "label": f.label, "unit": f.unit or "",
+            "coded -1": f.levels[0] if _two else "-" if f.is_categorical else f"{f.low:g}",
+            "coded +1": f.levels[1] if _two else "-" if f.is_categorical else f"{f.high:g}"}
+    if _many:  # a factor of three or more levels lists them in a column of its own
+        _row["levels"] = ", ".join(f.levels) if f.is_categorical else "-"
+    _rows.append(_row)
+st.dataframe(blank_none(pd.DataFrame(_rows)), hide_index=True)
 st.subheader("Responses (what you measured)")
 st.dataframe(blank_none(pd.DataFrame(
     [{"response": r.name, "label": r.label, "unit": r.unit or "", "goal": r.goal.kind,
