@@ -18,6 +18,8 @@ PUBLIC_NAMES = sorted([
     "Factor", "Goal", "Response", "Study", "load_study", "study_from_dict",
     "to_coded", "to_natural",
     "ResponseModel", "StudyFit", "fit_response", "fit_study",
+    "plan_design", "prediction_figures", "coordinate_exchange", "Region", "study_region",
+    "prediction_variance", "PredictionVariance",
     "SHELF_LIFE_CAUTION", "fit_kinetics", "interpolate_at", "read_storage",
     "time_to_limit", "PANEL_CAUTION", "adjusted_means", "assessor_agreement",
     "read_panel", "run_means", "DERIVE_KINDS", "add_derived_responses",

@@ -128,7 +128,12 @@ def plan_command(args) -> tuple[dict, str]:
                             f"--design {design}: leave {'them' if len(clash) > 1 else 'it'}"
                             " out")
         keep = bool(getattr(args, "keep", False))
-        study = load_study(args.study, with_data=keep)
+        study = load_study(args.study, with_data=False)
+        if keep and study.data_path is None:
+            raise PlanError("--keep keeps the study's measured runs, but the study names "
+                            "no data file ([study] data = ...): add it, or leave out --keep")
+        if keep:
+            study = load_study(args.study, with_data=True)
         plan = plan_design(study, design, alpha=args.alpha or "rotatable",
                            center=args.center, blocks=args.blocks, runs=args.runs,
                            criterion=getattr(args, "criterion", "d"), model=model_arg,
