@@ -132,15 +132,21 @@ def coordinate_exchange(matrix: Callable, region: Region, n_runs: int, *,
     rng = np.random.default_rng([int(seed), 13])
     best = None
     values = []
-    for _ in range(max(1, int(starts))):
-        X = region.sample(n_runs, rng)
-        X, value = _one_start(matrix, region, X, F0, criterion, moments, grid, max_passes)
-        if value is None:
-            continue
-        values.append(value)
-        better = best is None or (value > best[1] if criterion == "d" else value < best[1])
-        if better:
-            best = (X, value)
+    from threadpoolctl import threadpool_limits
+
+    # small matrices, many products: a pool of BLAS threads only adds waiting
+    with threadpool_limits(limits=1, user_api="blas"):
+        for _ in range(max(1, int(starts))):
+            X = region.sample(n_runs, rng)
+            X, value = _one_start(matrix, region, X, F0, criterion, moments, grid,
+                                  max_passes)
+            if value is None:
+                continue
+            values.append(value)
+            better = best is None or (value > best[1] if criterion == "d"
+                                      else value < best[1])
+            if better:
+                best = (X, value)
     if best is None:
         raise PlanError(f"no design of {n_runs} runs found that estimates every one of "
                         f"the model's {p} terms in this region: add runs, use a smaller "

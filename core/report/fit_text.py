@@ -45,6 +45,11 @@ def _response_text(r: dict) -> list[str]:
                 "beyond ME" if e > r["lenth"]["me"] else ""
             line += f"  {mark}"
         out.append(line)
+    for d in r.get("derived_coefficients") or []:
+        line = f"  {d['term']:<28}{_f(d['estimate']):>14}{_f(d['estimate']):>12}"
+        if not saturated:
+            line += (f"{_f(d['std_error']):>12} {_f(d['t'], '.3g'):>8}{_p(d['p']):>10}")
+        out.append(line + "  (last level: minus the sum of the others)")
     if r["lenth"] is not None:
         le = r["lenth"]
         out.append(f"  Lenth: pseudo standard error {_f(le['pse'])}, margin of error "
@@ -62,6 +67,15 @@ def _response_text(r: dict) -> list[str]:
             continue
         out.append(f"  {label:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
                    f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
+    whole = [(k, v) for k, v in (a.get("terms") or {}).items() if v["df"] > 1]
+    for key, row in whole:  # terms of several columns, each tested as a whole
+        out.append(f"  {key:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
+                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}   (whole term)")
+    means = [m for m in r.get("level_means") or []]
+    if any(sum(1 for m in means if m["factor"] == f) > 2 for f in {m["factor"] for m in means}):
+        out.append("  level means (other factors in the middle): " + "; ".join(
+            f"{m['factor']} {m['level']} {_f(m['predicted'])} "
+            f"({_f(m['ci_low'])} to {_f(m['ci_high'])})" for m in means))
     c = a.get("curvature")
     if c is not None:
         out.append(f"  curvature: centre average {_f(c['centre_mean'])} vs factorial "

@@ -136,3 +136,15 @@ def test_a_cell_that_is_not_a_level_names_row_and_nearest(tmp_path):
                                         r"one of the levels \['L', 'M', 'H'\] "
                                         r"\(nearest: 'L'\)"):
         load_study(tmp_path / "s.toml")
+
+
+def test_fit_text_shows_whole_terms_last_levels_and_means(capsys):
+    from tradeoff.cli import main
+
+    assert main(["fit", str(WARP)]) == 0
+    text = capsys.readouterr().out
+    assert "tension[H]" in text and "(last level: minus the sum of the others)" in text
+    row = next(line for line in text.splitlines() if "(whole term)" in line
+               and line.strip().startswith("tension "))
+    assert "8.5" in row  # F = 8.498 on 2 df (the published two-way ANOVA, from memory)
+    assert "tension L 36.39" in text  # plain mean of the 18 low-tension looms
