@@ -19,8 +19,9 @@ def study_summary(study: Study) -> dict:
             counts = runs[f.name].value_counts()
             factors.append({"name": f.name, "label": f.label, "kind": "categorical",
                             "levels": {lv: int(counts.get(lv, 0)) for lv in f.levels},
-                            "coded": {lv: (int(c) if len(f.levels) == 2 else f"level {int(c) + 1}")
-                                      for lv, c in zip(f.levels, level_codes(f))}})
+                            # two levels: -1/+1; more: the level's position 0, 1, ...
+                            "coded": {lv: int(c) for lv, c in zip(f.levels,
+                                                                  level_codes(f))}})
         else:
             values = runs[f.name].to_numpy(float)
             coded = (values - f.centre) / f.half_range
@@ -106,8 +107,9 @@ def summary_text(summary: dict) -> str:
                          f"{f['high']:g}{unit}{given}; tested {f['tested'][0]:g} .. "
                          f"{f['tested'][1]:g}, {f['distinct_settings']} amounts")
         elif f["kind"] == "categorical":
-            levels = ", ".join(f"{lv} (coded {f['coded'][lv]:+d}, {n} runs)"
-                               for lv, n in f["levels"].items())
+            levels = ", ".join(
+                f"{lv} (coded {f['coded'][lv]:+d}, {n} runs)" if len(f["levels"]) == 2
+                else f"{lv} ({n} runs)" for lv, n in f["levels"].items())
             lines.append(f"  {f['name']:<20} categorical: {levels}")
         else:
             unit = f" {f['unit']}" if f["unit"] else ""

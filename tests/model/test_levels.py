@@ -148,3 +148,12 @@ def test_fit_text_shows_whole_terms_last_levels_and_means(capsys):
                and line.strip().startswith("tension "))
     assert "8.5" in row  # F = 8.498 on 2 df (the published two-way ANOVA, from memory)
     assert "tension L 36.39" in text  # plain mean of the 18 low-tension looms
+
+
+def test_check_lists_each_level(capsys):
+    from tradeoff.cli import main
+
+    assert main(["check", str(WARP)]) == 0
+    text = capsys.readouterr().out
+    assert "tension              categorical: L (18 runs), M (18 runs), H (18 runs)" in text
+    assert "A (coded -1, 27 runs)" in text
