@@ -51,9 +51,6 @@ def build_parser() -> argparse.ArgumentParser:
     plan = commands.add_parser(
         "plan", help="plan the runs: factorial or fraction, aliases, blocks, run sheet")
     plan.add_argument("study", help="the study file (.toml); its data file need not exist")
-    plan.add_argument("--design", default="factorial",
-                      choices=("factorial", "central-composite", "box-behnken", "optimal"),
-                      help="the kind of plan (default factorial)")
     plan.add_argument("--runs", type=int, metavar="N",
                       help="runs in the two-level part (a power of two: 8, 16, 32, ...); "
                            "with --design optimal, the number of runs to plan")
@@ -91,7 +88,8 @@ def build_parser() -> argparse.ArgumentParser:
                       help="expected run-to-run standard deviation, for power")
     # blends (plan/mixture_plan.py)
     plan.add_argument("--design", metavar="NAME",
-                      help="for a study with components: lattice, centroid or vertices "
+                      help="factorial (default), central-composite, box-behnken or optimal; "
+                           "for a study with components: lattice, centroid or vertices "
                            "(extreme vertices of the bounded region)")
     plan.add_argument("--degree", type=int, metavar="M",
                       help="with --design lattice: the lattice's degree (proportions in "

@@ -147,8 +147,11 @@ def plan_design(study, design: str, *, alpha="rotatable", center: int | None = N
         coded, point, block = _cross(study, coded, point, block)
         return _plan(study, coded, point, block, seed,
                      f"Box-Behnken design for {len(num)} factors", [])
-    raise PlanError(f"design '{design}' is not one I know: use one of "
-                    f"{', '.join(DESIGNS)}")
+    from ..errors import did_you_mean
+
+    raise PlanError(f"design '{design}' is not one I know{did_you_mean(design, DESIGNS)}: "
+                    f"use one of {', '.join(DESIGNS)} (lattice, centroid and vertices are "
+                    "for studies with blend components)")
 
 
 def _plan(study, coded, point, block, seed, kind, notes, alpha=None, first_id=1,

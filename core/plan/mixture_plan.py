@@ -247,7 +247,8 @@ def mixture_route(args) -> tuple[dict, str] | None:
     design = getattr(args, "design", None)
     study = load_study(args.study, with_data=False)
     if study.mixture is None:
-        if design in MIXTURE_DESIGNS:
+        # optimal is also the plan for independent factors (plan/layouts.py)
+        if design in MIXTURE_DESIGNS and design != "optimal":
             plan_mixture(study, design)  # raises: no components
         return None
     comps = components_of(study)

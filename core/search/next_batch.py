@@ -42,6 +42,7 @@ import pandas as pd
 
 from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
 from ..errors import SearchError
+from ..study.coding import decode_values, level_codes
 from ..study.constraints import rule_arrays
 from .desirability import desirability
 from .mixture import simplex_region
@@ -272,7 +273,7 @@ def _region(study, seed: int):
     blocks = []
     base = (qmc.Sobol(d=len(num), scramble=True, seed=seed).random(_CANDIDATES)
             if num else np.zeros((1, 0)))
-    for combo in itertools.product([-1.0, 1.0], repeat=len(cat)):
+    for combo in itertools.product(*[level_codes(factors[j]) for j in cat]):
         block = np.empty((len(base), len(factors)))
         block[:, num] = lo[num] + base * (hi[num] - lo[num])
         block[:, cat] = combo
@@ -475,7 +476,7 @@ def _settings(study, x) -> dict:
     out = {}
     for j, f in enumerate(study.factors):
         if f.is_categorical:
-            out[f.name] = f.levels[0] if x[j] < 0 else f.levels[1]
+            out[f.name] = str(decode_values(f, x[j:j + 1])[0])
         else:
             out[f.name] = float(f.centre + f.half_range * x[j])
     return out
