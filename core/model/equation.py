@@ -6,7 +6,8 @@ from typing import Sequence
 
 import numpy as np
 
-from .terms import Term, column_label, term_label
+from .columns import column_label
+from .terms import Term
 
 __all__ = ["fitted_equations", "natural_equation"]
 

@@ -72,7 +72,7 @@ def derived_coefficients(terms, coef: np.ndarray, Rinv: np.ndarray, sigma: float
     sigma * |a' Rinv| and a two-sided t test. Rows: term (label, e.g.
     ``flour[spelt]``), group, estimate, std_error, t, p.
     """
-    from .terms import column_label
+    from .columns import column_label
 
     by_group: dict[str, list[int]] = {}
     for i, t in enumerate(terms):

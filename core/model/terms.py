@@ -29,6 +29,7 @@ from scipy.linalg import lapack as _lapack
 from scipy.linalg import qr as _scipy_qr
 
 from ..errors import ModelError
+from .columns import column_label, expand_levels, level_column
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "column_label", "parse_term", "model_terms",
            "model_matrix", "qr", "QRFactors", "find_aliases", "hierarchy_closure",
@@ -218,41 +219,6 @@ def _term(powers: Sequence[int], names: Sequence[str]) -> Term:
     return Term(term_label(powers, names), tuple(int(p) for p in powers))
 
 
-def column_label(powers: Sequence[int], names: Sequence[str], cells=(),
-                 levels: Sequence | None = None) -> str:
-    """The label of one column: ``term_label`` with ``name[level]`` for the
-    factors listed in ``cells`` as ``(factor, level index, n_levels)``."""
-    if not cells:
-        return term_label(powers, names)
-    at = {j: l for j, l, _ in cells}
-    parts = []
-    for j, p in enumerate(powers):
-        if not p:
-            continue
-        if j in at:
-            parts.append(f"{names[j]}[{levels[j][at[j]]}]")
-        else:
-            parts.append(names[j] if p == 1 else f"{names[j]}^{p}")
-    return ":".join(parts)
-
-
-def _expand_levels(terms: list[Term], names: Sequence[str], levels) -> list[Term]:
-    """Each term with a factor of three or more levels -> its sum-to-zero columns."""
-    if levels is None or not any(v is not None for v in levels):
-        return terms
-    out = []
-    for t in terms:
-        multi = [j for j in t.factors if levels[j] is not None]
-        if not multi:
-            out.append(t)
-            continue
-        for combo in itertools.product(*[range(len(levels[j]) - 1) for j in multi]):
-            cells = tuple((j, l, len(levels[j])) for j, l in zip(multi, combo))
-            out.append(Term(column_label(t.powers, names, cells, levels), t.powers,
-                            cells=cells, group=t.label))
-    return out
-
-
 def parse_term(text: str, factor_names: Sequence[str], *, response: str = "response") -> Term:
     """Parse a term label such as ``protein:glycerol`` or ``protein^2``.
 
@@ -377,7 +343,7 @@ def _model_terms_cached(spec, factor_names, n_settings, response, levels):
 
 def _model_terms(spec, factor_names, n_settings, response, levels=None):
     terms, notes = _grouped_terms(spec, factor_names, n_settings, response, levels)
-    return _expand_levels(terms, list(factor_names), levels), notes
+    return expand_levels(terms, list(factor_names), levels, Term), notes
 
 
 def _grouped_terms(spec, factor_names, n_settings, response, levels):
@@ -491,7 +457,7 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
             out[:, i] = t.column(X)
             continue
         if t.cells:
-            out[:, i] = _level_column(X, t)
+            out[:, i] = level_column(X, t)
             continue
         if not f:
             out[:, i] = 1.0
@@ -512,23 +478,6 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
             np.multiply(head, X[:, f[-1]], out=out[:, i])
             cache[f] = out[:, i]
     return out
-
-
-def _level_column(X: np.ndarray, t: Term) -> np.ndarray:
-    """One sum-to-zero column: +1 at the term's level, -1 at the last level, 0
-    elsewhere, for each factor of ``t.cells``; times the other factors' powers."""
-    col = np.ones(X.shape[0])
-    at = {j: (level, n) for j, level, n in t.cells}
-    for j, p in enumerate(t.powers):
-        if not p:
-            continue
-        if j in at:
-            level, n = at[j]
-            code = np.rint(X[:, j])
-            col = col * ((code == level).astype(float) - (code == n - 1))
-        else:
-            col = col * X[:, j] ** p
-    return col
 
 
 def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -1,0 +1,76 @@
+"""The columns of a categorical factor with three or more levels.
+
+Such a factor is sum-to-zero (effect) coded: one column per level but the
+last, +1 at that level, -1 at the last level and 0 elsewhere, so each
+coefficient is that level's deviation from the average over levels. A term
+that contains the factor (``flour``, ``sugar:flour``, ``flour:film``)
+becomes one column per level combination (``flour[oat]``,
+``sugar:flour[oat]``, ``flour[oat]:film[pe]``), each carrying the whole
+term's label as its ``group`` (see ``tradeoff.model.terms.Term``). In the
+coded settings such a factor holds its level's position 0, 1, 2, ...
+"""
+from __future__ import annotations
+
+import itertools
+from typing import Sequence
+
+import numpy as np
+
+__all__ = ["column_label", "expand_levels", "level_column"]
+
+
+def column_label(powers: Sequence[int], names: Sequence[str], cells=(),
+                 levels: Sequence | None = None) -> str:
+    """The label of one column (``intercept``, ``a``, ``a:b``, ``a^2``), with
+    ``name[level]`` for the factors listed in ``cells`` as ``(factor, level
+    index, n_levels)``; ``levels`` gives each such factor's level names."""
+    if not any(powers):
+        return "intercept"
+    at = {j: l for j, l, _ in cells}
+    parts = []
+    for j, p in enumerate(powers):
+        if not p:
+            continue
+        if j in at:
+            parts.append(f"{names[j]}[{levels[j][at[j]]}]")
+        else:
+            parts.append(names[j] if p == 1 else f"{names[j]}^{p}")
+    return ":".join(parts)
+
+
+def expand_levels(terms: list, names: Sequence[str], levels, make) -> list:
+    """Each term with a factor of three or more levels -> its sum-to-zero columns.
+
+    ``levels``: per factor, its level names when it has three or more (else
+    None); ``make`` builds a column (the ``Term`` class).
+    """
+    if levels is None or not any(v is not None for v in levels):
+        return terms
+    out = []
+    for t in terms:
+        multi = [j for j in t.factors if levels[j] is not None]
+        if not multi:
+            out.append(t)
+            continue
+        for combo in itertools.product(*[range(len(levels[j]) - 1) for j in multi]):
+            cells = tuple((j, l, len(levels[j])) for j, l in zip(multi, combo))
+            out.append(make(column_label(t.powers, names, cells, levels), t.powers,
+                            cells=cells, group=t.label))
+    return out
+
+
+def level_column(X: np.ndarray, t) -> np.ndarray:
+    """One sum-to-zero column: +1 at the term's level, -1 at the last level, 0
+    elsewhere, for each factor of ``t.cells``; times the other factors' powers."""
+    col = np.ones(X.shape[0])
+    at = {j: (level, n) for j, level, n in t.cells}
+    for j, p in enumerate(t.powers):
+        if not p:
+            continue
+        if j in at:
+            level, n = at[j]
+            code = np.rint(X[:, j])
+            col = col * ((code == level).astype(float) - (code == n - 1))
+        else:
+            col = col * X[:, j] ** p
+    return col
