@@ -20,7 +20,7 @@ from tradeoff.inputs import (draft_spec, study_from_files, with_production_sd,
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
            "contour", "contour_lines", "limits_map", "slices", "model_interaction",
-           "curves", "runs_table", "what_if", "kinetics"]
+           "curves", "runs_table", "what_if", "kinetics", "compare", "next_batch"]
 
 
 def _digest(*parts) -> str:
@@ -258,3 +258,30 @@ def report(study, fitted, result, kind: str, study_bytes=None, data_bytes=None) 
             else "Writing the workbook...")
     with st.spinner(busy):
         return _report(key, kind, ss["top"], study, fitted, result, study_bytes, data_bytes)
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _compare(key: str, name: str, _study):
+    from tradeoff.model.compare import compare_response
+
+    return compare_response(_study, name)
+
+
+def compare(study, name: str):
+    """The cross-validated comparison of one response's models (cached by the data)."""
+    with st.spinner("Predicting each run from the others, model by model..."):
+        return _compare(_digest(origin_key(st.session_state["origin"]), name), name, study)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _next_batch(key: str, runs: int, distance: float, _study, _fit):
+    from tradeoff.search.next_batch import next_batch as suggest
+
+    return suggest(_study, runs=runs, seed=_study.seed, fit=_fit, min_distance=distance)
+
+
+def next_batch(study, fitted, runs: int, distance: float):
+    """The suggested next runs (``tradeoff.search.next_batch``), cached by data,
+    models, goals and the options."""
+    with st.spinner("Choosing the runs most likely to improve the balance..."):
+        return _next_batch(study_keys(study)[1], runs, distance, study, fitted)

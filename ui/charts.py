@@ -11,7 +11,8 @@ import pandas as pd
 
 __all__ = ["SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
            "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
-           "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart"]
+           "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
+           "length_scale_chart", "loo_chart"]
 
 SCHEME = "viridis"
 DARK, LIGHT, MID = "#440154", "#fde725", "#21918c"  # viridis ends and middle
@@ -186,3 +187,41 @@ def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart
     # four small panels fit a 1280-pixel-wide window beside the sidebar
     return alt.layer(line, dots, asked, data=data).properties(
         width=150, height=120).facet(facet=alt.Facet("run:N", title=None), columns=columns)
+
+
+def length_scale_chart(table: pd.DataFrame) -> alt.Chart:
+    """Each factor's length scale (coded units, log axis over the searched bounds),
+    shortest first, as dots.
+
+    ``table``: columns factor, length_scale, natural, at_bound.
+    """
+    order = list(table["factor"])
+    return alt.Chart(table).mark_circle(size=140, color=MID).encode(
+        x=alt.X("length_scale:Q", title="Length scale (coded units, log scale)",
+                scale=alt.Scale(type="log", domain=[0.3, 100])),
+        y=alt.Y("factor:N", sort=order, title="Factor",
+                axis=alt.Axis(labelOverlap=False, labelLimit=220)),
+        tooltip=["factor", alt.Tooltip("length_scale:Q", format=".3g"),
+                 alt.Tooltip("natural:Q", title="in its units", format=".3g"),
+                 "at_bound"]).properties(height=60 + 40 * len(table))
+
+
+def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
+    """Observed against predicted-from-the-other-runs, with the line of equality.
+
+    ``diag``: columns run, observed, loo_predicted, flagged (modelling scale).
+    """
+    lo = float(min(diag["observed"].min(), diag["loo_predicted"].min()))
+    hi = float(max(diag["observed"].max(), diag["loo_predicted"].max()))
+    line = alt.Chart(pd.DataFrame({"a": [lo, hi], "b": [lo, hi]})).mark_line(
+        color="#999", strokeDash=[4, 3]).encode(x="a:Q", y="b:Q")
+    data = diag.assign(mark=["beyond 3 SD" if f else "" for f in diag["flagged"]])
+    dots = alt.Chart(data).mark_circle(size=70).encode(
+        x=alt.X("loo_predicted:Q", title="Predicted from the other runs",
+                scale=alt.Scale(zero=False)),
+        y=alt.Y("observed:Q", title=f"Measured: {title}", scale=alt.Scale(zero=False)),
+        color=alt.Color("mark:N", scale=alt.Scale(domain=["", "beyond 3 SD"],
+                                                  range=[MID, DARK]), legend=None),
+        tooltip=["run", alt.Tooltip("observed:Q", format=".4g"),
+                 alt.Tooltip("loo_predicted:Q", format=".4g")])
+    return alt.layer(line, dots).properties(height=300)

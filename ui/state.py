@@ -35,6 +35,8 @@ KEYS = {
     "whatif_from": "label of the solution the what-if panel started from (another one "
                    "chosen resets the panel to it)",
     "epoch": "counts opened studies; part of widget keys so a new study starts fresh",
+    "compare_shown": "response names whose model comparison the user asked to see",
+    "next_runs": "how many next runs the user asked for in 'Make next' (0: not asked yet)",
 }
 
 
@@ -62,6 +64,8 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["spread"] = {f.name: f.production_sd for f in study.factors
                                   if not f.is_categorical}
     st.session_state["whatif_from"] = None
+    st.session_state["compare_shown"] = set()
+    st.session_state["next_runs"] = 0
 
 
 def init() -> None:
@@ -71,7 +75,7 @@ def init() -> None:
                 "whatif": {}, "open_error": None, "upload_digest": None, "draft": None,
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
                 "aim": "balance", "spread": {},
-                "whatif_from": None}
+                "whatif_from": None, "compare_shown": set(), "next_runs": 0}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

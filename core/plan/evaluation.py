@@ -207,6 +207,8 @@ def evaluate_study(study, model: str | Sequence[str] | None = None, *,
         raise PlanError(f"study '{study.name}' has no runs loaded: load it with its data")
     if model is None:
         model = study.terms if study.terms is not None else study.model
+    if model == "smooth":  # a smooth model has no terms: judge the runs for main effects and pairs
+        model = "interactions"
     block = study.block_labels()  # the block column or [study] blocks, as the models use
     return evaluate_design(study.factors, study.coded().to_numpy(float), model,
                            block=block, effect=effect, sd=sd, alpha=1 - study.confidence)

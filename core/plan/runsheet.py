@@ -182,6 +182,8 @@ def plan_command(args) -> tuple[dict, str]:
                          center=args.center or 0, replicates=args.replicates,
                          blocks=args.blocks, foldover=args.foldover, seed=args.seed)
         model = model_arg or (study.terms if study.terms is not None else study.model)
+        if model == "smooth":  # no terms to judge: the plan is judged for main effects and pairs
+            model = "interactions"
         evaluation = evaluate_plan(plan, model, effect=args.effect, sd=args.sd,
                                    alpha=1 - study.confidence)
     sheet = run_sheet(plan, study)

@@ -9,7 +9,7 @@ from tradeoff.report.maps import (effect_lines, effect_table, half_normal_table,
                            interaction_means, residual_table)
 from tradeoff.study.spec import MODELS
 from tradeoff.model.terms import model_terms
-from tradeoff_ui import cached, charts, text
+from tradeoff_ui import cached, charts, panels, text
 from tradeoff_ui.shown import blank_none, num, p_text
 
 ss = st.session_state
@@ -38,7 +38,8 @@ with st.container(border=True):
         "Start from", options,
         index=options.index(current) if isinstance(current, str) else len(MODELS),
         help="main: one effect per factor; interactions: plus every pair; full: every "
-             "combination; quadratic: plus squares (needs three or more settings).",
+             "combination; quadratic: plus squares (needs three or more settings); "
+             "smooth: a Gaussian process, for peaks and plateaus no polynomial follows.",
         key=f"m_model.{name}")
     if choice == OWN:
         own = st.multiselect("Terms", candidates,
@@ -53,7 +54,7 @@ with st.container(border=True):
                          help="Backward reduction: the least clear term is dropped "
                               "again and again while it is within the noise; a term "
                               "stays while a higher term contains it (the hierarchy).",
-                         key=f"m_reduce.{name}")
+                         key=f"m_reduce.{name}", disabled=choice == "smooth")
 
 if wanted != current and wanted != ():
     ss["models"] = {**ss["models"], name: wanted}
@@ -71,6 +72,10 @@ if name in fitted.skipped:
     st.stop()
 model = fitted.models[name]
 report = model.report()
+if report["model"] == "smooth":  # no terms: length scales and leave-one-out instead
+    panels.smooth_model(study, response, model, report)
+    panels.model_comparison(study, name)
+    st.stop()
 unit = response.unit + (f", {response.transform} scale" if response.transform != "none" else "")
 effects = effect_table(model)
 lines = effect_lines(model)
@@ -197,3 +202,5 @@ with st.expander("Coefficients, analysis of variance and the equation"):
         st.dataframe(pd.DataFrame({"term": list(natural),
                                    "coefficient": [num(v, 6) for v in natural.values()]}),
                      hide_index=True, height=35 * (len(natural) + 1) + 3)
+
+panels.model_comparison(study, name)

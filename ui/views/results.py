@@ -7,7 +7,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff.search.chance import CHANCE_RULE, chance_text
-from tradeoff_ui import cached, charts, text
+from tradeoff_ui import cached, charts, panels, text
 from tradeoff_ui.shown import num, span
 
 ss = st.session_state
@@ -235,3 +235,6 @@ else:
         "desirability": t["desirability"].map(lambda v: num(v, 3)),
         "chance within limits": t["chance_in_limits"].map(chance_text)}),
         hide_index=True, key="r_whatif_table")
+
+# -- make next ----------------------------------------------------------------------------
+panels.make_next(study, fitted)

@@ -1,0 +1,132 @@
+"""Panels shared by the views: a smooth model, the model comparison, "Make next".
+
+Each panel runs like a view: read state -> widgets -> call the library (through
+``cached``) -> show. No statistics here.
+"""
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from tradeoff import TradeoffError
+from tradeoff_ui import cached, charts
+
+__all__ = ["smooth_model", "model_comparison", "make_next"]
+
+
+def smooth_model(study, response, model, report: dict) -> None:
+    """A smooth model's figures: fit, length scales, runs predicted from the others."""
+    cols = st.columns(4)
+    cols[0].metric("Runs used", report["n"])
+    for col, key, title in ((cols[1], "r2", "R²"), (cols[2], "loo_r2", "Leave-one-out R²"),
+                            (cols[3], "noise_sd", "Noise SD")):
+        value = report[key]
+        col.metric(title, "-" if value is None else (f"{value:.3f}" if key != "noise_sd"
+                                                     else f"{value:.3g}"))
+    st.caption("A smooth model (Gaussian process) predicts each setting from the runs near "
+               "it. It has no terms, so no effects or p-values. Leave-one-out R² is how "
+               "well each run is predicted from all the others: the honest figure.")
+    for warning in report["warnings"]:
+        st.warning(warning)
+    left, right = st.columns([1, 1])
+    with left:
+        st.subheader("Length scales, shortest first")
+        st.caption("How far a factor must move before the response changes appreciably: "
+                   "short = it matters a lot, long = it hardly matters.")
+        st.altair_chart(charts.length_scale_chart(model.length_scale_table()),
+                        width="stretch")
+    with right:
+        st.subheader("Each run predicted from the others")
+        st.caption("Points near the line: the model predicts runs it has not seen. Dark "
+                   "points are runs more than 3 standard deviations off.")
+        st.altair_chart(charts.loo_chart(model.diagnostics_.reset_index(),
+                                         charts.titled(response.label, response.unit)),
+                        width="stretch")
+
+
+def model_comparison(study, name: str) -> None:
+    """The cross-validated comparison of one response's models, with a switch."""
+    ss = st.session_state
+    st.subheader("Which model predicts best")
+    st.caption("Each run is predicted by each model fitted without it (ten folds above "
+               "50 runs); R² and RMSE of those predictions, best first. Prefer the simpler "
+               "model when the figures are close.")
+    if name not in ss["compare_shown"]:
+        if not st.button("Compare the models", key=f"m_compare.{name}"):
+            return
+        ss["compare_shown"] = ss["compare_shown"] | {name}
+    try:
+        comparison = cached.compare(study, name)
+    except TradeoffError as exc:
+        st.info(f"Not compared: {exc}")
+        return
+    table = pd.DataFrame(comparison.to_list()).rename(
+        columns={"loo_r2": "cross-validated R²", "rmse": f"RMSE ({study.response(name).unit or 'units'})"})
+    st.dataframe(table, hide_index=True, key=f"m_compare_table.{name}",
+                 column_config={"cross-validated R²": st.column_config.NumberColumn(
+                     format="%.3f")})
+    st.caption(f"Method: {comparison.method}. Best: **{comparison.best}**."
+               + "".join(f" {n}." for n in comparison.notes))
+    models = [r["model"] for r in comparison.rows]
+    current = study.model_for(study.response(name))
+    if not models:
+        return
+    left, right = st.columns([2, 1])
+    choice = left.selectbox("Use this model for the response", models, index=0,
+                            key=f"m_compare_pick.{name}")
+    right.button("Use it", key=f"m_compare_use.{name}", disabled=choice == current,
+                 on_click=_use_model, args=(name, choice))
+
+
+def _use_model(name: str, model: str) -> None:
+    """Switch a response's model (a callback: it runs before the page, so the
+    model selector shows the new choice too)."""
+    ss = st.session_state
+    ss["models"] = {**ss["models"], name: model}
+    ss[f"m_model.{name}"] = model
+
+
+def make_next(study, fitted) -> None:
+    """Suggested next runs by expected improvement of D, with their run sheet."""
+    ss = st.session_state
+    st.subheader("Make next")
+    st.caption("Runs most likely to improve on the best run made so far: each chosen for "
+               "its expected improvement of D, given the runs picked before it, so the "
+               "batch spreads out. Settings lie in the searched region and obey the rules.")
+    c1, c2, c3 = st.columns([1, 1, 1])
+    runs = c1.number_input("Runs to suggest", 1, 12, value=int(ss["next_runs"] or 4),
+                           key="r_next_n")
+    distance = c2.number_input("Keep apart by (coded units)", 0.05, 1.0, value=0.3,
+                               step=0.05, key="r_next_gap")
+    c3.write("")
+    if c3.button("Suggest runs", key="r_next_go"):
+        ss["next_runs"] = int(runs)
+    if not ss["next_runs"]:
+        return
+    try:
+        batch = cached.next_batch(study, fitted, int(runs), float(distance))
+    except TradeoffError as exc:
+        st.error(str(exc))
+        return
+    best = batch.best_so_far
+    st.markdown(f"Best run made so far: **{best['run']}**, predicted D = "
+                f"{best['desirability']:.3f}.")
+    ids = [str(v) for v in batch.sheet["run"]]  # the ids the run sheet gives them
+    rows = []
+    for rid, s in zip(ids, batch.runs):
+        row = {"run": rid, "expected improvement": s.expected_improvement,
+               "predicted D": s.desirability}
+        row.update(s.settings)
+        rows.append(row)
+    st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_next_table",
+                 column_config={"expected improvement": st.column_config.NumberColumn(
+                     format="%.4f"), "predicted D": st.column_config.NumberColumn(
+                     format="%.3f"), **{f.name: st.column_config.NumberColumn(format="%.4g")
+                                        for f in study.factors if not f.is_categorical}})
+    # the reasons are sentences: listed below the table, where they are not cut off
+    st.markdown("\n".join(f"- **{rid}**: {s.why}" for rid, s in zip(ids, batch.runs)))
+    for w in batch.warnings:
+        st.warning(w)
+    st.download_button("Run sheet of these runs (.csv)",
+                       batch.sheet.to_csv(index=False).encode("utf-8"),
+                       file_name="next_runs.csv", mime="text/csv", key="r_next_sheet")
