@@ -9,7 +9,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff_ui import cached, charts
+from tradeoff_ui import cached, charts, text
 
 __all__ = ["smooth_model", "model_comparison", "make_next"]
 
@@ -27,7 +27,7 @@ def smooth_model(study, response, model, report: dict) -> None:
                "it. It has no terms, so no effects or p-values. Leave-one-out R² is how "
                "well each run is predicted from all the others: the honest figure.")
     for warning in report["warnings"]:
-        st.warning(warning)
+        st.warning(text.plain(warning))
     left, right = st.columns([1, 1])
     with left:
         st.subheader("Length scales, shortest first")
@@ -58,7 +58,7 @@ def model_comparison(study, name: str) -> None:
     try:
         comparison = cached.compare(study, name)
     except TradeoffError as exc:
-        st.info(f"Not compared: {exc}")
+        st.info(text.plain(f"Not compared: {exc}"))
         return
     table = pd.DataFrame(comparison.to_list()).rename(
         columns={"loo_r2": "cross-validated R²", "rmse": f"RMSE ({study.response(name).unit or 'units'})"})
@@ -66,7 +66,7 @@ def model_comparison(study, name: str) -> None:
                  column_config={"cross-validated R²": st.column_config.NumberColumn(
                      format="%.3f")})
     st.caption(f"Method: {comparison.method}. Best: **{comparison.best}**."
-               + "".join(f" {n}." for n in comparison.notes))
+               + text.plain("".join(f" {n}." for n in comparison.notes)))
     models = [r["model"] for r in comparison.rows]
     current = study.model_for(study.response(name))
     if not models:
@@ -106,10 +106,10 @@ def make_next(study, fitted) -> None:
     try:
         batch = cached.next_batch(study, fitted, int(runs), float(distance))
     except TradeoffError as exc:
-        st.error(str(exc))
+        st.error(text.plain(exc))
         return
     best = batch.best_so_far
-    st.markdown(f"Best run made so far: **{best['run']}**, predicted D = "
+    st.markdown(f"Best run made so far: **{text.plain(best['run'])}**, predicted D = "
                 f"{best['desirability']:.3f}.")
     ids = [str(v) for v in batch.sheet["run"]]  # the ids the run sheet gives them
     rows = []
@@ -124,9 +124,10 @@ def make_next(study, fitted) -> None:
                      format="%.3f"), **{f.name: st.column_config.NumberColumn(format="%.4g")
                                         for f in study.factors if not f.is_categorical}})
     # the reasons are sentences: listed below the table, where they are not cut off
-    st.markdown("\n".join(f"- **{rid}**: {s.why}" for rid, s in zip(ids, batch.runs)))
+    st.markdown("\n".join(f"- **{text.plain(rid)}**: {text.plain(s.why)}"
+                           for rid, s in zip(ids, batch.runs)))
     for w in batch.warnings:
-        st.warning(w)
+        st.warning(text.plain(w))
     st.download_button("Run sheet of these runs (.csv)",
                        batch.sheet.to_csv(index=False).encode("utf-8"),
                        file_name="next_runs.csv", mime="text/csv", key="r_next_sheet")
