@@ -41,7 +41,7 @@ from .equation import fitted_equations
 from .notes import effect_index, near_alias_notes
 from .solve import LeastSquares
 
-__all__ = ["ResponseModel", "DEFAULT_ALPHA"]
+__all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points"]
 
 DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
 
@@ -476,13 +476,8 @@ class ResponseModel:
                              "fit first")
 
     def _matrix(self, X_coded) -> np.ndarray:
-        X = np.asarray(X_coded, dtype=float)
-        if X.ndim == 1:
-            X = X.reshape(1, -1)
-        if X.ndim != 2 or X.shape[1] != len(self.factor_names):
-            raise ModelError(f"response '{self.name}': expected settings with one column "
-                             f"per factor ({len(self.factor_names)}), found shape {X.shape}")
-        return model_matrix(X, self._pred_terms)
+        return model_matrix(coded_points(X_coded, self.name, len(self.factor_names)),
+                            self._pred_terms)
 
     def predictive(self, X_coded) -> tuple[np.ndarray, np.ndarray, float, int]:
         """Mean, its standard error, sigma and its degrees of freedom, on the modelling scale.
@@ -573,3 +568,17 @@ def is_blank(value) -> bool:
     if isinstance(value, (float, np.floating)):
         return not math.isfinite(value)
     return isinstance(value, str) and not value.strip()
+
+
+def coded_points(X_coded, name: str, n_factors: int) -> np.ndarray:
+    """Coded settings as an (n, k) float array; one row may come as a flat vector.
+
+    Shared by every model kind, so each refuses a wrong shape in the same words.
+    """
+    X = np.asarray(X_coded, dtype=float)
+    if X.ndim == 1:
+        X = X.reshape(1, -1)
+    if X.ndim != 2 or X.shape[1] != n_factors:
+        raise ModelError(f"response '{name}': expected settings with one column "
+                         f"per factor ({n_factors}), found shape {X.shape}")
+    return X

@@ -39,6 +39,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ModelError, StudyError
+from .fit import coded_points
 from .transforms import TRANSFORM_NAMES, forward, inverse
 
 __all__ = ["SmoothModel", "smooth_min_runs", "LENGTH_BOUNDS", "GAUSSIAN_DF",
@@ -276,13 +277,7 @@ class SmoothModel:
                              "fit first")
 
     def _points(self, X_coded) -> np.ndarray:
-        X = np.asarray(X_coded, dtype=float)
-        if X.ndim == 1:
-            X = X.reshape(1, -1)
-        if X.ndim != 2 or X.shape[1] != len(self.factor_names):
-            raise ModelError(f"response '{self.name}': expected settings with one column "
-                             f"per factor ({len(self.factor_names)}), found shape {X.shape}")
-        return X
+        return coded_points(X_coded, self.name, len(self.factor_names))
 
     def _latent(self, X, with_sd: bool = True):
         """Posterior mean and latent SD on the modelling scale (R&W eqs. 2.25-2.26)."""
