@@ -21,7 +21,8 @@ import pandas as pd
 from ..errors import StudyError
 from ..search.desirability import limits
 
-__all__ = ["round_levels", "held_settings", "contour_lines", "LimitsMap", "limits_map"]
+__all__ = ["round_levels", "held_settings", "contour_lines", "LimitsMap", "limits_map",
+           "limit_bounds", "tick_marks"]
 
 # Grid points per axis: the lines are interpolated between grid points, so the
 # error of a vertex is at most h**2/8 times the response's curvature (h the
@@ -276,6 +277,30 @@ def _slack(study, fit, X: np.ndarray, bounds: list[tuple]) -> np.ndarray:
     return out
 
 
+def limit_bounds(study, fit) -> list[tuple]:
+    """Every finite limit of a response with a goal and a model, then every rule.
+
+    Each item is ``(name, kind, limit, value, rule index)``: kind
+    ``"response"`` (limit ``"lower"`` or ``"upper"``, index -1) or ``"rule"``
+    (the rule's label, its bound and its index among the study's rules).
+    """
+    from ..study.constraints import study_rules
+
+    bounds = []
+    for r in study.responses:
+        if r.name not in fit.models or not r.goal.active:
+            continue
+        lo, hi = limits(r.goal)
+        if np.isfinite(lo):
+            bounds.append((r.name, "response", "lower", float(lo), -1))
+        if np.isfinite(hi):
+            bounds.append((r.name, "response", "upper", float(hi), -1))
+    for i, rule in enumerate(study_rules(study)):
+        label = getattr(rule, "label", None) or getattr(rule, "text", None) or f"rule {i + 1}"
+        bounds.append((str(label), "rule", "rule", float(rule.bound), i))
+    return bounds
+
+
 def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
                n: int = GRID, tick_every: float = 0.05,
                tick_length: float = 0.018) -> LimitsMap:
@@ -294,8 +319,6 @@ def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
     -------
     LimitsMap
     """
-    from ..study.constraints import study_rules
-
     fit = _fitted(study, fit)
     held = held_settings(study, x, y, fixed)
     xs, ys, X = _map_points(study, x, y, held, n)
@@ -303,18 +326,7 @@ def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
     gx, gy = np.meshgrid(xs, ys, indexing="xy")
     grid = pd.DataFrame({"x": gx.ravel(), "y": gy.ravel(), "D": _surface(study, fit, "D", X)})
 
-    bounds = []  # (name, kind, limit, value, rule index)
-    for r in study.responses:
-        if r.name not in fit.models or not r.goal.active:
-            continue
-        lo, hi = limits(r.goal)
-        if np.isfinite(lo):
-            bounds.append((r.name, "response", "lower", float(lo), -1))
-        if np.isfinite(hi):
-            bounds.append((r.name, "response", "upper", float(hi), -1))
-    for i, rule in enumerate(study_rules(study)):
-        label = getattr(rule, "label", None) or getattr(rule, "text", None) or f"rule {i + 1}"
-        bounds.append((str(label), "rule", "rule", float(rule.bound), i))
+    bounds = limit_bounds(study, fit)
 
     slack = _slack(study, fit, X, bounds) if bounds else np.empty((n * n, 0))
     traced, names, kinds, lims = [], [], [], []
@@ -351,11 +363,46 @@ def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
 def _ticks(study, fit, x, y, held, bounds, traced, names, lims, span, every, length):
     """Ticks spaced ``every`` along each line (in shares of the axes), pointing to
     the side where the line's own limit fails (checked by predicting there)."""
-    cols = ["name", "limit", "x", "y", "x2", "y2"]
-    rows_p, rows_n, rows_j = [], [], []
     by_name = {(b[0], b[2]): j for j, b in enumerate(bounds)}
-    for (value, verts), name, limit in zip(traced, names, lims):
-        u = verts / span  # in shares of the axes, so ticks look alike on any axes
+    index = [by_name[(name, limit)] for name, limit in zip(names, lims)]
+
+    def slack_at(points, J):
+        X = _coded_points(study, x, y, held, points[:, 0], points[:, 1])
+        return _slack(study, fit, X, bounds)[np.arange(len(J)), J]
+
+    start, ends, J = tick_marks(traced, index, span, every, length, slack_at)
+    return pd.DataFrame({"name": [bounds[j][0] for j in J],
+                         "limit": [bounds[j][2] for j in J],
+                         "x": start[:, 0], "y": start[:, 1],
+                         "x2": ends[:, 0], "y2": ends[:, 1]})
+
+
+def tick_marks(traced, index, span, every, length, slack_at):
+    """Feet and ends of short ticks along polylines, on each line's failing side.
+
+    Parameters
+    ----------
+    traced : list of (level, vertices (m, 2))
+        The polylines (plotting coordinates).
+    index : list of int
+        For each polyline, the number of the limit it draws (passed back to
+        ``slack_at``).
+    span : array (2,)
+        The plot's width and height: spacing and length are shares of these,
+        so ticks look alike on any axes.
+    every, length : float
+        Spacing along the line and length of each tick (shares of ``span``).
+    slack_at : callable (points (m, 2), limit numbers (m,)) -> (m,)
+        Each limit's slack at plotting points: >= 0 where it holds.
+
+    Returns
+    -------
+    (feet (t, 2), ends (t, 2), limit numbers (t,)) in plotting coordinates.
+    """
+    span = np.asarray(span, dtype=float)
+    rows_p, rows_n, rows_j = [], [], []
+    for (_, verts), j in zip(traced, index):
+        u = verts / span
         seg = np.diff(u, axis=0)
         seg_len = np.hypot(seg[:, 0], seg[:, 1])
         keep = seg_len > 0
@@ -370,23 +417,13 @@ def _ticks(study, fit, x, y, held, bounds, traced, names, lims, span, every, len
         cum = np.concatenate([[0.0], np.cumsum(seg_len)])
         k = np.clip(np.searchsorted(cum, at, side="right") - 1, 0, len(seg) - 1)
         frac = (at - cum[k]) / seg_len[k]
-        points = start[k] + seg[k] * frac[:, None]
-        normal = np.column_stack([-seg[k, 1], seg[k, 0]]) / seg_len[k][:, None]
-        rows_p.append(points)
-        rows_n.append(normal)
-        rows_j.append(np.full(len(points), by_name[(name, limit)]))
+        rows_p.append(start[k] + seg[k] * frac[:, None])
+        rows_n.append(np.column_stack([-seg[k, 1], seg[k, 0]]) / seg_len[k][:, None])
+        rows_j.append(np.full(len(k), j))
     if not rows_p:
-        return pd.DataFrame({c: pd.Series(dtype=object if c in ("name", "limit") else float)
-                             for c in cols})
+        return np.empty((0, 2)), np.empty((0, 2)), np.empty(0, dtype=int)
     P, N, J = np.concatenate(rows_p), np.concatenate(rows_n), np.concatenate(rows_j)
-    probe = (P + N * length) * span
-    X = _coded_points(study, x, y, held, probe[:, 0], probe[:, 1])
-    slack = _slack(study, fit, X, bounds)[np.arange(len(J)), J]
+    slack = np.asarray(slack_at((P + N * length) * span, J), dtype=float)
     # slack >= 0 on the probe's side means that side passes: tick the other way
     sign = np.where(slack >= 0, -1.0, 1.0)[:, None]
-    ends = (P + sign * N * length) * span
-    start = P * span
-    return pd.DataFrame({"name": [bounds[j][0] for j in J],
-                         "limit": [bounds[j][2] for j in J],
-                         "x": start[:, 0], "y": start[:, 1],
-                         "x2": ends[:, 0], "y2": ends[:, 1]})
+    return P * span, (P + sign * N * length) * span, J

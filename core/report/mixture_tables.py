@@ -21,7 +21,7 @@ from ..errors import ModelError, StudyError
 from ..study.mixture import components_of, process_factors_of
 
 __all__ = ["reference_blend", "cox_direction", "mixture_trace", "mixture_effects",
-           "ternary_grid"]
+           "ternary_setup", "ternary_grid"]
 
 
 def _require_components(study) -> list:
@@ -185,33 +185,16 @@ def mixture_effects(study, fit, *, reference: dict | None = None,
                                        "high_amount", "effect", "slope"])
 
 
-def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
-                 settings: dict | None = None, steps: int = 30) -> pd.DataFrame:
-    """Predictions over every blend of three components, the others held fixed.
+def ternary_setup(study, components=None, reference: dict | None = None,
+                  zoom: bool = False) -> dict:
+    """What a ternary map of three components stands on (checked).
 
-    Parameters
-    ----------
-    study, fit : the mixture study and its fitted models (StudyFit or dict).
-    components : three component names (default: the study's first three).
-    reference : component amounts of the reference blend (default: the
-        centroid of the constrained region); the components not mapped keep
-        their reference amounts, and the three share what is left.
-    settings : process factor settings (default: centre, first level).
-    steps : grid lines per side: (steps + 1)(steps + 2)/2 blends.
-
-    Returns
-    -------
-    pandas.DataFrame
-        One row per blend and response, columns: ``point`` (blend number),
-        ``first_share``, ``second_share``, ``third_share`` (the three mapped
-        components' shares of what they split between them; they add up to 1:
-        the ternary coordinates), one column per component with its amount
-        (study units), ``inside`` (True when every component is within its
-        bounds and every rule of the study holds), ``response``, ``predicted``,
-        ``desirability`` (the response's own desirability, NaN when it has no
-        goal) and ``D`` (overall desirability, NaN when no goal takes part).
-        ``attrs["components"]`` holds the three names in the order of the
-        share columns, ``attrs["held"]`` the amounts of the others.
+    Returns a dict: ``names`` (every component), ``components`` (the three
+    mapped), ``held`` (amounts of the others, at the reference blend),
+    ``rest`` (what the three split between them), ``lows`` (the three's
+    smallest shares of ``rest`` the map spans: their lows / rest with
+    ``zoom``, else zeros) and ``room`` (1 - sum of ``lows``: the share of
+    ``rest`` that each side of the map spans).
     """
     comps = _require_components(study)
     names = [c.name for c in comps]
@@ -230,15 +213,70 @@ def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
 
             raise StudyError(f"'{n}' is not a component of the study"
                              f"{did_you_mean(n, names)}: the components are {names}")
-    if not isinstance(steps, int) or steps < 1:
-        raise StudyError(f"steps must be a whole number of at least 1, found {steps!r}")
-    models = _models(fit)
     total = comps[0].total
     ref = reference_blend(study, reference)
     held = {n: ref[n] for n in names if n not in components}
     rest = total - sum(held.values())
+    if rest <= 1e-9 * abs(total):
+        raise StudyError("the other components take up the whole total at the reference "
+                         "blend: nothing is left for the three mapped ones")
+    lows = np.zeros(3)
+    if zoom:
+        by_name = {c.name: c for c in comps}
+        lows = np.array([max(by_name[n].low, 0.0) for n in components]) / rest
+    room = 1.0 - float(lows.sum())
+    if room <= 1e-9:
+        raise StudyError("the three components' lows take up all that the others leave: "
+                         "there is no blend to map; hold the others lower")
+    return {"names": names, "components": components, "held": held, "rest": rest,
+            "lows": lows, "room": room}
+
+
+def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
+                 settings: dict | None = None, steps: int = 30,
+                 zoom: bool = False) -> pd.DataFrame:
+    """Predictions over every blend of three components, the others held fixed.
+
+    Parameters
+    ----------
+    study, fit : the mixture study and its fitted models (StudyFit or dict).
+    components : three component names (default: the study's first three).
+    reference : component amounts of the reference blend (default: the
+        centroid of the constrained region); the components not mapped keep
+        their reference amounts, and the three share what is left.
+    settings : process factor settings (default: centre, first level).
+    steps : grid lines per side: (steps + 1)(steps + 2)/2 blends.
+    zoom : when True the grid spans only the blends where each of the three
+        is at least its low (the smaller triangle of L-pseudo-components,
+        which holds every blend the study allows); default the whole triangle.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per blend and response, columns: ``point`` (blend number),
+        ``first_share``, ``second_share``, ``third_share`` (the three mapped
+        components' shares of what they split between them; they add up to 1:
+        the ternary coordinates), one column per component with its amount
+        (study units), ``inside`` (True when every component is within its
+        bounds and every rule of the study holds), ``response``, ``predicted``,
+        ``desirability`` (the response's own desirability, NaN when it has no
+        goal) and ``D`` (overall desirability, NaN when no goal takes part).
+        ``attrs["components"]`` holds the three names in the order of the
+        share columns, ``attrs["held"]`` the amounts of the others,
+        ``attrs["lows"]``, ``attrs["room"]`` and ``attrs["rest"]`` as in
+        ``ternary_setup`` (shares = lows + room * the grid's own coordinates).
+    """
+    setup = ternary_setup(study, components, reference, zoom)
+    comps = components_of(study)
+    names, components = setup["names"], setup["components"]
+    if not isinstance(steps, int) or steps < 1:
+        raise StudyError(f"steps must be a whole number of at least 1, found {steps!r}")
+    models = _models(fit)
+    total = comps[0].total
+    held, rest = setup["held"], setup["rest"]
     grid = np.array([(i, j, steps - i - j) for i in range(steps + 1)
                      for j in range(steps + 1 - i)], dtype=float) / steps
+    grid = setup["lows"] + setup["room"] * grid
     table = pd.DataFrame({n: np.full(len(grid), held[n]) if n in held
                           else grid[:, components.index(n)] * rest for n in names})
     proc = _process_settings(study, settings)
@@ -278,4 +316,6 @@ def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
         response=pd.Series(dtype=object), predicted=np.nan, desirability=np.nan, D=np.nan)
     out.attrs["components"] = tuple(components)
     out.attrs["held"] = dict(held)
+    out.attrs.update(lows=tuple(float(v) for v in setup["lows"]), room=setup["room"],
+                     rest=rest)
     return out
