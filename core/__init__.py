@@ -74,6 +74,8 @@ _HOME = {
     "contour_lines": "report.contours", "limits_map": "report.contours",
     "LimitsMap": "report.contours", "slices": "report.slices",
     "model_interaction": "report.slices",
+    "ternary_lines": "report.ternary", "ternary_limits": "report.ternary",
+    "TernaryLimits": "report.ternary", "ternary_region": "report.ternary",
 }
 
 __all__ = ["__version__", *_HOME]

@@ -45,6 +45,8 @@ PUBLIC_NAMES = sorted([
     "simplex_centroid", "plan_mixture", "mixture_trace", "mixture_effects", "ternary_grid",
     "chance_text", "contour_lines", "limits_map", "LimitsMap", "slices",
     "model_interaction",
+    # ternary maps (issue 18)
+    "ternary_lines", "ternary_limits", "TernaryLimits", "ternary_region",
 ])
 
 

@@ -21,6 +21,7 @@ from .data import CAUTIONS, _provenance_rows, report_data
 from .evidence import _EvidenceSections
 from .map_sections import _MapSections
 from .sections import _AnswerSections, _table, esc
+from .ternary_sections import _TernarySections
 
 __all__ = ["build_report_html"]
 
@@ -105,7 +106,7 @@ pre { background:#f4f2ee; border:1px solid var(--line); padding:10px 12px;
 """
 
 
-class _Page(_AnswerSections, _EvidenceSections, _MapSections):
+class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections):
     """Renders the report's sections from ``report_data``'s dict."""
 
     # -- the page
@@ -116,6 +117,7 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections):
             ("recommended", "Recommended settings", self.recommended()),
             ("alternatives", "Alternatives", self.alternatives()),
             ("maps", "Maps around the recommendation", self.maps()),
+            *([("blend", "Blend triangle", self.ternary())] if self.has_triangle() else []),
             ("confirmation", "Confirmation runs", self.confirmation()),
             ("targets", "Targets", self.targets()),
             ("models", "What drives each response", self.models()),

@@ -35,7 +35,10 @@ class _MapSections(_Sections):
 
         best = self.res["best"]
         settings = best["settings"]
-        numeric = [f for f in self.study.factors if not f.is_categorical]
+        # a blend's components are mapped in the triangle (ternary_sections): two of
+        # them over a square would hold the others off the total
+        numeric = [f for f in self.study.factors
+                   if not f.is_categorical and not getattr(f, "is_component", False)]
         out = []
         if len(numeric) >= 2:
             fx, fy = numeric[0], numeric[1]
@@ -64,7 +67,11 @@ class _MapSections(_Sections):
                        "lines of equal overall desirability D, each labelled with its "
                        "value.</p>")
         else:
-            out.append("<p>Maps need two numeric factors.</p>")
+            out.append("<p>Maps need two numeric factors"
+                       + (" besides the blend's components (mapped in the blend "
+                          "triangle)" if any(getattr(f, "is_component", False)
+                                              for f in self.study.factors) else "")
+                       + ".</p>")
         out.append(self._slices(settings, best["label"]))
         return "".join(out)
 

@@ -22,7 +22,7 @@ from .ternary import HEIGHT, to_plot
 __all__ = ["ternary_axes", "ternary_contour_picture", "ternary_limits_picture"]
 
 # margins around the triangle (in shares of its side) for labels and titles
-_LEFT, _RIGHT, _BOTTOM, _TOP = 0.24, 0.24, 0.2, 0.13
+_LEFT, _RIGHT, _BOTTOM, _TOP = 0.24, 0.24, 0.2, 0.1
 _OUTSIDE = "#8b939c"
 # outward normals of the left, bottom and right sides (unit length)
 _NORMALS = {0: (-HEIGHT, 0.5), 1: (0.0, -1.0), 2: (HEIGHT, 0.5)}
@@ -84,12 +84,14 @@ def ternary_axes(attrs: dict, labels: dict, units: dict) -> dict:
                        "x": mids[k][0] + gap * nx, "y": mids[k][1] + gap * ny,
                        "angle": angles[k] % 360})
         top = (lows[k] + room) * rest
-        corner_rows.append({"text": f"{label} {_amount_text(top, unit)}",
+        # top: one line above the corner; bottom: two lines under the corner,
+        # clear of the bottom side's scale and title
+        sep = " " if k == 0 else "\n"
+        corner_rows.append({"text": f"{label}{sep}{_amount_text(top, unit)}",
                             "x": corners[k, 0], "y": corners[k, 1]})
     corner = pd.DataFrame(corner_rows)
-    corner["x"] += [0.0, -0.02, 0.02]
-    corner["y"] += [0.035, -0.085, -0.085]
-    corner["align"] = ["center", "right", "left"]
+    corner["y"] += [0.045, -0.105, -0.105]
+    corner["align"] = ["center", "center", "center"]
     return {"edges": edges, "grid": pd.DataFrame(grid_rows), "ticks": pd.DataFrame(tick_rows),
             "titles": pd.DataFrame(titles), "corners": corner}
 
@@ -131,7 +133,8 @@ def _frame_layers(alt, axes: dict, xs, ys):
         x=X, y=Y, text="text:N", angle=alt.Angle("angle:Q", scale=None)))
     for align, part in axes["corners"].groupby("align", sort=False):
         layers.append(alt.Chart(part).mark_text(
-            fontSize=11.5, color=INK, align=align, baseline="middle").encode(
+            fontSize=11.5, color=INK, align=align, baseline="middle", lineBreak="\n",
+            fontStyle="italic").encode(
             x=X, y=Y, text="text:N"))
     return layers
 

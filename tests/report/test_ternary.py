@@ -209,3 +209,30 @@ def test_refusals(flour):
     snack = load_study(DEMO.parent / "snack_bar.toml")
     with pytest.raises(StudyError, match="no \\[\\[components\\]\\]"):
         ternary_region(snack)
+
+
+def _page(path, monkeypatch):
+    """The report page with the slow two-factor maps and model sections left out
+    (they have their own tests): the blend section is what is checked here."""
+    from tradeoff.report.data import report_data
+    from tradeoff.report.html import _Page
+
+    for name in ("maps", "models"):
+        monkeypatch.setattr(_Page, name, lambda self: "")
+    study = load_study(path)
+    return _Page(study, report_data(study, top=2)).render()
+
+
+def test_the_report_of_a_blend_has_the_triangle(monkeypatch):
+    page = _page(DEMO, monkeypatch)
+    assert '<section id="blend"><h2>Blend triangle</h2>' in page
+    section = page.split('<section id="blend">')[1].split("</section>")[0]
+    # two inline drawings (limits, D) with the component scales in amounts
+    assert section.count("<svg") == 2
+    assert "Rice flour, %" in section and "S1 (recommended)" in section
+    assert "crumb_hardness" in section and "% of them" in section
+
+
+def test_the_report_of_a_study_without_blend_has_no_triangle(monkeypatch):
+    page = _page(DEMO.parent / "snack_bar.toml", monkeypatch)
+    assert 'id="blend"' not in page and "Blend triangle" not in page

@@ -1,0 +1,82 @@
+"""The page's blend triangle: for a study with components, the limits map and the
+lines of equal overall desirability D over three components, the rest held at
+the recommendation.
+
+Computed by ``ternary`` and drawn by ``ternary_pictures``, rendered to inline
+SVG (no browser, no network).
+"""
+from __future__ import annotations
+
+import pandas as pd
+
+from .charts import _chart_div, _svg
+from .sections import _Sections, esc
+
+__all__ = ["_TernarySections"]
+
+
+class _TernarySections(_Sections):
+    """Renders the blend triangle section (studies with three or more components)."""
+
+    def has_triangle(self) -> bool:
+        from ..study.mixture import components_of
+
+        return len(components_of(self.study)) >= 3
+
+    def ternary(self) -> str:
+        from ..model.study_fit import StudyFit
+        from ..study.mixture import components_of, process_factors_of
+        from .ternary import ternary_limits, ternary_lines, ternary_position
+        from .ternary_pictures import (ternary_axes, ternary_contour_picture,
+                                       ternary_limits_picture)
+
+        fit = StudyFit(study=self.study, models=dict(self.data["fitted"]),
+                       skipped=dict(self.data["skipped"]))
+        if not fit.models:
+            return "<p>No blend triangle: no response has a model.</p>"
+        comps = components_of(self.study)
+        three = [c.name for c in comps[:3]]
+        best = self.res["best"] if self.res is not None else None
+        if best is not None:
+            settings = best["settings"]
+            reference = {c.name: float(settings[c.name]) for c in comps}
+            process = {f.name: settings[f.name] for f in process_factors_of(self.study)}
+            marks = ternary_position(self.study, [reference], three, reference=reference
+                                     ).assign(what=f"{best['label']} (recommended)")
+            marks = marks[["what", "x", "y"]]
+            where = f"the other settings at {esc(best['label'])}"
+        else:
+            reference = process = None
+            marks = pd.DataFrame(columns=["what", "x", "y"])
+            where = "the other settings at the middle of their ranges"
+        has_d = any(r.goal.active and r.name in fit.models for r in self.study.responses)
+        tlim = ternary_limits(self.study, three, reference=reference, settings=process,
+                              fit=fit)
+        d_lines = (ternary_lines(self.study, "D", three, reference=reference,
+                                 settings=process, fit=fit) if has_d else None)
+        axes = ternary_axes(tlim.lines.attrs,
+                            {c.name: c.label for c in comps}, {c.name: c.unit for c in comps})
+        titles = {r.name: r.display() for r in self.study.responses}
+        charts = [_chart_div(_svg(ternary_limits_picture(tlim, axes, titles, marks,
+                                                         d_lines=d_lines, width=420)))]
+        if has_d:
+            grid = tlim.grid.assign(value=tlim.grid["D"])
+            charts.append(_chart_div(_svg(ternary_contour_picture(
+                grid, d_lines, axes, tlim.bounds, "value", "overall desirability D", marks,
+                width=420))))
+        names = ", ".join(esc(c.display()) for c in comps[:3])
+        held = [c for c in comps[3:]]
+        held_text = ("" if not held else "; " + ", ".join(
+            f"{esc(c.display())} held at {reference[c.name]:.4g}" if reference else
+            esc(c.display()) for c in held))
+        return (f"<p>The blends of {names}, {where}{held_text}. Each corner is the blend "
+                "richest in one component; the scale on each side gives that component's "
+                "amount, read along the faint lines parallel to the side opposite its "
+                "corner. The black outline surrounds the blends within every component's "
+                "bounds; outside it the lines are faint (the model is guessing).</p>"
+                '<div class="charts">' + "".join(charts) + "</div>"
+                f'<p class="note">Left: each line is one response\'s limit, in its colour '
+                "and dash, with short ticks on the side where the limit fails; the thick "
+                "grey outline surrounds the allowed blends where every limit holds "
+                f"({tlim.share:.0%} of them); faint dotted lines: D. Right: lines of equal "
+                "overall desirability D, each labelled with its value.</p>")
