@@ -285,3 +285,62 @@ def next_batch(study, fitted, runs: int, distance: float):
     models, goals and the options."""
     with st.spinner("Choosing the runs most likely to improve the balance..."):
         return _next_batch(study_keys(study)[1], runs, distance, study, fitted)
+
+
+# -- blend triangles (ternary maps) -------------------------------------------------------
+__all__ += ["ternary_lines", "ternary_limits", "ternary_wash"]
+
+
+def _blend_items(study, components, settings: dict) -> tuple:
+    """(the three, the other components' amounts, the process settings) as hashables."""
+    comps = [f.name for f in study.factors if getattr(f, "is_component", False)]
+    reference = tuple((n, float(settings[n])) for n in comps)
+    process = _held_items({k: v for k, v in settings.items() if k not in comps})
+    return tuple(components), reference, process
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def _ternary_lines(key: str, _study, _fit, value: str, three: tuple, reference: tuple,
+                   process: tuple):
+    from tradeoff.report.ternary import ternary_lines as build
+
+    return build(_study, value, list(three), reference=dict(reference),
+                 settings=dict(process), fit=_fit)
+
+
+def ternary_lines(study, fitted, value: str, components, settings: dict):
+    """Lines of equal response or D in the triangle (``tradeoff.ternary_lines``), the
+    other components and the process factors at ``settings``."""
+    return _ternary_lines(study_keys(study)[1], study, fitted, value,
+                          *_blend_items(study, components, settings))
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _ternary_limits(key: str, _study, _fit, three: tuple, reference: tuple, process: tuple):
+    from tradeoff.report.ternary import ternary_limits as build
+
+    return build(_study, list(three), reference=dict(reference), settings=dict(process),
+                 fit=_fit)
+
+
+def ternary_limits(study, fitted, components, settings: dict):
+    """Every limit, the allowed blends and where all limits hold, in the triangle
+    (``tradeoff.ternary_limits``)."""
+    return _ternary_limits(study_keys(study)[1], study, fitted,
+                           *_blend_items(study, components, settings))
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _ternary_wash(key: str, _study, _fit, three: tuple, reference: tuple, process: tuple):
+    from tradeoff.report.mixture_tables import ternary_grid
+    from tradeoff.report.ternary import ternary_points
+
+    return ternary_points(ternary_grid(_study, _fit, list(three), reference=dict(reference),
+                                       settings=dict(process), steps=60, zoom=True))
+
+
+def ternary_wash(study, fitted, components, settings: dict):
+    """Predictions and D over the triangle's blends with plotting coordinates
+    (``tradeoff.ternary_grid``, zoomed to the blends the study allows)."""
+    return _ternary_wash(study_keys(study)[1], study, fitted,
+                         *_blend_items(study, components, settings))

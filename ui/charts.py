@@ -225,3 +225,25 @@ def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
         tooltip=["run", alt.Tooltip("observed:Q", format=".4g"),
                  alt.Tooltip("loo_predicted:Q", format=".4g")])
     return alt.layer(line, dots).properties(height=300)
+
+
+__all__ += ["ternary_chart", "ternary_limits_chart"]
+
+
+def ternary_chart(grid: pd.DataFrame, lines: pd.DataFrame, axes: dict, bounds: pd.DataFrame,
+                  value: str, value_title: str, marks: pd.DataFrame, width: int = 640):
+    """Labelled lines in the blend triangle over a light wash (equal units on both
+    axes, so a fixed width; see ``tradeoff.report.ternary_pictures``)."""
+    from tradeoff.report.ternary_pictures import ternary_contour_picture
+
+    return ternary_contour_picture(grid, lines, axes, bounds, value, value_title, marks,
+                                   width=width)
+
+
+def ternary_limits_chart(tlim, axes: dict, titles: dict, marks: pd.DataFrame,
+                         d_lines: pd.DataFrame | None = None, width: int = 640):
+    """Each limit as its own labelled line in the blend triangle, failing side ticked,
+    the blends where all hold outlined (``ternary_pictures.ternary_limits_picture``)."""
+    from tradeoff.report.ternary_pictures import ternary_limits_picture
+
+    return ternary_limits_picture(tlim, axes, titles, marks, d_lines=d_lines, width=width)

@@ -17,7 +17,7 @@ import pandas as pd
 
 from .contours import round_levels
 from .pictures import INK, LINE_COLOURS, LINE_DASHES, REGION, WASH, _fmt, _label_points
-from .ternary import HEIGHT, to_plot
+from .ternary import HEIGHT, from_plot, to_plot
 
 __all__ = ["ternary_axes", "ternary_contour_picture", "ternary_limits_picture"]
 
@@ -125,7 +125,7 @@ def _frame_layers(alt, axes: dict, xs, ys):
             part = ticks[ticks["side"] == side]
             if len(part):
                 layers.append(alt.Chart(part).mark_text(
-                    fontSize=10.5, color=INK, align=align, baseline=baseline).encode(
+                    fontSize=11, color=INK, align=align, baseline=baseline).encode(
                     x=alt.X("tx:Q", scale=xs, axis=None),
                     y=alt.Y("ty:Q", scale=ys, axis=None), text="text:N"))
     layers.append(alt.Chart(axes["titles"]).mark_text(
@@ -173,14 +173,27 @@ def _line_layers(alt, runs: pd.DataFrame, X, Y, outer_encode=None, **encode):
     return layers
 
 
-def _labels(alt, runs: pd.DataFrame, X, Y, text, colour=None):
+def _interior_points(runs: pd.DataFrame) -> pd.DataFrame:
+    """One spot per stretch: of its middle part, the vertex farthest from the
+    triangle's sides, so a label on a line near a side stays clear of its scale."""
+    pos = runs.groupby("run").cumcount()
+    size = runs.groupby("run")["run"].transform("size")
+    middle = runs[(pos >= 0.25 * size) & (pos <= 0.75 * size)]
+    depth = from_plot(middle["x"], middle["y"]).min(axis=1)
+    return middle.loc[pd.Series(depth, index=middle.index).groupby(middle["run"]).idxmax()]
+
+
+def _labels(alt, runs: pd.DataFrame, X, Y, text, colour=None, interior=False):
     """One label per stretch inside the allowed blends, on a white halo."""
     inner = runs[runs["inside"]]
     if inner.empty:
         return []
     # only stretches long enough to carry a label
     sizes = inner.groupby("run")["run"].transform("size")
-    spots = _label_points(inner[sizes >= 4], key="run")
+    inner = inner[sizes >= 4]
+    if inner.empty:
+        return []
+    spots = _interior_points(inner) if interior else _label_points(inner, key="run")
     if spots.empty:
         return []
     spots = spots.assign(text=text(spots))
@@ -321,6 +334,6 @@ def ternary_limits_picture(tlim, axes: dict, titles: dict,
         layers += _labels(alt, runs, X, Y, lambda t: [
             f"{nm} {sign[lim]} {_fmt(lv)}" if lim != "rule" else nm
             for nm, lim, lv in zip(t["name"], t["limit"], t["level"])],
-            colour=alt.Color("name:N", scale=colours, legend=None))
+            colour=alt.Color("name:N", scale=colours, legend=None), interior=True)
     layers += _marks(alt, marks, X, Y)
     return _finish(alt, layers, width, height)

@@ -7,7 +7,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff.search.chance import CHANCE_RULE, chance_text
-from tradeoff_ui import cached, charts, panels, text
+from tradeoff_ui import cached, charts, panels, text, triangle
 from tradeoff_ui.shown import num, span
 
 ss = st.session_state
@@ -116,8 +116,13 @@ if result.assumptions:
 # -- maps ---------------------------------------------------------------------------------
 st.subheader("Maps over two factors")
 best = result.solutions[0]
-if len(numeric) < 2:
-    st.caption("Maps need two numeric factors.")
+# a blend's components go in the triangle below: two of them over a square would
+# hold the others off the total
+mappable = [n for n in numeric if not getattr(study.factor(n), "is_component", False)]
+if len(mappable) < 2:
+    st.caption("Maps need two numeric factors" + (
+        " besides the blend's components (see the blend triangle)"
+        if any(getattr(f, "is_component", False) for f in study.factors) else "") + ".")
 else:
     has_d = bool(fitted.models) and any(r.goal.active for r in study.responses)
     what_options = (["limits", "D"] if has_d else []) + list(fitted.models)
@@ -126,9 +131,9 @@ else:
     shown_value = m1.selectbox("Show", what_options, key="r_map_value",
                                format_func=lambda n: what_labels.get(n) or
                                study.response(n).display())
-    x = m2.selectbox("Across", numeric, index=0, key="r_map_x",
+    x = m2.selectbox("Across", mappable, index=0, key="r_map_x",
                      format_func=lambda n: study.factor(n).display())
-    y = m3.selectbox("Up", [n for n in numeric if n != x], index=0, key="r_map_y",
+    y = m3.selectbox("Up", [n for n in mappable if n != x], index=0, key="r_map_y",
                      format_func=lambda n: study.factor(n).display())
     held = {k: v for k, v in chosen.settings.items() if k not in (x, y)}
     fx, fy = study.factor(x), study.factor(y)
@@ -166,6 +171,9 @@ else:
             st.caption(f"Held at {held_text}. Each line joins settings with the same "
                        f"predicted {'D' if shown_value == 'D' else 'value'}; the number "
                        "on it is that value.")
+
+# -- blend triangle (studies with components) --------------------------------------------
+triangle.blend_triangle(study, fitted, best, chosen)
 
 # -- slices -------------------------------------------------------------------------------
 st.subheader("Along each factor")
