@@ -50,13 +50,14 @@ def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.
         y=alt.Y("term:N", sort=order, title="Model term",
                 axis=alt.Axis(labelOverlap=False, labelLimit=220)),
         color=alt.Color("sign:N", scale=SIGN_COLOURS, title="Going low to high"),
-        tooltip=["term", alt.Tooltip("effect:Q", format=".4g")])
+        tooltip=[alt.Tooltip("term"), alt.Tooltip("effect:Q", format=".4g")])
     layers = [bars]
     if len(lines):
         rules = alt.Chart(lines).mark_rule(strokeDash=[6, 3], color="#333").encode(
-            x="value:Q", tooltip=["label", alt.Tooltip("value:Q", format=".4g")])
+            x=alt.X("value:Q"),
+            tooltip=[alt.Tooltip("label:N"), alt.Tooltip("value:Q", format=".4g")])
         text = alt.Chart(lines).mark_text(align="left", dx=3, dy=-6, color="#333").encode(
-            x="value:Q", y=alt.value(0), text="label:N")
+            x=alt.X("value:Q"), y=alt.YValue(0), text=alt.Text("label:N"))
         layers += [rules, text]
     return fit_width(alt.layer(*layers).properties(height=max(3, len(data)) * BAR_STEP))
 
@@ -71,8 +72,8 @@ def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> al
         x=alt.X("abs_effect:Q", title=titled("Size of effect", unit)),
         y=alt.Y("quantile:Q", title="Half-normal quantile"))
     dots = base.mark_circle(size=70, color=DARK).encode(
-        tooltip=["term", alt.Tooltip("effect:Q", format=".4g")])
-    text = base.mark_text(align="left", dx=6).encode(text="label:N")
+        tooltip=[alt.Tooltip("term"), alt.Tooltip("effect:Q", format=".4g")])
+    text = base.mark_text(align="left", dx=6).encode(text=alt.Text("label:N"))
     return fit_width(alt.layer(dots, text).properties(height=320))
 
 
@@ -99,17 +100,17 @@ def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
     base = alt.Chart(table).encode(
         color=alt.Color("flagged:N", scale=alt.Scale(domain=[False, True],
                                                      range=[MID, DARK]), legend=None),
-        tooltip=["run", alt.Tooltip("fitted:Q", format=".4g"),
+        tooltip=[alt.Tooltip("run"), alt.Tooltip("fitted:Q", format=".4g"),
                  alt.Tooltip("residual:Q", format=".4g"),
                  alt.Tooltip("studentized_deleted:Q", format=".2f",
                              title="deleted studentized")])
-    zero = alt.Chart(pd.DataFrame({"y": [0.0]})).mark_rule(color="#888").encode(y="y:Q")
+    zero = alt.Chart(pd.DataFrame({"y": [0.0]})).mark_rule(color="#888").encode(y=alt.Y("y:Q"))
     vs_fit = alt.layer(zero, base.mark_circle(size=60).encode(
         x=alt.X("fitted:Q", title=titled("Fitted value", unit), scale=alt.Scale(zero=False)),
         y=alt.Y("residual:Q", title=titled("Residual", unit)))).properties(
         height=230, title="Against fitted value")
     limit = alt.Chart(pd.DataFrame({"y": [-3.0, 3.0]})).mark_rule(
-        color=DARK, strokeDash=[4, 3]).encode(y="y:Q")
+        color=DARK, strokeDash=[4, 3]).encode(y=alt.Y("y:Q"))
     normal = alt.layer(limit, base.mark_circle(size=60).encode(
         x=alt.X("quantile:Q", title="Normal quantile"),
         y=alt.Y("studentized_deleted:Q", title="Deleted studentized residual"))).properties(
@@ -118,7 +119,7 @@ def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
         x=alt.X("order:O", title="Run (file order)", axis=alt.Axis(labelOverlap=True)),
         y=alt.Y("residual:Q", title=titled("Residual", unit)))
     order = alt.layer(zero, trace, base.mark_circle(size=60).encode(
-        x="order:O", y="residual:Q")).properties(height=230, title="In run order")
+        x=alt.X("order:O"), y=alt.Y("residual:Q"))).properties(height=230, title="In run order")
     return fit_width(vs_fit), fit_width(normal), fit_width(order)
 
 
@@ -133,7 +134,7 @@ def desirability_chart(curve: pd.DataFrame, marker: pd.DataFrame, x_title: str) 
         y=alt.Y("desirability:Q", title="Desirability", scale=alt.Scale(domain=[0, 1.05])))
     dot = alt.Chart(marker).mark_point(shape="diamond", size=160, filled=True,
                                        color=DARK).encode(
-        x="value:Q", y="desirability:Q",
+        x=alt.X("value:Q"), y=alt.Y("desirability:Q"),
         tooltip=[alt.Tooltip("value:Q", format=".4g", title="predicted"),
                  alt.Tooltip("desirability:Q", format=".3f")])
     return fit_width(alt.layer(line, dot).properties(height=170))
@@ -201,9 +202,9 @@ def length_scale_chart(table: pd.DataFrame) -> alt.Chart:
                 scale=alt.Scale(type="log", domain=[0.3, 100])),
         y=alt.Y("factor:N", sort=order, title="Factor",
                 axis=alt.Axis(labelOverlap=False, labelLimit=220)),
-        tooltip=["factor", alt.Tooltip("length_scale:Q", format=".3g"),
+        tooltip=[alt.Tooltip("factor"), alt.Tooltip("length_scale:Q", format=".3g"),
                  alt.Tooltip("natural:Q", title="in its units", format=".3g"),
-                 "at_bound"]).properties(height=60 + 40 * len(table))
+                 alt.Tooltip("at_bound")]).properties(height=60 + 40 * len(table))
 
 
 def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
@@ -214,7 +215,7 @@ def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
     lo = float(min(diag["observed"].min(), diag["loo_predicted"].min()))
     hi = float(max(diag["observed"].max(), diag["loo_predicted"].max()))
     line = alt.Chart(pd.DataFrame({"a": [lo, hi], "b": [lo, hi]})).mark_line(
-        color="#999", strokeDash=[4, 3]).encode(x="a:Q", y="b:Q")
+        color="#999", strokeDash=[4, 3]).encode(x=alt.X("a:Q"), y=alt.Y("b:Q"))
     data = diag.assign(mark=["beyond 3 SD" if f else "" for f in diag["flagged"]])
     dots = alt.Chart(data).mark_circle(size=70).encode(
         x=alt.X("loo_predicted:Q", title="Predicted from the other runs",
@@ -222,7 +223,7 @@ def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
         y=alt.Y("observed:Q", title=f"Measured: {title}", scale=alt.Scale(zero=False)),
         color=alt.Color("mark:N", scale=alt.Scale(domain=["", "beyond 3 SD"],
                                                   range=[MID, DARK]), legend=None),
-        tooltip=["run", alt.Tooltip("observed:Q", format=".4g"),
+        tooltip=[alt.Tooltip("run"), alt.Tooltip("observed:Q", format=".4g"),
                  alt.Tooltip("loo_predicted:Q", format=".4g")])
     return alt.layer(line, dots).properties(height=300)
 

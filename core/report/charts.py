@@ -18,8 +18,12 @@ def _svg(chart) -> str:
     """Render an Altair chart to inline SVG (vl-convert: no browser, no network)."""
     import vl_convert
 
+    from .chart_data import use_records
+
     # The specification is built here from checked numbers: skip schema validation.
-    svg = vl_convert.vegalite_to_svg(chart.to_json(validate=False))
+    with use_records():
+        spec = chart.to_json(validate=False)
+    svg = vl_convert.vegalite_to_svg(spec)
     if svg.startswith("<?xml"):
         svg = svg[svg.index("?>") + 2:]
     return svg
@@ -79,7 +83,7 @@ def _curve_chart(item, part: pd.DataFrame, marker) -> str:
         x = min(max(float(marker[0]), lo), hi)
         dot = alt.Chart(pd.DataFrame({"value": [x], "desirability": [marker[1]]})
                         ).mark_point(size=90, filled=True, color=_MARK).encode(
-            x="value:Q", y="desirability:Q")
+            x=alt.X("value:Q"), y=alt.Y("desirability:Q"))
         layers.append(dot)
     return _svg(alt.layer(*layers).properties(width=230, height=150))
 

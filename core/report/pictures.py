@@ -23,6 +23,7 @@ INK, REGION = "#23262b", "#111111"
 # the wash runs from cream (low) to pale teal (high): light enough to keep the
 # lines and their labels the map's main message
 WASH = ["#fbf6e9", "#a9cfcb"]
+WASH_LINES = 31
 
 
 def _fmt(value: float) -> str:
@@ -52,12 +53,12 @@ def _marks_layer(alt, marks: pd.DataFrame | None):
                        range=["diamond", "cross", "circle", "square"][:len(marks)])
     halo = alt.Chart(marks).mark_point(size=260, filled=True, color="white",
                                        opacity=0.9).encode(
-        x="x:Q", y="y:Q", shape=alt.Shape("what:N", scale=shapes, legend=None))
+        x=alt.X("x:Q"), y=alt.Y("y:Q"), shape=alt.Shape("what:N", scale=shapes, legend=None))
     dots = alt.Chart(marks).mark_point(size=150, filled=True, color=INK, opacity=1).encode(
-        x="x:Q", y="y:Q",
+        x=alt.X("x:Q"), y=alt.Y("y:Q"),
         shape=alt.Shape("what:N", scale=shapes,
                         legend=alt.Legend(title=None, orient="bottom")),
-        tooltip=["what:N", alt.Tooltip("x:Q", format=".4g"),
+        tooltip=[alt.Tooltip("what:N"), alt.Tooltip("x:Q", format=".4g"),
                  alt.Tooltip("y:Q", format=".4g")])
     return [halo, dots]
 
@@ -75,9 +76,17 @@ def _axes(alt, grid, x_title, y_title):
 
 
 def _wash(alt, grid, value, value_title, x_title, y_title, n):
-    """The light fill: the grid's cells, faintly coloured by value (no bands)."""
+    """The light fill: the grid's cells, faintly coloured by value (no bands).
+
+    The wash takes every second or third grid line (at most ``WASH_LINES`` a
+    side): a faint fill needs no finer cells, and each cell is one drawn mark,
+    so a full grid would multiply the page's drawing time for nothing.
+    """
     xs_u = np.unique(grid["x"].to_numpy(float))
     ys_u = np.unique(grid["y"].to_numpy(float))
+    xs_u, ys_u = xs_u[::-(-len(xs_u) // WASH_LINES)], ys_u[::-(-len(ys_u) // WASH_LINES)]
+    grid = grid[np.isin(grid["x"].to_numpy(float), xs_u)
+                & np.isin(grid["y"].to_numpy(float), ys_u)]
     dx = (xs_u[-1] - xs_u[0]) / max(len(xs_u) - 1, 1)
     dy = (ys_u[-1] - ys_u[0]) / max(len(ys_u) - 1, 1)
     data = grid[["x", "y", value]].rename(columns={value: "v"})
@@ -89,10 +98,10 @@ def _wash(alt, grid, value, value_title, x_title, y_title, n):
     return alt.Chart(data).mark_rect(opacity=0.9, stroke=None).encode(
         x=alt.X("x1:Q", title=x_title, scale=alt.Scale(zero=False, nice=False),
                 axis=_axis(alt)),
-        x2="x2:Q",
+        x2=alt.X2("x2:Q"),
         y=alt.Y("y1:Q", title=y_title, scale=alt.Scale(zero=False, nice=False),
                 axis=_axis(alt)),
-        y2="y2:Q",
+        y2=alt.Y2("y2:Q"),
         color=alt.Color("v:Q", scale=alt.Scale(range=WASH), title=value_title,
                         legend=alt.Legend(orient="bottom", titleLimit=0, gradientLength=220)),
         tooltip=[alt.Tooltip("x:Q", format=".4g", title=x_title),
@@ -117,10 +126,10 @@ def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_t
     if not lines.empty:
         drawn = _order(lines)
         layers.append(alt.Chart(drawn).mark_line(color=INK, strokeWidth=1.4).encode(
-            x=xs, y=ys, detail="line:N", order="i:Q",
+            x=xs, y=ys, detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
             tooltip=[alt.Tooltip("level:Q", format=".4g", title=value_title)]))
         labels = _label_points(drawn).assign(text=lambda t: t["level"].map(_fmt))
-        base = alt.Chart(labels).encode(x="x:Q", y="y:Q", text="text:N")
+        base = alt.Chart(labels).encode(x=alt.X("x:Q"), y=alt.Y("y:Q"), text=alt.Text("text:N"))
         layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
                                   strokeOpacity=0.9),
                    base.mark_text(fontSize=11, color=INK, fontWeight="bold")]
@@ -158,31 +167,31 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
     if d_lines is not None and not d_lines.empty:
         layers.append(alt.Chart(_order(d_lines)).mark_line(
             color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
-            x="x:Q", y="y:Q", detail="line:N", order="i:Q"))
+            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
     if not lmap.region.empty:
         layers.append(alt.Chart(_order(lmap.region)).mark_line(
             color=REGION, strokeWidth=4, opacity=0.55).encode(
-            x="x:Q", y="y:Q", detail="line:N", order="i:Q"))
+            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
     if not lines.empty:
         drawn = _order(lines).assign(
             title=lambda t: [titles.get(nm, nm) for nm in t["name"]])
         legend = alt.Legend(title=None, orient="bottom", columns=3, labelLimit=260,
                             symbolStrokeWidth=2.5)
         layers.append(alt.Chart(drawn).mark_line(strokeWidth=2).encode(
-            x="x:Q", y="y:Q", detail="line:N", order="i:Q",
+            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
             color=alt.Color("name:N", scale=colours, legend=legend),
             strokeDash=alt.StrokeDash("name:N", scale=dashes, legend=legend),
-            tooltip=[alt.Tooltip("title:N", title="response"), "limit:N",
+            tooltip=[alt.Tooltip("title:N", title="response"), alt.Tooltip("limit:N"),
                      alt.Tooltip("level:Q", format=".4g", title="limit")]))
         if not lmap.ticks.empty:
             layers.append(alt.Chart(lmap.ticks).mark_rule(strokeWidth=1.4).encode(
-                x="x:Q", y="y:Q", x2="x2:Q", y2="y2:Q",
+                x=alt.X("x:Q"), y=alt.Y("y:Q"), x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q"),
                 color=alt.Color("name:N", scale=colours, legend=None)))
         sign = {"lower": "\u2265", "upper": "\u2264", "rule": ""}
         labels = _label_points(drawn).assign(
             text=lambda t: [f"{nm} {sign[lim]} {_fmt(lv)}" if lim != "rule" else nm
                             for nm, lim, lv in zip(t["name"], t["limit"], t["level"])])
-        base = alt.Chart(labels).encode(x="x:Q", y="y:Q", text="text:N")
+        base = alt.Chart(labels).encode(x=alt.X("x:Q"), y=alt.Y("y:Q"), text=alt.Text("text:N"))
         layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
                                   strokeOpacity=0.9),
                    base.mark_text(fontSize=11, fontWeight="bold").encode(
@@ -215,12 +224,12 @@ def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 1
         if categorical:
             layers.append(alt.Chart(part).mark_rule(strokeWidth=2, color="#9aa3ad").encode(
                 x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
-                y2="pi_high:Q"))
+                y2=alt.Y2("pi_high:Q")))
         else:
             layers.append(alt.Chart(part).mark_area(opacity=0.22, color=LINE_COLOURS[0]
                                                     ).encode(
                 x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
-                y2="pi_high:Q"))
+                y2=alt.Y2("pi_high:Q")))
     y_enc = alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False))
     mark = (alt.Chart(part).mark_point(filled=True, size=70, color=INK) if categorical else
             alt.Chart(part).mark_line(color=INK, strokeWidth=2))
@@ -238,16 +247,16 @@ def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 1
     if limit_rows:
         layers.append(alt.Chart(pd.DataFrame(limit_rows)).mark_rule(
             strokeDash=[5, 3], color=LINE_COLOURS[4], strokeWidth=1.5).encode(
-            y="at:Q", tooltip=["limit:N", alt.Tooltip("at:Q", format=".4g")]))
+            y=alt.Y("at:Q"), tooltip=[alt.Tooltip("limit:N"), alt.Tooltip("at:Q", format=".4g")]))
     now = part[part["current"]]
     if len(now):
         if categorical:
             layers.append(alt.Chart(now).mark_point(shape="diamond", size=160, filled=True,
                                                     color=LINE_COLOURS[1]).encode(
-                x=x_enc, y="predicted:Q"))
+                x=x_enc, y=alt.Y("predicted:Q")))
         else:
             layers.append(alt.Chart(now).mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5
-                                                   ).encode(x="value:Q"))
+                                                   ).encode(x=alt.X("value:Q")))
     chart = alt.layer(*layers).properties(
         height=height, title=alt.TitleParams(title, anchor="start", fontSize=12,
                                              fontWeight="normal", limit=0))
@@ -292,10 +301,11 @@ def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
     legend = alt.Legend(title=b_title, orient="bottom", titleLimit=0)
     band = alt.Chart(fit).mark_rule(strokeWidth=2, opacity=0.6).encode(
         x=x, xOffset=offset, y=alt.Y("ci_low:Q", title=y_title, scale=alt.Scale(zero=False)),
-        y2="ci_high:Q", color=alt.Color("b:N", scale=colours, legend=legend))
+        y2=alt.Y2("ci_high:Q"), color=alt.Color("b:N", scale=colours, legend=legend))
     line = alt.Chart(fit).mark_line(strokeWidth=2.5, point=True).encode(
         x=x, xOffset=offset, y=alt.Y("predicted:Q"), color=alt.Color("b:N", scale=colours, legend=legend),
-        tooltip=["a", "b", alt.Tooltip("predicted:Q", format=".4g", title="model"),
+        tooltip=[alt.Tooltip("a:N"), alt.Tooltip("b:N"),
+                 alt.Tooltip("predicted:Q", format=".4g", title="model"),
                  alt.Tooltip("ci_low:Q", format=".4g", title="mean from"),
                  alt.Tooltip("ci_high:Q", format=".4g", title="mean to")])
     layers = [band, line]
@@ -303,9 +313,10 @@ def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
         raw = cells.assign(a=[shown(v) for v in cells["a_level"]],
                            b=[shown(v) for v in cells["b_level"]])
         layers.append(alt.Chart(raw).mark_point(size=80, filled=False, strokeWidth=2).encode(
-            x=x, xOffset=offset, y="mean:Q",
+            x=x, xOffset=offset, y=alt.Y("mean:Q"),
             color=alt.Color("b:N", scale=colours, legend=legend),
-            tooltip=["a", "b", alt.Tooltip("mean:Q", format=".4g", title="measured mean"),
-                     "runs"]))
+            tooltip=[alt.Tooltip("a:N"), alt.Tooltip("b:N"),
+                     alt.Tooltip("mean:Q", format=".4g", title="measured mean"),
+                     alt.Tooltip("runs")]))
     chart = alt.layer(*layers).properties(height=height)
     return chart.properties(width=width) if width else chart
