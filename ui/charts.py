@@ -6,10 +6,16 @@ ends; every axis names its quantity and unit.
 """
 from __future__ import annotations
 
+import threading
+from contextlib import nullcontext
+
 import altair as alt
 import pandas as pd
+import streamlit as st
 
-__all__ = ["SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
+from tradeoff.report.chart_data import use_records
+
+__all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
            "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
            "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
            "length_scale_chart", "loo_chart"]
@@ -21,6 +27,34 @@ SIGN_COLOURS = alt.Scale(domain=["raises", "lowers"], range=[MID, DARK])
 
 # Height of one bar in bar charts: 3 bars need at least 60 px of plotting area.
 BAR_STEP = 22
+_ALTAIR_GLOBALS = threading.Lock()
+
+
+def show(make, *args, where=None, **options) -> None:
+    """Put the chart ``make(*args)`` on the page, in ``where`` (a column; default the page).
+
+    ``make`` is one of this module's chart functions. Its Vega-Lite
+    specification is cached by the arguments: a page reruns on every click,
+    and most of its charts draw the same tables as before, so they cost a
+    lookup instead of being built again (building a layered chart takes tens
+    of milliseconds). The specification is written without Altair's schema
+    check (Streamlit's own chart call repeats that check on every rerun);
+    our charts are built by code from checked tables.
+    """
+    (st if where is None else where).vega_lite_chart(_spec(make.__name__, *args), **options)
+
+
+@st.cache_data(max_entries=512, show_spinner=False)
+def _spec(name: str, *args) -> dict:
+    chart = globals()[name](*args)
+    # Altair's default theme sets a fixed view size; Streamlit's own chart call
+    # turns it off the same way, so the charts keep the size they had.
+    # The theme and the data step are Altair globals, shared by every session's
+    # thread: one writer at a time.
+    with _ALTAIR_GLOBALS:
+        theme = alt.theme.enable("none") if alt.theme.active == "default" else nullcontext()
+        with theme, use_records():
+            return chart.to_dict(validate=False)
 
 
 def titled(label: str, unit: str = "") -> str:
@@ -121,6 +155,11 @@ def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
     order = alt.layer(zero, trace, base.mark_circle(size=60).encode(
         x=alt.X("order:O"), y=alt.Y("residual:Q"))).properties(height=230, title="In run order")
     return fit_width(vs_fit), fit_width(normal), fit_width(order)
+
+
+def residual_chart(table: pd.DataFrame, unit: str, which: int):
+    """One of ``residual_charts`` by position (0 against fitted, 1 quantiles, 2 run order)."""
+    return residual_charts(table, unit)[which]
 
 
 def desirability_chart(curve: pd.DataFrame, marker: pd.DataFrame, x_title: str) -> alt.LayerChart:

@@ -33,15 +33,15 @@ def smooth_model(study, response, model, report: dict) -> None:
         st.subheader("Length scales, shortest first")
         st.caption("How far a factor must move before the response changes appreciably: "
                    "short = it matters a lot, long = it hardly matters.")
-        st.altair_chart(charts.length_scale_chart(model.length_scale_table()),
-                        width="stretch")
+        charts.show(charts.length_scale_chart, model.length_scale_table(),
+                    width="stretch")
     with right:
         st.subheader("Each run predicted from the others")
         st.caption("Points near the line: the model predicts runs it has not seen. Dark "
                    "points are runs more than 3 standard deviations off.")
-        st.altair_chart(charts.loo_chart(model.diagnostics_.reset_index(),
-                                         charts.titled(response.label, response.unit)),
-                        width="stretch")
+        charts.show(charts.loo_chart, model.diagnostics_.reset_index(),
+                    charts.titled(response.label, response.unit),
+                    width="stretch")
 
 
 def model_comparison(study, name: str) -> None:

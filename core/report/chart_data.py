@@ -17,6 +17,7 @@ import pandas as pd
 __all__ = ["records", "use_records"]
 
 NAME = "tradeoff_records"
+_registered = False
 
 
 def _column(values: pd.Series) -> list | None:
@@ -63,6 +64,8 @@ def use_records():
     """A context in which Altair writes chart data with ``records``."""
     import altair as alt
 
-    if NAME not in alt.data_transformers.names():
+    global _registered
+    if not _registered:  # asking the registry for its names reads installed packages
         alt.data_transformers.register(NAME, records)
+        _registered = True
     return alt.data_transformers.enable(NAME)

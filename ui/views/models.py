@@ -124,15 +124,15 @@ with left:
                   "effects at once)." if report["lenth"] else
                   " (two-sided t-test at the study's confidence level)."))
     if len(effects):
-        st.altair_chart(charts.effects_chart(effects, lines, response.unit),
-                        width="stretch")
+        charts.show(charts.effects_chart, effects, lines, response.unit,
+                    width="stretch")
 with right:
     st.subheader("Half-normal plot")
     st.caption("Effects that are only noise fall on a straight line through the "
                "origin; real effects stand out to the right.")
     if len(effects) >= 2:
-        st.altair_chart(charts.half_normal_chart(half_normal_table(model), response.unit),
-                        width="stretch")
+        charts.show(charts.half_normal_chart, half_normal_table(model), response.unit,
+                    width="stretch")
 
 st.subheader("Interactions")
 numeric_or_all = study.factor_names
@@ -157,20 +157,21 @@ else:
                "of one factor depends on the other.")
     p1, p2 = st.columns(2)
     y_title = charts.titled(response.label, response.unit)
-    p1.altair_chart(charts.interaction_chart(ab, model_ab, study.factor(a).display(),
-                                             study.factor(b).display(), y_title),
-                    width="stretch")
-    p2.altair_chart(charts.interaction_chart(ba, model_ba, study.factor(b).display(),
-                                             study.factor(a).display(), y_title),
-                    width="stretch")
+    charts.show(charts.interaction_chart, ab, model_ab, study.factor(a).display(),
+                study.factor(b).display(), y_title,
+                where=p1, width="stretch")
+    charts.show(charts.interaction_chart, ba, model_ba, study.factor(b).display(),
+                study.factor(a).display(), y_title,
+                where=p2, width="stretch")
 
 st.subheader("Residuals: what the model leaves unexplained")
 st.caption("Look for patterns: a funnel against the fitted value suggests a transform; "
            "a curve in the quantile plot suggests non-normal errors; a trend in run "
            "order suggests drift. Dark points are runs whose deleted studentized "
            "residual (the value the quantile plot shows) is beyond ±3 (dashed lines).")
-for col, chart in zip(st.columns(3), charts.residual_charts(residual_table(model), unit)):
-    col.altair_chart(chart, width="stretch")
+residuals = residual_table(model)
+for which, col in enumerate(st.columns(3)):
+    charts.show(charts.residual_chart, residuals, unit, which, where=col, width="stretch")
 
 with st.expander("Coefficients, analysis of variance and the equation"):
     coef = pd.DataFrame({"term": report["terms"],

@@ -155,8 +155,8 @@ else:
             f"{k} = {v if isinstance(v, str) else format(v, '.4g')}" for k, v in held.items()))
         if shown_value == "limits":
             titles = {r.name: r.display() for r in study.responses}
-            st.altair_chart(charts.limits_chart(lmap, titles, fx.display(), fy.display(),
-                                                marks, d_lines), width="stretch")
+            charts.show(charts.limits_chart, lmap, titles, fx.display(), fy.display(),
+                        marks, d_lines, width="stretch")
             st.caption(f"Held at {held_text}. Each line is one response's limit, in that "
                        "response's colour and dash, with short ticks on the side where the "
                        "limit fails. The thick grey outline surrounds the settings where "
@@ -165,9 +165,9 @@ else:
         else:
             title = "D" if shown_value == "D" else charts.titled(
                 study.response(shown_value).label, study.response(shown_value).unit)
-            st.altair_chart(charts.contour_chart(grid, lines, shown_value, title,
-                                                 fx.display(), fy.display(), marks),
-                            width="stretch")
+            charts.show(charts.contour_chart, grid, lines, shown_value, title,
+                        fx.display(), fy.display(), marks,
+                        width="stretch")
             st.caption(f"Held at {held_text}. Each line joins settings with the same "
                        f"predicted {'D' if shown_value == 'D' else 'value'}; the number "
                        "on it is that value.")
@@ -193,9 +193,9 @@ else:
     for i, name in enumerate(names):
         title = ("overall desirability D" if name == "D" else
                  study.response(name).display())
-        cols[i % 3].altair_chart(charts.slice_chart(part[part["response"] == name], title,
-                                                    study.factor(factor).display()),
-                                 width="stretch")
+        charts.show(charts.slice_chart, part[part["response"] == name], title,
+                    study.factor(factor).display(),
+                    where=cols[i % 3], width="stretch")
 
 # -- what-if ------------------------------------------------------------------------------
 st.subheader("What if I make it like this?")

@@ -176,4 +176,4 @@ if kinetics:
     st.write("ln k against 1000 / T for each run: dots are each temperature's own "
              "straight-line rate, the line is the one-step fit, the diamond the "
              "temperature asked for.")
-    st.altair_chart(charts.arrhenius_chart(kinetics[name]["points"]))
+    charts.show(charts.arrhenius_chart, kinetics[name]["points"])

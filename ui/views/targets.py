@@ -154,9 +154,9 @@ for name, (slot, item, is_factor) in slots.items():
             continue
         marker = pd.DataFrame({"value": [value], "desirability": [d]})
         curve = curves[curves["name"] == name]
-        st.altair_chart(charts.desirability_chart(curve, marker,
-                                                  charts.titled(item.label, item.unit)),
-                        width="stretch")
+        charts.show(charts.desirability_chart, curve, marker,
+                    charts.titled(item.label, item.unit),
+                    width="stretch")
         st.caption(f"At the best settings: {value:.4g} {text.plain(item.unit)} -> desirability "
                    f"{d:.3f}")
 
