@@ -13,7 +13,10 @@ running, no placeholder showing, every chart drawn, nothing changing for
 - targets: a weight changed back to a value seen before (served from cache).
 
 Printed side by side with the issue's targets (first load 1.5 s, a weight
-change 0.5 s median). Run: .venv/bin/python benchmarks/bench_browser.py
+change 0.5 s median) and with a baseline measured in the same browser in the
+same run: the first load of a one-line Streamlit page (the floor any
+workbench view stands on: the framework's own page, scripts and connection).
+Run: .venv/bin/python benchmarks/bench_browser.py
 """
 from __future__ import annotations
 
@@ -81,20 +84,54 @@ def wait_healthy(port: int) -> None:
     raise RuntimeError("the workbench did not start")
 
 
+FLOOR_PAGE = 'import streamlit as st\nst.write("floor page")\n'
+
+
+def start(cmd: list[str]) -> subprocess.Popen:
+    return subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+
+
+def stop(proc: subprocess.Popen) -> None:
+    if proc.poll() is None:
+        proc.terminate()
+    try:
+        os.killpg(proc.pid, signal.SIGKILL)
+    except ProcessLookupError:
+        pass
+
+
 def main() -> None:
+    import tempfile
+
     from playwright.sync_api import sync_playwright
 
-    port = free_port()
+    port, floor_port = free_port(), free_port()
     tradeoff = Path(sys.executable).with_name("tradeoff")
-    proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port)],
-                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                            start_new_session=True)
+    proc = start([str(tradeoff), "app", "--port", str(port)])
+    tmp = tempfile.TemporaryDirectory()
+    floor_app = Path(tmp.name) / "floor.py"
+    floor_app.write_text(FLOOR_PAGE)
+    floor = start([sys.executable, "-m", "streamlit", "run", str(floor_app),
+                   "--server.port", str(floor_port), "--server.headless", "true",
+                   "--browser.gatherUsageStats", "false"])
     rows = []
     try:
         wait_healthy(port)
+        wait_healthy(floor_port)
         base = f"http://127.0.0.1:{port}"
         with sync_playwright() as pw:
             browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
+            times = []
+            for i in range(4):  # the first visit warms the server; not counted
+                page = browser.new_page(viewport={"width": 1400, "height": 1100})
+                begin = time.perf_counter()
+                page.goto(f"http://127.0.0.1:{floor_port}/")
+                page.get_by_text("floor page").first.wait_for(timeout=120_000)
+                if i:
+                    times.append(settle(page, begin))
+                page.close()
+            rows.append(("baseline: one-line Streamlit page", times, LOAD_TARGET))
             page = browser.new_page(viewport={"width": 1400, "height": 1100})
             for path, ready in VIEWS.values():  # warm up: the server opens the study once
                 page.goto(f"{base}/{path}")
@@ -128,12 +165,9 @@ def main() -> None:
             rows.append(("targets: weight seen before (cached)", seen, CHANGE_TARGET))
             browser.close()
     finally:
-        if proc.poll() is None:
-            proc.terminate()
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
+        stop(proc)
+        stop(floor)
+        tmp.cleanup()
     print(f"Workbench in chromium at 1400 px, demo study, to the page settled "
           f"(nothing running or changing for {QUIET:.1f} s, not counted)")
     print(f"{'case':<44} {'median s':>9} {'max s':>7} {'target s':>9}  met")

@@ -12,6 +12,7 @@ from contextlib import nullcontext
 import altair as alt
 import pandas as pd
 import streamlit as st
+from streamlit.dataframe_util import convert_anything_to_arrow_bytes
 
 from tradeoff.report.chart_data import use_records
 
@@ -54,7 +55,12 @@ def _spec(name: str, *args) -> dict:
     with _ALTAIR_GLOBALS:
         theme = alt.theme.enable("none") if alt.theme.active == "default" else nullcontext()
         with theme, use_records():
-            return chart.to_dict(validate=False)
+            spec = chart.to_dict(validate=False)
+    # Streamlit sends chart data as Arrow bytes and converts any other table on
+    # every rerun; converting once here, inside the cache, spares that.
+    for name, values in spec.get("datasets", {}).items():
+        spec["datasets"][name] = convert_anything_to_arrow_bytes(pd.DataFrame(values))
+    return spec
 
 
 def titled(label: str, unit: str = "") -> str:

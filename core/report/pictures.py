@@ -265,15 +265,55 @@ def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 1
 
 def slices_picture(table: pd.DataFrame, factor: str, titles: dict, x_title: str, *,
                    width: int = 300, height: int = 110):
-    """Every response (and D) along one factor, one panel under another (static pages)."""
+    """Every response (and D) along one factor, one panel under another (static pages).
+
+    One faceted chart, a panel per response with its own vertical scale: the
+    same drawing as a stack of ``slice_panel`` charts, but one specification,
+    which builds and renders several times faster than a stack of six.
+    """
     import altair as alt
 
-    part = table[table["factor"] == factor]
-    panels = [slice_panel(part[part["response"] == name], titles.get(name, name), x_title,
-                          width=width, height=height,
-                          show_x_title=(i == len(titles) - 1))
-              for i, name in enumerate(titles) if (part["response"] == name).any()]
-    return alt.vconcat(*panels, spacing=6)
+    part = table[(table["factor"] == factor) & table["response"].isin(list(titles))]
+    order = [titles[n] for n in titles if (part["response"] == n).any()]
+    data = part.assign(title=[titles[n] for n in part["response"]])
+    categorical = part["value"].isna().all()
+    x_field = "level:N" if categorical else "value:Q"
+    x_enc = (alt.X("level:N", title=x_title, axis=alt.Axis(labelAngle=0)) if categorical
+             else alt.X("value:Q", title=x_title, scale=alt.Scale(zero=False, nice=False)))
+    y_scale = alt.Scale(zero=False)
+    layers = []
+    if part["pi_low"].notna().any():
+        band = (alt.Chart().mark_rule(strokeWidth=2, color="#9aa3ad") if categorical else
+                alt.Chart().mark_area(opacity=0.22, color=LINE_COLOURS[0]))
+        layers.append(band.encode(x=x_enc, y=alt.Y("pi_low:Q", title=None, scale=y_scale),
+                                  y2=alt.Y2("pi_high:Q")))
+    mark = (alt.Chart().mark_point(filled=True, size=70, color=INK) if categorical else
+            alt.Chart().mark_line(color=INK, strokeWidth=2))
+    layers.append(mark.encode(
+        x=x_enc, y=alt.Y("predicted:Q", title=None, scale=y_scale),
+        tooltip=[alt.Tooltip(x_field, title=x_title),
+                 alt.Tooltip("predicted:Q", format=".4g", title="predicted"),
+                 alt.Tooltip("pi_low:Q", format=".4g", title="one batch from"),
+                 alt.Tooltip("pi_high:Q", format=".4g", title="one batch to")]))
+    # one row per panel carries the limits and the held setting
+    held = alt.Chart().transform_filter(alt.datum.current)
+    for column in ("lower_limit", "upper_limit"):
+        if part[column].notna().any():
+            layers.append(held.mark_rule(strokeDash=[5, 3], color=LINE_COLOURS[4],
+                                         strokeWidth=1.5).encode(
+                y=alt.Y(f"{column}:Q", title=None, scale=y_scale)))
+    if categorical:
+        layers.append(held.mark_point(shape="diamond", size=160, filled=True,
+                                      color=LINE_COLOURS[1]).encode(
+            x=x_enc, y=alt.Y("predicted:Q", title=None, scale=y_scale)))
+    else:
+        layers.append(held.mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5).encode(
+            x=alt.X("value:Q")))
+    header = alt.Header(labelOrient="top", labelAnchor="start", labelAngle=0,
+                        labelAlign="left", labelFontSize=12, labelLimit=0, labelPadding=4)
+    return alt.layer(*layers, data=data, width=width, height=height).facet(
+        row=alt.Row("title:N", sort=order, title=None, header=header), spacing=10
+    ).resolve_scale(y="independent")
 
 
 def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
