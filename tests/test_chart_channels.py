@@ -18,6 +18,12 @@ CHANNELS = {"x", "y", "x2", "y2", "detail", "order", "text", "tooltip", "color",
 def _bare_channels(path: Path) -> list[str]:
     found = []
     for node in ast.walk(ast.parse(path.read_text())):
+        if (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute)
+                and node.func.attr == "value" and isinstance(node.func.value, ast.Name)
+                and node.func.value.id == "alt"):
+            # a plain {"value": ...} takes the same slow road wherever it is passed
+            found.append(f"{path.relative_to(ROOT)}:{node.lineno} alt.value")
+            continue
         if not (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute)
                 and node.func.attr == "encode"):
             continue
@@ -28,8 +34,7 @@ def _bare_channels(path: Path) -> list[str]:
             for v in values:
                 bare = isinstance(v, (ast.Constant, ast.Dict)) and not (
                     isinstance(v, ast.Constant) and isinstance(v.value, bytes))
-                if bare or (isinstance(v, ast.Call) and isinstance(v.func, ast.Attribute)
-                            and v.func.attr == "value"):
+                if bare:
                     found.append(f"{path.relative_to(ROOT)}:{v.lineno} {kw.arg}=")
     return found
 
@@ -49,4 +54,4 @@ def test_the_check_sees_a_bare_string():
         f.flush()
         assert _bare_channels(Path(f.name)) == [
             f"tests/{Path(f.name).name}:1 x=", f"tests/{Path(f.name).name}:1 tooltip=",
-            f"tests/{Path(f.name).name}:2 y="]
+            f"tests/{Path(f.name).name}:2 alt.value"]

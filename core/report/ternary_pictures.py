@@ -113,13 +113,13 @@ def _frame_layers(alt, axes: dict, xs, ys):
     if not axes["grid"].empty:
         layers.append(alt.Chart(axes["grid"]).mark_rule(color="#c9c3b8", strokeWidth=0.7,
                                                         strokeDash=[3, 3]).encode(
-            x=X, y=Y, x2="x2:Q", y2="y2:Q"))
+            x=X, y=Y, x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q")))
     layers.append(alt.Chart(axes["edges"]).mark_rule(color=INK, strokeWidth=1.2).encode(
-        x=X, y=Y, x2="x2:Q", y2="y2:Q"))
+        x=X, y=Y, x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q")))
     ticks = axes["ticks"]
     if not ticks.empty:
         layers.append(alt.Chart(ticks).mark_rule(color=INK, strokeWidth=1).encode(
-            x=X, y=Y, x2="x2:Q", y2="y2:Q"))
+            x=X, y=Y, x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q")))
         for side, align, baseline in ((0, "right", "middle"), (1, "center", "top"),
                                       (2, "left", "middle")):
             part = ticks[ticks["side"] == side]
@@ -127,15 +127,15 @@ def _frame_layers(alt, axes: dict, xs, ys):
                 layers.append(alt.Chart(part).mark_text(
                     fontSize=11, color=INK, align=align, baseline=baseline).encode(
                     x=alt.X("tx:Q", scale=xs, axis=None),
-                    y=alt.Y("ty:Q", scale=ys, axis=None), text="text:N"))
+                    y=alt.Y("ty:Q", scale=ys, axis=None), text=alt.Text("text:N")))
     layers.append(alt.Chart(axes["titles"]).mark_text(
         fontSize=12, color=INK, fontWeight="bold", align="center", baseline="middle").encode(
-        x=X, y=Y, text="text:N", angle=alt.Angle("angle:Q", scale=None)))
+        x=X, y=Y, text=alt.Text("text:N"), angle=alt.Angle("angle:Q", scale=None)))
     for align, part in axes["corners"].groupby("align", sort=False):
         layers.append(alt.Chart(part).mark_text(
             fontSize=11.5, color=INK, align=align, baseline="middle", lineBreak="\n",
             fontStyle="italic").encode(
-            x=X, y=Y, text="text:N"))
+            x=X, y=Y, text=alt.Text("text:N")))
     return layers
 
 
@@ -166,10 +166,11 @@ def _line_layers(alt, runs: pd.DataFrame, X, Y, outer_encode=None, **encode):
     inner, outer = runs[runs["inside"]], runs[~runs["inside"]]
     if len(outer):
         layers.append(alt.Chart(outer).mark_line(strokeWidth=1, opacity=0.45).encode(
-            x=X, y=Y, detail="run:N", order="i:Q", **(outer_encode or encode)))
+            x=X, y=Y, detail=alt.Detail("run:N"), order=alt.Order("i:Q"),
+            **(outer_encode or encode)))
     if len(inner):
         layers.append(alt.Chart(inner).mark_line(strokeWidth=1.8).encode(
-            x=X, y=Y, detail="run:N", order="i:Q", **encode))
+            x=X, y=Y, detail=alt.Detail("run:N"), order=alt.Order("i:Q"), **encode))
     return layers
 
 
@@ -197,10 +198,10 @@ def _labels(alt, runs: pd.DataFrame, X, Y, text, colour=None, interior=False):
     if spots.empty:
         return []
     spots = spots.assign(text=text(spots))
-    base = alt.Chart(spots).encode(x=X, y=Y, text="text:N")
+    base = alt.Chart(spots).encode(x=X, y=Y, text=alt.Text("text:N"))
     front = base.mark_text(fontSize=11, fontWeight="bold")
-    front = front.encode(color=colour) if colour is not None else front.encode(
-        color=alt.value(INK))
+    front = front.encode(color=colour) if colour is not None else front.mark_text(
+        fontSize=11, fontWeight="bold", color=INK)
     return [base.mark_text(fontSize=11, stroke="white", strokeWidth=4, strokeOpacity=0.9),
             front]
 
@@ -209,7 +210,7 @@ def _outline(alt, bounds: pd.DataFrame, X, Y):
     if bounds.empty:
         return []
     return [alt.Chart(bounds[["i", "x", "y"]]).mark_line(color=INK, strokeWidth=1.6).encode(
-        x=X, y=Y, order="i:Q")]
+        x=X, y=Y, order=alt.Order("i:Q"))]
 
 
 def _marks(alt, marks: pd.DataFrame | None, X, Y):
@@ -225,7 +226,7 @@ def _marks(alt, marks: pd.DataFrame | None, X, Y):
         x=X, y=Y, shape=alt.Shape("what:N", scale=shapes,
                                   legend=alt.Legend(title=None, orient="bottom",
                                                     labelLimit=400)),
-        tooltip=["what:N", *[c for c in marks.columns if c not in ("what", "x", "y")]])
+        tooltip=[alt.Tooltip("what:N"), *[c for c in marks.columns if c not in ("what", "x", "y")]])
     return [halo, dots]
 
 
@@ -270,8 +271,8 @@ def ternary_contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, axes: dict,
         data = data[["x1", "x2", "y1", "y2", "v"]].round(
             {"x1": 4, "x2": 4, "y1": 4, "y2": 4})
         layers.append(alt.Chart(data).mark_rect(opacity=0.9, stroke=None).encode(
-            x=alt.X("x1:Q", scale=xs, axis=None), x2="x2:Q",
-            y=alt.Y("y1:Q", scale=ys, axis=None), y2="y2:Q",
+            x=alt.X("x1:Q", scale=xs, axis=None), x2=alt.X2("x2:Q"),
+            y=alt.Y("y1:Q", scale=ys, axis=None), y2=alt.Y2("y2:Q"),
             color=alt.Color("v:Q", scale=alt.Scale(range=WASH), title=value_title,
                             legend=alt.Legend(orient="bottom", titleLimit=0,
                                               gradientLength=200)),
@@ -280,7 +281,7 @@ def ternary_contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, axes: dict,
     layers += _outline(alt, bounds, X, Y)
     if not lines.empty:
         runs = _runs(lines)
-        layers += _line_layers(alt, runs, X, Y, color=alt.value(INK))
+        layers += _line_layers(alt, runs, X, Y, color=alt.ColorValue(INK))
         layers += _labels(alt, runs, X, Y, lambda t: t["level"].map(_fmt))
     layers += _marks(alt, marks, X, Y)
     return _finish(alt, layers, width, height)
@@ -302,11 +303,11 @@ def ternary_limits_picture(tlim, axes: dict, titles: dict,
     if d_lines is not None and not d_lines.empty:
         layers.append(alt.Chart(d_lines[["line", "i", "x", "y"]].round(4)).mark_line(
             color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
-            x=X, y=Y, detail="line:N", order="i:Q"))
+            x=X, y=Y, detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
     if not tlim.region.empty:
         layers.append(alt.Chart(tlim.region[["line", "i", "x", "y"]].round(4)).mark_line(
             color=REGION, strokeWidth=4, opacity=0.55).encode(
-            x=X, y=Y, detail="line:N", order="i:Q"))
+            x=X, y=Y, detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
     layers += _outline(alt, tlim.bounds, X, Y)
     lines = tlim.lines
     if not lines.empty:
@@ -328,7 +329,7 @@ def ternary_limits_picture(tlim, axes: dict, titles: dict,
                      alt.Tooltip("level:Q", format=".4g", title="limit")])
         if not tlim.ticks.empty:
             layers.append(alt.Chart(tlim.ticks.round(4)).mark_rule(strokeWidth=1.4).encode(
-                x=X, y=Y, x2="x2:Q", y2="y2:Q",
+                x=X, y=Y, x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q"),
                 color=alt.Color("name:N", scale=colours, legend=None)))
         sign = {"lower": "\u2265", "upper": "\u2264", "rule": ""}
         layers += _labels(alt, runs, X, Y, lambda t: [
