@@ -91,7 +91,11 @@ class _MapSections(_Sections):
                   for f in self.study.factors]
         return (f"<h3>Along each factor, through {esc(label)}</h3>"
                 f"<p class='note'>One factor moves across its searched range while the "
-                f"others stay at {esc(label)}. Band: where one new batch is expected "
+                f"others stay at {esc(label)}"
+                + ("; a blend component moves with the other components keeping their "
+                   "ratios to each other, so the blend still adds up"
+                   if any(getattr(f, "is_component", False) for f in self.study.factors)
+                   else "") + ". Band: where one new batch is expected "
                 f"({self.pct} prediction interval); dashed lines: the limits; the upright "
                 "line marks the recommended setting.</p>"
                 '<div class="charts">' + "".join(charts) + "</div>")

@@ -1,7 +1,8 @@
 """Slices through a chosen setting, and interaction charts from the model.
 
 A slice moves one factor across its searched range with every other factor
-held at the chosen settings, and follows each response's prediction with its
+held at the chosen settings (a blend component moves with the other
+components keeping their ratios, so the blend still adds up), and follows each response's prediction with its
 prediction interval, and the overall desirability D. The model's interaction
 table predicts a response at the low/high ends of two factors, the others at
 their centre, so an interaction chart drawn from it agrees with the equation.
@@ -32,6 +33,36 @@ def _fitted(study, fit):
     return fit_study(study)
 
 
+def _blend_slice(study, settings: dict, f, n: int):
+    """A blend component's slice: it moves across its range while the other
+    components keep their ratios to each other (Cox's direction; Cornell
+    (2002), Experiments with Mixtures, 3rd ed., sec. 5.8), so every blend on
+    the slice still adds up to the total. Returns (amounts of ``f``, coded
+    column index -> coded values of every component), or None when the
+    current blend is ``f`` alone (no direction to move in)."""
+    from ..study.mixture import components_of
+    from .mixture_tables import cox_direction
+
+    comps = components_of(study)
+    total = comps[0].total
+    amounts = np.array([float(settings[c.name]) for c in comps])
+    shares = amounts / amounts.sum()
+    i = [c.name for c in comps].index(f.name)
+    try:
+        a = cox_direction(shares, i)
+    except StudyError:
+        return None
+    # the component's own range; at the ends the others may leave their bounds
+    # (a blend at a corner of the region has no room otherwise), but every blend
+    # on the slice adds up to the total
+    t_lo, t_hi = f.low / total - shares[i], f.high / total - shares[i]
+    t = np.unique(np.concatenate([np.linspace(min(t_lo, 0.0), max(t_hi, 0.0), n), [0.0]]))
+    P = (shares[None, :] + t[:, None] * a[None, :]) * total
+    index = {g.name: k for k, g in enumerate(study.factors)}
+    columns = {index[c.name]: code_values(c, P[:, k]) for k, c in enumerate(comps)}
+    return P[:, i], columns
+
+
 def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
     """Each response's prediction (and D) along each factor, the others held.
 
@@ -57,7 +88,9 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
         prediction interval of one new batch at the study's confidence; NaN
         for D and without an error estimate); ``lower_limit`` and
         ``upper_limit`` (the goal's limits, NaN when unbounded or no goal);
-        ``current`` (True at the held setting).
+        ``current`` (True at the held setting). Along a blend component the
+        other components keep their ratios to each other (the blend still adds
+        up to the total) and ``value`` spans the component's low to high.
     """
     from ..search.problem import goal_columns, overall_desirability
 
@@ -71,6 +104,19 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
                      for f in study.factors])
     blocks, meta = [], []
     for j, f in enumerate(study.factors):
+        blend = _blend_slice(study, settings, f, n) if getattr(f, "is_component", False) \
+            else None
+        if blend is not None:
+            values, columns = blend
+            X = np.repeat(base[None, :], len(values), axis=0)
+            for k, col in columns.items():
+                X[:, k] = col
+            levels = np.full(len(values), "", dtype=object)
+            now = float(settings[f.name])
+            current = np.isclose(values, now, rtol=0, atol=1e-9 * max(1.0, abs(now)))
+            blocks.append(X)
+            meta.append((f.name, values, levels, current))
+            continue
         if f.is_categorical:
             coded = np.array([-1.0, 1.0])
             values = np.array([np.nan, np.nan])

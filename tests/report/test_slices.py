@@ -95,3 +95,29 @@ def test_model_interaction_with_a_categorical_factor():
     assert list(cells["a_level"]) == [20, 20, 30, 30]
     with pytest.raises(StudyError, match="two different factors"):
         model_interaction(study, "liking", "binder", "binder")
+
+
+def test_a_blend_components_slice_keeps_the_others_ratios():
+    # Cox's direction (Cox 1971; Cornell (2002), Experiments with Mixtures, 3rd
+    # ed., sec. 5.8): with component i at amount x, each other component j is
+    # s_j (T - x) / (1 - s_i) (closed form), so the blend adds up to the total T
+    from tradeoff.study.coding import to_coded
+
+    study = load_study(Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml")
+    fit = fit_study(study)
+    at = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0, "bake_temp": 205.0}
+    table = slices(study, at, fit=fit, n=9)
+    names = ["rice_flour", "sorghum_flour", "tapioca_starch"]
+    shares = np.array([at[n] for n in names]) / 100.0
+    for i, name in enumerate(names):
+        part = table[(table["factor"] == name) & (table["response"] == "specific_volume")]
+        x = part["value"].to_numpy()
+        assert x.min() == pytest.approx(study.factor(name).low)
+        assert x.max() == pytest.approx(study.factor(name).high)
+        amounts = np.outer((100.0 - x) / (1 - shares[i]), shares)
+        amounts[:, i] = x
+        np.testing.assert_allclose(amounts.sum(axis=1), 100.0)
+        blends = pd.DataFrame(amounts, columns=names).assign(bake_temp=205.0)
+        expected = fit.models["specific_volume"].predict(to_coded(study.factors, blends))
+        np.testing.assert_allclose(part["predicted"], expected, rtol=1e-10)
+        assert part.loc[part["current"], "value"].tolist() == pytest.approx([at[name]])

@@ -178,7 +178,11 @@ triangle.blend_triangle(study, fitted, best, chosen)
 # -- slices -------------------------------------------------------------------------------
 st.subheader("Along each factor")
 st.caption(f"One factor moves across its searched range; every other factor stays at "
-           f"{text.plain(chosen.label)}. Band: where one new batch is expected ({pct} prediction "
+           f"{text.plain(chosen.label)}"
+           + ("; a blend component moves with the other components keeping their ratios "
+              "to each other, so the blend still adds up"
+              if any(getattr(f, "is_component", False) for f in study.factors) else "")
+           + f". Band: where one new batch is expected ({pct} prediction "
            "interval); dashed lines: the limits; the upright line marks the current setting.")
 try:
     along = cached.slices(study, fitted, chosen.settings)
