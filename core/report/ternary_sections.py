@@ -60,7 +60,14 @@ class _TernarySections(_Sections):
         charts = [_chart_div(_svg(ternary_limits_picture(tlim, axes, titles, marks,
                                                          d_lines=d_lines, width=420)))]
         if has_d:
-            grid = tlim.grid.assign(value=tlim.grid["D"])
+            # the wash on a coarser grid than the lines: a fifth of the page's bytes
+            from .mixture_tables import ternary_grid
+            from .ternary import ternary_points
+
+            grid = ternary_points(ternary_grid(self.study, fit, three, reference=reference,
+                                               settings=process, steps=40, zoom=True))
+            grid = grid[grid["response"] == grid["response"].iloc[0]].assign(
+                value=lambda t: t["D"])
             charts.append(_chart_div(_svg(ternary_contour_picture(
                 grid, d_lines, axes, tlim.bounds, "value", "overall desirability D", marks,
                 width=420))))
