@@ -21,7 +21,7 @@ from ..errors import ModelError, StudyError
 from ..study.mixture import components_of, process_factors_of
 
 __all__ = ["reference_blend", "cox_direction", "mixture_trace", "mixture_effects",
-           "ternary_setup", "ternary_grid"]
+           "blend_inside", "ternary_setup", "ternary_grid"]
 
 
 def _require_components(study) -> list:
@@ -185,6 +185,19 @@ def mixture_effects(study, fit, *, reference: dict | None = None,
                                        "high_amount", "effect", "slope"])
 
 
+def blend_inside(study, amounts: np.ndarray, X: np.ndarray) -> np.ndarray:
+    """(m,) booleans: every component within its bounds (amounts (m, q), study
+    order) and every rule of the study met (coded settings X)."""
+    from ..study.constraints import rules_satisfied
+
+    comps = components_of(study)
+    lo = np.array([c.low for c in comps])
+    hi = np.array([c.high for c in comps])
+    tol = 1e-9 * comps[0].total
+    inside = np.all((amounts >= lo - tol) & (amounts <= hi + tol), axis=1)
+    return inside & rules_satisfied(study, X)
+
+
 def ternary_setup(study, components=None, reference: dict | None = None,
                   zoom: bool = False) -> dict:
     """What a ternary map of three components stands on (checked).
@@ -283,14 +296,7 @@ def ternary_grid(study, fit, components=None, *, reference: dict | None = None,
     for name, value in proc.items():
         table[name] = [value] * len(grid)
     X = _coded(study, table)
-    lo = np.array([c.low for c in comps])
-    hi = np.array([c.high for c in comps])
-    amounts = table[names].to_numpy(float)
-    tol = 1e-9 * total
-    inside = np.all((amounts >= lo - tol) & (amounts <= hi + tol), axis=1)
-    from ..study.constraints import rules_satisfied
-
-    inside &= rules_satisfied(study, X)
+    inside = blend_inside(study, table[names].to_numpy(float), X)
     D = np.full(len(grid), np.nan)
     dcols: dict[str, np.ndarray] = {}
     from ..search.problem import goal_columns, overall_desirability

@@ -26,8 +26,10 @@ import numpy as np
 import pandas as pd
 
 from ..errors import StudyError
-from .contours import _slack, _tidy, _trace, limit_bounds, round_levels, tick_marks
-from .mixture_tables import _coded, _process_settings, ternary_grid, ternary_setup
+from .contours import (_fitted, _slack, _tidy, _trace, limit_bounds, round_levels,
+                       tick_marks)
+from .mixture_tables import (_coded, _process_settings, blend_inside, ternary_grid,
+                             ternary_setup)
 
 __all__ = ["HEIGHT", "to_plot", "from_plot", "ternary_points", "ternary_lines",
            "ternary_region", "ternary_position", "TernaryLimits", "ternary_limits"]
@@ -50,14 +52,6 @@ def from_plot(x, y) -> np.ndarray:
     a = np.asarray(y, dtype=float) / HEIGHT
     c = np.asarray(x, dtype=float) - a / 2.0
     return np.column_stack([a, 1.0 - a - c, c])
-
-
-def _fitted(study, fit):
-    if fit is not None:
-        return fit
-    from ..model.study_fit import fit_study
-
-    return fit_study(study)
 
 
 class _Triangle:
@@ -98,16 +92,8 @@ class _Triangle:
 
     def inside(self, S: np.ndarray) -> np.ndarray:
         """Within every component's bounds and every rule of the study."""
-        from ..study.constraints import rules_satisfied
-        from ..study.mixture import components_of
-
-        comps = components_of(self.study)
-        amounts = self.amounts(S)[[c.name for c in comps]].to_numpy(float)
-        tol = 1e-9 * comps[0].total
-        lo = np.array([c.low for c in comps])
-        hi = np.array([c.high for c in comps])
-        ok = np.all((amounts >= lo - tol) & (amounts <= hi + tol), axis=1)
-        return ok & rules_satisfied(self.study, self.coded(S))
+        return blend_inside(self.study, self.amounts(S)[self.names].to_numpy(float),
+                            self.coded(S))
 
     def vertices(self, T: np.ndarray, **first) -> pd.DataFrame:
         """Rows for points in triangle coordinates: the given columns, the three
