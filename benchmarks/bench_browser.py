@@ -87,7 +87,7 @@ def wait_healthy(port: int) -> None:
 FLOOR_PAGE = 'import streamlit as st\nst.write("floor page")\n'
 
 
-def start(cmd: list[str]) -> subprocess.Popen:
+def launch(cmd: list[str]) -> subprocess.Popen:
     return subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                             start_new_session=True)
 
@@ -108,11 +108,11 @@ def main() -> None:
 
     port, floor_port = free_port(), free_port()
     tradeoff = Path(sys.executable).with_name("tradeoff")
-    proc = start([str(tradeoff), "app", "--port", str(port)])
+    proc = launch([str(tradeoff), "app", "--port", str(port)])
     tmp = tempfile.TemporaryDirectory()
     floor_app = Path(tmp.name) / "floor.py"
     floor_app.write_text(FLOOR_PAGE)
-    floor = start([sys.executable, "-m", "streamlit", "run", str(floor_app),
+    floor = launch([sys.executable, "-m", "streamlit", "run", str(floor_app),
                    "--server.port", str(floor_port), "--server.headless", "true",
                    "--browser.gatherUsageStats", "false"])
     rows = []
