@@ -41,7 +41,7 @@ from .equation import fitted_equations
 from .notes import effect_index, near_alias_notes
 from .solve import LeastSquares
 
-__all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points"]
+__all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points", "runs_to_fit"]
 
 DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
 
@@ -97,26 +97,7 @@ class ResponseModel:
         name = self.name
         names = list(self.factor_names)
         self._check_options()
-        X = np.asarray(X_coded, dtype=float)
-        if X.ndim != 2 or X.shape[1] != len(names):
-            raise ModelError(f"response '{name}': expected coded settings with one column "
-                             f"per factor ({len(names)}), found shape {X.shape}")
-        y = np.asarray(y, dtype=float).ravel()
-        if y.size != X.shape[0]:
-            raise ModelError(f"response '{name}': {y.size} values for {X.shape[0]} runs")
-        # run ids stay as given; they become text only where shown (cheap fit)
-        ids = np.arange(1, y.size + 1) if run_ids is None else np.asarray(run_ids,
-                                                                            dtype=object)
-        if ids.size != y.size:
-            raise ModelError(f"response '{name}': {ids.size} run ids for {y.size} runs")
-        bad = ~np.isfinite(X)
-        if bad.any():
-            j = int(np.flatnonzero(bad.any(axis=0))[0])
-            raise ModelError(f"response '{name}': factor '{names[j]}' has a blank or "
-                             f"non-numeric setting in run {ids[bad[:, j]][0]}")
-        if np.isinf(y).any():
-            raise ModelError(f"response '{name}': an infinite value in run "
-                             f"{ids[np.isinf(y)][0]}: check the data")
+        X, y, ids = runs_to_fit(X_coded, y, run_ids, name, names)
         if block is not None:
             block = np.asarray(block, dtype=object).ravel()
             if block.size != y.size:
@@ -568,6 +549,34 @@ def is_blank(value) -> bool:
     if isinstance(value, (float, np.floating)):
         return not math.isfinite(value)
     return isinstance(value, str) and not value.strip()
+
+
+def runs_to_fit(X_coded, y, run_ids, name: str, names: list) -> tuple:
+    """Checked (X, y, run ids) for a fit; shared by every model kind (same words).
+
+    Blank responses stay (NaN, left out by the fit); blank settings and
+    infinite responses are refused, naming the run.
+    """
+    X = np.asarray(X_coded, dtype=float)
+    if X.ndim != 2 or X.shape[1] != len(names):
+        raise ModelError(f"response '{name}': expected coded settings with one column "
+                         f"per factor ({len(names)}), found shape {X.shape}")
+    y = np.asarray(y, dtype=float).ravel()
+    if y.size != X.shape[0]:
+        raise ModelError(f"response '{name}': {y.size} values for {X.shape[0]} runs")
+    # run ids stay as given; they become text only where shown (cheap fit)
+    ids = np.arange(1, y.size + 1) if run_ids is None else np.asarray(run_ids, dtype=object)
+    if ids.size != y.size:
+        raise ModelError(f"response '{name}': {ids.size} run ids for {y.size} runs")
+    bad = ~np.isfinite(X)
+    if bad.any():
+        j = int(np.flatnonzero(bad.any(axis=0))[0])
+        raise ModelError(f"response '{name}': factor '{names[j]}' has a blank or "
+                         f"non-numeric setting in run {ids[bad[:, j]][0]}")
+    if np.isinf(y).any():
+        raise ModelError(f"response '{name}': an infinite value in run "
+                         f"{ids[np.isinf(y)][0]}: check the data")
+    return X, y, ids
 
 
 def coded_points(X_coded, name: str, n_factors: int) -> np.ndarray:

@@ -39,7 +39,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ModelError, StudyError
-from .fit import coded_points
+from .fit import coded_points, runs_to_fit
 from .transforms import TRANSFORM_NAMES, forward, inverse
 
 __all__ = ["SmoothModel", "smooth_min_runs", "LENGTH_BOUNDS", "GAUSSIAN_DF",
@@ -135,23 +135,7 @@ class SmoothModel:
         name = self.name
         names = list(self.factor_names)
         self._check_options()
-        X = np.asarray(X_coded, dtype=float)
-        if X.ndim != 2 or X.shape[1] != len(names):
-            raise ModelError(f"response '{name}': expected coded settings with one column "
-                             f"per factor ({len(names)}), found shape {X.shape}")
-        y = np.asarray(y, dtype=float).ravel()
-        if y.size != X.shape[0]:
-            raise ModelError(f"response '{name}': {y.size} values for {X.shape[0]} runs")
-        ids = (np.arange(1, y.size + 1) if run_ids is None
-               else np.asarray(run_ids, dtype=object))
-        bad = ~np.isfinite(X)
-        if bad.any():
-            j = int(np.flatnonzero(bad.any(axis=0))[0])
-            raise ModelError(f"response '{name}': factor '{names[j]}' has a blank or "
-                             f"non-numeric setting in run {ids[bad[:, j]][0]}")
-        if np.isinf(y).any():
-            raise ModelError(f"response '{name}': an infinite value in run "
-                             f"{ids[np.isinf(y)][0]}: check the data")
+        X, y, ids = runs_to_fit(X_coded, y, run_ids, name, names)
         notes: list[str] = []
         blank = np.isnan(y)
         if blank.any():

@@ -287,19 +287,9 @@ def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.D
     """
     from ..study.constraints import rules_satisfied
     from ..search.problem import goal_columns, overall_desirability
+    from .contours import _axis_values
 
-    if x == y:
-        raise StudyError(f"a map needs two different factors, found '{x}' twice: "
-                         "choose another factor")
-    fx, fy = study.factor(x), study.factor(y)
-    for f in (fx, fy):
-        if f.is_categorical:
-            raise StudyError(f"factor '{f.name}' is categorical: a map needs numeric "
-                             "factors on its axes; hold it at a level instead")
-    if n < 2:
-        raise StudyError(f"a map needs at least 2 points per axis, found {n}")
-    xs = np.linspace(*fx.search_range, n)
-    ys = np.linspace(*fy.search_range, n)
+    xs, ys = _axis_values(study, x, y, n)
     gx, gy = np.meshgrid(xs, ys, indexing="xy")
     natural = {}
     for f in study.factors:
