@@ -9,10 +9,12 @@ Altair is imported inside each function (``import tradeoff`` stays light).
 """
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pandas as pd
 
-__all__ = ["LINE_COLOURS", "LINE_DASHES", "contour_picture", "limits_picture",
+__all__ = ["LINE_COLOURS", "LINE_DASHES", "titles_expr", "contour_picture", "limits_picture",
            "slice_panel", "slices_picture", "interaction_picture"]
 
 # One colour and one dash pattern per response, so lines part in grey print too.
@@ -39,6 +41,15 @@ def _label_points(lines: pd.DataFrame, key: str = "line") -> pd.DataFrame:
     size = lines.groupby(key, sort=False)[key].transform("size")
     share = np.array([0.5, 0.3, 0.7])[lines[key].to_numpy(int) % 3]
     return lines[pos == (size * share).astype(int)]
+
+
+def titles_expr(titles: dict) -> str:
+    """A legend label expression that shows each response's title, not its column name.
+
+    The lines carry short names (their labels on the map stay short); the
+    legend below spells them out. A name without a title shows as it is.
+    """
+    return f"{json.dumps(titles)}[datum.label] || datum.label"
 
 
 def _order(lines: pd.DataFrame) -> pd.DataFrame:
@@ -176,7 +187,7 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
         drawn = _order(lines).assign(
             title=lambda t: [titles.get(nm, nm) for nm in t["name"]])
         legend = alt.Legend(title=None, orient="bottom", columns=3, labelLimit=260,
-                            symbolStrokeWidth=2.5)
+                            symbolStrokeWidth=2.5, labelExpr=titles_expr(titles))
         layers.append(alt.Chart(drawn).mark_line(strokeWidth=2).encode(
             x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
             color=alt.Color("name:N", scale=colours, legend=legend),

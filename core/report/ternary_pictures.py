@@ -16,7 +16,8 @@ import numpy as np
 import pandas as pd
 
 from .contours import round_levels
-from .pictures import INK, LINE_COLOURS, LINE_DASHES, REGION, WASH, _fmt, _label_points
+from .pictures import (INK, LINE_COLOURS, LINE_DASHES, REGION, WASH, _fmt, _label_points,
+                       titles_expr)
 from .ternary import HEIGHT, from_plot, to_plot
 
 __all__ = ["ternary_axes", "ternary_contour_picture", "ternary_limits_picture"]
@@ -318,7 +319,7 @@ def ternary_limits_picture(tlim, axes: dict, titles: dict,
                                                 for i in range(len(names))])
         runs = _runs(lines.assign(title=[titles.get(n, n) for n in lines["name"]]))
         legend = alt.Legend(title=None, orient="bottom", columns=2, labelLimit=260,
-                            symbolStrokeWidth=2.5)
+                            symbolStrokeWidth=2.5, labelExpr=titles_expr(titles))
         colour = alt.Color("name:N", scale=colours, legend=legend)
         outer = {"color": alt.Color("name:N", scale=colours, legend=None),
                  "strokeDash": alt.StrokeDash("name:N", scale=dashes, legend=None)}

@@ -59,3 +59,22 @@ def test_non_text_column_names_are_refused_as_altair_refuses_them():
         default_data_transformer(bad)
     with pytest.raises(ValueError, match="column name"):
         records(bad)
+
+
+def test_limits_legend_spells_out_each_response_title():
+    # the map's lines keep short names; the legend under them shows the titles,
+    # quotes and all (drawn by the SVG renderer, so the label expression runs)
+    import altair as alt
+    import vl_convert
+
+    from tradeoff.report.pictures import titles_expr
+
+    frame = pd.DataFrame({"x": [0.0, 1.0, 0.0, 1.0], "y": [0.0, 1.0, 1.0, 0.0],
+                          "name": ["aw", "aw", "cost", "cost"]})
+    titles = {"aw": 'Water activity "aw"', "cost": "Cost per bar (EUR)"}
+    chart = alt.Chart(frame).mark_line().encode(
+        x=alt.X("x:Q"), y=alt.Y("y:Q"),
+        color=alt.Color("name:N", legend=alt.Legend(labelExpr=titles_expr(titles))))
+    svg = vl_convert.vegalite_to_svg(chart.to_json())
+    assert "Water activity &quot;aw&quot;" in svg or 'Water activity "aw"' in svg
+    assert "Cost per bar (EUR)" in svg
