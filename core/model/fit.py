@@ -41,7 +41,8 @@ from .equation import fitted_equations
 from .notes import effect_index, near_alias_notes
 from .solve import LeastSquares
 
-__all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points", "runs_to_fit"]
+__all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points", "runs_to_fit",
+           "check_transform_and_confidence"]
 
 DEFAULT_ALPHA = 0.10  # backward elimination drops terms with p above this (common practice)
 
@@ -205,12 +206,7 @@ class ResponseModel:
 
     def _check_options(self) -> None:
         name = self.name
-        if self.transform not in TRANSFORM_NAMES:
-            raise ModelError(f"response '{name}': transform '{self.transform}' is not one I "
-                             f"know: use one of {', '.join(TRANSFORM_NAMES)}")
-        if not 0.5 <= float(self.confidence) < 1:
-            raise ModelError(f"response '{name}': confidence {self.confidence} must be a "
-                             "fraction such as 0.95")
+        check_transform_and_confidence(name, self.transform, self.confidence)
         if not 0 < float(self.alpha) < 1:
             raise ModelError(f"response '{name}': alpha {self.alpha} must be a fraction "
                              "such as 0.10")
@@ -549,6 +545,16 @@ def is_blank(value) -> bool:
     if isinstance(value, (float, np.floating)):
         return not math.isfinite(value)
     return isinstance(value, str) and not value.strip()
+
+
+def check_transform_and_confidence(name: str, transform: str, confidence) -> None:
+    """The options every model kind shares, refused in the same words."""
+    if transform not in TRANSFORM_NAMES:
+        raise ModelError(f"response '{name}': transform '{transform}' is not one I "
+                         f"know: use one of {', '.join(TRANSFORM_NAMES)}")
+    if not 0.5 <= float(confidence) < 1:
+        raise ModelError(f"response '{name}': confidence {confidence} must be a "
+                         "fraction such as 0.95")
 
 
 def runs_to_fit(X_coded, y, run_ids, name: str, names: list) -> tuple:

@@ -39,8 +39,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ModelError, StudyError
-from .fit import coded_points, runs_to_fit
-from .transforms import TRANSFORM_NAMES, forward, inverse
+from .fit import check_transform_and_confidence, coded_points, runs_to_fit
+from .transforms import forward, inverse
 
 __all__ = ["SmoothModel", "smooth_min_runs", "LENGTH_BOUNDS", "GAUSSIAN_DF",
            "NOISE_SHARE_WARN"]
@@ -220,12 +220,7 @@ class SmoothModel:
 
     def _check_options(self) -> None:
         name = self.name
-        if self.transform not in TRANSFORM_NAMES:
-            raise ModelError(f"response '{name}': transform '{self.transform}' is not one I "
-                             f"know: use one of {', '.join(TRANSFORM_NAMES)}")
-        if not 0.5 <= float(self.confidence) < 1:
-            raise ModelError(f"response '{name}': confidence {self.confidence} must be a "
-                             "fraction such as 0.95")
+        check_transform_and_confidence(name, self.transform, self.confidence)
         if isinstance(self.factor_names, str) or len(self.factor_names) == 0:
             raise ModelError(f"response '{name}': factor_names must list the study's "
                              "factors")

@@ -43,6 +43,25 @@ def _free_port() -> int:
         return s.getsockname()[1]
 
 
+def stop_server(proc: subprocess.Popen) -> None:
+    """End a started `tradeoff app` and all it started.
+
+    The command replaces its own process with the server, which starts helpers
+    of its own: end politely, then the whole process group.
+    """
+    if proc.poll() is None:
+        proc.terminate()
+        try:
+            proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            pass
+    try:
+        os.killpg(proc.pid, signal.SIGKILL)
+    except ProcessLookupError:
+        pass
+    proc.wait(timeout=10)
+
+
 def _wait_healthy(proc, port: int, log: Path, timeout: float = 90.0) -> None:
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
@@ -109,14 +128,4 @@ def test_change_a_target_in_a_real_browser(tmp_path):
             finally:
                 browser.close()
     finally:
-        if proc.poll() is None:
-            proc.terminate()  # the server itself: `tradeoff app` replaced its process
-            try:
-                proc.wait(timeout=10)
-            except subprocess.TimeoutExpired:
-                pass
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
-        proc.wait(timeout=10)
+        stop_server(proc)

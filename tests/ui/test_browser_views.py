@@ -21,7 +21,6 @@ from __future__ import annotations
 
 import os
 import re
-import signal
 import subprocess
 import sys
 import time
@@ -31,7 +30,8 @@ from urllib.parse import urlparse
 import pytest
 
 from conftest import DEMO
-from test_browser import ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy
+from test_browser import (ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy,
+                          stop_server)
 
 # view -> (path, a text the view shows once it has run to its end)
 VIEWS = {"study": ("", "The same runs in coded units"),
@@ -130,17 +130,7 @@ def server(tmp_path_factory):
         _wait_healthy(proc, port, log)
         yield f"http://127.0.0.1:{port}"
     finally:
-        if proc.poll() is None:
-            proc.terminate()
-            try:
-                proc.wait(timeout=10)
-            except subprocess.TimeoutExpired:
-                pass
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
-        proc.wait(timeout=10)
+        stop_server(proc)
 
 
 @pytest.fixture(scope="module")

@@ -138,14 +138,13 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
     """A real browser on every view of the payload study: every request goes to
     127.0.0.1 (or stays inside the page: data:, blob:), none to the payloads' host."""
     import os
-    import signal
     import subprocess
     import sys
-    import time
     from pathlib import Path
     from urllib.parse import urlsplit
 
-    from test_browser import ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy
+    from test_browser import (ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy,
+                          stop_server)
 
     _require_browser()
     from playwright.sync_api import sync_playwright
@@ -192,17 +191,7 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
             finally:
                 browser.close()
     finally:
-        if proc.poll() is None:
-            proc.terminate()
-            try:
-                proc.wait(timeout=10)
-            except subprocess.TimeoutExpired:
-                pass
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
-        proc.wait(timeout=10)
+        stop_server(proc)
     assert requests, "the browser made no request at all"
     away = [url for url in requests if urlsplit(url).scheme not in ("data", "blob")
             and urlsplit(url).hostname != "127.0.0.1"]
