@@ -129,6 +129,15 @@ def _tidy(traced: list[tuple], **columns) -> pd.DataFrame:
     return frame
 
 
+def _require_model(fit, response: str) -> None:
+    """Refuse a response without a fitted model (D, the overall desirability, is always there)."""
+    if response != "D" and response not in fit.models:
+        reason = fit.skipped.get(response)
+        raise StudyError(f"no model for response '{response}'"
+                         + (f": {reason}" if reason else
+                            f": choose one of {list(fit.models)} or 'D'"))
+
+
 def _axis_values(study, x: str, y: str, n: int):
     """Grid points along the two factors' searched ranges (checks the factors)."""
     if x == y:
@@ -193,11 +202,7 @@ def contour_lines(study, response: str, x: str, y: str, *, levels=None,
         ``y`` (natural settings of the two factors), vertices in drawing order.
     """
     fit = _fitted(study, fit)
-    if response != "D" and response not in fit.models:
-        reason = fit.skipped.get(response)
-        raise StudyError(f"no model for response '{response}'"
-                         + (f": {reason}" if reason else
-                            f": choose one of {list(fit.models)} or 'D'"))
+    _require_model(fit, response)
     xs, ys, X = _map_points(study, x, y, held_settings(study, x, y, fixed), n)
     Z = _surface(study, fit, response, X).reshape(n, n)
     if np.isnan(Z).all():

@@ -56,21 +56,29 @@ def _order(lines: pd.DataFrame) -> pd.DataFrame:
     return lines.assign(i=lines.groupby("line", sort=False).cumcount())
 
 
-def _marks_layer(alt, marks: pd.DataFrame | None):
-    """The recommendation (diamond) and the chosen solution (cross), with a legend."""
+def _marks_layer(alt, marks: pd.DataFrame | None, X=None, Y=None, tooltip=None):
+    """The recommendation (diamond) and the chosen solution (cross), with a legend.
+
+    ``X``, ``Y``: the map's position encodings of the columns x and y (default
+    plain quantitative axes); ``tooltip``: what hovering a mark shows (default
+    its name and position).
+    """
     if marks is None or marks.empty:
         return []
+    X = alt.X("x:Q") if X is None else X
+    Y = alt.Y("y:Q") if Y is None else Y
+    if tooltip is None:
+        tooltip = [alt.Tooltip("what:N"), alt.Tooltip("x:Q", format=".4g"),
+                   alt.Tooltip("y:Q", format=".4g")]
     shapes = alt.Scale(domain=list(marks["what"]),
                        range=["diamond", "cross", "circle", "square"][:len(marks)])
     halo = alt.Chart(marks).mark_point(size=260, filled=True, color="white",
                                        opacity=0.9).encode(
-        x=alt.X("x:Q"), y=alt.Y("y:Q"), shape=alt.Shape("what:N", scale=shapes, legend=None))
+        x=X, y=Y, shape=alt.Shape("what:N", scale=shapes, legend=None))
     dots = alt.Chart(marks).mark_point(size=150, filled=True, color=INK, opacity=1).encode(
-        x=alt.X("x:Q"), y=alt.Y("y:Q"),
-        shape=alt.Shape("what:N", scale=shapes,
-                        legend=alt.Legend(title=None, orient="bottom")),
-        tooltip=[alt.Tooltip("what:N"), alt.Tooltip("x:Q", format=".4g"),
-                 alt.Tooltip("y:Q", format=".4g")])
+        x=X, y=Y, shape=alt.Shape("what:N", scale=shapes, legend=alt.Legend(
+            title=None, orient="bottom", labelLimit=400)),
+        tooltip=tooltip)
     return [halo, dots]
 
 

@@ -26,8 +26,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import StudyError
-from .contours import (_fitted, _slack, _tidy, _trace, limit_bounds, round_levels,
-                       tick_marks)
+from .contours import (_fitted, _require_model, _slack, _tidy, _trace, limit_bounds,
+                       round_levels, tick_marks)
 from .mixture_tables import (_coded, _process_settings, blend_inside, ternary_grid,
                              ternary_setup)
 
@@ -192,11 +192,7 @@ def ternary_lines(study, response: str, components=None, *, levels=None,
         ``components``, ``held``, ``rest``, ``lows`` and ``room``.
     """
     fit = _fitted(study, fit)
-    if response != "D" and response not in fit.models:
-        reason = fit.skipped.get(response)
-        raise StudyError(f"no model for response '{response}'"
-                         + (f": {reason}" if reason else
-                            f": choose one of {list(fit.models)} or 'D'"))
+    _require_model(fit, response)
     tri = _Triangle(study, components, reference, settings, zoom)
     if not fit.models:
         raise StudyError("no fitted model to map: fit the responses first")

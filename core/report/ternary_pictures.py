@@ -17,7 +17,7 @@ import pandas as pd
 
 from .contours import round_levels
 from .pictures import (INK, LINE_COLOURS, LINE_DASHES, REGION, WASH, _fmt, _label_points,
-                       titles_expr)
+                       _marks_layer, titles_expr)
 from .ternary import HEIGHT, from_plot, to_plot
 
 __all__ = ["ternary_axes", "ternary_contour_picture", "ternary_limits_picture"]
@@ -215,20 +215,12 @@ def _outline(alt, bounds: pd.DataFrame, X, Y):
 
 
 def _marks(alt, marks: pd.DataFrame | None, X, Y):
-    """The recommendation (diamond) and the chosen solution (cross), with a legend."""
+    """The recommendation and the chosen solution, hovering shows their amounts."""
     if marks is None or marks.empty:
         return []
-    shapes = alt.Scale(domain=list(marks["what"]),
-                       range=["diamond", "cross", "circle", "square"][:len(marks)])
-    halo = alt.Chart(marks).mark_point(size=260, filled=True, color="white",
-                                       opacity=0.9).encode(
-        x=X, y=Y, shape=alt.Shape("what:N", scale=shapes, legend=None))
-    dots = alt.Chart(marks).mark_point(size=150, filled=True, color=INK, opacity=1).encode(
-        x=X, y=Y, shape=alt.Shape("what:N", scale=shapes,
-                                  legend=alt.Legend(title=None, orient="bottom",
-                                                    labelLimit=400)),
-        tooltip=[alt.Tooltip("what:N"), *[c for c in marks.columns if c not in ("what", "x", "y")]])
-    return [halo, dots]
+    tooltip = [alt.Tooltip("what:N"), *[alt.Tooltip(c) for c in marks.columns
+                                        if c not in ("what", "x", "y")]]
+    return _marks_layer(alt, marks, X, Y, tooltip)
 
 
 def _finish(alt, layers, width: int, height: int):
