@@ -16,8 +16,8 @@ from streamlit.dataframe_util import convert_anything_to_arrow_bytes
 
 from tradeoff.report.chart_data import use_records
 
-__all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart", "interaction_chart",
-           "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
+__all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart",
+           "interaction_chart", "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
            "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
            "length_scale_chart", "loo_chart"]
 

@@ -362,7 +362,8 @@ def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
         x=x, xOffset=offset, y=alt.Y("ci_low:Q", title=y_title, scale=alt.Scale(zero=False)),
         y2=alt.Y2("ci_high:Q"), color=alt.Color("b:N", scale=colours, legend=legend))
     line = alt.Chart(fit).mark_line(strokeWidth=2.5, point=True).encode(
-        x=x, xOffset=offset, y=alt.Y("predicted:Q"), color=alt.Color("b:N", scale=colours, legend=legend),
+        x=x, xOffset=offset, y=alt.Y("predicted:Q"),
+        color=alt.Color("b:N", scale=colours, legend=legend),
         tooltip=[alt.Tooltip("a:N"), alt.Tooltip("b:N"),
                  alt.Tooltip("predicted:Q", format=".4g", title="model"),
                  alt.Tooltip("ci_low:Q", format=".4g", title="mean from"),
