@@ -6,6 +6,7 @@ ends; every axis names its quantity and unit.
 """
 from __future__ import annotations
 
+import importlib
 import threading
 from contextlib import nullcontext
 
@@ -34,7 +35,7 @@ _ALTAIR_GLOBALS = threading.Lock()
 def show(make, *args, where=None, **options) -> None:
     """Put the chart ``make(*args)`` on the page, in ``where`` (a column; default the page).
 
-    ``make`` is one of this module's chart functions. Its Vega-Lite
+    ``make`` is a chart function (module level, returning an Altair chart). Its Vega-Lite
     specification is cached by the arguments: a page reruns on every click,
     and most of its charts draw the same tables as before, so they cost a
     lookup instead of being built again (building a layered chart takes tens
@@ -42,12 +43,14 @@ def show(make, *args, where=None, **options) -> None:
     check (Streamlit's own chart call repeats that check on every rerun);
     our charts are built by code from checked tables.
     """
-    (st if where is None else where).vega_lite_chart(_spec(make.__name__, *args), **options)
+    spec = _spec(make.__module__, make.__qualname__, *args)
+    (st if where is None else where).vega_lite_chart(spec, **options)
 
 
 @st.cache_data(max_entries=512, show_spinner=False)
-def _spec(name: str, *args) -> dict:
-    chart = globals()[name](*args)
+def _spec(module: str, name: str, *args) -> dict:
+    # the chart function travels by name: cheap to hash, and the same across reruns
+    chart = getattr(importlib.import_module(module), name)(*args)
     # Altair's default theme sets a fixed view size; Streamlit's own chart call
     # turns it off the same way, so the charts keep the size they had.
     # The theme and the data step are Altair globals, shared by every session's
@@ -58,8 +61,8 @@ def _spec(name: str, *args) -> dict:
             spec = chart.to_dict(validate=False)
     # Streamlit sends chart data as Arrow bytes and converts any other table on
     # every rerun; converting once here, inside the cache, spares that.
-    for name, values in spec.get("datasets", {}).items():
-        spec["datasets"][name] = convert_anything_to_arrow_bytes(pd.DataFrame(values))
+    for key, values in spec.get("datasets", {}).items():
+        spec["datasets"][key] = convert_anything_to_arrow_bytes(pd.DataFrame(values))
     return spec
 
 

@@ -68,13 +68,13 @@ def blend_triangle(study, fitted, best, chosen) -> None:
         return
     held = [n for n in names if n not in three]
     others = [f for f in study.factors if f.name not in three]
-    held_text = text.plain(", ".join(
-        f"{f.name} = {settings[f.name] if isinstance(settings[f.name], str) else format(settings[f.name], '.4g')}"
-        for f in others)) or "nothing else"
+    shown = {f.name: (settings[f.name] if isinstance(settings[f.name], str)
+                      else format(settings[f.name], ".4g")) for f in others}
+    held_text = text.plain(", ".join(f"{k} = {v}" for k, v in shown.items())) or "nothing else"
     if shown_value == "limits":
         titles = {r.name: r.display() for r in study.responses}
-        st.altair_chart(charts.ternary_limits_chart(tlim, axes, titles, marks, d_lines),
-                        width="content")
+        charts.show(charts.ternary_limits_chart, tlim, axes, titles, marks, d_lines,
+                    width="content")
         st.caption(f"Held at {held_text} ({text.plain(chosen.label)}). Each line is one "
                    "response's limit, in that response's colour and dash, with short ticks "
                    "on the side where the limit fails. The thin black outline surrounds the "
@@ -87,8 +87,8 @@ def blend_triangle(study, fitted, best, chosen) -> None:
                                          else shown_value)]
         r = None if shown_value == "D" else study.response(shown_value)
         title = "overall desirability D" if r is None else charts.titled(r.label, r.unit)
-        st.altair_chart(charts.ternary_chart(part, lines, axes, tlim.bounds, value, title,
-                                             marks), width="content")
+        charts.show(charts.ternary_chart, part, lines, axes, tlim.bounds, value, title, marks,
+                    width="content")
         st.caption(f"Held at {held_text} ({text.plain(chosen.label)}). Each line joins "
                    f"blends with the same predicted {'D' if r is None else 'value'}; the "
                    "number on it is that value. The black outline surrounds the blends "
