@@ -68,14 +68,14 @@ _HOME = {
     "extreme_vertices": "study.mixture_region", "face_centroids": "study.mixture_region",
     "simplex_lattice": "plan.mixture_designs", "simplex_centroid": "plan.mixture_designs",
     "plan_mixture": "plan.mixture_plan",
-    "mixture_trace": "report.mixture_tables", "mixture_effects": "report.mixture_tables",
-    "ternary_grid": "report.mixture_tables", "write_report": "report.write",
+    "mixture_trace": "maps.mixture_tables", "mixture_effects": "maps.mixture_tables",
+    "ternary_grid": "maps.mixture_tables", "write_report": "report.write",
     "chance_text": "search.chance",
-    "contour_lines": "report.contours", "limits_map": "report.contours",
-    "LimitsMap": "report.contours", "slices": "report.slices",
-    "model_interaction": "report.slices",
-    "ternary_lines": "report.ternary", "ternary_limits": "report.ternary",
-    "TernaryLimits": "report.ternary", "ternary_region": "report.ternary",
+    "contour_lines": "maps.contours", "limits_map": "maps.contours",
+    "LimitsMap": "maps.contours", "slices": "maps.slices",
+    "model_interaction": "maps.slices",
+    "ternary_lines": "maps.ternary", "ternary_limits": "maps.ternary",
+    "TernaryLimits": "maps.ternary", "ternary_region": "maps.ternary",
 }
 
 __all__ = ["__version__", *_HOME]

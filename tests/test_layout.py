@@ -16,7 +16,7 @@ CORE = Path(__file__).resolve().parents[1] / "core"
 # Stage folders in data-flow order; a module may import its own stage and the
 # stages before it. plan/ and search/ are siblings: neither imports the other.
 RANK = {"study": 1, "derive": 2, "model": 3, "plan": 4, "search": 4,
-        "confirm": 5, "report": 6}
+        "confirm": 5, "maps": 6, "report": 7}
 SHARED = {"errors", "cautions"}       # plain text and error types, used by every stage
 TOP = {"cli", "inputs"}               # entry points: the command line and the front end
 MAX_LINES = 600

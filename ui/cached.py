@@ -122,13 +122,13 @@ def optimize(study, fitted):
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _runs_table(key: str, _study, _fit):
-    from tradeoff.report.maps import runs_table as build
+    from tradeoff.maps.tables import runs_table as build
 
     return build(_study, _fit)
 
 
 def runs_table(study, fitted=None):
-    """The runs with coded settings and marks (see ``tradeoff.report.maps.runs_table``)."""
+    """The runs with coded settings and marks (see ``tradeoff.maps.tables.runs_table``)."""
     key = study_keys(study)[0] if fitted is not None else origin_key(
         st.session_state["origin"])
     return _runs_table(_digest(key, fitted is not None), study, fitted)
@@ -136,13 +136,13 @@ def runs_table(study, fitted=None):
 
 @st.cache_resource(max_entries=128, show_spinner=False)
 def _contour(key: str, _study, _fit, x: str, y: str, held_items: tuple, n: int):
-    from tradeoff.report.maps import contour_grid
+    from tradeoff.maps.tables import contour_grid
 
     return contour_grid(_study, _fit, x, y, dict(held_items), n=n)
 
 
 def contour(study, fitted, x: str, y: str, held: dict, n: int = 41):
-    """Predictions and D over a grid of two factors (``tradeoff.report.maps.contour_grid``)."""
+    """Predictions and D over a grid of two factors (``tradeoff.maps.tables.contour_grid``)."""
     items = tuple(sorted((k, v if isinstance(v, str) else float(v)) for k, v in held.items()))
     return _contour(study_keys(study)[1], study, fitted, x, y, items, n)
 
@@ -153,20 +153,20 @@ def _held_items(held: dict) -> tuple:
 
 @st.cache_resource(max_entries=128, show_spinner=False)
 def _contour_lines(key: str, _study, _fit, value: str, x: str, y: str, held_items: tuple):
-    from tradeoff.report.contours import contour_lines as build
+    from tradeoff.maps.contours import contour_lines as build
 
     return build(_study, value, x, y, fixed=dict(held_items), fit=_fit)
 
 
 def contour_lines(study, fitted, value: str, x: str, y: str, held: dict):
-    """Lines of equal response or D (``tradeoff.report.contours.contour_lines``)."""
+    """Lines of equal response or D (``tradeoff.maps.contours.contour_lines``)."""
     return _contour_lines(study_keys(study)[1], study, fitted, value, x, y,
                           _held_items(held))
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _limits_map(key: str, _study, _fit, x: str, y: str, held_items: tuple):
-    from tradeoff.report.contours import limits_map as build
+    from tradeoff.maps.contours import limits_map as build
 
     return build(_study, x, y, fixed=dict(held_items), fit=_fit)
 
@@ -178,19 +178,19 @@ def limits_map(study, fitted, x: str, y: str, held: dict):
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _slices(key: str, _study, _fit, items: tuple):
-    from tradeoff.report.slices import slices as build
+    from tradeoff.maps.slices import slices as build
 
     return build(_study, dict(items), fit=_fit)
 
 
 def slices(study, fitted, settings: dict):
-    """Each response and D along each factor (``tradeoff.report.slices.slices``)."""
+    """Each response and D along each factor (``tradeoff.maps.slices.slices``)."""
     return _slices(study_keys(study)[1], study, fitted, _held_items(settings))
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _model_interaction(key: str, _study, _fit, response: str, a: str, b: str):
-    from tradeoff.report.slices import model_interaction as build
+    from tradeoff.maps.slices import model_interaction as build
 
     return build(_study, response, a, b, fit=_fit)
 
@@ -216,25 +216,25 @@ def kinetics(study):
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _curves(key: str, _study):
-    from tradeoff.report.maps import desirability_curves
+    from tradeoff.maps.tables import desirability_curves
 
     return desirability_curves(_study)
 
 
 def curves(study):
-    """Each goal's desirability curve (``tradeoff.report.maps.desirability_curves``)."""
+    """Each goal's desirability curve (``tradeoff.maps.tables.desirability_curves``)."""
     return _curves(study_keys(study)[1], study)
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _what_if(key: str, _study, _fit, items: tuple):
-    from tradeoff.report.maps import what_if as build
+    from tradeoff.maps.tables import what_if as build
 
     return build(_study, _fit, dict(items))
 
 
 def what_if(study, fitted, settings: dict):
-    """Predictions, intervals and chances at hand-set settings (``tradeoff.report.maps.what_if``)."""
+    """Predictions, intervals and chances at hand-set settings (``tradeoff.maps.tables.what_if``)."""
     items = tuple((k, v if isinstance(v, str) else float(v)) for k, v in settings.items())
     return _what_if(study_keys(study)[1], study, fitted, items)
 
@@ -302,7 +302,7 @@ def _blend_items(study, components, settings: dict) -> tuple:
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _ternary_lines(key: str, _study, _fit, value: str, three: tuple, reference: tuple,
                    process: tuple):
-    from tradeoff.report.ternary import ternary_lines as build
+    from tradeoff.maps.ternary import ternary_lines as build
 
     return build(_study, value, list(three), reference=dict(reference),
                  settings=dict(process), fit=_fit)
@@ -317,7 +317,7 @@ def ternary_lines(study, fitted, value: str, components, settings: dict):
 
 @st.cache_resource(max_entries=32, show_spinner=False)
 def _ternary_limits(key: str, _study, _fit, three: tuple, reference: tuple, process: tuple):
-    from tradeoff.report.ternary import ternary_limits as build
+    from tradeoff.maps.ternary import ternary_limits as build
 
     return build(_study, list(three), reference=dict(reference), settings=dict(process),
                  fit=_fit)
@@ -332,8 +332,8 @@ def ternary_limits(study, fitted, components, settings: dict):
 
 @st.cache_resource(max_entries=32, show_spinner=False)
 def _ternary_wash(key: str, _study, _fit, three: tuple, reference: tuple, process: tuple):
-    from tradeoff.report.mixture_tables import ternary_grid
-    from tradeoff.report.ternary import ternary_points
+    from tradeoff.maps.mixture_tables import ternary_grid
+    from tradeoff.maps.ternary import ternary_points
 
     return ternary_points(ternary_grid(_study, _fit, list(three), reference=dict(reference),
                                        settings=dict(process), steps=60, zoom=True))

@@ -15,7 +15,7 @@ import pandas as pd
 import streamlit as st
 from streamlit.dataframe_util import convert_anything_to_arrow_bytes
 
-from tradeoff.report.chart_data import use_records
+from tradeoff.maps.chart_data import use_records
 
 __all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart",
            "interaction_chart", "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
@@ -124,8 +124,8 @@ def interaction_chart(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
                       b_title: str, y_title: str):
     """The model's lines with intervals at the ends of factor a, one per end of b,
     over the measured cell means (open circles); see
-    ``tradeoff.report.pictures.interaction_picture``."""
-    from tradeoff.report.pictures import interaction_picture
+    ``tradeoff.maps.pictures.interaction_picture``."""
+    from tradeoff.maps.pictures import interaction_picture
 
     return fit_width(interaction_picture(cells, model, a_title, b_title, y_title,
                                          height=260))
@@ -138,7 +138,7 @@ def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
     +-3), the very value the quantile panel plots, so colour and caption agree.
 
     ``table``: columns run, order, fitted, residual, studentized_deleted,
-    quantile, flagged (``tradeoff.report.maps.residual_table``).
+    quantile, flagged (``tradeoff.maps.tables.residual_table``).
     """
     base = alt.Chart(table).encode(
         color=alt.Color("flagged:N", scale=alt.Scale(domain=[False, True],
@@ -191,8 +191,8 @@ def desirability_chart(curve: pd.DataFrame, marker: pd.DataFrame, x_title: str) 
 def contour_chart(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_title: str,
                   x_title: str, y_title: str, marks: pd.DataFrame):
     """Labelled lines of equal ``value`` over a light wash (see
-    ``tradeoff.report.pictures.contour_picture``)."""
-    from tradeoff.report.pictures import contour_picture
+    ``tradeoff.maps.pictures.contour_picture``)."""
+    from tradeoff.maps.pictures import contour_picture
 
     return fit_width(contour_picture(grid, lines, value, value_title, x_title, y_title,
                                      marks, height=420))
@@ -201,8 +201,8 @@ def contour_chart(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_tit
 def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataFrame,
                  d_lines: pd.DataFrame | None = None):
     """Each limit as its own labelled line, failing side ticked, the region where all
-    hold outlined (see ``tradeoff.report.pictures.limits_picture``)."""
-    from tradeoff.report.pictures import limits_picture
+    hold outlined (see ``tradeoff.maps.pictures.limits_picture``)."""
+    from tradeoff.maps.pictures import limits_picture
 
     return fit_width(limits_picture(lmap, titles, x_title, y_title, marks,
                                     d_lines=d_lines, height=420))
@@ -210,7 +210,7 @@ def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataF
 
 def slice_chart(part: pd.DataFrame, title: str, x_title: str):
     """One response (or D) along one factor with its band, limits and the setting."""
-    from tradeoff.report.pictures import slice_panel
+    from tradeoff.maps.pictures import slice_panel
 
     return fit_width(slice_panel(part, title, x_title, height=140))
 
@@ -282,8 +282,8 @@ __all__ += ["ternary_chart", "ternary_limits_chart"]
 def ternary_chart(grid: pd.DataFrame, lines: pd.DataFrame, axes: dict, bounds: pd.DataFrame,
                   value: str, value_title: str, marks: pd.DataFrame, width: int = 640):
     """Labelled lines in the blend triangle over a light wash (equal units on both
-    axes, so a fixed width; see ``tradeoff.report.ternary_pictures``)."""
-    from tradeoff.report.ternary_pictures import ternary_contour_picture
+    axes, so a fixed width; see ``tradeoff.maps.ternary_pictures``)."""
+    from tradeoff.maps.ternary_pictures import ternary_contour_picture
 
     return ternary_contour_picture(grid, lines, axes, bounds, value, value_title, marks,
                                    width=width)
@@ -293,6 +293,6 @@ def ternary_limits_chart(tlim, axes: dict, titles: dict, marks: pd.DataFrame,
                          d_lines: pd.DataFrame | None = None, width: int = 640):
     """Each limit as its own labelled line in the blend triangle, failing side ticked,
     the blends where all hold outlined (``ternary_pictures.ternary_limits_picture``)."""
-    from tradeoff.report.ternary_pictures import ternary_limits_picture
+    from tradeoff.maps.ternary_pictures import ternary_limits_picture
 
     return ternary_limits_picture(tlim, axes, titles, marks, d_lines=d_lines, width=width)

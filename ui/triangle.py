@@ -2,7 +2,7 @@
 
 Runs like a view: read state -> widgets -> call the library (through
 ``cached``) -> show. No statistics here: lines, limits and positions come from
-``tradeoff.report.ternary``.
+``tradeoff.maps.ternary``.
 """
 from __future__ import annotations
 
@@ -10,8 +10,8 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.report.ternary import ternary_position
-from tradeoff.report.ternary_pictures import ternary_axes
+from tradeoff.maps.ternary import ternary_position
+from tradeoff.maps.ternary_pictures import ternary_axes
 from tradeoff_ui import cached, charts, text
 
 __all__ = ["blend_triangle"]

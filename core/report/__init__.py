@@ -1,5 +1,5 @@
-"""Stage 6, presenting: the check summary, text tables, tidy tables behind maps,
-the HTML page, the workbook, downloads and provenance.
+"""Stage 7, documents: the check summary, text tables, the HTML page, the
+workbook, downloads and provenance. The tables behind their charts live in maps/.
 
-May import every stage folder above. Imported only by the top level (cli.py) and ui/.
+May import every stage folder above. Imported only by the top level (cli/) and ui/.
 """

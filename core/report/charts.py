@@ -18,7 +18,7 @@ def _svg(chart) -> str:
     """Render an Altair chart to inline SVG (vl-convert: no browser, no network)."""
     import vl_convert
 
-    from .chart_data import use_records
+    from ..maps.chart_data import use_records
 
     # The specification is built here from checked numbers: skip schema validation.
     with use_records():

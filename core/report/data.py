@@ -65,7 +65,7 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     from ..confirm.check import check_confirmations
     from ..derive.derived import kinetic_tables
     from ..study.confirmations import confirmation_files
-    from .maps import desirability_curves, runs_table
+    from ..maps.tables import desirability_curves, runs_table
     from ..model.study_fit import fit_study
     from .provenance import provenance
     from ..search.search import optimize

@@ -30,8 +30,8 @@ class _MapSections(_Sections):
     def maps(self) -> str:
         if self.res is None:
             return "<p>No maps: there is no recommendation to draw them around.</p>"
-        from .contours import contour_lines, limits_map
-        from .pictures import contour_picture, limits_picture
+        from ..maps.contours import contour_lines, limits_map
+        from ..maps.pictures import contour_picture, limits_picture
 
         best = self.res["best"]
         settings = best["settings"]
@@ -76,8 +76,8 @@ class _MapSections(_Sections):
         return "".join(out)
 
     def _slices(self, settings: dict, label: str) -> str:
-        from .pictures import slices_picture
-        from .slices import slices
+        from ..maps.pictures import slices_picture
+        from ..maps.slices import slices
 
         table = slices(self.study, settings, fit=self._study_fit(), n=31)
         if table.empty:
@@ -102,9 +102,9 @@ class _MapSections(_Sections):
 
     def interaction_chart(self, name: str, rep: dict, alpha: float) -> str:
         """The model's chart of a response's largest clear two-factor interaction."""
-        from .maps import interaction_means
-        from .pictures import interaction_picture
-        from .slices import model_interaction
+        from ..maps.tables import interaction_means
+        from ..maps.pictures import interaction_picture
+        from ..maps.slices import model_interaction
 
         pairs = []
         for term in rep["terms"]:

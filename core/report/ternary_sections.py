@@ -26,8 +26,8 @@ class _TernarySections(_Sections):
     def ternary(self) -> str:
         from ..model.study_fit import StudyFit
         from ..study.mixture import components_of, process_factors_of
-        from .ternary import ternary_limits, ternary_lines, ternary_position
-        from .ternary_pictures import (ternary_axes, ternary_contour_picture,
+        from ..maps.ternary import ternary_limits, ternary_lines, ternary_position
+        from ..maps.ternary_pictures import (ternary_axes, ternary_contour_picture,
                                        ternary_limits_picture)
 
         fit = StudyFit(study=self.study, models=dict(self.data["fitted"]),
@@ -61,8 +61,8 @@ class _TernarySections(_Sections):
                                                          d_lines=d_lines, width=420)))]
         if has_d:
             # the wash on a coarser grid than the lines: a fifth of the page's bytes
-            from .mixture_tables import ternary_grid
-            from .ternary import ternary_points
+            from ..maps.mixture_tables import ternary_grid
+            from ..maps.ternary import ternary_points
 
             grid = ternary_points(ternary_grid(self.study, fit, three, reference=reference,
                                                settings=process, steps=40, zoom=True))

@@ -10,7 +10,7 @@ overall centroids of the extreme-vertices designs; Cornell (2002),
 Experiments with Mixtures, 3rd ed., sec. 6.3).
 
 Used by the plans (plan/), the search on the simplex (search/) and the
-traces and ternary maps (report/).
+traces and ternary maps (maps/).
 """
 from __future__ import annotations
 

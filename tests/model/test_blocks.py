@@ -20,7 +20,7 @@ import pytest
 
 from tradeoff.cli import main
 from tradeoff.errors import DataError, ModelError, StudyError
-from tradeoff.report.maps import effect_table
+from tradeoff.maps.tables import effect_table
 from tradeoff.model.fit import ResponseModel
 from tradeoff.model.study_fit import fit_response, fit_study
 from tradeoff.derive.load import load_study

@@ -2,7 +2,7 @@
 
 Shown for a study with three components (the invented flour blend demo), not
 for a study without a blend (the snack bar demo). The numbers drawn are
-tested in tests/report/test_ternary.py.
+tested in tests/maps/test_ternary.py.
 """
 from __future__ import annotations
 

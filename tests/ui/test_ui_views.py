@@ -1,6 +1,6 @@
 """Every workbench view, driven headless with Streamlit's AppTest on the demo study.
 
-The numbers shown come from the library (tested in tests/test_maps.py,
+The numbers shown come from the library (tested in tests/maps/test_tables.py,
 tests/test_search.py and others); here we check the views run, react to what
 the user changes, and keep the study when an upload is bad.
 """

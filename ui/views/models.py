@@ -5,7 +5,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.report.maps import (effect_lines, effect_table, half_normal_table,
+from tradeoff.maps.tables import (effect_lines, effect_table, half_normal_table,
                            interaction_means, residual_table)
 from tradeoff.study.spec import MODELS
 from tradeoff.model.terms import model_terms

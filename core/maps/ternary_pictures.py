@@ -1,6 +1,6 @@
 """Altair drawings of the ternary maps, shared by the workbench and the report.
 
-Drawing only: the numbers come from ``tradeoff.report.ternary``. The look is
+Drawing only: the numbers come from ``tradeoff.maps.ternary``. The look is
 the one of the two-factor maps (``pictures``): labelled lines over a light
 wash, each limit in its response's colour and dash with short ticks on its
 failing side, the blends where every limit holds outlined. The triangle's

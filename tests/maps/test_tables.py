@@ -6,7 +6,7 @@ import pandas as pd
 import pytest
 
 from tradeoff import StudyError, load_study
-from tradeoff.report.maps import desirability_curves, interaction_means, runs_table
+from tradeoff.maps.tables import desirability_curves, interaction_means, runs_table
 
 from conftest import DEMO
 
@@ -88,7 +88,7 @@ def _ols(demo, response):
 def test_effect_table_and_t_line_match_statsmodels(demo, fitted):
     from scipy import stats
 
-    from tradeoff.report.maps import effect_lines, effect_table
+    from tradeoff.maps.tables import effect_lines, effect_table
 
     ols = _ols(demo, "liking")
     table = effect_table(fitted.models["liking"]).set_index("term")
@@ -107,7 +107,7 @@ def test_effect_lines_without_residual_df_are_lenths(write_study):
     """Saturated 2^3 model: ME = t(0.975, m/3) * PSE, Lenth (1989), computed here by hand."""
     from scipy import stats
 
-    from tradeoff.report.maps import effect_lines, effect_table
+    from tradeoff.maps.tables import effect_lines, effect_table
     from tradeoff.model.study_fit import fit_study
 
     study_text = ("[study]\nname = \"sat\"\ndata = \"runs.csv\"\nmodel = \"full\"\n"
@@ -132,7 +132,7 @@ def test_effect_lines_without_residual_df_are_lenths(write_study):
 
 def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fitted):
     from tradeoff.search.desirability import desirability
-    from tradeoff.report.maps import contour_grid
+    from tradeoff.maps.tables import contour_grid
 
     held = {"binder": "date paste", "mix_temp": 55.0}
     grid = contour_grid(demo, fitted, "protein", "glycerol", held, n=5)
@@ -167,7 +167,7 @@ def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fit
 
 
 def test_contour_grid_errors(demo, fitted):
-    from tradeoff.report.maps import contour_grid
+    from tradeoff.maps.tables import contour_grid
 
     with pytest.raises(StudyError, match="factor 'binder' is categorical"):
         contour_grid(demo, fitted, "protein", "binder", {"glycerol": 7, "mix_temp": 50})
@@ -178,7 +178,7 @@ def test_contour_grid_errors(demo, fitted):
 
 
 def test_what_if_intervals_match_statsmodels(demo, fitted):
-    from tradeoff.report.maps import what_if
+    from tradeoff.maps.tables import what_if
 
     settings = {"protein": 23.0, "glycerol": 9.0, "binder": "rice syrup", "mix_temp": 45.0}
     answer = what_if(demo, fitted, settings, draws=4000)
@@ -203,7 +203,7 @@ def test_what_if_intervals_match_statsmodels(demo, fitted):
 def test_residual_table_quantiles_and_flags(demo, fitted):
     from scipy import stats
 
-    from tradeoff.report.maps import residual_table
+    from tradeoff.maps.tables import residual_table
 
     table = residual_table(fitted.models["hardness_fresh"])
     assert len(table) == 20 and list(table["order"]) == list(range(1, 21))

@@ -1,7 +1,7 @@
 """Altair drawings of the maps and slices, shared by the workbench and the report.
 
 Drawing only: every number comes from the tidy tables of
-``tradeoff.report.contours`` and ``tradeoff.report.slices``. The look is our
+``tradeoff.maps.contours`` and ``tradeoff.maps.slices``. The look is our
 own: lines with their values written on them over a light wash, limits as
 labelled lines with short ticks on the failing side, the region where every
 limit holds outlined in black, so the maps read in black-and-white print.
@@ -133,7 +133,7 @@ def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_t
                     height: int = 420, width: int | None = None):
     """Labelled lines of equal ``value`` over a light wash of the same value.
 
-    ``grid``: columns x, y, ``value`` (``tradeoff.report.maps.contour_grid``).
+    ``grid``: columns x, y, ``value`` (``tradeoff.maps.tables.contour_grid``).
     ``lines``: columns level, line, x, y (``contour_lines``). ``marks``:
     columns what, x, y (the recommendation, the chosen solution).
     """

@@ -16,9 +16,9 @@ import pytest
 
 from tradeoff import StudyError, load_study
 from tradeoff.model.study_fit import fit_study
-from tradeoff.report.ternary import (HEIGHT, from_plot, ternary_limits, ternary_lines,
+from tradeoff.maps.ternary import (HEIGHT, from_plot, ternary_limits, ternary_lines,
                                      ternary_points, ternary_position, ternary_region)
-from tradeoff.report.mixture_tables import ternary_grid
+from tradeoff.maps.mixture_tables import ternary_grid
 from tradeoff.study.coding import to_coded
 from tradeoff.search.desirability import limits
 

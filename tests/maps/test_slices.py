@@ -12,7 +12,7 @@ import pytest
 
 from tradeoff import StudyError, load_study
 from tradeoff.model.study_fit import fit_study
-from tradeoff.report.slices import model_interaction, slices
+from tradeoff.maps.slices import model_interaction, slices
 
 DATA = Path(__file__).resolve().parents[1] / "data"
 SETTINGS = {"x1": -0.05, "x2": 0.15, "x3": -0.87}

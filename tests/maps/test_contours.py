@@ -13,8 +13,8 @@ import pytest
 
 from tradeoff import StudyError, load_study
 from tradeoff.model.study_fit import fit_study
-from tradeoff.report.contours import contour_lines, held_settings, limits_map, round_levels
-from tradeoff.report.maps import contour_grid
+from tradeoff.maps.contours import contour_lines, held_settings, limits_map, round_levels
+from tradeoff.maps.tables import contour_grid
 
 DATA = Path(__file__).resolve().parents[1] / "data"
 

@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 from altair.vegalite.data import default_data_transformer
 
-from tradeoff.report.chart_data import records, use_records
+from tradeoff.maps.chart_data import records, use_records
 
 
 def _same(frame):
@@ -67,7 +67,7 @@ def test_limits_legend_spells_out_each_response_title():
     import altair as alt
     import vl_convert
 
-    from tradeoff.report.pictures import titles_expr
+    from tradeoff.maps.pictures import titles_expr
 
     frame = pd.DataFrame({"x": [0.0, 1.0, 0.0, 1.0], "y": [0.0, 1.0, 1.0, 0.0],
                           "name": ["aw", "aw", "cost", "cost"]})
