@@ -1,0 +1,10 @@
+"""The command line, one module per command: each holds its parser (``add``) and
+its work (``run``); entry.py builds the top parser and turns the library's errors
+into one ``error:`` line and exit status 2.
+
+May import every stage folder. Imported by nothing in core/ (the ``tradeoff``
+script calls ``tradeoff.cli:main``).
+"""
+from .entry import build_parser, main
+
+__all__ = ["main", "build_parser"]

@@ -1,0 +1,55 @@
+"""``tradeoff optimize``: the settings that best balance every goal, with alternatives.
+
+Only the parser is built when the command line starts; the work imports what
+it needs when it runs, so ``tradeoff --help`` stays quick.
+"""
+from __future__ import annotations
+
+import json
+
+from .arguments import at_least_one, seed_number
+
+__all__ = ["add", "run"]
+
+
+def add(commands) -> None:
+    """Add ``optimize`` and its options to the sub-command parsers."""
+    best = commands.add_parser(
+        "optimize", help="find the settings that best balance every goal, with alternatives")
+    best.add_argument("study", help="the study file (.toml) with goals")
+    best.add_argument("--json", action="store_true", help="print the result as JSON")
+    best.add_argument("--top", type=at_least_one, default=5, metavar="N",
+                      help="show the best settings and up to N-1 distinct alternatives "
+                           "(default 5)")
+    best.add_argument("--seed", type=seed_number, default=None, metavar="S",
+                      help="seed of the search and of the chances (default: the study's seed)")
+    best.add_argument("--rank-by", choices=("desirability", "chance", "production"),
+                      default="desirability",
+                      help="order solutions by overall desirability (default), by the "
+                           "chance of meeting every limit, or by that chance for one "
+                           "production batch (factors spread by their production_sd)")
+    best.add_argument("--for", dest="aim", choices=("balance", "production"),
+                      default="balance",
+                      help="balance: the best overall desirability first (default); "
+                           "production: first the settings most likely to meet every limit "
+                           "in production (factors spread by their production_sd), beside "
+                           "the best balance, with the D each gives up")
+    best.set_defaults(run=run)
+
+
+def run(args) -> int:
+    from ..search.search import optimize
+    from ..derive.load import load_study
+
+    study = load_study(args.study)
+    result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by,
+                      aim=args.aim)
+    if args.json:
+        from ..report.provenance import provenance
+
+        # tool version, file fingerprints, date and seed: enough to reproduce it
+        block = provenance(study, seed=result.seed)
+        print(json.dumps(result.to_dict() | {"provenance": block}, indent=2))
+    else:
+        print(result.text())
+    return 0
