@@ -1,7 +1,4 @@
 """``tradeoff app``: open the point-and-click workbench in the web browser.
-
-Only the parser is built when the command line starts; the work imports what
-it needs when it runs, so ``tradeoff --help`` stays quick.
 """
 from __future__ import annotations
 

@@ -1,7 +1,4 @@
 """``tradeoff optimize``: the settings that best balance every goal, with alternatives.
-
-Only the parser is built when the command line starts; the work imports what
-it needs when it runs, so ``tradeoff --help`` stays quick.
 """
 from __future__ import annotations
 

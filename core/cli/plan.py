@@ -1,8 +1,5 @@
 """``tradeoff plan``: the runs to make (factorial, fraction, response surface, blend,
 optimal), their aliases and blocks, and the run sheet.
-
-Only the parser is built when the command line starts; the work imports what
-it needs when it runs, so ``tradeoff --help`` stays quick.
 """
 from __future__ import annotations
 
