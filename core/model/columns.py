@@ -16,7 +16,20 @@ from typing import Sequence
 
 import numpy as np
 
-__all__ = ["column_label", "expand_levels", "level_column"]
+__all__ = ["column_key", "column_label", "expand_levels", "level_column"]
+
+
+def column_key(t) -> tuple:
+    """What makes a model column the column it is, whatever its label.
+
+    The powers alone do not: every level column of a factor with three or
+    more levels shares its term's powers, and so do a cubic blending term
+    ``a:b:(a-b)`` and ``a^2:b``-like keys. Two columns with equal keys are the
+    same function of the coded settings.
+    """
+    return (type(t).__name__, tuple(t.powers), tuple(t.cells),
+            getattr(t, "first", None), getattr(t, "second", None),
+            getattr(t, "level", None))
 
 
 def column_label(powers: Sequence[int], names: Sequence[str], cells=(),

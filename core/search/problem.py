@@ -10,6 +10,7 @@ import numpy as np
 
 from ..study.constraints import rule_arrays
 from .mixture import simplex_region
+from ..model.columns import column_key
 from ..model.terms import model_matrix
 from ..model.transforms import inverse
 from .desirability import limits
@@ -102,17 +103,19 @@ class _Problem:
         polys = [getattr(m, "polynomial", None) for m in self.col_models]
         if not self.col_models or any(p is None for p in polys):
             return
+        # Keyed on the whole column (level, blending contrast), not the powers:
+        # every level column of one factor shares its powers.
         union, coef_of = {}, []
         for get in polys:
             terms, coef = get()
             coef_of.append((terms, coef))
             for t in terms:
-                union.setdefault(t.powers, t)
-        where = {powers: i for i, powers in enumerate(union)}
+                union.setdefault(column_key(t), t)
+        where = {key: i for i, key in enumerate(union)}
         C = np.zeros((len(union), len(polys)))
         for c, (terms, coef) in enumerate(coef_of):
             for t, b in zip(terms, coef):
-                C[where[t.powers], c] += b
+                C[where[column_key(t)], c] += b
         self._terms, self._C = list(union.values()), C
         self._transforms = [getattr(m, "transform", "none") for m in self.col_models]
 
