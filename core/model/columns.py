@@ -11,12 +11,13 @@ coded settings such a factor holds its level's position 0, 1, 2, ...
 """
 from __future__ import annotations
 
+import dataclasses
 import itertools
 from typing import Sequence
 
 import numpy as np
 
-__all__ = ["column_key", "column_label", "expand_levels", "level_column"]
+__all__ = ["column_key", "column_label", "expand_levels", "level_column", "level_term"]
 
 
 def column_key(t) -> tuple:
@@ -51,34 +52,44 @@ def column_label(powers: Sequence[int], names: Sequence[str], cells=(),
     return ":".join(parts)
 
 
-def expand_levels(terms: list, names: Sequence[str], levels, make) -> list:
+def expand_levels(terms: list, names: Sequence[str], levels) -> list:
     """Each term with a factor of three or more levels -> its sum-to-zero columns.
 
     ``levels``: per factor, its level names when it has three or more (else
-    None); ``make`` builds a column (the ``Term`` class).
+    None). A column that is one level's already is kept as it is.
     """
     if levels is None or not any(v is not None for v in levels):
         return terms
     out = []
     for t in terms:
         multi = [j for j in t.factors if levels[j] is not None]
-        if not multi:
+        if not multi or t.cells:
             out.append(t)
             continue
         for combo in itertools.product(*[range(len(levels[j]) - 1) for j in multi]):
             cells = tuple((j, l, len(levels[j])) for j, l in zip(multi, combo))
-            out.append(make(column_label(t.powers, names, cells, levels), t.powers,
-                            cells=cells, group=t.label))
+            out.append(level_term(t, cells, names, levels))
     return out
 
 
-def level_column(X: np.ndarray, t) -> np.ndarray:
+def level_term(t, cells, names: Sequence[str], levels):
+    """The column of term ``t`` at the levels ``cells`` (same class as ``t``)."""
+    if t.custom:  # a label that is not the powers' (a:b:(a-b):film)
+        at = {names[j]: f"{names[j]}[{levels[j][l]}]" for j, l, _ in cells}
+        label = ":".join(at.get(part, part) for part in t.label.split(":"))
+    else:
+        label = column_label(t.powers, names, cells, levels)
+    return dataclasses.replace(t, label=label, cells=tuple(cells), group=t.label)
+
+
+def level_column(X: np.ndarray, t, skip=()) -> np.ndarray:
     """One sum-to-zero column: +1 at the term's level, -1 at the last level, 0
-    elsewhere, for each factor of ``t.cells``; times the other factors' powers."""
+    elsewhere, for each factor of ``t.cells``; times the other factors' powers
+    (those in ``skip`` left out: a caller that multiplies them in itself)."""
     col = np.ones(X.shape[0])
     at = {j: (level, n) for j, level, n in t.cells}
     for j, p in enumerate(t.powers):
-        if not p:
+        if not p or j in skip:
             continue
         if j in at:
             level, n = at[j]

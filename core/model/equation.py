@@ -21,7 +21,7 @@ def fitted_equations(terms: Sequence[Term], coef: np.ndarray, factors,
         return natural_equation(terms, coef, factors, factor_names, levels), None
     from .scheffe import proportion_equation
 
-    return None, proportion_equation(terms, coef, factor_names, mixture)
+    return None, proportion_equation(terms, coef, factor_names, mixture, levels)
 
 
 def natural_equation(terms: Sequence[Term], coef: np.ndarray, factors,

@@ -26,6 +26,7 @@ from typing import Sequence
 import numpy as np
 
 from ..errors import ModelError
+from .columns import expand_levels, level_term
 from .terms import ContrastTerm, Term, model_matrix, model_terms, parse_term, term_label
 
 __all__ = ["scheffe_terms", "mixture_model_terms", "MixtureInfo", "mixture_fit_options",
@@ -79,12 +80,15 @@ def _cross(term: Term, part: Sequence[int], names) -> Term:
 def mixture_model_terms(names: Sequence[str], q: int, model: str, process: str,
                         process_model: str = "interactions",
                         n_settings: Sequence[int] | None = None,
-                        response: str = "response") -> list[Term]:
+                        response: str = "response", levels=None) -> list[Term]:
     """Every term of a mixture (x process) model, no intercept, mixture terms first.
 
     ``names``: components first (q of them), then the process factors.
     ``n_settings``: distinct coded settings per column (squares of process
     factors with two settings are left out, as the ordinary quadratic model does).
+    ``levels``: per column, the level names of a categorical process factor of
+    three or more levels (as ``model_terms`` takes them): a term crossed with
+    it becomes one column per level but the last.
     """
     names = list(names)
     k = len(names)
@@ -98,11 +102,19 @@ def mixture_model_terms(names: Sequence[str], q: int, model: str, process: str,
             part = [0] * k
             part[j] = 1
             parts.append(part)
-        return mix + [_cross(t, p, names) for p in parts for t in mix[:q]]
-    ps = None if n_settings is None else list(n_settings)[q:]
-    pterms, _ = model_terms(process_model, pnames, n_settings=ps, response=response)
-    parts = [[0] * q + list(t.powers) for t in pterms if not t.is_intercept]
-    return mix + [_cross(t, p, names) for p in parts for t in mix]
+        crossed = [_cross(t, p, names) for p in parts for t in mix[:q]]
+    else:
+        ps = None if n_settings is None else list(n_settings)[q:]
+        plevels = None if levels is None else list(levels)[q:]
+        pterms, _ = model_terms(process_model, pnames, n_settings=ps, response=response,
+                                levels=plevels)
+        parts = []  # one part per process term (its level columns share the powers)
+        for t in pterms:
+            part = [0] * q + list(t.powers)
+            if not t.is_intercept and part not in parts:
+                parts.append(part)
+        crossed = [_cross(t, p, names) for p in parts for t in mix]
+    return expand_levels(mix + crossed, names, levels)
 
 
 @dataclass(frozen=True)
@@ -145,6 +157,7 @@ def mixture_fit_options(study, response, spec, X: np.ndarray):
     runs hold fewer distinct blends than the model's mixture terms need.
     """
     from ..study.mixture import components_of
+    from .levels import factor_levels
 
     mixture = study.mixture
     names = study.factor_names
@@ -157,12 +170,17 @@ def mixture_fit_options(study, response, spec, X: np.ndarray):
             if len(X) else None
         terms = mixture_model_terms(names, q, mixture.model, mixture.process,
                                     process_model=spec, n_settings=n_settings,
-                                    response=name)
+                                    response=name, levels=factor_levels(study.factors))
         what = f"the {mixture.model.replace('_', ' ')} mixture model"
     else:
         terms = []
         for label in spec:
             t = parse_term(label, names, response=name)
+            j = t.factors[0] if t.is_square else None
+            if j is not None and study.factors[j].is_categorical:
+                raise ModelError(f"response '{name}': term '{label}': factor "
+                                 f"'{names[j]}' is categorical, so it has no square: "
+                                 "remove the term")
             if t.is_intercept:
                 raise ModelError(f"response '{name}': a mixture model has no intercept "
                                  "(the components' linear terms stand for it): remove "
@@ -188,7 +206,7 @@ def mixture_fit_options(study, response, spec, X: np.ndarray):
 
 
 def proportion_equation(terms: Sequence[Term], coef, names: Sequence[str],
-                        info: MixtureInfo) -> dict[str, float]:
+                        info: MixtureInfo, levels=None) -> dict[str, float]:
     """The fitted equation with the components as proportions of the total.
 
     For proportions (every low 0) the coefficients are the fitted ones. For
@@ -197,7 +215,8 @@ def proportion_equation(terms: Sequence[Term], coef, names: Sequence[str],
     equation is re-expressed exactly in the Scheffe model of the same degree
     (special cubic -> full cubic), each process part kept. It is solved by
     least squares at random blends, where both forms agree to rounding.
-    Process factors stay in coded units.
+    Process factors stay in coded units (a categorical one of three or more
+    levels, ``levels`` as ``model_terms`` takes them, as its level columns).
     """
     coef = np.asarray(coef, dtype=float)
     mix_terms = [(t, b) for t, b in zip(terms, coef) if not t.is_block]
@@ -208,16 +227,20 @@ def proportion_equation(terms: Sequence[Term], coef, names: Sequence[str],
     degree = max(sum(t.powers[:q]) if not isinstance(t, ContrastTerm) else 3
                  for t, _ in mix_terms)
     base = scheffe_terms({1: "linear", 2: "quadratic"}.get(degree, "cubic"), q, names)
-    parts = []
+    parts = []  # (process powers, level cells): level columns are parts of their own
     for t, _ in mix_terms:
-        part = tuple([0] * q + list(t.powers[q:]))
+        part = (tuple([0] * q + list(t.powers[q:])), tuple(t.cells))
         if part not in parts:
             parts.append(part)
-    target = [_cross(t, p, names) for p in parts for t in base]
+    target = [_cross(t, p, names) for p, _ in parts for t in base]
+    target = [level_term(t, cells, names, levels) if cells else t
+              for t, cells in zip(target, [c for _, c in parts for _ in base])]
     rng = np.random.default_rng(20021)
     n = 3 * len(target) + 20
     P = rng.dirichlet(np.ones(q), n)
     proc = rng.uniform(-1.0, 1.0, (n, k - q))
+    for j, _, n_levels in {c for t, _ in mix_terms for c in t.cells}:
+        proc[:, j - q] = rng.integers(0, n_levels, n)  # level positions
     lows = np.asarray(info.lows)
     Z = (P - lows) / (1.0 - lows.sum())
     y = model_matrix(np.hstack([Z, proc]), [t for t, _ in mix_terms]) @ \

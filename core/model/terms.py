@@ -160,11 +160,8 @@ class ContrastTerm(Term):
 
     def column(self, X: np.ndarray) -> np.ndarray:
         a, b = X[:, self.first], X[:, self.second]
-        out = a * b * (a - b)
-        for n, p in enumerate(self.powers):
-            if p and n not in (self.first, self.second):
-                out = out * X[:, n] ** p
-        return out
+        # the process part, a level column of it where a factor has levels
+        return a * b * (a - b) * level_column(X, self, skip=(self.first, self.second))
 
 
 def block_terms(block, k: int) -> tuple[list[BlockTerm], np.ndarray, list[str]]:
@@ -320,7 +317,8 @@ def model_terms(spec: str | Sequence[str], factor_names: Sequence[str], *,
     """
     if not isinstance(spec, (str, bytes, dict)) and spec and all(
             isinstance(t, Term) for t in spec):
-        return list(spec), []  # terms built already (mixture models, model/scheffe.py)
+        # terms built already (mixture models, model/scheffe.py): only their levels
+        return expand_levels(list(spec), list(factor_names), levels), []
     key_spec = spec if isinstance(spec, str) else tuple(spec) if not isinstance(
         spec, (bytes, dict)) else spec
     try:
@@ -343,7 +341,7 @@ def _model_terms_cached(spec, factor_names, n_settings, response, levels):
 
 def _model_terms(spec, factor_names, n_settings, response, levels=None):
     terms, notes = _grouped_terms(spec, factor_names, n_settings, response, levels)
-    return expand_levels(terms, list(factor_names), levels, Term), notes
+    return expand_levels(terms, list(factor_names), levels), notes
 
 
 def _grouped_terms(spec, factor_names, n_settings, response, levels):

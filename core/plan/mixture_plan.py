@@ -213,6 +213,7 @@ def plan_mixture(study, design: str, *, degree: int | None = None,
 
 def _evaluate(study, plan: MixturePlan) -> dict:
     """Which terms of the study's mixture model the plan can estimate, and error df."""
+    from ..model.levels import factor_levels
     from ..model.scheffe import mixture_model_terms
     from ..model.terms import find_aliases, model_matrix
 
@@ -222,7 +223,7 @@ def _evaluate(study, plan: MixturePlan) -> dict:
     n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
     terms = mixture_model_terms(study.factor_names, len(comps), study.mixture.model,
                                 study.mixture.process, process_model=study.model,
-                                n_settings=n_settings)
+                                n_settings=n_settings, levels=factor_levels(study.factors))
     M = model_matrix(X, terms)
     keep, aliases = find_aliases(M, terms)
     p = int(keep.sum())

@@ -109,7 +109,7 @@ class HoldScore:
         if not np.any(self.spread > 0):
             return np.zeros(len(X)), np.zeros(len(X))
         if poly is not None:
-            return polynomial_moments(poly[0], poly[1], X, self.spread)
+            return polynomial_moments(poly[0], poly[1], X, self.spread, gates=poly[2])
         # Not a polynomial: a small Monte Carlo on common draws (smooth in X).
         n, k = X.shape
         mean, _, _, _ = model.predictive((X[:, None, :] + self._E[None]).reshape(-1, k))

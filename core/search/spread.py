@@ -96,7 +96,7 @@ def _expansion(powers_key: bytes, shape: tuple, spread_key: bytes):
             np.array(rest, dtype=int).reshape(len(rest), len(sd)), R, Er, C)
 
 
-def polynomial_moments(powers, coef, X, sd) -> tuple[np.ndarray, np.ndarray]:
+def polynomial_moments(powers, coef, X, sd, gates=None) -> tuple[np.ndarray, np.ndarray]:
     """Mean shift and variance of a polynomial at ``X + e``, e ~ N(0, diag(sd^2)).
 
     Parameters
@@ -108,6 +108,11 @@ def polynomial_moments(powers, coef, X, sd) -> tuple[np.ndarray, np.ndarray]:
         The intended settings (same units as ``sd``).
     sd : array_like, shape (k,)
         Standard deviation of each variable's deviation (0 = none).
+    gates : sequence of tuples, optional
+        Per term, the ``(factor, level, n_levels)`` cells of a categorical
+        factor of three or more levels whose sum-to-zero column multiplies the
+        term (``model_polynomial``); such a factor has no spread, so its column
+        is a per-point multiplier of the coefficient.
 
     Returns
     -------
@@ -130,7 +135,11 @@ def polynomial_moments(powers, coef, X, sd) -> tuple[np.ndarray, np.ndarray]:
         col = rest[:, j]
         if col.any():
             mono *= np.where(col == 0, 1.0, X[:, j:j + 1] ** col)
-    contrib = mono * (coef[term_of] * binom)
+    if gates is not None and any(gates):
+        coef = coef * _gate_values(gates, X)  # (n, T): a coefficient per point
+        contrib = mono * (coef[:, term_of] * binom)
+    else:
+        contrib = mono * (coef[term_of] * binom)
     A = np.zeros((len(X), len(R)))
     np.add.at(A.T, r_of, contrib.T)
     shift = A[:, 1:] @ Er[1:]
@@ -162,17 +171,53 @@ class TransmittedSpread:
 
 
 def model_polynomial(model):
-    """(powers (T, k), coef (T,)) of a model's mean on its modelling scale, or None.
+    """(powers (T, k), coef (T,), gates) of a model's mean on its modelling scale, or None.
 
-    None for a model that is not a polynomial in the coded factors (it has no
-    ``polynomial`` method).
+    Every column is written as plain monomials in the coded factors: a cubic
+    blending term ``a b (a - b)`` as ``a^2 b - a b^2``, and a level column of
+    a factor with three or more levels as the monomial of its other factors
+    with the level's sum-to-zero indicator in ``gates`` (see
+    ``polynomial_moments``). None for a model that is not a polynomial in the
+    coded factors (no ``polynomial`` method, or a column of another kind).
     """
+    from ..model.terms import ContrastTerm
+
     get = getattr(model, "polynomial", None)
     if get is None:
         return None
     terms, coef = get()
-    powers = np.array([t.powers for t in terms], dtype=np.int64).reshape(len(terms), -1)
-    return powers, np.asarray(coef, dtype=float)
+    rows, values, gates = [], [], []
+    for t, b in zip(terms, np.asarray(coef, dtype=float)):
+        p = list(t.powers)
+        for j, _, _ in t.cells:
+            p[j] = 0  # the level indicator goes to the gate
+        if isinstance(t, ContrastTerm):
+            p[t.first] = p[t.second] = 0
+            for a, c, sign in ((2, 1, 1.0), (1, 2, -1.0)):
+                q = list(p)
+                q[t.first], q[t.second] = a, c
+                rows.append(q)
+                values.append(sign * b)
+                gates.append(tuple(t.cells))
+            continue
+        if t.custom:
+            return None
+        rows.append(p)
+        values.append(b)
+        gates.append(tuple(t.cells))
+    k = len(terms[0].powers) if terms else 0
+    powers = np.array(rows, dtype=np.int64).reshape(len(rows), k)
+    return powers, np.asarray(values, dtype=float), gates
+
+
+def _gate_values(gates, X) -> np.ndarray:
+    """(n, T) value of each term's level indicators at the points X."""
+    G = np.ones((len(X), len(gates)))
+    for i, cells in enumerate(gates):
+        for j, level, n in cells:
+            code = np.rint(X[:, j])
+            G[:, i] *= (code == level).astype(float) - (code == n - 1)
+    return G
 
 
 def transmitted_spread(study, models: dict, X_coded, *, draws: int = MC_DRAWS,
@@ -204,7 +249,7 @@ def transmitted_spread(study, models: dict, X_coded, *, draws: int = MC_DRAWS,
             method[name] = "exact"
             continue
         if poly is not None and getattr(model, "transform", "none") == "none":
-            s, v = polynomial_moments(poly[0], poly[1], X, sd)
+            s, v = polynomial_moments(*poly[:2], X, sd, gates=poly[2])
             out_sd[:, i], shift[:, i] = np.sqrt(v), s
             method[name] = "exact"
             continue
