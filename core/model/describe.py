@@ -44,7 +44,9 @@ def response_report(model) -> dict:
         "half_normal": None if model.half_normal_ is None else [
             {"term": r.term, "effect": finite_or_none(r.effect), "quantile": finite_or_none(r.quantile)}
             for r in model.half_normal_.itertuples()],
-        "aliases": {k: list(v) for k, v in model.aliases_.items()},
+        # each dropped column as the signed combination of kept columns it equals
+        "aliases": {k: [{"term": t, "coef": c} for t, c in v.items()]
+                    for k, v in model.aliases_.items()},
         "blocks": clean_json(model.blocks_),
         "anova": clean_json(model.anova_),
         "natural_coefficients": clean_json(model.natural_coefficients_),

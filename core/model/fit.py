@@ -33,7 +33,8 @@ from ..errors import ModelError
 from .lenth import half_normal_points, lenth
 from .levels import derived_coefficients, factor_levels, term_tests
 from .reduce import backward_eliminate
-from .terms import (Term, block_terms, find_aliases, hierarchy_closure, model_matrix,
+from .dependence import combination_text, find_aliases
+from .terms import (Term, block_terms, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 from .describe import response_report
@@ -166,21 +167,21 @@ class ResponseModel:
         for dropped, partners in aliases.items():
             if any(q in block_labels for q in partners):
                 confounded[dropped] = list(partners)
-                others = [q for q in partners if q not in block_labels]
-                warnings.append(f"term '{dropped}' is confounded with the blocks"
-                                f"{' and ' + ' + '.join(others) if others else ''}: a "
-                                "shift between blocks cannot be told apart from it, so "
-                                "it is left out of the model")
+                warnings.append(f"term '{dropped}' is confounded with the blocks "
+                                f"({dropped} = {combination_text(partners)} in these "
+                                "runs): a shift between blocks cannot be told apart from "
+                                "it, so it is left out of the model")
             elif not partners:
                 warnings.append(f"term '{dropped}' is 0 in every run and cannot be "
                                 "estimated: left out")
-            elif partners == ["intercept"]:
+            elif list(partners) == ["intercept"]:
                 warnings.append(f"term '{dropped}' does not vary in these runs (it is "
                                 "aliased with the intercept): left out")
             else:
+                first = next(iter(partners))
                 warnings.append(f"term '{dropped}' cannot be told apart from "
-                                f"{' + '.join(partners)} in these runs (aliased): only "
-                                f"{partners[0] if len(partners) == 1 else 'those'} "
+                                f"{combination_text(partners)} in these runs (aliased): "
+                                f"only {first if len(partners) == 1 else 'those'} "
                                 "estimated, standing for both")
         if not keep_mask.all():  # (no copy of M when every term is kept)
             terms = [t for t, k in zip(terms, keep_mask) if k]
@@ -260,7 +261,7 @@ class ResponseModel:
         n, p = z.size, len(terms)
         self.terms_ = [t.label for t in terms]
         self.coef_ = sol.coef.copy()
-        self.aliases_ = dict(aliases)
+        self.aliases_ = {k: dict(v) for k, v in aliases.items()}
         self.n_ = int(n)
         self.residual_df_ = int(sol.df)
         sst = float(np.sum((z - z.mean()) ** 2))

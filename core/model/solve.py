@@ -11,7 +11,7 @@ from scipy.linalg import lapack as _lapack
 from scipy.linalg import solve_triangular
 
 from ..errors import ModelError
-from .terms import QRFactors
+from .dependence import QRFactors
 
 __all__ = ["LeastSquares"]
 

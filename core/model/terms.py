@@ -1,4 +1,4 @@
-"""Model terms: their labels, the model matrix built from coded settings, aliases.
+"""Model terms: their labels and the model matrix built from coded settings.
 
 A term is a product of coded factor columns. Labels: ``intercept``; a main
 effect is the factor's name; an interaction joins names with ``:`` in the
@@ -25,14 +25,12 @@ from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
-from scipy.linalg import lapack as _lapack
-from scipy.linalg import qr as _scipy_qr
 
 from ..errors import ModelError
 from .columns import column_label, expand_levels, level_column
 
 __all__ = ["MODEL_NAMES", "Term", "term_label", "column_label", "parse_term", "model_terms",
-           "model_matrix", "qr", "QRFactors", "find_aliases", "hierarchy_closure",
+           "model_matrix", "hierarchy_closure",
            "named_model_size", "BlockTerm", "block_terms", "model_label", "ContrastTerm"]
 
 MODEL_NAMES = ("main", "interactions", "full", "quadratic")
@@ -41,11 +39,6 @@ MODEL_NAMES = ("main", "interactions", "full", "quadratic")
 def model_label(model) -> str:
     """A model as text: its name, or ``terms: a, b, a:b`` for a list of terms."""
     return model if isinstance(model, str) else "terms: " + ", ".join(model)
-
-# A column counts as linearly dependent on the earlier ones when what is left
-# of it after projection is this small relative to its length. Exact aliasing in
-# a design leaves ~1e-15; genuine near-collinearity of measured settings stays far above.
-_ALIAS_TOL = 1e-9
 
 
 @dataclass(frozen=True)
@@ -476,115 +469,3 @@ def model_matrix(X: np.ndarray, terms: Sequence[Term]) -> np.ndarray:
             np.multiply(head, X[:, f[-1]], out=out[:, i])
             cache[f] = out[:, i]
     return out
-
-
-def qr(M: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Economic QR of a model matrix (Q is n x p, R is p x p upper triangular)."""
-    return _scipy_qr(np.asfortranarray(M), mode="economic", check_finite=False)
-
-
-class QRFactors:
-    """Householder QR of an (n, p) model matrix, n >= p, kept in LAPACK's raw form.
-
-    Q is never formed unless asked for (``Q``): products with Q' and Q are
-    applied from the Householder reflectors (LAPACK dormqr), which costs a
-    fraction of forming Q and is as accurate.
-
-    Attributes
-    ----------
-    R : (p, p) upper triangular factor.
-    """
-
-    __slots__ = ("_a", "_tau", "R", "_Q")
-
-    def __init__(self, M: np.ndarray):
-        n, p = M.shape
-        a = np.array(M, dtype=float, order="F")  # geqrf overwrites its input
-        # lwork 64 p: room for LAPACK's blocked algorithm (block size <= 64)
-        a, tau, _, info = _lapack.dgeqrf(a, lwork=max(1, 64 * p), overwrite_a=1)
-        if info != 0:  # pragma: no cover - LAPACK argument error
-            raise ValueError(f"QR factorization failed (LAPACK info {info})")
-        self._a, self._tau = a, tau
-        self.R = np.triu(a[:p])
-        self._Q = None
-
-    def qt(self, z: np.ndarray) -> np.ndarray:
-        """Q_full' z for a vector z of length n (all n rotated coordinates)."""
-        return self._apply("T", z)
-
-    def q(self, w: np.ndarray) -> np.ndarray:
-        """Q_full w for a vector w of length n."""
-        return self._apply("N", w)
-
-    def _apply(self, trans: str, v: np.ndarray) -> np.ndarray:
-        c = np.array(v, dtype=float, order="F").reshape(-1, 1, order="F")
-        # lwork 1: the unblocked algorithm, several times faster for one column
-        out, _, info = _lapack.dormqr("L", trans, self._a, self._tau, c, lwork=1,
-                                      overwrite_c=1)
-        if info != 0:  # pragma: no cover - LAPACK argument error
-            raise ValueError(f"applying Q failed (LAPACK info {info})")
-        return out[:, 0]
-
-    @property
-    def Q(self) -> np.ndarray:
-        """The (n, p) orthonormal factor, formed on first use."""
-        if self._Q is None:
-            p = self.R.shape[0]
-            Q, _, info = _lapack.dorgqr(self._a, self._tau, lwork=max(1, 64 * p))
-            if info != 0:  # pragma: no cover - LAPACK argument error
-                raise ValueError(f"forming Q failed (LAPACK info {info})")
-            self._Q = Q
-        return self._Q
-
-
-def find_aliases(M: np.ndarray, terms: Sequence[Term], *, return_qr: bool = False):
-    """Which columns of the model matrix the runs can estimate.
-
-    Columns are taken in order; a column that is a linear combination of the
-    columns kept before it is dropped (the first term of each alias chain is
-    kept) and reported with the kept terms it is combined from.
-
-    Returns
-    -------
-    keep : boolean mask over the columns.
-    aliases : dropped label -> kept labels it is aliased with.
-    qr : only with ``return_qr``: the QRFactors of M when every column is
-        kept (so a fit need not factor M again), else None.
-    """
-    n, p = M.shape
-    norms = np.sqrt(np.einsum("ij,ij->j", M, M))  # column lengths
-    keep = np.zeros(p, dtype=bool)
-    if p <= n:
-        fac = QRFactors(M)
-        diag = np.abs(np.diag(fac.R))
-        if np.all(diag > _ALIAS_TOL * np.maximum(norms, 1e-300)) and np.all(norms > 0):
-            keep[:] = True
-            return (keep, {}, fac) if return_qr else (keep, {})
-    # Sequential Gram-Schmidt (twice, for stability) over the columns in order:
-    # exact, and it never lets a dropped column's rounding noise take a dimension.
-    basis = np.empty((n, min(n, p)))
-    rank = 0
-    for j in range(p):
-        v = M[:, j].copy()
-        if norms[j] == 0 or rank == n:
-            continue
-        for _ in range(2):
-            if rank:
-                B = basis[:, :rank]
-                v -= B @ (B.T @ v)
-        r = np.linalg.norm(v)
-        if r > _ALIAS_TOL * norms[j]:
-            basis[:, rank] = v / r
-            rank += 1
-            keep[j] = True
-    aliases: dict[str, list[str]] = {}
-    kept_idx = np.flatnonzero(keep)
-    Mk = M[:, kept_idx]
-    for j in np.flatnonzero(~keep):
-        if norms[j] == 0:
-            aliases[terms[j].label] = []
-            continue
-        b = np.linalg.lstsq(Mk, M[:, j], rcond=None)[0]
-        big = np.abs(b) > 1e-6 * max(1.0, np.abs(b).max())
-        aliases[terms[j].label] = [terms[kept_idx[i]].label for i in np.flatnonzero(big)]
-    return (keep, aliases, None) if return_qr else (keep, aliases)

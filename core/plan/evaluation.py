@@ -103,7 +103,8 @@ def evaluate_design(factors: Sequence, coded, model: str | Sequence[str] = "inte
     """
     from ..errors import ModelError
     from ..model.levels import factor_levels
-    from ..model.terms import Term, find_aliases, model_matrix, model_terms
+    from ..model.dependence import find_aliases
+    from ..model.terms import Term, model_matrix, model_terms
 
     names = [f.name for f in factors]
     X = np.asarray(coded, dtype=float)

@@ -215,7 +215,8 @@ def _evaluate(study, plan: MixturePlan) -> dict:
     """Which terms of the study's mixture model the plan can estimate, and error df."""
     from ..model.levels import factor_levels
     from ..model.scheffe import mixture_model_terms
-    from ..model.terms import find_aliases, model_matrix
+    from ..model.dependence import find_aliases
+    from ..model.terms import model_matrix
 
     comps = components_of(study)
     X = plan.coded.to_numpy(float)

@@ -1,6 +1,8 @@
 """Readable tables of fitted response models, printed by ``tradeoff fit``."""
 from __future__ import annotations
 
+from ..model.dependence import combination_text
+
 __all__ = ["fit_text"]
 
 
@@ -93,8 +95,9 @@ def _response_text(r: dict) -> list[str]:
             out.append("  confounded with blocks (left out): "
                        + ", ".join(b["confounded"]))
     if r["aliases"]:
-        out.append("  aliases: " + "; ".join(f"{k} = {' + '.join(v) or '0'}"
-                                             for k, v in r["aliases"].items()))
+        out.append("  aliases (in these runs): " + "; ".join(
+            f"{k} = {combination_text({p['term']: p['coef'] for p in v})}"
+            for k, v in r["aliases"].items()))
     nat = r.get("natural_coefficients")
     if nat:
         lhs = r["response"] if r["transform"] == "none" else f"{r['transform']}({r['response']})"

@@ -387,9 +387,10 @@ def test_half_fraction_model_reports_aliases():
     X = np.column_stack([base, base.prod(axis=1)])
     y = np.arange(8.0) ** 1.5
     m = ResponseModel(terms="interactions", factor_names=list("abcd")).fit(X, y)
-    assert m.aliases_ == {"b:c": ["a:d"], "b:d": ["a:c"], "c:d": ["a:b"]}
+    # I = ABCD (Box, Hunter & Hunter (2005), ch. 6): BC = +AD, BD = +AC, CD = +AB
+    assert m.aliases_ == {"b:c": {"a:d": 1.0}, "b:d": {"a:c": 1.0}, "c:d": {"a:b": 1.0}}
     r = m.report()
-    assert r["aliases"]["c:d"] == ["a:b"] and r["residual_df"] == 0
+    assert r["aliases"]["c:d"] == [{"term": "a:b", "coef": 1.0}] and r["residual_df"] == 0
     assert any("'c:d' cannot be told apart from a:b" in w for w in r["warnings"])
 
 

@@ -8,6 +8,7 @@ from tradeoff import TradeoffError
 from tradeoff.maps.tables import (effect_lines, effect_table, half_normal_table,
                            interaction_means, residual_table)
 from tradeoff.study.spec import MODELS
+from tradeoff.model.dependence import combination_text
 from tradeoff.model.terms import model_terms
 from tradeoff_ui import cached, charts, panels, text
 from tradeoff_ui.shown import blank_none, num, p_text
@@ -195,8 +196,11 @@ with st.expander("Coefficients, analysis of variance and the equation"):
                  f"{curvature['p']:.3g})." if curvature.get("p") is not None else
                  "Curvature check: not available.")
     if report["aliases"]:
-        st.write("Terms the runs cannot tell apart (aliases):")
-        st.json(report["aliases"])
+        st.write("Terms the runs cannot tell apart (aliases), each as the combination of "
+                 "kept columns it equals in these runs:")
+        st.dataframe(pd.DataFrame([
+            {"term": k, "equals": combination_text({p["term"]: p["coef"] for p in v})}
+            for k, v in report["aliases"].items()]), hide_index=True)
     if report["natural_coefficients"]:
         st.write("The equation in natural units (categorical factors coded -1/+1):")
         natural = report["natural_coefficients"]
