@@ -160,7 +160,7 @@ def interaction_means(study, response: str, a: str, b: str) -> pd.DataFrame:
 def effect_table(model) -> pd.DataFrame:
     """A fitted model's effects (change from coded -1 to +1, twice the coefficient;
     for each level of a factor with three or more levels, the last one derived,
-    its deviation from the average over levels).
+    its deviation from the average over levels: ``model.effect_scales_``).
 
     Returns
     -------
@@ -172,20 +172,23 @@ def effect_table(model) -> pd.DataFrame:
     """
     labels = list(model.terms_)
     effects = np.asarray(model.effects_, dtype=float)
-    # a level of a factor with three or more levels shows its deviation from the
-    # average over levels (its coefficient, standard error once, not twice)
-    scale = np.array([1.0 if "[" in lab and not lab.startswith("block[") else 2.0
-                      for lab in labels])
+    # effect = scale x coefficient: 2 for a low-to-high change, 1 for a level's
+    # deviation from the average over levels (tradeoff.model.notes.effect_scale)
+    scale = np.asarray(model.effect_scales_, dtype=float)
     se = (np.full(len(labels), np.nan) if model.std_errors_ is None or
           model.residual_df_ == 0 else scale * np.asarray(model.std_errors_, dtype=float))
     p = (np.full(len(labels), np.nan) if model.p_values_ is None or
          model.residual_df_ == 0 else np.asarray(model.p_values_, dtype=float))
     keep = ~np.isnan(effects)
-    derived = getattr(model, "derived_coefficients_", None) or []
+    derived = [d for d in getattr(model, "derived_coefficients_", None) or []
+               if d.get("effect") is not None]
     table = pd.DataFrame({"term": list(np.array(labels, dtype=object)[keep])
                           + [d["term"] for d in derived],
-                          "effect": list(effects[keep]) + [d["estimate"] for d in derived],
-                          "std_error": list(se[keep]) + [d["std_error"] for d in derived],
+                          "effect": list(effects[keep]) + [d["effect"] for d in derived],
+                          "std_error": list(se[keep]) + [
+                              np.nan if d["effect_std_error"] is None
+                              or not np.isfinite(d["effect_std_error"])
+                              else d["effect_std_error"] for d in derived],
                           "p_value": list(p[keep]) + [d["p"] for d in derived]})
     order = np.argsort(-np.abs(table["effect"].to_numpy()), kind="stable")
     return table.iloc[order].reset_index(drop=True)

@@ -39,7 +39,7 @@ from .terms import (Term, block_terms, hierarchy_closure, model_matrix,
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 from .describe import response_report
 from .equation import fitted_equations
-from .notes import effect_index, near_alias_notes
+from .notes import effect_index, effect_scale, near_alias_notes
 from .solve import LeastSquares
 
 __all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points", "runs_to_fit",
@@ -285,10 +285,12 @@ class ResponseModel:
         self.p_values_ = None if sol.p is None else sol.p.copy()
         eff = set(self._effect_index(terms))
         # low-to-high change; for a level of a factor with three or more levels,
-        # its deviation from the average over levels (its coefficient)
-        self.effects_ = np.array([b if t.cells and not t.is_square else
-                                  2 * b if i in eff else np.nan
-                                  for i, (t, b) in enumerate(zip(terms, sol.coef))])
+        # its deviation from the average over levels (notes.effect_scale)
+        self.effect_scales_ = np.array([
+            effect_scale(t) if i in eff or (t.cells and not t.is_square and not (
+                self.mixture is not None and self.mixture.is_mixture_term(t))) else np.nan
+            for i, t in enumerate(terms)])
+        self.effects_ = sol.coef * self.effect_scales_
         with np.errstate(divide="ignore", invalid="ignore"):
             self.sum_squares_ = sol.coef ** 2 / sol.cdiag  # adjusted SS, 1 df each
 
@@ -327,6 +329,11 @@ class ResponseModel:
         self.derived_coefficients_ = derived_coefficients(
             terms, sol.coef, sol.Rinv, self.sigma_, self.sigma_df_,
             list(self.factor_names), self._levels)
+        scale_of = {t.group: s for t, s in zip(terms, self.effect_scales_) if t.cells}
+        for d in self.derived_coefficients_:  # the last level's effect, as its columns'
+            s = scale_of.get(d["group"], np.nan)
+            d["effect"] = d["estimate"] * s if s == s else None
+            d["effect_std_error"] = d["std_error"] * s if s == s else None
         self.blocks_ = self._block_results(terms, sol, levels, block, confounded or {})
         lof = self.anova_.get("lack_of_fit")
         if lof is not None and lof["p"] == lof["p"] and lof["p"] < 0.05:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 
-__all__ = ["NEAR_ALIAS_VIF", "near_alias_notes", "effect_index"]
+__all__ = ["NEAR_ALIAS_VIF", "near_alias_notes", "effect_index", "effect_scale"]
 
 
 # Variance inflation above this marks a term as nearly aliased (a VIF above 10
@@ -51,3 +51,17 @@ def effect_index(terms) -> list[int]:
     average over levels, not a low-to-high change)."""
     return [i for i, t in enumerate(terms)
             if not (t.is_intercept or t.is_square or t.is_block or t.cells)]
+
+
+def effect_scale(term) -> float:
+    """The effect column of a term, in coefficients.
+
+    2 for a term of numeric or two-level factors: the change from the low to
+    the high setting (twice the coefficient in -1/+1 coding; common practice),
+    and for a term crossing those with a level (``sugar:flour[oat]``: how much
+    sugar's low-to-high effect with oat differs from its average over the
+    flours). 1 for a column made of levels only (``flour[oat]``,
+    ``flour[oat]:film[pe]``): the level's deviation from the average over the
+    levels, its coefficient.
+    """
+    return 1.0 if term.cells and len(term.cells) == len(term.factors) else 2.0

@@ -57,7 +57,8 @@ def _effects_chart(response, rep: dict, alpha: float) -> str:
     height = max(60, 18 * len(frame))
     chart = alt.Chart(frame, title=f"Effects on {response.label}").mark_bar().encode(
         y=alt.Y("term:N", sort=alt.SortField("order"), title=None),
-        x=alt.X("size:Q", title="effect (low to high setting)"
+        x=alt.X("size:Q", title="effect (low to high setting; a level: its deviation "
+                "from the average)"
                 + (f", {response.unit}" if response.unit else "")),
         color=alt.Color("judged:N", title=None,
                         scale=alt.Scale(domain=["clear", "within noise", "not judged"],

@@ -124,7 +124,8 @@ class _EvidenceSections(_Sections):
         note = (f'<p class="note">{hidden} other term(s) are within the noise; all terms '
                 "are in the workbook's terms sheet.</p>" if hidden else "")
         return ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
-                "the low to the high setting)</p>"
+                "the low to the high setting; for a level alone, such as flour[oat], its "
+                "deviation from the average over the levels)</p>"
                 + _table(["term", "coefficient", "effect", "std error", "p"], rows,
                          numeric={1, 2, 3, 4}) + note)
 

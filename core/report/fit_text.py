@@ -30,6 +30,12 @@ def _response_text(r: dict) -> list[str]:
     out.append(f"  R2 {_f(r['r2'], '.4f')}   adjusted R2 {_f(r['adj_r2'], '.4f')}   "
                f"predicted R2 {_f(r['pred_r2'], '.4f')}   residual SD {_f(r['residual_sd'])}")
     out.append("")
+    levels = [t for t in r["terms"] if not t.startswith("block[")
+              and all("[" in part for part in t.split(":"))]
+    if levels:
+        out.append("  effect: change from the low to the high setting (twice the "
+                   f"coefficient); for a level alone ({levels[0]}),")
+        out.append("  its deviation from the average over the levels (the coefficient)")
     head = f"  {'term':<28}{'coef' if blend else 'coef (coded)':>14}{'effect':>12}"
     saturated = r["p_values"] is None
     if not saturated:
@@ -48,7 +54,7 @@ def _response_text(r: dict) -> list[str]:
             line += f"  {mark}"
         out.append(line)
     for d in r.get("derived_coefficients") or []:
-        line = f"  {d['term']:<28}{_f(d['estimate']):>14}{_f(d['estimate']):>12}"
+        line = f"  {d['term']:<28}{_f(d['estimate']):>14}{_f(d.get('effect')):>12}"
         if not saturated:
             line += (f"{_f(d['std_error']):>12} {_f(d['t'], '.3g'):>8}{_p(d['p']):>10}")
         out.append(line + "  (last level: minus the sum of the others)")

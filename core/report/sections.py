@@ -127,7 +127,9 @@ class _AnswerSections(_Sections):
         for f in self.study.factors:
             value = best["settings"][f.name]
             rows.append([esc(f.label), esc(f.name), esc(self._setting(f.name, value)),
-                         esc(f.unit), _g(best["coded"][f.name], 3)])
+                         esc(f.unit),
+                         # a level is its name: no coded number
+                         "-" if f.is_categorical else _g(best["coded"][f.name], 3)])
         out.append(_table(["factor", "name", "setting", "unit", "coded"], rows,
                           numeric={4}))
         out.append(self._predictions(best))

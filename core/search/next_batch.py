@@ -167,8 +167,10 @@ class NextBatch:
             lines.append(f"\nN{i}: expected improvement of D {s.expected_improvement:.4f}, "
                          f"predicted D {s.desirability:.3f}")
             for name, value in s.settings.items():
-                shown = value if isinstance(value, str) else f"{value:.4g}"
-                lines.append(f"  {name:<18} {shown:>12}   (coded {s.coded[name]:+.3f})")
+                if isinstance(value, str):  # a level is its name: no coded number
+                    lines.append(f"  {name:<18} {value:>12}")
+                    continue
+                lines.append(f"  {name:<18} {value:>12.4g}   (coded {s.coded[name]:+.3f})")
             for name, value in s.predicted.items():
                 lo, hi = s.interval[name]
                 lines.append(f"  {name:<18} predicted {value:.4g} (mean {lo:.4g} .. "

@@ -268,6 +268,9 @@ class OptimizationResult:
                 code = s.coded[name]
                 code = f"{code:+d}" if isinstance(code, int) else f"{code:+.3f}"
                 share = s.proportions.get(name)
+                if isinstance(value, str):  # a level is its name: no coded number
+                    lines.append(f"  {name:<18} {shown:>12}")
+                    continue
                 lines.append(f"  {name:<18} {shown:>12}   " + (
                     f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "

@@ -79,6 +79,34 @@ def test_fit_matches_statsmodels_sum_coding(warp, reference):
     assert derived["tension[H]"]["p"] == pytest.approx(float(test.pvalue))
 
 
+def test_effects_column_agrees_with_its_wording(warp, reference):
+    # statsmodels C(tension, Sum) (levels L, M, H): [S.L] is L's deviation from the
+    # average over tensions. The effect of a level alone is that deviation (the
+    # coefficient); wool's effect is the B - A change (twice its coefficient); a
+    # level crossed with wool is how much wool's B - A change at that tension
+    # differs from its average over tensions (twice the coefficient).
+    fit, _ = reference
+    model = fit_response(warp, "breaks")
+    eff = dict(zip(model.terms_, model.effects_))
+    T, W = "C(tension, Sum)", "C(wool, Sum)[S.A]"
+    assert eff["tension[L]"] == pytest.approx(fit.params[f"{T}[S.L]"], abs=1e-10)
+    assert eff["tension[M]"] == pytest.approx(fit.params[f"{T}[S.M]"], abs=1e-10)
+    assert eff["wool"] == pytest.approx(-2 * fit.params[W], abs=1e-10)
+    assert eff["wool:tension[L]"] == pytest.approx(-2 * fit.params[f"{W}:{T}[S.L]"],
+                                                   abs=1e-10)
+    # the same, written out from the cell means of the balanced layout (pandas)
+    cells = warp.runs.groupby(["wool", "tension"])["breaks"].mean()
+    level = warp.runs.groupby("tension")["breaks"].mean()
+    swing = cells["B"] - cells["A"]  # wool's B - A change at each tension
+    assert eff["tension[L]"] == pytest.approx(level["L"] - level.mean(), abs=1e-10)
+    assert eff["wool"] == pytest.approx(swing.mean(), abs=1e-10)
+    assert eff["wool:tension[L]"] == pytest.approx(swing["L"] - swing.mean(), abs=1e-10)
+    derived = {d["term"]: d for d in model.derived_coefficients_}
+    assert derived["tension[H]"]["effect"] == pytest.approx(level["H"] - level.mean())
+    assert derived["wool:tension[H]"]["effect"] == pytest.approx(swing["H"] - swing.mean(),
+                                                                 abs=1e-10)
+
+
 def test_anova_tests_each_term_as_a_whole(warp, reference):
     _, table = reference
     rows = fit_response(warp, "breaks").anova_["terms"]
@@ -124,6 +152,11 @@ def test_search_tries_every_level(warp):
     wool, tension = cells.idxmin()
     assert result.best.settings == {"wool": wool, "tension": tension}
     assert result.best.predictions["breaks"] == pytest.approx(cells.min())
+    # a level prints as its name, with no coded number (coded +2 meant nothing)
+    lines = result.text().splitlines()
+    assert f"  tension{'':<11} {tension:>12}" in lines
+    assert f"  wool{'':<14} {wool:>12}" in lines
+    assert not any("coded" in line for line in lines if line.startswith("  tension"))
 
 
 def test_a_cell_that_is_not_a_level_names_row_and_nearest(tmp_path):
@@ -148,6 +181,9 @@ def test_fit_text_shows_whole_terms_last_levels_and_means(capsys):
                and line.strip().startswith("tension "))
     assert "8.5" in row  # F = 8.498 on 2 df (the published two-way ANOVA, from memory)
     assert "tension L 36.39" in text  # plain mean of the 18 low-tension looms
+    # the effect column's wording above its header
+    assert "for a level alone (tension[L]),\n  its deviation from the average over the " \
+        "levels" in text
 
 
 def test_check_lists_each_level(capsys):
