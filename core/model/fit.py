@@ -31,15 +31,15 @@ from .anova import anova_table
 from .diagnostics import diagnostic_arrays, run_diagnostics
 from ..errors import ModelError
 from .lenth import half_normal_points, lenth
-from .levels import derived_coefficients, factor_levels, term_tests
+from .levels import derived_coefficients, factor_levels, level_counts, term_tests
 from .reduce import backward_eliminate
-from .dependence import combination_text, find_aliases
+from .dependence import find_aliases
 from .terms import (Term, block_terms, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term)
 from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
 from .describe import response_report
 from .equation import fitted_equations
-from .notes import effect_index, effect_scale, near_alias_notes
+from .notes import alias_notes, effect_index, effect_scale, near_alias_notes
 from .solve import LeastSquares
 
 __all__ = ["ResponseModel", "DEFAULT_ALPHA", "coded_points", "runs_to_fit",
@@ -139,6 +139,7 @@ class ResponseModel:
             Xs = np.sort(np.round(X, 9), axis=0)
             n_settings = (1 + np.count_nonzero(np.diff(Xs, axis=0), axis=0)).tolist()
         self._levels = factor_levels(self.factors)
+        self.level_runs_ = level_counts(self.factors, X)
         terms, notes = model_terms(self.terms, names, n_settings=n_settings, response=name,
                                    levels=self._levels)
         if self.mixture is not None:  # Scheffe: the blending terms stand for the intercept
@@ -162,27 +163,8 @@ class ResponseModel:
         clean = all(len(v) == 1 for v in aliases.values())
         if len(terms) > n and not clean:
             raise ModelError(self._too_many(len(terms), n, len(names), len(bterms)))
-        block_labels = {t.label for t in bterms}
-        confounded = {}
-        for dropped, partners in aliases.items():
-            if any(q in block_labels for q in partners):
-                confounded[dropped] = list(partners)
-                warnings.append(f"term '{dropped}' is confounded with the blocks "
-                                f"({dropped} = {combination_text(partners)} in these "
-                                "runs): a shift between blocks cannot be told apart from "
-                                "it, so it is left out of the model")
-            elif not partners:
-                warnings.append(f"term '{dropped}' is 0 in every run and cannot be "
-                                "estimated: left out")
-            elif list(partners) == ["intercept"]:
-                warnings.append(f"term '{dropped}' does not vary in these runs (it is "
-                                "aliased with the intercept): left out")
-            else:
-                first = next(iter(partners))
-                warnings.append(f"term '{dropped}' cannot be told apart from "
-                                f"{combination_text(partners)} in these runs (aliased): "
-                                f"only {first if len(partners) == 1 else 'those'} "
-                                "estimated, standing for both")
+        notes, confounded = alias_notes(aliases, {t.label for t in bterms})
+        warnings += notes
         if not keep_mask.all():  # (no copy of M when every term is kept)
             terms = [t for t, k in zip(terms, keep_mask) if k]
             M = M[:, keep_mask]

@@ -20,7 +20,10 @@ import numpy as np
 from scipy import special
 
 __all__ = ["AVERAGE_LEVEL", "factor_levels", "term_tests", "derived_coefficients",
-           "level_means"]
+           "level_means", "level_counts", "unjudged_factors", "NO_RUNS"]
+
+# Why a level's mean cannot be estimated when no run was made at it.
+NO_RUNS = "no runs at this level"
 
 # Coded value of a factor of three or more levels that matches none of them:
 # every one of its columns is 0 there, which is the average over its levels.
@@ -84,6 +87,8 @@ def derived_coefficients(terms, coef: np.ndarray, Rinv: np.ndarray, sigma: float
         factors = [j for j, _, _ in first.cells]
         sizes = [n for _, _, n in first.cells]
         position = {tuple(l for _, l, _ in terms[i].cells): i for i in idx}
+        if len(position) < int(np.prod([n - 1 for n in sizes])):
+            continue  # a column was dropped (aliased): the last level is not estimable
         for combo in itertools.product(*[range(n) for n in sizes]):
             if all(l < n - 1 for l, n in zip(combo, sizes)):
                 continue  # a column of the model itself
@@ -110,13 +115,19 @@ def level_means(model) -> list[dict]:
     categorical factor, the other factors at their centre (numeric factors at
     their mid-point, categorical ones averaged over their levels).
 
-    Rows: factor, level, predicted, ci_low, ci_high (natural units of the response).
+    Rows: factor, level, predicted, ci_low, ci_high (natural units of the
+    response), not_estimable: None, or why the runs cannot give this level's
+    mean (the factor cannot be told apart from the blocks or the other terms,
+    ``unjudged_factors``, or no run was made at the level); the numbers are
+    then None: the model's figure there would be an artefact of the coding.
     """
     from ..study.coding import level_codes
 
     factors = model.factors
     if factors is None:
         return []
+    unjudged = unjudged_factors(model)
+    counts = getattr(model, "level_runs_", {}) or {}
     base = np.array([AVERAGE_LEVEL if f.is_categorical and len(f.levels) >= 3 else 0.0
                      for f in factors])
     rows = []
@@ -127,6 +138,51 @@ def level_means(model) -> list[dict]:
         X[:, j] = level_codes(f)
         table = model.intervals(X)
         for level, r in zip(f.levels, table.itertuples()):
-            rows.append({"factor": f.name, "level": level, "predicted": r.predicted,
-                         "ci_low": r.ci_low, "ci_high": r.ci_high})
+            why = unjudged.get(f.name) or (
+                NO_RUNS if counts.get(f.name, {}).get(level, 1) == 0 else None)
+            rows.append({"factor": f.name, "level": level,
+                         "predicted": None if why else r.predicted,
+                         "ci_low": None if why else r.ci_low,
+                         "ci_high": None if why else r.ci_high, "not_estimable": why})
     return rows
+
+
+def level_counts(factors, X: np.ndarray) -> dict:
+    """Runs at each level of every categorical factor: {factor: {level: count}}."""
+    from ..study.coding import level_codes
+
+    out = {}
+    for j, f in enumerate(factors or ()):
+        if getattr(f, "is_categorical", False):
+            out[f.name] = {level: int(np.sum(np.isclose(X[:, j], code)))
+                           for level, code in zip(f.levels, level_codes(f))}
+    return out
+
+
+def unjudged_factors(model) -> dict[str, str]:
+    """Categorical factors whose levels this model's runs cannot tell apart.
+
+    A factor is unjudged when every column of its main effect was dropped as
+    aliased (``model.aliases_``): confounded with the blocks, not varying in
+    the runs (aliased with the intercept: runs at one level only), or the same
+    as other terms. A factor left out by the model's terms or by reduction is
+    not unjudged: the model then says its levels do not matter. Returns
+    {factor: why}, the reason in a lab user's words.
+    """
+    aliases = getattr(model, "aliases_", None) or {}
+    out = {}
+    for f in model.factors or ():
+        if not getattr(f, "is_categorical", False):
+            continue
+        main = [f.name] if len(f.levels) == 2 else [f"{f.name}[{v}]" for v in f.levels[:-1]]
+        if not all(c in aliases for c in main):
+            continue
+        partners = {p for c in main for p in aliases[c]}
+        if any(p.startswith("block[") for p in partners):
+            out[f.name] = "confounded with the blocks"
+        elif partners <= {"intercept"}:
+            out[f.name] = "the runs hold only one of its levels"
+        else:
+            out[f.name] = "cannot be told apart from " + ", ".join(
+                sorted(p for p in partners if p != "intercept"))
+    return out

@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 
 
-__all__ = ["NEAR_ALIAS_VIF", "near_alias_notes", "effect_index", "effect_scale"]
+__all__ = ["NEAR_ALIAS_VIF", "near_alias_notes", "alias_notes", "effect_index",
+           "effect_scale"]
 
 
 # Variance inflation above this marks a term as nearly aliased (a VIF above 10
@@ -65,3 +66,35 @@ def effect_scale(term) -> float:
     levels, its coefficient.
     """
     return 1.0 if term.cells and len(term.cells) == len(term.factors) else 2.0
+
+
+def alias_notes(aliases: dict, block_labels: set) -> tuple[list[str], dict]:
+    """One warning per column dropped as aliased, and the ones confounded with blocks.
+
+    ``aliases``: dropped label -> {kept label: coefficient}
+    (``tradeoff.model.dependence.find_aliases``). Returns (warnings,
+    {dropped label: [partner labels]} for those confounded with the blocks).
+    """
+    from .dependence import combination_text
+
+    warnings, confounded = [], {}
+    for dropped, partners in aliases.items():
+        if any(q in block_labels for q in partners):
+            confounded[dropped] = list(partners)
+            warnings.append(f"term '{dropped}' is confounded with the blocks "
+                            f"({dropped} = {combination_text(partners)} in these "
+                            "runs): a shift between blocks cannot be told apart from "
+                            "it, so it is left out of the model")
+        elif not partners:
+            warnings.append(f"term '{dropped}' is 0 in every run and cannot be "
+                            "estimated: left out")
+        elif list(partners) == ["intercept"]:
+            warnings.append(f"term '{dropped}' does not vary in these runs (it is "
+                            "aliased with the intercept): left out")
+        else:
+            first = next(iter(partners))
+            warnings.append(f"term '{dropped}' cannot be told apart from "
+                            f"{combination_text(partners)} in these runs (aliased): "
+                            f"only {first if len(partners) == 1 else 'those'} "
+                            "estimated, standing for both")
+    return warnings, confounded

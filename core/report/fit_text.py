@@ -80,8 +80,11 @@ def _response_text(r: dict) -> list[str]:
         out.append(f"  {key:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
                    f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}   (whole term)")
     means = [m for m in r.get("level_means") or []]
-    if any(sum(1 for m in means if m["factor"] == f) > 2 for f in {m["factor"] for m in means}):
+    if any(sum(1 for m in means if m["factor"] == f) > 2 for f in {m["factor"] for m in means}) \
+            or any(m.get("not_estimable") for m in means):
         out.append("  level means (other factors in the middle): " + "; ".join(
+            f"{m['factor']} {m['level']} not estimable ({m['not_estimable']})"
+            if m.get("not_estimable") else
             f"{m['factor']} {m['level']} {_f(m['predicted'])} "
             f"({_f(m['ci_low'])} to {_f(m['ci_high'])})" for m in means))
     c = a.get("curvature")

@@ -14,6 +14,7 @@ from ..model.columns import column_key
 from ..model.terms import model_matrix
 from ..model.transforms import inverse
 from .desirability import limits
+from .informed import level_choices
 from ..errors import SearchError
 
 __all__ = ["goal_columns", "overall_desirability", "_Problem", "_models_of",
@@ -84,6 +85,9 @@ class _Problem:
             A, b = self.region.rules(self.k)
             self.A, self.b = np.vstack([self.A, A]), np.concatenate([self.b, b])
         self.evaluations = 0
+        # the levels searched per categorical factor, and what the runs cannot judge
+        self.cat_codes, self.not_informed = level_choices(
+            study, self.models, [n for kind, n in self.columns if kind == "response"])
         self._goal_arrays()
         # Box bounds over every column (categorical ones unbounded), for clipping.
         self.lo_k = np.full(self.k, -np.inf)

@@ -179,6 +179,11 @@ class OptimizationResult:
         Number of points at which the models were evaluated.
     correlation : pandas.DataFrame
         Correlation between responses used for the chances.
+    not_informed : tuple of dict
+        Categorical factors the search did not choose freely because the runs
+        cannot judge their levels: ``factor``, ``why``, ``held_at`` (the level
+        held, or None) and ``left_out`` (levels not searched); see
+        ``tradeoff.search.informed``.
     """
 
     study: str
@@ -193,6 +198,7 @@ class OptimizationResult:
     correlation: pd.DataFrame = field(default=None, compare=False, repr=False)
     aim: str = "balance"
     production_sd: dict = field(default_factory=dict)
+    not_informed: tuple = ()
 
     @property
     def best(self) -> Solution:
@@ -212,6 +218,7 @@ class OptimizationResult:
             "study": self.study, "rank_by": self.rank_by, "aim": self.aim,
             "seed": self.seed, "production_sd": dict(self.production_sd),
             "feasible": self.feasible, "unreachable": list(self.unreachable),
+            "not_informed": [dict(n) for n in self.not_informed],
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
             "cautions": list(FOOD_CAUTIONS),
             "evaluations": self.evaluations,
@@ -292,12 +299,25 @@ class OptimizationResult:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
                 lines.append(f"  note: {w}")
+        for n in self.not_informed:
+            lines.append("not informed: " + _not_informed_text(n))
         for w in self.warnings:
             lines.append(f"note: {w}")
         for a in self.assumptions:
             lines.append(f"chances: {a}")
         lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines).lstrip("\n")
+
+
+def _not_informed_text(n: dict) -> str:
+    """One factor the runs cannot judge, in a sentence."""
+    if n["held_at"] is None:
+        left = ", ".join(f"'{v}'" for v in n["left_out"])
+        return (f"{n['factor']}: {n['why']}, so the data say nothing about {left}: left "
+                "out of the search")
+    return (f"{n['factor']}: the runs cannot tell its levels apart ({n['why']}), so the "
+            f"choice among them is not informed by the data: held at '{n['held_at']}' "
+            f"(name another with hold = \"level\" under the factor)")
 
 
 def _g_or_dash(x, signed: bool = False) -> str:
@@ -425,7 +445,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         study=study.name, solutions=tuple(solutions), rank_by=rank_by, seed=seed,
         feasible=feasible, unreachable=unreachable, warnings=tuple(general) + tuple(extra_notes),
         assumptions=assumptions, evaluations=problem.evaluations,
-        correlation=chances.correlation, aim=aim, production_sd=spread_sd)
+        correlation=chances.correlation, aim=aim, production_sd=spread_sd,
+        not_informed=tuple(problem.not_informed))
 
 
 def _interval_array(model, X, level) -> np.ndarray:

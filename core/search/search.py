@@ -39,7 +39,6 @@ import threading
 
 import numpy as np
 
-from ..study.coding import level_codes
 from ..study.constraints import study_rules
 from ..errors import SearchError
 from .candidates import _candidate_batch, _distances, _starts
@@ -184,13 +183,13 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
     rng = np.random.default_rng(seed)
     p, c = len(problem.num), len(problem.cat)
     # every combination of levels (coded as in tradeoff.study.coding)
-    count = math.prod(len(study.factors[j].levels) for j in problem.cat)
+    # (a factor the runs cannot judge is held at one level: search/informed.py)
+    count = math.prod(len(codes) for codes in problem.cat_codes)
     if count > 256:
         raise SearchError(f"{c} categorical factors make {count} level combinations: "
                           "at most 256 can be searched: fix some factors at one level "
                           "or use fewer levels")
-    combos = [np.array(v) for v in itertools.product(
-        *[level_codes(study.factors[j]) for j in problem.cat])]
+    combos = [np.array(v) for v in itertools.product(*problem.cat_codes)]
     n_starts = starts if starts is not None else max(12, 2 * top)
 
     # 1. Space-filling batch, every level combination at once.

@@ -197,7 +197,17 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
             raise StudyError(f"{fname}: {what}: production_sd is for numeric factors: a "
                              "categorical factor is made at one level or the other, so it "
                              "has no spread around its setting; remove the key")
-        return Factor(name=name, label=label, unit=unit, levels=levels)
+        hold = None
+        if "hold" in table:
+            hold = table["hold"]
+            if not isinstance(hold, str) or hold not in levels:
+                raise StudyError(f"{fname}: {what}: hold = {hold!r} is not one of the levels "
+                                 f"{list(levels)}{did_you_mean(hold, levels)}: name the level "
+                                 "to hold when the runs cannot tell the levels apart")
+        return Factor(name=name, label=label, unit=unit, levels=levels, hold=hold)
+    if "hold" in table:
+        raise StudyError(f"{fname}: {what}: hold names a level of a categorical factor: a "
+                         "numeric factor is searched over its range; remove the key")
     for key in ("low", "high"):
         if key not in table:
             raise StudyError(f"{fname}: {what}: needs low = <number> and high = <number> "

@@ -45,7 +45,10 @@ SECTION_KEYS: dict[str, set[str]] = {
               # the runs' block column when not named 'block' (core/models.py)
               "blocks"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search",
-                "production_sd"} | _GOAL_KEYS,
+                "production_sd",
+                # the level the search holds when the data cannot judge the factor
+                # (core/search/informed.py)
+                "hold"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
     # terms pinned in or out of a response's model (core/models.py)
     | {"keep_terms", "drop_terms"}
@@ -116,6 +119,8 @@ class Factor:
     goal: Goal = field(default_factory=Goal)
     # SD of the actual setting around the intended one in production (factor's units)
     production_sd: float | None = None
+    # categorical: the level to hold when the runs cannot tell the levels apart
+    hold: str | None = None
 
     @property
     def is_categorical(self) -> bool:

@@ -67,6 +67,8 @@ def _factor_dict(f: Factor) -> dict:
         out["unit"] = f.unit
     if f.is_categorical:
         out["levels"] = list(f.levels)
+        if f.hold is not None:
+            out["hold"] = f.hold
         return out
     out["low"], out["high"] = f.low, f.high
     if f.search is not None:

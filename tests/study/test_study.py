@@ -50,6 +50,11 @@ def test_demo_study_loads_clean():
     (("high = 30", 'high = "thirty"'), r"high must be a number, found 'thirty'"),
     (('data = "runs.csv"', 'data = "runs.csv"\nmodel = "cubic"'), r"model = 'cubic' is not a model I know"),
     (('goal = "minimize"', 'goal = "maximize"\ntarget = 20'), r"target is only used with goal = 'target'"),
+    (('levels = ["rice syrup", "date paste"]',
+      'levels = ["rice syrup", "date paste"]\nhold = "date pasta"'),
+     r"hold = 'date pasta' is not one of the levels \['rice syrup', 'date paste'\] "
+     r"\(did you mean 'date paste'\?\)"),
+    (("high = 30", 'high = 30\nhold = "20"'), r"hold names a level of a categorical factor"),
 ])
 def test_study_file_errors(write_study, edit, message):
     text = BASIC_STUDY.replace(*edit)
@@ -123,6 +128,14 @@ def test_input_files_unchanged(write_study):
     before = path.read_bytes(), (path.parent / "runs.csv").read_bytes()
     load_study(path)
     assert (path.read_bytes(), (path.parent / "runs.csv").read_bytes()) == before
+
+
+def test_hold_is_read_and_written_back(write_study):
+    text = BASIC_STUDY.replace('levels = ["rice syrup", "date paste"]',
+                               'levels = ["rice syrup", "date paste"]\nhold = "date paste"')
+    study = load_study(write_study(text))
+    assert study.factor("binder").hold == "date paste"
+    assert study_to_dict(study)["factors"][1]["hold"] == "date paste"
 
 
 def test_round_trip_through_dict(write_study):
