@@ -200,6 +200,10 @@ class OptimizationResult:
     production_sd: dict = field(default_factory=dict)
     not_informed: tuple = ()
 
+    def not_informed_notes(self) -> tuple[str, ...]:
+        """One sentence per factor in ``not_informed``, for a reader."""
+        return tuple(_not_informed_text(n) for n in self.not_informed)
+
     @property
     def best(self) -> Solution:
         """The first solution."""
@@ -299,8 +303,8 @@ class OptimizationResult:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
                 lines.append(f"  note: {w}")
-        for n in self.not_informed:
-            lines.append("not informed: " + _not_informed_text(n))
+        for n in self.not_informed_notes():
+            lines.append("not informed: " + n)
         for w in self.warnings:
             lines.append(f"note: {w}")
         for a in self.assumptions:

@@ -107,6 +107,8 @@ st.caption(f"'mean' is the {pct} confidence interval of the average of many batc
 st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions")
 for w in (*chosen.warnings, *result.warnings):
     st.warning(text.plain(w))
+for note in result.not_informed_notes():  # a level choice the runs cannot judge
+    st.warning(text.plain(note))
 for name, reason in fitted.skipped.items():
     st.warning(text.plain(f"{name} has no model and takes no part: {reason}"))
 if result.assumptions:
