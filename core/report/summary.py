@@ -6,6 +6,7 @@ import numpy as np
 from ..model.terms import model_label
 from ..study.coding import level_codes
 from ..study.spec import Study
+from .unused import unused_columns
 
 __all__ = ["study_summary", "summary_text"]
 
@@ -67,6 +68,8 @@ def study_summary(study: Study) -> dict:
                 "total": study.mixture.total, "model": study.mixture.model,
                 "process": study.mixture.process, "scale": study.mixture.scale,
                 "tightened": list(study.mixture.notes)},
+            # data columns the study leaves out, what each might be (report/unused.py)
+            "unused_columns": unused_columns(study),
             "warnings": list(study.notes)}
 
 
@@ -148,6 +151,12 @@ def summary_text(summary: dict) -> str:
                 f"{k} = {v}" for k, v in r["derived"].items())))
     if summary["constraints"]:
         lines += ["", "Constraints"] + [f"  {c}" for c in summary["constraints"]]
+    unused = summary.get("unused_columns") or []
+    if unused:
+        lines += ["", "Columns not used (kept in the table, not in any model)"]
+        for u in unused:
+            lines.append(f"  {u['column']:<20} might be {u['might_be']}"
+                         + (f"; to use it: {u['key']}" if u["key"] else ""))
     lines += ["", "Warnings" if summary["warnings"] else "Warnings: none"]
     lines += [f"  - {w}" for w in summary["warnings"]]
     return "\n".join(lines)
