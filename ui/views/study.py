@@ -9,6 +9,7 @@ import streamlit as st
 from tradeoff import ACCELERATED_CAUTIONS, TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
+from tradeoff.report.unused import unused_columns
 from tradeoff_ui import cached, charts, state, text
 from tradeoff_ui.shown import blank_none
 
@@ -109,6 +110,10 @@ if study.description:
     st.caption(text.plain(study.description))
 for note in study.notes:
     st.warning(text.plain(note))
+for col in unused_columns(study):  # a batch or day column often marks blocks
+    st.info(text.plain(f"Column '{col['column']}' is not used: it might be "
+                       f"{col['might_be']}"
+                       + (f"; to use it, add {col['key']}" if col["key"] else "") + "."))
 
 st.subheader("Factors (what you set)")
 _many = any(f.is_categorical and len(f.levels) > 2 for f in study.factors)
