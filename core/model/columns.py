@@ -17,7 +17,8 @@ from typing import Sequence
 
 import numpy as np
 
-__all__ = ["column_key", "column_label", "expand_levels", "level_column", "level_term"]
+__all__ = ["column_key", "column_label", "expand_levels", "level_column", "level_indicator",
+           "level_term"]
 
 
 def column_key(t) -> tuple:
@@ -86,15 +87,19 @@ def level_column(X: np.ndarray, t, skip=()) -> np.ndarray:
     """One sum-to-zero column: +1 at the term's level, -1 at the last level, 0
     elsewhere, for each factor of ``t.cells``; times the other factors' powers
     (those in ``skip`` left out: a caller that multiplies them in itself)."""
-    col = np.ones(X.shape[0])
-    at = {j: (level, n) for j, level, n in t.cells}
+    col = level_indicator(X, t.cells)
+    at = {j for j, _, _ in t.cells}
     for j, p in enumerate(t.powers):
-        if not p or j in skip:
-            continue
-        if j in at:
-            level, n = at[j]
-            code = np.rint(X[:, j])
-            col = col * ((code == level).astype(float) - (code == n - 1))
-        else:
+        if p and j not in skip and j not in at:
             col = col * X[:, j] ** p
+    return col
+
+
+def level_indicator(X: np.ndarray, cells) -> np.ndarray:
+    """The product over ``cells`` ``(factor, level, n_levels)`` of each factor's
+    sum-to-zero indicator at the points X: +1 at the level, -1 at the last, else 0."""
+    col = np.ones(X.shape[0])
+    for j, level, n in cells:
+        code = np.rint(X[:, j])
+        col = col * ((code == level).astype(float) - (code == n - 1))
     return col

@@ -212,12 +212,9 @@ def model_polynomial(model):
 
 def _gate_values(gates, X) -> np.ndarray:
     """(n, T) value of each term's level indicators at the points X."""
-    G = np.ones((len(X), len(gates)))
-    for i, cells in enumerate(gates):
-        for j, level, n in cells:
-            code = np.rint(X[:, j])
-            G[:, i] *= (code == level).astype(float) - (code == n - 1)
-    return G
+    from ..model.columns import level_indicator
+
+    return np.column_stack([level_indicator(X, cells) for cells in gates])
 
 
 def transmitted_spread(study, models: dict, X_coded, *, draws: int = MC_DRAWS,
