@@ -232,7 +232,9 @@ def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 1
 
     categorical = part["value"].isna().all()
     x_field = "level:N" if categorical else "value:Q"
+    # levels in the study's order, not the alphabet's
     x_enc = (alt.X("level:N", title=x_title if show_x_title else None,
+                   sort=list(dict.fromkeys(part["level"])),
                    axis=alt.Axis(labelAngle=0)) if categorical else
              alt.X("value:Q", title=x_title if show_x_title else None,
                    scale=alt.Scale(zero=False, nice=False)))
@@ -297,7 +299,8 @@ def slices_picture(table: pd.DataFrame, factor: str, titles: dict, x_title: str,
     data = part.assign(title=[titles[n] for n in part["response"]])
     categorical = part["value"].isna().all()
     x_field = "level:N" if categorical else "value:Q"
-    x_enc = (alt.X("level:N", title=x_title, axis=alt.Axis(labelAngle=0)) if categorical
+    x_enc = (alt.X("level:N", title=x_title, sort=list(dict.fromkeys(part["level"])),
+                   axis=alt.Axis(labelAngle=0)) if categorical
              else alt.X("value:Q", title=x_title, scale=alt.Scale(zero=False, nice=False)))
     y_scale = alt.Scale(zero=False)
     layers = []
@@ -353,9 +356,11 @@ def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
                        b=[shown(v) for v in model["b_level"]])
     order = list(dict.fromkeys(fit.sort_values("a_coded")["a"]))
     b_order = list(dict.fromkeys(fit.sort_values("b_coded")["b"]))
-    colours = alt.Scale(domain=b_order, range=[LINE_COLOURS[0], LINE_COLOURS[1]])
+    # one line per end (or level) of b, in the responses' colours
+    colours = alt.Scale(domain=b_order, range=[LINE_COLOURS[i % len(LINE_COLOURS)]
+                                               for i in range(len(b_order))])
     x = alt.X("a:N", sort=order, title=a_title, axis=alt.Axis(labelAngle=0))
-    # the two ends of b sit a little apart so their intervals do not overlap
+    # the ends (or levels) of b sit a little apart so their intervals do not overlap
     offset = alt.XOffset("b:N", sort=b_order, scale=alt.Scale(paddingOuter=0.6))
     legend = alt.Legend(title=b_title, orient="bottom", titleLimit=0)
     band = alt.Chart(fit).mark_rule(strokeWidth=2, opacity=0.6).encode(

@@ -17,7 +17,7 @@ import pandas as pd
 
 from ..errors import StudyError
 from ..search.desirability import limits
-from ..study.coding import code_values
+from ..study.coding import code_values, level_codes
 
 __all__ = ["slices", "model_interaction"]
 
@@ -118,8 +118,10 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
             meta.append((f.name, values, levels, current))
             continue
         if f.is_categorical:
-            coded = np.array([-1.0, 1.0])
-            values = np.array([np.nan, np.nan])
+            # one point per level, whatever their number (-1/+1 for two levels,
+            # the level's position for more: tradeoff.study.coding)
+            coded = level_codes(f)
+            values = np.full(len(coded), np.nan)
             levels = np.array(list(f.levels), dtype=object)
             current = levels == settings[f.name]
         else:
@@ -165,22 +167,66 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
     return pd.concat(frames, ignore_index=True)[SLICE_COLUMNS]
 
 
-def model_interaction(study, response: str, a: str, b: str, *, fit=None) -> pd.DataFrame:
-    """The model's prediction at the low/high ends of two factors, others at centre.
+def _ends(factor) -> tuple[np.ndarray, list]:
+    """Where an interaction chart reads a factor: coded values and what they mean.
 
-    The other factors sit at coded 0: the centre of a numeric factor, the
-    average of a categorical factor's two levels (as the coefficients of a
-    coded model are read), so the four points follow the fitted equation.
+    A numeric factor and a two-level categorical one at their low and high
+    ends (-1, +1); a categorical factor of three or more levels at every level
+    (coded by position, as ``tradeoff.study.coding`` does).
+    """
+    if factor.is_categorical:
+        return level_codes(factor), list(factor.levels)
+    return np.array([-1.0, 1.0]), [factor.low, factor.high]
+
+
+def _averaged_intervals(model, X: np.ndarray, groups: int, level: float) -> pd.DataFrame:
+    """The model's mean averaged over consecutive blocks of rows, with its interval.
+
+    ``X`` holds ``groups`` blocks of equal size; each block is one chart point
+    with a categorical factor of three or more levels spread over all its
+    levels. The average is taken on the modelling scale (where a coefficient
+    of sum-to-zero columns is read: the average over levels is the level
+    columns at 0), its standard error from the covariance of the block's
+    fitted means, and only then is it turned back to natural units.
+    """
+    from scipy import stats
+
+    m = len(X) // groups
+    mean, _, sigma, df = model.predictive(X)
+    avg = mean.reshape(groups, m).mean(axis=1)
+    se = np.array([np.sqrt(max(float(model.mean_covariance(X[g * m:(g + 1) * m],
+                                                             X[g * m:(g + 1) * m]).sum()),
+                               0.0)) / m for g in range(groups)])
+    q = float(stats.t.ppf(0.5 + level / 2, df)) if df > 0 and sigma == sigma else np.nan
+    back = model.inverse_transform
+    return pd.DataFrame({"predicted": back(avg), "ci_low": back(avg - q * se),
+                         "ci_high": back(avg + q * se)})
+
+
+def model_interaction(study, response: str, a: str, b: str, *, fit=None) -> pd.DataFrame:
+    """The model's prediction at each end (or level) of two factors, others at centre.
+
+    A numeric or two-level factor is read at its low and high ends (coded
+    -1, +1); a categorical factor of three or more levels at every level, so
+    its chart has a line (or a point on each line) per level. The other
+    factors sit at coded 0: the centre of a numeric factor, the average of a
+    two-level factor's levels; a factor of three or more levels is averaged
+    over its levels (its sum-to-zero columns at 0). That is how the
+    coefficients of a coded model are read, so the chart follows the fitted
+    equation.
 
     Returns
     -------
     pandas.DataFrame
-        Four rows. Columns ``a_level`` and ``b_level`` (natural setting or
-        level name at the low/high end), ``a_coded`` and ``b_coded`` (-1 or
-        +1), ``predicted``, ``ci_low`` and ``ci_high`` (the confidence
-        interval of the mean at the study's confidence; NaN without an error
-        estimate).
+        One row per combination (four for two numeric factors), ``b``
+        varying fastest. Columns ``a_level`` and ``b_level`` (natural setting
+        or level name), ``a_coded`` and ``b_coded`` (-1 or +1, or the level's
+        position for three or more levels), ``predicted``, ``ci_low`` and
+        ``ci_high`` (the confidence interval of the mean at the study's
+        confidence; NaN without an error estimate).
     """
+    import itertools
+
     if a == b:
         raise StudyError(f"an interaction chart needs two different factors, found "
                          f"'{a}' twice: choose another factor")
@@ -190,19 +236,24 @@ def model_interaction(study, response: str, a: str, b: str, *, fit=None) -> pd.D
         reason = fit.skipped.get(response, "it is not modelled")
         raise StudyError(f"no model for response '{response}': {reason}")
     ia, ib = study.factor_names.index(a), study.factor_names.index(b)
-    ca = np.array([-1.0, -1.0, 1.0, 1.0])
-    cb = np.array([-1.0, 1.0, -1.0, 1.0])
-    X = np.zeros((4, len(study.factors)))
-    X[:, ia], X[:, ib] = ca, cb
-    table = fit.models[response].intervals(X)
-
-    def end(factor, coded):
-        if factor.is_categorical:
-            return factor.levels[0 if coded < 0 else 1]
-        return factor.low if coded < 0 else factor.high
-
-    return pd.DataFrame({"a_level": [end(fa, c) for c in ca],
-                         "b_level": [end(fb, c) for c in cb],
+    (ca_ends, a_names), (cb_ends, b_names) = _ends(fa), _ends(fb)
+    ca = np.repeat(ca_ends, len(cb_ends))
+    cb = np.tile(cb_ends, len(ca_ends))
+    a_level = list(np.repeat(np.array(a_names, dtype=object), len(cb_ends)))
+    b_level = list(np.tile(np.array(b_names, dtype=object), len(ca_ends)))
+    model = fit.models[response]
+    # the other factors of three or more levels, averaged over every level combination
+    spread = [j for j, f in enumerate(study.factors) if j not in (ia, ib)
+              and f.is_categorical and len(f.levels) > 2]
+    combos = list(itertools.product(*[level_codes(study.factors[j]) for j in spread]))
+    X = np.zeros((len(ca) * len(combos), len(study.factors)))
+    X[:, ia], X[:, ib] = np.repeat(ca, len(combos)), np.repeat(cb, len(combos))
+    if spread:
+        X[:, spread] = np.tile(np.array(combos, dtype=float), (len(ca), 1))
+        table = _averaged_intervals(model, X, len(ca), study.confidence)
+    else:
+        table = model.intervals(X)
+    return pd.DataFrame({"a_level": a_level, "b_level": b_level,
                          "a_coded": ca, "b_coded": cb,
                          "predicted": table["predicted"].to_numpy(),
                          "ci_low": table["ci_low"].to_numpy(),

@@ -57,7 +57,10 @@ def runs_table(study, fit=None, *, unusual: float = 3.0) -> pd.DataFrame:
     for r in study.responses:
         if r.name in runs:
             out[r.name] = runs[r.name].to_numpy(float)
-    beyond = np.abs(coded) > 1 + OUTSIDE_TOL
+    # a level is never outside the tested box (three or more levels are coded by
+    # position 0, 1, 2, ..., not -1..+1)
+    beyond = (np.abs(coded) > 1 + OUTSIDE_TOL) & ~np.array(
+        [f.is_categorical for f in study.factors], dtype=bool)[None, :]
     out["outside"] = beyond.any(axis=1)
     marks: list[list[str]] = [[] for _ in range(len(out))]
     for j, f in enumerate(study.factors):
@@ -118,43 +121,54 @@ def desirability_curves(study, *, n: int = 201, margin: float = 0.25) -> pd.Data
 
 
 def interaction_means(study, response: str, a: str, b: str) -> pd.DataFrame:
-    """Mean of a response at each low/high combination of two factors (measured runs).
+    """Mean of a response at each low/high end (or level) of two factors (measured runs).
 
-    Runs at the centre of either factor (coded 0) are left out; runs outside
-    -1..+1 are counted at the nearer end. Blank results are skipped.
+    A numeric or two-level factor is read at its low and high ends: runs at
+    its centre (coded 0) are left out, runs outside -1..+1 count at the nearer
+    end. A categorical factor of three or more levels is read at every level.
+    Blank results are skipped.
 
     Returns
     -------
     pandas.DataFrame
-        Four rows (fewer when a combination was not run). Columns ``a_level``
-        and ``b_level`` (natural setting or level name at the low/high end),
-        ``a_coded`` and ``b_coded`` (-1 or +1), ``mean`` and ``runs``.
+        One row per combination that was run (four for two numeric factors).
+        Columns ``a_level`` and ``b_level`` (natural setting or level name),
+        ``a_coded`` and ``b_coded`` (-1 or +1, or the level's position for
+        three or more levels), ``mean`` and ``runs``.
     """
     if a == b:
         raise StudyError(f"an interaction plot needs two different factors, found "
                          f"'{a}' twice: choose another factor")
     fa, fb = study.factor(a), study.factor(b)
-    for f in (fa, fb):
-        if f.is_categorical and len(f.levels) > 2:
-            raise StudyError(f"factor '{f.name}' has {len(f.levels)} levels: this plot "
-                             "compares low and high ends; see its level means instead")
     runs = study.runs
     y = runs[study.response(response).name].to_numpy(float)
-    ca = code_values(fa, runs[a].to_numpy())
-    cb = code_values(fb, runs[b].to_numpy())
-    keep = (np.abs(ca) > 1e-9) & (np.abs(cb) > 1e-9) & ~np.isnan(y)
-    sa, sb = np.sign(ca[keep]), np.sign(cb[keep])
-    frame = pd.DataFrame({"a_coded": sa, "b_coded": sb, "y": y[keep]})
+
+    def read(factor):
+        coded = code_values(factor, runs[factor.name].to_numpy())
+        if _many_levels(factor):  # every level, by its position
+            return coded, np.ones(len(coded), dtype=bool)
+        return np.sign(coded), np.abs(coded) > 1e-9
+
+    (sa, ka), (sb, kb) = read(fa), read(fb)
+    keep = ka & kb & ~np.isnan(y)
+    frame = pd.DataFrame({"a_coded": sa[keep], "b_coded": sb[keep], "y": y[keep]})
     cells = frame.groupby(["a_coded", "b_coded"])["y"].agg(["mean", "size"]).reset_index()
     cells = cells.rename(columns={"size": "runs"})
 
     def end(factor, coded):
+        if _many_levels(factor):
+            return factor.levels[int(round(coded))]
         return factor.levels[0 if coded < 0 else 1] if factor.is_categorical else \
             (factor.low if coded < 0 else factor.high)
 
     cells.insert(0, "a_level", [end(fa, c) for c in cells["a_coded"]])
     cells.insert(1, "b_level", [end(fb, c) for c in cells["b_coded"]])
     return cells[["a_level", "b_level", "a_coded", "b_coded", "mean", "runs"]]
+
+
+def _many_levels(factor) -> bool:
+    """A categorical factor of three or more levels (coded by the level's position)."""
+    return factor.is_categorical and len(factor.levels) > 2
 
 
 def effect_table(model) -> pd.DataFrame:
@@ -396,7 +410,7 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
     table["desirability"] = [d_by_name.get(n, np.nan) for n in table["response"]]
     table["chance_in_limits"] = [chance_by_name.get(n, np.nan) for n in table["response"]]
     outside = tuple(f.name for j, f in enumerate(study.factors)
-                    if abs(X[0, j]) > 1 + OUTSIDE_TOL)
+                    if not f.is_categorical and abs(X[0, j]) > 1 + OUTSIDE_TOL)
     return WhatIf(table=table, desirability=D,
                   chance_all=float(chance.all[0]) if chance.responses else np.nan,
                   outside=outside, allowed=bool(rules_satisfied(study, X)[0]))

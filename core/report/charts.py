@@ -50,15 +50,25 @@ def _effects_chart(response, rep: dict, alpha: float) -> str:
         rows.append({"term": term + ("" if effect is not None else " (coef.)"),
                      "size": size, "judged": {True: "clear", False: "within noise"}.get(
                          clear, "not judged")})
+    # the last level of a factor of three or more levels: minus the sum of the others
+    for d in rep.get("derived_coefficients") or []:
+        if d.get("estimate") is None:
+            continue
+        judged = ("not judged" if d.get("p") is None else
+                  "clear" if d["p"] < alpha else "within noise")
+        rows.append({"term": d["term"], "size": d["estimate"], "judged": judged})
     if not rows:
         return ""
     frame = pd.DataFrame(rows)
     frame["order"] = -frame["size"].abs()
     height = max(60, 18 * len(frame))
+    levels = any("[" in t and not t.startswith("block[") for t in frame["term"])
     chart = alt.Chart(frame, title=f"Effects on {response.label}").mark_bar().encode(
-        y=alt.Y("term:N", sort=alt.SortField("order"), title=None),
-        x=alt.X("size:Q", title="effect (low to high setting; a level: its deviation "
-                "from the average)"
+        y=alt.Y("term:N", sort=alt.SortField("order"), title=None,
+                axis=alt.Axis(labelLimit=260)),
+        x=alt.X("size:Q", title=("effect (low to high; a level: its deviation from the "
+                                 "average over levels)" if levels else
+                                 "effect (low to high setting)")
                 + (f", {response.unit}" if response.unit else "")),
         color=alt.Color("judged:N", title=None,
                         scale=alt.Scale(domain=["clear", "within noise", "not judged"],

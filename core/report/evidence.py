@@ -112,6 +112,7 @@ class _EvidenceSections(_Sections):
     def _terms_table(self, rep: dict, alpha: float) -> str:
         rows = []
         blocks = set((rep.get("blocks") or {}).get("terms", ()))
+        shown = 0
         for term in rep["terms"]:
             clear = _is_clear(rep, term, alpha)
             if term in blocks or (term != "intercept" and not clear):
@@ -120,12 +121,23 @@ class _EvidenceSections(_Sections):
                          _g(_get(rep["effects"], term)),
                          _g(_get(rep["std_errors"], term)),
                          _p(_get(rep["p_values"], term))])
-        hidden = len(rep["terms"]) - len(rows)
+            shown += 1
+        # the last level of a factor of three or more levels has no column of its
+        # own: its deviation is minus the sum of the others (model/levels.py)
+        derived = rep.get("derived_coefficients") or []
+        for d in derived:
+            if d.get("p") is not None and d["p"] < alpha:
+                rows.append([esc(d["term"]) + " (last level)", _g(d["estimate"]),
+                             _g(d["estimate"]),
+                             _g(d.get("std_error")), _p(d["p"])])
+        hidden = len(rep["terms"]) - shown
         note = (f'<p class="note">{hidden} other term(s) are within the noise; all terms '
                 "are in the workbook's terms sheet.</p>" if hidden else "")
+        levels = ("; the last level, which has no column of its own, is minus the sum "
+                  "of the others" if derived else "")
         return ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
                 "the low to the high setting; for a level alone, such as flour[oat], its "
-                "deviation from the average over the levels)</p>"
+                f"deviation from the average over the levels{levels})</p>"
                 + _table(["term", "coefficient", "effect", "std error", "p"], rows,
                          numeric={1, 2, 3, 4}) + note)
 
@@ -182,19 +194,31 @@ class _EvidenceSections(_Sections):
         rows = []
         for f in s["factors"]:
             if f["kind"] == "categorical":
-                (a, b) = list(f["coded"])
                 counts = f["levels"]
-                rows.append([esc(f["label"]), esc(f["name"]), "categorical", "",
-                             f"{esc(a)} (-1)", f"{esc(b)} (+1)",
-                             f"{counts[a]} / {counts[b]} runs", "levels"])
+                names = list(counts)
+                if len(names) == 2:
+                    a, b = names
+                    rows.append([esc(f["label"]), esc(f["name"]), "categorical", "",
+                                 f"{esc(a)} (-1)", f"{esc(b)} (+1)",
+                                 f"{counts[a]} / {counts[b]} runs", "both levels"])
+                else:
+                    rows.append([esc(f["label"]), esc(f["name"]),
+                                 f"categorical, {len(names)} levels", "", "-", "-",
+                                 esc(", ".join(f"{lv}: {n}" for lv, n in counts.items()))
+                                 + " runs", "every level"])
             else:
-                rows.append([esc(f["label"]), esc(f["name"]), "numeric", esc(f["unit"]),
+                rows.append([esc(f["label"]), esc(f["name"]), esc(f["kind"]), esc(f["unit"]),
                              f"{_g(f['low'])} (-1)", f"{_g(f['high'])} (+1)",
                              f"{_g(f['tested'][0])} .. {_g(f['tested'][1])} (coded "
                              f"{f['coded_tested'][0]:+.3g} .. {f['coded_tested'][1]:+.3g})",
                              f"{_g(f['search'][0])} .. {_g(f['search'][1])}"])
+        many = any(f["kind"] == "categorical" and len(f["levels"]) > 2 for f in s["factors"])
         out = ["<p>Coded units put every factor on the same scale: -1 at its low "
-               "setting, +1 at its high, 0 at the centre.</p>",
+               "setting, +1 at its high, 0 at the centre."
+               + (" A categorical factor of three or more levels enters the models as "
+                  "sum-to-zero columns, one per level but the last: each level's "
+                  "coefficient is its deviation from the average over levels." if many
+                  else "") + "</p>",
                _table(["factor", "name", "kind", "unit", "low", "high", "tested",
                        "searched"], rows, raw=True)]
         if self.study.constraints:

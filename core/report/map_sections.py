@@ -107,9 +107,13 @@ class _MapSections(_Sections):
         from ..maps.slices import model_interaction
 
         pairs = []
+        # a blend component has no low and high ends of its own (the blend adds up)
+        process = {f.name for f in self.study.factors if not getattr(f, "is_component", False)}
         for term in rep["terms"]:
-            parts = term.split(":")
-            if len(parts) != 2 or not _is_clear(rep, term, alpha):
+            # a level column names its factor before the bracket: wool:tension[L]
+            parts = [part.split("[")[0] for part in term.split(":")]
+            if (len(parts) != 2 or not set(parts) <= process
+                    or not _is_clear(rep, term, alpha)):
                 continue
             effect = _get(rep["effects"], term)
             if effect is not None:
@@ -118,12 +122,25 @@ class _MapSections(_Sections):
             return ""
         a, b = max(pairs)[1]
         fa, fb = self.study.factor(a), self.study.factor(b)
+        # the factor with more levels along the axis, one line per level of the other
+        if _count(fb) > _count(fa):
+            a, b = b, a
+        fa, fb = self.study.factor(a), self.study.factor(b)
         r = self.study.response(name)
         model = model_interaction(self.study, name, a, b, fit=self._study_fit())
         cells = interaction_means(self.study, name, a, b)
         y_title = f"{r.label} ({r.unit})" if r.unit else r.label
         chart = interaction_picture(cells, model, fa.display(), fb.display(), y_title,
                                     height=200, width=260)
+        levels = ("; a factor of three or more levels averaged over its levels"
+                  if any(_count(f) > 2 for f in self.study.factors if f.name not in (a, b))
+                  else "")
         return (f"<p><b>Largest clear interaction: {esc(a)} with {esc(b)}</b> (lines: the "
-                f"model, others at their centre, with {self.pct} intervals of the mean; "
+                f"model, one per {'level' if fb.is_categorical else 'end'} of {esc(b)}, "
+                f"others at their centre{levels}, with {self.pct} intervals of the mean; "
                 "open circles: measured means)</p>" + _chart_div(_svg(chart)))
+
+
+def _count(factor) -> int:
+    """How many points an interaction chart reads a factor at: its levels, or its two ends."""
+    return len(factor.levels) if factor.is_categorical else 2

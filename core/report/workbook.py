@@ -66,8 +66,13 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
     for f in data["study"]["factors"]:
         row = {"factor": f["name"], "label": f["label"], "kind": f["kind"]}
         if f["kind"] == "categorical":
-            (a, b) = list(f["coded"])
-            row.update({"low (coded -1)": a, "high (coded +1)": b})
+            names = list(f["levels"])
+            if len(names) == 2:
+                row.update({"low (coded -1)": names[0], "high (coded +1)": names[1]})
+            # every level named, with its runs (three or more: sum-to-zero columns)
+            row.update({"levels": ", ".join(names),
+                        "runs per level": ", ".join(f"{lv}: {n}"
+                                                    for lv, n in f["levels"].items())})
         else:
             row.update({"unit": f["unit"], "low (coded -1)": f["low"],
                         "high (coded +1)": f["high"], "tested min": f["tested"][0],
