@@ -145,7 +145,7 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections):
     def warnings(self) -> str:
         items = self.data["warnings"]
         if not items:
-            return "<p>None.</p>"
+            return "<p>No warnings.</p>"
         return '<ul class="warn">' + "".join(f"<li>{esc(w)}</li>" for w in items) + "</ul>"
 
     def cautions(self) -> str:

@@ -178,7 +178,7 @@ class _AnswerSections(_Sections):
 
     def alternatives(self) -> str:
         if self.res is None:
-            return "<p>None.</p>"
+            return "<p>No alternatives: there is no recommendation.</p>"
         sols = self.res["solutions"]
         if len(sols) < 2:
             return ("<p>The search found no other distinct good setting: the best one "

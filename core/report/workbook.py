@@ -60,7 +60,10 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         {"value": str})}
 
     runs = data["runs"].reset_index()
-    tables["runs"] = runs
+    # a factor of three or more levels is coded by position, a number that means
+    # nothing to a reader: its level names stand alone
+    tables["runs"] = runs.drop(columns=[f"{f.name} coded" for f in study.factors
+                                        if f.is_categorical and len(f.levels) > 2])
 
     factors = []
     for f in data["study"]["factors"]:
