@@ -216,26 +216,12 @@ def slice_chart(part: pd.DataFrame, title: str, x_title: str):
 
 
 def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart:
-    """ln k against 1000 / T, one small panel per run (``arrhenius_table``'s columns).
+    """ln k against 1000 / T, one small panel per run, with the bounds of each rate
+    (``tradeoff.maps.pictures.arrhenius_picture``)."""
+    from tradeoff.maps.pictures import arrhenius_picture
 
-    Dots: each temperature's own straight-line rate; line: the one-step fit;
-    diamond: the temperature asked for.
-    """
-    data = points.dropna(subset=["ln_rate"])
-    x = alt.X("inv_temperature:Q", title="1000 / T (T in kelvin)",
-              scale=alt.Scale(zero=False))
-    y = alt.Y("ln_rate:Q", title="ln k", scale=alt.Scale(zero=False))
-    tips = ["run", "series", alt.Tooltip("temperature:Q", title="degC", format=".3g"),
-            alt.Tooltip("rate:Q", title="k", format=".4g")]
-    base = alt.Chart().encode(x=x, y=y, tooltip=tips)
-    line = base.transform_filter(alt.datum.series == "one-step fit").mark_line(color=MID)
-    dots = base.transform_filter(alt.datum.series == "own line").mark_circle(
-        size=60, color=DARK)
-    asked = base.transform_filter(alt.datum.series == "asked").mark_point(
-        shape="diamond", size=120, filled=True, color="#b5651d")
     # four small panels fit a 1280-pixel-wide window beside the sidebar
-    return alt.layer(line, dots, asked, data=data).properties(
-        width=150, height=120).facet(facet=alt.Facet("run:N", title=None), columns=columns)
+    return arrhenius_picture(points, columns=columns, width=150, height=120)
 
 
 def length_scale_chart(table: pd.DataFrame) -> alt.Chart:

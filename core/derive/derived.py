@@ -156,7 +156,7 @@ def _derive_storage(study, r, opts, sec, fname, sub):
             _check_positive(sub, fname, r)
         table, notes = derive_kinetic(study, r, opts, sec, fname, sub)
         pieces, piece_notes = _storage_pieces(r, kind, sub, tname)
-        table["pieces"] = table["run"].map(pieces).fillna("")
+        table["pieces"] = table["run"].map(pieces).astype(object).fillna("")
         return table, notes + piece_notes
     sub = rows_at_temperature(study, sub, opts, fname, r, sec["temperature"] is not None)
     values, flags, reasons, points, se, r2 = {}, {}, {}, {}, {}, {}
@@ -224,7 +224,8 @@ def _derive_storage(study, r, opts, sec, fname, sub):
 
 def _storage_pieces(r, kind: str, sub: pd.DataFrame, tname: str) -> tuple[dict, list[str]]:
     """Per run, the pieces at each time and their SD (text), and what was done with them."""
-    spread = piece_spread(sub["run"], sub["time"], sub["value"])
+    spread = piece_spread(sub["run"], sub["time"], sub["value"],
+                          sub["temperature"] if "temperature" in sub else None)
     if not (spread["pieces"] > 1).any():
         return {}, []
     text = {}
@@ -423,7 +424,8 @@ def arrhenius_table(study: Study, name: str, *,
         raise StudyError(f"response '{name}' is not fitted across storage temperatures "
                          f"(derive = one of {', '.join(TEMPERATURE_KINDS)})")
     sec, fname, frame = _tables(study, storage, None, {"storage"})["storage"]
-    return arrhenius_points(_subset(frame, "property", o["property"], fname, r), o)
+    return arrhenius_points(_subset(frame, "property", o["property"], fname, r), o,
+                            confidence=study.confidence)
 
 
 def kinetic_tables(study: Study) -> dict:

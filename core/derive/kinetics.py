@@ -367,10 +367,11 @@ def per_temperature_rates(run, time, temperature, value, *, order: str = "zero"
             t, y = pts["time"].to_numpy(), pts["value"].to_numpy()
             n_times = len(np.unique(t))
             rate = se = math.nan
+            df = 0
             if len(t) >= 2 and np.ptp(t) > 0:
                 _, rate, c2, _, df = _line(t, y)
                 se = math.sqrt(c2[1, 1]) if df > 0 else math.nan
             rows.append({"run": r, "temperature": float(T), "rate": rate,
-                         "rate_se": se, "n_times": n_times})
-    return pd.DataFrame(rows, columns=["run", "temperature", "rate", "rate_se",
+                         "rate_se": se, "rate_df": int(max(df, 0)), "n_times": n_times})
+    return pd.DataFrame(rows, columns=["run", "temperature", "rate", "rate_se", "rate_df",
                                        "n_times"])

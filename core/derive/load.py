@@ -8,9 +8,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..errors import StudyError
+from ..errors import DataError, StudyError, where
 from ..study.confirmations import confirmation_runs
-from ..study.intake import read_table
+from ..study.intake import RawTable, cell_text, read_table
 from ..study.reader import build_study, parse_study_text, read_study_bytes
 from ..study.runs import attach_runs, read_study_table
 from ..study.spec import Study
@@ -18,6 +18,41 @@ from .derived import add_derived_responses
 from .options import check_derived
 
 __all__ = ["load_study", "study_from_dict"]
+
+
+def _products(study: Study) -> RawTable:
+    """The runs of a study without factors and without a runs table: every run id
+    of its storage (then panel) table, in the order they first appear."""
+    from .options import _section
+
+    for name in ("storage", "panel"):
+        sec = _section(study, name)
+        if sec is None:
+            continue
+        raw = read_study_table(study, sec["data"], sheet=sec["sheet"])
+        fname = raw.source.name
+        if "run" not in raw.header:
+            raise DataError(f"{fname}: no column 'run' (found "
+                            f"{[h for h in raw.header if h]}): give every row the id of "
+                            "the product (or batch) it was measured on, for example P1")
+        i = raw.header.index("run")
+        first: dict[str, int] = {}
+        for row, cells in raw.rows:
+            cell = cells[i] if i < len(cells) else None
+            if cell is None or not cell_text(cell):
+                raise DataError(f"{where(fname, row, 'run')}blank run id: give every row "
+                                "the id of the product (or batch) it was measured on")
+            first.setdefault(cell_text(cell), row)
+        if not first:
+            raise DataError(f"{fname}: the table has a header but no rows")
+        return RawTable(source=raw.source, header=["run"],
+                        rows=[(row, [run]) for run, row in first.items()])
+    raise StudyError(f"{_name(study)}: no factors and no [storage] or [panel] table: "
+                     "nothing to derive the study's values from")
+
+
+def _name(study: Study) -> str:
+    return study.source.name if study.source is not None else "study"
 
 
 def load_study(path: str | Path, *, with_data: bool = True) -> Study:
@@ -51,7 +86,10 @@ def study_from_dict(spec: dict, *, source: str | Path | None = None,
     if not with_data:
         return study
     if data_path is None and data_bytes is None:
-        raise StudyError(f"{fname}: [study] has no data file: add data = \"runs.csv\"")
+        if study.factors:
+            raise StudyError(f"{fname}: [study] has no data file: add data = \"runs.csv\"")
+        # no factors: the products are the runs named in the storage or panel table
+        return add_derived_responses(attach_runs(study, _products(study)))
     if data_bytes is not None:
         table = read_table(data_path if data_path is not None else Path("data.csv"),
                            sheet=sheet, data=data_bytes)

@@ -19,7 +19,7 @@ import pandas as pd
 
 from ..cautions import ACCELERATED_CAUTIONS, SHELF_LIFE_CAUTION
 from ..errors import DataError, StudyError
-from .kinetics import (R_GAS, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
+from .kinetics import (KELVIN, R_GAS, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
                        time_to_limit_se)
 from .table import flag_notes, name_list, run_table
 
@@ -366,18 +366,28 @@ def describe_kinetic(opts: dict, sec: dict) -> str:
             "determination")
 
 
-ARRHENIUS_COLUMNS = ["run", "series", "temperature", "inv_temperature", "ln_rate", "rate"]
+ARRHENIUS_COLUMNS = ["run", "series", "temperature", "inv_temperature", "ln_rate", "rate",
+                     "ln_low", "ln_high"]
+# points along the one-step fit's line, so its (curved) confidence band is drawn smooth
+_LINE_POINTS = 13
 
 
-def arrhenius_points(sub: pd.DataFrame, opts: dict) -> pd.DataFrame:
+def arrhenius_points(sub: pd.DataFrame, opts: dict, *, confidence: float = 0.95
+                     ) -> pd.DataFrame:
     """The tidy table behind the Arrhenius chart: ln k against 1000 / T per run.
 
     ``series`` is ``"own line"`` (each tested temperature's own straight-line
-    rate, time 0 shared), ``"one-step fit"`` (the fitted Arrhenius line, its two
-    ends) or ``"asked"`` (the fit at ``at_temperature``). ``inv_temperature`` is
-    1000 / T in 1/kK (T in kelvin), ``ln_rate`` is ln |k| (a falling property
-    has k < 0; rates of the other sign are left out of the log).
+    rate, time 0 shared), ``"one-step fit"`` (the fitted Arrhenius line, from
+    the lowest to the highest temperature tested or asked) or ``"asked"`` (the
+    fit at ``at_temperature``). ``inv_temperature`` is 1000 / T in 1/kK (T in
+    kelvin), ``ln_rate`` is ln |k| (a falling property has k < 0; rates of the
+    other sign are left out of the log). ``ln_low`` and ``ln_high`` bound ln |k|
+    at ``confidence`` (two-sided): ln |k| -+ t(df) se(k) / |k| (the delta
+    method), with the own line's residual degrees of freedom (points less 2)
+    or the one-step fit's (points less 3); NaN without a standard error.
     """
+    from scipy import stats
+
     from .kinetics import per_temperature_rates
 
     order = opts["order"]
@@ -386,23 +396,35 @@ def arrhenius_points(sub: pd.DataFrame, opts: dict) -> pd.DataFrame:
     fit = fit_arrhenius(sub["run"], sub["time"], sub["temperature"], sub["value"],
                         order=order)
     at = opts.get("at_temperature")
+
+    def t(df):
+        return float(stats.t.ppf(0.5 + confidence / 2, df)) if df > 0 else math.nan
+
     rows = [{"run": r["run"], "series": "own line", "temperature": r["temperature"],
-             "rate": r["rate"]} for _, r in own.iterrows()]
+             "rate": r["rate"], "half": t(r["rate_df"]) * r["rate_se"]}
+            for _, r in own.iterrows()]
     for i, run in enumerate(fit.runs):
         temps = own.loc[own["run"] == run, "temperature"].to_numpy(float)
         if not fit.ok[i] or fit.n_temperatures[i] < 2:
             continue
         ends = [temps.min(), temps.max()] + ([at] if at is not None else [])
-        for T in (min(ends), max(ends)):
-            rows.append({"run": run, "series": "one-step fit", "temperature": T,
-                         "rate": float(rate_at(fit, T)[0][i])})
+        q = t(int(fit.df[i]))
+        # evenly spaced in 1 / T, where the fitted line is straight
+        inv = np.linspace(1 / kelvin(min(ends)), 1 / kelvin(max(ends)), _LINE_POINTS)
+        for T in 1 / inv - KELVIN:  # back to degC
+            k, se = rate_at(fit, float(T))
+            rows.append({"run": run, "series": "one-step fit", "temperature": float(T),
+                         "rate": float(k[i]), "half": q * float(se[i])})
         if at is not None:
+            k, se = rate_at(fit, at)
             rows.append({"run": run, "series": "asked", "temperature": at,
-                         "rate": float(rate_at(fit, at)[0][i])})
-    out = pd.DataFrame(rows, columns=["run", "series", "temperature", "rate"])
+                         "rate": float(k[i]), "half": q * float(se[i])})
+    out = pd.DataFrame(rows, columns=["run", "series", "temperature", "rate", "half"])
     sign = np.sign(np.nanmedian(out["rate"])) if len(out) else 1.0
+    size = np.where(sign * out["rate"] > 0, np.abs(out["rate"]), np.nan)
     with np.errstate(invalid="ignore", divide="ignore"):
-        out["ln_rate"] = np.log(np.where(sign * out["rate"] > 0, np.abs(out["rate"]),
-                                         np.nan))
+        out["ln_rate"] = np.log(size)
+        spread = out["half"].to_numpy(float) / size
+    out["ln_low"], out["ln_high"] = out["ln_rate"] - spread, out["ln_rate"] + spread
     out["inv_temperature"] = 1000.0 / kelvin(out["temperature"].to_numpy(float))
     return out[ARRHENIUS_COLUMNS]

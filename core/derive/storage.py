@@ -290,21 +290,30 @@ def time_to_limit(start, rate, limit: float, *, order: str = "zero",
     return np.where(np.isnan(start) | np.isnan(rate), np.nan, out)
 
 
-def piece_spread(run, time, value) -> pd.DataFrame:
+def piece_spread(run, time, value, temperature=None) -> pd.DataFrame:
     """Pieces at each run and time: their number, mean and SD (blanks left out).
+
+    With ``temperature`` (degC per row), pieces share a run, a time and a
+    storage temperature: the same week at two temperatures is two
+    measurements, not two pieces (time 0, before storage, counts once
+    whatever its temperature cell says).
 
     Returns
     -------
     DataFrame
-        One row per run and time (first-seen run order, times ascending):
-        ``run``, ``time``, ``pieces``, ``mean``, ``sd`` (NaN with one piece).
+        One row per run, temperature and time (first-seen run order, times
+        ascending): ``run``, ``time``, ``pieces``, ``mean``, ``sd`` (NaN with
+        one piece).
     """
+    time = np.asarray(time, float)
+    temp = (np.zeros(len(time)) if temperature is None else
+            np.where(time == 0, np.nan, np.asarray(temperature, float)))
     frame = pd.DataFrame({"run": pd.Series(run, dtype=object).to_numpy(),
-                          "time": np.asarray(time, float),
+                          "time": time, "temperature": temp,
                           "value": np.asarray(value, float)}).dropna(subset=["value"])
     order = {r: i for i, r in enumerate(pd.unique(frame["run"]))}
-    out = (frame.groupby(["run", "time"], sort=False)["value"]
+    out = (frame.groupby(["run", "temperature", "time"], sort=False, dropna=False)["value"]
            .agg(pieces="count", mean="mean", sd="std").reset_index())
     out["pieces"] = out["pieces"].astype(int)
     out = out.assign(_o=out["run"].map(order)).sort_values(["_o", "time"], kind="stable")
-    return out.drop(columns="_o").reset_index(drop=True)
+    return out.drop(columns=["_o", "temperature"]).reset_index(drop=True)

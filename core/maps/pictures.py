@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 __all__ = ["LINE_COLOURS", "LINE_DASHES", "titles_expr", "contour_picture", "limits_picture",
-           "slice_panel", "slices_picture", "interaction_picture"]
+           "slice_panel", "slices_picture", "interaction_picture", "arrhenius_picture"]
 
 # One colour and one dash pattern per response, so lines part in grey print too.
 LINE_COLOURS = ["#1b6f8a", "#b5651d", "#6a3d9a", "#2e7d4f", "#a8322d", "#4f5b66",
@@ -385,3 +385,49 @@ def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
                      alt.Tooltip("runs")]))
     chart = alt.layer(*layers).properties(height=height)
     return chart.properties(width=width) if width else chart
+
+
+def arrhenius_picture(points: pd.DataFrame, *, title: str | None = None, columns: int = 5,
+                      width: int = 150, height: int = 110):
+    """ln k against 1000 / T, one small panel per run, with their bounds.
+
+    ``points``: ``derive.derived.arrhenius_table`` (run, series, temperature,
+    inv_temperature, ln_rate, rate, ln_low, ln_high). Dots with bars: each
+    temperature's own straight-line rate and its interval; line and band: the
+    one-step Arrhenius fit and its interval; diamond with a bar: the
+    temperature asked for.
+    """
+    import altair as alt
+
+    data = points.dropna(subset=["ln_rate"])
+    if data.empty:
+        return None
+    x = alt.X("inv_temperature:Q", title="1000 / T (T in kelvin)", scale=alt.Scale(zero=False))
+    y = alt.Y("ln_rate:Q", title="ln k", scale=alt.Scale(zero=False))
+    low, high = alt.Y("ln_low:Q"), alt.Y2("ln_high:Q")
+    tips = [alt.Tooltip("run:N"), alt.Tooltip("series:N"),
+            alt.Tooltip("temperature:Q", title="degC", format=".3g"),
+            alt.Tooltip("rate:Q", title="k", format=".4g"),
+            alt.Tooltip("ln_low:Q", title="ln k from", format=".4g"),
+            alt.Tooltip("ln_high:Q", title="ln k to", format=".4g")]
+
+    def series(name):
+        return alt.Chart().transform_filter(alt.datum.series == name)
+
+    layers = [series("one-step fit").mark_area(opacity=0.2, color=LINE_COLOURS[1]).encode(
+                  x=x, y=low, y2=high),
+              series("one-step fit").mark_line(color=LINE_COLOURS[1], strokeWidth=2).encode(
+                  x=x, y=y),
+              series("own line").mark_rule(color=INK, strokeWidth=1.2).encode(
+                  x=x, y=low, y2=high),
+              series("own line").mark_circle(size=45, color=INK, opacity=1).encode(
+                  x=x, y=y, tooltip=tips),
+              series("asked").mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5).encode(
+                  x=x, y=low, y2=high),
+              series("asked").mark_point(shape="diamond", size=100, filled=True,
+                                         color=LINE_COLOURS[1], opacity=1).encode(
+                  x=x, y=y, tooltip=tips)]
+    facet = alt.Facet("run:N", title=None)
+    chart = alt.layer(*layers, data=data).properties(width=width, height=height)
+    return (chart.facet(facet=facet, columns=columns, title=title) if title else
+            chart.facet(facet=facet, columns=columns))

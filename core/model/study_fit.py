@@ -76,6 +76,8 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     has them already.)
     """
     response = study.response(name)
+    if not study.factors:
+        raise ModelError(_nothing_to_model(study))
     if study.runs is None:
         raise StudyError(f"study '{study.name}' has no runs loaded: load it with its data")
     if name not in study.runs.columns:
@@ -150,6 +152,8 @@ def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
     A response that cannot be modelled is listed in ``skipped`` with the
     reason, so the others can still be used.
     """
+    if not study.factors:  # one message, not one per response
+        raise ModelError(_nothing_to_model(study))
     names = study.response_names if responses is None else list(responses)
     for name in names:
         study.response(name)  # unknown names are an error, not a skip
@@ -165,3 +169,9 @@ def fit_study(study, *, reduce: bool = False, responses=None) -> StudyFit:
         except ModelError as exc:
             skipped[name] = str(exc)
     return StudyFit(study=study, models=models, skipped=skipped)
+
+
+def _nothing_to_model(study) -> str:
+    from ..study.spec import NOTHING_TO_MODEL
+
+    return (f"{study.source.name}: " if study.source is not None else "") + NOTHING_TO_MODEL

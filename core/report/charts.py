@@ -100,23 +100,11 @@ def _curve_chart(item, part: pd.DataFrame, marker) -> str:
 
 
 def _arrhenius_chart(title: str, points: pd.DataFrame) -> str:
-    """ln k against 1000 / T per run: own-line rates, the one-step fit, the asked point."""
-    import altair as alt
+    """ln k against 1000 / T per run, with bounds (``maps.pictures.arrhenius_picture``);
+    larger panels when there are only a product or two to show."""
+    from ..maps.pictures import arrhenius_picture
 
-    data = points.dropna(subset=["ln_rate"])
-    if data.empty:
-        return ""
-    base = alt.Chart().encode(
-        x=alt.X("inv_temperature:Q", title="1000 / T (T in kelvin)",
-                scale=alt.Scale(zero=False)),
-        y=alt.Y("ln_rate:Q", title="ln k", scale=alt.Scale(zero=False)))
-    line = base.transform_filter(alt.datum.series == "one-step fit").mark_line(
-        color=_CURVE, strokeWidth=2)
-    dots = base.transform_filter(alt.datum.series == "own line").mark_circle(
-        size=40, color=_MARK)
-    asked = base.transform_filter(alt.datum.series == "asked").mark_point(
-        shape="diamond", size=90, filled=True, color=_CURVE)
-    chart = alt.layer(line, dots, asked, data=data).properties(
-        width=150, height=110).facet(facet=alt.Facet("run:N", title=None), columns=5,
-                                     title=title)
-    return _svg(chart)
+    few = points["run"].nunique() <= 2
+    chart = arrhenius_picture(points, title=title, width=340 if few else 150,
+                              height=240 if few else 110)
+    return "" if chart is None else _svg(chart)

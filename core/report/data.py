@@ -58,12 +58,14 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         {"table": derivation table, "points": Arrhenius table} for the
         responses fitted across storage temperatures) and ``cautions`` (the
         food cautions, plus the accelerated-storage ones when storage at
-        several temperatures was fitted).
+        several temperatures was fitted) and ``derived`` (a study without
+        factors: response -> its derivation table, the study's results; empty
+        otherwise).
     """
     import tomli_w
 
     from ..confirm.check import check_confirmations
-    from ..derive.derived import kinetic_tables
+    from ..derive.derived import derivation_table, kinetic_tables
     from ..study.confirmations import confirmation_files
     from ..maps.tables import desirability_curves, runs_table
     from ..model.study_fit import fit_study
@@ -79,9 +81,16 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     if seed is None:  # a result handed in already says which seed it used
         seed = int(result.seed) if result is not None else study.seed
     seed = int(seed)
-    fit = fit_study(study) if fit is None else fit
     search_note = None
-    if result is None:
+    if not study.factors:
+        # nothing varied: no model, no search; the derived values are the results
+        from ..model.study_fit import StudyFit
+        from ..study.spec import NOTHING_TO_MODEL
+
+        fit = StudyFit(study=study, models={}, skipped={})
+        search_note = NOTHING_TO_MODEL[0].upper() + NOTHING_TO_MODEL[1:] + "."
+    fit = fit_study(study) if fit is None else fit
+    if result is None and search_note is None:
         try:
             result = optimize(study, top=top, seed=seed, fit=fit)
         except TradeoffError as exc:  # no goal, no model: the rest still reports
@@ -108,7 +117,7 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         # The best solution's warnings repeat the search-wide ones: add only its own.
         warnings += [f"best settings: {w}" for w in result_dict["best"]["warnings"]
                      if w not in result_dict["warnings"]]
-    elif search_note:
+    elif search_note and study.factors:
         warnings.append(f"no search: {search_note}")
     if confirmation is not None:
         warnings += [f"confirmation, {v['response']}: {v['advice']}"
@@ -118,9 +127,12 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     warnings = [w for w in warnings if not (w in seen or seen.add(w))]
 
     kinetics = kinetic_tables(study)
+    derived = ({r.name: derivation_table(study, r.name) for r in study.responses
+                if r.is_derived} if not study.factors else {})
     several = any((k["points"]["series"] == "one-step fit").any() for k in kinetics.values())
     return {
         "kinetics": kinetics,
+        "derived": derived,
         "cautions": list(CAUTIONS) + (list(ACCELERATED_CAUTIONS) if several else []),
         "study": study_summary(study),
         "runs": runs_table(study, fit),

@@ -61,21 +61,28 @@ class _EvidenceSections(_Sections):
                "each estimate's interval; the counts are storage times per temperature, "
                "time 0 included. The charts show ln k against 1000 / T per run: dots "
                "are each temperature's own straight-line rate, the line is the one-step "
-               "fit, the diamond the temperature asked for.</p>"]
+               "fit, the diamond the temperature asked for; bars and the band are their "
+               f"{self.pct} intervals.</p>"]
         charted = set()
+        # without factors the per-run values head the page already: charts only
+        factors = bool(self.study.factors)
         for name, k in self.data["kinetics"].items():
             r = self.study.response(name)
+            key = (r.extra.get("property"), r.extra.get("order", "zero"))
+            if not factors and key in charted:
+                continue
             out.append(f'<div class="response"><h3>{esc(r.display())}</h3>'
-                       f'<p class="note">{esc(describe_derivation(self.study, r))}</p>')
+                       f'<p class="note">{esc(describe_derivation(self.study, r))}</p>'
+                       if factors else '<div class="response">')
             rows = [[esc(t["run"]), _g(t["value"]), _g(t["lower"]), _g(t["upper"]),
                      _g(t["se"]), _g(t["r_squared"], 3), esc(t["per_temperature"]),
                      esc(t["flag"])] for _, t in k["table"].iterrows()]
-            out.append(f"<details><summary>Per-run values ({len(rows)} runs)</summary>"
-                       '<div class="scroll">' + _table(
-                           ["run", "value", "lower", "upper", "standard error", "R2",
-                            "storage times per temperature", "flag"], rows,
-                           numeric={1, 2, 3, 4, 5}) + "</div></details>")
-            key = (r.extra.get("property"), r.extra.get("order", "zero"))
+            if factors:
+                out.append(f"<details><summary>Per-run values ({len(rows)} runs)</summary>"
+                           '<div class="scroll">' + _table(
+                               ["run", "value", "lower", "upper", "standard error", "R2",
+                                "storage times per temperature", "flag"], rows,
+                               numeric={1, 2, 3, 4, 5}) + "</div></details>")
             if key not in charted:
                 charted.add(key)
                 out.append(_chart_div(_arrhenius_chart(

@@ -20,6 +20,7 @@ import json
 from .data import CAUTIONS, _provenance_rows, report_data
 from .evidence import _EvidenceSections
 from .map_sections import _MapSections
+from .product_sections import _ProductSections
 from .sections import _AnswerSections, _table, esc
 from .ternary_sections import _TernarySections
 
@@ -106,13 +107,14 @@ pre { background:#f4f2ee; border:1px solid var(--line); padding:10px 12px;
 """
 
 
-class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections):
+class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
+            _ProductSections):
     """Renders the report's sections from ``report_data``'s dict."""
 
     # -- the page
 
     def render(self) -> str:
-        sections = [
+        sections = self._product_page() if not self.study.factors else [
             ("summary", "Summary", self.summary()),
             ("recommended", "Recommended settings", self.recommended()),
             ("alternatives", "Alternatives", self.alternatives()),
@@ -128,6 +130,23 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections):
             ("cautions", "Cautions", self.cautions()),
             ("reproduce", "Reproducing this result", self.reproduce()),
         ]
+        return self._wrap(sections)
+
+    def _product_page(self) -> list[tuple[str, str, str]]:
+        """A study without factors: its derived values, kinetics and products; no
+        models, search or maps (the summary says why in one sentence)."""
+        return [
+            ("summary", "Summary", self.product_summary()),
+            ("derived", "Derived values", self.derived_values()),
+            *([("kinetics", "Storage kinetics", self.kinetics())]
+              if self.data.get("kinetics") else []),
+            ("design", "The products", self.products()),
+            ("warnings", "Warnings", self.warnings()),
+            ("cautions", "Cautions", self.cautions()),
+            ("reproduce", "Reproducing this result", self.reproduce()),
+        ]
+
+    def _wrap(self, sections: list[tuple[str, str, str]]) -> str:
         toc = "".join(f'<a href="#{key}">{title}</a>' for key, title, _ in sections)
         body = "".join(f'<section id="{key}"><h2>{title}</h2>{content}</section>'
                        for key, title, content in sections)

@@ -58,7 +58,7 @@ def study_summary(study: Study) -> dict:
             entry["derived"] = {k: v for k, v in r.extra.items()}
             entry["derived_how"] = describe_derivation(study, r)
         responses.append(entry)
-    return {"study": study.name,
+    out = {"study": study.name,
             "source": str(study.source) if study.source else None,
             "data": str(study.data_path) if study.data_path else None,
             "runs": int(len(runs)), "factors": factors, "responses": responses,
@@ -71,6 +71,29 @@ def study_summary(study: Study) -> dict:
             # data columns the study leaves out, what each might be (report/unused.py)
             "unused_columns": unused_columns(study),
             "warnings": list(study.notes)}
+    if not study.factors:  # nothing varied: each product's derived values are the answer
+        out["derived_values"] = _derived_values(study)
+    return out
+
+
+def _derived_values(study) -> dict:
+    """Each derived response's value per run (product), with its interval where it
+    has one: response -> list of {run, value, lower, upper, se, flag}."""
+    from ..derive.derived import derivation_table  # late: derived reads Study
+
+    def number(v):
+        return None if v is None or v != v else float(v)
+
+    out = {}
+    for r in study.responses:
+        if not r.is_derived:
+            continue
+        table = derivation_table(study, r.name)
+        out[r.name] = [{"run": str(row["run"]), "value": number(row["value"]),
+                        "lower": number(row.get("lower")), "upper": number(row.get("upper")),
+                        "se": number(row.get("se")), "flag": str(row.get("flag") or "")}
+                       for _, row in table.iterrows()]
+    return out
 
 
 def _pieces(study, name: str) -> dict | None:
@@ -99,8 +122,11 @@ def _blocks(study) -> dict | None:
 
 def summary_text(summary: dict) -> str:
     """The summary as readable text for the terminal."""
-    lines = [f"Study: {summary['study']}", f"Data:  {summary['data']}",
-             f"Runs:  {summary['runs']}", "", "Factors"]
+    none = not summary["factors"]
+    data = summary["data"] or "none: the runs are those named in the storage or panel table"
+    lines = [f"Study: {summary['study']}", f"Data:  {data}", f"Runs:  {summary['runs']}", "",
+             "Factors: none (nothing is varied: the study gives each product's derived "
+             "values; there is nothing to model or search)" if none else "Factors"]
     for f in summary["factors"]:
         if f["kind"] == "component":
             unit = f" {f['unit']}" if f["unit"] else ""
@@ -138,7 +164,8 @@ def summary_text(summary: dict) -> str:
         unit = f" {r['unit']}" if r["unit"] else ""
         span = (f", {r['min']:g} .. {r['max']:g}{unit}" if "min" in r else "")
         lines.append(f"  {r['name']:<20} {r['measured']} measured, {r['blank']} blank"
-                     f"{span}; goal {r['goal']}; model {r['model']}")
+                     + (f"{span}; goal {r['goal']}; model {r['model']}" if not none else
+                        f" (of {summary['runs']} product(s)){span}"))
         pc = r.get("pieces")
         if pc:
             each = (f"{pc['most']} each" if pc["most"] == pc["fewest"]
@@ -149,6 +176,12 @@ def summary_text(summary: dict) -> str:
         if "derived" in r:
             lines.append(f"  {'':<20} derived: " + r.get("derived_how", ", ".join(
                 f"{k} = {v}" for k, v in r["derived"].items())))
+    if summary.get("derived_values"):
+        lines += ["", "Derived values"]
+        units = {r["name"]: r["unit"] for r in summary["responses"]}
+        for name, rows in summary["derived_values"].items():
+            for v in rows:
+                lines.append(f"  {name:<20} {v['run']:<8} {_value_text(v, units[name])}")
     if summary["constraints"]:
         lines += ["", "Constraints"] + [f"  {c}" for c in summary["constraints"]]
     unused = summary.get("unused_columns") or []
@@ -160,3 +193,19 @@ def summary_text(summary: dict) -> str:
     lines += ["", "Warnings" if summary["warnings"] else "Warnings: none"]
     lines += [f"  - {w}" for w in summary["warnings"]]
     return "\n".join(lines)
+
+
+def _value_text(v: dict, unit: str) -> str:
+    """A derived value with its interval and standard error, as check prints it."""
+    if v["value"] is None:
+        return "left out" + (f": {v['flag']}" if v["flag"] else "")
+    unit = f" {unit}" if unit else ""
+    parts = []
+    if v["lower"] is not None or v["upper"] is not None:
+        lo = "-" if v["lower"] is None else f"{v['lower']:.4g}"
+        hi = "not reached" if v["upper"] is None else f"{v['upper']:.4g}"
+        parts.append(f"lower {lo}, upper {hi}")
+    if v["se"] is not None:
+        parts.append(f"standard error {v['se']:.3g}")
+    text = f"{v['value']:.4g}{unit}" + (f" ({'; '.join(parts)})" if parts else "")
+    return text + (f"; {v['flag']}" if v["flag"] else "")

@@ -15,6 +15,8 @@ __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
 
 # Sheet names of the workbook, in order (confirmation sheets only when the
 # study lists confirmation runs).
+# A study without factors has no factors, models, terms or solutions sheets, and a
+# "derived values" sheet instead.
 WORKBOOK_SHEETS = ("summary", "runs", "factors", "models", "terms", "goals", "solutions",
                    "confirmations", "verdicts", "warnings", "specification", "provenance")
 
@@ -127,6 +129,11 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
             ignore_index=True)[["response", "run", "value", "lower", "upper", "se",
                                 "r_squared", "points", "per_temperature", "flag"]]
     tables["goals"] = pd.DataFrame(_goal_rows(study))
+    if data.get("derived"):  # no factors: each product's derived values are the results
+        tables["derived values"] = pd.concat(
+            [t.assign(response=name) for name, t in data["derived"].items()],
+            ignore_index=True)[["response", "run", "value", "lower", "upper", "se",
+                                "points", "r_squared", "flag"]]
 
     sol_rows = []
     if res is not None:
@@ -155,4 +162,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         {"study file line": data["specification"].splitlines()})
     tables["provenance"] = pd.DataFrame(_provenance_rows(data["provenance"]),
                                         columns=["key", "value"])
+    if not study.factors:  # nothing modelled or searched: the summary says why
+        for name in ("factors", "models", "terms", "solutions"):
+            tables.pop(name, None)
     return tables

@@ -79,9 +79,13 @@ def build_study(spec: dict, *, source: str | Path | None = None,
     # blend components come first among the factors (study/mixture.py)
     components, mixture = _mixture(spec, fname, [f.name for f in factors])
     factors = components + factors
-    if not factors:
+    # A product (or a few) stored or tasted without varying anything has no
+    # factors: its values come from the [storage] or [panel] table alone.
+    if not factors and not any(key in spec for key in ("storage", "panel")):
         raise StudyError(f"{fname}: no factors: add at least one [[factors]] table "
-                         "with a name and low/high or levels")
+                         "with a name and low/high or levels (a study of one product "
+                         "needs none, but then a [storage] or [panel] table to derive "
+                         "its values from)")
     responses = tuple(_response(r, fname, i) for i, r in
                       enumerate(_list_of_tables(spec, "responses", fname), start=1))
     _check_unique([f.name for f in factors] + [r.name for r in responses], fname)

@@ -17,7 +17,7 @@ from ..errors import StudyError, did_you_mean
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
-    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS",
+    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
@@ -29,6 +29,13 @@ TRANSFORMS = ("none", "log", "sqrt")
 # A categorical factor has 2 to this many levels (each level beyond two costs a
 # model column, and so runs).
 MAX_LEVELS = 12
+
+# Why a study without factors (a product stored or tasted, nothing varied) has
+# no models and no search: the fit, the search and the report all say it so.
+NOTHING_TO_MODEL = ("nothing to model or search: the study has no factors (nothing is "
+                    "varied between its products), so no response can depend on a "
+                    "setting; 'tradeoff check' and 'tradeoff report' give each "
+                    "product's derived values")
 
 _GOAL_KEYS = {"goal", "lower", "upper", "target", "shape", "shape_below",
               "shape_above", "weight"}

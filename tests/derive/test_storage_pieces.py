@@ -127,3 +127,20 @@ def test_a_storage_study_with_packs_fits_and_optimizes(tmp_path):
 def test_fit_kinetics_counts_packs_as_points():
     fit = fit_kinetics(["a"] * 4, [0, 0, 4, 4], [1, 2, 5, 6])
     assert fit.loc[0, "rate"] == pytest.approx(1.0) and fit.loc[0, "n_points"] == 4
+
+
+def test_the_same_week_at_two_temperatures_is_not_two_pieces():
+    # Counted by hand: week 4 was measured at 20 and at 40 degC (two measurements,
+    # one piece each); week 8 at 40 degC twice (two pieces); week 0 once, before
+    # storage, whatever its temperature cell holds.
+    run = ["R1"] * 6
+    week = [0, 4, 4, 8, 8, 12]
+    temp = [np.nan, 20, 40, 40, 40, 20]
+    value = [10.0, 11.0, 13.0, 15.0, 16.0, 14.0]
+    spread = piece_spread(run, week, value, temp)
+    assert list(spread["pieces"]) == [1, 1, 1, 2, 1]
+    assert list(spread["time"]) == [0, 4, 4, 8, 12]
+    two = spread[spread["pieces"] == 2].iloc[0]
+    assert two["mean"] == pytest.approx(15.5) and two["sd"] == pytest.approx(np.std([15, 16], ddof=1))
+    # without temperatures every row of a week is a piece of it
+    assert list(piece_spread(run, week, value)["pieces"]) == [1, 2, 2, 1]
