@@ -1,4 +1,5 @@
-"""Panels shared by the views: a smooth model, the model comparison, "Make next".
+"""Panels shared by the views: a smooth model, the model comparison, "Make next",
+and the one line a study without factors gets where models and searches would be.
 
 Each panel runs like a view: read state -> widgets -> call the library (through
 ``cached``) -> show. No statistics here.
@@ -11,7 +12,19 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff_ui import cached, charts, text
 
-__all__ = ["smooth_model", "model_comparison", "make_next"]
+__all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors"]
+
+
+def stop_without_factors(study) -> None:
+    """A study without factors (products stored or tasted, nothing varied): say in one
+    line that there is nothing to model or search here, and stop the view."""
+    if study.factors:
+        return
+    st.info("This study varies no factor, so there is nothing to model or search. Each "
+            "product's derived values (shelf life with its bounds, activation energy, "
+            "panel means ...) are on 'Study and runs' and in the report.",
+            icon=":material/info:")
+    st.stop()
 
 
 def smooth_model(study, response, model, report: dict) -> None:

@@ -52,11 +52,12 @@ def _effects_chart(response, rep: dict, alpha: float) -> str:
                          clear, "not judged")})
     # the last level of a factor of three or more levels: minus the sum of the others
     for d in rep.get("derived_coefficients") or []:
-        if d.get("estimate") is None:
+        size = d.get("effect", d.get("estimate"))
+        if size is None:
             continue
         judged = ("not judged" if d.get("p") is None else
                   "clear" if d["p"] < alpha else "within noise")
-        rows.append({"term": d["term"], "size": d["estimate"], "judged": judged})
+        rows.append({"term": d["term"], "size": size, "judged": judged})
     if not rows:
         return ""
     frame = pd.DataFrame(rows)

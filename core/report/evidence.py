@@ -134,8 +134,8 @@ class _EvidenceSections(_Sections):
         derived = rep.get("derived_coefficients") or []
         for d in derived:
             if d.get("p") is not None and d["p"] < alpha:
-                rows.append([esc(d["term"]) + " (last level)", _g(d["estimate"]),
-                             _g(d["estimate"]),
+                rows.append([esc(d["term"]) + " (last level)", _g(d.get("estimate")),
+                             _g(d.get("effect", d.get("estimate"))),
                              _g(d.get("std_error")), _p(d["p"])])
         hidden = len(rep["terms"]) - shown
         note = (f'<p class="note">{hidden} other term(s) are within the noise; all terms '

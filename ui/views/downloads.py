@@ -15,8 +15,10 @@ ss = st.session_state
 st.title("Take it with you")
 try:
     study = cached.current_study()
-    fitted = cached.fit(study)
-    result = cached.optimize(study, fitted)
+    # a study without factors has no models or search; its report gives the
+    # products' derived values
+    fitted = cached.fit(study) if study.factors else None
+    result = cached.optimize(study, fitted) if study.factors else None
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
@@ -26,8 +28,9 @@ study_bytes = data_bytes = None
 if origin["kind"] == "files":
     study_bytes = next(b for n, b in origin["files"].items() if n.lower().endswith(".toml"))
     # the data file the study names, not another upload (a confirmation table)
-    data_bytes = next(b for n, b in origin["files"].items()
-                      if Path(n).name == study.data_path.name)
+    data_bytes = next((b for n, b in origin["files"].items()
+                       if study.data_path is not None and Path(n).name == study.data_path.name),
+                      None)
 elif origin["kind"] == "draft":
     data_bytes = origin["data"]
 stem = Path(study.source.name if study.source else "study").stem
@@ -35,7 +38,7 @@ stem = Path(study.source.name if study.source else "study").stem
 # -- call the library: build the files ----------------------------------------
 try:
     toml_bytes = study_toml_bytes(study)
-    csv_bytes = results_csv_bytes(result)
+    csv_bytes = results_csv_bytes(result) if result is not None else None
     xlsx_bytes = cached.report(study, fitted, result, "xlsx", study_bytes, data_bytes)
 except TradeoffError as exc:
     st.error(text.plain(exc))
@@ -57,8 +60,12 @@ st.write("The table has one row per solution and response: the settings, each pr
          "response's model, the goals used, the warnings and where the numbers came from "
          "(file fingerprints, seed, version), one sheet each.")
 c1, c2 = st.columns(2)
-c1.download_button("Results table (.csv)", csv_bytes, file_name=f"{stem}_results.csv",
-                   mime="text/csv", key="d_csv")
+if csv_bytes is not None:
+    c1.download_button("Results table (.csv)", csv_bytes, file_name=f"{stem}_results.csv",
+                       mime="text/csv", key="d_csv")
+else:
+    c1.caption("No results table: the study varies no factor, so nothing was searched; "
+               "the workbook lists each product's derived values.")
 c2.download_button("Results workbook (.xlsx)", xlsx_bytes,
                    file_name=f"{stem}_results.xlsx", key="d_xlsx",
                    mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")

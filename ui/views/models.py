@@ -23,6 +23,7 @@ try:
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
+panels.stop_without_factors(study)
 
 # -- widgets --------------------------------------------------------------------
 names = study.response_names

@@ -17,6 +17,11 @@ st.title("Recommended settings")
 st.info(CAUTION, icon=":material/info:")
 try:
     study = cached.current_study()
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+    st.stop()
+panels.stop_without_factors(study)
+try:
     fitted = cached.fit(study)
 except TradeoffError as exc:
     st.error(text.plain(exc))

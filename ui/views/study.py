@@ -126,7 +126,11 @@ for f in study.factors:
     if _many:  # a factor of three or more levels lists them in a column of its own
         _row["levels"] = ", ".join(f.levels) if f.is_categorical else "-"
     _rows.append(_row)
-st.dataframe(blank_none(pd.DataFrame(_rows)), hide_index=True)
+if _rows:
+    st.dataframe(blank_none(pd.DataFrame(_rows)), hide_index=True)
+else:
+    st.caption("None: nothing is varied between the products, so there is nothing to "
+               "model or search; the results are each product's derived values below.")
 st.subheader("Responses (what you measured)")
 st.dataframe(blank_none(pd.DataFrame(
     [{"response": r.name, "label": r.label, "unit": r.unit or "", "goal": r.goal.kind,
@@ -155,11 +159,15 @@ st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
              column_config={"mark": st.column_config.TextColumn("mark")})
 for _, row in marked.iterrows():
     st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(row['marks'])}")
-with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"):
-    coded = table[["run", *[f"{f} coded" for f in factors]]]
-    st.dataframe(coded, hide_index=True, height=35 * (rows + 1) + 3,
-                 column_config={f"{f} coded": st.column_config.NumberColumn(format="%+.2f")
-                                for f in factors})
+# a factor of three or more levels is coded by position, a number that means nothing
+# to a reader: its level names in the table above say it all
+_coded = [f.name for f in study.factors if not (f.is_categorical and len(f.levels) > 2)]
+if _coded:
+    with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"):
+        coded = table[["run", *[f"{f} coded" for f in _coded]]]
+        st.dataframe(coded, hide_index=True, height=35 * (rows + 1) + 3,
+                     column_config={f"{f} coded": st.column_config.NumberColumn(
+                         format="%+.2f") for f in _coded})
 
 if kinetics:
     st.subheader("Storage kinetics")

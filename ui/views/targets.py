@@ -8,7 +8,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.inputs import checked_goal, with_production_sd
-from tradeoff_ui import cached, charts, text
+from tradeoff_ui import cached, charts, panels, text
 
 ss = st.session_state
 KINDS = {"maximize": "higher is better", "minimize": "lower is better",
@@ -27,6 +27,7 @@ try:
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
+panels.stop_without_factors(study)
 epoch = ss["epoch"]
 
 
