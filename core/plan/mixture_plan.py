@@ -148,9 +148,11 @@ def plan_mixture(study, design: str, *, degree: int | None = None,
         if np.any(lows > 0):
             notes.append("laid out in L-pseudo-components: the lattice spans the smaller "
                          "simplex above every component's low")
-    # the process factors' two-level full factorial, every blend at every corner
+    # the process factors' full factorial, every blend at every corner: a numeric
+    # factor at its low and high, a categorical one at each of its levels (coded as
+    # tradeoff.study.coding does: -1/+1 for two, the position 0, 1, 2 ... for more)
     procs = process_factors_of(study)
-    corners = np.array(list(itertools.product((-1.0, 1.0), repeat=len(procs)))) \
+    corners = np.array(list(itertools.product(*[_settings(f) for f in procs]))) \
         if procs else np.zeros((1, 0))
     balance = int(np.argmax(highs - lows))
     decimals = max(0, 4 - int(math.floor(math.log10(total))))
@@ -169,7 +171,7 @@ def plan_mixture(study, design: str, *, degree: int | None = None,
     if center:
         cen = round_to_total(overall[None, :], total, balance, decimals)[0]
         cats = [j for j, f in enumerate(procs) if f.is_categorical]
-        cells = list(itertools.product((-1.0, 1.0), repeat=len(cats))) or [()]
+        cells = list(itertools.product(*[_settings(procs[j]) for j in cats])) or [()]
         for i in range(center):
             p = np.zeros(len(procs))
             for j, lev in zip(cats, cells[i % len(cells)]):
@@ -205,10 +207,17 @@ def plan_mixture(study, design: str, *, degree: int | None = None,
                  f"exactly to {total:g}")
     if procs:
         notes.append(f"every blend is made at each of the {len(corners)} combinations of "
-                     f"the process factors' lows and highs "
-                     f"({', '.join(f.name for f in procs)})")
+                     f"the process factors' lows and highs (every level of a categorical "
+                     f"one) ({', '.join(f.name for f in procs)})")
     return MixturePlan(factors=tuple(study.factors), runs=table, coded=coded, kind=kind,
                        balance=comps[balance].name, notes=tuple(notes))
+
+
+def _settings(factor) -> np.ndarray:
+    """A process factor's coded settings in the plan: low and high, or every level."""
+    from ..study.coding import level_codes
+
+    return level_codes(factor) if factor.is_categorical else np.array([-1.0, 1.0])
 
 
 def _evaluate(study, plan: MixturePlan) -> dict:

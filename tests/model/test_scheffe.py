@@ -122,24 +122,50 @@ def demo():
     return study, fit_study(study)
 
 
+FLOURS = ["rice_flour", "sorghum_flour", "tapioca_starch"]
+
+
+def _process_columns(runs) -> dict:
+    """The demo's process columns: bake temperature coded -1..+1, and the hydrocolloid's
+    sum-to-zero columns (+1 at the level, -1 at the last level, guar; as statsmodels'
+    Sum contrasts)."""
+    h = runs["hydrocolloid"].to_numpy(object)
+    cols = {"bake_temp": (runs["bake_temp"].to_numpy(float) - 190) / 15}
+    for level in ("psyllium", "xanthan"):
+        cols[f"hydrocolloid[{level}]"] = (h == level).astype(float) - (h == "guar")
+    return cols
+
+
+def _blend_columns(x) -> dict:
+    """Scheffe quadratic blending columns of three components, by the tool's labels."""
+    a, b, c = FLOURS
+    return {a: x[:, 0], b: x[:, 1], c: x[:, 2], f"{a}:{b}": x[:, 0] * x[:, 1],
+            f"{a}:{c}": x[:, 0] * x[:, 2], f"{b}:{c}": x[:, 1] * x[:, 2]}
+
+
+def _linear_process(x, runs) -> dict:
+    """Each linear blending term crossed with each process column (process = "linear")."""
+    cols = _blend_columns(x)
+    for name, p in _process_columns(runs).items():
+        cols.update({f"{flour}:{name}": x[:, j] * p for j, flour in enumerate(FLOURS)})
+    return cols
+
+
 def test_pseudo_component_fit_against_statsmodels_and_proportions(demo):
     study, fit = demo
     model = fit.models["specific_volume"]
     runs = study.runs
-    A = runs[["rice_flour", "sorghum_flour", "tapioca_starch"]].to_numpy(float)
-    t = (runs["bake_temp"].to_numpy(float) - 190) / 15
+    A = runs[FLOURS].to_numpy(float)
     lows = np.array([40, 15, 10])
     y = runs["specific_volume"].to_numpy(float)
-
-    def cols(x):
-        return np.column_stack([x[:, 0], x[:, 1], x[:, 2], x[:, 0] * x[:, 1],
-                                x[:, 0] * x[:, 2], x[:, 1] * x[:, 2], x[:, 0] * t,
-                                x[:, 1] * t, x[:, 2] * t])
-
-    pseudo = sm.OLS(y, cols((A - lows) / 35)).fit()
+    pseudo_cols = _linear_process((A - lows) / 35, runs)
+    # 6 blending terms, 3 flours x (temperature + 2 hydrocolloid columns)
+    assert sorted(model.terms_) == sorted(pseudo_cols) and len(model.terms_) == 15
+    pseudo = sm.OLS(y, np.column_stack([pseudo_cols[k] for k in model.terms_])).fit()
     np.testing.assert_allclose(model.coef_, pseudo.params, rtol=1e-9)
     # the same model written in proportions of the total: fit the proportions directly
-    props = sm.OLS(y, cols(A / 100)).fit()
+    prop_cols = _linear_process(A / 100, runs)
+    props = sm.OLS(y, np.column_stack([prop_cols[k] for k in model.terms_])).fit()
     report = model.report()
     assert report["mixture_scale"] == "pseudo"
     got = report["proportion_coefficients"]
@@ -152,7 +178,7 @@ def test_reduction_never_drops_a_linear_blending_term(demo):
     model_small = fit_response(study, "crust_lightness", reduce=True, alpha=1e-12)
     for m in (model, model_small):
         assert {"rice_flour", "sorghum_flour", "tapioca_starch"} <= set(m.terms_)
-    assert len(model_small.terms_) < 9
+    assert len(model_small.terms_) < 15
 
 
 def test_too_few_blends_names_how_many(write_study):
@@ -194,16 +220,15 @@ def test_full_process_crossing_against_statsmodels(tmp_path):
     study = load_study(path)
     model = fit_response(study, "crumb_hardness")
     runs = study.runs
-    z = (runs[["rice_flour", "sorghum_flour", "tapioca_starch"]].to_numpy(float)
-         - [40, 15, 10]) / 35
-    t = (runs["bake_temp"].to_numpy(float) - 190) / 15
-    mix = [z[:, 0], z[:, 1], z[:, 2], z[:, 0] * z[:, 1], z[:, 0] * z[:, 2], z[:, 1] * z[:, 2]]
+    z = (runs[FLOURS].to_numpy(float) - [40, 15, 10]) / 35
+    # every blending term crossed with every process column (the process model 'main')
+    cols = _blend_columns(z)
+    for name, p in _process_columns(runs).items():
+        cols.update({f"{term}:{name}": col * p for term, col in _blend_columns(z).items()})
+    assert sorted(model.terms_) == sorted(cols) and len(cols) == 24
+    assert "rice_flour:sorghum_flour:bake_temp" in cols
+    assert "sorghum_flour:tapioca_starch:hydrocolloid[xanthan]" in cols
     res = sm.OLS(runs["crumb_hardness"].to_numpy(float),
-                 np.column_stack(mix + [m * t for m in mix])).fit()
-    assert model.terms_[6:] == ["rice_flour:bake_temp", "sorghum_flour:bake_temp",
-                                "tapioca_starch:bake_temp",
-                                "rice_flour:sorghum_flour:bake_temp",
-                                "rice_flour:tapioca_starch:bake_temp",
-                                "sorghum_flour:tapioca_starch:bake_temp"]
+                 np.column_stack([cols[k] for k in model.terms_])).fit()
     np.testing.assert_allclose(model.coef_, res.params, rtol=1e-8)
     np.testing.assert_allclose(model.r2_, 1 - res.ssr / res.centered_tss, rtol=1e-10)

@@ -109,10 +109,16 @@ def test_cli_vertices_plan_crossed_with_temperature(tmp_path, capsys):
     sheet = pd.read_csv(out)
     amounts = sheet[["rice_flour", "sorghum_flour", "tapioca_starch"]].to_numpy()
     np.testing.assert_allclose(amounts.sum(axis=1), 100.0, atol=1e-9)
-    # 5 vertices + 5 edge centroids + 1 centroid, each at 2 temperatures, + 2 centre runs
-    assert len(sheet) == 11 * 2 + 2
+    # 5 vertices + 5 edge centroids + 1 centroid, each at 2 temperatures and with each
+    # of the 3 hydrocolloids, + 2 centre runs (counted by hand)
+    assert len(sheet) == 11 * 2 * 3 + 2
     assert set(sheet["bake_temp"]) == {175.0, 205.0, 190.0}
     assert np.all(amounts <= [70, 45, 45]) and np.all(amounts >= [40, 15, 10])
+    cells = sheet[sheet["point"] != "centroid"].groupby(["bake_temp", "hydrocolloid"]).size()
+    assert len(cells) == 6 and set(cells) == {10}
+    assert set(sheet["hydrocolloid"]) == {"psyllium", "xanthan", "guar"}
+    assert "every level of a categorical one" in text
+    assert "not estimable" not in text  # each flour crossed with each level's column
 
 
 def test_cli_lattice_json(tmp_path, capsys):
