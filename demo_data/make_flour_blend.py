@@ -54,7 +54,7 @@ HYDRO_EFFECTS = {
                         "guar": (-0.10, -0.06, -0.12)},
     "crumb_hardness": {"psyllium": (-0.60, -0.80, -0.20), "xanthan": (0.40, 0.60, 0.20),
                        "guar": (0.00, 0.20, -0.10)},
-    "crust_lightness": {"psyllium": (-2.5, -1.5, -3.0), "xanthan": (0.5, 0.5, 0.0),
+    "crust_lightness": {"psyllium": (-4.5, -4.0, -5.0), "xanthan": (0.5, 0.5, 0.0),
                         "guar": (1.5, 1.0, 2.0)},
 }
 

@@ -105,7 +105,8 @@ def test_a_blend_components_slice_keeps_the_others_ratios():
 
     study = load_study(Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml")
     fit = fit_study(study)
-    at = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0, "bake_temp": 205.0}
+    at = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0, "bake_temp": 205.0,
+          "hydrocolloid": "xanthan"}
     table = slices(study, at, fit=fit, n=9)
     names = ["rice_flour", "sorghum_flour", "tapioca_starch"]
     shares = np.array([at[n] for n in names]) / 100.0
@@ -117,7 +118,16 @@ def test_a_blend_components_slice_keeps_the_others_ratios():
         amounts = np.outer((100.0 - x) / (1 - shares[i]), shares)
         amounts[:, i] = x
         np.testing.assert_allclose(amounts.sum(axis=1), 100.0)
-        blends = pd.DataFrame(amounts, columns=names).assign(bake_temp=205.0)
+        blends = pd.DataFrame(amounts, columns=names).assign(bake_temp=205.0,
+                                                             hydrocolloid="xanthan")
         expected = fit.models["specific_volume"].predict(to_coded(study.factors, blends))
         np.testing.assert_allclose(part["predicted"], expected, rtol=1e-10)
         assert part.loc[part["current"], "value"].tolist() == pytest.approx([at[name]])
+    # along the hydrocolloid: one point per level, the blend and temperature held
+    part = table[(table["factor"] == "hydrocolloid") & (table["response"] == "specific_volume")]
+    levels = list(study.factor("hydrocolloid").levels)
+    assert list(part["level"]) == levels and list(part["current"]) == [False, True, False]
+    held = pd.DataFrame({**{n: at[n] for n in names}, "bake_temp": 205.0,
+                         "hydrocolloid": levels})
+    expected = fit.models["specific_volume"].predict(to_coded(study.factors, held))
+    np.testing.assert_allclose(part["predicted"], expected, rtol=1e-10)

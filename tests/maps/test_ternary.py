@@ -25,6 +25,7 @@ from tradeoff.search.desirability import limits
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml"
 NAMES = ["rice_flour", "sorghum_flour", "tapioca_starch"]
 SHARES = ["first_share", "second_share", "third_share"]
+HYDRO = "xanthan"  # the demo's hydrocolloid held for the maps (any of its levels)
 
 
 @pytest.fixture(scope="module")
@@ -37,6 +38,7 @@ def _predict(study, fit, name, amounts: pd.DataFrame, bake: float) -> np.ndarray
     """The model's own prediction at the vertices' amounts (the independent check)."""
     table = amounts[NAMES].copy()
     table["bake_temp"] = bake
+    table["hydrocolloid"] = HYDRO
     return np.asarray(fit.models[name].predict(to_coded(study.factors, table)), float)
 
 
@@ -65,7 +67,7 @@ def _interpolation_bound(study, fit, name, bake, step_share) -> float:
 def test_every_vertex_lies_on_its_level(flour, response):
     study, fit = flour
     steps = 90
-    lines = ternary_lines(study, response, fit=fit, settings={"bake_temp": 190},
+    lines = ternary_lines(study, response, fit=fit, settings={"bake_temp": 190, "hydrocolloid": HYDRO},
                           steps=steps)
     assert list(lines.columns[:6]) == ["level", "line", "i", *SHARES]
     assert lines["line"].nunique() >= 3
@@ -89,7 +91,7 @@ def test_levels_are_round_and_drawn_in_order(flour):
 
 def test_shares_amounts_and_plot_coordinates_agree(flour):
     study, fit = flour
-    lines = ternary_lines(study, "D", fit=fit, settings={"bake_temp": 205})
+    lines = ternary_lines(study, "D", fit=fit, settings={"bake_temp": 205, "hydrocolloid": HYDRO})
     # shares add up to 1 (closed form: they are shares of one whole)
     np.testing.assert_allclose(lines[SHARES].sum(axis=1), 1.0, atol=1e-12)
     # the three amounts are the shares of the total (100 %, nothing held)
@@ -110,7 +112,7 @@ def test_lines_reach_the_triangles_sides(flour):
     # contourpy's corner masking contours the half cells along the hypotenuse of
     # the square grid, so a line crossing the map ends on the triangle's side
     study, fit = flour
-    lines = ternary_lines(study, "specific_volume", fit=fit, settings={"bake_temp": 190})
+    lines = ternary_lines(study, "specific_volume", fit=fit, settings={"bake_temp": 190, "hydrocolloid": HYDRO})
     T = from_plot(lines["x"], lines["y"])
     ends = lines.groupby("line")["i"].transform(lambda i: (i == i.min()) | (i == i.max()))
     assert (T[ends.to_numpy(bool)].min(axis=1) < 1e-9).all()
@@ -142,7 +144,7 @@ def test_the_region_is_the_closed_form_polygon_of_the_bounds(flour):
 @pytest.mark.parametrize("bake", [175.0, 205.0])
 def test_limit_lines_separate_passing_and_failing_blends(flour, bake):
     study, fit = flour
-    tlim = ternary_limits(study, fit=fit, settings={"bake_temp": bake})
+    tlim = ternary_limits(study, fit=fit, settings={"bake_temp": bake, "hydrocolloid": HYDRO})
     assert len(tlim.lines) and len(tlim.ticks)
     for (name, limit), part in tlim.lines.groupby(["name", "limit"]):
         value = part["level"].iloc[0]
@@ -175,7 +177,7 @@ def test_limit_lines_separate_passing_and_failing_blends(flour, bake):
 
 def test_region_outline_follows_the_limit_and_the_bounds(flour):
     study, fit = flour
-    tlim = ternary_limits(study, fit=fit, settings={"bake_temp": 175.0})
+    tlim = ternary_limits(study, fit=fit, settings={"bake_temp": 175.0, "hydrocolloid": HYDRO})
     assert len(tlim.region)
     # on the outline every limit and bound holds up to the grid's error, and at
     # least one is at its edge (common practice: the window's edge is where the
@@ -230,7 +232,7 @@ def test_the_report_of_a_blend_has_the_triangle(monkeypatch):
     # two inline drawings (limits, D) with the component scales in amounts
     assert section.count("<svg") == 2
     assert "Rice flour, %" in section and "S1 (recommended)" in section
-    assert "crumb_hardness" in section and "% of them" in section
+    assert "crust_lightness" in section and "% of them" in section
 
 
 def test_the_report_of_a_study_without_blend_has_no_triangle(monkeypatch):

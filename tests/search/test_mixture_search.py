@@ -40,7 +40,7 @@ def test_yarn_optimum_matches_a_dense_simplex_grid():
         assert abs(sum(s.proportions.values()) - 1.0) < 1e-9
 
 
-def test_flour_demo_optimum_matches_grid_over_blend_and_temperature():
+def test_flour_demo_optimum_matches_grid_over_blend_temperature_and_hydrocolloid():
     study = load_study(DEMO)
     fit = fit_study(study)
     result = optimize(study, fit=fit, top=3, seed=3)
@@ -49,10 +49,15 @@ def test_flour_demo_optimum_matches_grid_over_blend_and_temperature():
     P = _grid(120) * 100
     P = P[np.all((P >= lows - 1e-9) & (P <= highs + 1e-9), axis=1)]
     temps = np.linspace(-1, 1, 31)
+    levels = study.factor("hydrocolloid").levels
     Z = (P - lows) / 35.0
-    X = np.vstack([np.column_stack([Z, np.full(len(Z), t)]) for t in temps])
+    # every blend of the grid at every temperature with each hydrocolloid (its
+    # coded value is the level's position)
+    X = np.vstack([np.column_stack([Z, np.full(len(Z), t), np.full(len(Z), h)])
+                   for t in temps for h in range(len(levels))])
     D, _ = overall_desirability(study, fit, X)
     assert result.best.desirability >= D.max() - 1e-6
+    assert result.best.settings["hydrocolloid"] == levels[int(X[np.argmax(D), 4])]
     for s in result.solutions:
         amounts = np.array([s.settings[n] for n in names])
         assert abs(amounts.sum() - 100) < 1e-6

@@ -67,6 +67,14 @@ def _production_sd_input(factor, key: str) -> None:
 
 
 # -- widgets -------------------------------------------------------------------
+# A categorical factor is a choice among its levels (a hydrocolloid, a binder): the
+# curves can mark the best settings found with the level chosen here, to see what
+# each level gives up on each goal.
+ANY = "the best of any level"
+picks = {}
+for f in (f for f in study.factors if f.is_categorical):
+    picks[f.name] = st.selectbox(f"{text.plain(f.display())}: mark the best settings with",
+                                 [ANY, *f.levels], key=f"g{epoch}.level.{f.name}")
 items = list(study.responses) + [f for f in study.factors if not f.is_categorical]
 slots = {}
 for item in items:
@@ -138,8 +146,23 @@ except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
 best = result.best
+# the solution the curves mark: the best, or the best listed with the levels picked
+wanted = {k: v for k, v in picks.items() if v != ANY}
+marked = next((s for s in result.solutions
+               if all(s.settings[k] == v for k, v in wanted.items())), None)
 
 # -- show -------------------------------------------------------------------------------
+if marked is None:
+    st.warning("No solution listed uses " + text.plain(", ".join(
+        f"{k} = {v}" for k, v in wanted.items())) + ": the curves mark the best settings. "
+        "Ask for more solutions on the results view to see more levels.")
+    marked = best
+elif wanted:
+    st.caption(f"The curves mark {text.plain(marked.label)} (D = {marked.desirability:.3f}), "
+               "the best settings found with " + text.plain(", ".join(
+                   f"{k} = {v}" for k, v in wanted.items()))
+               + f"; the best of all is {text.plain(best.label)} (D = "
+                 f"{best.desirability:.3f}).")
 for name, (slot, item, is_factor) in slots.items():
     goal = study.factor(name).goal if is_factor else study.response(name).goal
     with slot:
@@ -147,9 +170,9 @@ for name, (slot, item, is_factor) in slots.items():
             st.caption("No goal: this takes no part in D.")
             continue
         if is_factor:
-            value, d = best.settings[name], best.factor_desirability.get(name)
-        elif name in best.responses:
-            value, d = best.predictions[name], best.responses[name].desirability
+            value, d = marked.settings[name], marked.factor_desirability.get(name)
+        elif name in marked.responses:
+            value, d = marked.predictions[name], marked.responses[name].desirability
         else:
             st.caption("No model for this response: it takes no part in D.")
             continue
@@ -158,8 +181,8 @@ for name, (slot, item, is_factor) in slots.items():
         charts.show(charts.desirability_chart, curve, marker,
                     charts.titled(item.label, item.unit),
                     width="stretch")
-        st.caption(f"At the best settings: {value:.4g} {text.plain(item.unit)} -> desirability "
-                   f"{d:.3f}")
+        st.caption(f"At {'the best settings' if marked is best else text.plain(marked.label)}: "
+                   f"{value:.4g} {text.plain(item.unit)} -> desirability {d:.3f}")
 
 with st.sidebar.container(key="best_now"):
     lines = []
