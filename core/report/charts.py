@@ -33,14 +33,15 @@ def _chart_div(svg: str) -> str:
     return f'<div class="chart">{svg}</div>' if svg else ""
 
 
-def _effects_chart(response, rep: dict, alpha: float) -> str:
-    """Horizontal bars: each term's effect (coefficient for squared terms)."""
+def _effects_chart(response, rep: dict, alpha: float, leave_out=frozenset()) -> str:
+    """Horizontal bars: each term's effect (coefficient for squared terms); terms in
+    ``leave_out`` are not drawn."""
     import altair as alt
 
     rows = []
     blocks = set((rep.get("blocks") or {}).get("terms", ()))
     for term in rep["terms"]:
-        if term == "intercept" or term in blocks:
+        if term == "intercept" or term in blocks or term in leave_out:
             continue  # block shifts are not factor effects
         effect = _get(rep["effects"], term)
         size = effect if effect is not None else _get(rep["coefficients"], term)

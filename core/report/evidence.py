@@ -41,7 +41,10 @@ class _EvidenceSections(_Sections):
                 out.append("</div>")
                 continue
             out.append(self._fit_stats(rep))
-            out.append(_chart_div(_effects_chart(r, rep, alpha)))
+            # a component's own blending term is its pure blend's response, no effect:
+            # its bar would dwarf every effect
+            out.append(_chart_div(_effects_chart(r, rep, alpha, leave_out={
+                f.name for f in self.study.factors if getattr(f, "is_component", False)})))
             out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))
@@ -93,7 +96,12 @@ class _EvidenceSections(_Sections):
     def _fit_stats(self, rep: dict) -> str:
         scale = {"log": " on the log scale", "sqrt": " on the square-root scale"}.get(
             rep["transform"], "")
-        rows = [["model", esc(model_label(rep["model"])) + esc(scale)],
+        model = rep["model"]
+        if not isinstance(model, str):  # a list of terms: name the model, not every term
+            model = (next(x["model"] for x in self.data["study"]["responses"]
+                          if x["name"] == rep["response"]) if self.study.mixture is not None
+                     else f"own choice of {len(model)} terms")
+        rows = [["model", esc(model_label(model)) + esc(scale)],
                 ["runs used", str(rep["n"])],
                 ["terms", str(len(rep["terms"]))],
                 ["residual degrees of freedom", str(rep["residual_df"])],

@@ -97,7 +97,11 @@ class _MapSections(_Sections):
                    if any(getattr(f, "is_component", False) for f in self.study.factors)
                    else "") + ". Band: where one new batch is expected "
                 f"({self.pct} prediction interval); dashed lines: the limits; the upright "
-                "line marks the recommended setting.</p>"
+                "line marks the recommended setting"
+                + ("; along a categorical factor, one point per level with that interval as "
+                   "a bar, the diamond at the recommended level"
+                   if any(f.is_categorical for f in self.study.factors) else "")
+                + ".</p>"
                 '<div class="charts">' + "".join(charts) + "</div>")
 
     def interaction_chart(self, name: str, rep: dict, alpha: float) -> str:

@@ -129,7 +129,7 @@ class _AnswerSections(_Sections):
             rows.append([esc(f.label), esc(f.name), esc(self._setting(f.name, value)),
                          esc(f.unit),
                          # a level is its name: no coded number
-                         "-" if f.is_categorical else _g(best["coded"][f.name], 3)])
+                         "-" if f.is_categorical else _g(_clean(best["coded"][f.name]), 3)])
         out.append(_table(["factor", "name", "setting", "unit", "coded"], rows,
                           numeric={4}))
         out.append(self._predictions(best))
@@ -295,6 +295,11 @@ class _AnswerSections(_Sections):
             charts.append(_chart_div(_curve_chart(self._item(name), part, marker)))
         out.append('<div class="charts">' + "".join(charts) + "</div>")
         return "".join(out)
+
+
+def _clean(x: float) -> float:
+    """A coded setting with rounding noise (4e-16 for a component at its low) shown as 0."""
+    return 0.0 if abs(x) < 1e-9 else x
 
 
 def _formula() -> str:
