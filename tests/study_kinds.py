@@ -18,6 +18,10 @@ Kinds (``KINDS``):
 - ``log_levels4``: a log-transformed response and a four-level factor;
 - ``storage_levels3``: a shelf life derived from a storage table;
 - ``panel_levels3``: a panel mean derived from a panel table.
+
+``ONE_PRODUCT_STUDY`` and ``one_product_storage`` are a study without factors:
+one product stored at 20, 30 and 40 degC, built from a known Arrhenius rate
+(1 N a week at 20 degC, 80 kJ/mol) plus seeded noise.
 """
 from __future__ import annotations
 
@@ -26,7 +30,8 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["KINDS", "write_study", "LEVEL_NAMES"]
+__all__ = ["KINDS", "write_study", "LEVEL_NAMES", "ONE_PRODUCT_STUDY", "one_product_storage",
+           "R_GAS", "STORAGE_WEEKS"]
 
 KINDS = ("levels2", "levels3", "levels4", "levels5", "numeric_levels3", "numeric_levels5",
          "blend_levels3", "blend_process", "blocks_levels3", "smooth_levels3",
@@ -34,6 +39,41 @@ KINDS = ("levels2", "levels3", "levels4", "levels5", "numeric_levels3", "numeric
 LEVEL_NAMES = ("oat", "rye", "spelt", "teff", "millet")
 # each level's shift of the response (the levels' deviations differ, so the choice matters)
 SHIFTS = (4.0, -1.0, 2.5, -3.0, 0.5)
+
+
+R_GAS = 8.314462618      # J/(mol K), CODATA 2018 (exact)
+# storage weeks at each temperature (degC) of the one-product study
+STORAGE_WEEKS = {20: (4, 8, 13, 26), 30: (2, 4, 8, 13), 40: (1, 2, 4, 6)}
+ONE_PRODUCT_STUDY = """[study]
+name = "One bar stored at 20, 30 and 40 degC (generated)"
+
+[storage]
+data = "storage.csv"
+time = "week"
+temperature = "temp_c"
+
+[[responses]]
+name = "life"
+unit = "weeks"
+derive = "shelf_life"
+property = "hardness"
+limit = 35
+direction = "up"
+at_temperature = 20
+"""
+
+
+def one_product_storage(seed: int = 3) -> str:
+    """The one product's storage table (CSV text): hardness from 12 N rising at
+    k(T) = 1 N/week x exp(-80 kJ/mol / R (1/T - 1/293.15 K)), noise SD 0.3 N."""
+    import math
+
+    rng = np.random.default_rng(seed)
+    rows = ["run,week,temp_c,property,value", f"P1,0,,hardness,{12 + rng.normal(0, 0.3):.4f}"]
+    for T, weeks in STORAGE_WEEKS.items():
+        k = math.exp(-80e3 / R_GAS * (1 / (T + 273.15) - 1 / 293.15))
+        rows += [f"P1,{w},{T},hardness,{12 + k * w + rng.normal(0, 0.3):.4f}" for w in weeks]
+    return "\n".join(rows) + "\n"
 
 
 def _levels(n: int) -> list[str]:
@@ -66,6 +106,13 @@ def _factorial(levels: int, rng, *, reps: int = 1, centre: bool = True) -> list[
             rows.append({"sugar": 4 + 2 * a, "fat": 10 + 5 * b, "grain": lv,
                          "crunch": y + rng.normal(0, 0.8)})
     return rows
+
+
+def _sugar_grain_runs(names: list[str]) -> list[dict]:
+    """Runs R1, R2, ...: sugar at 2 and 6 % with each grain, twice over."""
+    settings = [(lv, a) for _ in range(2) for lv in names for a in (-1.0, 1.0)]
+    return [{"run": f"R{k}", "sugar": 4 + 2 * a, "grain": lv}
+            for k, (lv, a) in enumerate(settings, start=1)]
 
 
 def write_study(folder: str | Path, kind: str, *, seed: int = 7) -> Path:
@@ -123,18 +170,13 @@ def write_study(folder: str | Path, kind: str, *, seed: int = 7) -> Path:
                 + f'\n[[responses]]\nname = "crunch"\n{goal}')
     elif kind == "storage_levels3":
         names = _levels(3)
-        rows, storage = [], []
-        k = 0
-        for rep in range(2):
-            for i, lv in enumerate(names):
-                for a in (-1.0, 1.0):
-                    k += 1
-                    run = f"R{k}"
-                    rows.append({"run": run, "sugar": 4 + 2 * a, "grain": lv})
-                    rate = 0.8 + 0.15 * a + 0.1 * SHIFTS[i] / 4
-                    for week in (0, 2, 4, 6, 8):
-                        storage.append({"run": run, "week": week, "property": "hardness",
-                                        "value": 20 + rate * week + rng.normal(0, 0.2)})
+        rows, storage = _sugar_grain_runs(names), []
+        for row in rows:
+            a, i = (row["sugar"] - 4) / 2, names.index(row["grain"])
+            rate = 0.8 + 0.15 * a + 0.1 * SHIFTS[i] / 4
+            for week in (0, 2, 4, 6, 8):
+                storage.append({"run": row["run"], "week": week, "property": "hardness",
+                                "value": 20 + rate * week + rng.normal(0, 0.2)})
         (folder / "storage.csv").write_text(_csv(storage), encoding="utf-8")
         text = (head + 'model = "interactions"\n\n[storage]\ndata = "storage.csv"\n'
                 'time = "week"\n\n'
@@ -145,19 +187,14 @@ def write_study(folder: str | Path, kind: str, *, seed: int = 7) -> Path:
                 'lower = 9\nupper = 15\n')
     elif kind == "panel_levels3":
         names = _levels(3)
-        rows, scores = [], []
-        k = 0
-        for rep in range(2):
-            for i, lv in enumerate(names):
-                for a in (-1.0, 1.0):
-                    k += 1
-                    run = f"R{k}"
-                    rows.append({"run": run, "sugar": 4 + 2 * a, "grain": lv})
-                    mean = 6 + 0.6 * a + 0.3 * SHIFTS[i]
-                    for assessor in range(1, 7):
-                        score = int(np.clip(np.rint(mean + rng.normal(0, 0.8)), 1, 9))
-                        scores.append({"run": run, "assessor": f"A{assessor}",
-                                       "attribute": "liking", "score": score})
+        rows, scores = _sugar_grain_runs(names), []
+        for row in rows:
+            a, i = (row["sugar"] - 4) / 2, names.index(row["grain"])
+            mean = 6 + 0.6 * a + 0.3 * SHIFTS[i]
+            for assessor in range(1, 7):
+                score = int(np.clip(np.rint(mean + rng.normal(0, 0.8)), 1, 9))
+                scores.append({"run": row["run"], "assessor": f"A{assessor}",
+                               "attribute": "liking", "score": score})
         (folder / "panel.csv").write_text(_csv(scores), encoding="utf-8")
         text = (head + 'model = "interactions"\n\n[panel]\ndata = "panel.csv"\n'
                 'scale = [1, 9]\n\n'

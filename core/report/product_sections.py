@@ -9,7 +9,7 @@ products' table; the storage kinetics (with the Arrhenius charts) come from
 from __future__ import annotations
 
 from .data import _g, _r2
-from .sections import _Sections, _table, esc
+from .sections import _Sections, _cards, _table, esc
 
 __all__ = ["_ProductSections"]
 
@@ -37,10 +37,7 @@ class _ProductSections(_Sections):
                 cards.append((label, f"{_g(row['value'])} {r.unit}".strip(),
                               _interval(row, r.unit) or "no interval"))
         if cards:
-            parts.append('<div class="cards">' + "".join(
-                f'<div class="card"><div class="what">{esc(a)}</div><div class="big">'
-                f'{esc(b)}</div><div class="what">{esc(c)}</div></div>'
-                for a, b, c in cards[:8]) + "</div>")
+            parts.append(_cards(cards[:8]))
         parts.append('<p class="note">Derived values are estimates from the measurements; '
                      'read the <a href="#cautions">cautions</a>.</p>')
         return "".join(parts)

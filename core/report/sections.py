@@ -14,7 +14,7 @@ import json
 from .charts import _chart_div, _curve_chart
 from .data import _g, _goal_rows, _pct
 
-__all__ = ["esc", "_table", "_Sections", "_AnswerSections"]
+__all__ = ["esc", "_table", "_cards", "_Sections", "_AnswerSections"]
 
 
 def esc(value) -> str:
@@ -106,10 +106,7 @@ class _AnswerSections(_Sections):
         else:
             cards.append(("confirmation runs", "none yet", "see Confirmation runs"))
         cards.append(("warnings", str(len(self.data["warnings"])), "see Warnings"))
-        parts.append('<div class="cards">' + "".join(
-            f'<div class="card"><div class="what">{esc(a)}</div><div class="big">'
-            f'{esc(b)}</div><div class="what">{esc(c)}</div></div>'
-            for a, b, c in cards) + "</div>")
+        parts.append(_cards(cards))
         parts.append('<p class="note">Predictions are suggestions for what to make and '
                      'test next; read the <a href="#cautions">cautions</a>.</p>')
         return "".join(parts)
@@ -306,6 +303,14 @@ def _formula() -> str:
     from ..confirm.check import INTERVAL_FORMULA
 
     return INTERVAL_FORMULA
+
+
+def _cards(cards: list[tuple[str, str, str]]) -> str:
+    """Key figures as cards: (what it is, the figure, a line under it), user text escaped."""
+    return ('<div class="cards">' + "".join(
+        f'<div class="card"><div class="what">{esc(a)}</div><div class="big">'
+        f'{esc(b)}</div><div class="what">{esc(c)}</div></div>'
+        for a, b, c in cards) + "</div>")
 
 
 def _table(head: list[str], rows: list[list[str]], *, numeric: set[int] = frozenset(),

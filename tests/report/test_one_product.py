@@ -1,8 +1,9 @@
 """A study without factors: one product stored at 20, 30 and 40 degC, and a panel of
 three products.
 
-The storage data are built here from a known rate (1 N a week at 20 degC, an
-activation energy of 80 kJ/mol) plus seeded noise: a property-check study.
+The storage data are built from a known rate (1 N a week at 20 degC, an
+activation energy of 80 kJ/mol) plus seeded noise (tests/study_kinds.py): a
+property-check study.
 Every number the tool gives is checked against an independent computation
 written out here:
 
@@ -21,6 +22,8 @@ import io
 import json
 import math
 import re
+import sys
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -32,28 +35,15 @@ from tradeoff.cli import main
 from tradeoff.derive.derived import arrhenius_table
 from tradeoff.errors import DataError
 
-R_GAS = 8.314462618      # J/(mol K), CODATA 2018 (exact)
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from study_kinds import (ONE_PRODUCT_STUDY, R_GAS, STORAGE_WEEKS,  # noqa: E402
+                         one_product_storage)
+
 T20 = 293.15
 LIMIT = 35.0
-SCHEDULE = {20: (4, 8, 13, 26), 30: (2, 4, 8, 13), 40: (1, 2, 4, 6)}
-
-STUDY = """[study]
-name = "One bar stored at 20, 30 and 40 degC (generated)"
-
-[storage]
-data = "storage.csv"
-time = "week"
-temperature = "temp_c"
-
-[[responses]]
-name = "life"
-unit = "weeks"
-derive = "shelf_life"
-property = "hardness"
-limit = 35
-direction = "up"
-at_temperature = 20
-
+SCHEDULE = STORAGE_WEEKS
+# the shared one-product study, with three more responses of the same fit
+STUDY = ONE_PRODUCT_STUDY + """
 [[responses]]
 name = "life_mean"
 unit = "weeks"
@@ -78,22 +68,10 @@ at_temperature = 20
 """
 
 
-def _storage(seed: int = 3) -> pd.DataFrame:
-    rng = np.random.default_rng(seed)
-    rows = [("P1", 0, np.nan, 12 + rng.normal(0, 0.3))]
-    for T, weeks in SCHEDULE.items():
-        k = 1.0 * math.exp(-80e3 / R_GAS * (1 / (T + 273.15) - 1 / T20))
-        rows += [("P1", w, T, 12 + k * w + rng.normal(0, 0.3)) for w in weeks]
-    return pd.DataFrame(rows, columns=["run", "week", "temp_c", "value"]).assign(
-        property="hardness")
-
-
 @pytest.fixture(scope="module")
 def one(tmp_path_factory):
     folder = tmp_path_factory.mktemp("one")
-    table = _storage()
-    table[["run", "week", "temp_c", "property", "value"]].to_csv(
-        folder / "storage.csv", index=False, float_format="%.4f")
+    (folder / "storage.csv").write_text(one_product_storage(), encoding="utf-8")
     (folder / "study.toml").write_text(STUDY, encoding="utf-8")
     return folder / "study.toml", pd.read_csv(folder / "storage.csv")
 

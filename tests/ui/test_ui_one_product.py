@@ -1,59 +1,36 @@
 """A study without factors in the workbench, driven headless with Streamlit's AppTest.
 
-One product stored at 20, 30 and 40 degC (built here from a known rate plus
-seeded noise, as in tests/report/test_one_product.py, which checks its numbers
-against an independent Arrhenius fit): "Study and runs" shows the product and
+One product stored at 20, 30 and 40 degC (tests/study_kinds.py: a known rate
+plus seeded noise; tests/report/test_one_product.py checks its numbers against
+an independent Arrhenius fit): "Study and runs" shows the product and
 its storage kinetics; the views about models, targets and recommendations say
 in one line that there is nothing to model or search; the report and the
 workbook can still be taken.
 """
 from __future__ import annotations
 
-import math
+import sys
 from importlib.resources import files
+from pathlib import Path
 
-import numpy as np
 import pytest
 
 pytest.importorskip("streamlit")
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from study_kinds import ONE_PRODUCT_STUDY, one_product_storage  # noqa: E402
+
 APP = str(files("tradeoff_ui") / "app.py")
-R_GAS = 8.314462618
-STUDY = """[study]
-name = "One bar (generated)"
-
-[storage]
-data = "storage.csv"
-time = "week"
-temperature = "temp_c"
-
-[[responses]]
-name = "life"
-unit = "weeks"
-derive = "shelf_life"
-property = "hardness"
-limit = 35
-direction = "up"
-at_temperature = 20
-"""
-
-
-def _storage() -> bytes:
-    rng = np.random.default_rng(3)
-    rows = ["run,week,temp_c,property,value", f"P1,0,,hardness,{12 + rng.normal(0, 0.3):.4f}"]
-    for T, weeks in {20: (4, 8, 13, 26), 30: (2, 4, 8, 13), 40: (1, 2, 4, 6)}.items():
-        k = math.exp(-80e3 / R_GAS * (1 / (T + 273.15) - 1 / 293.15))
-        rows += [f"P1,{w},{T},hardness,{12 + k * w + rng.normal(0, 0.3):.4f}" for w in weeks]
-    return ("\n".join(rows) + "\n").encode()
 
 
 def _open() -> AppTest:
     at = AppTest.from_file(APP, default_timeout=120)
     at.run()
     at.switch_page("views/study.py").run()
-    at.file_uploader[0].set_value([("one.toml", STUDY.encode(), "text/plain"),
-                                   ("storage.csv", _storage(), "text/csv")]).run()
+    at.file_uploader[0].set_value([("one.toml", ONE_PRODUCT_STUDY.encode(), "text/plain"),
+                                   ("storage.csv", one_product_storage().encode(),
+                                    "text/csv")]).run()
     assert not at.exception and not at.error, [e.value for e in at.error]
     return at
 
