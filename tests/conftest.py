@@ -1,5 +1,9 @@
-"""Shared test helpers: small study files written into a temporary folder."""
+"""Shared test helpers: small study files written into a temporary folder, and the
+report page's embedded numbers."""
 from __future__ import annotations
+
+import json
+import re
 
 from pathlib import Path
 
@@ -101,3 +105,11 @@ def peaked_runs(seed: int = 11) -> str:
             liking += rng.normal(0, 0.05)
             rows.append(f"{run},{4 + 2 * a:g},{0.3 + 0.2 * b:g},{liking:.4f}")
     return "\n".join(rows) + "\n"
+
+
+def page_json(page: str) -> dict:
+    """The numbers a report page carries in its inert JSON block (result, provenance)."""
+    match = re.search(r'<script type="application/json" id="tradeoff-data">(.*?)</script>',
+                      page, re.S)
+    assert match, "the page carries its numbers as JSON"
+    return json.loads(match.group(1))

@@ -29,18 +29,13 @@ from tradeoff.report.workbook import build_workbook
 from tradeoff.report.write import write_report
 from tradeoff.search.search import optimize
 
+from conftest import page_json as _embedded
+
 REPO = Path(__file__).resolve().parents[2]
 DEMO = REPO / "demo_data" / "snack_bar.toml"
 TIRE = Path(__file__).resolve().parents[1] / "data" / "tire_tread_1980.toml"
 NOW = dt.datetime(2026, 1, 15, 9, 30, tzinfo=dt.timezone.utc)
 TOP, SEED = 3, 0
-
-
-def _embedded(page: str) -> dict:
-    match = re.search(r'<script type="application/json" id="tradeoff-data">(.*?)</script>',
-                      page, re.S)
-    assert match, "the page carries its numbers as JSON"
-    return json.loads(match.group(1))
 
 
 @pytest.fixture(scope="module")

@@ -27,14 +27,9 @@ from tradeoff.search.chance import chance_text
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from study_kinds import KINDS, write_study  # noqa: E402
 
+from conftest import page_json as _embedded  # noqa: E402
+
 TOP, SEED = 3, 0
-
-
-def _embedded(page: str) -> dict:
-    match = re.search(r'<script type="application/json" id="tradeoff-data">(.*?)</script>',
-                      page, re.S)
-    assert match, "the page carries its numbers as JSON"
-    return json.loads(match.group(1))
 
 
 def _section(page: str, key: str) -> str:
