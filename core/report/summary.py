@@ -164,8 +164,9 @@ def summary_text(summary: dict) -> str:
         unit = f" {r['unit']}" if r["unit"] else ""
         span = (f", {r['min']:g} .. {r['max']:g}{unit}" if "min" in r else "")
         lines.append(f"  {r['name']:<20} {r['measured']} measured, {r['blank']} blank"
-                     + (f"{span}; goal {r['goal']}; model {r['model']}" if not none else
-                        f" (of {summary['runs']} product(s)){span}"))
+                     f"{span}; goal {r['goal']}; model {r['model']}" if not none else
+                     f"  {r['name']:<20} a value for {r['measured']} of {summary['runs']} "
+                     "product(s), listed under Derived values")
         pc = r.get("pieces")
         if pc:
             each = (f"{pc['most']} each" if pc["most"] == pc["fewest"]
