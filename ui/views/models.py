@@ -203,7 +203,9 @@ with st.expander("Coefficients, analysis of variance and the equation"):
             {"term": k, "equals": combination_text({p["term"]: p["coef"] for p in v})}
             for k, v in report["aliases"].items()]), hide_index=True)
     if report["natural_coefficients"]:
-        st.write("The equation in natural units (categorical factors coded -1/+1):")
+        st.write("The equation in natural units (a two-level categorical factor coded "
+                 "-1/+1; one of three or more levels by its sum-to-zero columns, +1 at the "
+                 "level named, -1 at the last level):")
         natural = report["natural_coefficients"]
         st.dataframe(pd.DataFrame({"term": list(natural),
                                    "coefficient": [num(v, 6) for v in natural.values()]}),
