@@ -19,7 +19,7 @@ import pandas as pd
 
 from ..cautions import ACCELERATED_CAUTIONS, SHELF_LIFE_CAUTION
 from ..errors import DataError, StudyError
-from .kinetics import (KELVIN, R_GAS, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
+from .kinetics import (KELVIN, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
                        time_to_limit_se)
 from .table import flag_notes, name_list, run_table
 

@@ -26,7 +26,7 @@ from tradeoff import fit_study, optimize
 from tradeoff.derive.load import study_from_dict
 
 LEVELS = {"starch": ["corn", "pea", "potato"],
-          "sweetener": ["honey", "maple", "sucrose", "syrup"],
+          "sweetener": ["dextrose", "maple", "sucrose", "syrup"],
           "acid": ["citric", "lactic", "malic", "tartaric", "ascorbic"]}
 
 
