@@ -113,7 +113,8 @@ def derived_coefficients(terms, coef: np.ndarray, Rinv: np.ndarray, sigma: float
 def level_means(model) -> list[dict]:
     """Each level's predicted mean with its confidence interval, for every
     categorical factor, the other factors at their centre (numeric factors at
-    their mid-point, categorical ones averaged over their levels).
+    their mid-point, categorical ones averaged over their levels, a blend's
+    components at the overall centroid of their region).
 
     Rows: factor, level, predicted, ci_low, ci_high (natural units of the
     response), not_estimable: None, or why the runs cannot give this level's
@@ -130,6 +131,7 @@ def level_means(model) -> list[dict]:
     counts = getattr(model, "level_runs_", {}) or {}
     base = np.array([AVERAGE_LEVEL if f.is_categorical and len(f.levels) >= 3 else 0.0
                      for f in factors])
+    _blend_centroid(factors, base)
     rows = []
     for j, f in enumerate(factors):
         if not f.is_categorical:
@@ -145,6 +147,24 @@ def level_means(model) -> list[dict]:
                          "ci_low": None if why else r.ci_low,
                          "ci_high": None if why else r.ci_high, "not_estimable": why})
     return rows
+
+
+def _blend_centroid(factors, coded: np.ndarray) -> None:
+    """Put a blend's components (if any) at the overall centroid of their region,
+    in coded units: coded 0 for every component is no blend at all (the
+    L-pseudo-component origin), so "in the middle" means the centroid of the
+    extreme vertices (common practice for a blend's centre point)."""
+    from ..study.mixture import is_component
+    from ..study.mixture_region import extreme_vertices
+
+    idx = [j for j, f in enumerate(factors) if is_component(f)]
+    if not idx:
+        return
+    comps = [factors[j] for j in idx]
+    vertices = extreme_vertices([c.low for c in comps], [c.high for c in comps],
+                                comps[0].total)
+    amounts = vertices.mean(axis=0)
+    coded[idx] = [(a - c.centre) / c.half_range for a, c in zip(amounts, comps)]
 
 
 def level_counts(factors, X: np.ndarray) -> dict:

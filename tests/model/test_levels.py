@@ -193,3 +193,48 @@ def test_check_lists_each_level(capsys):
     text = capsys.readouterr().out
     assert "tension              categorical: L (18 runs), M (18 runs), H (18 runs)" in text
     assert "A (coded -1, 27 runs)" in text
+
+
+def test_level_means_of_a_blend_hold_it_at_its_centroid():
+    # The flour demo: three flours (40-70, 15-45, 10-45 % after tightening, total
+    # 100), a Scheffe quadratic crossed with bake temperature and a three-level
+    # hydrocolloid. Each level's mean is the prediction at the overall centroid
+    # of the extreme vertices (McLean & Anderson (1966); common practice), bake
+    # temperature mid-way. Reference: statsmodels OLS on the columns written out.
+    import itertools
+
+    import statsmodels.formula.api as smf
+
+    from tradeoff.study.demo import demo_study_path
+
+    study = load_study(demo_study_path().with_name("flour_blend.toml"))
+    model = fit_response(study, "specific_volume")
+    lows, highs, total = np.array([40.0, 15.0, 10.0]), np.array([70.0, 45.0, 45.0]), 100.0
+    vertices = set()
+    for free in range(3):  # two components at a bound, the third makes up the rest
+        others = [j for j in range(3) if j != free]
+        for a, b in itertools.product(*[(lows[j], highs[j]) for j in others]):
+            x = np.empty(3)
+            x[others] = a, b
+            x[free] = total - a - b
+            if lows[free] - 1e-9 <= x[free] <= highs[free] + 1e-9:
+                vertices.add(tuple(np.round(x, 9)))
+    centroid = np.mean(sorted(vertices), axis=0)
+
+    runs = study.runs.copy()
+    scale = total - lows.sum()
+    for name, low in zip(("rice_flour", "sorghum_flour", "tapioca_starch"), lows):
+        runs[name[0]] = (runs[name] - low) / scale  # L-pseudo-component shares
+    runs["temp"] = (runs["bake_temp"] - 190.0) / 15.0
+    runs["h"] = pd.Categorical(runs["hydrocolloid"], categories=["psyllium", "xanthan", "guar"])
+    fit = smf.ols("specific_volume ~ 0 + r + s + t + r:s + r:t + s:t + r:temp + s:temp"
+                  " + t:temp + r:C(h, Sum) + s:C(h, Sum) + t:C(h, Sum)", data=runs).fit()
+    at = pd.DataFrame({"r": (centroid[0] - 40) / scale, "s": (centroid[1] - 15) / scale,
+                       "t": (centroid[2] - 10) / scale, "temp": 0.0,
+                       "h": pd.Categorical(["psyllium", "xanthan", "guar"],
+                                           categories=["psyllium", "xanthan", "guar"])})
+    expected = fit.get_prediction(at).summary_frame(alpha=0.05)
+    means = [r for r in model.report()["level_means"] if r["factor"] == "hydrocolloid"]
+    assert [r["level"] for r in means] == ["psyllium", "xanthan", "guar"]
+    assert np.allclose([r["predicted"] for r in means], expected["mean"], rtol=1e-9)
+    assert np.allclose([r["ci_low"] for r in means], expected["mean_ci_lower"], rtol=1e-9)
