@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, stats
 
+from reference_desirability import d_of, study_D
 from tradeoff.derive.load import study_from_dict
 
 
@@ -171,40 +172,13 @@ def random_problem(seed: int, k: int | None = None, m: int | None = None,
 
 
 def d_reference(y, spec) -> np.ndarray:
-    """Derringer & Suich (1980) desirability written out case by case."""
-    y = np.asarray(y, dtype=float)
-    lo, hi = spec["lower"], spec["upper"]
-    out = np.zeros_like(y)
-    if spec["goal"] == "maximize":
-        s = spec.get("shape", 1.0)
-        mid = (y > lo) & (y < hi)
-        out[mid] = ((y[mid] - lo) / (hi - lo)) ** s
-        out[y >= hi] = 1.0
-    elif spec["goal"] == "minimize":
-        s = spec.get("shape", 1.0)
-        mid = (y > lo) & (y < hi)
-        out[mid] = ((hi - y[mid]) / (hi - lo)) ** s
-        out[y <= lo] = 1.0
-    elif spec["goal"] == "target":
-        t = spec["target"]
-        a = (y >= lo) & (y <= t)
-        b = (y > t) & (y <= hi)
-        out[a] = ((y[a] - lo) / (t - lo)) ** spec.get("shape_below", 1.0)
-        out[b] = ((hi - y[b]) / (hi - t)) ** spec.get("shape_above", 1.0)
-    elif spec["goal"] == "range":
-        out[(y >= lo) & (y <= hi)] = 1.0
-    return out
+    """Derringer & Suich (1980) desirability of one goal (tests/reference_desirability.py)."""
+    return d_of(y, spec)
 
 
 def d_overall_reference(X, study, fit) -> np.ndarray:
     """Weighted geometric mean (Derringer 1994), written out with a product."""
-    specs = study.spec["responses"]
-    total = np.ones(len(X))
-    wsum = sum(s.get("weight", 1.0) for s in specs)
-    for s in specs:
-        d = d_reference(fit.models[s["name"]].predict(X), s)
-        total = total * d ** (s.get("weight", 1.0) / wsum)
-    return total
+    return study_D(study, fit, X)
 
 
 def dense_grid_optimum(study, fit, points_per_axis: int | None = None, polish: int = 5):

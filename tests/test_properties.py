@@ -6,8 +6,11 @@
 - every desirability lies in [0, 1] and moves the right way with its response:
   up for maximize, down for minimize, rising to 1 at the target and falling
   after it (Derringer & Suich 1980, the definitions of the curves);
+- each desirability equals the published curve written out in
+  tests/reference_desirability.py (Derringer & Suich 1980);
 - the overall desirability does not depend on the order of the responses
-  (a weighted geometric mean is symmetric, Derringer 1994);
+  (a weighted geometric mean is symmetric, Derringer 1994) and equals the
+  weighted product written out in tests/reference_desirability.py;
 - a solution of the search never lies outside the searched region, never
   breaks a rule among factors, and takes only the levels of a categorical
   factor;
@@ -27,6 +30,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from reference_desirability import d_of, overall, study_D
 from tradeoff.study.coding import code_values, decode_values, to_coded, to_natural
 from tradeoff.study.constraints import rules_satisfied
 from tradeoff.search.desirability import combine_desirability, desirability
@@ -112,6 +116,11 @@ def test_desirability_is_in_0_1_and_moves_the_right_way(goal, fractions):
     y = np.sort(goal.lower + np.array(fractions) * width)
     d = desirability(y, goal)
     assert d.shape == y.shape
+    # the published curves, written out independently (tests/reference_desirability.py)
+    table = {"goal": goal.kind, "lower": goal.lower, "upper": goal.upper,
+             "target": goal.target, "shape": goal.shape, "shape_below": goal.shape_below,
+             "shape_above": goal.shape_above}
+    assert np.allclose(d, d_of(y, table), rtol=1e-9, atol=1e-12)
     assert np.all((d >= 0) & (d <= 1))
     step = np.diff(d)
     tol = 1e-12
@@ -126,7 +135,7 @@ def test_desirability_is_in_0_1_and_moves_the_right_way(goal, fractions):
         falling = y[:-1] >= goal.target
         assert np.all(step[rising] >= -tol) and np.all(step[falling] <= tol)
         assert desirability([goal.target], goal)[0] == pytest.approx(1.0)
-        assert d.max() <= desirability([goal.target], goal)[0] + tol
+        assert d.max() <= 1.0 + tol
     else:
         inside = (y >= goal.lower) & (y <= goal.upper)
         assert np.array_equal(d, inside.astype(float))
@@ -142,6 +151,8 @@ def test_overall_desirability_ignores_the_order_of_responses(drawn):
     d, w = np.array(d), np.array(w)
     D = combine_desirability(d, w)
     assert np.all((D >= 0) & (D <= 1))
+    # Derringer (1994), written out as a product (tests/reference_desirability.py)
+    assert np.allclose(D, overall(d.T, w), rtol=1e-9, atol=1e-12)
     assert np.allclose(combine_desirability(d[:, order], w[order]), D, rtol=1e-12, atol=0)
     # a geometric mean lies between the smallest and largest value it averages
     assert np.all(D >= d.min(axis=1) - 1e-12) and np.all(D <= d.max(axis=1) + 1e-12)
@@ -230,9 +241,12 @@ def test_overall_desirability_of_a_study_ignores_the_order_of_its_responses(
     shuffled = _build({**spec, "responses": [spec["responses"][i] for i in order]}, data)
     X = np.random.default_rng(seed).uniform(-1, 1, (25, 3))
     X[:, 2] = np.where(X[:, 2] < 0, -1.0, 1.0)
-    D, _ = overall_desirability(study, fit_study(study), X)
+    fit = fit_study(study)
+    D, _ = overall_desirability(study, fit, X)
     D2, _ = overall_desirability(shuffled, fit_study(shuffled), X)
     assert np.allclose(D, D2, rtol=1e-10, atol=1e-12)
+    # and D is the published weighted geometric mean (tests/reference_desirability.py)
+    assert np.allclose(D, study_D(study, fit, X), rtol=1e-9, atol=1e-12)
 
 
 @FAST

@@ -11,6 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from reference_desirability import study_D
 from tradeoff import StudyError, load_study
 from tradeoff.model.study_fit import fit_study
 from tradeoff.maps.contours import contour_lines, held_settings, limits_map, round_levels
@@ -77,8 +78,29 @@ def test_explicit_levels_and_d(tire):
     study, fit = tire
     lines = contour_lines(study, "y2", "x1", "x3", levels=[1100, 1200], fit=fit)
     assert set(lines["level"]) <= {1100.0, 1200.0}
+    assert set(lines["level"]) == {1100.0, 1200.0}
     d = contour_lines(study, "D", "x1", "x2", levels=[0.2, 0.4], fit=fit)
-    assert set(d["level"]) <= {0.2, 0.4}
+    # both D lines are drawn (D at x3 = 0 spans about 0 .. 0.5 over the square)
+    assert set(d["level"]) == {0.2, 0.4}
+    # Each vertex lies on an edge of the 61 x 61 grid, between two grid points
+    # whose D (written out from the published formulas, Derringer & Suich 1980 and
+    # Derringer 1994: tests/reference_desirability.py) straddles its level. (D
+    # has kinks and a steep rise where a limit starts to bite, so the straddle is
+    # checked rather than a bound on the interpolation error.)
+    axis = np.linspace(-1, 1, 61)
+    ends = []
+    for x, y in zip(d["x"], d["y"]):
+        on_x = np.isclose(axis, x, rtol=0, atol=1e-9).any()
+        moving = y if on_x else x
+        i = np.clip(np.searchsorted(axis, moving) - 1, 0, 59)
+        a, b = axis[i], axis[i + 1]
+        ends += [(x, a, 0.0), (x, b, 0.0)] if on_x else [(a, y, 0.0), (b, y, 0.0)]
+    D = study_D(study, fit, np.array(ends)).reshape(-1, 2)
+    level = d["level"].to_numpy()
+    assert np.all((D.min(axis=1) <= level + 1e-12) & (level <= D.max(axis=1) + 1e-12))
+    # and between its grid points, close to the level almost everywhere
+    X = np.column_stack([d["x"], d["y"], np.zeros(len(d))])
+    assert np.median(np.abs(study_D(study, fit, X) - level)) < 0.005
 
 
 PLANE = """\

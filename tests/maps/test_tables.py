@@ -9,6 +9,7 @@ from tradeoff import StudyError, load_study
 from tradeoff.maps.tables import desirability_curves, interaction_means, runs_table
 
 from conftest import DEMO
+from reference_desirability import d_of, overall
 
 
 @pytest.fixture(scope="module")
@@ -131,7 +132,6 @@ def test_effect_lines_without_residual_df_are_lenths(write_study):
 
 
 def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fitted):
-    from tradeoff.search.desirability import desirability
     from tradeoff.maps.tables import contour_grid
 
     held = {"binder": "date paste", "mix_temp": 55.0}
@@ -143,16 +143,17 @@ def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fit
     for response in ("liking", "cost"):
         ref = _ols(demo, response).predict(coded)
         assert np.allclose(grid[response], ref, rtol=1e-9)
-    # D: weighted geometric mean of the individual desirabilities (Derringer 1994)
+    # D: weighted geometric mean (Derringer 1994) of the individual desirabilities
+    # (Derringer & Suich 1980), both written out in tests/reference_desirability.py,
+    # with the goals as the study file states them
+    tables = {t["name"]: t for t in demo.spec["responses"] + demo.spec["factors"]}
     parts, weights = [], []
     for r in demo.responses:
-        parts.append(desirability(grid[r.name].to_numpy(), r.goal))
-        weights.append(r.goal.weight)
-    parts.append(desirability(grid["x"].to_numpy(), demo.factor("protein").goal))
+        parts.append(d_of(grid[r.name].to_numpy(), tables[r.name]))
+        weights.append(tables[r.name].get("weight", 1.0))
+    parts.append(d_of(grid["x"].to_numpy(), tables["protein"]))
     weights.append(0.5)
-    w = np.array(weights) / np.sum(weights)
-    D = np.prod(np.column_stack(parts) ** w, axis=1)
-    assert np.allclose(grid["D"], D, atol=1e-12)
+    assert np.allclose(grid["D"], overall(parts, weights), atol=1e-12)
     within = np.ones(25, dtype=bool)
     for r in demo.responses:
         g, v = r.goal, grid[r.name]

@@ -1,12 +1,14 @@
 """Individual and overall desirability against values worked by hand from the
-published formulas: Derringer & Suich (1980), Journal of Quality Technology
-12(4), 214-219 (individual), and Derringer (1994), Quality Progress 27(6)
-(weighted geometric mean)."""
+published formulas, and against the formulas written out independently in
+tests/reference_desirability.py: Derringer & Suich (1980), Journal of Quality
+Technology 12(4), 214-219 (individual), and Derringer (1994), Quality Progress
+27(6) (weighted geometric mean)."""
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
+from reference_desirability import d_maximize, d_minimize, d_target, overall
 from tradeoff.search.desirability import combine_desirability, desirability, limits, shortfall
 from tradeoff.study.spec import Goal
 
@@ -41,6 +43,29 @@ def test_target_two_sided_with_both_shapes():
     assert desirability(550, g2) == pytest.approx(0.25)
 
 
+def test_target_with_unequal_widths_and_shapes():
+    # Derringer & Suich (1980), two-sided with widths that differ: 8 - 2 = 6 below
+    # the target, 10 - 8 = 2 above, s = 0.5 below and t = 3 above. Swapping the
+    # widths or the shapes changes these values. By hand: y = 5 gives (3/6)^0.5,
+    # y = 9 gives (1/2)^3, y = 3.5 gives (1.5/6)^0.5 = 0.5.
+    g = Goal("target", lower=2, target=8, upper=10, shape_below=0.5, shape_above=3)
+    assert desirability([5.0, 9.0, 3.5, 8.0, 2.0, 10.0], g) == pytest.approx(
+        [0.5 ** 0.5, 0.125, 0.5, 1.0, 0.0, 0.0], rel=1e-12)
+    # and everywhere, against the formulas written out in tests/reference_desirability.py
+    y = np.linspace(0, 12, 241)
+    assert np.allclose(desirability(y, g), d_target(y, 2, 8, 10, 0.5, 3), rtol=1e-12, atol=0)
+
+
+def test_one_sided_curves_against_the_written_out_formulas():
+    # Derringer & Suich (1980), with shapes on either side of 1
+    y = np.linspace(100, 200, 201)
+    for s in (0.3, 1.0, 2.5):
+        assert np.allclose(desirability(y, Goal("maximize", lower=120, upper=170, shape=s)),
+                           d_maximize(y, 120, 170, s), rtol=1e-12, atol=0)
+        assert np.allclose(desirability(y, Goal("minimize", lower=120, upper=170, shape=s)),
+                           d_minimize(y, 120, 170, s), rtol=1e-12, atol=0)
+
+
 def test_range_and_none():
     g = Goal("range", lower=0.5, upper=0.6)
     assert desirability([0.49, 0.5, 0.55, 0.6, 0.61], g).tolist() == [0, 1, 1, 1, 0]
@@ -73,6 +98,11 @@ def test_weighted_geometric_mean_and_zero():
     d = np.array([[0.25, 1.0], [0.0, 0.9], [0.5, 0.5]])
     D = combine_desirability(d, [2, 1])
     assert D == pytest.approx([0.0625 ** (1 / 3), 0.0, 0.5])
+    # unequal weights on many rows, against the product written out
+    rng = np.random.default_rng(3)
+    d = rng.uniform(0, 1, (50, 4))
+    w = [0.5, 2.0, 1.0, 3.0]
+    assert np.allclose(combine_desirability(d, w), overall(d.T, w), rtol=1e-12, atol=0)
 
 
 def test_limits_and_shortfall():

@@ -1,8 +1,10 @@
 """The search on the constrained simplex against brute-force enumeration.
 
 The best overall desirability found must match (or beat) the best of a dense
-grid of blends, enumerated here independently of the search; every blend it
-returns must add up to the total and keep every component within its bounds.
+grid of blends, enumerated here independently of the search and scored with
+the Derringer & Suich (1980) desirabilities and Derringer's (1994) weighted D
+written out in tests/reference_desirability.py; every blend it returns must add
+up to the total and keep every component within its bounds.
 """
 from __future__ import annotations
 
@@ -11,7 +13,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from tradeoff import fit_study, load_study, optimize, overall_desirability
+from reference_desirability import study_D
+from tradeoff import fit_study, load_study, optimize
 
 DATA = Path(__file__).resolve().parents[1] / "data"
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml"
@@ -28,7 +31,7 @@ def test_yarn_optimum_matches_a_dense_simplex_grid():
     fit = fit_study(study)
     result = optimize(study, fit=fit, top=3)
     P = _grid(400)
-    D, _ = overall_desirability(study, fit, P)
+    D = study_D(study, fit, P)
     best = result.best
     assert best.desirability >= D.max() - 1e-9
     # the grid's best blend is next to the one found (independent enumeration)
@@ -55,7 +58,7 @@ def test_flour_demo_optimum_matches_grid_over_blend_temperature_and_hydrocolloid
     # coded value is the level's position)
     X = np.vstack([np.column_stack([Z, np.full(len(Z), t), np.full(len(Z), h)])
                    for t in temps for h in range(len(levels))])
-    D, _ = overall_desirability(study, fit, X)
+    D = study_D(study, fit, X)
     assert result.best.desirability >= D.max() - 1e-6
     assert result.best.settings["hydrocolloid"] == levels[int(X[np.argmax(D), 4])]
     for s in result.solutions:

@@ -16,6 +16,7 @@ import pytest
 
 from search_problems import (d_overall_reference, dense_grid_optimum, design_matrix,
                              random_problem)
+from reference_desirability import study_D, study_d
 from tradeoff import load_study, optimize, overall_desirability
 from tradeoff.cli import main
 from tradeoff.errors import SearchError
@@ -80,6 +81,83 @@ def test_overall_desirability_helper_matches_reference():
     D, d = overall_desirability(study, fit, X)
     assert d.shape == (50, 4)
     assert D == pytest.approx(d_overall_reference(X, study, fit), abs=1e-12)
+
+
+UNEQUAL = """\
+[study]
+name = "unequal widths"
+
+[[factors]]
+name = "a"
+low = 0
+high = 10
+
+[[factors]]
+name = "b"
+low = -1
+high = 1
+goal = "target"
+lower = -1
+target = 0.5
+upper = 1
+shape_below = 2
+shape_above = 0.5
+weight = 0.5
+
+[[responses]]
+name = "y"
+goal = "target"
+lower = 2
+target = 8
+upper = 10
+shape_below = 0.5
+shape_above = 3
+weight = 2
+
+[[responses]]
+name = "z"
+goal = "minimize"
+lower = 1
+upper = 4
+shape = 2
+"""
+
+
+class _Line:
+    """A known straight line in coded units: y = c0 + c1 a + c2 b."""
+
+    def __init__(self, *coef):
+        self.coef = np.array(coef, dtype=float)
+
+    def predict(self, X):
+        X = np.atleast_2d(X)
+        return self.coef[0] + X @ self.coef[1:]
+
+
+def test_search_scorer_with_unequal_target_widths_and_shapes():
+    # A target whose widths differ on each side (8 - 2 = 6 below, 10 - 8 = 2
+    # above) with different shapes, and a factor target (1.5 below, 0.5 above):
+    # swapping the widths or the shapes changes d, so the scorer must match the
+    # Derringer & Suich (1980) formulas written out independently
+    # (tests/reference_desirability.py), weights as Derringer (1994).
+    import tomllib
+
+    study = study_from_dict(tomllib.loads(UNEQUAL), with_data=False)
+    models = {"y": _Line(6.0, 4.0, 1.0), "z": _Line(2.5, 1.0, -0.5)}
+    X = np.random.default_rng(4).uniform(-1, 1, (400, 2))
+    D, d = overall_desirability(study, models, X)
+    names, ref = study_d(study, models, X)
+    assert names == ["y", "z", "b"]
+    assert np.allclose(d, ref, rtol=1e-12, atol=1e-15)
+    assert np.allclose(D, study_D(study, models, X), rtol=1e-12, atol=1e-15)
+    # by hand at a = 0.25, b = 0.75: y = 6 + 1 + 0.75 = 7.75, below its target:
+    # ((7.75 - 2) / 6)^0.5; z = 2.5 + 0.25 - 0.375 = 2.375: ((4 - 2.375) / 3)^2;
+    # b = 0.75, above its target: ((1 - 0.75) / 0.5)^0.5
+    D1, d1 = overall_desirability(study, models, np.array([[0.25, 0.75]]))
+    hand = [(5.75 / 6) ** 0.5, (1.625 / 3) ** 2, 0.5 ** 0.5]
+    assert d1[0] == pytest.approx(hand, rel=1e-12)
+    assert D1[0] == pytest.approx((hand[0] ** 2 * hand[1] * hand[2] ** 0.5) ** (1 / 3.5),
+                                  rel=1e-12)
 
 
 @pytest.mark.parametrize("seed, k, m, kind", [
@@ -188,7 +266,9 @@ def test_demo_study_alternative_per_binder():
     g = np.array(np.meshgrid(axis, axis, axis, indexing="ij")).reshape(3, -1).T
     for level, code in (("rice syrup", -1.0), ("date paste", 1.0)):
         X = np.column_stack([g[:, 0], g[:, 1], np.full(len(g), code), g[:, 2]])
-        assert by_binder[level] >= overall_desirability(study, fit, X)[0].max() - 1e-3
+        # D written out from the published formulas (tests/reference_desirability.py),
+        # the protein goal included
+        assert by_binder[level] >= study_D(study, fit, X).max() - 1e-3
 
 
 def test_demo_study_edge_warning():
