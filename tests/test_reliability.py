@@ -491,7 +491,6 @@ def test_upload_semicolon_table_is_read_like_the_comma_one():
 
 
 def test_workbench_upload_of_a_damaged_workbook_keeps_the_open_study():
-    pytest.importorskip("streamlit")
     from importlib.resources import files
 
     from streamlit.testing.v1 import AppTest

@@ -79,7 +79,7 @@ def fitted(demo):
 
 def _ols(demo, response):
     """The same two-factor-interaction model fitted by statsmodels on coded columns."""
-    sm = pytest.importorskip("statsmodels.formula.api")
+    import statsmodels.formula.api as sm
     frame = demo.coded().copy()
     frame["y"] = demo.runs[response].to_numpy(float)
     formula = "y ~ (protein + glycerol + binder + mix_temp) ** 2"

@@ -45,7 +45,7 @@ def design_columns(X: np.ndarray, labels: list[str], names: list[str]) -> np.nda
     (3, 3, 20, ["a", "b", "c", "a:b", "b^2"]),
 ])
 def test_matches_statsmodels_ols(seed, k, n, terms):
-    sm = pytest.importorskip("statsmodels.api")
+    import statsmodels.api as sm
     from statsmodels.stats.outliers_influence import OLSInfluence
 
     rng = np.random.default_rng(seed)
@@ -92,7 +92,7 @@ def test_matches_statsmodels_ols(seed, k, n, terms):
 def test_lack_of_fit_matches_statsmodels_comparison_with_cell_means():
     # Lack of fit = extra-sum-of-squares F test of the model against a model with one
     # mean per distinct setting (statsmodels compare_f_test as the reference).
-    sm = pytest.importorskip("statsmodels.api")
+    import statsmodels.api as sm
     rng = np.random.default_rng(5)
     X = np.vstack([factorial(2), factorial(2), np.zeros((4, 2)), [[1, 0], [0, -1]]])
     y = 10 + 2 * X[:, 0] - X[:, 1] + 3 * X[:, 0] ** 2 + rng.normal(0, 0.3, len(X))
@@ -110,7 +110,7 @@ def test_lack_of_fit_matches_statsmodels_comparison_with_cell_means():
 def test_curvature_test_matches_a_centre_indicator_in_statsmodels():
     # The curvature F on 1 df equals the squared t of a centre-run indicator added to the
     # full factorial model, whose residual is then exactly the centre points' pure error.
-    sm = pytest.importorskip("statsmodels.api")
+    import statsmodels.api as sm
     X = np.vstack([factorial(2), np.zeros((4, 2))])
     y = np.array([39.3, 40.9, 40.0, 41.5, 40.3, 40.5, 40.7, 40.2])  # 2^2 + 4 centre runs
     m = ResponseModel(terms="interactions", factor_names=["a", "b"]).fit(X, y)
@@ -185,6 +185,49 @@ def test_reduction_by_lenth_keeps_the_published_active_effects():
     np.testing.assert_allclose(m.coef_, [70.06, 10.81, 4.94, 7.31, -9.06, 8.31], atol=0.005)
     assert m.residual_df_ == 10 and m.lenth_ is None
     assert "|effect| 3.125 below Lenth ME" in m.reduction_["B"]
+
+
+# Effects built so that Lenth's t quantile on d = m/3 degrees of freedom decides
+# which effects are active: D lies just above the margin of error, A:B just
+# below it, and a quantile on other degrees of freedom (m/2, m, m/4) or another
+# trimming cut (2.5 s0) moves one of them across.
+BORDER_EFFECTS = {"A": 20.0, "B": -15.0, "C": 12.0, "D": 6.7, "A:B": 6.4,
+                  "A:C": 0.5, "A:D": -0.8, "B:C": 1.0, "B:D": -1.2, "C:D": 1.5,
+                  "A:B:C": -1.6, "A:B:D": 1.8, "A:C:D": -2.0, "B:C:D": 2.2,
+                  "A:B:C:D": -2.4}
+
+
+def _lenth_by_hand(effects, d):
+    """Lenth (1989): s0 = 1.5 median|c|; PSE = 1.5 median of |c| < 2.5 s0;
+    ME = t(0.975, d) PSE."""
+    c = np.abs(np.asarray(effects, dtype=float))
+    s0 = 1.5 * np.median(c)
+    pse = 1.5 * np.median(c[c < 2.5 * s0])
+    return pse, stats.t.ppf(0.975, d) * pse
+
+
+def test_lenth_degrees_of_freedom_decide_the_active_effects():
+    labels = list(BORDER_EFFECTS)
+    X = factorial(4)
+    M = design_columns(X, labels, list("ABCD"))
+    # an effect is twice its coefficient in coded units (common practice)
+    y = 50 + M @ (np.array(list(BORDER_EFFECTS.values())) / 2)
+    effects = list(BORDER_EFFECTS.values())
+    m = len(effects)
+    pse, me = _lenth_by_hand(effects, m / 3)
+    # by hand: median |c| = 2.0, s0 = 3, cut 7.5 keeps 12 effects whose median is
+    # (1.6 + 1.8) / 2, so PSE = 2.55 and ME = t(0.975, 5) * 2.55 = 6.555
+    assert pse == pytest.approx(2.55) and me == pytest.approx(6.555, abs=1e-3)
+    # the case is sensitive: D and A:B change sides with the degrees of freedom
+    assert _lenth_by_hand(effects, m / 4)[1] > 6.7 > me > 6.4 > _lenth_by_hand(
+        effects, m / 2)[1]
+    full = ResponseModel(terms="full", factor_names=list("ABCD")).fit(X, y)
+    assert full.report()["lenth"]["me"] == pytest.approx(me, rel=1e-12)
+    active = [t for t, e in BORDER_EFFECTS.items() if abs(e) > me]
+    assert active == ["A", "B", "C", "D"]
+    reduced = ResponseModel(terms="full", factor_names=list("ABCD"), reduce=True).fit(X, y)
+    assert reduced.terms_ == ["intercept"] + active
+    assert "|effect| 6.4 below Lenth ME 6.555" in reduced.reduction_["A:B"]
 
 
 def test_reduction_pinned_terms_stay():

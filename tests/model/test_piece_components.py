@@ -79,8 +79,8 @@ def _run_means(frame):
 
 
 def test_fit_equals_ols_on_run_means(write_study):
-    sm = pytest.importorskip("statsmodels.api")
-    smf = pytest.importorskip("statsmodels.formula.api")
+    import statsmodels.api as sm
+    import statsmodels.formula.api as smf
     settings = CORNERS + [(25, 4)] * 3  # three replicate centre batches
     csv, frame = _pieces_csv(settings, 3, seed=11, batch_sd=0.8, within_sd=1.2)
     model = fit_response(load_study(write_study(STUDY, csv)), "hardness")
@@ -103,7 +103,7 @@ def test_fit_equals_ols_on_run_means(write_study):
 
 
 def test_within_and_batch_sd_match_the_nested_anova_closed_forms(write_study):
-    smf = pytest.importorskip("statsmodels.formula.api")
+    import statsmodels.formula.api as smf
     # 2x2 corners, 3 batches at each, 4 pieces per batch: the interactions model
     # fits every cell, so its residual is the batches-within-cells stratum
     settings = [s for s in CORNERS for _ in range(3)]
@@ -127,7 +127,7 @@ def test_within_and_batch_sd_match_the_nested_anova_closed_forms(write_study):
 
 
 def test_batch_sd_agrees_with_mixed_model_reml_when_balanced(write_study):
-    smf = pytest.importorskip("statsmodels.formula.api")
+    import statsmodels.formula.api as smf
     settings = [s for s in CORNERS for _ in range(3)] + [(25, 4)] * 3
     csv, frame = _pieces_csv(settings, 3, seed=8, batch_sd=2.0, within_sd=1.0)
     model = fit_response(load_study(write_study(STUDY, csv)), "hardness")
@@ -165,6 +165,45 @@ def test_unequal_pieces_use_the_harmonic_mean():
     sd, _ = within_batch([1, 3, 2, 4, 6, 4], ["a", "a", "b", "b", "b", "b"])
     assert block["pieces_per_run"] == pytest.approx(8 / 3)
     assert block["batch_sd"] == pytest.approx(math.sqrt(4.0 - sd ** 2 * 3 / 8))
+
+
+def test_unequal_pieces_through_the_whole_fit(write_study):
+    # Batches of 1, 2, 3 and 6 pieces. A run mean of k_i pieces carries
+    # batch^2 + within^2 / k_i; averaged over the runs, the residual variance of
+    # the model on run means estimates batch^2 + within^2 * mean(1 / k_i) (the
+    # unweighted moment equation of the two-stage nested design, Searle, Casella &
+    # McCulloch (1992), ch. 3, from memory), so batch^2 = s^2 - within^2 * mean(1/k).
+    # Residual variance from statsmodels OLS on the run means; within-batch
+    # variance pooled here with pandas.
+    import statsmodels.api as sm
+
+    settings = [s for s in CORNERS for _ in range(2)] + [(25, 4)] * 3
+    counts = [1, 6, 2, 3, 6, 1, 3, 2, 6, 2, 3]
+    rng = np.random.default_rng(21)
+    rows, frame = ["run,protein,glycerol,hardness"], []
+    for i, ((p, g), k) in enumerate(zip(settings, counts), start=1):
+        batch = 20 + 0.8 * (p - 25) - 1.5 * (g - 4) + rng.normal(0, 2.0)
+        for _ in range(k):
+            y = round(batch + rng.normal(0, 1.0), 3)
+            rows.append(f"B{i},{p},{g},{y}")
+            frame.append({"run": f"B{i}", "protein": p, "glycerol": g, "y": y})
+    frame = pd.DataFrame(frame)
+    model = fit_response(load_study(write_study(STUDY, "\n".join(rows) + "\n")),
+                         "hardness")
+    block = model.pieces_
+    groups = frame.groupby("run", sort=False)["y"]
+    k = groups.size().to_numpy(float)
+    within_var = float((groups.var(ddof=1).fillna(0) * (k - 1)).sum() / (k - 1).sum())
+    means = _run_means(frame.assign(cell=""))
+    x1, x2 = (means["protein"] - 25) / 5, (means["glycerol"] - 4) / 2
+    ols = sm.OLS(means["y"].to_numpy(), sm.add_constant(np.column_stack(
+        [x1, x2, x1 * x2]))).fit()
+    assert block["within_sd"] ** 2 == pytest.approx(within_var, rel=1e-10)
+    assert block["pieces_per_run"] == pytest.approx(1 / np.mean(1 / k), rel=1e-12)
+    assert block["pieces_per_run"] != pytest.approx(k.mean(), rel=0.05)  # not arithmetic
+    batch_var = ols.scale - within_var * np.mean(1 / k)
+    assert batch_var > 0
+    assert block["batch_sd"] == pytest.approx(math.sqrt(batch_var), rel=1e-9)
 
 
 @pytest.mark.parametrize("residual_sd, words", [

@@ -232,3 +232,70 @@ def test_full_process_crossing_against_statsmodels(tmp_path):
                  np.column_stack([cols[k] for k in model.terms_])).fit()
     np.testing.assert_allclose(model.coef_, res.params, rtol=1e-8)
     np.testing.assert_allclose(model.r2_, 1 - res.ssr / res.centered_tss, rtol=1e-10)
+
+
+CUBIC_STUDY = """\
+[study]
+name = "full cubic blend (generated for a check)"
+data = "runs.csv"
+
+[mixture]
+total = 1
+model = "cubic"
+
+[[components]]
+name = "a"
+low = 0
+high = 1
+
+[[components]]
+name = "b"
+low = 0
+high = 1
+
+[[components]]
+name = "c"
+low = 0
+high = 1
+
+[[responses]]
+name = "y"
+"""
+
+
+def test_full_cubic_fit_against_statsmodels_on_written_out_columns(write_study):
+    # A simplex-lattice {3, 3} (10 blends, the lattice that supports the full
+    # cubic) plus the three interior axial blends and a second centroid,
+    # generated from a known full cubic with seeded noise. The contrast columns
+    # are written here as d_ij x_i x_j (x_i - x_j), i before j (Scheffe's full
+    # cubic, Cornell (2002), ch. 2, from memory), so a sign slip in the tool's
+    # a:b:(a-b) column flips its coefficients against statsmodels OLS.
+    third = [(1, 0, 0), (0, 1, 0), (0, 0, 1)]
+    third += [(2 / 3, 1 / 3, 0), (1 / 3, 2 / 3, 0), (2 / 3, 0, 1 / 3), (1 / 3, 0, 2 / 3),
+              (0, 2 / 3, 1 / 3), (0, 1 / 3, 2 / 3), (1 / 3, 1 / 3, 1 / 3),
+              (2 / 3, 1 / 6, 1 / 6), (1 / 6, 2 / 3, 1 / 6), (1 / 6, 1 / 6, 2 / 3),
+              (1 / 3, 1 / 3, 1 / 3)]
+    P = np.array(third, dtype=float)
+    a, b, c = P.T
+    cols = np.column_stack([a, b, c, a * b, a * c, b * c, a * b * (a - b),
+                            a * c * (a - c), b * c * (b - c), a * b * c])
+    truth = np.array([10.0, 14.0, 8.0, 6.0, -4.0, 3.0, 9.0, -7.0, 5.0, 20.0])
+    y = cols @ truth + np.random.default_rng(7).normal(0, 0.2, len(P))
+    rows = ["run,a,b,c,y"] + [
+        f"{i + 1},{float(p[0])!r},{float(p[1])!r},{float(1 - p[0] - p[1])!r},{float(v)!r}"
+        for i, (p, v) in enumerate(zip(P, y))]
+    study = load_study(write_study(CUBIC_STUDY, "\n".join(rows) + "\n"))
+    model = fit_response(study, "y")
+    assert model.terms_ == ["a", "b", "c", "a:b", "a:c", "b:c", "a:b:(a-b)", "a:c:(a-c)",
+                            "b:c:(b-c)", "a:b:c"]
+    res = sm.OLS(y, cols).fit()
+    np.testing.assert_allclose(model.coef_, res.params, rtol=1e-8, atol=1e-9)
+    np.testing.assert_allclose(model.std_errors_, res.bse, rtol=1e-8)
+    assert model.residual_df_ == int(res.df_resid) == 4
+    # the contrast coefficients keep the signs they were generated with
+    assert np.sign(model.coef_[6:9]).tolist() == [1.0, -1.0, 1.0]
+    probe = np.array([[0.5, 0.3, 0.2], [0.1, 0.2, 0.7]])
+    pa, pb, pc = probe.T
+    hand = np.column_stack([pa, pb, pc, pa * pb, pa * pc, pb * pc, pa * pb * (pa - pb),
+                            pa * pc * (pa - pc), pb * pc * (pb - pc), pa * pb * pc])
+    np.testing.assert_allclose(model.predict(probe), hand @ res.params, rtol=1e-9)

@@ -98,3 +98,59 @@ def test_no_error_estimate_gives_no_chance():
     est = chance_in_limits(study, {"y": model}, np.zeros((1, 1)), draws=100)
     assert np.isnan(est.each[0, 0]) and np.isnan(est.all[0])
     assert "no chance for 'y'" in est.assumption
+
+
+def test_chance_of_a_fitted_model_uses_n_minus_p_degrees_of_freedom(write_study):
+    # A quadratic in one factor fitted to 6 runs: p = 3 coefficients, so a new
+    # measurement follows mean + t(n - p = 3) * sqrt(se_mean^2 + s^2) (the
+    # prediction distribution of a linear model, common practice). The mean, its
+    # standard error and s come from statsmodels OLS; the chance from scipy's t
+    # with the degrees of freedom counted here. Limits 2.5 scales either side
+    # make the chance depend strongly on the degrees of freedom.
+    import statsmodels.api as sm
+
+    x = np.array([-1.0, -1.0, 0.0, 0.0, 1.0, 1.0])
+    y = 20 + 3 * x - 2 * x ** 2 + np.random.default_rng(8).normal(0, 0.5, 6)
+    F = np.column_stack([np.ones(6), x, x ** 2])
+    res = sm.OLS(y, F).fit()
+    at = np.array([[1.0, 0.4, 0.16]])
+    pred = res.get_prediction(at)
+    mean, se = float(pred.predicted_mean[0]), float(pred.se_mean[0])
+    scale = np.hypot(se, np.sqrt(res.scale))
+    n, p = len(y), F.shape[1]
+    lo, hi = float(mean - 2.5 * scale), float(mean + 2.5 * scale)
+    study_text = f"""\
+[study]
+name = "one factor"
+data = "runs.csv"
+model = "quadratic"
+
+[[factors]]
+name = "temp"
+low = 40
+high = 60
+
+[[responses]]
+name = "y"
+goal = "target"
+lower = {lo!r}
+target = {mean!r}
+upper = {hi!r}
+"""
+    runs = "run,temp,y\n" + "".join(f"{i + 1},{float(50 + 10 * v)!r},{float(w)!r}\n"
+                                    for i, (v, w) in enumerate(zip(x, y)))
+    from tradeoff import load_study
+    from tradeoff.model.study_fit import fit_study
+
+    study = load_study(write_study(study_text, runs))
+    models = fit_study(study).models
+    draws = 60000
+    est = chance_in_limits(study, models, np.array([[0.4]]), draws=draws, seed=4)
+    exact = stats.t.cdf(2.5, n - p) - stats.t.cdf(-2.5, n - p)   # 0.912
+    tol = 4 * _se(exact, draws)
+    assert est.each[0, 0] == pytest.approx(exact, abs=tol)
+    # the check tells neighbouring degrees of freedom (and the normal) apart
+    for other in (stats.t.cdf(2.5, n - p - 1) - stats.t.cdf(-2.5, n - p - 1),
+                  stats.t.cdf(2.5, n - p + 1) - stats.t.cdf(-2.5, n - p + 1),
+                  stats.norm.cdf(2.5) - stats.norm.cdf(-2.5)):
+        assert abs(other - exact) > 2 * tol

@@ -13,13 +13,11 @@ import html
 import re
 from importlib.resources import files
 
+import markdown_it
 import pytest
+from streamlit.testing.v1 import AppTest
 
-pytest.importorskip("streamlit")
-markdown_it = pytest.importorskip("markdown_it")
-from streamlit.testing.v1 import AppTest  # noqa: E402
-
-from security_payloads import (BINDER_LABEL, DESCRIPTION, FACTOR_LABEL,  # noqa: E402
+from security_payloads import (BINDER_LABEL, DESCRIPTION, FACTOR_LABEL,
                                FACTOR_UNIT, FILE_NAME, HOST, LEVELS, PAYLOAD_STUDY,
                                RESPONSE_LABEL, RESPONSE_UNIT, SHOWN_AS_TYPED, STUDY_NAME,
                                payload_runs)

@@ -3,10 +3,7 @@ from __future__ import annotations
 
 from importlib.resources import files
 
-import pytest
-
-pytest.importorskip("streamlit")
-from streamlit.testing.v1 import AppTest  # noqa: E402
+from streamlit.testing.v1 import AppTest
 
 APP = str(files("tradeoff_ui") / "app.py")
 

@@ -9,11 +9,9 @@ from __future__ import annotations
 from importlib.resources import files
 
 import pytest
+from streamlit.testing.v1 import AppTest
 
-pytest.importorskip("streamlit")
-from streamlit.testing.v1 import AppTest  # noqa: E402
-
-from conftest import BASIC_RUNS, BASIC_STUDY, DEMO  # noqa: E402
+from conftest import BASIC_RUNS, BASIC_STUDY, DEMO
 
 APP = str(files("tradeoff_ui") / "app.py")
 DEMO_NAME = "High-protein snack bar: texture, storage and liking (invented demo)"
