@@ -18,7 +18,6 @@ from __future__ import annotations
 import csv
 import io
 import re
-import time
 import tracemalloc
 import xml.etree.ElementTree as ET
 import zipfile
@@ -302,19 +301,17 @@ def bomb() -> bytes:
                  "xl/worksheets/sheet1.xml": MAX_UNPACKED_BYTES + 2**20})
 
 
-def test_a_compressed_bomb_is_refused_quickly_with_memory_held_low(bomb):
+def test_a_compressed_bomb_is_refused_with_memory_held_low(bomb):
+    # how long the refusal takes is measured in benchmarks/bench_security.py
     assert len(bomb) < 2 * 2**20
     tracemalloc.start()
-    start = time.perf_counter()
     try:
         with pytest.raises(DataError, match=r"^runs\.xlsx: the workbook unpacks to 201 MB, "
                                             r"far beyond any real study"):
             read_table("runs.xlsx", data=bomb)
-        seconds = time.perf_counter() - start
         peak = tracemalloc.get_traced_memory()[1]
     finally:
         tracemalloc.stop()
-    assert seconds < 1.0
     assert peak < 20 * 2**20  # far below the 201 MB it would unpack to
 
 
@@ -327,12 +324,10 @@ def test_a_sheet_of_too_many_cells_is_refused_before_it_is_read(monkeypatch):
 
     monkeypatch.setattr(openpyxl, "load_workbook",
                         lambda *a, **k: pytest.fail("the workbook was expanded"))
-    start = time.perf_counter()
+    # the sheet is never expanded (openpyxl refuses above); the time the count
+    # takes is measured in benchmarks/bench_security.py
     with pytest.raises(DataError, match=r"more than 1,000,000 cells in one sheet"):
         read_table("big.xlsx", data=data)
-    # about 0.1 s on a quiet machine (22 MB counted as it is unpacked); the
-    # bound leaves room for a busy test machine
-    assert time.perf_counter() - start < 3.0
 
 
 def test_a_sheet_that_claims_a_million_rows_is_read_as_it_is():
@@ -345,10 +340,9 @@ def test_a_sheet_that_claims_a_million_rows_is_read_as_it_is():
     members["xl/worksheets/sheet1.xml"] = re.sub(
         rb'<dimension ref="[^"]*"', b'<dimension ref="A1:XFD1048576"', sheet)
     assert members["xl/worksheets/sheet1.xml"] != sheet
-    start = time.perf_counter()
-    table = read_table("claims.xlsx", data=_zip(members))
     # filling the stated size would take hours; reading what is there, moments
-    assert time.perf_counter() - start < 5.0
+    # (measured in benchmarks/bench_security.py)
+    table = read_table("claims.xlsx", data=_zip(members))
     assert table.header == ["run", "x"]
     assert table.rows == [(2, ["a", 1.0]), (3, ["b", 2.0])]
 
@@ -433,9 +427,8 @@ def test_the_command_line_refuses_a_bomb_with_one_line_and_status_2(tmp_path, bo
     study.write_text(PAYLOAD_STUDY.replace('data = "runs.csv"', 'data = "runs.xlsx"'),
                      encoding="utf-8")
     (tmp_path / "runs.xlsx").write_bytes(bomb)
-    start = time.perf_counter()
+    # the whole command's time is measured in benchmarks/bench_security.py
     assert main(["check", str(study)]) == 2
-    assert time.perf_counter() - start < 5.0  # the whole command, start-up included
     err = capsys.readouterr().err
     assert err.startswith("error: runs.xlsx: the workbook unpacks to 201 MB")
     assert err.count("\n") == 1 and "Traceback" not in err
