@@ -4,7 +4,8 @@ The prediction intervals are checked against statsmodels OLS
 (``get_prediction(...).summary_frame(alpha)``, columns obs_ci_lower and
 obs_ci_upper), fitted independently to the published Derringer & Suich (1980)
 tire tread data (Journal of Quality Technology 12(4), 214-219; the table is in
-tests/data/tire_tread_1980.csv). The interval for the mean of m new runs,
+tests/data/tire_tread_1980.csv, recalled from memory and then checked: a
+quadratic fit of it reproduces the published optimum). The interval for the mean of m new runs,
 yhat +/- t * sqrt(s^2/m + se(yhat)^2), is the textbook one (Montgomery, Peck &
 Vining, Introduction to Linear Regression Analysis, from memory).
 """
@@ -167,7 +168,8 @@ def test_log_scale_interval_is_back_transformed(tmp_path):
 
 
 def test_settings_outside_the_tested_region_are_flagged(tmp_path):
-    # The design's axial runs reach +-1.633 (Derringer & Suich 1980); 1.8 is beyond.
+    # The design's axial runs reach +-1.633 (Derringer & Suich 1980, from memory);
+    # 1.8 is beyond.
     path = _write(tmp_path, _inline("F", (1.8, 0, 0), {"y1": 150.0}))
     check = check_confirmations(tradeoff.load_study(path))
     assert bool(check.table.iloc[0]["outside_region"]) is True

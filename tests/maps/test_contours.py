@@ -1,8 +1,10 @@
 """Contour lines and the limits map, checked against the fitted model's own predictions.
 
 The study is the published tire tread compound of Derringer & Suich (1980),
-Journal of Quality Technology 12(4), 214-219 (tests/data/tire_tread_1980.*):
-a central composite design fitted with full quadratic models.
+Journal of Quality Technology 12(4), 214-219 (tests/data/tire_tread_1980.*; the
+table and its goals were recalled from memory, then checked: a quadratic fit
+reproduces the published optimum): a central composite design fitted with full
+quadratic models.
 """
 from __future__ import annotations
 
@@ -150,7 +152,7 @@ def test_limit_lines_follow_their_limit(tire):
     lmap = limits_map(study, "x1", "x2", fixed={"x3": 0.0}, fit=fit)
     assert set(lmap.lines["name"]) <= {"y1", "y2", "y3", "y4"}
     assert len(lmap.lines)
-    # the limits of the published goals (Derringer & Suich 1980)
+    # the limits of the published goals (Derringer & Suich 1980, from memory)
     expected = {("y1", "lower"): 120, ("y2", "lower"): 1000, ("y3", "lower"): 400,
                 ("y3", "upper"): 600, ("y4", "lower"): 60, ("y4", "upper"): 75}
     for (name, limit), part in lmap.lines.groupby(["name", "limit"]):

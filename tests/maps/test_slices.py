@@ -1,6 +1,8 @@
 """Slices through a setting and the model's interaction table, checked against
 statsmodels OLS on the published tire tread compound of Derringer & Suich (1980),
-Journal of Quality Technology 12(4), 214-219 (tests/data/tire_tread_1980.*).
+Journal of Quality Technology 12(4), 214-219 (tests/data/tire_tread_1980.*;
+recalled from memory, then checked: a quadratic fit of the table reproduces the
+published optimum).
 """
 from __future__ import annotations
 
@@ -45,7 +47,8 @@ def test_slice_matches_statsmodels_prediction_intervals(tire):
     assert np.allclose(part["predicted"], frame["mean"])
     assert np.allclose(part["pi_low"], frame["obs_ci_lower"])
     assert np.allclose(part["pi_high"], frame["obs_ci_upper"])
-    # the published lower limit of the abrasion index is 120 (maximize, no upper limit)
+    # the published lower limit of the abrasion index is 120 (maximize, no upper
+    # limit; Derringer & Suich 1980, from memory)
     assert (part["lower_limit"] == 120).all() and part["upper_limit"].isna().all()
 
 

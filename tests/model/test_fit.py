@@ -254,7 +254,8 @@ def test_reduction_by_p_value_is_hierarchical():
 
 def test_derringer_suich_quadratic_fits():
     # Derringer & Suich (1980), J. Quality Technology 12(4), 214-219 (tire tread CCD);
-    # published quadratic models (see /work/shared/reference/README.md):
+    # published quadratic models, from memory (the table was recalled, then checked:
+    # its quadratic fit reproduces the published optimum):
     # y1: 139.12, 16.49, 17.88, 10.91, -4.01, -3.45, -1.57, 5.13, 7.13, 7.88
     # y3: 400.38, -99.67, -31.40, -73.92, 7.93, 17.31, 0.43, 8.75, 6.25, 1.25
     # in the order intercept, x1, x2, x3, x1^2, x2^2, x3^2, x1x2, x1x3, x2x3.

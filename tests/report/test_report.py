@@ -2,7 +2,9 @@
 
 Checks: the report builds for the invented demo study and for the published
 Derringer & Suich (1980) tire tread example (Journal of Quality Technology
-12(4), 214-219; NIST/SEMATECH e-Handbook 5.5.3.2.2); it fetches nothing from
+12(4), 214-219; NIST/SEMATECH e-Handbook 5.5.3.2.2; table and published values
+from memory, then checked: a quadratic fit reproduces the published optimum); it
+fetches nothing from
 the network; its numbers are those of ``tradeoff optimize --json``; the
 workbook opens with pandas and its model numbers agree with statsmodels OLS.
 """
@@ -141,7 +143,7 @@ def test_tire_tread_report_shows_the_published_optimum(tire):
     study, page, _ = tire
     best = _embedded(page)["result"]["best"]
     # Derringer & Suich (1980): D = 0.583 at x1 = -0.05, x2 = 0.145, x3 = -0.868,
-    # searched over the cube |x| <= 1.
+    # searched over the cube |x| <= 1 (from memory).
     assert best["desirability"] == pytest.approx(0.583, abs=0.003)
     assert best["settings"]["x1"] == pytest.approx(-0.05, abs=0.03)
     assert best["settings"]["x2"] == pytest.approx(0.145, abs=0.03)
@@ -170,7 +172,8 @@ def test_workbook_sheets_and_numbers(tire):
         ours = terms[terms["response"] == y].set_index("term")
         assert ours.loc["intercept", "coefficient"] == pytest.approx(ref.params["Intercept"])
         assert ours.loc["x1", "p value"] == pytest.approx(ref.pvalues["x1"], rel=1e-6)
-    # Published y1 coefficients (Derringer & Suich 1980): intercept 139.12, x1 16.49.
+    # Published y1 coefficients (Derringer & Suich 1980, from memory): intercept
+    # 139.12, x1 16.49.
     y1 = terms[terms["response"] == "y1"].set_index("term")["coefficient"]
     assert y1["intercept"] == pytest.approx(139.12, abs=0.01)
     assert y1["x1"] == pytest.approx(16.49, abs=0.01)

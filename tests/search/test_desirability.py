@@ -14,7 +14,8 @@ from tradeoff.study.spec import Goal
 
 
 def test_maximize_one_sided_with_shape():
-    # d = ((y - L) / (U - L)) ** s between L and U; 0 below L, 1 above U.
+    # d = ((y - L) / (U - L)) ** s between L and U; 0 below L, 1 above U. Limits
+    # and 129.5 from Derringer & Suich (1980)'s abrasion index (from memory).
     g = Goal("maximize", lower=120, upper=170)
     assert desirability([100, 120, 129.5, 170, 200], g) == pytest.approx(
         [0.0, 0.0, 9.5 / 50, 1.0, 1.0])
@@ -34,7 +35,8 @@ def test_minimize_one_sided_with_shape():
 
 
 def test_target_two_sided_with_both_shapes():
-    # Derringer & Suich (1980), elongation at break: L=400, T=500, U=600, s=t=1.
+    # Derringer & Suich (1980), elongation at break: L=400, T=500, U=600, s=t=1
+    # (from memory).
     g = Goal("target", lower=400, target=500, upper=600)
     assert desirability([350, 400, 465.7, 500, 550, 600, 650], g) == pytest.approx(
         [0.0, 0.0, 0.657, 1.0, 0.5, 0.0, 0.0])
@@ -83,7 +85,8 @@ def test_vectorised_shapes_and_blanks():
 
 def test_overall_desirability_published_example():
     # Derringer & Suich (1980) optimum predictions y1=129.5, y2=1300, y3=465.7,
-    # y4=68.0 give D = 0.583 as published (unweighted geometric mean).
+    # y4=68.0 give D = 0.583 as published (unweighted geometric mean; the values
+    # from memory, then checked: a quadratic fit of the table reproduces them).
     d = np.array([[desirability(129.5, Goal("maximize", lower=120, upper=170)),
                    desirability(1300, Goal("maximize", lower=1000, upper=1300)),
                    desirability(465.7, Goal("target", lower=400, target=500, upper=600)),

@@ -1,7 +1,9 @@
 """Settings that hold in production (optimize(aim="production"), --for production).
 
 Checks against independent computations on the published tire study
-(Derringer & Suich 1980, Journal of Quality Technology 12(4), 214-219):
+(Derringer & Suich 1980, Journal of Quality Technology 12(4), 214-219; the
+table recalled from memory, then checked: a quadratic fit reproduces the
+published optimum):
 the answer's production chance is at least that of the best-balance settings
 and at least the best of a grid over the whole region scored by the same
 Monte Carlo chance (common random numbers, same seed), and the stand-in chance

@@ -79,7 +79,8 @@ def test_quadratic_and_three_factor_moments_match_a_long_monte_carlo():
 
 
 def _tire_with_spread(tmp_path, model: str, sds=(0.1, 0.2, 0.05)) -> Path:
-    """The published tire study with another model and production SDs (coded = natural)."""
+    """The published tire study (Derringer & Suich 1980, from memory) with another
+    model and production SDs (coded = natural)."""
     text = (DATA / "tire_tread_1980.toml").read_text(encoding="utf-8")
     text = text.replace('model = "quadratic"', f'model = "{model}"')
     for name, sd in zip(("x1", "x2", "x3"), sds):
@@ -100,8 +101,9 @@ def test_coded_spread_divides_by_half_the_range():
 
 
 def test_linear_model_transmitted_sd_is_the_closed_form(tmp_path):
-    # Derringer & Suich (1980) tire data, main-effects models: the transmitted SD is
-    # sqrt(sum (b_i s_i)^2) in coded units (propagation of error; common practice)
+    # Derringer & Suich (1980) tire data (from memory), main-effects models: the
+    # transmitted SD is sqrt(sum (b_i s_i)^2) in coded units (propagation of
+    # error; common practice)
     study = load_study(_tire_with_spread(tmp_path, "main"))
     fit = fit_study(study)
     s = coded_spread(study)
