@@ -294,6 +294,26 @@ def test_log_transform_back_transforms_predictions_and_intervals():
     np.testing.assert_allclose(mean, plain.predict(Xn), rtol=1e-12)
 
 
+def test_sqrt_transform_against_statsmodels_on_the_square_root():
+    # A square-root model is ordinary least squares on sqrt(y) (statsmodels OLS
+    # here); predictions and interval ends are squared back to natural units.
+    import statsmodels.api as sm
+
+    rng = np.random.default_rng(6)
+    X = np.vstack([factorial(2)] * 3)
+    y = (3 + 0.8 * X[:, 0] - 0.4 * X[:, 1] + rng.normal(0, 0.1, len(X))) ** 2
+    m = ResponseModel(terms="main", factor_names=["a", "b"], transform="sqrt").fit(X, y)
+    ref = sm.OLS(np.sqrt(y), sm.add_constant(X)).fit()
+    np.testing.assert_allclose(m.coef_, ref.params, rtol=1e-10)
+    Xn = np.array([[0.3, -0.2], [1.0, 1.0]])
+    frame = ref.get_prediction(sm.add_constant(Xn, has_constant="add")).summary_frame(
+        alpha=0.05)
+    iv = m.intervals(Xn)
+    np.testing.assert_allclose(m.predict(Xn), frame["mean"] ** 2, rtol=1e-10)
+    np.testing.assert_allclose(iv["pi_low"], frame["obs_ci_lower"] ** 2, rtol=1e-10)
+    np.testing.assert_allclose(iv["ci_high"], frame["mean_ci_upper"] ** 2, rtol=1e-10)
+
+
 def test_box_cox_matches_scipy_for_an_intercept_only_model():
     # With only an intercept, the Box-Cox profile likelihood is scipy's boxcox_normmax (mle).
     y = stats.lognorm.rvs(0.6, size=40, random_state=np.random.default_rng(4))

@@ -85,6 +85,11 @@ def test_implied_bounds_by_hand():
     lows, highs = implied_bounds([0, 10, 10], [90, 30, 30], 100)
     np.testing.assert_allclose(lows, [40, 10, 10])
     np.testing.assert_allclose(highs, [80, 30, 30])
+    # every low above 0: a can reach at most 100 - 30 - 10 = 60, b 100 - 20 - 10 = 70
+    # (its own high), c 100 - 20 - 30 = 50, so its own 40 stays
+    lows, highs = implied_bounds([20, 30, 10], [70, 70, 40], 100)
+    np.testing.assert_allclose(lows, [20, 30, 10])
+    np.testing.assert_allclose(highs, [60, 70, 40])
 
 
 def test_proportion_scale_when_every_low_is_zero():
