@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from reference_desirability import d_of, study_D
 from tradeoff import (StudyError, fit_study, load_study, mixture_effects, mixture_trace,
                       ternary_grid)
 
@@ -70,6 +71,12 @@ def test_ternary_grid_columns_and_values(yarn):
     hand = (B[0] * x[:, 0] + B[1] * x[:, 1] + B[2] * x[:, 2] + B[3] * x[:, 0] * x[:, 1]
             + B[4] * x[:, 0] * x[:, 2] + B[5] * x[:, 1] * x[:, 2])
     np.testing.assert_allclose(g.predicted, hand, atol=1e-9)
+    # d and D by the published formulas written out (Derringer & Suich 1980,
+    # Derringer 1994: tests/reference_desirability.py), the goal as the file says
+    goal = study.spec["responses"][0]
+    np.testing.assert_allclose(g.desirability, d_of(hand, goal), atol=1e-9)
+    np.testing.assert_allclose(g.D, study_D(study, fit, x), atol=1e-12)
+    assert 0 < g.D.max() and g.D.min() < 1  # the grid crosses the goal's limits
     assert g.inside.all()
     assert g.attrs["components"] == ("polyethylene", "polystyrene", "polypropylene")
 

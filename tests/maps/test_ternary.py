@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from reference_desirability import study_D
 from tradeoff import StudyError, load_study
 from tradeoff.model.study_fit import fit_study
 from tradeoff.maps.ternary import (HEIGHT, from_plot, ternary_limits, ternary_lines,
@@ -79,6 +80,20 @@ def test_every_vertex_lies_on_its_level(flour, response):
     # and the bound is small against the gap between levels, so the check bites
     gap = np.diff(np.unique(lines["level"])).min()
     assert bound < 0.01 * gap
+
+
+def test_d_lines_follow_d_written_out(flour):
+    # D by the published formulas written out (Derringer & Suich 1980, Derringer
+    # 1994: tests/reference_desirability.py) at each vertex's blend: D has kinks
+    # where a limit starts to bite, so the check is that vertices sit on their
+    # level almost everywhere (the median), not a bound on every one
+    study, fit = flour
+    lines = ternary_lines(study, "D", fit=fit, settings={"bake_temp": 205})
+    assert len(lines) and lines["level"].nunique() >= 2
+    table = lines[NAMES].copy()
+    table["bake_temp"] = 205.0
+    D = study_D(study, fit, to_coded(study.factors, table))
+    assert np.median(np.abs(D - lines["level"].to_numpy())) < 0.005
 
 
 def test_levels_are_round_and_drawn_in_order(flour):
