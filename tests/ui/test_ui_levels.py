@@ -12,12 +12,9 @@ from __future__ import annotations
 import re
 from importlib.resources import files
 
-import pytest
+from streamlit.testing.v1 import AppTest
 
-pytest.importorskip("streamlit")
-from streamlit.testing.v1 import AppTest  # noqa: E402
-
-from conftest import DEMO  # noqa: E402
+from conftest import DEMO
 
 APP = str(files("tradeoff_ui") / "app.py")
 LEVELS = ["psyllium", "xanthan", "guar"]

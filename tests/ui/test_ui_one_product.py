@@ -13,10 +13,7 @@ import sys
 from importlib.resources import files
 from pathlib import Path
 
-import pytest
-
-pytest.importorskip("streamlit")
-from streamlit.testing.v1 import AppTest  # noqa: E402
+from streamlit.testing.v1 import AppTest
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from study_kinds import ONE_PRODUCT_STUDY, one_product_storage  # noqa: E402
