@@ -88,10 +88,12 @@ def test_d_lines_follow_d_written_out(flour):
     # where a limit starts to bite, so the check is that vertices sit on their
     # level almost everywhere (the median), not a bound on every one
     study, fit = flour
-    lines = ternary_lines(study, "D", fit=fit, settings={"bake_temp": 205})
+    lines = ternary_lines(study, "D", fit=fit, settings={"bake_temp": 205,
+                                                         "hydrocolloid": HYDRO})
     assert len(lines) and lines["level"].nunique() >= 2
     table = lines[NAMES].copy()
     table["bake_temp"] = 205.0
+    table["hydrocolloid"] = HYDRO
     D = study_D(study, fit, to_coded(study.factors, table))
     assert np.median(np.abs(D - lines["level"].to_numpy())) < 0.005
 
