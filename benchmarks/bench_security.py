@@ -38,7 +38,7 @@ import pandas as pd
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
 
-from security_payloads import PAYLOAD_STUDY  # noqa: E402
+from security_payloads import PAYLOAD_STUDY, zip_archive  # noqa: E402
 from tradeoff.errors import DataError  # noqa: E402
 from tradeoff.study.intake import read_table  # noqa: E402
 from tradeoff.study.limits import MAX_CELLS, MAX_UNPACKED_BYTES  # noqa: E402
@@ -47,19 +47,6 @@ from tradeoff.study.safe_cells import workbook_bytes  # noqa: E402
 TRADEOFF = str(Path(sys.executable).parent / "tradeoff")
 
 
-def _zip(members: dict[str, bytes | int], level: int = 1) -> bytes:
-    """A zip archive; an int member is that many spaces, written in 1 MB pieces."""
-    out = io.BytesIO()
-    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED, compresslevel=level) as archive:
-        for name, content in members.items():
-            with archive.open(name, "w") as stream:
-                if isinstance(content, int):
-                    piece = b" " * 2**20
-                    for _ in range(content // 2**20):
-                        stream.write(piece)
-                else:
-                    stream.write(content)
-    return out.getvalue()
 
 
 def _members(book: bytes) -> dict[str, bytes]:
@@ -105,10 +92,10 @@ def main() -> None:
     honest = workbook_bytes({"runs": pd.DataFrame({"run": [f"R{i}" for i in range(20)],
                                                    "x": [float(i) for i in range(20)]})},
                             widths=False)
-    bomb = _zip({"[Content_Types].xml": b"<Types/>",
+    bomb = zip_archive({"[Content_Types].xml": b"<Types/>",
                  "xl/worksheets/sheet1.xml": MAX_UNPACKED_BYTES + 2**20})
     cells = b'<c r="A1"><v>1</v></c>' * (MAX_CELLS + 1)
-    many = _zip({"xl/worksheets/sheet1.xml": b"<worksheet><sheetData><row r=\"1\">" + cells
+    many = zip_archive({"xl/worksheets/sheet1.xml": b"<worksheet><sheetData><row r=\"1\">" + cells
                  + b"</row></sheetData></worksheet>"})
     small = workbook_bytes({"runs": pd.DataFrame({"run": ["a", "b"], "x": [1.0, 2.0]})},
                            widths=False)
@@ -116,7 +103,7 @@ def main() -> None:
     members["xl/worksheets/sheet1.xml"] = re.sub(
         rb'<dimension ref="[^"]*"', b'<dimension ref="A1:XFD1048576"',
         members["xl/worksheets/sheet1.xml"])
-    claims = _zip(members)
+    claims = zip_archive(members)
 
     print(f"hostile workbooks against an honest one, median of {runs} pairs")
     print(f"{'case':<44} {'seconds':>8} {'honest':>8} {'ratio':>7} {'target':>7}")

@@ -11,6 +11,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import zipfile
 
 HOST = "203.0.113.7"
 LEVELS = ["=1+2*3", "@SUM(1+9)*cmd|' /C calc'!A0"]
@@ -67,3 +68,18 @@ def payload_runs() -> bytes:
     out = io.StringIO()
     csv.writer(out, lineterminator="\n").writerows(rows)
     return out.getvalue().encode("utf-8")
+
+
+def zip_archive(members: dict[str, bytes | int], level: int = 1) -> bytes:
+    """A zip archive; an int member is that many spaces, written in 1 MB pieces."""
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED, compresslevel=level) as archive:
+        for name, content in members.items():
+            with archive.open(name, "w") as stream:
+                if isinstance(content, int):
+                    piece = b" " * 2**20
+                    for _ in range(content // 2**20):
+                        stream.write(piece)
+                else:
+                    stream.write(content)
+    return out.getvalue()

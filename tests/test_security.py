@@ -35,7 +35,7 @@ from tradeoff.study.limits import MAX_CELLS, MAX_UNPACKED_BYTES
 from tradeoff.study.safe_cells import (csv_bytes, inert_text, restore_text, table_bytes,
                                        workbook_bytes)
 
-from security_payloads import LEVELS, PAYLOAD_STUDY, RUN_IDS, payload_runs
+from security_payloads import LEVELS, PAYLOAD_STUDY, RUN_IDS, payload_runs, zip_archive
 
 # The payloads (OWASP "CSV Injection", from memory), plus the issue's own case.
 FORMULAS = [
@@ -275,19 +275,6 @@ def test_intake_removes_only_the_apostrophe_its_exports_add(tmp_path):
 
 # -- limits before expansion ----------------------------------------------------------
 
-def _zip(members: dict[str, bytes | int], level: int = 1) -> bytes:
-    """A zip archive; an int member is that many spaces, written in 1 MB pieces."""
-    out = io.BytesIO()
-    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED, compresslevel=level) as archive:
-        for name, content in members.items():
-            with archive.open(name, "w") as stream:
-                if isinstance(content, int):
-                    piece = b" " * 2**20
-                    for _ in range(content // 2**20):
-                        stream.write(piece)
-                else:
-                    stream.write(content)
-    return out.getvalue()
 
 
 def _workbook(rows: list[list]) -> bytes:
@@ -297,7 +284,7 @@ def _workbook(rows: list[list]) -> bytes:
 @pytest.fixture(scope="module")
 def bomb() -> bytes:
     # about 1 MB packed, more than 200 MB unpacked: a compressed "bomb"
-    return _zip({"[Content_Types].xml": b"<Types/>",
+    return zip_archive({"[Content_Types].xml": b"<Types/>",
                  "xl/worksheets/sheet1.xml": MAX_UNPACKED_BYTES + 2**20})
 
 
@@ -317,7 +304,7 @@ def test_a_compressed_bomb_is_refused_with_memory_held_low(bomb):
 
 def test_a_sheet_of_too_many_cells_is_refused_before_it_is_read(monkeypatch):
     cells = b'<c r="A1"><v>1</v></c>' * (MAX_CELLS + 1)
-    data = _zip({"xl/worksheets/sheet1.xml":
+    data = zip_archive({"xl/worksheets/sheet1.xml":
                  b"<worksheet><sheetData><row r=\"1\">" + cells + b"</row></sheetData>"
                  b"</worksheet>"})
     import openpyxl
@@ -342,7 +329,7 @@ def test_a_sheet_that_claims_a_million_rows_is_read_as_it_is():
     assert members["xl/worksheets/sheet1.xml"] != sheet
     # filling the stated size would take hours; reading what is there, moments
     # (measured in benchmarks/bench_security.py)
-    table = read_table("claims.xlsx", data=_zip(members))
+    table = read_table("claims.xlsx", data=zip_archive(members))
     assert table.header == ["run", "x"]
     assert table.rows == [(2, ["a", 1.0]), (3, ["b", 2.0])]
 
@@ -354,7 +341,7 @@ def test_a_zip_directory_that_understates_a_part_cannot_unpack_more():
     with zipfile.ZipFile(io.BytesIO(book)) as archive:
         members = {n: archive.read(n) for n in archive.namelist()}
     members["xl/worksheets/sheet1.xml"] += b" " * 50 * 2**20
-    data = bytearray(_zip(members, level=9))
+    data = bytearray(zip_archive(members, level=9))
     # state 1 kB for the padded sheet in the central directory (its entry: 46
     # bytes, the unpacked size at offset 24, then the name; APPNOTE.TXT 4.3.12)
     entry = data.index(b"xl/worksheets/sheet1.xml", data.index(b"PK\x01\x02")) - 46
@@ -415,7 +402,7 @@ def test_a_damaged_sheet_is_one_line_not_a_crash():
         members = {n: archive.read(n) for n in archive.namelist()}
     members["xl/worksheets/sheet1.xml"] = members["xl/worksheets/sheet1.xml"][:300]
     with pytest.raises(DataError, match=r"^cut\.xlsx: cannot read the workbook"):
-        read_table("cut.xlsx", data=_zip(members))
+        read_table("cut.xlsx", data=zip_archive(members))
 
 
 # -- the command line and the workbench refuse, in one line -------------------------
