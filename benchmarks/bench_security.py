@@ -106,7 +106,7 @@ def main() -> None:
     claims = zip_archive(members)
 
     print(f"hostile workbooks against an honest one, median of {runs} pairs")
-    print(f"{'case':<44} {'seconds':>8} {'honest':>8} {'ratio':>7} {'target':>7}")
+    print(f"{'case':<44} {'seconds':>8} {'honest':>8} {'ratio':>7} {'target s':>9}")
     rows = [
         ("bomb (1 MB packed, 201 MB unpacked)", lambda: _read("runs.xlsx", bomb),
          lambda: _read("runs.xlsx", honest), 1.0),
@@ -129,7 +129,7 @@ def main() -> None:
                      _command(["check", str(folder / "honest" / "study.toml")]), 5.0))
         for name, case, yardstick, target in rows:
             a, b, r = _paired(case, yardstick, runs)
-            print(f"{name:<44} {a:8.3f} {b:8.3f} {r:7.2f} {target:7.1f}")
+            print(f"{name:<44} {a:8.3f} {b:8.3f} {r:7.2f} {target:9.1f}")
 
 
 if __name__ == "__main__":
