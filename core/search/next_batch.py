@@ -498,8 +498,9 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
     if explore:
         parts.append("no setting is expected to do better, so this run goes where the "
                      "models are least sure")
-    elif max(D_x - level, 0.0) < 0.5 * value:
+    elif goals.responses and max(D_x - level, 0.0) < 0.5 * value:
         # most of the expected gain comes from what the models do not know yet
+        # (with goals on factors only, nothing is uncertain to name)
         _, sd = goals.moments(x[None, :])
         name = goals.responses[int(np.argmax(sd[0] / _widths(goals)))]
         lo, hi = interval[name]

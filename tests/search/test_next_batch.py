@@ -129,3 +129,57 @@ def test_demo_batch_of_four_is_seeded():
     assert len(a.runs) == 4
     assert a.to_dict() == b.to_dict()
     assert all(s.settings["binder"] in ("rice syrup", "date paste") for s in a.runs)
+
+
+
+FACTOR_GOAL_ONLY = """\
+[study]
+name = "a goal on a factor only"
+data = "runs.csv"
+model = "main"
+
+[[factors]]
+name = "sugar"
+low = 155.1
+high = 255.1
+search = [180.1, 255.1]
+
+[[factors]]
+name = "fat"
+low = 6000.0
+high = 7000.0
+goal = "target"
+lower = 6104.106964
+target = 6452.381606
+upper = 6796.875181
+
+[[responses]]
+name = "hardness"
+"""
+# settings of a generated study (tests/oracle, kind 'blocks', seed 7), invented
+FACTOR_GOAL_RUNS = [(211.6549293, 6833.136866), (223.2036203, 6606.362132),
+                    (233.7203874, 6613.330685), (218.2054509, 6129.973742),
+                    (208.9300232, 6854.873056), (156.5809241, 6025.543965),
+                    (163.1541782, 6699.369176), (213.171257, 6193.875496),
+                    (211.2378639, 6823.343556)]
+
+
+def test_goals_on_factors_only_give_a_batch(write_study):
+    # Found by the whole-pipeline oracle: with goals on factors only, a pick whose
+    # gain shrank when its settings were rounded looked for the most uncertain goal
+    # response to name, among none (a traceback).
+    from tradeoff import load_study
+
+    runs = "run,sugar,fat,hardness\n" + "".join(
+        f"{i},{s},{f},{5 + 0.01 * s + 0.001 * i}\n"
+        for i, (s, f) in enumerate(FACTOR_GOAL_RUNS, start=1))
+    study = load_study(write_study(FACTOR_GOAL_ONLY, runs))
+    batch = next_batch(study, runs=2, seed=7)
+    assert len(batch.runs) == 2
+    for s in batch.runs:
+        # D is the factor's own target desirability (Derringer & Suich 1980, shapes 1)
+        fat = s.settings["fat"]
+        d = ((fat - 6104.106964) / (6452.381606 - 6104.106964) if fat <= 6452.381606
+             else (6796.875181 - fat) / (6796.875181 - 6452.381606))
+        assert s.desirability == pytest.approx(max(d, 0.0), abs=1e-9)
+        assert "uncertain" not in s.why
