@@ -1,0 +1,516 @@
+"""The invariants of the oracle's battery, one function per command's output.
+
+Each ``check_*`` compares what a command printed (or the API returned) with
+an independent computation (oracle_reference.py) or with the fitted model,
+and records every disagreement on the study's ``Outcome`` (invariant name,
+command, message) instead of stopping at the first, so one study reports all
+it breaks.
+"""
+from __future__ import annotations
+
+import itertools
+import math
+import re
+
+import numpy as np
+import pandas as pd
+
+from oracle_pages import check_report_html, check_report_xlsx
+from oracle_reference import (D_reference, TermError, chance_reference, d_reference,
+                              interval_reference, shortfall_reference, term_column)
+
+__all__ = ["check_solutions", "check_fit", "check_next", "check_plan", "check_confirm",
+           "check_report_html", "check_report_xlsx", "check_unused", "check_display",
+           "check_unjudged", "goals_of", "region_grid", "chance_tolerance"]
+
+GRID_TOL = 1e-6
+GRID_POINTS = 40000  # at most this many grid points per study
+
+
+def goals_of(generated, fit) -> list[tuple[str, str, dict]]:
+    """(kind, name, goal keys) of every goal taking part in D: responses with a goal
+    and a fitted model, then numeric factors with a goal (the README's rule)."""
+    out = []
+    for r in generated.spec.get("responses", []):
+        if r.get("goal", "none") != "none" and r["name"] in fit.models:
+            out.append(("response", r["name"], r))
+    for f in generated.region.factors:
+        if f.kind == "numeric" and f.goal and f.goal["goal"] != "none":
+            out.append(("factor", f.name, f.goal))
+    return out
+
+
+def _transform(generated, name) -> str:
+    for r in generated.spec.get("responses", []):
+        if r["name"] == name:
+            return r.get("transform", "none")
+    return "none"
+
+
+def _close(a, b, rel=1e-9, scale=1.0) -> bool:
+    if a is None or b is None:
+        return a is b
+    a, b = float(a), float(b)
+    if not (math.isfinite(a) and math.isfinite(b)):
+        return (math.isnan(a) and math.isnan(b)) or a == b
+    return abs(a - b) <= rel * (abs(a) + abs(b) + scale)
+
+
+def _d_matches(d, y, goal) -> bool:
+    """d equals Derringer-Suich at y, allowing for y a hair either side of a kink."""
+    if d is None:
+        return False
+    eps = 1e-9 * max(1.0, abs(y), goal["upper"] - goal["lower"])
+    ref = d_reference(np.array([y - eps, y, y + eps]), goal)
+    return bool(min(ref) - 1e-7 <= d <= max(ref) + 1e-7)
+
+
+def chance_tolerance(p: float, draws: int = 20000) -> float:
+    """4.5 Monte Carlo standard errors of a chance p, plus 0.002."""
+    return 4.5 * math.sqrt(max(p * (1 - p), 1e-4) / draws) + 0.002
+
+
+def _region_ok(generated, table: pd.DataFrame, *, search: bool = True, tol=1e-9,
+               rule_tol=1e-7, total_tol=1e-7) -> list[str]:
+    """What keeps settings out of the region (empty when they lie inside)."""
+    problems = []
+    region = generated.region
+    for f in region.factors:
+        values = table[f.name]
+        if f.kind == "categorical":
+            bad = [v for v in values if v not in f.levels]
+            if bad:
+                problems.append(f"'{f.name}' = {bad[0]!r} is not one of its levels")
+            continue
+        lo, hi = f.search_range if (search and f.kind == "numeric") else (f.low, f.high)
+        slack = tol * (hi - lo) + 1e-12
+        v = values.to_numpy(float)
+        if np.any(v < lo - slack) or np.any(v > hi + slack):
+            problems.append(f"'{f.name}' = {v.tolist()} outside {lo}..{hi}")
+    if region.components:
+        total = sum(table[c.name].to_numpy(float) for c in region.components)
+        if np.any(np.abs(total - region.total) > total_tol * region.total):
+            problems.append(f"the blend adds up to {total.tolist()}, not {region.total}")
+    for r in region.rules:
+        if not r.holds(table, tol=rule_tol).all():
+            problems.append(f"rule '{r.text}' broken")
+    return problems
+
+
+def _coded(study, table):
+    from tradeoff import to_coded
+
+    return to_coded(study.factors, table)
+
+
+def _my_coded(generated, f_name, value):
+    """A numeric factor's (or component's) coded value, written out from the README."""
+    region = generated.region
+    f = next(x for x in region.factors if x.name == f_name)
+    if f.kind == "component":
+        return (value - f.low) / region.blend_scale()
+    return (value - f.centre) / f.half
+
+
+# --------------------------------------------------------------------------
+# optimize
+
+
+def check_solutions(generated, study, fit, result, outcome) -> None:
+    goals = goals_of(generated, fit)
+    weights = [g.get("weight", 1.0) for _, _, g in goals]
+    for s in result.solutions:
+        where = f"solution {s.label}"
+        table = pd.DataFrame([s.settings])
+        for p in _region_ok(generated, table):
+            outcome.fail("region", "optimize", f"{where}: {p}")
+        for f in generated.region.factors:
+            if f.kind != "categorical":
+                mine = _my_coded(generated, f.name, float(s.settings[f.name]))
+                if not _close(s.coded[f.name], mine, 1e-9):
+                    outcome.fail("predict", "optimize", f"{where}: '{f.name}' coded "
+                                 f"{s.coded[f.name]} but its setting {s.settings[f.name]} "
+                                 f"is coded {mine}")
+        X = _coded(study, table)
+        for name, o in s.responses.items():
+            model = fit.models[name]
+            p = float(np.asarray(model.predict(X)).ravel()[0])
+            if not _close(o.predicted, p, 1e-9):
+                outcome.fail("predict", "optimize", f"{where}: '{name}' predicted "
+                             f"{o.predicted}, the model predicts {p} at its settings")
+            _check_intervals(generated, study, model, X, name, o, where, outcome)
+        ds = []
+        for kind, name, g in goals:
+            if kind == "response":
+                y = s.responses[name].predicted
+                d = s.responses[name].desirability
+            else:
+                y = float(s.settings[name])
+                d = s.factor_desirability.get(name)
+            ds.append(d)
+            if not _d_matches(d, y, g):
+                outcome.fail("desirability", "optimize",
+                             f"{where}: d of '{name}' is {d} at {y} ({g['goal']} "
+                             f"{g.get('lower')}..{g.get('upper')}, target {g.get('target')},"
+                             f" shapes {g.get('shape')}/{g.get('shape_below')}/"
+                             f"{g.get('shape_above')}): Derringer-Suich gives "
+                             f"{float(d_reference(np.array([y]), g)[0])}")
+        if goals and None not in ds:
+            D = float(D_reference(np.array([ds]), weights)[0])
+            if not abs(D - s.desirability) <= 1e-9 + 1e-9 * D:
+                outcome.fail("overall", "optimize", f"{where}: D = {s.desirability}, "
+                             f"the weighted geometric mean of its d's is {D}")
+            out = {name for (_, name, _), d in zip(goals, ds) if d == 0}
+            if set(s.out_of_limits) != out:
+                outcome.fail("desirability", "optimize", f"{where}: outside limits "
+                             f"{sorted(s.out_of_limits)}, d = 0 for {sorted(out)}")
+        _check_chances(generated, study, fit, X, s, goals, where, outcome)
+    D = [s.desirability for s in result.solutions]
+    if result.rank_by == "desirability" and any(a < b - 1e-12 for a, b in zip(D, D[1:])):
+        outcome.fail("overall", "optimize", f"solutions not in order of D: {D}")
+    if goals:
+        _check_grid(generated, study, fit, result, goals, outcome)
+
+
+def _check_intervals(generated, study, model, X, name, o, where, outcome) -> None:
+    mean, se, sigma, df = model.predictive(X)
+    if not (np.isfinite(sigma) and df):
+        return
+    ci_lo, ci_hi, pi_lo, pi_hi = interval_reference(
+        np.asarray(mean).ravel(), np.asarray(se).ravel(), float(sigma), df,
+        study.confidence, _transform(generated, name))
+    got = [o.ci[0], o.ci[1], o.pi[0], o.pi[1]]
+    want = [float(v[0]) for v in (ci_lo, ci_hi, pi_lo, pi_hi)]
+    scale = abs(want[3] - want[2])
+    if not all(_close(a, b, 1e-7, scale) for a, b in zip(got, want)):
+        outcome.fail("intervals", "optimize", f"{where}: '{name}' ci, pi {got}, the t "
+                     f"intervals are {want}")
+
+
+def _check_chances(generated, study, fit, X, s, goals, where, outcome) -> None:
+    chances = []
+    for kind, name, g in goals:
+        if kind != "response":
+            continue
+        o = s.responses[name]
+        model = fit.models[name]
+        mean, se, sigma, df = model.predictive(X)
+        if not (np.isfinite(sigma) and df and df > 0):
+            if o.chance_in_limits is not None:
+                outcome.fail("chance", "optimize", f"{where}: '{name}' has no error "
+                             f"estimate yet a chance {o.chance_in_limits}")
+            chances.append(None)
+            continue
+        p = float(chance_reference(np.asarray(mean).ravel()[0], np.asarray(se).ravel()[0],
+                                   float(sigma), df, g, _transform(generated, name)))
+        chances.append(p)
+        if o.chance_in_limits is None or abs(o.chance_in_limits - p) > chance_tolerance(p):
+            outcome.fail("chance", "optimize", f"{where}: chance of '{name}' within limits "
+                         f"{o.chance_in_limits}, the t distribution gives {p:.4f}")
+    known = [c for c in chances if c is not None]
+    if not known or None in chances or s.chance_all is None:
+        return
+    tol = chance_tolerance(0.5)
+    if s.chance_all > min(known) + tol or s.chance_all < sum(known) - (len(known) - 1) - tol:
+        outcome.fail("chance", "optimize", f"{where}: chance all {s.chance_all} outside "
+                     f"the bounds {max(0, sum(known) - len(known) + 1):.4f}.."
+                     f"{min(known):.4f} its single chances allow")
+
+
+def region_grid(generated, budget: int = GRID_POINTS) -> pd.DataFrame:
+    """A dense grid of settings over the searched region, in natural units:
+    numeric factors on even steps over their search ranges, every level
+    combination, blends on a simplex lattice of the pseudo-components inside
+    the highs, and only the points that keep every rule."""
+    region = generated.region
+    num, cat, comps = region.numeric, region.categorical, region.components
+    blend = None
+    if comps:
+        q = len(comps)
+        m = {3: 36, 4: 16, 5: 10}.get(q, 8)
+        z = np.array([p for p in itertools.product(range(m + 1), repeat=q - 1)
+                      if sum(p) <= m], dtype=float)
+        z = np.column_stack([z, m - z.sum(axis=1)]) / m
+        amounts = np.array([c.low for c in comps]) + z * region.blend_scale()
+        keep = np.all(amounts <= np.array([c.high for c in comps]) + 1e-9, axis=1)
+        blend = pd.DataFrame(amounts[keep], columns=[c.name for c in comps])
+    combos = math.prod(len(f.levels) for f in cat) * (len(blend) if blend is not None else 1)
+    per = max(2, int((budget / combos) ** (1 / len(num)))) if num else 1
+    per = min(per, 401)
+    axes = [np.linspace(*f.search_range, per) for f in num] + [list(f.levels) for f in cat]
+    rows = list(itertools.product(*axes)) if axes else [()]
+    table = pd.DataFrame(rows, columns=[f.name for f in num] + [f.name for f in cat])
+    if blend is not None:
+        table = table.merge(blend, how="cross") if len(table.columns) else blend
+    keep = np.ones(len(table), dtype=bool)
+    for r in region.rules:
+        keep &= r.holds(table, tol=0.0)
+    return table[keep].reset_index(drop=True)
+
+
+def _check_grid(generated, study, fit, result, goals, outcome) -> None:
+    grid = region_grid(generated)
+    if grid.empty:
+        return
+    X = _coded(study, grid)
+    Y = np.column_stack([np.asarray(fit.models[name].predict(X), float).ravel()
+                         if kind == "response" else grid[name].to_numpy(float)
+                         for kind, name, _ in goals])
+    d = np.column_stack([d_reference(Y[:, j], g) for j, (_, _, g) in enumerate(goals)])
+    D = D_reference(d, [g.get("weight", 1.0) for _, _, g in goals])
+    i = int(np.nanargmax(D))
+    best = result.solutions[0]
+    if D[i] > 0 and (not result.feasible or best.desirability < D[i] - GRID_TOL):
+        settings = {k: (v if isinstance(v, str) else round(float(v), 6))
+                    for k, v in grid.iloc[i].items()}
+        outcome.fail("grid", "optimize", f"best D {best.desirability:.6g} (feasible: "
+                     f"{result.feasible}) but the grid reaches D = {D[i]:.6g} at {settings}")
+    if D[i] == 0 and not result.feasible:
+        S = shortfall_reference(Y, [g for _, _, g in goals])
+        mine = shortfall_reference(np.array([[
+            best.responses[n].predicted if k == "response" else float(best.settings[n])
+            for k, n, _ in goals]]), [g for _, _, g in goals])[0]
+        if mine > S.min() + 1e-6 * (1 + S.min()):
+            outcome.fail("grid", "optimize", f"no feasible setting: shortfall {mine:.6g} "
+                         f"at the best, the grid comes to {S.min():.6g}")
+
+
+# --------------------------------------------------------------------------
+# fit
+
+
+def check_fit(generated, study, fit, printed: dict, outcome) -> None:
+    factors = {f.name: f for f in generated.region.factors}
+    blocks = None
+    if study.block_column is not None and study.block_column in study.runs.columns:
+        blocks = study.runs.groupby("run", sort=False)[study.block_column].first().to_numpy()
+    runs = study.runs.groupby("run", sort=False).first()
+    for name, rep in printed["responses"].items():
+        if rep.get("model") == "smooth" or generated.region.components:
+            continue
+        aliases = rep.get("aliases") or {}
+        for dropped, partners in aliases.items():
+            if not all(isinstance(p, dict) and {"term", "coef"} <= set(p) for p in partners):
+                outcome.fail("aliases", "fit", f"'{name}': '{dropped}' is printed as "
+                             f"aliased with {partners} without the signed coefficients "
+                             "that rebuild it")
+                continue
+            try:
+                col = term_column(dropped, runs, factors, blocks)
+                rebuilt = sum(p["coef"] * term_column(p["term"], runs, factors, blocks)
+                              for p in partners)
+            except TermError as exc:
+                outcome.fail("aliases", "fit", f"'{name}': {exc}")
+                continue
+            if not np.allclose(col, rebuilt, rtol=0, atol=1e-8):
+                outcome.fail("aliases", "fit", f"'{name}': {dropped} = "
+                             + " + ".join(f"{p['coef']:g} {p['term']}" for p in partners)
+                             + " does not rebuild its column")
+        _check_coefficients(generated, study, name, rep, runs, factors, blocks, outcome)
+
+
+def _check_coefficients(generated, study, name, rep, runs, factors, blocks, outcome):
+    """Least squares on the README's coding of the printed terms gives the printed
+    coefficients (numpy.linalg.lstsq as the reference)."""
+    if name not in study.runs.columns or "pieces_columns" in generated.features:
+        return
+    y = study.runs.groupby("run", sort=False)[name].mean().to_numpy(float)
+    ok = np.isfinite(y)
+    transform = _transform(generated, name)
+    if transform == "log":
+        y = np.log(np.where(ok, y, 1.0))
+    elif transform == "sqrt":
+        y = np.sqrt(np.where(ok, y, 0.0))
+    try:
+        M = np.column_stack([term_column(t, runs, factors, blocks) for t in rep["terms"]])
+    except TermError as exc:
+        outcome.fail("fit", "fit", f"'{name}': {exc}")
+        return
+    beta = np.linalg.lstsq(M[ok], y[ok], rcond=None)[0]
+    printed = np.array([rep["coefficients"][t] for t in rep["terms"]], dtype=float)
+    scale = np.max(np.abs(beta)) + np.std(y[ok]) + 1e-12
+    if not np.allclose(printed, beta, rtol=1e-6, atol=1e-8 * scale):
+        worst = int(np.argmax(np.abs(printed - beta)))
+        outcome.fail("fit", "fit", f"'{name}': coefficient of '{rep['terms'][worst]}' is "
+                     f"{printed[worst]:.8g}, least squares on the printed terms gives "
+                     f"{beta[worst]:.8g}")
+
+
+# --------------------------------------------------------------------------
+# next
+
+
+def _D_bracket(values, goals, weights, rel=5.1e-6):
+    """D's range when each goal value may be off by ``rel`` of itself (a value
+    printed to 6 significant digits)."""
+    lo, hi = [], []
+    for y, (_, _, g) in zip(values, goals):
+        eps = rel * max(abs(y), 1e-300) + 1e-12
+        d = d_reference(np.linspace(y - eps, y + eps, 5), g)
+        lo.append(d.min())
+        hi.append(d.max())
+    return (float(D_reference(np.array([lo]), weights)[0]),
+            float(D_reference(np.array([hi]), weights)[0]))
+
+
+def check_next(generated, study, fit, printed: dict, outcome) -> None:
+    """Suggestions from ``next --json`` (numbers printed to 6 significant digits)."""
+    import tradeoff
+
+    made = study.coded()[study.factor_names].to_numpy(float)
+    picked = []
+    goals = goals_of(generated, fit)
+    weights = [g.get("weight", 1.0) for _, _, g in goals]
+    minimum = printed["min_distance"]
+    for i, run in enumerate(printed["runs"], start=1):
+        where = f"suggestion N{i}"
+        table = pd.DataFrame([run["settings"]])
+        for p in _region_ok(generated, table, tol=1e-5, rule_tol=1e-6, total_tol=2e-6):
+            outcome.fail("region", "next", f"{where}: {p}")
+        X = tradeoff.to_coded(study.factors, table)
+        for name, value in run["predicted"].items():
+            p = float(np.asarray(fit.models[name].predict(X)).ravel()[0])
+            spread = float(np.ptp(study.runs[name].dropna())) if name in study.runs else 0.0
+            if not _close(value, p, 3e-5, spread):
+                outcome.fail("predict", "next", f"{where}: '{name}' predicted {value}, the "
+                             f"model predicts {p:.6g} at its settings")
+        values = [run["predicted"][n] if k == "response" else float(run["settings"][n])
+                  for k, n, _ in goals]
+        low, high = _D_bracket(values, goals, weights)
+        D = run["desirability"]
+        if not low - 1e-6 - 5.1e-6 * D <= D <= high + 1e-6 + 5.1e-6 * D:
+            outcome.fail("desirability", "next", f"{where}: D {D} at its predictions "
+                         f"{values}, Derringer-Suich gives {low:.6g}..{high:.6g}")
+        x = X[0]
+        near = np.sqrt(((np.vstack([made] + picked) - x) ** 2).sum(axis=1)).min() \
+            if len(made) or picked else np.inf
+        if near < minimum - 1e-4:
+            outcome.fail("next", "next", f"{where} lies {near:.4g} coded units from a run "
+                         f"made or suggested, closer than {minimum}")
+        picked.append(x[None, :])
+
+
+# --------------------------------------------------------------------------
+# plan
+
+
+def check_plan(generated, study, sheet, args, outcome) -> None:
+    if not sheet.exists():
+        outcome.fail("plan", "plan", "exit 0 but no run sheet written")
+        return
+    table = pd.read_csv(sheet, keep_default_na=False)
+    region = generated.region
+    missing = [f.name for f in region.factors if f.name not in table.columns]
+    if missing:
+        outcome.fail("plan", "plan", f"the run sheet lacks the factor column(s) {missing}")
+        return
+    for f in region.categorical:
+        table[f.name] = table[f.name].astype(str)
+    for f in region.numeric + region.components:
+        table[f.name] = pd.to_numeric(table[f.name])
+    if region.components:
+        total = sum(table[c.name] for c in region.components)
+        if np.any(np.abs(total - region.total) > 1e-6 * region.total):
+            outcome.fail("plan", "plan", f"blends add up to {sorted(set(total))[:3]}, not "
+                         f"{region.total}")
+        for c in region.components:
+            v = table[c.name].to_numpy(float)
+            slack = 1.5e-4 * region.total
+            if np.any(v < c.low - slack) or np.any(v > c.high + slack):
+                outcome.fail("region", "plan", f"'{c.name}' planned at {v.min()}..{v.max()}, "
+                             f"outside its bounds {c.low}..{c.high}")
+        return
+    optimal = "optimal" in args
+    # the sheet rounds settings to 1e-4 of each half range: a run on a rule's edge
+    # may cross it by that rounding
+    for p in _region_ok(generated, table, search=optimal, tol=1e-6 if optimal else 1e-9,
+                        rule_tol=1e-5):
+        if optimal or "rule" not in p:
+            outcome.fail("region", "plan", p)
+
+
+# --------------------------------------------------------------------------
+# confirm
+
+
+def check_confirm(generated, study, fit, printed: dict, outcome) -> None:
+    import tradeoff
+
+    for row in printed["checks"]:
+        name = row["response"]
+        if name not in fit.models or row["predicted"] is None:
+            continue
+        table = pd.DataFrame([{f: row[f] for f in study.factor_names}])
+        X = tradeoff.to_coded(study.factors, table)
+        model = fit.models[name]
+        p = float(np.asarray(model.predict(X)).ravel()[0])
+        where = f"group {row['group']} '{name}'"
+        if not _close(row["predicted"], p, 1e-9):
+            outcome.fail("predict", "confirm", f"{where}: predicted {row['predicted']}, the "
+                         f"model predicts {p}")
+        mean, se, sigma, df = model.predictive(X)
+        if row["pi_low"] is None or not np.isfinite(sigma):
+            continue
+        transform = _transform(generated, name)
+        _, _, lo, hi = interval_reference(np.asarray(mean).ravel(), np.asarray(se).ravel(),
+                                          float(sigma), df, study.confidence, transform,
+                                          m=row["m"])
+        lo, hi = float(lo[0]), float(hi[0])
+        if not (_close(row["pi_low"], lo, 1e-7, hi - lo) and _close(row["pi_high"], hi, 1e-7,
+                                                                      hi - lo)):
+            outcome.fail("confirm", "confirm", f"{where}: interval {row['pi_low']}.."
+                         f"{row['pi_high']} for the mean of {row['m']}, the formula gives "
+                         f"{lo:.8g}..{hi:.8g}")
+        if transform == "none" or row["m"] == 1:
+            inside = lo <= row["measured"] <= hi
+            if bool(row["inside"]) != inside:
+                outcome.fail("confirm", "confirm", f"{where}: measured {row['measured']} "
+                             f"marked inside={row['inside']} against {lo:.6g}..{hi:.6g}")
+    for v in printed["verdicts"]:
+        rows = [r for r in printed["checks"] if r["response"] == v["response"]
+                and r["pi_low"] is not None]
+        if not rows or v["response"] not in fit.models:
+            want = "not checked"
+        else:
+            want = "confirmed" if all(r["inside"] for r in rows) else "not confirmed"
+        if v["verdict"] != want:
+            outcome.fail("confirm", "confirm", f"'{v['response']}': verdict "
+                         f"'{v['verdict']}', its comparisons say '{want}'")
+
+
+# --------------------------------------------------------------------------
+# what check and optimize say in words
+
+
+def check_unused(generated, text: str, outcome) -> None:
+    for column in generated.unused_columns:
+        if not re.search(rf"\b{re.escape(column)}\b", text):
+            outcome.fail("unused_columns", "check", f"the data column '{column}' is neither "
+                         "a factor, a response nor the run id, and check does not name it")
+
+
+def check_display(generated, result, text: str, outcome) -> None:
+    names = [f.name for f in generated.region.factors
+             if f.kind == "categorical" and len(f.levels) > 2]
+    for line in text.splitlines():
+        words = line.split()
+        if len(words) >= 2 and words[0] in names and "coded" in line:
+            outcome.fail("display", "optimize", f"a categorical setting prints a coded "
+                         f"number: {line.strip()!r}")
+            return
+
+
+def check_unjudged(generated, study, fit, result, outcome) -> None:
+    terms = " ".join(" ".join(getattr(m, "terms_", []) or []) for m in fit.models.values())
+    said = " ".join(list(result.warnings) + list(result.best.warnings))
+    for name in generated.unjudged:
+        if re.search(rf"\b{re.escape(name)}\b", terms):
+            continue  # the data judged it after all
+        f = study.factor(name)
+        if result.best.settings[name] != f.levels[0]:
+            outcome.fail("unjudged", "optimize", f"'{name}' cannot be judged from the data "
+                         f"yet the best settings pick '{result.best.settings[name]}', not "
+                         f"its first level '{f.levels[0]}'")
+        if name not in said:
+            outcome.fail("unjudged", "optimize", f"'{name}' cannot be judged from the data "
+                         "and optimize does not say so")
