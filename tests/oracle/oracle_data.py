@@ -220,7 +220,8 @@ def mixture_design(rng, region: Region, n_blends: int) -> pd.DataFrame:
     table = pd.DataFrame(amounts[keep], columns=[c.name for c in comps])
     ok = np.ones(len(table), dtype=bool)
     for r in region.rules:
-        ok &= r.holds(table)
+        if set(r.coef) <= set(table.columns):  # rules among the components
+            ok &= r.holds(table)
     table = table[ok].reset_index(drop=True)
     z = (table.to_numpy() - lows) / scale
     chosen = [int(np.argmin(((z - z.mean(axis=0)) ** 2).sum(axis=1)))]

@@ -135,8 +135,7 @@ def _back(z, transform):
 def interval_reference(mean, se, sigma, df, level, transform="none", m: int | None = None):
     """(ci_low, ci_high, pi_low, pi_high) in natural units; with m, the interval for
     the mean of m new runs in place of the prediction interval."""
-    # a smooth model's posterior is normal: its df (a million) stands for infinity
-    q = (stats.t.ppf(0.5 + level / 2, df) if df and math.isfinite(df) and df < 1e5
+    q = (stats.t.ppf(0.5 + level / 2, df) if df and math.isfinite(df)
          else stats.norm.ppf(0.5 + level / 2))
     mean, se = np.asarray(mean, float), np.asarray(se, float)
     spread = np.sqrt(se ** 2 + sigma ** 2) if m is None else np.sqrt(sigma ** 2 / m + se ** 2)

@@ -47,6 +47,10 @@ CAT_NAMES = ("flour", "binder", "film", "oil")
 COMPONENT_NAMES = ("rice_flour", "sorghum", "tapioca", "potato_starch")
 RESPONSE_NAMES = ("hardness", "volume", "colour", "liking", "cost", "moisture")
 R_GAS = 8.314462618  # J/(mol K), CODATA 2018 (exact)
+# A small region (a narrowed range, a bounded blend, levels only) may hold no
+# setting far enough from every run made: next then says so.
+REFUSALS = {"next": r"^error: every setting in the searched region lies within .* coded "
+                    r"units of a run already made"}
 
 
 @dataclass
@@ -64,6 +68,8 @@ class Generated:
     unused_columns: tuple = ()
     derived: tuple = ()
     replay: str = ""
+    # refusals a valid study may meet, by command: exit 2 with a line matching these
+    refusals: dict = field(default_factory=lambda: dict(REFUSALS))
 
     @property
     def study_text(self) -> str:
@@ -225,19 +231,25 @@ class _Builder:
                 choices.append("full")
             model = self.pick.choice(choices)
         centres = self.pick.integer(1, 3) if centres is None else centres
-        random_runs = model != "full" and num and self.pick.chance(0.2)
+        random_runs = bool(model != "full" and num and self.pick.chance(0.2))
+        combos = list(itertools.product(*[f.levels for f in cat])) or [()]
         if random_runs:  # runs scattered over the region, as gathered over earlier studies
             widths = [1] * len(num) + [len(f.levels) - 1 if len(f.levels) > 2 else 1 for f in cat]
             need = n_model_columns(model, widths, len(num))
-            table = self.region.sample(self.rng, need + 6, box=True)
-            if len(table) < need + 4:
-                random_runs = False
-            else:
-                self.features.add("scattered_runs")
-        if not random_runs:
+            per = max(len(num) + 3 if model != "quadratic" else 2 * len(num) + 4,
+                      math.ceil((need + 6) / len(combos)))
+            parts = []
+            for combo in combos:
+                part = self.region.sample(self.rng, per, box=True)
+                part = part[[f.name for f in num]].copy()
+                for f, level in zip(cat, combo):
+                    part[f.name] = level
+                parts.append(part)
+            table = pd.concat(parts, ignore_index=True)
+            self.features.add("scattered_runs")
+        else:
             coded = numeric_design(len(num), quadratic=model == "quadratic",
                                    centres=centres if num else 2)
-            combos = list(itertools.product(*[f.levels for f in cat])) or [()]
             rows = []
             for combo in combos:
                 for x in coded:
@@ -682,9 +694,6 @@ class _Builder:
             for f in self.factors:
                 f.goal = None
             self.features.add("no_goals")
-        num = [f for f in self.factors if f.kind == "numeric"]
-        if self.region.components or not num:  # a small region may hold no new run
-            self.expect["next"] = {0, 2}
         if not any(r.get("goal", "none") != "none" for r in self.responses) and \
                 not any(f.goal and f.goal["goal"] != "none" for f in self.factors):
             self.features.add("no_goals")
