@@ -16,6 +16,10 @@ __all__ = ["_polish_d", "_polish_shortfall", "_Local"]
 
 _STEP = 1e-5  # central-difference step in coded units (models are smooth polynomials)
 _FTOL = 1e-6  # SLSQP stops when sum(w log t) (log D) changes less than this per peak
+# A range goal's d steps from 1 to 0 at its limits. SLSQP meets a constraint only to
+# within its tolerance, so a peak on a range limit could end a hair outside it, where
+# D is 0; the polish aims this far inside (in goal widths) instead.
+_INSIDE = 1e-8
 
 
 class _Local:
@@ -82,8 +86,8 @@ def _polish_d(problem, Z0, cats):
             pieces.append((i, 1 / below, -g.lower / below, ti, 1 / g.shape_below))
             pieces.append((i, -1 / above, g.upper / above, ti, 1 / g.shape_above))
         elif g.kind == "range":
-            pieces.append((i, 1 / width, -g.lower / width, -1, 1.0))
-            pieces.append((i, -1 / width, g.upper / width, -1, 1.0))
+            pieces.append((i, 1 / width, -g.lower / width - _INSIDE, -1, 1.0))
+            pieces.append((i, -1 / width, g.upper / width - _INSIDE, -1, 1.0))
     col = np.array([pc[0] for pc in pieces])
     a = np.array([pc[1] for pc in pieces])
     const = np.array([pc[2] for pc in pieces])
