@@ -71,7 +71,7 @@ def chance_tolerance(p: float, draws: int = 20000) -> float:
 
 
 def _region_ok(generated, table: pd.DataFrame, *, search: bool = True, tol=1e-9,
-               rule_tol=1e-7, total_tol=1e-7) -> list[str]:
+               rule_tol=1e-7, total_tol=1e-7, coded_slack=0.0) -> list[str]:
     """What keeps settings out of the region (empty when they lie inside)."""
     problems = []
     region = generated.region
@@ -91,9 +91,11 @@ def _region_ok(generated, table: pd.DataFrame, *, search: bool = True, tol=1e-9,
         total = sum(table[c.name].to_numpy(float) for c in region.components)
         if np.any(np.abs(total - region.total) > total_tol * region.total):
             problems.append(f"the blend adds up to {total.tolist()}, not {region.total}")
+    halves = {f.name: f.half for f in region.numeric}
     for r in region.rules:
-        if not r.holds(table, tol=rule_tol).all():
-            problems.append(f"rule '{r.text}' broken")
+        slack = coded_slack * sum(abs(c) * halves.get(n, 0.0) for n, c in r.coef.items())
+        if not r.holds(table, tol=rule_tol, slack=slack).all():
+            problems.append(f"rule '{r.text}' broken by {r.excess(table):.3g}")
     return problems
 
 
@@ -223,7 +225,8 @@ def _check_chances(generated, study, fit, X, s, goals, where, outcome) -> None:
                      f"{min(known):.4f} its single chances allow")
 
 
-def region_grid(generated, budget: int = GRID_POINTS) -> pd.DataFrame:
+def region_grid(generated, budget: int = GRID_POINTS, levels: dict | None = None
+                ) -> pd.DataFrame:
     """A dense grid of settings over the searched region, in natural units:
     numeric factors on even steps over their search ranges, every level
     combination, blends on a simplex lattice of the pseudo-components inside
@@ -240,10 +243,13 @@ def region_grid(generated, budget: int = GRID_POINTS) -> pd.DataFrame:
         amounts = np.array([c.low for c in comps]) + z * region.blend_scale()
         keep = np.all(amounts <= np.array([c.high for c in comps]) + 1e-9, axis=1)
         blend = pd.DataFrame(amounts[keep], columns=[c.name for c in comps])
-    combos = math.prod(len(f.levels) for f in cat) * (len(blend) if blend is not None else 1)
+    combos = math.prod(len(levels.get(f.name, f.levels)) if levels else len(f.levels)
+                       for f in cat) * (len(blend) if blend is not None else 1)
     per = max(2, int((budget / combos) ** (1 / len(num)))) if num else 1
     per = min(per, 401)
-    axes = [np.linspace(*f.search_range, per) for f in num] + [list(f.levels) for f in cat]
+    levels = levels or {}
+    axes = [np.linspace(*f.search_range, per) for f in num] + [
+        list(levels.get(f.name, f.levels)) for f in cat]
     rows = list(itertools.product(*axes)) if axes else [()]
     table = pd.DataFrame(rows, columns=[f.name for f in num] + [f.name for f in cat])
     if blend is not None:
@@ -255,7 +261,12 @@ def region_grid(generated, budget: int = GRID_POINTS) -> pd.DataFrame:
 
 
 def _check_grid(generated, study, fit, result, goals, outcome) -> None:
-    grid = region_grid(generated)
+    # levels the result holds or leaves out (not informed by the data) are not searched
+    searched = {}
+    for n in result.not_informed:
+        f = study.factor(n["factor"])
+        searched[f.name] = [v for v in f.levels if v not in n.get("left_out", [])]
+    grid = region_grid(generated, levels=searched)
     if grid.empty:
         return
     X = _coded(study, grid)
@@ -427,10 +438,10 @@ def check_plan(generated, study, sheet, args, outcome) -> None:
                              f"outside its bounds {c.low}..{c.high}")
         return
     optimal = "optimal" in args
-    # the sheet rounds settings to 1e-4 of each half range: a run on a rule's edge
-    # may cross it by that rounding
+    # the sheet rounds each setting to 4 significant digits of its half range (at
+    # most 5e-5 coded units off): a run on a rule's edge may cross it by that much
     for p in _region_ok(generated, table, search=optimal, tol=1e-6 if optimal else 1e-9,
-                        rule_tol=1e-5):
+                        coded_slack=5e-5):
         if optimal or "rule" not in p:
             outcome.fail("region", "plan", p)
 
@@ -508,16 +519,29 @@ def check_display(generated, result, text: str, outcome) -> None:
 
 
 def check_unjudged(generated, study, fit, result, outcome) -> None:
+    """A factor the runs cannot judge is held at its ``hold`` level (else its first),
+    and the result says the choice is not informed; a level at which no run was made
+    is never chosen (the README's rule for what the data cannot judge)."""
     terms = " ".join(" ".join(getattr(m, "terms_", []) or []) for m in fit.models.values())
-    said = " ".join(list(result.warnings) + list(result.best.warnings))
+    noted = {n["factor"]: n for n in result.not_informed}
     for name in generated.unjudged:
         if re.search(rf"\b{re.escape(name)}\b", terms):
             continue  # the data judged it after all
-        f = study.factor(name)
-        if result.best.settings[name] != f.levels[0]:
+        f = next(x for x in generated.region.factors if x.name == name)
+        held = f.hold if f.hold is not None else f.levels[0]
+        for s in result.solutions:
+            if s.settings[name] != held:
+                outcome.fail("unjudged", "optimize", f"'{name}' cannot be judged from the "
+                             f"data yet {s.label} picks '{s.settings[name]}', not '{held}'")
+        if name not in noted or noted[name].get("held_at") != held:
             outcome.fail("unjudged", "optimize", f"'{name}' cannot be judged from the data "
-                         f"yet the best settings pick '{result.best.settings[name]}', not "
-                         f"its first level '{f.levels[0]}'")
-        if name not in said:
-            outcome.fail("unjudged", "optimize", f"'{name}' cannot be judged from the data "
-                         "and optimize does not say so")
+                         f"and optimize does not say it holds it at '{held}' "
+                         f"(not_informed: {list(noted.values())})")
+    for name, level in generated.empty_levels.items():
+        for s in result.solutions:
+            if s.settings[name] == level:
+                outcome.fail("unjudged", "optimize", f"{s.label} picks '{level}' of "
+                             f"'{name}', at which no run was made")
+        if name not in noted or level not in noted[name].get("left_out", []):
+            outcome.fail("unjudged", "optimize", f"no run was made at '{level}' of "
+                         f"'{name}' and optimize does not say it was left out")

@@ -44,6 +44,7 @@ class Factor:
     levels: tuple | None = None
     search: tuple | None = None
     goal: dict | None = None
+    hold: str | None = None  # the level to hold a factor the data cannot judge at
 
     @property
     def centre(self) -> float:
@@ -76,10 +77,17 @@ class Rule:
         parts = [f"{fmt(c)}*{n}" for n, c in self.coef.items()]
         return " + ".join(parts).replace("+ -", "- ") + f" <= {fmt(self.bound)}"
 
-    def holds(self, table: pd.DataFrame, tol: float = 1e-9) -> np.ndarray:
+    def holds(self, table: pd.DataFrame, tol: float = 1e-9, slack: float = 0.0) -> np.ndarray:
+        """Which settings keep the rule, within ``tol`` of the sizes involved (and an
+        absolute ``slack``)."""
         parts = [c * table[n].to_numpy(float) for n, c in self.coef.items()]
         size = np.maximum(sum(np.abs(p) for p in parts), max(1.0, abs(self.bound)))
-        return sum(parts) <= self.bound + tol * size
+        return sum(parts) <= self.bound + tol * size + slack
+
+    def excess(self, table: pd.DataFrame) -> float:
+        """How far the worst setting crosses the rule (0 when all keep it)."""
+        left = sum(c * table[n].to_numpy(float) for n, c in self.coef.items())
+        return float(max(0.0, np.max(left - self.bound)))
 
 
 @dataclass
@@ -107,14 +115,19 @@ class Region:
 
     def sample(self, rng, n: int, *, box: bool = False) -> pd.DataFrame:
         """About n random settings inside the region (natural units, rules kept)."""
-        for _ in range(20):
+        parts, found = [], 0
+        for _ in range(40):
             table = self._draw(rng, 4 * n, box)
             keep = np.ones(len(table), dtype=bool)
             for r in self.rules:
                 keep &= r.holds(table)
-            if keep.sum() >= max(1, n // 4):
-                return table[keep].head(n).reset_index(drop=True)
-        raise AssertionError("the generated region is (nearly) empty")
+            parts.append(table[keep])
+            found += int(keep.sum())
+            if found >= n:
+                break
+        if not found:
+            raise AssertionError("the generated region is (nearly) empty")
+        return pd.concat(parts).head(n).reset_index(drop=True)
 
     def _draw(self, rng, n, box):
         cols = {}

@@ -65,6 +65,7 @@ class Generated:
     region: Region
     expect: dict
     unjudged: tuple = ()
+    empty_levels: dict = field(default_factory=dict)
     unused_columns: tuple = ()
     derived: tuple = ()
     replay: str = ""
@@ -120,6 +121,7 @@ class _Builder:
         self.expect = {c: {0} for c in COMMANDS}
         self.expect["plan"] = {0, 2}
         self.unjudged: tuple = ()
+        self.empty_levels: dict = {}
         self.unused: tuple = ()
         self.derived: list[str] = []
         self.pieces = None  # ("rows", n) or ("columns", n)
@@ -187,8 +189,10 @@ class _Builder:
             a, b = self.pick.choice(list(itertools.combinations(num, 2)))
             ca = self.pick.choice([1.0, 2.0, -1.0, 0.5]) / a.half
             cb = self.pick.choice([1.0, -1.0, 3.0]) / b.half
-            point = self.region.sample(self.rng, 50).iloc[0]
-            bound = ca * point[a.name] + cb * point[b.name]
+            # through the region: a share of 30 to 80 % of it keeps the rule
+            mid = self.region.sample(self.rng, 400)
+            bound = float(np.quantile(ca * mid[a.name] + cb * mid[b.name],
+                                      self.pick.real(0.3, 0.8)))
             self.rules.append(Rule({a.name: float(fmt(ca)), b.name: float(fmt(cb))},
                                    float(fmt(bound))))
         else:
@@ -447,7 +451,7 @@ class _Builder:
         self.responses_plain(self.pick.integer(1, 3))
 
     def kind_confounded(self):
-        how = self.pick.choice(["blocks", "fraction", "factor", "few_runs"])
+        how = self.pick.choice(["blocks", "fraction", "factor", "few_runs", "empty_level"])
         self.features.add(f"confounded_{how}")
         self._confirm = self.pick.chance(0.3)
         self._no_goals = False
@@ -475,13 +479,25 @@ class _Builder:
             rows += [{f.name: f.centre for f in num}] * 2
             self.design = pd.DataFrame(rows)
             self.study["model"] = "interactions"
-        else:  # a two-level choice made on its own day: confounded with the blocks
+        elif how == "factor":  # a two-level choice made on its own day: confounded with the blocks
             self.add_numeric(self.pick.integer(1, 2))
             self.add_categorical(2)
             cat = self.factors[-1]
             self.factorial(model=self.pick.choice(["main", "interactions"]), centres=2)
             self.set_blocks([cat.levels.index(v) for v in self.design[cat.name]], 2)
+            if self.pick.chance(0.5):  # the level to hold it at, named by the user
+                cat.hold = self.pick.choice(cat.levels)
             self.unjudged = (cat.name,)
+        else:  # a level declared but never made: nothing measured there
+            self.add_numeric(self.pick.integer(1, 2))
+            self.add_categorical(self.pick.integer(3, 4))
+            cat = self.factors[-1]
+            missing = self.pick.choice(cat.levels)
+            made = tuple(v for v in cat.levels if v != missing)
+            cat.levels, declared = made, cat.levels  # the design uses the levels made
+            self.factorial(model=self.pick.choice(["main", "interactions"]))
+            cat.levels = declared
+            self.empty_levels = {cat.name: missing}
         self.responses_plain(self.pick.integer(1, 2))
 
     def kind_extra_columns(self):
@@ -725,13 +741,16 @@ class _Builder:
             spec.pop("confirmations", None)
         return Generated(kind=self.kind, seed=None, features=self.features, spec=spec,
                          files=self.files, region=self.region, expect=self.expect,
-                         unjudged=self.unjudged, unused_columns=self.unused,
+                         unjudged=self.unjudged, empty_levels=self.empty_levels,
+                         unused_columns=self.unused,
                          derived=tuple(self.derived))
 
     def _factor_entry(self, f: Factor) -> dict:
         entry = {"name": f.name}
         if f.kind == "categorical":
             entry["levels"] = list(f.levels)
+            if f.hold is not None:
+                entry["hold"] = f.hold
         else:
             entry.update(low=f.low, high=f.high)
             if f.search is not None:
