@@ -17,7 +17,7 @@ loads and fits the same study through the public API, and checks:
   (Derringer 1994);
 - ``grid``: the best D is at least the best of a dense grid over the numeric
   factors, every level combination and the bounded simplex, inside the rules
-  (``GRID_TOL``); with no feasible setting, no grid point is feasible and the
+  (``oracle_checks.GRID_TOL``); with no feasible setting, no grid point is feasible and the
   shortfall is no larger than the grid's;
 - ``region``: solutions and suggestions lie in the searched region, keep the
   rules and use levels of the factors;
@@ -59,9 +59,8 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged)
 
-__all__ = ["Outcome", "run_battery", "GRID_TOL", "TOP"]
+__all__ = ["Outcome", "run_battery", "TOP"]
 
-GRID_TOL = 1e-6  # D of the search may fall short of the grid's best by this much at most
 TOP = 3  # solutions asked for (small: the oracle checks every one)
 NEXT_RUNS = 2
 
@@ -130,6 +129,10 @@ class _Runner:
             if len(lines) != 1 or not lines[0].startswith("error: "):
                 self.outcome.fail("no_traceback", key,
                                   f"exit 2 must print one 'error:' line, found: {err!r}")
+            mentions = self.generated.mentions
+            if mentions and not any(m in err for m in mentions):
+                self.outcome.fail("error_line", key, f"the error names none of "
+                                  f"{list(mentions)}: {err.strip()!r}")
         elif rc != 0:
             self.outcome.fail("no_traceback", key, f"exit {rc}: {err[-800:]}")
         refusal = self.generated.refusals.get(key)
@@ -170,6 +173,12 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
     except tradeoff.TradeoffError as exc:
         if rc == 0:
             outcome.fail("api_cli", "check", f"check passed but load_study refused: {exc}")
+        # a study that cannot be read: every command refuses it in one line
+        for args in (("fit",), ("optimize", "--json"), ("next", "--runs", 1),
+                     ("plan", "--out", folder / "plan_sheet.csv", *_plan_args(generated)),
+                     ("report", "--out", folder / "report.html"),
+                     ("report", "--out", folder / "report.xlsx"), ("confirm",)):
+            cli(*args)
         return
     try:
         fit = tradeoff.fit_study(study)

@@ -23,7 +23,9 @@ __all__ = ["check_solutions", "check_fit", "check_next", "check_plan", "check_co
            "check_report_html", "check_report_xlsx", "check_unused", "check_display",
            "check_unjudged", "goals_of", "region_grid", "chance_tolerance"]
 
-GRID_TOL = 1e-6
+# The search may end below the grid's best by this share of it: ten times the polish's
+# stopping tolerance on log D (core/search/polish.py, 1e-6).
+GRID_TOL = 1e-5
 GRID_POINTS = 40000  # at most this many grid points per study
 
 
@@ -167,6 +169,7 @@ def check_solutions(generated, study, fit, result, outcome) -> None:
                 outcome.fail("desirability", "optimize", f"{where}: outside limits "
                              f"{sorted(s.out_of_limits)}, d = 0 for {sorted(out)}")
         _check_chances(generated, study, fit, X, s, goals, where, outcome)
+        _check_spread(generated, study, fit, s, where, outcome)
     D = [s.desirability for s in result.solutions]
     if result.rank_by == "desirability" and any(a < b - 1e-12 for a, b in zip(D, D[1:])):
         outcome.fail("overall", "optimize", f"solutions not in order of D: {D}")
@@ -187,6 +190,36 @@ def _check_intervals(generated, study, model, X, name, o, where, outcome) -> Non
     if not all(_close(a, b, _interval_tol(df), scale) for a, b in zip(got, want)):
         outcome.fail("intervals", "optimize", f"{where}: '{name}' ci, pi {got}, the t "
                      f"intervals are {want}")
+
+
+SPREAD_DRAWS = 40000
+
+
+def _check_spread(generated, study, fit, s, where, outcome) -> None:
+    """Each response's spread SD and mean shift under the factors' production SDs
+    equal a Monte Carlo of the model over settings drawn around the solution
+    (independent normal settings, as the README states); within 4 % of the SD."""
+    spread = {f.name: f.production_sd for f in generated.region.numeric if f.production_sd}
+    if not spread:
+        return
+    rng = np.random.default_rng(20240)
+    table = pd.DataFrame({k: np.repeat(v, SPREAD_DRAWS) if isinstance(v, str)
+                          else np.full(SPREAD_DRAWS, float(v)) for k, v in s.settings.items()})
+    for name, sd in spread.items():
+        table[name] = table[name] + rng.normal(0.0, sd, SPREAD_DRAWS)
+    X = _coded(study, table)
+    for name, o in s.responses.items():
+        y = np.asarray(fit.models[name].predict(X), float).ravel()
+        sd, shift = float(y.std()), float(y.mean() - o.predicted)
+        if o.transmitted_sd is None:
+            outcome.fail("spread", "optimize", f"{where}: '{name}' has no spread SD")
+            continue
+        tol = 0.04 * sd + 1e-9 * (abs(o.predicted) + 1)
+        if abs(o.transmitted_sd - sd) > tol or abs(o.mean_shift - shift) > tol + 4 * sd / \
+                math.sqrt(SPREAD_DRAWS):
+            outcome.fail("spread", "optimize", f"{where}: '{name}' spread SD "
+                         f"{o.transmitted_sd:.6g}, shift {o.mean_shift:.6g}; Monte Carlo "
+                         f"gives {sd:.6g}, {shift:.6g}")
 
 
 def _interval_tol(df) -> float:
@@ -277,7 +310,7 @@ def _check_grid(generated, study, fit, result, goals, outcome) -> None:
     D = D_reference(d, [g.get("weight", 1.0) for _, _, g in goals])
     i = int(np.nanargmax(D))
     best = result.solutions[0]
-    if D[i] > 0 and (not result.feasible or best.desirability < D[i] - GRID_TOL):
+    if D[i] > 0 and (not result.feasible or best.desirability < D[i] * (1 - GRID_TOL)):
         settings = {k: (v if isinstance(v, str) else round(float(v), 6))
                     for k, v in grid.iloc[i].items()}
         outcome.fail("grid", "optimize", f"best D {best.desirability:.6g} (feasible: "
@@ -401,7 +434,9 @@ def check_next(generated, study, fit, printed: dict, outcome) -> None:
         x = X[0]
         near = np.sqrt(((np.vstack([made] + picked) - x) ** 2).sum(axis=1)).min() \
             if len(made) or picked else np.inf
-        if near < minimum - 1e-4:
+        # settings are rounded to 1/1000 of each factor's range (README), which may
+        # bring a run that much nearer
+        if near < minimum - 1e-3 * math.sqrt(len(x)):
             outcome.fail("next", "next", f"{where} lies {near:.4g} coded units from a run "
                          f"made or suggested, closer than {minimum}")
         picked.append(x[None, :])

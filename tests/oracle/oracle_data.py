@@ -45,6 +45,9 @@ class Factor:
     search: tuple | None = None
     goal: dict | None = None
     hold: str | None = None  # the level to hold a factor the data cannot judge at
+    production_sd: float | None = None  # spread of the setting in production
+    label: str | None = None
+    unit: str | None = None
 
     @property
     def centre(self) -> float:

@@ -39,7 +39,8 @@ from oracle_data import (LEVEL_WORDS, TWO_LEVELS, Factor, Region, Rule, Truth, f
 __all__ = ["KINDS", "Generated", "generate", "COMMANDS"]
 
 KINDS = ("numeric", "two_level", "levels", "mixture", "models", "pieces", "storage",
-         "panel", "blocks", "confounded", "extra_columns", "no_factors", "mixed")
+         "panel", "blocks", "confounded", "extra_columns", "no_factors", "mixed",
+         "mistakes")
 COMMANDS = ("check", "fit", "optimize", "next", "plan", "report_html", "report_xlsx",
             "confirm")
 NUMERIC_NAMES = ("sugar", "fat", "salt", "water", "fibre", "acid", "mix_time", "bake_temp")
@@ -66,6 +67,8 @@ class Generated:
     expect: dict
     unjudged: tuple = ()
     empty_levels: dict = field(default_factory=dict)
+    # a study with a deliberate mistake: its error line names one of these files
+    mentions: tuple = ()
     unused_columns: tuple = ()
     derived: tuple = ()
     replay: str = ""
@@ -122,6 +125,8 @@ class _Builder:
         self.expect["plan"] = {0, 2}
         self.unjudged: tuple = ()
         self.empty_levels: dict = {}
+        self.mistake = None
+        self.mentions: tuple = ()
         self.unused: tuple = ()
         self.derived: list[str] = []
         self.pieces = None  # ("rows", n) or ("columns", n)
@@ -209,6 +214,23 @@ class _Builder:
         if hi - lo > 0.2 * (f.high - f.low):
             f.search = (float(fmt(lo)), float(fmt(hi)))
             self.features.add("search")
+
+    def spread(self) -> None:
+        """A production SD on some numeric factors (at most half of low..high)."""
+        for f in self.region.numeric:
+            if self.pick.chance(0.6):
+                f.production_sd = float(fmt(f.half * self.pick.choice([0.02, 0.1, 0.3])))
+                self.features.add("production_sd")
+
+    def labels(self) -> None:
+        """Labels and units, some of them beyond ASCII, and a description."""
+        for f in self.factors:
+            if f.kind != "categorical":
+                f.unit = self.pick.choice(["%", "g", "°C", "min", "g/kg"])
+            f.label = self.pick.choice([f"{f.name.replace('_', ' ').title()} content",
+                                        f"Teneur en {f.name} (essai)", f"{f.name} — dose"])
+        self.study["description"] = "Simulated data for the oracle; not a measurement."
+        self.features.add("labels")
 
     def factor_goal(self) -> None:
         num = self.region.numeric
@@ -340,9 +362,17 @@ class _Builder:
     # -- kinds ---------------------------------------------------------------------
 
     def _extras(self, *, rules=True, confirm=True) -> None:
-        """Goals on factors, rules, search ranges, sometimes no goal at all."""
+        """Goals on factors, rules, search ranges, production spread, labels and
+        units, the confidence level, sometimes no goal at all."""
         if self.pick.chance(0.3):
             self.narrow_search()
+        if self.pick.chance(0.2):
+            self.spread()
+        if self.pick.chance(0.3):
+            self.labels()
+        if self.pick.chance(0.25):
+            self.study["confidence"] = self.pick.choice([0.9, 0.99, 0.8])
+            self.features.add("confidence")
         if rules and self.pick.chance(0.4):
             self.add_rule()
         if self.pick.chance(0.35):
@@ -567,6 +597,54 @@ class _Builder:
             self.unused = ("tray_notes",)
             self.features.add("unused_columns")
 
+    def kind_mistakes(self):
+        """A valid small study with one mistake a lab user makes: every command that
+        reads it must refuse it with one line that names the file at fault."""
+        self.add_numeric(self.pick.integer(1, 2))
+        self.add_categorical(2)
+        self.factorial(model="main")
+        self.responses_plain(self.pick.integer(1, 2))
+        self.mistake = self.pick.choice(["level", "number", "key", "bounds", "rule",
+                                         "column", "target", "duplicate"])
+        self.features.add(f"mistake_{self.mistake}")
+        self._confirm = self._no_goals = False
+        self.expect.update({c: {2} for c in COMMANDS})
+        self.expect["plan"] = {0, 2}  # a plan needs the study file, not the data
+        in_data = self.mistake in ("level", "number", "column")
+        self.mentions = ("runs.csv",) if in_data else ("study.toml",)
+        if self.mistake == "column":
+            self.mentions = ("runs.csv", "study.toml")
+            self.expect["plan"] = {0}
+
+    def _mistake_in_data(self, table: pd.DataFrame) -> pd.DataFrame:
+        row = self.pick.integer(0, len(table) - 1)
+        cat = next(f for f in self.factors if f.kind == "categorical")
+        if self.mistake == "level":
+            table[cat.name] = table[cat.name].astype(object)
+            table.loc[row, cat.name] = table.loc[row, cat.name] + "s"
+        elif self.mistake == "number":
+            name = next(iter(self.measured))
+            table[name] = table[name].astype(object)
+            table.loc[row, name] = f"{float(table.loc[row, name]):.3g} N"
+        elif self.mistake == "column":
+            table = table.drop(columns=[self.region.numeric[0].name])
+        return table
+
+    def _mistake_in_spec(self, spec: dict) -> None:
+        first = spec["factors"][0]
+        if self.mistake == "key":
+            first["hihg"] = 3
+        elif self.mistake == "bounds":
+            first["low"], first["high"] = first["high"], first["low"]
+        elif self.mistake == "rule":
+            name = self.region.numeric[0].name
+            spec["constraints"] = [{"rule": f"{name[:-1]} + {name} <= 3"}]
+        elif self.mistake == "target":
+            r = spec["responses"][0]
+            r.update(goal="target", lower=1.0, upper=2.0, target=3.0)
+        elif self.mistake == "duplicate":
+            spec["factors"].append(dict(first))
+
     # -- blocks, storage, panel ----------------------------------------------------
 
     def set_blocks(self, index, n_blocks) -> None:
@@ -722,9 +800,10 @@ class _Builder:
                                if f.kind != "component"]
         if self.region.components:
             spec["mixture"] = self.mixture
-            spec["components"] = [{"name": c.name, "unit": "%" if self.total == 100 else "g",
-                                   "low": c.low, "high": c.high}
-                                  for c in self.region.components]
+            spec["components"] = [{"name": c.name, "unit": c.unit or (
+                "%" if self.total == 100 else "g"), "low": c.low, "high": c.high}
+                | ({"label": c.label} if c.label else {})
+                for c in self.region.components]
         spec["responses"] = self.responses
         if self.rules:
             spec["constraints"] = [{"rule": r.text} for r in self.rules]
@@ -739,9 +818,12 @@ class _Builder:
         if "confirmations" not in self.features:
             self.expect["confirm"] = {2}
             spec.pop("confirmations", None)
+        if self.mistake:
+            self._mistake_in_spec(spec)
         return Generated(kind=self.kind, seed=None, features=self.features, spec=spec,
                          files=self.files, region=self.region, expect=self.expect,
                          unjudged=self.unjudged, empty_levels=self.empty_levels,
+                         mentions=self.mentions,
                          unused_columns=self.unused,
                          derived=tuple(self.derived))
 
@@ -755,6 +837,11 @@ class _Builder:
             entry.update(low=f.low, high=f.high)
             if f.search is not None:
                 entry["search"] = list(f.search)
+            if f.production_sd is not None:
+                entry["production_sd"] = f.production_sd
+        for key in ("label", "unit"):
+            if getattr(f, key):
+                entry[key] = getattr(f, key)
         if f.goal:
             entry.update(f.goal)
         return entry
@@ -787,8 +874,25 @@ class _Builder:
             table[name] = values
         if self.pieces is not None and self.measured:
             table = self._with_pieces(table)
-        text = table.to_csv(index=False, float_format="%.10g")
-        self.files["runs.csv"] = text.encode()
+        if self.mistake:
+            table = self._mistake_in_data(table)
+        fmt_choice = "csv" if self.mistake else self.pick.choice(["csv"] * 8
+                                                                 + ["xlsx", "semicolon"])
+        if fmt_choice == "xlsx":  # as a lab saves it from its spreadsheet
+            import io
+
+            buffer = io.BytesIO()
+            table.to_excel(buffer, index=False, sheet_name="runs")
+            self.files["runs.xlsx"] = buffer.getvalue()
+            self.study["data"] = "runs.xlsx"
+            self.features.add("xlsx")
+        elif fmt_choice == "semicolon":  # a locale with decimal commas
+            text = table.to_csv(index=False, sep=";", decimal=",", float_format="%.10g")
+            self.files["runs.csv"] = text.encode("utf-8-sig")
+            self.features.add("decimal_comma")
+        else:
+            text = table.to_csv(index=False, float_format="%.10g")
+            self.files["runs.csv"] = text.encode()
         assert n >= 1
 
     def _with_pieces(self, table: pd.DataFrame) -> pd.DataFrame:
