@@ -41,9 +41,7 @@ from __future__ import annotations
 
 import contextlib
 import io
-import itertools
 import json
-import math
 import re
 import subprocess
 import sys
@@ -51,9 +49,6 @@ import traceback
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
-
-import numpy as np
-import pandas as pd
 
 from oracle_checks import (check_confirm, check_fit, check_next, check_plan, check_report_html,
                            check_report_xlsx, check_solutions, check_unused, check_display,
