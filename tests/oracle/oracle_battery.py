@@ -32,6 +32,8 @@ loads and fits the same study through the public API, and checks:
 - ``next``, ``plan``, ``confirm``: suggestions keep their distance and score
   as the models say; a plan's run sheet lies in the region; each confirmation
   is compared with the interval for the mean of its m runs;
+- ``derive``: derived responses equal a recomputation from the raw storage
+  and panel tables (oracle_derive.py);
 - ``unjudged``, ``unused_columns``, ``display``: a factor the data cannot
   judge is held at its first level and named; every unused column of the
   data file is named by check; a categorical setting prints as its level name
@@ -53,6 +55,7 @@ from pathlib import Path
 from oracle_checks import (check_confirm, check_fit, check_next, check_plan, check_report_html,
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged)
+from oracle_derive import check_derived
 
 __all__ = ["Outcome", "run_battery", "TOP"]
 
@@ -175,6 +178,8 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
                      ("report", "--out", folder / "report.xlsx"), ("confirm",)):
             cli(*args)
         return
+    if generated.derived:
+        check_derived(generated, study, outcome)
     try:
         fit = tradeoff.fit_study(study)
     except tradeoff.TradeoffError:
