@@ -17,7 +17,8 @@ import pandas as pd
 
 from oracle_pages import check_report_html, check_report_xlsx
 from oracle_reference import (D_reference, TermError, chance_reference, d_reference,
-                              interval_reference, shortfall_reference, term_column)
+                              goal_limits, interval_reference, shortfall_reference,
+                              term_column)
 
 __all__ = ["check_solutions", "check_fit", "check_next", "check_plan", "check_confirm",
            "check_report_html", "check_report_xlsx", "check_unused", "check_display",
@@ -173,6 +174,21 @@ def check_solutions(generated, study, fit, result, outcome) -> None:
     D = [s.desirability for s in result.solutions]
     if result.rank_by == "desirability" and any(a < b - 1e-12 for a, b in zip(D, D[1:])):
         outcome.fail("overall", "optimize", f"solutions not in order of D: {D}")
+    # alternatives are distinct peaks, at least 0.25 coded units apart (README)
+    coded = np.array([[float(s.coded[f]) for f in study.factor_names]
+                      for s in result.solutions])
+    for i, j in itertools.combinations(range(len(coded)), 2):
+        gap = float(np.sqrt(((coded[i] - coded[j]) ** 2).sum()))
+        if gap < 0.25 - 1e-9:
+            outcome.fail("region", "optimize", f"solutions {result.solutions[i].label} and "
+                         f"{result.solutions[j].label} are {gap:.3g} coded units apart, "
+                         "closer than 0.25")
+    total = generated.region.total
+    for s in result.solutions:
+        for c in generated.region.components:
+            if not _close(s.proportions.get(c.name), s.settings[c.name] / total, 1e-12):
+                outcome.fail("predict", "optimize", f"{s.label}: '{c.name}' amount "
+                             f"{s.settings[c.name]} but proportion {s.proportions.get(c.name)}")
     if goals:
         _check_grid(generated, study, fit, result, goals, outcome)
 
@@ -315,6 +331,13 @@ def _check_grid(generated, study, fit, result, goals, outcome) -> None:
                     for k, v in grid.iloc[i].items()}
         outcome.fail("grid", "optimize", f"best D {best.desirability:.6g} (feasible: "
                      f"{result.feasible}) but the grid reaches D = {D[i]:.6g} at {settings}")
+    for j, (kind, name, g) in enumerate(goals):
+        if name in result.unreachable:
+            lo, hi = goal_limits(g)
+            inside = (Y[:, j] >= lo) & (Y[:, j] <= hi)
+            if inside.any():
+                outcome.fail("grid", "optimize", f"'{name}' is said to be unreachable, yet "
+                             f"{int(inside.sum())} grid settings bring it within its limits")
     if D[i] == 0 and not result.feasible:
         S = shortfall_reference(Y, [g for _, _, g in goals])
         mine = shortfall_reference(np.array([[
