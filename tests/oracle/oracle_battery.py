@@ -17,8 +17,8 @@ loads and fits the same study through the public API, and checks:
   (Derringer 1994);
 - ``grid``: the best D is at least the best of a dense grid over the numeric
   factors, every level combination and the bounded simplex, inside the rules
-  (``oracle_checks.GRID_TOL``); with no feasible setting, no grid point is feasible and the
-  shortfall is no larger than the grid's;
+  (within ``oracle_checks.GRID_TOL`` of it); with no feasible setting, no grid
+  point is feasible and the shortfall is no larger than the grid's;
 - ``region``: solutions and suggestions lie in the searched region, keep the
   rules and use levels of the factors;
 - ``intervals``, ``chance``: intervals and chances equal the t-distribution
@@ -34,10 +34,12 @@ loads and fits the same study through the public API, and checks:
   is compared with the interval for the mean of its m runs;
 - ``derive``: derived responses equal a recomputation from the raw storage
   and panel tables (oracle_derive.py);
-- ``unjudged``, ``unused_columns``, ``display``: a factor the data cannot
-  judge is held at its first level and named; every unused column of the
-  data file is named by check; a categorical setting prints as its level name
-  with no coded number.
+- ``unjudged``, ``unused_columns``, ``display``, ``error_line``: a factor the
+  data cannot judge is held at its ``hold`` level (else its first) and named,
+  a level without runs is never chosen; every unused column of the data file
+  is named by check; a setting of three or more levels prints as its level
+  name with no coded number; a study with a mistake is refused by every
+  command in one line naming the file at fault.
 """
 from __future__ import annotations
 
