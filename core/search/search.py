@@ -255,6 +255,16 @@ def _search_steps(study, problem, *, top, seed, rank_by, min_distance, starts):
         polished[:, problem.num] = np.vstack([z for z, _ in parts])
         Yp = np.vstack([y for _, y in parts])
         Dp = problem.score(Yp)[0]
+        # A joint polish can stall when its peaks differ greatly in D (the shared
+        # quasi-Newton steps follow the block with the steepest log D): a peak it
+        # left where it started is polished again on its own.
+        if per > 1 and len(reps) > 1:
+            for j in np.flatnonzero(Dp <= Dr[reps]):
+                z, y = _polish_d(problem, Xr[reps[j:j + 1]][:, problem.num],
+                                 Xr[reps[j:j + 1]][:, problem.cat])
+                d = problem.score(y)[0][0]
+                if d > Dp[j]:
+                    polished[j, problem.num], Yp[j], Dp[j] = z[0], y[0], d
         # Keep the start itself where the polish did not help (a safety net).
         better = (problem.feasible(polished) & (Dp >= Dr[reps]))[:, None]
         optima += list(np.where(better, polished, Xr[reps]))
