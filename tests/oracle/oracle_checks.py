@@ -438,7 +438,7 @@ def check_next(generated, study, fit, printed: dict, outcome) -> None:
     for i, run in enumerate(printed["runs"], start=1):
         where = f"suggestion N{i}"
         table = pd.DataFrame([run["settings"]])
-        for p in _region_ok(generated, table, tol=1e-5, rule_tol=1e-6, total_tol=2e-6):
+        for p in _region_ok(generated, table, tol=1e-5, rule_tol=1e-6, total_tol=1e-5):
             outcome.fail("region", "next", f"{where}: {p}")
         X = tradeoff.to_coded(study.factors, table)
         for name, value in run["predicted"].items():

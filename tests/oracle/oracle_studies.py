@@ -131,8 +131,8 @@ class _Builder(Parts, Files):
         self.add_components(self.pick.integer(3, 4))
         r = self.pick.integer(0, 2)
         self.add_numeric(r)
-        if r and self.pick.chance(0.3):
-            self.add_categorical(2)
+        if r and self.pick.chance(0.3):  # a choice among process options
+            self.add_categorical(self.pick.choice([2, 3]))
         self._extras()
         self.blend_design()
         self.responses_plain(self.pick.integer(1, 3))

@@ -37,16 +37,11 @@ settings.register_profile(
                            HealthCheck.function_scoped_fixture])
 ORACLE = settings.get_profile("oracle")
 
-# Kinds that meet defects known when the oracle was written (issue 24), fixed on
-# other branches; remove a mark once its fix is merged (strict: a kind that
-# passes fails its mark).
-KNOWN = {
-    "levels": "issue 24 item 2: report (HTML and workbook) ends in a traceback on a "
-              "factor of three or more levels",
-    "mixed": "issue 24 item 2: report traceback on a factor of three or more levels",
-    "no_factors": "issue 24 item 8: a storage study of one product (no [[factors]]) is "
-                  "refused",
-}
+# Kinds that meet a known, unfixed defect: kind -> reason, marked xfail(strict=True)
+# so the mark must go with the fix. Empty: the defects of issue 24 the oracle met
+# (3+-level scoring and reports, a study without factors, signed aliases, levels the
+# data cannot judge, unused columns, level display) are fixed on main.
+KNOWN: dict[str, str] = {}
 
 
 def studies(kind: str):
