@@ -305,7 +305,10 @@ class _Builder(Parts, Files):
                 self.features.add("pieces_rows")
         for _ in range(self.pick.integer(1, 2)):
             how = self.pick.choice(["plain", "transform", "smooth"])
-            if how == "smooth" and not self.region.components and not self.region.categorical:
+            # a smooth model needs 2 runs per factor plus 3 (README); fewer are refused
+            enough = len(self.design) >= 2 * len(self.factors) + 3
+            if how == "smooth" and enough and not self.region.components \
+                    and not self.region.categorical:
                 self.measured_response(model="smooth")
             elif how == "transform":
                 self.measured_response(transform=self.pick.choice(["log", "sqrt"]))
