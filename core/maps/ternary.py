@@ -31,7 +31,7 @@ from .contours import (_fitted, _require_model, _slack, _tidy, _trace, limit_bou
 from .mixture_tables import (_coded, _process_settings, blend_inside, ternary_grid,
                              ternary_setup)
 
-__all__ = ["HEIGHT", "to_plot", "from_plot", "ternary_points", "ternary_lines",
+__all__ = ["HEIGHT", "three_with_room", "to_plot", "from_plot", "ternary_points", "ternary_lines",
            "ternary_region", "ternary_position", "TernaryLimits", "ternary_limits"]
 
 HEIGHT = float(np.sqrt(3.0) / 2.0)  # the triangle's height (its side is 1)
@@ -39,6 +39,35 @@ HEIGHT = float(np.sqrt(3.0) / 2.0)  # the triangle's height (its side is 1)
 # along the cell's edge (h = room / STEPS of a share), far below any model's noise.
 STEPS = 90
 SHARES = ["first_share", "second_share", "third_share"]
+
+
+def three_with_room(study, reference: dict | None = None) -> list[str]:
+    """The three components a triangle maps at a reference blend.
+
+    The study's first three, unless the others, held at the reference, leave
+    them no room above their lows (a recommendation at one component's high
+    does that). Then the three with the most room above their lows: holding
+    the components nearest their lows leaves the largest triangle, and it has
+    room whenever the reference blend lies off its lows.
+    """
+    from .mixture_tables import _require_components, reference_blend
+
+    comps = _require_components(study)
+    names = [c.name for c in comps]
+    if len(comps) <= 3:
+        return names[:3]
+    ref = reference_blend(study, reference)
+    excess = {c.name: ref[c.name] - max(c.low, 0.0) for c in comps}
+    total = comps[0].total
+
+    def room(three):
+        return sum(excess[n] for n in three) / total
+
+    first = names[:3]
+    if room(first) > 0.02:
+        return first
+    roomiest = sorted(names, key=lambda n: -excess[n])[:3]
+    return [n for n in names if n in roomiest] if room(roomiest) > room(first) else first
 
 
 def to_plot(a, b, c) -> tuple[np.ndarray, np.ndarray]:

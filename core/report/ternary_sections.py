@@ -24,9 +24,18 @@ class _TernarySections(_Sections):
         return len(components_of(self.study)) >= 3
 
     def ternary(self) -> str:
+        from ..errors import StudyError
+
+        try:
+            return self._ternary()
+        except StudyError as exc:  # a triangle that cannot be drawn must not stop the page
+            return f"<p>No blend triangle: {esc(str(exc))}.</p>"
+
+    def _ternary(self) -> str:
         from ..model.study_fit import StudyFit
         from ..study.mixture import components_of, process_factors_of
-        from ..maps.ternary import ternary_limits, ternary_lines, ternary_position
+        from ..maps.ternary import (ternary_limits, ternary_lines, ternary_position,
+                                    three_with_room)
         from ..maps.ternary_pictures import (ternary_axes, ternary_contour_picture,
                                        ternary_limits_picture)
 
@@ -40,6 +49,7 @@ class _TernarySections(_Sections):
         if best is not None:
             settings = best["settings"]
             reference = {c.name: float(settings[c.name]) for c in comps}
+            three = three_with_room(self.study, reference)
             process = {f.name: settings[f.name] for f in process_factors_of(self.study)}
             marks = ternary_position(self.study, [reference], three, reference=reference
                                      ).assign(what=f"{best['label']} (recommended)")
@@ -71,8 +81,8 @@ class _TernarySections(_Sections):
             charts.append(_chart_div(_svg(ternary_contour_picture(
                 grid, d_lines, axes, tlim.bounds, "value", "overall desirability D", marks,
                 width=420))))
-        names = ", ".join(esc(c.display()) for c in comps[:3])
-        held = [c for c in comps[3:]]
+        names = ", ".join(esc(c.display()) for c in comps if c.name in three)
+        held = [c for c in comps if c.name not in three]
         held_text = ("" if not held else "; " + ", ".join(
             f"{esc(c.display())} held at {reference[c.name]:.4g}" if reference else
             esc(c.display()) for c in held))

@@ -255,3 +255,34 @@ def test_the_report_of_a_blend_has_the_triangle(monkeypatch):
 def test_the_report_of_a_study_without_blend_has_no_triangle(monkeypatch):
     page = _page(DEMO.parent / "snack_bar.toml", monkeypatch)
     assert 'id="blend"' not in page and "Blend triangle" not in page
+
+
+def test_the_triangle_maps_three_components_that_have_room():
+    """A recommendation with one component at its high can leave the study's first
+    three no room above their lows; the triangle then maps the three with the most
+    room, which is checked here by the room written out: total minus the held
+    amounts minus the three's lows (common practice: a ternary map is a slice of
+    the blend simplex with the other components fixed)."""
+    from tradeoff.derive.load import study_from_dict
+    from tradeoff.maps.ternary import three_with_room
+
+    spec = {"study": {"name": "four flours", "model": "main"},
+            "mixture": {"total": 50.0, "model": "linear"},
+            "components": [{"name": "a", "low": 0.5, "high": 42.5},
+                           {"name": "b", "low": 4.0, "high": 46.0},
+                           {"name": "c", "low": 1.5, "high": 43.5},
+                           {"name": "d", "low": 2.0, "high": 44.0}],
+            "responses": [{"name": "y", "goal": "maximize", "lower": 0, "upper": 1}]}
+    study = study_from_dict(spec, with_data=False)
+    lows = {"a": 0.5, "b": 4.0, "c": 1.5, "d": 2.0}
+
+    def room(three, ref):
+        return 50.0 - sum(ref[n] for n in ref if n not in three) - sum(lows[n] for n in three)
+
+    at_high = {"a": 0.5, "b": 4.0, "c": 1.5, "d": 44.0}
+    assert room(["a", "b", "c"], at_high) == pytest.approx(0.0)
+    three = three_with_room(study, at_high)
+    assert len(set(three)) == 3 and room(three, at_high) > 1.0
+    ternary_region(study, three, reference=at_high)  # draws where the first three cannot
+    centre = {"a": 12.5, "b": 12.5, "c": 12.5, "d": 12.5}
+    assert three_with_room(study, centre) == ["a", "b", "c"]  # the first three when they fit
