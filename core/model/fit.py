@@ -179,13 +179,17 @@ class ResponseModel:
             if dropped_log:
                 qr = None
 
-        sol = LeastSquares(M, z, qr)
+        sol = self._solve(M, z, qr)
         warnings += near_alias_notes(terms, M, sol.cdiag, sol.qr.R)
         self._terms = terms
         self._sol = sol
         self._set_results(X, y, z, ids, terms, sol, aliases, warnings,
                           block if bterms else None, levels, confounded)
         return self
+
+    def _solve(self, M: np.ndarray, z: np.ndarray, qr=None):
+        """The fit of z on the model matrix (a subclass may fit by generalised least squares)."""
+        return LeastSquares(M, z, qr)
 
     def _check_options(self) -> None:
         name = self.name
@@ -241,12 +245,15 @@ class ResponseModel:
     def _set_results(self, X, y, z, ids, terms, sol: LeastSquares, aliases, warnings,
                      block=None, levels=(), confounded=None) -> None:
         n, p = z.size, len(terms)
+        # a generalised fit brings its whitened response (and so its own R2)
+        zs = getattr(sol, "z", z)
         self.terms_ = [t.label for t in terms]
         self.coef_ = sol.coef.copy()
         self.aliases_ = {k: dict(v) for k, v in aliases.items()}
         self.n_ = int(n)
         self.residual_df_ = int(sol.df)
-        sst = float(np.sum((z - z.mean()) ** 2))
+        sst = getattr(sol, "sst", None)
+        sst = float(np.sum((z - z.mean()) ** 2)) if sst is None else sst
         self.r2_ = float(1 - sol.sse / sst)
         if sol.df > 0:
             self.residual_sd_ = float(math.sqrt(sol.sse / sol.df))
@@ -305,9 +312,7 @@ class ResponseModel:
         # ANOVA, lack of fit and curvature on the modelling scale.
         cat = [f is not None and f.is_categorical for f in (self.factors or [None] * len(
             self.factor_names))]
-        self.anova_ = anova_table(X, z, sol.sse, p, block, categorical=cat)
-        # each term as a whole (all its columns, one F test), and last levels
-        self.anova_["terms"] = term_tests(terms, sol.coef, sol.Rinv, sol.sse, sol.df)
+        self.anova_ = self._anova(X, z, sol, terms, block, cat)
         self.derived_coefficients_ = derived_coefficients(
             terms, sol.coef, sol.Rinv, self.sigma_, self.sigma_df_,
             list(self.factor_names), self._levels)
@@ -331,7 +336,7 @@ class ResponseModel:
                             "locate it)")
 
         # Per-run diagnostics (the table itself is built on first use).
-        self._diag = diagnostic_arrays(z, sol.fitted, sol.leverage, sol.df, p)
+        self._diag = diagnostic_arrays(zs, sol.fitted, sol.leverage, sol.df, p)
         self._ids = ids
         flagged = self._diag["flagged"]
         self.flagged_runs_ = [str(i) for i in ids[flagged]]
@@ -361,6 +366,12 @@ class ResponseModel:
         self._pred_terms = [terms[i] for i in idx]
         self._pred_coef = sol.coef[idx]
         self._Rinv = sol.Rinv[idx]
+
+    def _anova(self, X, z, sol, terms, block, categorical) -> dict:
+        """The ANOVA with lack of fit and curvature, and each whole term's F test."""
+        out = anova_table(X, z, sol.sse, len(terms), block, categorical=categorical)
+        out["terms"] = term_tests(terms, sol.coef, sol.Rinv, sol.sse, sol.df)
+        return out
 
     def _block_results(self, terms, sol: LeastSquares, levels, block, confounded) -> dict | None:
         """Block effects (one per block, summing to 0), their adjusted SS and test."""

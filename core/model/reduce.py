@@ -21,15 +21,18 @@ __all__ = ["backward_eliminate"]
 
 
 def backward_eliminate(terms, M: np.ndarray, z: np.ndarray, pinned: set, *, alpha: float,
-                       confidence: float, qr=None, effect_index=effect_index):
+                       confidence: float, qr=None, effect_index=effect_index,
+                       solve=LeastSquares):
     """Drop the least significant removable term while its p-value exceeds ``alpha``.
 
     ``effect_index`` gives the positions of the terms Lenth's method judges (a
     model may pass its own: a blend's blending terms are not effects).
+    ``solve(M, z, qr)`` fits each candidate model (a whole-plot model passes
+    its generalised fit, whose ``term_tests`` carry their own denominator df).
     Returns (terms, M, log) with log: dropped term label -> why.
     """
     log: dict[str, str] = {}
-    sol = LeastSquares(M, z, qr)
+    sol = solve(M, z, qr)
     if sol.df == 0:
         eff_idx = effect_index(terms)
         if len(eff_idx) < 3:
@@ -60,7 +63,8 @@ def backward_eliminate(terms, M: np.ndarray, z: np.ndarray, pinned: set, *, alph
             groups.append(t.group)
         if not groups or sol.p is None:
             break
-        tests = term_tests(current, sol.coef, sol.Rinv, sol.sse, sol.df)
+        tests = (sol.term_tests(current) if hasattr(sol, "term_tests") else
+                 term_tests(current, sol.coef, sol.Rinv, sol.sse, sol.df))
         for j, t in enumerate(current):  # one column: its t test's own p-value
             if t.group in tests and tests[t.group]["df"] == 1:
                 tests[t.group]["p"] = float(sol.p[j])
@@ -75,5 +79,5 @@ def backward_eliminate(terms, M: np.ndarray, z: np.ndarray, pinned: set, *, alph
             break
         log[worst] = f"p = {pw:.3g}"
         idx = [i for i in idx if terms[i].group != worst]
-        sol = LeastSquares(M[:, idx], z)
+        sol = solve(M[:, idx], z, None)
     return [terms[i] for i in idx], M[:, idx], log

@@ -86,6 +86,11 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     spec = terms if terms is not None else study.model_for(response)
     if not isinstance(spec, str):
         spec = list(spec)
+    plots = study.whole_plot_labels()
+    if spec == "smooth" and plots is not None:
+        raise ModelError(f"response '{name}': a smooth model treats every run as "
+                         f"independent, but the runs share whole plots ("
+                         f"{study.whole_plot}): use a polynomial model")
     if spec == "smooth":
         from .smooth import SmoothModel  # a Gaussian process: no terms to keep or drop
 
@@ -104,14 +109,22 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
 
         spec, linear, mixture = mixture_fit_options(study, response, spec, X)
         keep = list(keep) + [t for t in linear if t not in keep]
-    model = ResponseModel(terms=spec, factor_names=study.factor_names,
-                          transform=response.transform, confidence=study.confidence,
-                          name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
-                          factors=study.factors, block_name=study.block_column or "block",
-                          mixture=mixture)
+    options = dict(terms=spec, factor_names=study.factor_names,
+                   transform=response.transform, confidence=study.confidence,
+                   name=name, reduce=reduce, alpha=alpha, keep=keep, drop=drop,
+                   factors=study.factors, block_name=study.block_column or "block",
+                   mixture=mixture)
     _, ids, block = _runs if _runs is not None else (None, study.runs["run"].to_numpy(),
                                                      study.block_labels())
-    model.fit(X, study.runs[name].to_numpy(dtype=float), ids, block=block)
+    y = study.runs[name].to_numpy(dtype=float)
+    if plots is not None:  # runs sharing a batch: a random intercept per whole plot
+        from .wholeplot import WholePlotModel
+
+        model = WholePlotModel(whole_plot_name=study.whole_plot, **options)
+        model.fit(X, y, ids, block=block, whole_plot=plots)
+    else:
+        model = ResponseModel(**options)
+        model.fit(X, y, ids, block=block)
     model.pieces_ = _pieces(study, response, model)
     return model
 

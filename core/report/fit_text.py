@@ -16,6 +16,60 @@ def _p(v) -> str:
     return "<0.0001" if v < 1e-4 else f"{v:.4f}"
 
 
+def _anova_text(a: dict) -> list[str]:
+    """The ANOVA of runs made independently: model, residual, lack of fit, whole terms."""
+    out = []
+    out.append(f"  {'source':<16}{'sum of squares':>16}{'df':>5}{'mean square':>14}"
+               f"{'F':>10}{'p':>10}")
+    names = {"blocks": "blocks", "model": "model", "residual": "residual",
+             "lack_of_fit": "  lack of fit",
+             "pure_error": "  pure error", "total": "total"}
+    for key, label in names.items():
+        row = a.get(key)
+        if row is None:
+            continue
+        out.append(f"  {label:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
+                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
+    whole = [(k, v) for k, v in (a.get("terms") or {}).items() if v["df"] > 1]
+    for key, row in whole:  # terms of several columns, each tested as a whole
+        out.append(f"  {key:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
+                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}   (whole term)")
+    return out
+
+
+def _whole_plot_text(r: dict) -> list[str]:
+    """Runs sharing batches: both variances, and the ANOVA in two strata."""
+    w, a = r["whole_plots"], r["anova"]
+
+    def sd(key):
+        low, high = w[key + "_interval"]
+        return (f"{_f(w[key], '.4g')} ({_f(low, '.3g')} to "
+                f"{_f(high, '.3g') if high is not None else 'not bounded'})")
+    level = f"{100 * w['confidence']:g}%"
+    out = [f"  whole plots ({w['column']}): {w['count']}, {w['runs_per_plot']['min']} to "
+           f"{w['runs_per_plot']['max']} runs each; SD between whole plots {sd('sd')}, "
+           f"within {sd('residual_sd')} ({level} intervals)",
+           f"  a new run in a new batch scatters with SD {_f(w['new_run_sd'])} "
+           f"({_f(w['new_run_df'], '.3g')} df); {w['method']}", ""]
+    out.append(f"  {'source':<22}{'sum of squares':>16}{'df':>5}{'mean square':>14}"
+               f"{'F':>10}{'p':>10}")
+    for stratum, label in (("whole plot", "between whole plots"),
+                           ("within", "within whole plots")):
+        part = a["strata"][stratum]
+        out.append(f"  {label}")
+        for key, row in part["terms"].items():
+            out.append(f"    {key:<20}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
+                       f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
+        e = part["error"]
+        out.append(f"    {'error':<20}{_f(e['ss']):>16}{e['df']:>5}{_f(e['ms']):>14}")
+    out.append("  mixed-model tests (each term given all others):")
+    for key, row in a["terms"].items():
+        out.append(f"    {key:<20} F {_f(row['f'], '.3g')} on {row['df']} and "
+                   f"{_f(row['df_denominator'], '.3g')} df, p {_p(row['p'])}"
+                   f"  ({row['stratum']})")
+    return out
+
+
 def _response_text(r: dict) -> list[str]:
     out = []
     model = r["model"] if isinstance(r["model"], str) else "listed terms"
@@ -25,8 +79,10 @@ def _response_text(r: dict) -> list[str]:
                  + ("proportions of the total)" if blend == "proportion"
                     else "L-pseudo-components)"))
     scale = "" if r["transform"] == "none" else f", modelled as {r['transform']}(response)"
-    out.append(f"{r['response']}: model {model}{scale}; {r['n']} runs, "
-               f"{r['residual_df']} residual degrees of freedom")
+    wp = r.get("whole_plots")
+    out.append(f"{r['response']}: model {model}{scale}; {r['n']} runs, " + (
+        f"{r['residual_df']} residual degrees of freedom" if wp is None else
+        f"in {wp['count']} whole plots (runs sharing a batch)"))
     out.append(f"  R2 {_f(r['r2'], '.4f')}   adjusted R2 {_f(r['adj_r2'], '.4f')}   "
                f"predicted R2 {_f(r['pred_r2'], '.4f')}   residual SD {_f(r['residual_sd'])}")
     out.append("")
@@ -64,21 +120,10 @@ def _response_text(r: dict) -> list[str]:
                    f"{_f(le['me'])}, simultaneous margin {_f(le['sme'])}")
     a = r["anova"]
     out.append("")
-    out.append(f"  {'source':<16}{'sum of squares':>16}{'df':>5}{'mean square':>14}"
-               f"{'F':>10}{'p':>10}")
-    names = {"blocks": "blocks", "model": "model", "residual": "residual",
-             "lack_of_fit": "  lack of fit",
-             "pure_error": "  pure error", "total": "total"}
-    for key, label in names.items():
-        row = a.get(key)
-        if row is None:
-            continue
-        out.append(f"  {label:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
-                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
-    whole = [(k, v) for k, v in (a.get("terms") or {}).items() if v["df"] > 1]
-    for key, row in whole:  # terms of several columns, each tested as a whole
-        out.append(f"  {key:<16}{_f(row['ss']):>16}{row['df']:>5}{_f(row['ms']):>14}"
-                   f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}   (whole term)")
+    if r.get("whole_plots") is not None:
+        out += _whole_plot_text(r)
+    else:
+        out += _anova_text(a)
     means = [m for m in r.get("level_means") or []]
     if any(sum(1 for m in means if m["factor"] == f) > 2 for f in {m["factor"] for m in means}) \
             or any(m.get("not_estimable") for m in means):

@@ -6,6 +6,7 @@ import numpy as np
 from ..model.terms import model_label
 from ..study.coding import level_codes
 from ..study.spec import Study
+from ..study.whole_plots import whole_plot_counts
 from .unused import unused_columns
 
 __all__ = ["study_summary", "summary_text"]
@@ -63,6 +64,7 @@ def study_summary(study: Study) -> dict:
             "data": str(study.data_path) if study.data_path else None,
             "runs": int(len(runs)), "factors": factors, "responses": responses,
             "blocks": _blocks(study),
+            "whole_plots": whole_plot_counts(study),
             "constraints": [c["rule"] for c in study.constraints],
             "mixture": None if study.mixture is None else {
                 "total": study.mixture.total, "model": study.mixture.model,
@@ -70,7 +72,7 @@ def study_summary(study: Study) -> dict:
                 "tightened": list(study.mixture.notes)},
             # data columns the study leaves out, what each might be (report/unused.py)
             "unused_columns": unused_columns(study),
-            "warnings": list(study.notes)}
+            "warnings": list(study.notes) + _single_plots(study)}
     if not study.factors:  # nothing varied: each product's derived values are the answer
         out["derived_values"] = _derived_values(study)
     return out
@@ -108,6 +110,17 @@ def _pieces(study, name: str) -> dict | None:
             "most": int(counts.max()), "fewest": int(counts.min())}
 
 
+def _single_plots(study) -> list[str]:
+    w = whole_plot_counts(study)
+    if not w or not w["single"]:
+        return []
+    names = ", ".join(f"'{p}'" for p in w["single"][:10])
+    return [f"whole plot{'s' if len(w['single']) > 1 else ''} {names} "
+            f"{'have' if len(w['single']) > 1 else 'has'} a single run: such a batch says "
+            "nothing about the variation within batches and little about the variation "
+            "between them"]
+
+
 def _blocks(study) -> dict | None:
     """The runs per block when the runs fall in two or more blocks (models add block terms)."""
     labels = study.block_labels()
@@ -118,6 +131,21 @@ def _blocks(study) -> dict | None:
     levels = block_terms(labels, 0)[2]
     return {"column": study.block_column,
             "runs": {lev: int((labels == lev).sum()) for lev in levels}}
+
+
+def _whole_plot_lines(w: dict | None) -> list[str]:
+    """The whole plots in the check: how many, the runs in each, single-run ones."""
+    if not w:
+        return []
+    sizes = sorted(set(w["runs"].values()))
+    each = (f"{sizes[0]} runs each" if len(sizes) == 1
+            else f"{sizes[0]} to {sizes[-1]} runs each")
+    shown = ", ".join(f"{p}: {k}" for p, k in list(w["runs"].items())[:12])
+    more = ", ..." if len(w["runs"]) > 12 else ""
+    hard = (f"; set once per whole plot: {', '.join(w['hard_to_change'])}"
+            if w["hard_to_change"] else "")
+    return ["", f"Whole plots (column '{w['column']}'): {w['count']} whole plots, {each} "
+            f"({shown}{more}){hard}; every model gets a random shift per whole plot"]
 
 
 def summary_text(summary: dict) -> str:
@@ -159,6 +187,7 @@ def summary_text(summary: dict) -> str:
         counts = ", ".join(f"{lev}: {n} runs" for lev, n in b["runs"].items())
         lines += ["", f"Blocks (column '{b['column']}'): {counts}; every model gets a "
                   "block term for each block after the first"]
+    lines += _whole_plot_lines(summary.get("whole_plots"))
     lines += ["", "Responses"]
     for r in summary["responses"]:
         unit = f" {r['unit']}" if r["unit"] else ""

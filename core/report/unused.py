@@ -53,9 +53,10 @@ def _guess(column: str, cells: pd.Series, n_runs: int) -> tuple[str, str | None]
                 "without it; if each replicate was made on its own day or batch, it marks "
                 "blocks"), _blocks_key(column)
     if "plot" in name:
-        return ("a whole plot (runs sharing a hard-to-change setting): the tool does not "
-                "analyse whole plots; as blocks, a factor changed only between whole "
-                "plots would be confounded with them"), None
+        return ("a whole plot (runs sharing a batch and its hard-to-change settings): "
+                "the models can give each whole plot its own random shift and test a "
+                "hard-to-change factor against the variation between them"), \
+            f'whole_plot = "{column}" under [study]'
     if words & _GROUP:
         return f"a batch or day: {_GROUPS}", _blocks_key(column)
     present = cells.dropna()
@@ -92,6 +93,8 @@ def unused_columns(study) -> list[dict]:
     used |= {c for r in study.responses for c in r.extra.get("columns") or ()}
     if study.block_column is not None:
         used.add(study.block_column)
+    if study.whole_plot is not None:
+        used.add(study.whole_plot)
     out = []
     for column in runs.columns:
         if column in used:

@@ -15,6 +15,7 @@ from ..errors import StudyError, did_you_mean
 from .constraints import check_rules
 from .pieces import piece_columns
 from .mixture import MIXTURE_MODELS, PROCESS_MODES, build_components
+from .whole_plots import read_whole_plot_keys
 from .spec import (GOALS, MAX_LEVELS, MAX_STUDY_BYTES, MODELS, SECTION_KEYS, TRANSFORMS,
                    Factor, Goal,
                    Response, Study, _GOAL_KEYS)
@@ -129,12 +130,15 @@ def build_study(spec: dict, *, source: str | Path | None = None,
                              "response of the study: name the column of days or "
                              "batches instead")
 
+    factors, whole_plot = read_whole_plot_keys(
+        _list_of_tables(spec, "factors", fname), head, factors, responses, blocks, fname)
     study = Study(
         name=str(head.get("name", source.stem if source else "study")),
         factors=factors, responses=responses, model=model, terms=terms,
         constraints=constraints, confidence=confidence, seed=seed, source=source,
         data_path=data_path, sheet=sheet, description=str(head.get("description", "")),
         spec=spec, uploads=dict(uploads or {}), blocks=blocks, mixture=mixture,
+        whole_plot=whole_plot,
     )
     return study
 

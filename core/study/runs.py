@@ -17,6 +17,7 @@ from .coding import nearest_level
 from .intake import RawTable, cell_text, parse_number, read_table
 from .pieces import check_same_settings, pieces_table, run_groups, run_means
 from .mixture import check_blend_rows
+from .whole_plots import check_hard_to_change, whole_plot_labels
 from .spec import Study
 from .reader import _fmt, _rows
 
@@ -180,6 +181,13 @@ def attach_runs(study: Study, table: RawTable) -> Study:
         check_same_settings(fname, block, labels, ids, row_numbers, codes, first,
                             what="block")
         data[block] = labels
+    plots = None
+    if study.whole_plot is not None:  # runs sharing a batch (study/whole_plots.py)
+        plots = whole_plot_labels(study, fname, study.whole_plot, cells_of(column_index(
+            study.whole_plot, "the whole plots ([study] whole_plot)")), row_numbers, ids,
+            codes, first, cell_text)
+        data[study.whole_plot] = plots
+    check_hard_to_change(study, fname, data, plots, row_numbers, first)
     # One row per run (its first row in the file); responses are already run means.
     data = {k: v if k in response_names else _first_of_run(v, first)
             for k, v in data.items()}

@@ -50,12 +50,16 @@ SECTION_KEYS: dict[str, set[str]] = {
     "study": {"name", "data", "model", "terms", "sheet", "description",
               "confidence", "seed",
               # the runs' block column when not named 'block' (core/models.py)
-              "blocks"},
+              "blocks",
+              # the column naming the batch each run shares (study/whole_plots.py)
+              "whole_plot"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search",
                 "production_sd",
                 # the level the search holds when the data cannot judge the factor
                 # (core/search/informed.py)
-                "hold"} | _GOAL_KEYS,
+                "hold",
+                # set once per whole plot (study/whole_plots.py)
+                "hard_to_change"} | _GOAL_KEYS,
     "responses": {"name", "label", "unit", "model", "terms", "transform"} | _GOAL_KEYS
     # terms pinned in or out of a response's model (core/models.py)
     | {"keep_terms", "drop_terms"}
@@ -128,6 +132,8 @@ class Factor:
     production_sd: float | None = None
     # categorical: the level to hold when the runs cannot tell the levels apart
     hold: str | None = None
+    # set once per whole plot (batch, oven load, day): study/whole_plots.py
+    hard_to_change: bool = False
 
     @property
     def is_categorical(self) -> bool:
@@ -207,6 +213,15 @@ class Study:
     pieces: pd.DataFrame | None = field(default=None, compare=False, repr=False)
     # the [mixture] section (study/mixture.py) when the study has components
     mixture: object | None = None
+    # the runs' column naming the whole plot (batch) each run shares, or None
+    whole_plot: str | None = None
+
+    def whole_plot_labels(self) -> np.ndarray | None:
+        """Each run's whole plot as text when the study names a whole-plot column."""
+        if self.whole_plot is None or self.runs is None or \
+                self.whole_plot not in self.runs.columns:
+            return None
+        return np.asarray([str(v) for v in self.runs[self.whole_plot]], dtype=object)
 
     @property
     def block_column(self) -> str | None:
