@@ -65,7 +65,8 @@ def test_every_unused_column_is_named_with_a_guess_and_a_key(write_study):
     assert unused["day"]["key"] == 'blocks = "day" under [study]'
     assert unused["replicate"]["key"] == 'blocks = "replicate" under [study]'
     assert unused["replicate"]["might_be"].startswith("a replicate number")
-    assert unused["whole_plot"]["key"] is None
+    # the models now analyse whole plots (core/study/whole_plots.py)
+    assert unused["whole_plot"]["key"] == 'whole_plot = "whole_plot" under [study]'
     assert unused["whole_plot"]["might_be"].startswith("a whole plot")
     assert unused["notes"] == {"column": "notes", "key": None,
                                "might_be": "notes or text: kept, not modelled"}
