@@ -118,6 +118,20 @@ class _EvidenceSections(_Sections):
                      ["SD of pieces within a batch", _g(pc["within_sd"])],
                      ["SD from batch to batch", _g(pc["batch_sd"])],
                      ["pieces or batches?", esc(pc["summary"])]]
+        wp = rep.get("whole_plots")
+        if wp:
+            # runs sharing a batch (model/wholeplot.py): both variances and the method
+            def sd(key):
+                low, high = wp[key + "_interval"]
+                return (f"{_g(wp[key])} ({_g(low)} to "
+                        f"{_g(high) if high is not None else 'not bounded'})")
+            level = f"{100 * wp['confidence']:g}%"
+            rows += [["whole plots (runs sharing a batch)",
+                      f"{wp['count']} ({esc(wp['column'])})"],
+                     [f"SD between whole plots ({level} interval)", sd("sd")],
+                     [f"SD within whole plots ({level} interval)", sd("residual_sd")],
+                     ["SD of a new run in a new batch", _g(wp["new_run_sd"])],
+                     ["how fitted", esc(wp["method"])]]
         red = rep.get("reduction")
         if red and red.get("dropped"):
             rows.append(["terms dropped by reduction",

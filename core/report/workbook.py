@@ -100,6 +100,9 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
             "R2": rep["r2"], "adjusted R2": rep.get("adj_r2"), "predicted R2": rep["pred_r2"],
             "residual sd": rep["residual_sd"], "lack of fit p": lof.get("p"),
             "curvature p": curv.get("p"),
+            # runs sharing a batch (model/wholeplot.py): both variances
+            "whole plots": (rep.get("whole_plots") or {}).get("count"),
+            "sd between whole plots": (rep.get("whole_plots") or {}).get("sd"),
             "flagged runs": ", ".join(rep["flagged_runs"]),
             "warnings": " | ".join(rep["warnings"])})
         if smooth:

@@ -108,6 +108,19 @@ if pieces:
         st.caption("The model sees one value per run, the mean of its pieces; pure error "
                    "and lack of fit come from repeated runs, never from pieces of one "
                    "batch.")
+whole = report.get("whole_plots")
+if whole:  # runs sharing a batch: a random shift per whole plot (model/wholeplot.py)
+    with st.container(border=True):
+        st.markdown(f"**Runs sharing a batch: {whole['count']} whole plots "
+                    f"({text.plain(whole['column'])})**")
+        wc = st.columns(3)
+        for col, key, title in ((wc[0], "sd", "SD between whole plots"),
+                                (wc[1], "residual_sd", "SD within whole plots"),
+                                (wc[2], "new_run_sd", "SD of a new run, new batch")):
+            col.metric(title, "-" if whole[key] is None else f"{whole[key]:.3g}")
+        st.caption("A hard-to-change factor is tested against the variation between "
+                   "whole plots; every prediction interval and chance is for a new run "
+                   f"made in a new batch, so it carries both variances ({whole['method']}).")
 for warning in report["warnings"]:
     st.warning(text.plain(warning))
 if report.get("reduction"):
