@@ -18,7 +18,7 @@ import pandas as pd
 from oracle_pages import check_report_html, check_report_xlsx
 from oracle_reference import (D_reference, TermError, chance_reference, d_reference,
                               goal_limits, interval_reference, shortfall_reference,
-                              term_column)
+                              reml_reference, term_column)
 
 __all__ = ["check_solutions", "check_fit", "check_next", "check_plan", "check_confirm",
            "check_report_html", "check_report_xlsx", "check_unused", "check_display",
@@ -399,13 +399,25 @@ def _check_coefficients(generated, study, name, rep, runs, factors, blocks, outc
     except TermError as exc:
         outcome.fail("fit", "fit", f"'{name}': {exc}")
         return
-    beta = np.linalg.lstsq(M[ok], y[ok], rcond=None)[0]
     printed = np.array([rep["coefficients"][t] for t in rep["terms"]], dtype=float)
+    rtol, how = 1e-6, "least squares"
+    if study.whole_plot is not None:  # runs sharing a batch: REML and GLS, written out
+        plots = study.runs.groupby("run", sort=False)[study.whole_plot].first().to_numpy()
+        beta, s2, s2_wp = reml_reference(M[ok], y[ok], plots[ok])
+        rtol, how = 1e-5, "REML with generalised least squares"
+        wp = rep.get("whole_plots") or {}
+        for key, want in (("residual_sd", math.sqrt(s2)), ("sd", math.sqrt(s2_wp))):
+            got = wp.get(key)
+            if got is None or not _close(got, want, 1e-4, math.sqrt(s2 + s2_wp)):
+                outcome.fail("fit", "fit", f"'{name}': whole_plots {key} {got}, REML "
+                             f"written out gives {want:.8g}")
+    else:
+        beta = np.linalg.lstsq(M[ok], y[ok], rcond=None)[0]
     scale = np.max(np.abs(beta)) + np.std(y[ok]) + 1e-12
-    if not np.allclose(printed, beta, rtol=1e-6, atol=1e-8 * scale):
+    if not np.allclose(printed, beta, rtol=rtol, atol=rtol * 1e-2 * scale):
         worst = int(np.argmax(np.abs(printed - beta)))
         outcome.fail("fit", "fit", f"'{name}': coefficient of '{rep['terms'][worst]}' is "
-                     f"{printed[worst]:.8g}, least squares on the printed terms gives "
+                     f"{printed[worst]:.8g}, {how} on the printed terms gives "
                      f"{beta[worst]:.8g}")
 
 

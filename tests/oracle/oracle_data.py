@@ -46,6 +46,7 @@ class Factor:
     goal: dict | None = None
     hold: str | None = None  # the level to hold a factor the data cannot judge at
     production_sd: float | None = None  # spread of the setting in production
+    hard_to_change: bool = False  # set once per whole plot
     label: str | None = None
     unit: str | None = None
 

@@ -132,6 +132,8 @@ class Files:
                 entry["search"] = list(f.search)
             if f.production_sd is not None:
                 entry["production_sd"] = f.production_sd
+        if f.hard_to_change:
+            entry["hard_to_change"] = True
         for key in ("label", "unit"):
             if getattr(f, key):
                 entry[key] = getattr(f, key)
@@ -145,6 +147,10 @@ class Files:
         self.design = self.design.head(keep).reset_index(drop=True)
         self.block = None
         self.study.pop("blocks", None)
+        self.whole_plot = None
+        self.study.pop("whole_plot", None)
+        for f in self.factors:
+            f.hard_to_change = False
         for name, (mean, noise) in self.measured.items():
             self.columns[name] = mean(self.design) + self.rng.normal(0, noise, keep)
         self.features.add("not_estimable")
@@ -159,6 +165,12 @@ class Files:
             shift = np.array([self.block_shift[b] for b in self.block])
             for name, (mean, noise) in self.measured.items():
                 self.columns[name] = self.columns[name] + shift * noise * 3
+        if getattr(self, "whole_plot", None) is not None:
+            # runs sharing a batch: one random shift per whole plot (simulated)
+            table[self.study["whole_plot"]] = self.whole_plot
+            shift = np.array([self.plot_shift[p] for p in self.whole_plot])
+            for name, (mean, noise) in self.measured.items():
+                self.columns[name] = self.columns[name] + shift * noise
         for col in self.design.columns:
             table[col] = self.design[col].to_numpy()
         for name, values in self.columns.items():

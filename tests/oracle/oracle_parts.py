@@ -268,6 +268,20 @@ class Parts:
         self.block_shift = dict(zip(labels, self.rng.normal(0, 1, 3)))
         self.features.add("blocks")
 
+    def set_whole_plots(self, labels: list, hard: list) -> None:
+        """Runs sharing a batch: each run's whole plot, the factors set once per
+        whole plot, and one simulated random shift per whole plot (in units of the
+        response's noise SD, drawn with SD 0 to 2)."""
+        name = self.pick.choice(["dough", "oven_load", "wp", "lot"])
+        self.study["whole_plot"] = name
+        self.whole_plot = [str(v) for v in labels]
+        for f in hard:
+            f.hard_to_change = True
+        size = self.pick.choice([0.0, 0.5, 1.0, 2.0])
+        self.plot_shift = {p: float(v) for p, v in zip(
+            sorted(set(self.whole_plot)), self.rng.normal(0, size, len(set(labels))))}
+        self.features.add("whole_plots")
+
     def storage(self, *, temps: bool, goal: bool = True) -> None:
         """A storage table (run, time, [temperature], property, value) and the
         responses derived from it: the property rises (or falls) at an Arrhenius

@@ -21,6 +21,11 @@ formulas and never taken from tradeoff:
   mean +- t * se and mean +- t * sqrt(se^2 + s^2) (same source), and the
   interval for the mean of m new runs, mean +- t * sqrt(s^2 / m + se^2)
   (same source, from memory);
+- ``reml_reference``: the random-intercept model of runs sharing a batch,
+  y = Xb + Zu + e, by REML written out densely: -2 l_R(g) = log|V| +
+  log|X'V^-1 X| + (n - p) log s^2(g), V = I + g ZZ', minimised over g >= 0
+  (Harville 1977; Searle, Casella & McCulloch, Variance Components, 1992,
+  ch. 6), the fixed effects by generalised least squares;
 - ``term_column``: a model column from its printed label, in coded units
   (products of coded factors; a two-level choice -1/+1; a level of a factor
   with three or more levels +1 there, -1 at the last level, 0 elsewhere, the
@@ -35,7 +40,8 @@ import numpy as np
 from scipy import stats
 
 __all__ = ["d_reference", "D_reference", "shortfall_reference", "goal_limits",
-           "chance_reference", "interval_reference", "term_column", "TermError"]
+           "chance_reference", "interval_reference", "term_column", "TermError",
+           "reml_reference"]
 
 
 def d_reference(y, goal: dict) -> np.ndarray:
@@ -141,6 +147,38 @@ def interval_reference(mean, se, sigma, df, level, transform="none", m: int | No
     spread = np.sqrt(se ** 2 + sigma ** 2) if m is None else np.sqrt(sigma ** 2 / m + se ** 2)
     return (_back(mean - q * se, transform), _back(mean + q * se, transform),
             _back(mean - q * spread, transform), _back(mean + q * spread, transform))
+
+
+def reml_reference(X: np.ndarray, y: np.ndarray, groups) -> tuple[np.ndarray, float, float]:
+    """(GLS coefficients, s^2, s_wp^2) of the REML random-intercept fit, densely."""
+    from scipy import optimize
+
+    labels = np.asarray([str(g) for g in groups], dtype=object)
+    Z = (labels[:, None] == np.unique(labels)[None, :]).astype(float)
+    n, p = X.shape
+
+    def parts(g):
+        V = np.eye(n) + g * Z @ Z.T
+        Vi = np.linalg.inv(V)
+        A = X.T @ Vi @ X
+        b = np.linalg.solve(A, X.T @ Vi @ y)
+        r = y - X @ b
+        s2 = float(r @ Vi @ r) / (n - p)
+        crit = (np.linalg.slogdet(V)[1] + np.linalg.slogdet(A)[1]
+                + (n - p) * math.log(s2))
+        return crit, b, s2
+
+    grid = np.linspace(math.log(1e-8), math.log(1e8), 65)
+    values = [parts(math.exp(t))[0] for t in grid]
+    i = int(np.argmin(values))
+    res = optimize.minimize_scalar(lambda t: parts(math.exp(t))[0], method="bounded",
+                                   bounds=(grid[max(i - 1, 0)], grid[min(i + 1, 64)]),
+                                   options={"xatol": 1e-12})
+    g = math.exp(res.x)
+    if parts(0.0)[0] <= res.fun:
+        g = 0.0
+    _, b, s2 = parts(g)
+    return b, s2, g * s2
 
 
 class TermError(ValueError):

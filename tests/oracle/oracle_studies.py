@@ -10,7 +10,8 @@ reference and ``tradeoff.study.spec.SECTION_KEYS``.
 Kinds (``KINDS``): numeric factors; two-level choices; choices among 3 to 5
 options; blends with process factors; transforms, smooth models and
 explicit terms; pieces per batch; storage-derived responses (shelf life
-across storage temperatures, ...); panel-derived responses; blocks; designs
+across storage temperatures, ...); panel-derived responses; blocks; split plots (runs sharing a batch, with
+hard-to-change factors); designs
 whose terms are confounded (with blocks or in a fraction); runs tables with
 unused columns; a storage study of one product without factors; and
 ``mixed``, which draws every feature at random. Each kind adds, at random,
@@ -29,7 +30,7 @@ import itertools
 import numpy as np
 import pandas as pd
 
-from oracle_data import Factor, Rule, fmt
+from oracle_data import Factor, Rule, fmt, numeric_design
 from oracle_files import COMMANDS, Files, Generated
 from oracle_parts import Parts
 
@@ -37,7 +38,7 @@ __all__ = ["KINDS", "Generated", "generate", "COMMANDS"]
 
 KINDS = ("numeric", "two_level", "levels", "mixture", "models", "pieces", "storage",
          "panel", "blocks", "confounded", "extra_columns", "no_factors", "mixed",
-         "mistakes")
+         "mistakes", "whole_plots")
 
 
 def generate(pick, kind: str | None = None) -> Generated:
@@ -68,6 +69,7 @@ class _Builder(Parts, Files):
         self.columns: dict[str, np.ndarray] = {}  # runs-table response columns
         self.design: pd.DataFrame | None = None
         self.block: list | None = None
+        self.whole_plot: list | None = None  # each run's whole plot (runs sharing a batch)
         self.files: dict[str, bytes] = {}
         self.extra: dict = {}
         self.expect = {c: {0} for c in COMMANDS}
@@ -253,6 +255,48 @@ class _Builder(Parts, Files):
             self.empty_levels = {cat.name: missing}
         self.responses_plain(self.pick.integer(1, 2))
 
+    def kind_whole_plots(self):
+        """A split plot: hard-to-change factors set once per whole plot (a factorial
+        of their own, replicated), the others crossed within each whole plot."""
+        hard_num = self.pick.integer(0, 2)
+        self.add_numeric(hard_num)
+        hard = list(self.factors)
+        if not hard or self.pick.chance(0.3):
+            self.add_categorical(2)
+            hard = list(self.factors)
+        self.add_numeric(self.pick.integer(1, 2))
+        if self.pick.chance(0.3):
+            self.add_categorical(2)
+        easy = [f for f in self.factors if f not in hard]
+        self._extras()
+        settings = list(itertools.product(*[
+            f.levels if f.kind == "categorical" else (-1.0, 1.0) for f in hard]))
+        e_num = [f for f in easy if f.kind != "categorical"]
+        e_cat = [f for f in easy if f.kind == "categorical"]
+        within = numeric_design(len(e_num), quadratic=False,
+                                centres=self.pick.integer(0, 1))
+        combos = list(itertools.product(*[f.levels for f in e_cat])) or [()]
+        reps = self.pick.integer(2, 3)
+        rows, labels = [], []
+        for rep in range(reps):
+            for i in self.rng.permutation(len(settings)):
+                plot = f"P{rep + 1}{i + 1}" if self.pick.chance(0.5) else str(
+                    rep * len(settings) + i + 1)
+                for combo in combos:
+                    for x in within:
+                        row = {}
+                        for f, v in zip(hard, settings[i]):
+                            row[f.name] = v if f.kind == "categorical" else float(
+                                fmt(f.natural(v)))
+                        row.update({f.name: float(fmt(f.natural(v))) for f, v in zip(e_num, x)})
+                        row.update({f.name: level for f, level in zip(e_cat, combo)})
+                        rows.append(row)
+                        labels.append(plot)
+        self.design = pd.DataFrame(rows)
+        self.study["model"] = self.pick.choice(["main", "interactions"])
+        self.set_whole_plots(labels, hard)
+        self.responses_plain(self.pick.integer(1, 2))
+
     def kind_extra_columns(self):
         self.add_numeric(self.pick.integer(1, 3))
         if self.pick.chance(0.4):
@@ -295,11 +339,19 @@ class _Builder(Parts, Files):
                     combos *= levels
             self._extras()
             n_blocks = self.pick.choice([1, 1, 2])
+            plots = len(self.factors) >= 2 and self.pick.chance(0.25)
+            reps = max(n_blocks, 2) if plots else n_blocks
             self.factorial(model=self.pick.choice(["main", "interactions"]),
-                           replicate=n_blocks)
+                           replicate=reps)
+            per = len(self.design) // reps
             if n_blocks > 1:
-                per = len(self.design) // n_blocks
                 self.set_blocks([i // per for i in range(len(self.design))], n_blocks)
+            first = self.factors[0]
+            if plots and "scattered_runs" not in self.features:
+                # the first factor set once per replicate and setting: runs sharing a batch
+                values = self.design[first.name].astype(str).to_numpy()
+                self.set_whole_plots([f"{i // per}-{v}" for i, v in enumerate(values)],
+                                     [first])
             if self.pick.chance(0.2):
                 self.pieces = ("rows", self.pick.integer(2, 3))
                 self.features.add("pieces_rows")
@@ -308,7 +360,7 @@ class _Builder(Parts, Files):
             # a smooth model needs 2 runs per factor plus 3 (README); fewer are refused
             enough = len(self.design) >= 2 * len(self.factors) + 3
             if how == "smooth" and enough and not self.region.components \
-                    and not self.region.categorical:
+                    and not self.region.categorical and self.whole_plot is None:
                 self.measured_response(model="smooth")
             elif how == "transform":
                 self.measured_response(transform=self.pick.choice(["log", "sqrt"]))
