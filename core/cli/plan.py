@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import json
 
-from .arguments import seed_number
+from .arguments import at_least_one, positive_number, seed_number
 
 __all__ = ["add", "run"]
 
@@ -44,6 +44,14 @@ def add(commands) -> None:
     plan.add_argument("--augment", choices=("face", "rotatable"),
                       help="add axial and centre runs to the study's measured runs "
                            "(a new block) so a quadratic model can be fitted")
+    # runs sharing a batch (plan/split_plot.py, plan/split_optimal.py)
+    plan.add_argument("--whole-plots", type=at_least_one, metavar="W",
+                      help="with hard-to-change factors: the number of whole plots "
+                           "(batches); with --design factorial, per replicate (a power "
+                           "of two)")
+    plan.add_argument("--ratio", type=positive_number, metavar="R",
+                      help="with hard-to-change factors: the assumed variance between "
+                           "whole plots over the variance within them (default 1)")
     plan.add_argument("--seed", type=seed_number, help="seed of the random run order "
                                                "(default: the study's seed)")
     plan.add_argument("--effect", type=float, metavar="SIZE",
