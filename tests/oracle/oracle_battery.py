@@ -245,8 +245,14 @@ def _plan_args(generated) -> list:
     if region.components:
         design = "lattice" if "rules" not in generated.features else "vertices"
         return ["--design", design]
+    plots = "whole_plots" in generated.features
     if generated.region.rules:
+        if plots:  # an optimal split plot at an assumed variance ratio
+            return ["--design", "optimal", "--whole-plots", 4, "--runs", 12, "--model",
+                    "main", "--ratio", 2, "--seed", 3]
         return ["--design", "optimal", "--runs", 12, "--model", "main", "--seed", 3]
+    if plots:  # a split-plot factorial, its whole plots replicated
+        return ["--replicates", 2]
     return []
 
 

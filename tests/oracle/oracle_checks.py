@@ -508,12 +508,31 @@ def check_plan(generated, study, sheet, args, outcome) -> None:
                              f"outside its bounds {c.low}..{c.high}")
         return
     optimal = "optimal" in args
+    if study.whole_plot is not None or any(f.hard_to_change for f in study.factors):
+        _check_whole_plot_sheet(study, table, outcome)
     # the sheet rounds each setting to 4 significant digits of its half range (at
     # most 5e-5 coded units off): a run on a rule's edge may cross it by that much
     for p in _region_ok(generated, table, search=optimal, tol=1e-6 if optimal else 1e-9,
                         coded_slack=5e-5):
         if optimal or "rule" not in p:
             outcome.fail("region", "plan", p)
+
+
+def _check_whole_plot_sheet(study, table, outcome) -> None:
+    """A split-plot run sheet: the runs of a whole plot one after the other, and
+    every hard-to-change factor at one setting within each whole plot (README)."""
+    column = study.whole_plot or "whole_plot"
+    if column not in table.columns:
+        outcome.fail("plan", "plan", f"the split-plot run sheet has no column '{column}'")
+        return
+    labels = table[column].astype(str).tolist()
+    starts = [lab for i, lab in enumerate(labels) if i == 0 or labels[i - 1] != lab]
+    if len(starts) != len(set(starts)):
+        outcome.fail("plan", "plan", "the runs of a whole plot are not listed together")
+    for f in study.factors:
+        if f.hard_to_change and (table.groupby(column)[f.name].nunique() > 1).any():
+            outcome.fail("plan", "plan", f"hard-to-change '{f.name}' changes within a "
+                         "whole plot of the run sheet")
 
 
 # --------------------------------------------------------------------------
