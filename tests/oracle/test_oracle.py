@@ -12,7 +12,7 @@ thousands of studies and names each failing seed.
 
 Hypothesis draws the studies, derandomised (the same studies on every run),
 with the explicit count of the ``oracle`` settings profile below: EXAMPLES
-studies per kind, 14 kinds. Shrinking is off: a failing study is reported as
+studies per kind, 15 kinds. Shrinking is off: a failing study is reported as
 drawn, with its study file (each battery run costs about half a second).
 """
 from __future__ import annotations
@@ -28,7 +28,7 @@ from oracle_battery import run_battery
 from oracle_pickers import HypothesisPicker, SeedPicker
 from oracle_studies import KINDS, generate
 
-EXAMPLES = 15  # studies per kind: 15 x 14 kinds = 210 generated studies
+EXAMPLES = 15  # studies per kind: 15 x 15 kinds = 225 generated studies
 settings.register_profile(
     "oracle", max_examples=EXAMPLES, derandomize=True, deadline=None, database=None,
     phases=[Phase.explicit, Phase.generate], print_blob=False,
