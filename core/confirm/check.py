@@ -213,10 +213,14 @@ def check_confirmations(study, *, fit=None, confidence: float | None = None,
                                         for a in model.predictive(x_groups))
             # No error estimate (a saturated model without Lenth's fallback): no
             # interval, so nothing to compare with.
+            noise = sigma ** 2 / np.maximum(counts, 1)
+            if hasattr(model, "mean_noise"):  # runs of a group share one new batch
+                pairs = [model.mean_noise(int(c)) for c in np.maximum(counts, 1)]
+                noise = np.array([sd * sd for sd, _ in pairs])
+                df = np.array([min(d, 1e6) for _, d in pairs])
             usable = (df > 0) & np.isfinite(sigma) & np.isfinite(se_mean)
             tq = stats.t.ppf(0.5 + level / 2.0, np.where(usable, df, 1.0))
-            half = np.where(usable, tq * np.sqrt(
-                se_mean ** 2 + sigma ** 2 / np.maximum(counts, 1)), np.nan)
+            half = np.where(usable, tq * np.sqrt(se_mean ** 2 + noise), np.nan)
             ybar = sums / np.maximum(counts, 1)
             inside = np.abs(ybar - mean) <= half
             predicted = _inverse(model, mean)

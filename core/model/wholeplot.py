@@ -115,9 +115,14 @@ class WholePlotModel(ResponseModel):
             row = self.anova_["terms"].get(d["group"])
             if row is not None and d.get("t") is not None and d["t"] == d["t"]:
                 d["p"] = float(2 * special.stdtr(row["df_denominator"], -abs(d["t"])))
+        if self.blocks_ is not None:  # blocks shift whole plots: their own df
+            test = sol.term_test([i for i, t in enumerate(terms) if t.is_block])
+            self.blocks_.update(f=test["f"], p=test["p"],
+                                df_denominator=test["df_denominator"])
         self.ratio_ = float(sol.ratio)
         total, df = sol.new_run_variance()
         self._new_sd, self._new_df = math.sqrt(total), df
+        self._components = (sol.s2_wp, sol.s2, sol.cov_components)
         level = self.confidence
         wp_low, wp_high = sol.component_interval(0, level)
         e_low, e_high = sol.component_interval(1, level)
@@ -139,6 +144,15 @@ class WholePlotModel(ResponseModel):
         df = self._new_df
         return mean, se, float(self._new_sd), int(max(1, math.floor(df))) if \
             math.isfinite(df) else 10 ** 6
+
+    def mean_noise(self, m: int) -> tuple[float, float]:
+        """SD and Satterthwaite df of the mean of ``m`` new runs made in one new batch:
+        ``s_wp^2 + s^2 / m`` (the batch's shift does not average out)."""
+        s2_wp, s2, cov = self._components
+        w = np.array([1.0, 1.0 / max(int(m), 1)])
+        total = s2_wp + s2 * w[1]
+        var = float(w @ cov @ w)
+        return math.sqrt(total), (2.0 * total * total / var if var > 0 else math.inf)
 
     def report(self) -> dict:
         out = super().report()

@@ -272,3 +272,27 @@ def test_whole_plot_study_fits_every_response_through_fit_study(strength_study):
     assert not fitted.skipped
     table = fitted.predict({"pulp": ["2"], "temp": ["275"]})
     assert table["pi_low"][0] < table["ci_low"][0] < table["predicted"][0]
+
+
+def test_blocks_are_tested_against_the_whole_plot_error(strength_study):
+    # replicates (days) as blocks: in the whole-plot stratum, F = MS_rep / MS_wp on
+    # (2, 4) df (the classical split-plot table, written out above)
+    model = fit_response(load_study(strength_study), "strength")
+    c = classical_split_plot(strength_table())
+    f = (c["rep"] / 2) / (c["wp_error"] / 4)
+    assert model.blocks_["f"] == pytest.approx(f, rel=1e-6)
+    assert model.blocks_["df_denominator"] == pytest.approx(4, abs=1e-6)
+    assert model.blocks_["p"] == pytest.approx(special.fdtrc(2, 4, f), rel=1e-5)
+
+
+def test_confirmation_mean_of_runs_in_one_batch_keeps_the_batch_variance():
+    d = _generated(3, False)
+    model = WholePlotModel(terms="main", factor_names=["oven", "a", "b"])
+    model.fit(d[["oven", "a", "b"]].to_numpy(), d["y"].to_numpy(), whole_plot=d["plot"])
+    wp = model.whole_plots_
+    for m in (1, 3, 10):
+        sd, df = model.mean_noise(m)
+        assert sd ** 2 == pytest.approx(wp["sd"] ** 2 + wp["residual_sd"] ** 2 / m,
+                                        rel=1e-12)
+        assert df > 0
+    assert model.mean_noise(1)[1] == pytest.approx(wp["new_run_df"], rel=1e-12)

@@ -558,9 +558,15 @@ def check_confirm(generated, study, fit, printed: dict, outcome) -> None:
         if row["pi_low"] is None or not np.isfinite(sigma):
             continue
         transform = _transform(generated, name)
+        m = row["m"]
+        wp = getattr(model, "whole_plots_", None)
+        if wp is not None:
+            # the group's runs share one new batch: sd^2 + residual_sd^2 / m (README)
+            sigma = math.sqrt(wp["sd"] ** 2 + wp["residual_sd"] ** 2 / m)
+            df, m = model.mean_noise(m)[1], 1
         _, _, lo, hi = interval_reference(np.asarray(mean).ravel(), np.asarray(se).ravel(),
                                           float(sigma), df, study.confidence, transform,
-                                          m=row["m"])
+                                          m=m)
         lo, hi = float(lo[0]), float(hi[0])
         tol = _interval_tol(df)
         if not (_close(row["pi_low"], lo, tol, hi - lo) and _close(row["pi_high"], hi, tol,
