@@ -144,27 +144,43 @@ class WholePlotSolve:
 
     # the variance components' covariance and the derivatives of C
     def _components(self) -> None:
-        M, codes, sizes = self.M, self.codes, self.sizes
-        n, p = M.shape
-        s2, s2w = self.s2, self.s2_wp
-        Z = np.zeros((n, sizes.size))
-        Z[np.arange(n), codes] = 1.0
-        # V^-1 of the full variance s^2 I + s_wp^2 Z Z' (whitening at g, over s^2)
-        Vinv_M = whiten(whiten(M, codes, sizes, self.ratio), codes, sizes, self.ratio) / s2
-        C = np.linalg.inv(M.T @ Vinv_M)  # (M'V^-1 M)^-1 on the full scale
-        Vinv = whiten(whiten(np.eye(n), codes, sizes, self.ratio), codes, sizes,
-                      self.ratio) / s2
-        P = Vinv - Vinv_M @ C @ Vinv_M.T
-        PZ = P @ Z
-        info = 0.5 * np.array([
-            [float(np.sum((Z.T @ PZ) ** 2)), float(np.sum(PZ * PZ))],
-            [float(np.sum(PZ * PZ)), float(np.sum(P * P))]])
+        """REML information of (s_wp^2, s^2) and dC/dth, without n x n matrices.
+
+        With U = V^-1 M, B = Z'U, C = (M'V^-1 M)^-1 and P = V^-1 - U C U':
+        tr(P ZZ' P ZZ') = ||Z'PZ||^2, Z'PZ = D - B C B', D = Z'V^-1 Z diagonal;
+        tr(P ZZ' P) = ||PZ||^2 and tr(PP) = ||P||^2 expanded the same way; all
+        sums over whole plots or p x p products.
+        """
+        M, codes, sizes, g = self.M, self.codes, self.sizes, self.ratio
+        s2 = self.s2
+
+        def vinv(A):  # V^-1 A for V = s^2 I + s_wp^2 Z Z'
+            return whiten(whiten(A, codes, sizes, g), codes, sizes, g) / s2
+
+        def by_plot(A):  # Z'A
+            out = np.zeros((sizes.size, A.shape[1]))
+            np.add.at(out, codes, A)
+            return out
+        U = vinv(M)
+        C = np.linalg.inv(M.T @ U)
+        B = by_plot(U)
+        d = sizes / (s2 * (1.0 + g * sizes))  # diagonal of Z'V^-1 Z
+        BtB, UtU = B.T @ B, U.T @ U
+        CB, CU = C @ BtB, C @ UtU
+        zpz = (float(np.sum(d * d)) - 2.0 * float(np.sum(np.einsum("ij,jk,ik->i", B, C, B)
+                                                         * d))
+               + float(np.trace(CB @ CB)))
+        E = by_plot(vinv(U))  # Z'V^-1 V^-1 M
+        pz = (float(np.sum(sizes / (s2 * (1.0 + g * sizes)) ** 2))
+              - 2.0 * float(np.sum(E * (B @ C))) + float(np.trace(CU @ CB)))
+        a = g / (1.0 + g * sizes)
+        trv2 = float(np.sum(sizes - (2.0 * a - a * a * sizes) * sizes)) / (s2 * s2)
+        pp = trv2 - 2.0 * float(np.trace(C @ (U.T @ vinv(U)))) + float(np.trace(CU @ CU))
+        info = 0.5 * np.array([[zpz, pz], [pz, pp]])
         self.C = C
         self.cov_components = np.linalg.pinv(info)  # order (s_wp^2, s^2)
         # dC/dth_i = C M'V^-1 V_i V^-1 M C with V_1 = Z Z', V_2 = I
-        A1 = C @ (Vinv_M.T @ Z)
-        A2 = C @ Vinv_M.T
-        self.dC = (A1 @ A1.T, A2 @ A2.T)
+        self.dC = (C @ BtB @ C, C @ UtU @ C)
 
     def contrast_df(self, L: np.ndarray) -> float:
         """Satterthwaite's denominator df for the contrasts in the rows of L."""
@@ -185,7 +201,7 @@ class WholePlotSolve:
         return float(2.0 * e / (e - q)) if e > q else float(min(nus))
 
     def term_test(self, idx) -> dict:
-        """F test of the columns ``idx`` together: ss (on the s^2 scale), df, f, p, ddf."""
+        """Wald F test of the columns ``idx`` together: df, f, p and its denominator df."""
         idx = list(idx)
         L = np.eye(len(self.coef))[idx]
         b = self.coef[idx]
@@ -195,8 +211,9 @@ class WholePlotSolve:
         ddf = self.contrast_df(L)
         p = float(special.fdtrc(k, ddf, f)) if np.isfinite(f) and np.isfinite(ddf) else (
             float(stats.chi2.sf(wald, k)) if np.isfinite(f) else np.nan)
-        return {"ss": f * k * self.s2, "df": k, "ms": f * self.s2, "f": f, "p": p,
-                "df_denominator": ddf}
+        # no sum of squares: a mixed model's Wald F has none of its own (the
+        # two-strata ANOVA gives the classical ones)
+        return {"df": k, "f": f, "p": p, "df_denominator": ddf}
 
     def term_tests(self, terms) -> dict:
         """``levels.term_tests`` with Satterthwaite's df: {group: row} in model order."""

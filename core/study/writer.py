@@ -31,6 +31,8 @@ def study_to_dict(study: Study) -> dict:
         head["seed"] = study.seed
     if study.blocks is not None:
         head["blocks"] = study.blocks
+    if study.whole_plot is not None:
+        head["whole_plot"] = study.whole_plot
     out: dict[str, Any] = {"study": head}
     for key, value in study.spec.items():
         if key not in _BASE_TOP:
@@ -65,6 +67,8 @@ def _factor_dict(f: Factor) -> dict:
         out["label"] = f.label
     if f.unit:
         out["unit"] = f.unit
+    if f.hard_to_change:
+        out["hard_to_change"] = True
     if f.is_categorical:
         out["levels"] = list(f.levels)
         if f.hold is not None:

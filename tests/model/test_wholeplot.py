@@ -296,3 +296,27 @@ def test_confirmation_mean_of_runs_in_one_batch_keeps_the_batch_variance():
                                         rel=1e-12)
         assert df > 0
     assert model.mean_noise(1)[1] == pytest.approx(wp["new_run_df"], rel=1e-12)
+
+
+def test_variance_components_information_equals_the_dense_formulas():
+    # the REML expected information tr(P V_i P V_j) / 2 and dC/dth written out
+    # densely (Searle, Casella & McCulloch 1992, ch. 6), against the plot-wise sums
+    d = _generated(29, True)
+    patsy = pytest.importorskip("patsy")
+    M = np.asarray(patsy.dmatrix("oven + a + b + oven:a", d))
+    codes, sizes = plot_codes(d["plot"])
+    sol = WholePlotSolve(M, d["y"].to_numpy(float), codes, sizes)
+    n = len(d)
+    Z = np.zeros((n, sizes.size))
+    Z[np.arange(n), codes] = 1.0
+    V = sol.s2 * np.eye(n) + sol.s2_wp * Z @ Z.T
+    Vi = np.linalg.inv(V)
+    C = np.linalg.inv(M.T @ Vi @ M)
+    P = Vi - Vi @ M @ C @ M.T @ Vi
+    Vs = (Z @ Z.T, np.eye(n))
+    info = 0.5 * np.array([[np.trace(P @ a @ P @ b) for b in Vs] for a in Vs])
+    np.testing.assert_allclose(sol.cov_components, np.linalg.inv(info), rtol=1e-8)
+    np.testing.assert_allclose(sol.C, C, rtol=1e-8)
+    for dC, Vk in zip(sol.dC, Vs):
+        np.testing.assert_allclose(dC, C @ M.T @ Vi @ Vk @ Vi @ M @ C, rtol=1e-8,
+                                   atol=1e-14)

@@ -126,3 +126,12 @@ def test_bad_keys(write_study):
 def test_blank_whole_plot(write_study):
     with pytest.raises(DataError, match="row 4, column 'dough': blank whole plot"):
         load_study(write_study(STUDY, RUNS.replace("3,d2,", "3,,")))
+
+
+def test_the_keys_travel_when_the_study_is_written_back(write_study):
+    from tradeoff.study.writer import study_to_dict
+
+    study = load_study(write_study(STUDY, RUNS))
+    out = study_to_dict(study)
+    assert out["study"]["whole_plot"] == "dough"
+    assert [f.get("hard_to_change", False) for f in out["factors"]] == [True, False]
