@@ -81,9 +81,13 @@ def add(commands) -> None:
 def run(args) -> int:
     from ..plan.mixture_plan import mixture_route
     from ..plan.runsheet import plan_command
+    from ..plan.split_command import split_plot_route
 
-    # a study with components (or a mixture design asked for) gets a blend plan
+    # a study with components (or a mixture design asked for) gets a blend plan;
+    # one with hard-to-change factors a split plot
     routed = mixture_route(args)
+    if routed is None:
+        routed = split_plot_route(args)
     report, text = routed if routed is not None else plan_command(args)
     print(json.dumps(report, indent=2) if args.json else text)
     return 0

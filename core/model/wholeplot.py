@@ -207,6 +207,9 @@ def strata_anova(M: np.ndarray, z: np.ndarray, terms, codes: np.ndarray,
     the plot means on the within columns' deviations; error df = runs - plots
     - rank. Each term's SS is its extra SS in its stratum (type III there); its
     F is against its stratum's error. Sums of squares are on the modelling scale.
+    A term with no degrees of freedom left in its stratum (a blend's terms, whose
+    within-plot deviations are tied to each other) is listed under ``no_df``: only
+    the mixed model, which combines the strata, tests it.
     """
     n = z.size
     sizes = np.bincount(codes)
@@ -224,22 +227,31 @@ def strata_anova(M: np.ndarray, z: np.ndarray, terms, codes: np.ndarray,
                or strata.get(t.group) == WHOLE]
     within = [j for j in range(len(terms)) if j not in between]
     out = {}
+    Ab = plot_mean(M[:, between])
+    if not any(terms[j].is_intercept for j in between):
+        # a blend has no intercept column: the plot means still have a mean of their own
+        Ab = np.column_stack([np.ones(n), Ab])
+        between = [None] + between
     for name, cols, A, y, total_df in (
-            (WHOLE, between, plot_mean(M[:, between]), zb, G),
+            (WHOLE, between, Ab, zb, G),
             (WITHIN, within, M[:, within] - plot_mean(M[:, within]), zw, n - G)):
         groups: dict[str, list[int]] = {}
         for pos, j in enumerate(cols):
-            t = terms[j]
-            if not (t.is_intercept or t.is_block):
+            t = None if j is None else terms[j]
+            if t is not None and not (t.is_intercept or t.is_block):
                 groups.setdefault(t.group, []).append(pos)
         sse, rank, rows = _extra_ss(A, y, groups)
         df_e = total_df - rank
         ms_e = sse / df_e if df_e > 0 else np.nan
-        table = {}
+        table, none = {}, []
         for label, (ss, df) in rows.items():
+            if df < 1:  # confounded within its stratum: only the mixed model tests it
+                none.append(label)
+                continue
             f = (ss / df) / ms_e if df > 0 and df_e > 0 and ms_e > 0 else np.nan
             table[label] = {"ss": ss, "df": int(df), "ms": ss / df if df else np.nan,
                             "f": f, "p": float(special.fdtrc(df, df_e, f))
                             if np.isfinite(f) else np.nan}
-        out[name] = {"terms": table, "error": {"ss": sse, "df": int(df_e), "ms": ms_e}}
+        out[name] = {"terms": table, "error": {"ss": sse, "df": int(df_e), "ms": ms_e},
+                     "no_df": none}
     return out

@@ -113,11 +113,6 @@ def plan_command(args) -> tuple[dict, str]:
     from .evaluation import evaluate_design, evaluate_plan
     from ..derive.load import load_study
 
-    from .split_command import split_plot_route
-
-    routed = split_plot_route(args)  # hard-to-change factors: whole plots
-    if routed is not None:
-        return routed
     design = getattr(args, "design", None) or "factorial"
     model_arg = _model_option(getattr(args, "model", None))
     kept = None

@@ -123,8 +123,9 @@ class _EvidenceSections(_Sections):
             # runs sharing a batch (model/wholeplot.py): both variances and the method
             def sd(key):
                 low, high = wp[key + "_interval"]
-                return (f"{_g(wp[key])} ({_g(low)} to "
-                        f"{_g(high) if high is not None else 'not bounded'})")
+                if high is None:  # an SD estimated at 0 has no chi-square interval
+                    return f"{_g(wp[key])} (no interval)"
+                return f"{_g(wp[key])} ({_g(low)} to {_g(high)})"
             level = f"{100 * wp['confidence']:g}%"
             rows += [["whole plots (runs sharing a batch)",
                       f"{wp['count']} ({esc(wp['column'])})"],

@@ -43,8 +43,9 @@ def _whole_plot_text(r: dict) -> list[str]:
 
     def sd(key):
         low, high = w[key + "_interval"]
-        return (f"{_f(w[key], '.4g')} ({_f(low, '.3g')} to "
-                f"{_f(high, '.3g') if high is not None else 'not bounded'})")
+        if high is None:  # an SD estimated at 0 has no chi-square interval
+            return f"{_f(w[key], '.4g')} (no interval)"
+        return f"{_f(w[key], '.4g')} ({_f(low, '.3g')} to {_f(high, '.3g')})"
     level = f"{100 * w['confidence']:g}%"
     out = [f"  whole plots ({w['column']}): {w['count']}, {w['runs_per_plot']['min']} to "
            f"{w['runs_per_plot']['max']} runs each; SD between whole plots {sd('sd')}, "
@@ -62,6 +63,9 @@ def _whole_plot_text(r: dict) -> list[str]:
                        f"{_f(row['f'], '.3g'):>10}{_p(row['p']):>10}")
         e = part["error"]
         out.append(f"    {'error':<20}{_f(e['ss']):>16}{e['df']:>5}{_f(e['ms']):>14}")
+        if part.get("no_df"):
+            out.append(f"    (no degrees of freedom in this stratum: "
+                       f"{', '.join(part['no_df'])}; see the mixed-model tests)")
     out.append("  mixed-model tests (each term given all others):")
     for key, row in a["terms"].items():
         out.append(f"    {key:<20} F {_f(row['f'], '.3g')} on {row['df']} and "
