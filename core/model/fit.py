@@ -187,8 +187,7 @@ class ResponseModel:
                           block if bterms else None, levels, confounded)
         return self
 
-    def _solve(self, M: np.ndarray, z: np.ndarray, qr=None):
-        """The fit of z on the model matrix (a subclass may fit by generalised least squares)."""
+    def _solve(self, M: np.ndarray, z: np.ndarray, qr=None):  # a subclass may fit by GLS
         return LeastSquares(M, z, qr)
 
     def _check_options(self) -> None:
@@ -252,8 +251,7 @@ class ResponseModel:
         self.aliases_ = {k: dict(v) for k, v in aliases.items()}
         self.n_ = int(n)
         self.residual_df_ = int(sol.df)
-        sst = getattr(sol, "sst", None)
-        sst = float(np.sum((z - z.mean()) ** 2)) if sst is None else sst
+        sst = getattr(sol, "sst", None) or float(np.sum((z - z.mean()) ** 2))
         self.r2_ = float(1 - sol.sse / sst)
         if sol.df > 0:
             self.residual_sd_ = float(math.sqrt(sol.sse / sol.df))
