@@ -80,29 +80,15 @@ def fit_width(chart):
     return chart.properties(autosize=alt.AutoSizeParams(type="fit-x", contains="padding"))
 
 
-def effects_chart(effects: pd.DataFrame, lines: pd.DataFrame, unit: str) -> alt.LayerChart:
-    """Bars of |effect| ranked by size, coloured by sign, with reference lines.
+def effects_chart(estimates: pd.DataFrame, x_title: str) -> alt.LayerChart:
+    """Each term's effect as a dot with its margins, largest at the top, a zero line
+    (``tradeoff.maps.effects_picture``).
 
-    ``effects``: columns term, effect. ``lines``: columns label, value.
+    ``estimates``: ``tradeoff.maps.estimates.effect_estimates``.
     """
-    data = effects.assign(size=effects["effect"].abs(),
-                          sign=["raises" if e >= 0 else "lowers" for e in effects["effect"]])
-    order = list(data.sort_values("size", ascending=False)["term"])
-    bars = alt.Chart(data).mark_bar().encode(
-        x=alt.X("size:Q", title=titled("Size of effect, low to high", unit)),
-        y=alt.Y("term:N", sort=order, title="Model term",
-                axis=alt.Axis(labelOverlap=False, labelLimit=220)),
-        color=alt.Color("sign:N", scale=SIGN_COLOURS, title="Going low to high"),
-        tooltip=[alt.Tooltip("term"), alt.Tooltip("effect:Q", format=".4g")])
-    layers = [bars]
-    if len(lines):
-        rules = alt.Chart(lines).mark_rule(strokeDash=[6, 3], color="#333").encode(
-            x=alt.X("value:Q"),
-            tooltip=[alt.Tooltip("label:N"), alt.Tooltip("value:Q", format=".4g")])
-        text = alt.Chart(lines).mark_text(align="left", dx=3, dy=-6, color="#333").encode(
-            x=alt.X("value:Q"), y=alt.YValue(0), text=alt.Text("label:N"))
-        layers += [rules, text]
-    return fit_width(alt.layer(*layers).properties(height=max(3, len(data)) * BAR_STEP))
+    from tradeoff.maps.effects_picture import effects_picture
+
+    return fit_width(effects_picture(estimates, x_title))
 
 
 def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> alt.LayerChart:

@@ -36,7 +36,7 @@ from .reduce import backward_eliminate
 from .dependence import find_aliases
 from .terms import (Term, block_terms, hierarchy_closure, model_matrix,
                     model_terms, named_model_size, parse_term)
-from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse
+from .transforms import TRANSFORM_NAMES, box_cox, forward, inverse, power_advice
 from .describe import response_report
 from .equation import fitted_equations
 from .notes import alias_notes, effect_index, effect_scale, near_alias_notes
@@ -300,9 +300,11 @@ class ResponseModel:
                     self.sigma_ = res.pse / scale
                     self.sigma_df_ = max(1, int(res.df))
                 warnings.append("no residual degrees of freedom (every run is used by a "
-                                "term): effects are judged with Lenth's margins of error "
-                                f"(ME {res.me:.4g}, SME {res.sme:.4g}), and intervals use "
-                                "Lenth's pseudo standard error")
+                                "term): effects are judged against margins worked out from "
+                                "the smaller effects (Lenth 1989: a term alone stands out "
+                                f"beyond {res.me:.4g}, among all {res.m} terms beyond "
+                                f"{res.sme:.4g}), and intervals use the noise those "
+                                "effects show")
             else:
                 warnings.append("no residual degrees of freedom and too few effects for "
                                 "Lenth's method: no error estimate, no intervals")
@@ -422,12 +424,11 @@ class ResponseModel:
         self._check_fitted()
         out = list(self._warnings)
         bc = self.box_cox_
-        current = {"none": 1.0, "sqrt": 0.5, "log": 0.0}[self.transform]
-        if bc is not None and bc["suggest"] in TRANSFORM_NAMES and \
-                bc["suggest"] != self.transform and not bc["low"] <= current <= bc["high"]:
-            out.append(f"Box-Cox suggests transform '{bc['suggest']}' (lambda "
-                       f"{bc['lambda']:.2f}, range {bc['low']:.2f} to {bc['high']:.2f}); "
-                       f"this model uses '{self.transform}'")
+        if bc is not None:
+            sentence, helps = power_advice(bc, self.transform)
+            if helps:
+                out.append(sentence[0].upper() + sentence[1:]
+                           + f" (set transform = \"{bc['suggest']}\" for this response)")
         return out
 
     @property

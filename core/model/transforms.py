@@ -13,10 +13,14 @@ from scipy import optimize, stats
 
 from ..errors import ModelError
 
-__all__ = ["TRANSFORM_NAMES", "forward", "inverse", "box_cox"]
+__all__ = ["TRANSFORM_NAMES", "forward", "inverse", "box_cox", "power_advice"]
 
 TRANSFORM_NAMES = ("none", "log", "sqrt")
 _LAMBDA_OF = {"none": 1.0, "sqrt": 0.5, "log": 0.0}
+# the powers tried by ``box_cox``: an interval that reaches one of them is open on that side
+_TRIED = (-3.0, 3.0)
+_SCALE_WORDS = {"none": "the measured scale", "sqrt": "a square-root scale",
+                "log": "a log scale"}
 
 
 def forward(y, transform: str, *, response: str = "response") -> np.ndarray:
@@ -93,8 +97,8 @@ def box_cox(y, Q: np.ndarray, *, level: float = 0.95) -> dict | None:
     lam = float(res.x)
     lmax = float(-res.fun)
     cut = lmax - 0.5 * stats.chi2.ppf(level, 1)
-    low = _edge(grid, ll, cut, lam, lmax, -1)
-    high = _edge(grid, ll, cut, lam, lmax, +1)
+    low = _edge(grid, ll, cut, lam, lmax, -1, loglik)
+    high = _edge(grid, ll, cut, lam, lmax, +1, loglik)
 
     def within(v: float) -> bool:
         return loglik(v)[0] >= cut
@@ -109,15 +113,73 @@ def box_cox(y, Q: np.ndarray, *, level: float = 0.95) -> dict | None:
 
 
 def _edge(grid: np.ndarray, ll: np.ndarray, cut: float, lam: float, lmax: float,
-          side: int) -> float:
-    """Where the log-likelihood falls to ``cut`` going left (-1) or right (+1) of lam,
-    by linear interpolation on the grid; the grid's end when it never does."""
+          side: int, loglik) -> float:
+    """Where the log-likelihood falls to ``cut`` going left (-1) or right (+1) of lam:
+    bracketed on the grid, then solved on the curve itself (a straight line between
+    grid points 0.1 apart misplaces the end of a narrow interval); the grid's end
+    when it never falls that far."""
     i = int(np.searchsorted(grid, lam))
     idx = range(i - 1, -1, -1) if side < 0 else range(i, grid.size)
-    prev_x, prev_y = lam, lmax
+    prev_x = lam
     for j in idx:
         if ll[j] < cut:
-            w = (prev_y - cut) / (prev_y - ll[j])
-            return float(prev_x + w * (grid[j] - prev_x))
-        prev_x, prev_y = grid[j], ll[j]
+            return float(optimize.brentq(lambda t: loglik(t)[0] - cut, *sorted(
+                (prev_x, float(grid[j]))), xtol=1e-8))
+        prev_x = float(grid[j])
     return float(grid[0] if side < 0 else grid[-1])
+
+
+def _power(v: float, digits: int = 1) -> str:
+    return f"{v + 0.0:.{digits}f}"  # + 0.0: -0.0 reads as 0.0
+
+
+def power_advice(bc: dict, transform: str = "none") -> tuple[str, bool]:
+    """The power-transform check of ``box_cox`` as one plain sentence.
+
+    Parameters
+    ----------
+    bc : dict
+        ``box_cox``'s result (lambda, low, high, suggest).
+    transform : str
+        The scale the model uses now (one of ``TRANSFORM_NAMES``).
+
+    Returns
+    -------
+    (sentence, helps)
+        The sentence starts in lower case (it follows a label or is
+        capitalised by the caller); ``helps`` is True when a scale the tool
+        offers would fit clearly better than the one in use (the one in use
+        lies outside the interval of powers that fit about as well).
+
+    Examples
+    --------
+    ``a power transform would not help: the best power is 0.94, and any power
+    from -0.4 to 2.3 fits about as well``
+    """
+    lam, low, high = float(bc["lambda"]), float(bc["low"]), float(bc["high"])
+    at_low, at_high = low <= _TRIED[0] + 1e-9, high >= _TRIED[1] - 1e-9
+    # a narrow interval needs its second decimal: -0.18 to 0.06, not -0.2 to 0.1
+    digits = 2 if high - low < 1 else 1
+    if at_low and at_high:
+        spread = f"any power tried, from {_TRIED[0]:g} to {_TRIED[1]:g}, fits about as well"
+    elif at_low:
+        spread = f"any power up to {_power(high, digits)} fits about as well"
+    elif at_high:
+        spread = f"any power from {_power(low, digits)} up fits about as well"
+    else:
+        spread = (f"any power from {_power(low, digits)} to {_power(high, digits)} fits "
+                  "about as well")
+    top = f"{lam + 0.0:.2f}" + (" or beyond" if min(abs(lam - _TRIED[0]),
+                                                     abs(lam - _TRIED[1])) < 0.05 else "")
+    best = f"the best power is {top}, and {spread}"
+    current = _LAMBDA_OF[transform]
+    if low <= current <= high:
+        if transform == "none":
+            return f"a power transform would not help: {best}", False
+        return f"{_SCALE_WORDS[transform]} suits this response: {best}", False
+    suggest = bc["suggest"]
+    if suggest in _SCALE_WORDS and suggest != transform:
+        return (f"{_SCALE_WORDS[suggest]} would fit better than "
+                f"{_SCALE_WORDS[transform].replace('a ', 'the ', 1)}: {best}"), True
+    return (f"no scale offered here fits well: {best}; the measured scale (power 1), "
+            "square root (0.5) and log (0) all lie outside"), False

@@ -1,17 +1,16 @@
 """The report's charts: Vega-Lite specifications rendered to inline SVG without a browser.
 
-Each response's effects as bars, and each goal's desirability curve with the
+Each response's effects as dots with their margins, and each goal's desirability curve with the
 best setting's prediction marked.
 """
 from __future__ import annotations
 
 import pandas as pd
 
-from .data import _get, _is_clear
 
 __all__ = ["_svg", "_chart_div", "_effects_chart", "_curve_chart", "_arrhenius_chart"]
 
-_CLEAR, _NOISE, _CURVE, _MARK = "#2d4a53", "#cbbfa9", "#b5651d", "#2d4a53"
+_CURVE, _MARK = "#b5651d", "#2d4a53"
 
 
 def _svg(chart) -> str:
@@ -33,50 +32,26 @@ def _chart_div(svg: str) -> str:
     return f'<div class="chart">{svg}</div>' if svg else ""
 
 
-def _effects_chart(response, rep: dict, alpha: float, leave_out=frozenset()) -> str:
-    """Horizontal bars: each term's effect (coefficient for squared terms); terms in
+def _effects_chart(response, model, leave_out=frozenset()) -> str:
+    """Each term's effect as a dot with its margins, largest at the top
+    (``maps.effects_picture``), then the sentence that reads it; terms in
     ``leave_out`` are not drawn."""
     import altair as alt
 
-    rows = []
-    blocks = set((rep.get("blocks") or {}).get("terms", ()))
-    for term in rep["terms"]:
-        if term == "intercept" or term in blocks or term in leave_out:
-            continue  # block shifts are not factor effects
-        effect = _get(rep["effects"], term)
-        size = effect if effect is not None else _get(rep["coefficients"], term)
-        if size is None:
-            continue
-        clear = _is_clear(rep, term, alpha)
-        rows.append({"term": term + ("" if effect is not None else " (coef.)"),
-                     "size": size, "judged": {True: "clear", False: "within noise"}.get(
-                         clear, "not judged")})
-    # the last level of a factor of three or more levels: minus the sum of the others
-    for d in rep.get("derived_coefficients") or []:
-        size = d.get("effect", d.get("estimate"))
-        if size is None:
-            continue
-        judged = ("not judged" if d.get("p") is None else
-                  "clear" if d["p"] < alpha else "within noise")
-        rows.append({"term": d["term"], "size": size, "judged": judged})
-    if not rows:
+    from ..maps.effects_picture import effects_picture
+    from ..maps.estimates import effect_estimates, effects_note
+    from html import escape as esc
+
+    estimates = effect_estimates(model, leave_out=leave_out)
+    if estimates.empty:
         return ""
-    frame = pd.DataFrame(rows)
-    frame["order"] = -frame["size"].abs()
-    height = max(60, 18 * len(frame))
-    levels = any("[" in t and not t.startswith("block[") for t in frame["term"])
-    chart = alt.Chart(frame, title=f"Effects on {response.label}").mark_bar().encode(
-        y=alt.Y("term:N", sort=alt.SortField("order"), title=None,
-                axis=alt.Axis(labelLimit=260)),
-        x=alt.X("size:Q", title=("effect (low to high; a level: its deviation from the "
-                                 "average over levels)" if levels else
-                                 "effect (low to high setting)")
-                + (f", {response.unit}" if response.unit else "")),
-        color=alt.Color("judged:N", title=None,
-                        scale=alt.Scale(domain=["clear", "within noise", "not judged"],
-                                        range=[_CLEAR, _NOISE, "#9aa3ad"])),
-    ).properties(width=420, height=height)
-    return _svg(chart)
+    scale = {"log": ", log scale", "sqrt": ", square-root scale"}.get(model.transform, "")
+    unit = response.unit + scale if response.unit else scale.lstrip(", ")
+    title = f"Effect ({unit})" if unit else "Effect"
+    chart = effects_picture(estimates, title, width=420).properties(
+        title=alt.TitleParams(f"Effects on {response.label}", anchor="start"))
+    return (_chart_div(_svg(chart))
+            + f'<p class="note">{esc(effects_note(estimates, model.confidence))}</p>')
 
 
 def _curve_chart(item, part: pd.DataFrame, marker) -> str:

@@ -8,6 +8,7 @@ from __future__ import annotations
 import pandas as pd
 
 from ..model.terms import model_label
+from ..model.transforms import power_advice
 from .charts import _arrhenius_chart, _chart_div, _effects_chart
 from .data import _g, _get, _is_clear, _p, _r2
 from .sections import _Sections, _table, esc
@@ -22,8 +23,8 @@ class _EvidenceSections(_Sections):
         out = [f"<p>For each response: which terms matter (effects), how well the model "
                f"fits, and whether anything looks off. A term is <b>clear</b> when its "
                f"p-value is below {_g(1 - self.study.confidence, 2)} (or, with no "
-               "residual degrees of freedom, when its effect passes Lenth's margin of "
-               "error).</p>"]
+               "residual degrees of freedom, when its effect passes the margin worked out "
+               "from the smaller effects, Lenth's 1989 method).</p>"]
         alpha = 1 - self.study.confidence
         for r in self.study.responses:
             out.append(f'<div class="response"><h3>{esc(r.display())}</h3>')
@@ -43,8 +44,8 @@ class _EvidenceSections(_Sections):
             out.append(self._fit_stats(rep))
             # a component's own blending term is its pure blend's response, no effect:
             # its bar would dwarf every effect
-            out.append(_chart_div(_effects_chart(r, rep, alpha, leave_out={
-                f.name for f in self.study.factors if getattr(f, "is_component", False)})))
+            out.append(_effects_chart(r, self.data["fitted"][r.name], leave_out={
+                f.name for f in self.study.factors if getattr(f, "is_component", False)}))
             out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))
@@ -197,9 +198,16 @@ class _EvidenceSections(_Sections):
                          "and a model without squared terms).")
         lenth = rep.get("lenth")
         if lenth:
-            lines.append(f"No residual degrees of freedom: effects judged against Lenth's "
-                         f"margin of error ME = {_g(lenth['me'])} (pseudo standard error "
-                         f"{_g(lenth['pse'])}).")
+            lines.append(f"No run is left over to measure the scatter, so the margins come "
+                         f"from the smaller effects themselves (Lenth 1989): a term looked at "
+                         f"alone stands out beyond {_g(lenth['me'])}, among all "
+                         f"{lenth['effects']} terms beyond {_g(lenth['sme'])} (an effect's "
+                         f"noise estimated at {_g(lenth['pse'])}).")
+        bc = rep.get("box_cox")
+        if bc is not None:
+            sentence, helps = power_advice(bc, rep["transform"])
+            if not helps:  # a scale that would help is a note of its own below
+                lines.append(f"Scale: {sentence}.")
         return "<ul>" + "".join(f"<li>{esc(x)}</li>" for x in lines) + "</ul>"
 
     def _flagged(self, name: str, rep: dict) -> str:

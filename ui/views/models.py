@@ -5,11 +5,13 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.maps.tables import (effect_lines, effect_table, half_normal_table,
+from tradeoff.maps.estimates import effect_estimates, effects_note
+from tradeoff.maps.tables import (effect_table, half_normal_table,
                            interaction_means, residual_table)
 from tradeoff.study.spec import MODELS
 from tradeoff.model.dependence import combination_text
 from tradeoff.model.terms import model_terms
+from tradeoff.model.transforms import power_advice
 from tradeoff_ui import cached, charts, panels, text
 from tradeoff_ui.shown import blank_none, num, p_text
 
@@ -80,7 +82,7 @@ if report["model"] == "smooth":  # no terms: length scales and leave-one-out ins
     st.stop()
 unit = response.unit + (f", {response.transform} scale" if response.transform != "none" else "")
 effects = effect_table(model)
-lines = effect_lines(model)
+estimates = effect_estimates(model)
 
 # -- show ---------------------------------------------------------------------------
 cols = st.columns(6)
@@ -94,6 +96,9 @@ st.caption("R² is the share of the variation between runs the model explains; a
            "R² charges for each term; predicted R² is how well each run is predicted "
            "when it is left out of the fit. A predicted R² far below R² means the model "
            "follows noise.")
+scale = report.get("box_cox")
+if scale and not power_advice(scale, response.transform)[1]:  # else it is a warning below
+    st.caption("Scale: " + power_advice(scale, response.transform)[0] + ".")
 pieces = report.get("pieces")
 if pieces:
     with st.container(border=True):
@@ -131,15 +136,10 @@ if report.get("reduction"):
 
 left, right = st.columns([3, 2])
 with left:
-    st.subheader("Effects, largest first")
-    st.caption("An effect is the change in the response from the low (-1) to the high "
-               "(+1) setting of a factor, averaged over the others. Bars beyond the "
-               "dashed line are unlikely to be noise"
-               + (" (Lenth's margin of error ME, and SME allowing for looking at all "
-                  "effects at once)." if report["lenth"] else
-                  " (two-sided t-test at the study's confidence level)."))
-    if len(effects):
-        charts.show(charts.effects_chart, effects, lines, response.unit,
+    st.subheader("Effects and their margins")
+    st.caption(text.plain(effects_note(estimates, study.confidence)))
+    if len(estimates):
+        charts.show(charts.effects_chart, estimates, charts.titled("Effect", unit),
                     width="stretch")
 with right:
     st.subheader("Half-normal plot")
