@@ -17,7 +17,7 @@ from ..search.desirability import desirability, limits
 from ..errors import StudyError
 
 __all__ = ["OUTSIDE_TOL", "runs_table", "desirability_curves", "interaction_means",
-           "effect_table", "effect_lines", "half_normal_table", "residual_table",
+           "effect_table", "half_normal_table", "residual_table",
            "contour_grid", "WhatIf", "what_if"]
 
 # A run counts as outside the tested box when a coded setting passes +-1 by more
@@ -206,35 +206,6 @@ def effect_table(model) -> pd.DataFrame:
                           "p_value": list(p[keep]) + [d["p"] for d in derived]})
     order = np.argsort(-np.abs(table["effect"].to_numpy()), kind="stable")
     return table.iloc[order].reset_index(drop=True)
-
-
-def effect_lines(model, *, level: float | None = None) -> pd.DataFrame:
-    """Reference sizes for the effects chart: beyond a line, an effect is likely real.
-
-    With residual degrees of freedom: ``t(1 - alpha/2, df) * se(effect)``,
-    the size at which an effect's two-sided t-test reaches the chosen level
-    (se is the largest effect standard error, so the line is never
-    optimistic). Without them: Lenth's (1989) ME and SME.
-
-    Returns
-    -------
-    pandas.DataFrame
-        Columns ``label`` and ``value``; empty when no error estimate exists.
-    """
-    from scipy import stats
-
-    level = model.confidence if level is None else level
-    if model.residual_df_ > 0 and model.std_errors_ is not None:
-        table = effect_table(model)
-        se = float(np.nanmax(table["std_error"])) if len(table) else np.nan
-        if np.isfinite(se) and se > 0:
-            value = float(stats.t.ppf(0.5 + level / 2, model.residual_df_) * se)
-            return pd.DataFrame({"label": [f"t limit {level:.0%}"], "value": [value]})
-        return pd.DataFrame({"label": [], "value": []})
-    if model.lenth_ is not None and np.isfinite(model.lenth_.me):
-        return pd.DataFrame({"label": ["ME (Lenth)", "SME (Lenth)"],
-                             "value": [model.lenth_.me, model.lenth_.sme]})
-    return pd.DataFrame({"label": [], "value": []})
 
 
 def half_normal_table(model) -> pd.DataFrame:

@@ -86,10 +86,8 @@ def _ols(demo, response):
     return sm.ols(formula, data=frame).fit()
 
 
-def test_effect_table_and_t_line_match_statsmodels(demo, fitted):
-    from scipy import stats
-
-    from tradeoff.maps.tables import effect_lines, effect_table
+def test_effect_table_matches_statsmodels(demo, fitted):
+    from tradeoff.maps.tables import effect_table
 
     ols = _ols(demo, "liking")
     table = effect_table(fitted.models["liking"]).set_index("term")
@@ -99,36 +97,6 @@ def test_effect_table_and_t_line_match_statsmodels(demo, fitted):
         assert table.at[term, "p_value"] == pytest.approx(ols.pvalues[term], rel=1e-6)
     sizes = table["effect"].abs().to_numpy()
     assert (np.diff(sizes) <= 0).all()  # largest first
-    line = effect_lines(fitted.models["liking"])
-    expected = stats.t.ppf(0.975, ols.df_resid) * 2 * ols.bse.drop("Intercept").max()
-    assert line["value"].iloc[0] == pytest.approx(expected, rel=1e-9)
-
-
-def test_effect_lines_without_residual_df_are_lenths(write_study):
-    """Saturated 2^3 model: ME = t(0.975, m/3) * PSE, Lenth (1989), computed here by hand."""
-    from scipy import stats
-
-    from tradeoff.maps.tables import effect_lines, effect_table
-    from tradeoff.model.study_fit import fit_study
-
-    study_text = ("[study]\nname = \"sat\"\ndata = \"runs.csv\"\nmodel = \"full\"\n"
-                  + "".join(f"[[factors]]\nname = \"{n}\"\nlow = -1\nhigh = 1\n"
-                            for n in "abc")
-                  + "[[responses]]\nname = \"y\"\n")
-    ys = [60, 72, 54, 68, 52, 83, 45, 80]  # the pilot plant 2^3 responses, Box, Hunter & Hunter (2005) (from memory)
-    rows = ["run,a,b,c,y"] + [f"{i + 1},{(-1) ** (i % 2 + 1)},{(-1) ** (i // 2 % 2 + 1)},"
-                              f"{(-1) ** (i // 4 + 1)},{y}" for i, y in enumerate(ys)]
-    study = load_study(write_study(study_text, "\n".join(rows) + "\n"))
-    model = fit_study(study).models["y"]
-    effects = effect_table(model)["effect"].abs().to_numpy()
-    s0 = 1.5 * np.median(effects)
-    pse = 1.5 * np.median(effects[effects < 2.5 * s0])
-    me = stats.t.ppf(0.975, len(effects) / 3) * pse
-    lines = effect_lines(model).set_index("label")["value"]
-    assert lines["ME (Lenth)"] == pytest.approx(me, rel=1e-9)
-    assert lines["SME (Lenth)"] > lines["ME (Lenth)"]
-    # the main effect of a (temperature in the source) is 23 (from memory)
-    assert effect_table(model).set_index("term").at["a", "effect"] == pytest.approx(23.0)
 
 
 def test_contour_grid_matches_statsmodels_and_the_desirability_formula(demo, fitted):
