@@ -185,13 +185,14 @@ def contour_chart(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_tit
 
 
 def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataFrame,
-                 d_lines: pd.DataFrame | None = None):
-    """Each limit as its own labelled line, failing side ticked, the region where all
-    hold outlined (see ``tradeoff.maps.pictures.limits_picture``)."""
+                 d_lines: pd.DataFrame | None = None, labels: dict | None = None):
+    """Each limit as its own labelled line (labels placed apart), failing side ticked,
+    the region where all hold tinted and outlined (see
+    ``tradeoff.maps.pictures.limits_picture``)."""
     from tradeoff.maps.pictures import limits_picture
 
     return fit_width(limits_picture(lmap, titles, x_title, y_title, marks,
-                                    d_lines=d_lines, height=420))
+                                    d_lines=d_lines, labels=labels, height=420))
 
 
 def slice_chart(part: pd.DataFrame, title: str, x_title: str):

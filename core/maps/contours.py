@@ -236,8 +236,9 @@ class LimitsMap:
     share : float
         Share of the map's grid points where everything holds (0 .. 1).
     grid : pandas.DataFrame
-        The grid behind the map: columns ``x``, ``y`` (natural settings) and
-        ``D`` (overall desirability; NaN when no goal is set).
+        The grid behind the map: columns ``x``, ``y`` (natural settings),
+        ``D`` (overall desirability; NaN when no goal is set) and ``holds``
+        (True where every limit and rule holds).
     """
 
     lines: pd.DataFrame
@@ -360,8 +361,10 @@ def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
         region = (_tidy(_trace(xs, ys, margin.reshape(n, n), [0.0]))
                   if 0 < share < 1 else _tidy([]))
         region = region[["line", "x", "y"]]
+        grid["holds"] = inside
     else:
         share, region = 1.0, _tidy([])[["line", "x", "y"]]
+        grid["holds"] = True
     return LimitsMap(lines=lines, ticks=ticks, region=region, share=share, grid=grid)
 
 

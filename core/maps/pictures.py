@@ -15,13 +15,14 @@ import numpy as np
 import pandas as pd
 
 __all__ = ["LINE_COLOURS", "LINE_DASHES", "titles_expr", "contour_picture", "limits_picture",
+           "limits_labels", "limit_label_text", "limits_note",
            "slice_panel", "slices_picture", "interaction_picture", "arrhenius_picture"]
 
 # One colour and one dash pattern per response, so lines part in grey print too.
 LINE_COLOURS = ["#1b6f8a", "#b5651d", "#6a3d9a", "#2e7d4f", "#a8322d", "#4f5b66",
                 "#8c6d1f", "#c2417a"]
 LINE_DASHES = [[1, 0], [7, 3], [2, 2], [9, 3, 2, 3], [4, 2], [12, 4], [1, 3], [6, 2, 1, 2]]
-INK, REGION = "#23262b", "#111111"
+INK, REGION, HOLDS = "#23262b", "#111111", "#e4f1e5"
 # the wash runs from cream (low) to pale teal (high): light enough to keep the
 # lines and their labels the map's main message
 WASH = ["#fbf6e9", "#a9cfcb"]
@@ -128,6 +129,21 @@ def _wash(alt, grid, value, value_title, x_title, y_title, n):
                  alt.Tooltip("v:Q", format=".4g", title=value_title)])
 
 
+def _placed_levels(lines: pd.DataFrame, grid: pd.DataFrame, marks, height: int,
+                   width: int | None) -> pd.DataFrame:
+    """Each level's value written on its line where it touches no other value
+    (``crowding.place_labels``; at most two places per level)."""
+    from .crowding import MIN_WIDTH, place_labels
+
+    texts = {k: _fmt(v) for k, v in lines.groupby("line", sort=False)["level"].first().items()}
+    frame = ((float(grid["x"].min()), float(grid["x"].max())),
+             (float(grid["y"].min()), float(grid["y"].max())))
+    placed = place_labels(lines, texts, frame, height=height,
+                          width=min(width or MIN_WIDTH, MIN_WIDTH), avoid=marks, per_text=2)
+    # a value with no room is left off (its neighbours say what it is): no key needed
+    return placed[placed["number"] == 0]
+
+
 def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_title: str,
                     x_title: str, y_title: str, marks: pd.DataFrame | None = None, *,
                     height: int = 420, width: int | None = None):
@@ -147,7 +163,7 @@ def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_t
         layers.append(alt.Chart(drawn).mark_line(color=INK, strokeWidth=1.4).encode(
             x=xs, y=ys, detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
             tooltip=[alt.Tooltip("level:Q", format=".4g", title=value_title)]))
-        labels = _label_points(drawn).assign(text=lambda t: t["level"].map(_fmt))
+        labels = _placed_levels(lines, grid, marks, height, width)
         base = alt.Chart(labels).encode(x=alt.X("x:Q"), y=alt.Y("y:Q"), text=alt.Text("text:N"))
         layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
                                   strokeOpacity=0.9),
@@ -157,18 +173,91 @@ def contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, value: str, value_t
     return chart.properties(width=width) if width else chart
 
 
+def limit_label_text(name: str, limit: str, level: float, labels: dict) -> str:
+    """What a limit's line says on the map: "Water activity <= 0.65 aw".
+
+    ``labels``: name -> (label, unit); a rule among factors shows its own text.
+    """
+    if limit == "rule":
+        return name
+    label, unit = labels.get(name, (name, ""))
+    sign = {"lower": "\u2265", "upper": "\u2264"}[limit]
+    return f"{label} {sign} {_fmt(level)}" + (f" {unit}" if unit else "")
+
+
+def limits_note(lmap, *, d_lines: bool = True) -> str:
+    """The sentence under a limits map, the same in the workbench and the report."""
+    share = lmap.share
+    where = ("Every limit holds all over this map." if share >= 1 else
+             "No setting on this map meets every limit." if share <= 0 else
+             f"The tinted area, outlined in dark grey, is where every limit (and every "
+             f"rule among factors) holds: {share:.0%} of this map.")
+    return ("Each line is one response's limit, in that response's colour and dash, "
+            "labelled with its value; short ticks point to the side where it fails. "
+            + where + (" Faint dotted lines: D, left out where they would crowd."
+                       if d_lines else ""))
+
+
+def limits_labels(lmap, labels: dict, marks: pd.DataFrame | None = None, *,
+                  height: int = 420, width: int | None = None) -> pd.DataFrame:
+    """Where each limit's label sits (``crowding.place_labels``): clear of the other
+    labels and the marks, inside the frame, numbered when there is no room."""
+    from .crowding import MIN_WIDTH, place_labels
+
+    lines = lmap.lines
+    if lines.empty:
+        return place_labels(lines, {}, ((0, 1), (0, 1)), height=height)
+    texts = {}
+    for key, part in lines.groupby("line", sort=False):
+        row = part.iloc[0]
+        texts[key] = limit_label_text(row["name"], row["limit"], row["level"], labels)
+    grid = lmap.grid
+    frame = ((float(grid["x"].min()), float(grid["x"].max())),
+             (float(grid["y"].min()), float(grid["y"].max())))
+    return place_labels(lines, texts, frame, height=height,
+                        width=min(width or MIN_WIDTH, MIN_WIDTH), avoid=marks)
+
+
+def _holds_fill(alt, grid: pd.DataFrame):
+    """A faint tint over the cells where every limit holds (every second or third
+    grid line, as for the wash)."""
+    xs_u = np.unique(grid["x"].to_numpy(float))
+    ys_u = np.unique(grid["y"].to_numpy(float))
+    xs_u, ys_u = xs_u[::-(-len(xs_u) // WASH_LINES)], ys_u[::-(-len(ys_u) // WASH_LINES)]
+    part = grid[np.isin(grid["x"].to_numpy(float), xs_u)
+                & np.isin(grid["y"].to_numpy(float), ys_u) & grid["holds"].astype(bool)]
+    if part.empty:
+        return None
+    dx = (xs_u[-1] - xs_u[0]) / max(len(xs_u) - 1, 1)
+    dy = (ys_u[-1] - ys_u[0]) / max(len(ys_u) - 1, 1)
+    cells = pd.DataFrame({"x1": (part["x"] - 0.55 * dx).clip(xs_u[0]),
+                          "x2": (part["x"] + 0.55 * dx).clip(upper=xs_u[-1]),
+                          "y1": (part["y"] - 0.55 * dy).clip(ys_u[0]),
+                          "y2": (part["y"] + 0.55 * dy).clip(upper=ys_u[-1])})
+    return alt.Chart(cells).mark_rect(color=HOLDS, opacity=1, stroke=None).encode(
+        x=alt.X("x1:Q"), x2=alt.X2("x2:Q"), y=alt.Y("y1:Q"), y2=alt.Y2("y2:Q"))
+
+
 def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
                    marks: pd.DataFrame | None = None, *, d_lines: pd.DataFrame | None = None,
-                   height: int = 420, width: int | None = None):
+                   labels: dict | None = None, height: int = 420, width: int | None = None):
     """Each limit as a labelled line in its response's colour, failing-side ticks,
-    the region where every limit holds outlined, D's lines faint behind.
+    the region where every limit holds tinted and outlined on top, D's lines
+    faint behind (thinned where they crowd).
 
-    ``lmap``: a ``LimitsMap``. ``titles``: response name -> short label.
-    ``d_lines``: optional contour lines of D drawn faintly for orientation.
+    ``lmap``: a ``LimitsMap``. ``titles``: response name -> its title (the
+    legend). ``labels``: response name -> (label, unit), for the text on the
+    lines (default: the titles, no unit). ``d_lines``: optional contour lines
+    of D drawn faintly for orientation. Labels are placed so their boxes touch
+    neither each other nor the marks (``limits_labels``); one with no room is
+    a number, explained under the map.
     """
     import altair as alt
 
+    from .crowding import MIN_WIDTH, thin_lines
+
     grid = lmap.grid
+    labels = labels or {n: (t, "") for n, t in titles.items()}
     xs, ys = _axes(alt, grid, x_title, y_title)
     lines = lmap.lines
     names = list(dict.fromkeys(lines["name"])) if not lines.empty else []
@@ -178,23 +267,28 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
     dashes = alt.Scale(domain=names or ["-"],
                        range=[LINE_DASHES[i % len(LINE_DASHES)] for i in
                               range(max(len(names), 1))])
+    frame_span = ((float(grid["x"].min()), float(grid["x"].max())),
+                  (float(grid["y"].min()), float(grid["y"].max())))
     # an invisible frame fixes the axes to the map's span
-    frame = alt.Chart(pd.DataFrame({"x": [grid["x"].min(), grid["x"].max()],
-                                    "y": [grid["y"].min(), grid["y"].max()]})).mark_point(
-        opacity=0).encode(x=xs, y=ys)
+    frame = alt.Chart(pd.DataFrame({"x": list(frame_span[0]), "y": list(frame_span[1])})
+                      ).mark_point(opacity=0).encode(x=xs, y=ys)
     layers = [frame]
+    if "holds" in grid and 0 < lmap.share < 1:
+        fill = _holds_fill(alt, grid)
+        if fill is not None:
+            layers.append(fill)
     if d_lines is not None and not d_lines.empty:
-        layers.append(alt.Chart(_order(d_lines)).mark_line(
+        thinned = thin_lines(d_lines, frame_span, height=height,
+                             width=min(width or MIN_WIDTH, MIN_WIDTH))
+        layers.append(alt.Chart(_order(thinned)).mark_line(
             color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
-            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
-    if not lmap.region.empty:
-        layers.append(alt.Chart(_order(lmap.region)).mark_line(
-            color=REGION, strokeWidth=4, opacity=0.55).encode(
-            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
+            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
+            tooltip=[alt.Tooltip("level:Q", format=".3g", title="D")]))
+    key = []
     if not lines.empty:
         drawn = _order(lines).assign(
             title=lambda t: [titles.get(nm, nm) for nm in t["name"]])
-        legend = alt.Legend(title=None, orient="bottom", columns=3, labelLimit=260,
+        legend = alt.Legend(title=None, orient="bottom", columns=2, labelLimit=230,
                             symbolStrokeWidth=2.5, labelExpr=titles_expr(titles))
         layers.append(alt.Chart(drawn).mark_line(strokeWidth=2).encode(
             x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
@@ -206,19 +300,29 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
             layers.append(alt.Chart(lmap.ticks).mark_rule(strokeWidth=1.4).encode(
                 x=alt.X("x:Q"), y=alt.Y("y:Q"), x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q"),
                 color=alt.Color("name:N", scale=colours, legend=None)))
-        sign = {"lower": "\u2265", "upper": "\u2264", "rule": ""}
-        labels = _label_points(drawn).assign(
-            text=lambda t: [f"{nm} {sign[lim]} {_fmt(lv)}" if lim != "rule" else nm
-                            for nm, lim, lv in zip(t["name"], t["limit"], t["level"])])
-        base = alt.Chart(labels).encode(x=alt.X("x:Q"), y=alt.Y("y:Q"), text=alt.Text("text:N"))
+    if not lmap.region.empty:  # on top of the limits it runs along, see-through
+        layers.append(alt.Chart(_order(lmap.region)).mark_line(
+            color=REGION, strokeWidth=3.5, opacity=0.45).encode(
+            x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
+    if not lines.empty:
+        placed = limits_labels(lmap, labels, marks, height=height, width=width)
+        placed = placed.merge(lines.drop_duplicates("line")[["line", "name"]], on="line")
+        key = [f"{n} = {t}" for n, t in zip(placed["number"], placed["label"]) if n]
+        base = alt.Chart(placed).encode(x=alt.X("x:Q"), y=alt.Y("y:Q"), text=alt.Text("text:N"),
+                                        tooltip=[alt.Tooltip("label:N", title="limit")])
         layers += [base.mark_text(fontSize=11, stroke="white", strokeWidth=4,
-                                  strokeOpacity=0.9),
+                                  strokeOpacity=0.9).properties(name="limit_label_halo"),
                    base.mark_text(fontSize=11, fontWeight="bold").encode(
-                       color=alt.Color("name:N", scale=colours, legend=None))]
+                       color=alt.Color("name:N", scale=colours, legend=None)
+                   ).properties(name="limit_labels")]
     layers += _marks_layer(alt, marks)
     chart = alt.layer(*layers).resolve_scale(color="independent", shape="independent",
                                              strokeDash="independent")
     chart = chart.properties(height=height)
+    if key:  # the labels with no room on the map, under it
+        chart = chart.properties(title=alt.TitleParams(
+            ["Numbered on the map:"] + key, orient="bottom", anchor="start", fontSize=11,
+            fontWeight="normal", color=INK, offset=8))
     return chart.properties(width=width) if width else chart
 
 

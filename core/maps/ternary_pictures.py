@@ -17,7 +17,7 @@ import pandas as pd
 
 from .contours import round_levels
 from .pictures import (INK, LINE_COLOURS, LINE_DASHES, REGION, WASH, _fmt, _label_points,
-                       _marks_layer, titles_expr)
+                       _marks_layer, _order, titles_expr)
 from .ternary import HEIGHT, from_plot, to_plot
 
 __all__ = ["ternary_axes", "ternary_contour_picture", "ternary_limits_picture"]
@@ -282,24 +282,30 @@ def ternary_contour_picture(grid: pd.DataFrame, lines: pd.DataFrame, axes: dict,
 
 def ternary_limits_picture(tlim, axes: dict, titles: dict,
                            marks: pd.DataFrame | None = None, *,
-                           d_lines: pd.DataFrame | None = None, width: int = 520):
+                           d_lines: pd.DataFrame | None = None, labels: dict | None = None,
+                           width: int = 520):
     """Each limit as a labelled line in its response's colour and dash, ticks on
-    its failing side, the blends where every limit holds outlined, D faint behind.
+    its failing side, the blends where every limit holds outlined on top, D faint
+    behind (thinned where its lines crowd).
 
-    ``tlim``: a ``TernaryLimits``; ``titles``: response name -> label.
+    ``tlim``: a ``TernaryLimits``; ``titles``: response name -> title (the
+    legend); ``labels``: name -> (label, unit) for the text on the lines
+    (default the titles). Labels are placed clear of each other and the marks;
+    one with no room is a number, explained under the triangle.
     """
     import altair as alt
 
     xs, ys, height = _scales(alt, width)
     X, Y = alt.X("x:Q", scale=xs, axis=None), alt.Y("y:Q", scale=ys, axis=None)
+    from .crowding import thin_lines
+
+    frame = ((-_LEFT, 1 + _RIGHT), (-_BOTTOM, HEIGHT + _TOP))
     layers = _frame_layers(alt, axes, xs, ys)
     if d_lines is not None and not d_lines.empty:
-        layers.append(alt.Chart(d_lines[["line", "i", "x", "y"]].round(4)).mark_line(
+        thinned = thin_lines(d_lines[["level", "line", "x", "y"]], frame, height=height,
+                             width=width)
+        layers.append(alt.Chart(_order(thinned).round(4)).mark_line(
             color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
-            x=X, y=Y, detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
-    if not tlim.region.empty:
-        layers.append(alt.Chart(tlim.region[["line", "i", "x", "y"]].round(4)).mark_line(
-            color=REGION, strokeWidth=4, opacity=0.55).encode(
             x=X, y=Y, detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
     layers += _outline(alt, tlim.bounds, X, Y)
     lines = tlim.lines
@@ -324,10 +330,61 @@ def ternary_limits_picture(tlim, axes: dict, titles: dict,
             layers.append(alt.Chart(tlim.ticks.round(4)).mark_rule(strokeWidth=1.4).encode(
                 x=X, y=Y, x2=alt.X2("x2:Q"), y2=alt.Y2("y2:Q"),
                 color=alt.Color("name:N", scale=colours, legend=None)))
-        sign = {"lower": "\u2265", "upper": "\u2264", "rule": ""}
-        layers += _labels(alt, runs, X, Y, lambda t: [
-            f"{nm} {sign[lim]} {_fmt(lv)}" if lim != "rule" else nm
-            for nm, lim, lv in zip(t["name"], t["limit"], t["level"])],
-            colour=alt.Color("name:N", scale=colours, legend=None), interior=True)
+    if not tlim.region.empty:  # on top of the limits it runs along, see-through
+        layers.append(alt.Chart(tlim.region[["line", "i", "x", "y"]].round(4)).mark_line(
+            color=REGION, strokeWidth=3.5, opacity=0.45).encode(
+            x=X, y=Y, detail=alt.Detail("line:N"), order=alt.Order("i:Q")))
+    key = []
+    if not lines.empty:
+        layers_, key = _limit_labels(alt, runs, X, Y, labels or {n: (t, "") for n, t in
+                                                             titles.items()},
+                                     _label_obstacles(axes, marks), frame, width, height,
+                                     alt.Color("name:N", scale=colours, legend=None))
+        layers += layers_
     layers += _marks(alt, marks, X, Y)
-    return _finish(alt, layers, width, height)
+    chart = _finish(alt, layers, width, height)
+    if key:  # the labels with no room on the map, under it
+        chart = chart.properties(title=alt.TitleParams(
+            ["Numbered on the map:"] + key, orient="bottom", anchor="start", fontSize=11,
+            fontWeight="normal", color=INK, offset=8))
+    return chart
+
+
+def _label_obstacles(axes: dict, marks: pd.DataFrame | None) -> pd.DataFrame:
+    """Points a limit's label must not cover: the marks and the scales' numbers."""
+    ticks = axes["ticks"]
+    parts = [ticks[["tx", "ty"]].set_axis(["x", "y"], axis=1)] if not ticks.empty else []
+    if marks is not None and not marks.empty:
+        parts.append(marks[["x", "y"]])
+    return pd.concat(parts, ignore_index=True) if parts else None
+
+
+def _limit_labels(alt, runs, X, Y, labels, marks, frame, width, height, colour):
+    """Each limit's label on a stretch inside the allowed blends, placed clear of the
+    other labels and the marks (``crowding.place_labels``); numbered when there is
+    no room, the key returned."""
+    from .crowding import place_labels
+    from .pictures import limit_label_text
+
+    inner = runs[runs["inside"].astype(bool)]
+    inner = inner[inner.groupby("run")["run"].transform("size") >= 4]
+    if inner.empty:
+        return [], []
+    texts = {k: limit_label_text(p["name"].iloc[0], p["limit"].iloc[0],
+                                 p["level"].iloc[0], labels)
+             for k, p in inner.groupby("run", sort=False)}
+    placed = place_labels(inner.rename(columns={"line": "polyline", "run": "line"}),
+                          texts, frame, height=height, width=width, avoid=marks)
+    if placed.empty:
+        return [], []
+    placed = placed.merge(inner.drop_duplicates("run")[["run", "name"]].rename(
+        columns={"run": "line"}), on="line")
+    key = [f"{n} = {t}" for n, t in zip(placed["number"], placed["label"]) if n]
+    base = alt.Chart(placed[["x", "y", "text", "label", "name"]].round(
+        {"x": 4, "y": 4})).encode(x=X, y=Y, text=alt.Text("text:N"),
+                                  tooltip=[alt.Tooltip("label:N", title="limit")])
+    return [base.mark_text(fontSize=11, stroke="white", strokeWidth=4, strokeOpacity=0.9
+                           ).properties(name="limit_label_halo"),
+            base.mark_text(fontSize=11, fontWeight="bold").encode(color=colour
+                                                                   ).properties(
+                name="limit_labels")], key

@@ -31,7 +31,7 @@ class _MapSections(_Sections):
         if self.res is None:
             return "<p>No maps: there is no recommendation to draw them around.</p>"
         from ..maps.contours import contour_lines, limits_map
-        from ..maps.pictures import contour_picture, limits_picture
+        from ..maps.pictures import contour_picture, limits_note, limits_picture
 
         best = self.res["best"]
         settings = best["settings"]
@@ -49,23 +49,21 @@ class _MapSections(_Sections):
             marks = pd.DataFrame({"what": [f"{best['label']} (recommended)"],
                                   "x": [settings[fx.name]], "y": [settings[fy.name]]})
             titles = {r.name: r.display() for r in self.study.responses}
+            labels = {r.name: (r.label, r.unit) for r in self.study.responses}
             held_text = ", ".join(f"{esc(k)} = {esc(self._setting(k, v))}"
                                   for k, v in held.items())
             out.append(f"<p>Over {esc(fx.display())} and {esc(fy.display())}, the other "
                        f"factors held at the recommendation ({held_text}).</p>")
             out.append('<div class="charts">')
             out.append(_chart_div(_svg(limits_picture(
-                lmap, titles, fx.display(), fy.display(), marks, height=360, width=430))))
+                lmap, titles, fx.display(), fy.display(), marks, d_lines=d_lines,
+                labels=labels, height=360, width=430))))
             out.append(_chart_div(_svg(contour_picture(
                 lmap.grid, d_lines, "D", "overall desirability D", fx.display(),
                 fy.display(), marks, height=360, width=430))))
             out.append("</div>")
-            out.append(f'<p class="note">Left: each line is one response\'s limit, in its '
-                       "colour and dash, with short ticks on the side where the limit fails; "
-                       "the thick grey outline surrounds the settings where every limit "
-                       f"holds ({lmap.share:.0%} of the map); faint dotted lines: D. Right: "
-                       "lines of equal overall desirability D, each labelled with its "
-                       "value.</p>")
+            out.append(f'<p class="note">Left: {esc(limits_note(lmap))} Right: lines of '
+                       "equal overall desirability D, each labelled with its value.</p>")
         else:
             out.append("<p>Maps need two numeric factors"
                        + (" besides the blend's components (mapped in the blend "

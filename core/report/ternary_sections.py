@@ -67,8 +67,10 @@ class _TernarySections(_Sections):
         axes = ternary_axes(tlim.lines.attrs,
                             {c.name: c.label for c in comps}, {c.name: c.unit for c in comps})
         titles = {r.name: r.display() for r in self.study.responses}
+        labels = {r.name: (r.label, r.unit) for r in self.study.responses}
         charts = [_chart_div(_svg(ternary_limits_picture(tlim, axes, titles, marks,
-                                                         d_lines=d_lines, width=420)))]
+                                                         d_lines=d_lines, labels=labels,
+                                                         width=420)))]
         if has_d:
             # the wash on a coarser grid than the lines: a fifth of the page's bytes
             from ..maps.mixture_tables import ternary_grid

@@ -6,6 +6,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
+from tradeoff.maps.pictures import limits_note
 from tradeoff.search.chance import CHANCE_RULE, chance_text
 from tradeoff_ui import cached, charts, panels, text, triangle
 from tradeoff_ui.shown import num, span
@@ -163,12 +164,9 @@ else:
         if shown_value == "limits":
             titles = {r.name: r.display() for r in study.responses}
             charts.show(charts.limits_chart, lmap, titles, fx.display(), fy.display(),
-                        marks, d_lines, width="stretch")
-            st.caption(f"Held at {held_text}. Each line is one response's limit, in that "
-                       "response's colour and dash, with short ticks on the side where the "
-                       "limit fails. The thick grey outline surrounds the settings where "
-                       f"every limit (and every rule among factors) holds: "
-                       f"{lmap.share:.0%} of this map. Faint dotted lines: D.")
+                        marks, d_lines, {r.name: (r.label, r.unit) for r in study.responses},
+                        width="stretch")
+            st.caption(f"Held at {held_text}. {limits_note(lmap)}")
         else:
             title = "D" if shown_value == "D" else charts.titled(
                 study.response(shown_value).label, study.response(shown_value).unit)
