@@ -19,7 +19,7 @@ from tradeoff.maps.chart_data import use_records
 
 __all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart",
            "interaction_chart", "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
-           "slice_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
+           "trace_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
            "length_scale_chart", "loo_chart"]
 
 SCHEME = "viridis"
@@ -195,11 +195,12 @@ def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataF
                                     d_lines=d_lines, labels=labels, height=420))
 
 
-def slice_chart(part: pd.DataFrame, title: str, x_title: str):
-    """One response (or D) along one factor with its band, limits and the setting."""
-    from tradeoff.maps.pictures import slice_panel
+def trace_chart(table: pd.DataFrame, response: str, title: str, factor_titles: dict):
+    """One response's (or D's) trace chart: every factor a line on the shared coded
+    axis, a ring at the chosen settings (``tradeoff.maps.trace_picture``)."""
+    from tradeoff.maps.trace_picture import trace_picture
 
-    return fit_width(slice_panel(part, title, x_title, height=140))
+    return fit_width(trace_picture(table, response, title, factor_titles, height=220))
 
 
 def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart:

@@ -1,4 +1,4 @@
-"""Altair drawings of the maps and slices, shared by the workbench and the report.
+"""Altair drawings of the maps, shared by the workbench and the report.
 
 Drawing only: every number comes from the tidy tables of
 ``tradeoff.maps.contours`` and ``tradeoff.maps.slices``. The look is our
@@ -16,7 +16,7 @@ import pandas as pd
 
 __all__ = ["LINE_COLOURS", "LINE_DASHES", "titles_expr", "contour_picture", "limits_picture",
            "limits_labels", "limit_label_text", "limits_note",
-           "slice_panel", "slices_picture", "interaction_picture", "arrhenius_picture"]
+           "interaction_picture", "arrhenius_picture"]
 
 # One colour and one dash pattern per response, so lines part in grey print too.
 LINE_COLOURS = ["#1b6f8a", "#b5651d", "#6a3d9a", "#2e7d4f", "#a8322d", "#4f5b66",
@@ -324,122 +324,6 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
             ["Numbered on the map:"] + key, orient="bottom", anchor="start", fontSize=11,
             fontWeight="normal", color=INK, offset=8))
     return chart.properties(width=width) if width else chart
-
-
-def slice_panel(part: pd.DataFrame, title: str, x_title: str, *, height: int = 150,
-                width: int | None = None, show_x_title: bool = True):
-    """One response (or D) along one factor: band, line, limits, current setting.
-
-    ``part``: rows of ``slices`` for one factor and one response.
-    """
-    import altair as alt
-
-    categorical = part["value"].isna().all()
-    x_field = "level:N" if categorical else "value:Q"
-    # levels in the study's order, not the alphabet's
-    x_enc = (alt.X("level:N", title=x_title if show_x_title else None,
-                   sort=list(dict.fromkeys(part["level"])),
-                   axis=alt.Axis(labelAngle=0)) if categorical else
-             alt.X("value:Q", title=x_title if show_x_title else None,
-                   scale=alt.Scale(zero=False, nice=False)))
-    y_title = None  # the panel's title names it: long names would not fit upright
-    layers = []
-    has_band = part["pi_low"].notna().any()
-    if has_band:
-        if categorical:
-            layers.append(alt.Chart(part).mark_rule(strokeWidth=2, color="#9aa3ad").encode(
-                x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
-                y2=alt.Y2("pi_high:Q")))
-        else:
-            layers.append(alt.Chart(part).mark_area(opacity=0.22, color=LINE_COLOURS[0]
-                                                    ).encode(
-                x=x_enc, y=alt.Y("pi_low:Q", title=y_title, scale=alt.Scale(zero=False)),
-                y2=alt.Y2("pi_high:Q")))
-    y_enc = alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False))
-    mark = (alt.Chart(part).mark_point(filled=True, size=70, color=INK) if categorical else
-            alt.Chart(part).mark_line(color=INK, strokeWidth=2))
-    tip = [alt.Tooltip(x_field, title=x_title),
-           alt.Tooltip("predicted:Q", format=".4g", title="predicted")]
-    if has_band:
-        tip += [alt.Tooltip("pi_low:Q", format=".4g", title="one batch from"),
-                alt.Tooltip("pi_high:Q", format=".4g", title="one batch to")]
-    layers.append(mark.encode(x=x_enc, y=y_enc, tooltip=tip))
-    limit_rows = []
-    for col, name in (("lower_limit", "lower limit"), ("upper_limit", "upper limit")):
-        v = part[col].dropna()
-        if len(v):
-            limit_rows.append({"limit": name, "at": float(v.iloc[0])})
-    if limit_rows:
-        layers.append(alt.Chart(pd.DataFrame(limit_rows)).mark_rule(
-            strokeDash=[5, 3], color=LINE_COLOURS[4], strokeWidth=1.5).encode(
-            y=alt.Y("at:Q"), tooltip=[alt.Tooltip("limit:N"), alt.Tooltip("at:Q", format=".4g")]))
-    now = part[part["current"]]
-    if len(now):
-        if categorical:
-            layers.append(alt.Chart(now).mark_point(shape="diamond", size=160, filled=True,
-                                                    color=LINE_COLOURS[1]).encode(
-                x=x_enc, y=alt.Y("predicted:Q")))
-        else:
-            layers.append(alt.Chart(now).mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5
-                                                   ).encode(x=alt.X("value:Q")))
-    chart = alt.layer(*layers).properties(
-        height=height, title=alt.TitleParams(title, anchor="start", fontSize=12,
-                                             fontWeight="normal", limit=0))
-    return chart.properties(width=width) if width else chart
-
-
-def slices_picture(table: pd.DataFrame, factor: str, titles: dict, x_title: str, *,
-                   width: int = 300, height: int = 110):
-    """Every response (and D) along one factor, one panel under another (static pages).
-
-    One faceted chart, a panel per response with its own vertical scale: the
-    same drawing as a stack of ``slice_panel`` charts, but one specification,
-    which builds and renders several times faster than a stack of six.
-    """
-    import altair as alt
-
-    part = table[(table["factor"] == factor) & table["response"].isin(list(titles))]
-    order = [titles[n] for n in titles if (part["response"] == n).any()]
-    data = part.assign(title=[titles[n] for n in part["response"]])
-    categorical = part["value"].isna().all()
-    x_field = "level:N" if categorical else "value:Q"
-    x_enc = (alt.X("level:N", title=x_title, sort=list(dict.fromkeys(part["level"])),
-                   axis=alt.Axis(labelAngle=0)) if categorical
-             else alt.X("value:Q", title=x_title, scale=alt.Scale(zero=False, nice=False)))
-    y_scale = alt.Scale(zero=False)
-    layers = []
-    if part["pi_low"].notna().any():
-        band = (alt.Chart().mark_rule(strokeWidth=2, color="#9aa3ad") if categorical else
-                alt.Chart().mark_area(opacity=0.22, color=LINE_COLOURS[0]))
-        layers.append(band.encode(x=x_enc, y=alt.Y("pi_low:Q", title=None, scale=y_scale),
-                                  y2=alt.Y2("pi_high:Q")))
-    mark = (alt.Chart().mark_point(filled=True, size=70, color=INK) if categorical else
-            alt.Chart().mark_line(color=INK, strokeWidth=2))
-    layers.append(mark.encode(
-        x=x_enc, y=alt.Y("predicted:Q", title=None, scale=y_scale),
-        tooltip=[alt.Tooltip(x_field, title=x_title),
-                 alt.Tooltip("predicted:Q", format=".4g", title="predicted"),
-                 alt.Tooltip("pi_low:Q", format=".4g", title="one batch from"),
-                 alt.Tooltip("pi_high:Q", format=".4g", title="one batch to")]))
-    # one row per panel carries the limits and the held setting
-    held = alt.Chart().transform_filter(alt.datum.current)
-    for column in ("lower_limit", "upper_limit"):
-        if part[column].notna().any():
-            layers.append(held.mark_rule(strokeDash=[5, 3], color=LINE_COLOURS[4],
-                                         strokeWidth=1.5).encode(
-                y=alt.Y(f"{column}:Q", title=None, scale=y_scale)))
-    if categorical:
-        layers.append(held.mark_point(shape="diamond", size=160, filled=True,
-                                      color=LINE_COLOURS[1]).encode(
-            x=x_enc, y=alt.Y("predicted:Q", title=None, scale=y_scale)))
-    else:
-        layers.append(held.mark_rule(color=LINE_COLOURS[1], strokeWidth=1.5).encode(
-            x=alt.X("value:Q")))
-    header = alt.Header(labelOrient="top", labelAnchor="start", labelAngle=0,
-                        labelAlign="left", labelFontSize=12, labelLimit=0, labelPadding=4)
-    return alt.layer(*layers, data=data, width=width, height=height).facet(
-        row=alt.Row("title:N", sort=order, title=None, header=header), spacing=10
-    ).resolve_scale(y="independent")
 
 
 def interaction_picture(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,

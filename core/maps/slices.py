@@ -21,8 +21,20 @@ from ..study.coding import code_values, level_codes
 
 __all__ = ["slices", "model_interaction"]
 
-SLICE_COLUMNS = ["factor", "value", "level", "response", "predicted", "pi_low", "pi_high",
-                 "lower_limit", "upper_limit", "current"]
+SLICE_COLUMNS = ["factor", "value", "level", "coded", "shift", "response", "predicted",
+                 "pi_low", "pi_high", "lower_limit", "upper_limit", "current"]
+
+
+def _shared_axis(f, values: np.ndarray, levels: np.ndarray) -> np.ndarray:
+    """Where each point sits on an axis every factor shares: -1 at the low end of
+    the factor's range, +1 at the high end (coded units, common practice); a
+    blend component over its own range of amounts; the levels of a categorical
+    factor spread evenly from -1 to +1 in the study's order."""
+    if f.is_categorical:
+        position = {lv: i for i, lv in enumerate(f.levels)}
+        n = max(len(f.levels) - 1, 1)
+        return np.array([-1.0 + 2.0 * position[lv] / n for lv in levels])
+    return 2.0 * (np.asarray(values, dtype=float) - f.low) / (f.high - f.low) - 1.0
 
 
 def _fitted(study, fit):
@@ -83,7 +95,11 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
     pandas.DataFrame
         Columns ``factor``; ``value`` (natural setting along a numeric factor,
         NaN for a categorical one); ``level`` (the level name along a
-        categorical factor, empty otherwise); ``response`` (a modelled
+        categorical factor, empty otherwise); ``coded`` (the point on an axis
+        every factor shares: -1 at the low end of its range, +1 at the high
+        end; the levels of a categorical factor evenly from -1 to +1);
+        ``shift`` (``coded`` minus its value at the held setting: the response
+        trace plot's axis, 0 at the held point); ``response`` (a modelled
         response, or ``"D"``); ``predicted``; ``pi_low`` and ``pi_high`` (the
         prediction interval of one new batch at the study's confidence; NaN
         for D and without an error estimate); ``lower_limit`` and
@@ -138,6 +154,12 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
         meta.append((f.name, values, levels, current))
     X = np.vstack(blocks)
     sizes = [len(m[1]) for m in meta]
+    coded_parts = [_shared_axis(study.factor(m[0]), m[1], m[2]) for m in meta]
+    # the response trace plot's axis: each factor's move away from the held
+    # setting, so every trace passes through the held point at 0
+    shift_col = np.concatenate([c - c[m[3]][0] if m[3].any() else np.full(len(c), np.nan)
+                                for m, c in zip(meta, coded_parts)])
+    coded_col = np.concatenate(coded_parts)
     factor_col = np.repeat([m[0] for m in meta], sizes)
     value_col = np.concatenate([m[1] for m in meta])
     level_col = np.concatenate([m[2] for m in meta])
@@ -151,7 +173,7 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
         lo, hi = limits(r.goal) if r.goal.active else (np.nan, np.nan)
         frames.append(pd.DataFrame({
             "factor": factor_col, "value": value_col, "level": level_col,
-            "response": r.name, "predicted": table["predicted"].to_numpy(),
+            "coded": coded_col, "shift": shift_col, "response": r.name, "predicted": table["predicted"].to_numpy(),
             "pi_low": table["pi_low"].to_numpy(), "pi_high": table["pi_high"].to_numpy(),
             "lower_limit": lo if np.isfinite(lo) else np.nan,
             "upper_limit": hi if np.isfinite(hi) else np.nan,
@@ -159,7 +181,8 @@ def slices(study, settings: dict, *, fit=None, n: int = 41) -> pd.DataFrame:
     if goal_columns(study, fit):
         D = overall_desirability(study, fit, X)[0]
         frames.append(pd.DataFrame({
-            "factor": factor_col, "value": value_col, "level": level_col, "response": "D",
+            "factor": factor_col, "value": value_col, "level": level_col,
+            "coded": coded_col, "shift": shift_col, "response": "D",
             "predicted": D, "pi_low": np.nan, "pi_high": np.nan, "lower_limit": np.nan,
             "upper_limit": np.nan, "current": current_col}))
     if not frames:

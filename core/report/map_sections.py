@@ -1,10 +1,10 @@
 """The page's maps: the limits map and D's contour lines around the recommendation,
-slices through it along each factor, and the model's interaction charts.
+a trace chart per response through it, and the model's interaction charts.
 
 Everything is drawn from the tidy tables of ``contours`` and ``slices`` by the
 drawings of ``pictures``, rendered to inline SVG (no browser, no network).
 Only what the page shows is computed: one pair of maps over the first two
-numeric factors, one slice chart per factor, and for each response its
+numeric factors, one trace chart per response (and D), and for each response its
 largest clear interaction.
 """
 from __future__ import annotations
@@ -74,8 +74,8 @@ class _MapSections(_Sections):
         return "".join(out)
 
     def _slices(self, settings: dict, label: str) -> str:
-        from ..maps.pictures import slices_picture
         from ..maps.slices import slices
+        from ..maps.trace_picture import trace_note, traces_picture
 
         table = slices(self.study, settings, fit=self._study_fit(), n=31)
         if table.empty:
@@ -83,24 +83,14 @@ class _MapSections(_Sections):
         titles = {r.name: r.display() for r in self.study.responses
                   if r.name in self.data["fitted"]}
         if (table["response"] == "D").any():
-            titles["D"] = "overall desirability D"
-        charts = [_chart_div(_svg(slices_picture(table, f.name, titles, f.display(),
-                                                  width=190, height=70)))
-                  for f in self.study.factors]
-        return (f"<h3>Along each factor, through {esc(label)}</h3>"
-                f"<p class='note'>One factor moves across its searched range while the "
-                f"others stay at {esc(label)}"
-                + ("; a blend component moves with the other components keeping their "
-                   "ratios to each other, so the blend still adds up"
-                   if any(getattr(f, "is_component", False) for f in self.study.factors)
-                   else "") + ". Band: where one new batch is expected "
-                f"({self.pct} prediction interval); dashed lines: the limits; the upright "
-                "line marks the recommended setting"
-                + ("; along a categorical factor, one point per level with that interval as "
-                   "a bar, the diamond at the recommended level"
-                   if any(f.is_categorical for f in self.study.factors) else "")
-                + ".</p>"
-                '<div class="charts">' + "".join(charts) + "</div>")
+            titles["D"] = "Overall desirability D"
+        chart = traces_picture(table, titles, {f.name: f.label for f in self.study.factors},
+                               columns=3, width=230, height=150)
+        if chart is None:
+            return ""
+        return (f"<h3>How each response follows each factor, through {esc(label)}</h3>"
+                f"<p class='note'>{esc(trace_note(self.study, label))}</p>"
+                + _chart_div(_svg(chart)))
 
     def interaction_chart(self, name: str, rep: dict, alpha: float) -> str:
         """The model's chart of a response's largest clear two-factor interaction."""

@@ -134,3 +134,47 @@ def test_a_blend_components_slice_keeps_the_others_ratios():
                          "hydrocolloid": levels})
     expected = fit.models["specific_volume"].predict(to_coded(study.factors, held))
     np.testing.assert_allclose(part["predicted"], expected, rtol=1e-10)
+
+
+def test_trace_axis_is_the_move_in_coded_units_and_every_trace_meets_at_zero(tire):
+    # The response trace plot (Cornell (2002), Experiments with Mixtures, sec. 5.8;
+    # Myers, Montgomery & Anderson-Cook (2016), Response Surface Methodology, 4th ed.,
+    # the mixture chapters; from memory): every factor's trace is drawn against its
+    # move away from a reference point, so all traces cross at the reference.
+    study, fit = tire
+    table = slices(study, SETTINGS, fit=fit, n=11)
+    for f in study.factors:
+        part = table[(table["factor"] == f.name) & (table["response"] == "y1")]
+        half = (f.high - f.low) / 2
+        centre = (f.high + f.low) / 2
+        # coded units: (x - centre) / half-range (common practice)
+        np.testing.assert_allclose(part["coded"], (part["value"] - centre) / half)
+        np.testing.assert_allclose(part["shift"], (part["value"] - SETTINGS[f.name]) / half)
+        # along the trace, the prediction is statsmodels' at the moved setting
+        moved = pd.DataFrame({**{g: SETTINGS[g] for g in SETTINGS},
+                              f.name: part["value"].to_numpy()})
+        np.testing.assert_allclose(part["predicted"], _ols("y1").predict(moved))
+    at_zero = table[table["shift"] == 0.0]
+    for response, part in at_zero.groupby("response"):
+        assert len(part) == len(study.factors)  # one per factor, all at the held point
+        assert part["predicted"].nunique() == 1 or np.ptp(part["predicted"]) < 1e-9
+        assert part["current"].all()
+
+
+def test_trace_axis_of_a_blend_component_spans_its_own_range():
+    study = load_study(Path(__file__).resolve().parents[2] / "demo_data" / "flour_blend.toml")
+    fit = fit_study(study)
+    at = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0,
+          "bake_temp": 205.0, "hydrocolloid": "xanthan"}
+    table = slices(study, at, fit=fit, n=9)
+    for name in ("rice_flour", "sorghum_flour", "tapioca_starch"):
+        f = study.factor(name)
+        part = table[(table["factor"] == name) & (table["response"] == "D")]
+        # -1 at the component's least amount, +1 at its most (its own range)
+        assert part["coded"].min() == pytest.approx(-1) and part["coded"].max() == pytest.approx(1)
+        np.testing.assert_allclose(part["shift"], 2 * (part["value"] - at[name])
+                                   / (f.high - f.low))
+    # three levels spread evenly over -1 .. +1, in the study's order
+    part = table[(table["factor"] == "hydrocolloid") & (table["response"] == "D")]
+    assert list(part["coded"]) == [-1.0, 0.0, 1.0]
+    assert part.loc[part["current"], "shift"].tolist() == [0.0]

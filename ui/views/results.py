@@ -7,6 +7,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff.maps.pictures import limits_note
+from tradeoff.maps.trace_picture import trace_note
 from tradeoff.search.chance import CHANCE_RULE, chance_text
 from tradeoff_ui import cached, charts, panels, text, triangle
 from tradeoff_ui.shown import num, span
@@ -180,31 +181,22 @@ else:
 # -- blend triangle (studies with components) --------------------------------------------
 triangle.blend_triangle(study, fitted, best, chosen)
 
-# -- slices -------------------------------------------------------------------------------
-st.subheader("Along each factor")
-st.caption(f"One factor moves across its searched range; every other factor stays at "
-           f"{text.plain(chosen.label)}"
-           + ("; a blend component moves with the other components keeping their ratios "
-              "to each other, so the blend still adds up"
-              if any(getattr(f, "is_component", False) for f in study.factors) else "")
-           + f". Band: where one new batch is expected ({pct} prediction "
-           "interval); dashed lines: the limits; the upright line marks the current setting.")
+# -- traces -------------------------------------------------------------------------------
+st.subheader("How each response follows each factor")
+st.caption(text.plain(trace_note(study, chosen.label)))
 try:
     along = cached.slices(study, fitted, chosen.settings)
 except TradeoffError as exc:
     st.error(text.plain(exc))
 else:
-    factor = st.selectbox("Factor", study.factor_names, key="r_slice_factor",
-                          format_func=lambda n: study.factor(n).display())
-    part = along[along["factor"] == factor]
-    names = list(dict.fromkeys(part["response"]))
-    cols = st.columns(3)
+    factor_titles = {f.name: f.label for f in study.factors}
+    names = list(dict.fromkeys(along["response"]))
+    cols = st.columns(2)
     for i, name in enumerate(names):
-        title = ("overall desirability D" if name == "D" else
+        title = ("Overall desirability D" if name == "D" else
                  study.response(name).display())
-        charts.show(charts.slice_chart, part[part["response"] == name], title,
-                    study.factor(factor).display(),
-                    where=cols[i % 3], width="stretch")
+        charts.show(charts.trace_chart, along, name, title, factor_titles,
+                    where=cols[i % 2], width="stretch")
 
 # -- what-if ------------------------------------------------------------------------------
 st.subheader("What if I make it like this?")
