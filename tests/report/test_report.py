@@ -72,14 +72,16 @@ def test_demo_page_has_every_section(demo):
         assert caution in page
     assert "does not replace a shelf-life study" in page
     # one curve per goal (5 responses + protein); the maps: the limits map and D's
-    # lines, one slice chart per factor (4); per modelled response its effects and,
+    # lines, and the trace charts (one drawing, a chart per response and D); per
+    # modelled response its effects and,
     # when it has a clear two-factor interaction, the model's interaction chart
     def section(key):
         start = page.index(f'<section id="{key}">')
         return page[start:page.index("</section>", start)]
 
     assert section("targets").count("<svg") == 6
-    assert section("maps").count("<svg") == 2 + 4
+    assert section("maps").count("<svg") == 2 + 1
+    assert section("maps").count("How each response follows each factor") == 1
     models = section("models")
     clear = models.count("Largest clear interaction")
     assert models.count("<svg") == 5 + clear and clear >= 1
