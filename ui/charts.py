@@ -27,6 +27,8 @@ DARK, LIGHT, MID = "#440154", "#fde725", "#21918c"  # viridis ends and middle
 SIGN_COLOURS = alt.Scale(domain=["raises", "lowers"], range=[MID, DARK])
 
 
+# The limits map's plotting area (px): fits beside the sidebar on a 1280 px screen.
+LIMITS_SIZE = (600, 420)
 # Height of one bar in bar charts: 3 bars need at least 60 px of plotting area.
 BAR_STEP = 22
 _ALTAIR_GLOBALS = threading.Lock()
@@ -102,8 +104,14 @@ def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> al
         y=alt.Y("quantile:Q", title="Half-normal quantile"))
     dots = base.mark_circle(size=70, color=DARK).encode(
         tooltip=[alt.Tooltip("term"), alt.Tooltip("effect:Q", format=".4g")])
-    text = base.mark_text(align="left", dx=6).encode(text=alt.Text("label:N"))
-    return fit_width(alt.layer(dots, text).properties(height=320))
+    # names of the largest effects go to the left of their dots: on the right they
+    # would run out of the chart
+    far = data["abs_effect"] > 0.6 * data["abs_effect"].max()
+    text_left = alt.Chart(data[~far]).mark_text(align="left", dx=6).encode(
+        x=alt.X("abs_effect:Q"), y=alt.Y("quantile:Q"), text=alt.Text("label:N"))
+    text_right = alt.Chart(data[far]).mark_text(align="right", dx=-6).encode(
+        x=alt.X("abs_effect:Q"), y=alt.Y("quantile:Q"), text=alt.Text("label:N"))
+    return fit_width(alt.layer(dots, text_left, text_right).properties(height=320))
 
 
 def interaction_chart(cells: pd.DataFrame, model: pd.DataFrame, a_title: str,
@@ -191,8 +199,10 @@ def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataF
     ``tradeoff.maps.pictures.limits_picture``)."""
     from tradeoff.maps.pictures import limits_picture
 
-    return fit_width(limits_picture(lmap, titles, x_title, y_title, marks,
-                                    d_lines=d_lines, labels=labels, height=420))
+    # a fixed size: the labels are placed in the map's own pixels (they keep
+    # clear of each other at any size, but sit closest to their lines at this one)
+    return limits_picture(lmap, titles, x_title, y_title, marks, d_lines=d_lines,
+                          labels=labels, height=LIMITS_SIZE[1], width=LIMITS_SIZE[0])
 
 
 def trace_chart(table: pd.DataFrame, response: str, title: str, factor_titles: dict):

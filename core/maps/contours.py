@@ -237,8 +237,10 @@ class LimitsMap:
         Share of the map's grid points where everything holds (0 .. 1).
     grid : pandas.DataFrame
         The grid behind the map: columns ``x``, ``y`` (natural settings),
-        ``D`` (overall desirability; NaN when no goal is set) and ``holds``
-        (True where every limit and rule holds).
+        ``D`` (overall desirability; NaN when no goal is set), ``holds``
+        (True where every limit and rule holds) and ``margin`` (the smallest
+        slack, each scaled by its spread over the map: >= 0 where all hold;
+        its zero line is the region's outline).
     """
 
     lines: pd.DataFrame
@@ -361,10 +363,10 @@ def limits_map(study, x: str, y: str, *, fixed: dict | None = None, fit=None,
         region = (_tidy(_trace(xs, ys, margin.reshape(n, n), [0.0]))
                   if 0 < share < 1 else _tidy([]))
         region = region[["line", "x", "y"]]
-        grid["holds"] = inside
+        grid["holds"], grid["margin"] = inside, margin
     else:
         share, region = 1.0, _tidy([])[["line", "x", "y"]]
-        grid["holds"] = True
+        grid["holds"], grid["margin"] = True, np.inf
     return LimitsMap(lines=lines, ticks=ticks, region=region, share=share, grid=grid)
 
 

@@ -36,8 +36,10 @@ def effects_picture(estimates: pd.DataFrame, x_title: str, *, width: int | None 
     present = [v for v in VERDICTS if (data["verdict"] == v).any()]
     fill = alt.Fill("verdict:N", scale=alt.Scale(domain=present,
                                                  range=[_FILL[v] for v in present]),
-                    legend=alt.Legend(title=None, orient="bottom", symbolStrokeColor=INK,
-                                      symbolStrokeWidth=1.5, labelLimit=300))
+                    # one entry a row: the chart may sit in a narrow column
+                    legend=alt.Legend(title=None, orient="bottom", direction="vertical",
+                                      symbolStrokeColor=INK, symbolStrokeWidth=1.5,
+                                      labelLimit=300))
     tips = [alt.Tooltip("term:N"), alt.Tooltip("effect:Q", format=".4g"),
             alt.Tooltip("alone_low:Q", format=".4g", title="alone, from"),
             alt.Tooltip("alone_high:Q", format=".4g", title="alone, to"),

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 __all__ = ["LINE_COLOURS", "LINE_DASHES", "titles_expr", "contour_picture", "limits_picture",
-           "limits_labels", "limit_label_text", "limits_note",
+           "limits_labels", "limit_label_text", "limits_note", "holds_strips",
            "interaction_picture", "arrhenius_picture"]
 
 # One colour and one dash pattern per response, so lines part in grey print too.
@@ -138,8 +138,8 @@ def _placed_levels(lines: pd.DataFrame, grid: pd.DataFrame, marks, height: int,
     texts = {k: _fmt(v) for k, v in lines.groupby("line", sort=False)["level"].first().items()}
     frame = ((float(grid["x"].min()), float(grid["x"].max())),
              (float(grid["y"].min()), float(grid["y"].max())))
-    placed = place_labels(lines, texts, frame, height=height,
-                          width=min(width or MIN_WIDTH, MIN_WIDTH), avoid=marks, per_text=2)
+    placed = place_labels(lines, texts, frame, height=height, width=width or MIN_WIDTH,
+                          avoid=marks, per_text=2)
     # a value with no room is left off (its neighbours say what it is): no key needed
     return placed[placed["number"] == 0]
 
@@ -214,27 +214,43 @@ def limits_labels(lmap, labels: dict, marks: pd.DataFrame | None = None, *,
     grid = lmap.grid
     frame = ((float(grid["x"].min()), float(grid["x"].max())),
              (float(grid["y"].min()), float(grid["y"].max())))
-    return place_labels(lines, texts, frame, height=height,
-                        width=min(width or MIN_WIDTH, MIN_WIDTH), avoid=marks)
+    return place_labels(lines, texts, frame, height=height, width=width or MIN_WIDTH,
+                        avoid=marks)
+
+
+def holds_strips(grid: pd.DataFrame) -> pd.DataFrame:
+    """The region where every limit holds as horizontal strips, one per stretch of a
+    grid row inside it: the row's height, its ends where the margin crosses zero
+    (linear between grid points, as the outline's tracer does).
+
+    Columns ``x1``, ``x2``, ``y1``, ``y2``. A few strips per row draw the tint
+    a cell per grid point would need thousands of marks for.
+    """
+    xs = np.unique(grid["x"].to_numpy(float))
+    ys = np.unique(grid["y"].to_numpy(float))
+    dy = (ys[-1] - ys[0]) / max(len(ys) - 1, 1)
+    table = grid.sort_values(["y", "x"])
+    margin = table["margin"].to_numpy(float).reshape(len(ys), len(xs))
+    rows = []
+    for r, y in enumerate(ys):
+        m = margin[r]
+        inside = m >= 0
+        edges = np.flatnonzero(np.diff(np.concatenate([[0], inside.astype(int), [0]])))
+        for a, b in zip(edges[::2], edges[1::2]):  # grid points a .. b-1 inside
+            x1 = xs[a] if a == 0 else xs[a - 1] + (xs[a] - xs[a - 1]) * (
+                -m[a - 1] / (m[a] - m[a - 1]))
+            x2 = xs[b - 1] if b == len(xs) else xs[b - 1] + (xs[b] - xs[b - 1]) * (
+                m[b - 1] / (m[b - 1] - m[b]))
+            rows.append((x1, x2, max(y - dy / 2, ys[0]), min(y + dy / 2, ys[-1])))
+    return pd.DataFrame(rows, columns=["x1", "x2", "y1", "y2"])
 
 
 def _holds_fill(alt, grid: pd.DataFrame):
-    """A faint tint over the cells where every limit holds (every second or third
-    grid line, as for the wash)."""
-    xs_u = np.unique(grid["x"].to_numpy(float))
-    ys_u = np.unique(grid["y"].to_numpy(float))
-    xs_u, ys_u = xs_u[::-(-len(xs_u) // WASH_LINES)], ys_u[::-(-len(ys_u) // WASH_LINES)]
-    part = grid[np.isin(grid["x"].to_numpy(float), xs_u)
-                & np.isin(grid["y"].to_numpy(float), ys_u) & grid["holds"].astype(bool)]
-    if part.empty:
+    """A faint tint over the region where every limit holds."""
+    strips = holds_strips(grid)
+    if strips.empty:
         return None
-    dx = (xs_u[-1] - xs_u[0]) / max(len(xs_u) - 1, 1)
-    dy = (ys_u[-1] - ys_u[0]) / max(len(ys_u) - 1, 1)
-    cells = pd.DataFrame({"x1": (part["x"] - 0.55 * dx).clip(xs_u[0]),
-                          "x2": (part["x"] + 0.55 * dx).clip(upper=xs_u[-1]),
-                          "y1": (part["y"] - 0.55 * dy).clip(ys_u[0]),
-                          "y2": (part["y"] + 0.55 * dy).clip(upper=ys_u[-1])})
-    return alt.Chart(cells).mark_rect(color=HOLDS, opacity=1, stroke=None).encode(
+    return alt.Chart(strips).mark_rect(color=HOLDS, opacity=1, stroke=None).encode(
         x=alt.X("x1:Q"), x2=alt.X2("x2:Q"), y=alt.Y("y1:Q"), y2=alt.Y2("y2:Q"))
 
 
@@ -273,13 +289,12 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
     frame = alt.Chart(pd.DataFrame({"x": list(frame_span[0]), "y": list(frame_span[1])})
                       ).mark_point(opacity=0).encode(x=xs, y=ys)
     layers = [frame]
-    if "holds" in grid and 0 < lmap.share < 1:
+    if "margin" in grid and 0 < lmap.share < 1:
         fill = _holds_fill(alt, grid)
         if fill is not None:
             layers.append(fill)
     if d_lines is not None and not d_lines.empty:
-        thinned = thin_lines(d_lines, frame_span, height=height,
-                             width=min(width or MIN_WIDTH, MIN_WIDTH))
+        thinned = thin_lines(d_lines, frame_span, height=height, width=width or MIN_WIDTH)
         layers.append(alt.Chart(_order(thinned)).mark_line(
             color="#9aa3ad", strokeWidth=0.8, strokeDash=[2, 3]).encode(
             x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),
@@ -288,7 +303,9 @@ def limits_picture(lmap, titles: dict, x_title: str, y_title: str,
     if not lines.empty:
         drawn = _order(lines).assign(
             title=lambda t: [titles.get(nm, nm) for nm in t["name"]])
-        legend = alt.Legend(title=None, orient="bottom", columns=2, labelLimit=230,
+        # one response a row: long titles stay whole, and the marks' legend still
+        # fits beside it in the map's width
+        legend = alt.Legend(title=None, orient="bottom", columns=1, labelLimit=380,
                             symbolStrokeWidth=2.5, labelExpr=titles_expr(titles))
         layers.append(alt.Chart(drawn).mark_line(strokeWidth=2).encode(
             x=alt.X("x:Q"), y=alt.Y("y:Q"), detail=alt.Detail("line:N"), order=alt.Order("i:Q"),

@@ -30,8 +30,11 @@ _LABELS = """() => [...document.querySelectorAll('.vega-embed svg')]
     const texts = [...svg.querySelectorAll('g.limit_labels_marks text')]
       .filter(t => (t.textContent || '').trim().length);
     const legends = [...svg.querySelectorAll('g.role-legend')].map(box);
+    const shortened = [...svg.querySelectorAll('g.role-legend text')]
+      .map(t => t.textContent).filter(t => t.endsWith('\u2026'));
+    const column = svg.closest('[data-testid="stColumn"], [data-testid="stMain"] [data-testid="stVerticalBlock"]');
     return {labels: texts.map(t => ({text: t.textContent, box: box(t)})),
-            svg: box(svg), legends: legends};
+            svg: box(svg), legends: legends, shortened: shortened, column: box(column)};
   })"""
 
 
@@ -86,8 +89,12 @@ def test_limit_labels_do_not_overlap(browser, demo, tmp_path):
                     s = m["svg"]
                     box = a["box"]
                     assert box[0] >= s[0] - 0.5 and box[2] <= s[2] + 0.5, (demo, width, a)
-                for legend in m["legends"]:  # the legend whole, not cut off on the right
-                    assert legend[2] <= m["svg"][2] + 0.5, (demo, width, legend, m["svg"])
+                # the legend whole: inside the drawing and its column, no label shortened
+                for legend in m["legends"]:
+                    assert legend[2] <= min(m["svg"][2], m["column"][2]) + 0.5, \
+                        (demo, width, legend, m["svg"], m["column"])
+                assert m["svg"][2] <= m["column"][2] + 0.5, (demo, width, "map cut off")
+                assert not m["shortened"], (demo, width, m["shortened"])
         page.close()
     finally:
         stop_server(proc)

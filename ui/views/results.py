@@ -166,7 +166,7 @@ else:
             titles = {r.name: r.display() for r in study.responses}
             charts.show(charts.limits_chart, lmap, titles, fx.display(), fy.display(),
                         marks, d_lines, {r.name: (r.label, r.unit) for r in study.responses},
-                        width="stretch")
+                        width="content")
             st.caption(f"Held at {held_text}. {limits_note(lmap)}")
         else:
             title = "D" if shown_value == "D" else charts.titled(
