@@ -201,8 +201,11 @@ def limits_chart(lmap, titles: dict, x_title: str, y_title: str, marks: pd.DataF
 
     # a fixed size: the labels are placed in the map's own pixels (they keep
     # clear of each other at any size, but sit closest to their lines at this one)
+    # ("pad": axes and legend around that area, where Streamlit's default would
+    # squeeze them into it and shrink the map under its labels)
     return limits_picture(lmap, titles, x_title, y_title, marks, d_lines=d_lines,
-                          labels=labels, height=LIMITS_SIZE[1], width=LIMITS_SIZE[0])
+                          labels=labels, height=LIMITS_SIZE[1], width=LIMITS_SIZE[0]
+                          ).properties(autosize=alt.AutoSizeParams(type="pad"))
 
 
 def trace_chart(table: pd.DataFrame, response: str, title: str, factor_titles: dict):
@@ -279,4 +282,6 @@ def ternary_limits_chart(tlim, axes: dict, titles: dict, marks: pd.DataFrame,
     the blends where all hold outlined (``ternary_pictures.ternary_limits_picture``)."""
     from tradeoff.maps.ternary_pictures import ternary_limits_picture
 
-    return ternary_limits_picture(tlim, axes, titles, marks, d_lines=d_lines, width=width)
+    # "pad": the triangle keeps the size its labels were placed at (see limits_chart)
+    return ternary_limits_picture(tlim, axes, titles, marks, d_lines=d_lines, width=width
+                                  ).properties(autosize=alt.AutoSizeParams(type="pad"))
