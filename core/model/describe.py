@@ -40,7 +40,8 @@ def response_report(model) -> dict:
         "pred_r2": finite_or_none(model.pred_r2_), "residual_sd": finite_or_none(model.residual_sd_),
         "lenth": None if model.lenth_ is None else {
             "pse": finite_or_none(model.lenth_.pse), "me": finite_or_none(model.lenth_.me),
-            "sme": finite_or_none(model.lenth_.sme), "df": finite_or_none(model.lenth_.df)},
+            "sme": finite_or_none(model.lenth_.sme), "df": finite_or_none(model.lenth_.df),
+            "effects": model.lenth_.m},
         "half_normal": None if model.half_normal_ is None else [
             {"term": r.term, "effect": finite_or_none(r.effect), "quantile": finite_or_none(r.quantile)}
             for r in model.half_normal_.itertuples()],

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import json
 
+import numpy as np
 import pytest
 
 from tradeoff.cli import main
@@ -50,7 +51,26 @@ def test_saturated_model_reports_lenth_not_p_values(tmp_path, capsys):
     # Box, Hunter & Hunter (2005) pilot plant: T effect 23 (from memory)
     assert r["effects"]["A"] == pytest.approx(23.0)
     assert r["std_errors"] is None and r["p_values"] is None and r["residual_df"] == 0
-    assert set(r["lenth"]) >= {"pse", "me", "sme"}
+    assert set(r["lenth"]) >= {"pse", "me", "sme", "effects"} and r["lenth"]["effects"] == 7
+    # the text says the same in words: Lenth (1989) worked by hand on the 7 effects
+    from scipy import stats
+
+    c = np.abs([r["effects"][t] for t in r["terms"] if t != "intercept"])
+    s0 = 1.5 * np.median(c)
+    pse = 1.5 * np.median(c[c < 2.5 * s0])
+    me = stats.t.ppf(0.975, 7 / 3) * pse
+    sme = stats.t.ppf((1 + 0.95 ** (1 / 7)) / 2, 7 / 3) * pse
+    assert main(["fit", str(tmp_path / "s.toml")]) == 0
+    text = capsys.readouterr().out
+    assert (f"a term alone stands out beyond {me:.4g}, among all 7 terms beyond {sme:.4g}"
+            in text)
+    for term, effect in r["effects"].items():
+        if effect is None:
+            continue
+        row = next(line for line in text.splitlines() if line.startswith(f"  {term} "))
+        want = ("stands out among all terms" if abs(effect) > sme else
+                "stands out alone" if abs(effect) > me else "")
+        assert row.rstrip().endswith(want) if want else "stands out" not in row
 
 
 def test_fit_errors_exit_2(write_study, capsys):

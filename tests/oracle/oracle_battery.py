@@ -26,7 +26,9 @@ loads and fits the same study through the public API, and checks:
 - ``fit``: each polynomial model's coefficients equal a least-squares fit on
   the README's coding of its printed term labels; ``aliases``: a confounded
   term is printed with the signed combination of terms that rebuilds its
-  column exactly;
+  column exactly; ``fit_text``: the printed effect margins are t times the
+  effect's standard error and the scale sentence gives the JSON's power check
+  (oracle_fit_text.py);
 - ``report_html``, ``report_xlsx``: the page and the workbook show the numbers
   of ``optimize --json`` at the precision the page prints;
 - ``next``, ``plan``, ``confirm``: suggestions keep their distance and score
@@ -58,6 +60,7 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged)
 from oracle_derive import check_derived
+from oracle_fit_text import check_fit_text
 
 __all__ = ["Outcome", "run_battery", "TOP"]
 
@@ -190,6 +193,9 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
     rc, out = cli("fit", "--json")
     if rc == 0 and fit is not None:
         check_fit(generated, study, fit, json.loads(out), outcome)
+        rc_text, text = cli("fit")
+        if rc_text == 0:
+            check_fit_text(json.loads(out), text, outcome)
 
     result = None
     rc, out = cli("optimize", "--json", "--top", TOP, "--seed", seed)
