@@ -25,7 +25,7 @@ import numpy as np
 import pandas as pd
 
 __all__ = ["ESTIMATE_COLUMNS", "VERDICTS", "effect_estimates", "effects_note",
-           "margin_words"]
+           "margin_words", "term_df"]
 
 ESTIMATE_COLUMNS = ["term", "effect", "alone_low", "alone_high", "together_low",
                     "together_high", "verdict", "basis"]
@@ -72,7 +72,12 @@ def effect_estimates(model, *, level: float | None = None,
     together_q = (1 + level ** (1.0 / m)) / 2 if m else np.nan
     se = table["std_error"].to_numpy(float)
     if m and model.residual_df_ > 0 and np.isfinite(se).any():
-        df = model.residual_df_
+        df = float(model.residual_df_)
+        if getattr(model, "whole_plot_name", None) is not None:
+            # runs sharing batches: each term has its own (Satterthwaite) df, the
+            # one its p-value was worked out on
+            df = np.array([term_df(t, p, df) for t, p in zip(
+                _t_of(model, table), table["p_value"].to_numpy(float))])
         alone = stats.t.ppf(0.5 + level / 2, df) * se
         together = stats.t.ppf(together_q, df) * se
         basis = "t"
@@ -91,6 +96,30 @@ def effect_estimates(model, *, level: float | None = None,
                          "together_low": effect - together,
                          "together_high": effect + together,
                          "verdict": verdict, "basis": basis})[ESTIMATE_COLUMNS]
+
+
+def _t_of(model, table: pd.DataFrame) -> np.ndarray:
+    """Each shown effect's t value (its coefficient's), NaN where none is known."""
+    t_values = dict(zip(model.terms_, model.t_values_)) if model.t_values_ is not None \
+        else {}
+    return np.array([t_values.get(term, np.nan) for term in table["term"]], dtype=float)
+
+
+def term_df(t: float, p: float, fallback: float) -> float:
+    """The degrees of freedom on which a two-sided t test of ``t`` gives ``p``
+    (p = 2 P(T > |t|)); ``fallback`` when they cannot be recovered."""
+    from scipy import optimize, stats
+
+    if not (np.isfinite(t) and np.isfinite(p)) or not 0 < p < 1 or t == 0:
+        return fallback
+
+    def gap(log_df):
+        return 2 * stats.t.sf(abs(t), np.exp(log_df)) - p
+
+    lo, hi = np.log(0.5), np.log(1e6)
+    if gap(lo) * gap(hi) > 0:
+        return fallback
+    return float(np.exp(optimize.brentq(gap, lo, hi, xtol=1e-10)))
 
 
 def margin_words(estimates: pd.DataFrame) -> str:

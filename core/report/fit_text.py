@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from ..model.dependence import combination_text
+from ..model.transforms import power_advice
 
 __all__ = ["fit_text"]
 
@@ -14,6 +15,33 @@ def _p(v) -> str:
     if v is None:
         return "-"
     return "<0.0001" if v < 1e-4 else f"{v:.4f}"
+
+
+def _margins(r: dict) -> dict:
+    """Term -> (its effect's margin alone, verdict), as the effects figure draws them
+    (``tradeoff.maps.estimates``): t(1 - alpha/2, df) times the effect's standard
+    error alone; the Sidak quantile over every effect shown for all terms together."""
+    from scipy import stats
+
+    df, level = r["residual_df"], r.get("confidence") or 0.95
+    sized = {t: (abs(e / r["coefficients"][t]) * r["std_errors"][t], abs(e))
+             for t, e in r["effects"].items()
+             if e is not None and t in r["std_errors"] and r["std_errors"][t] is not None
+             and r["coefficients"].get(t) not in (None, 0)}
+    if not sized or not df:
+        return {}
+    from ..maps.estimates import term_df
+
+    out = {}
+    for t, (se, e) in sized.items():
+        # runs sharing batches: a term's own df, the one its p-value used
+        d = (term_df(r["t_values"][t], r["p_values"][t], df)
+             if r.get("whole_plots") is not None else df)
+        alone_q = stats.t.ppf(0.5 + level / 2, d)
+        together_q = stats.t.ppf((1 + level ** (1 / len(sized))) / 2, d)
+        out[t] = (alone_q * se, "stands out among all terms" if e > together_q * se else
+                  "stands out alone" if e > alone_q * se else "")
+    return out
 
 
 def _anova_text(a: dict) -> list[str]:
@@ -98,8 +126,11 @@ def _response_text(r: dict) -> list[str]:
         out.append("  its deviation from the average over the levels (the coefficient)")
     head = f"  {'term':<28}{'coef' if blend else 'coef (coded)':>14}{'effect':>12}"
     saturated = r["p_values"] is None
+    margins = {} if saturated else _margins(r)
     if not saturated:
         head += f"{'std error':>12}{'t':>9}{'p':>10}"
+        if margins:
+            head += f"  {'effect margin':>13}"
     out.append(head)
     for term in r["terms"]:
         line = (f"  {term:<28}{_f(r['coefficients'][term]):>14}"
@@ -107,10 +138,13 @@ def _response_text(r: dict) -> list[str]:
         if not saturated:
             line += (f"{_f(r['std_errors'][term]):>12}{_f(r['t_values'][term], '.3g'):>9}"
                      f"{_p(r['p_values'][term]):>10}")
+            if term in margins:
+                line = (line + f"  {'+-' + format(margins[term][0], '.3g'):>13}  "
+                        f"{margins[term][1]}").rstrip()
         elif r["lenth"] is not None and r["effects"].get(term) is not None:
             e = abs(r["effects"][term])
-            mark = "beyond SME" if e > r["lenth"]["sme"] else \
-                "beyond ME" if e > r["lenth"]["me"] else ""
+            mark = "stands out among all terms" if e > r["lenth"]["sme"] else \
+                "stands out alone" if e > r["lenth"]["me"] else ""
             line += f"  {mark}"
         out.append(line)
     for d in r.get("derived_coefficients") or []:
@@ -120,8 +154,9 @@ def _response_text(r: dict) -> list[str]:
         out.append(line + "  (last level: minus the sum of the others)")
     if r["lenth"] is not None:
         le = r["lenth"]
-        out.append(f"  Lenth: pseudo standard error {_f(le['pse'])}, margin of error "
-                   f"{_f(le['me'])}, simultaneous margin {_f(le['sme'])}")
+        out.append(f"  margins from the smaller effects (no run left over; Lenth 1989): a "
+                   f"term alone stands out beyond {_f(le['me'])}, among all {le['effects']} "
+                   f"terms beyond {_f(le['sme'])}; an effect's noise {_f(le['pse'])}")
     a = r["anova"]
     out.append("")
     if r.get("whole_plots") is not None:
@@ -172,11 +207,8 @@ def _response_text(r: dict) -> list[str]:
         dropped = ", ".join(f"{k} ({v})" for k, v in red["dropped"].items())
         out.append(f"  reduced: dropped {dropped or 'nothing'}")
     bc = r.get("box_cox")
-    if bc is not None:
-        advice = (f"suggests transform '{bc['suggest']}'" if bc["suggest"] != "other" else
-                  "none of the offered transforms (none, sqrt, log) lies in that range")
-        out.append(f"  Box-Cox: lambda {bc['lambda']:.2f} (range {bc['low']:.2f} to "
-                   f"{bc['high']:.2f}): {advice}")
+    if bc is not None:  # the same sentence as the workbench and the report
+        out.append(f"  scale: {power_advice(bc, r['transform'])[0]}")
     pc = r.get("pieces")
     if pc is not None:
         out.append(f"  pieces: {pc['runs_with_several']} runs measured in several pieces "

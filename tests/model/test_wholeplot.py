@@ -320,3 +320,25 @@ def test_variance_components_information_equals_the_dense_formulas():
     for dC, Vk in zip(sol.dC, Vs):
         np.testing.assert_allclose(dC, C @ M.T @ Vi @ Vk @ Vi @ M @ C, rtol=1e-8,
                                    atol=1e-14)
+
+
+def test_effect_margins_use_each_terms_own_df(strength_study, capsys):
+    # with runs sharing batches each term is tested on its own (Satterthwaite) df:
+    # its effect's margin alone is the same two-sided t test, so a term stands out
+    # alone exactly when its p-value is below 1 - confidence (common practice)
+    from scipy import stats
+
+    from tradeoff.maps.estimates import effect_estimates, term_df
+
+    study = load_study(strength_study)
+    for name, model in fit_study(study).models.items():
+        est = effect_estimates(model).set_index("term")
+        p = dict(zip(model.terms_, model.p_values_))
+        t = dict(zip(model.terms_, model.t_values_))
+        for term, row in est.iterrows():
+            if term not in p or not np.isfinite(p[term]):
+                continue
+            assert (row["verdict"] != "could be noise") == (p[term] < 0.05), (name, term)
+            # the df recovered from t and p gives that p back
+            d = term_df(t[term], p[term], 1.0)
+            assert 2 * stats.t.sf(abs(t[term]), d) == pytest.approx(p[term], rel=1e-8)

@@ -4,6 +4,8 @@ and the power transform agrees with the numbers ``fit --json`` gives, recomputed
 - each effect margin printed beside a term is t(1 - alpha/2, residual df) times the
   effect's standard error (the coefficient's, scaled as the effect is: Student's t,
   as any textbook writes it), and a term said to stand out alone is larger than it;
+  with runs sharing batches (each term on its own df) a term stands out alone
+  exactly when its p-value is below 1 - confidence;
 - the scale sentence names the best power and the interval of the printed
   ``box_cox`` to the digits shown, and says a power transform would not help
   exactly when the power of the scale in use lies inside that interval (Box & Cox
@@ -65,6 +67,15 @@ def check_fit_text(printed: dict, text: str, outcome) -> None:
             margin, verdict = float(m.group(1)), m.group(2)
             if None in (coef, effect, se) or coef == 0:
                 fail(f"'{name}': a margin printed for '{term}', which has no effect")
+                continue
+            if rep.get("whole_plots") is not None:
+                # each term on its own (Satterthwaite) df: standing out alone is
+                # the same two-sided t test as its p-value
+                p = (rep.get("p_values") or {}).get(term)
+                alone = verdict is not None
+                if p is not None and alone != (p < 1 - level) and abs(p - (1 - level)) > 1e-6:
+                    fail(f"'{name}': '{term}' (p {p:.4g}) is "
+                         f"{'said' if alone else 'not said'} to stand out alone")
                 continue
             want = stats.t.ppf(0.5 + level / 2, df) * se * abs(effect / coef)
             if not np.isclose(margin, float(f"{want:.3g}"), rtol=1e-9, atol=0):
