@@ -5,9 +5,11 @@ its sheets in order.
 """
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 
 from ..model.terms import model_label
+from ..model.transforms import power_advice
 from ..study.safe_cells import workbook_bytes
 from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
 
@@ -20,6 +22,12 @@ __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
 WORKBOOK_SHEETS = ("summary", "runs", "factors", "models", "terms", "goals", "solutions",
                    "confirmations", "verdicts", "warnings", "specification", "provenance")
 
+
+
+
+def _finite(v):
+    """A number, or None where there is none (a blank cell)."""
+    return float(v) if v is not None and np.isfinite(v) else None
 
 def build_workbook(study, *, top: int = 5, seed: int | None = None, fit=None,
                    result=None, data: dict | None = None, **kwargs) -> bytes:
@@ -104,26 +112,44 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
             "whole plots": (rep.get("whole_plots") or {}).get("count"),
             "sd between whole plots": (rep.get("whole_plots") or {}).get("sd"),
             "flagged runs": ", ".join(rep["flagged_runs"]),
+            # the power-transform check, in the words of the fit text and the page
+            "scale": (power_advice(rep["box_cox"], rep["transform"])[0]
+                      if rep.get("box_cox") else None),
             "warnings": " | ".join(rep["warnings"])})
         if smooth:
             scale_rows += [{"response": name, "factor": f, "length scale (coded)": v,
                             "in its units": rep["length_scales_natural"].get(f)}
                            for f, v in rep["length_scales"].items()]
             continue
+        # each effect with its margin, as the effects figure draws it
+        from ..maps.estimates import effect_estimates
+
+        model = data["fitted"].get(name)
+        est = (effect_estimates(model).set_index("term") if model is not None
+               else pd.DataFrame())
         for term in rep["terms"]:
+            shown = term in est.index
             term_rows.append({
                 "response": name, "term": term,
                 "coefficient": _get(rep["coefficients"], term),
                 "effect": _get(rep["effects"], term),
                 "std error": _get(rep["std_errors"], term),
                 "p value": _get(rep["p_values"], term),
-                "clear": _is_clear(rep, term, alpha)})
+                "clear": _is_clear(rep, term, alpha),
+                "effect from (alone)": _finite(est.at[term, "alone_low"]) if shown else None,
+                "effect to (alone)": _finite(est.at[term, "alone_high"]) if shown else None,
+                "effect from (all terms)": (_finite(est.at[term, "together_low"]) if shown
+                                            else None),
+                "effect to (all terms)": (_finite(est.at[term, "together_high"]) if shown
+                                          else None),
+                "margins say": est.at[term, "verdict"] if shown else None})
     for name, why in data["skipped"].items():
         model_rows.append({"response": name, "model": "none", "warnings": why})
     tables["models"] = pd.DataFrame(model_rows)
-    tables["terms"] = pd.DataFrame(term_rows, columns=["response", "term", "coefficient",
-                                                       "effect", "std error", "p value",
-                                                       "clear"])
+    tables["terms"] = pd.DataFrame(term_rows, columns=[
+        "response", "term", "coefficient", "effect", "std error", "p value", "clear",
+        "effect from (alone)", "effect to (alone)", "effect from (all terms)",
+        "effect to (all terms)", "margins say"])
     if scale_rows:
         tables["length scales"] = pd.DataFrame(scale_rows)
     if data.get("kinetics"):  # responses fitted across storage temperatures

@@ -174,6 +174,12 @@ def test_workbook_sheets_and_numbers(tire):
         ours = terms[terms["response"] == y].set_index("term")
         assert ours.loc["intercept", "coefficient"] == pytest.approx(ref.params["Intercept"])
         assert ours.loc["x1", "p value"] == pytest.approx(ref.pvalues["x1"], rel=1e-6)
+        # the effect's margin alone: twice the coefficient's 95 % interval (an effect is
+        # twice its coded coefficient; statsmodels' conf_int as the reference)
+        ci = ref.conf_int(alpha=0.05)
+        assert ours.loc["x1", "effect from (alone)"] == pytest.approx(2 * ci.loc["x1", 0])
+        assert ours.loc["x1", "effect to (alone)"] == pytest.approx(2 * ci.loc["x1", 1])
+        assert (ours.loc["x1", "margins say"] != "could be noise") == (ref.pvalues["x1"] < 0.05)
     # Published y1 coefficients (Derringer & Suich 1980, from memory): intercept
     # 139.12, x1 16.49.
     y1 = terms[terms["response"] == "y1"].set_index("term")["coefficient"]
