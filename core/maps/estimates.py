@@ -142,7 +142,8 @@ def effects_note(estimates: pd.DataFrame, level: float) -> str:
     terms stand out, by name.
     """
     if estimates.empty:
-        return "No effects to show."
+        return ("No effects to show: every term of this model is a square or a blend's "
+                "own term, which have no low-to-high change of their own.")
     m = len(estimates)
     pct = f"{level:.0%}"
     words = margin_words(estimates)
