@@ -15,8 +15,8 @@ from pathlib import Path
 
 import pytest
 
-from test_browser import ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy, stop_server
-from test_browser_views import _settle, _shoot
+from test_browser import _free_port, _wait_healthy, stop_server
+from test_browser_views import _settle, _shoot, browser  # noqa: F401 (the shared fixture)
 
 DEMOS = Path(__file__).resolve().parents[2] / "demo_data"
 
@@ -42,19 +42,6 @@ def _overlap(a, b, tol=0.5) -> bool:
     # two boxes overlap when they overlap on both axes (by more than half a pixel)
     return (a[0] < b[2] - tol and b[0] < a[2] - tol and a[1] < b[3] - tol
             and b[1] < a[3] - tol)
-
-
-@pytest.fixture(scope="module")
-def browser():
-    _require_browser()
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as pw:
-        b = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True, args=ARGS)
-        try:
-            yield b
-        finally:
-            b.close()
 
 
 @pytest.mark.parametrize("demo", ["snack_bar.toml", "snack_bar_shelf.toml",
