@@ -15,7 +15,8 @@ columns: n pairs, m factors, n - m degrees of freedom) plus the centre runs'
 spread is an error estimate free of second-order terms; the main effects are
 tested against it, and the sums of squares of those found inactive are pooled
 into it, until the set no longer changes. Without any error degrees of freedom,
-Lenth's pseudo standard error of the main effects stands in.
+Lenth's pseudo standard error of the main effects picks the first active set,
+and the inactive ones' sums of squares make the error from then on.
 
 Stage 2 fits second-order terms to the even part, only among the active main
 effects (strong heredity: a square of an active factor, a product of two
@@ -131,10 +132,10 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
                       "judged by Lenth's margin", "margin": round(res.me, 6),
                       "active": [names[j] for j in np.flatnonzero(active)]})
     for _ in range(m + 1):
-        if base_df == 0:
-            break
         pooled_ss = base_ss + float(ss_main[~active].sum())
         pooled_df = base_df + int((~active).sum())
+        if pooled_df == 0:
+            break
         s2 = pooled_ss / pooled_df
         se = np.sqrt(s2 / (2.0 * gram)) if s2 > 0 else np.full(m, np.inf)
         p = _sf_t(coef / se, pooled_df) if s2 > 0 else np.ones(m)
@@ -146,11 +147,11 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
         if np.array_equal(new, active):
             break
         active = new
-        source = "fake-factor columns, centre runs and inactive main effects"
+        source = ("fake-factor columns, centre runs and inactive main effects" if base_df
+                  else "inactive main effects")
     err_ss = base_ss + float(ss_main[~active].sum())
     err_df = base_df + int((~active).sum())
     if base_df == 0:
-        err_ss, err_df = float(ss_main[~active].sum()), int((~active).sum())
         source = "inactive main effects"
     s2 = err_ss / err_df if err_df > 0 else float("nan")
     act = list(np.flatnonzero(active))
