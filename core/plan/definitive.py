@@ -123,7 +123,7 @@ def definitive_points(numeric: int, categorical: int = 0, *, extra: int = 0,
 def plan_definitive(study, *, extra: int = 0, blocks: int = 1, center: int | None = None,
                     runs: int | None = None, seed: int = 0):
     """A definitive screening design for the study's factors, as a Plan."""
-    from .layouts import _plan
+    from .designs import Plan, _finish
 
     if runs is not None:
         raise PlanError("--runs is not used by a definitive screening design (its runs "
@@ -156,7 +156,9 @@ def plan_definitive(study, *, extra: int = 0, blocks: int = 1, center: int | Non
                      "order 22)")
     kind = (f"definitive screening design, {len(num) + len(cat)} factors: {n} fold-over "
             f"pairs + {point.count('centre')} centre")
-    plan = _plan(study, coded, point, block, seed, kind, notes)
+    table, coded_df = _finish(tuple(study.factors), coded, np.asarray(block), point, seed)
+    plan = Plan(factors=tuple(study.factors), runs=table, coded=coded_df, design=None,
+                blocks=[], notes=tuple(notes), kind=kind)
     # the pair each run belongs to, in run order (std_order counts from 1)
     plan.runs.insert(plan.runs.columns.get_loc("point") + 1, "pair",
                      [int(pair[s - 1]) or None for s in plan.runs["std_order"]])
