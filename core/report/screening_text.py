@@ -52,6 +52,8 @@ def screening_text(report: dict) -> str:
         else:
             lines.append("  next: no factor stood out from the error; check the range of "
                          "each factor, or add runs (--extra) before screening again")
+    for name, why in report.get("skipped", {}).items():
+        lines.append(f"Response '{name}' not modelled: {why}")
     lines.append("Screening after Jones & Nachtsheim (2017): main effects from the "
                  "fold-over differences, second-order terms from the rest (only among "
                  "active factors).")
@@ -61,20 +63,30 @@ def screening_text(report: dict) -> str:
 def screening_report(study, study_path, *, responses=None, reduce=False) -> dict:
     """Every measured response screened, or fitted as usual where screening does not
     apply (the reason kept under ``screening_note``)."""
+    from ..errors import TradeoffError
     from ..model.screening_selection import screen_response
     from ..model.study_fit import fit_response
 
     names = list(dict.fromkeys(responses)) if responses else [
-        r.name for r in study.responses if not r.is_derived]
+        r.name for r in study.responses]
     out = {"responses": {}, "skipped": {}}
     for name in names:
         found = screen_response(study, name)
         if isinstance(found, str):
-            entry = fit_response(study, name, reduce=reduce).report()
+            try:
+                entry = fit_response(study, name, reduce=reduce).report()
+            except TradeoffError as exc:
+                if responses:  # asked for by name: an error, as for tradeoff fit
+                    raise
+                out["skipped"][name] = str(exc)
+                continue
             entry["screening"] = None
             entry["screening_note"] = found
         else:
             found["next"] = next_round(study_path, found)
             entry = {"screening": found}
         out["responses"][name] = entry
+    if not out["responses"]:
+        raise TradeoffError("no response could be modelled: "
+                            + "; ".join(out["skipped"].values()))
     return out
