@@ -49,6 +49,8 @@ def screening_text(report: dict) -> str:
             lines.append(f"  next: carry {', '.join(nxt['carry'])} into a response-surface "
                          "round; keep the runs made and add new ones around them:")
             lines.append(f"    {nxt['command']}")
+            lines.append("    (the plan also sets the factors left behind: hold them at one "
+                         "setting in the sheet, or take them out of the study file first)")
         else:
             lines.append("  next: no factor stood out from the error; check the range of "
                          "each factor, or add runs (--extra) before screening again")

@@ -89,6 +89,27 @@ def test_quadratic_in_any_three_factors_of_six():
         assert np.linalg.matrix_rank(M) == 10
 
 
+def test_screening_properties_see_aliases_in_a_fraction():
+    # the half fraction 2^(3-1) with C = AB (Box, Hunter & Hunter; common practice):
+    # C is fully aliased with AB, so the check that reports 0 for a definitive
+    # screening design reports 1 here
+    from types import SimpleNamespace
+
+    from tradeoff.plan.definitive import screening_properties
+
+    X = np.array([[-1, -1, 1], [1, -1, -1], [-1, 1, -1], [1, 1, 1], [0, 0, 0]], float)
+    study = SimpleNamespace(factors=[SimpleNamespace(name=n, is_categorical=False)
+                                     for n in "abc"])
+    props = screening_properties(study, X)
+    assert props["main_vs_second_order"] == pytest.approx(1.0)
+    assert "a^2 = b^2" in props["second_order"]["fully_aliased"]
+    dsd = screening_properties(SimpleNamespace(factors=[
+        SimpleNamespace(name=f"f{j}", is_categorical=False) for j in range(6)]),
+        definitive_points(6)[0])
+    assert dsd["main_vs_second_order"] == 0 and dsd["second_order"]["fully_aliased"] == []
+    assert dsd["quadratic_in_three"]["fittable"] == 20
+
+
 def test_extra_runs_are_fake_factor_columns():
     # Jones & Nachtsheim (2017), Technometrics: extra runs through fake factors; the
     # design of the real factors keeps its orthogonality (checked directly)
