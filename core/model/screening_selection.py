@@ -28,7 +28,7 @@ taken out, against the same error).
 
 ``screen_response`` returns None with the reason when the runs are not a
 definitive screening design (runs added, a run lost, categorical factors,
-blocks), so the caller can fall back to the study's ordinary model.
+a fold-over pair split between blocks), so the caller can fall back to the study's ordinary model.
 """
 from __future__ import annotations
 
@@ -81,8 +81,8 @@ def _sf_t(t, df):
     return 2 * stats.t.sf(np.abs(t), df)
 
 
-def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float = 0.05
-                ) -> dict | str:
+def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float = 0.05,
+                block=None) -> dict | str:
     """The two-stage analysis of one response, or why it does not apply.
 
     Parameters
@@ -91,6 +91,9 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
     y : (N,) the response.
     names : the factors' names.
     alpha : significance level of every test.
+    block : (N,) each run's block, or None. Both runs of a pair must share a
+        block; the block shifts then cancel in the fold-over differences and
+        enter the even part as terms always kept.
 
     Returns
     -------
@@ -111,13 +114,22 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
     gram = np.sum(top ** 2, axis=0)
     coef = top.T @ d / gram                       # main effects (coded, half the effect)
     rss_odd = 2.0 * float(np.sum((d - top @ coef) ** 2))
-    yc = y[centre]
-    ss_c = float(np.sum((yc - yc.mean()) ** 2))
+    labels_b = np.zeros(len(y), dtype=int) if block is None else \
+        np.unique(np.asarray(block).astype(str), return_inverse=True)[1]
+    if np.any(labels_b[a] != labels_b[b]):
+        return "the two runs of a fold-over pair are in different blocks"
+    # the centre runs' spread within each block: pure error
+    ss_c, pure_df = 0.0, 0
+    for g in np.unique(labels_b[centre]):
+        yc = y[[i for i in centre if labels_b[i] == g]]
+        ss_c += float(np.sum((yc - yc.mean()) ** 2))
+        pure_df += len(yc) - 1
+    blocks = [(labels_b == g).astype(float) for g in np.unique(labels_b)[1:]]
     ss_main = 2.0 * gram * coef ** 2              # each main effect's sum of squares
-    base_ss, base_df = rss_odd + ss_c, (n - m) + (len(centre) - 1)
+    base_ss, base_df = rss_odd + ss_c, (n - m) + pure_df
     steps = [{"stage": 1, "action": "main effects from the fold-over differences",
               "error_df": int(base_df),
-              "error_from": f"{n - m} fake-factor and {len(centre) - 1} centre-run "
+              "error_from": f"{n - m} fake-factor and {pure_df} centre-run "
                             "degrees of freedom"}]
     active = np.ones(m, dtype=bool)
     source = "fake-factor columns and centre runs"
@@ -164,13 +176,16 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
     chosen: list[str] = []
 
     def rss_of(labels):
-        M = np.column_stack([np.ones(len(y))] + [candidates[t] for t in labels])
+        M = np.column_stack([np.ones(len(y))] + blocks + [candidates[t] for t in labels])
         beta, *_ = np.linalg.lstsq(M, even, rcond=None)
         return float(np.sum((even - M @ beta) ** 2)), np.linalg.matrix_rank(M) == M.shape[1]
 
     rss, _ = rss_of(chosen)
-    while np.isfinite(s2) and s2 > 0 and n - len(chosen) > 0:
-        df_lof = n - len(chosen)
+    # the even part spans n pair means and the centre runs; the intercept, the
+    # blocks, the terms chosen and the pure error take their share
+    even_dim = n + len(centre) - 1 - len(blocks) - pure_df
+    while np.isfinite(s2) and s2 > 0 and even_dim - len(chosen) > 0:
+        df_lof = even_dim - len(chosen)
         F = max(rss - ss_c, 0.0) / df_lof / s2
         p_lof = float(stats.f.sf(F, df_lof, err_df))
         trials = [(rss_of(chosen + [t]), t) for t in candidates if t not in chosen]
@@ -193,12 +208,13 @@ def screen_runs(X: np.ndarray, y: np.ndarray, names: list[str], *, alpha: float 
         steps.append({"stage": 2, "action": f"{best} added", "terms": list(chosen)})
     labels = [names[j] for j in act] + chosen
     M = np.column_stack([np.ones(len(y))] + [X[:, j] for j in act]
-                        + [candidates[t] for t in chosen])
+                        + [candidates[t] for t in chosen] + blocks)
     beta, *_ = np.linalg.lstsq(M, y, rcond=None)
     return {"active_main": [names[j] for j in act], "active_second_order": chosen,
             "error_sd": None if not np.isfinite(s2) else round(float(np.sqrt(s2)), 6),
             "error_df": int(err_df), "error_source": source,
             "steps": steps, "pairs": n, "centre_runs": len(centre),
+            "blocks": len(blocks) + 1,
             "coefficients": {t: round(float(v), 6)
                              for t, v in zip(["intercept"] + labels, beta)}}
 
@@ -212,8 +228,6 @@ def screen_response(study, name: str) -> dict | str:
         return (f"categorical factor '{cat[0]}': the screening analysis here takes "
                 "numeric factors only")
     column = study.block_column
-    if column is not None and study.runs[column].nunique() > 1:
-        return "the runs are in blocks: the screening analysis here takes one block"
     values = study.runs[name].to_numpy(dtype=float) if name in study.runs else None
     if values is None:
         return f"response '{name}' has no column in the runs"
@@ -222,4 +236,5 @@ def screen_response(study, name: str) -> dict | str:
         return f"{int((~keep).sum())} run(s) have no value of '{name}'"
     X = study.coded().to_numpy(float)
     return screen_runs(X, values, [f.name for f in study.factors],
-                       alpha=1 - study.confidence)
+                       alpha=1 - study.confidence,
+                       block=None if column is None else study.runs[column].to_numpy())

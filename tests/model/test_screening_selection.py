@@ -165,3 +165,31 @@ def test_fit_screening_falls_back_when_runs_were_added(tmp_path, capsys):
     assert entry["r2"] is not None
     assert main(["fit", str(study), "--screening"]) == 0
     assert "does not apply" in capsys.readouterr().out
+
+
+def test_blocks_of_whole_pairs_cancel_in_the_analysis():
+    # block shifts are the same in both runs of a pair, so they drop out of the
+    # fold-over differences (Jones & Nachtsheim 2011's fold-over argument) and are
+    # kept as terms in the even part: a large shift leaves the model found, and the
+    # main effects equal least squares with block terms (statsmodels)
+    X, point, pair, block, n = definitive_points(8, extra=4, blocks=2)
+    found = 0
+    for seed in range(50):
+        y = _planted(X, np.random.default_rng(seed))
+        shifted = screen_runs(X, y + np.where(block == 2, 25.0, 0.0), NAMES, block=block)
+        plain = screen_runs(X, y, NAMES, block=block)
+        # the answer does not move with the shift, whatever it is
+        assert shifted["active_main"] == plain["active_main"]
+        assert shifted["active_second_order"] == plain["active_second_order"]
+        assert shifted["error_sd"] == pytest.approx(plain["error_sd"], rel=1e-6)
+        found += set(shifted["active_main"]) >= {"x1", "x2", "x3"}
+    assert found >= 48
+    r = shifted
+    ols = sm.OLS(y + np.where(block == 2, 25.0, 0.0),
+                 np.column_stack([np.ones(len(X)), X, block == 2])).fit()
+    for j, name in enumerate(NAMES[:3]):
+        if name in r["coefficients"]:
+            assert r["coefficients"][name] == pytest.approx(ols.params[j + 1], abs=1e-5)
+    split = block.copy()
+    split[np.flatnonzero(pair == 1)[0]] = 2 if split[np.flatnonzero(pair == 1)[0]] == 1 else 1
+    assert "different blocks" in screen_runs(X, y, NAMES, block=split)
