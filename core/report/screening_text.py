@@ -78,9 +78,10 @@ def screening_report(study, study_path, *, responses=None, reduce=False) -> dict
             try:
                 entry = fit_response(study, name, reduce=reduce).report()
             except TradeoffError as exc:
+                why = f"screening does not apply ({found}), and the study's model: {exc}"
                 if responses:  # asked for by name: an error, as for tradeoff fit
-                    raise
-                out["skipped"][name] = str(exc)
+                    raise type(exc)(why) from None
+                out["skipped"][name] = why
                 continue
             entry["screening"] = None
             entry["screening_note"] = found
