@@ -360,6 +360,27 @@ FAULTS = (
           "return min(lengths) if lengths else None",
           "return max(lengths) if lengths else None",
           ("tests/plan/test_designs.py",)),
+    # definitive screening designs and their analysis
+    Fault("paley-sign", "Paley's first column never antisymmetric",
+          "core/plan/conference.py",
+          "C[1:, 0] = 1.0 if q % 4 == 1 else -1.0",
+          "C[1:, 0] = 1.0",
+          ("tests/plan/test_definitive.py",)),
+    Fault("no-foldover", "the second half repeats the first instead of mirroring it",
+          "core/plan/definitive.py",
+          "top, bottom = C.copy(), -C",
+          "top, bottom = C.copy(), C.copy()",
+          ("tests/plan/test_definitive.py",)),
+    Fault("odd-error-half", "the fold-over residual counted once instead of twice",
+          "core/model/screening_selection.py",
+          "rss_odd = 2.0 * float(",
+          "rss_odd = 1.0 * float(",
+          ("tests/model/test_screening_selection.py",)),
+    Fault("pooled-main-ss", "an inactive main effect pools half its sum of squares",
+          "core/model/screening_selection.py",
+          "ss_main = 2.0 * gram * coef ** 2",
+          "ss_main = gram * coef ** 2",
+          ("tests/model/test_screening_selection.py",)),
 )
 
 

@@ -22,6 +22,9 @@ def add(commands) -> None:
     fit.add_argument("--compare", action="store_true",
                      help="rank the models main, interactions, quadratic and smooth by how "
                           "well each predicts runs left out of its fit")
+    fit.add_argument("--screening", action="store_true",
+                     help="the two-stage analysis of a definitive screening design: "
+                          "active main effects, then second-order terms among them")
     fit.set_defaults(run=run)
 
 
@@ -31,6 +34,14 @@ def run(args) -> int:
     from ..derive.load import load_study
 
     study = load_study(args.study)
+    if getattr(args, "screening", False):
+        from ..report.screening_text import screening_report, screening_text
+
+        report = screening_report(study, args.study, responses=args.response,
+                                  reduce=args.reduce)
+        print(json.dumps(report, indent=2) if args.json else screening_text(report), end=""
+              if not args.json else "\n")
+        return 0
     if args.response:
         # a response asked for by name that cannot be modelled is an error
         fits = {name: fit_response(study, name, reduce=args.reduce)

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import json
 
-from .arguments import at_least_one, positive_number, seed_number
+from .arguments import at_least_one, positive_number, seed_number, whole_number
 
 __all__ = ["add", "run"]
 
@@ -27,6 +27,9 @@ def add(commands) -> None:
     plan.add_argument("--model", metavar="MODEL",
                       help="the model to plan for: main, interactions, full, quadratic "
                            "or terms joined by commas (a,b,a:b)")
+    plan.add_argument("--extra", type=whole_number(0), default=0, metavar="N",
+                      help="with --design definitive-screening: N more runs (even) "
+                           "through fake factors, for an error estimate (4 is a good start)")
     plan.add_argument("--keep", action="store_true",
                       help="optimal design: keep the study's measured runs and choose "
                            "the new runs around them")
@@ -60,7 +63,8 @@ def add(commands) -> None:
                       help="expected run-to-run standard deviation, for power")
     # blends (plan/mixture_plan.py)
     plan.add_argument("--design", metavar="NAME",
-                      help="factorial (default), central-composite, box-behnken or optimal; "
+                      help="factorial (default), central-composite, box-behnken, optimal or "
+                           "definitive-screening (three levels, 2 runs per factor + 1); "
                            "for a study with components: lattice, centroid or vertices "
                            "(extreme vertices of the bounded region)")
     plan.add_argument("--degree", type=int, metavar="M",

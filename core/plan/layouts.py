@@ -32,7 +32,8 @@ from .variance import prediction_variance
 
 __all__ = ["DESIGNS", "plan_design", "model_builder", "prediction_figures"]
 
-DESIGNS = ("factorial", "central-composite", "box-behnken", "optimal")
+DESIGNS = ("factorial", "central-composite", "box-behnken", "optimal",
+           "definitive-screening")
 
 
 def model_builder(study, model):
@@ -86,7 +87,8 @@ def _check_count(value, what: str, least: int) -> None:
 
 def plan_design(study, design: str, *, alpha="rotatable", center: int | None = None,
                 blocks: int = 1, runs: int | None = None, criterion: str = "d",
-                model=None, keep: bool = False, seed: int | None = None) -> Plan:
+                model=None, keep: bool = False, seed: int | None = None,
+                extra: int = 0) -> Plan:
     """Plan a central composite, Box-Behnken or optimal design for the study.
 
     Parameters
@@ -108,6 +110,7 @@ def plan_design(study, design: str, *, alpha="rotatable", center: int | None = N
     keep : optimal augmentation: the study's measured runs stay and the new
         runs are chosen around them.
     seed : seed of the run order and of the optimal builder (default the study's).
+    extra : definitive screening: runs added through fake factors (even).
     """
     seed = study.seed if seed is None else seed
     _check_count(center, "--center", 0)
@@ -115,6 +118,14 @@ def plan_design(study, design: str, *, alpha="rotatable", center: int | None = N
     if design == "optimal":
         return _optimal(study, runs=runs, criterion=criterion, model=model, keep=keep,
                         seed=seed, blocks=blocks, center=center)
+    if design == "definitive-screening" and not keep:
+        from .definitive import plan_definitive
+
+        return plan_definitive(study, extra=extra, blocks=blocks, center=center, runs=runs,
+                               seed=seed)
+    if extra:
+        raise PlanError("--extra adds runs to a definitive screening design only: use "
+                        "--design definitive-screening, or leave it out")
     if keep:
         raise PlanError("--keep chooses new runs around the measured ones, which only "
                         "--design optimal does: use --design optimal --keep")

@@ -116,6 +116,9 @@ def plan_command(args) -> tuple[dict, str]:
     design = getattr(args, "design", None) or "factorial"
     model_arg = _model_option(getattr(args, "model", None))
     kept = None
+    if getattr(args, "extra", 0) and design != "definitive-screening":
+        raise PlanError("--extra adds runs to a definitive screening design only: use "
+                        "--design definitive-screening, or leave it out")
     if design != "factorial" or getattr(args, "keep", False):
         from .layouts import plan_design
 
@@ -137,8 +140,9 @@ def plan_command(args) -> tuple[dict, str]:
         plan = plan_design(study, design, alpha=args.alpha or "rotatable",
                            center=args.center, blocks=args.blocks, runs=args.runs,
                            criterion=getattr(args, "criterion", "d"), model=model_arg,
-                           keep=keep, seed=args.seed)
-        model = model_arg or (("quadratic" if design != "optimal" else None)
+                           keep=keep, seed=args.seed, extra=getattr(args, "extra", 0) or 0)
+        model = model_arg or (("main" if design == "definitive-screening" else None)
+                              or ("quadratic" if design != "optimal" else None)
                               or (study.terms if study.terms is not None else study.model))
         kept = plan.kept
         if kept is not None:
@@ -201,6 +205,10 @@ def plan_command(args) -> tuple[dict, str]:
     from .layouts import prediction_figures
 
     report["prediction_variance"] = prediction_figures(study, plan, model, kept=kept)
+    if design == "definitive-screening":
+        from .definitive import screening_properties
+
+        report["screening"] = screening_properties(study, plan.coded.to_numpy(float))
     report["run_sheet"] = str(path)
     return report, plan_text(report, sheet, path)
 
@@ -240,7 +248,7 @@ def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
     if report.get("layout", "factorial") != "factorial":
         counts = sheet["point"].value_counts()
         parts = [f"{int(counts[k])} {k}" for k in ("factorial", "axial", "edge", "optimal",
-                                                   "centre") if k in counts]
+                                                   "fold-over", "centre") if k in counts]
         lines.append(f"Plan: {report['design']}: {' + '.join(parts)} = "
                      f"{sum(int(v) for k, v in counts.items() if k != 'kept')} new runs in "
                      f"{report['blocks_count']} block"
@@ -305,6 +313,10 @@ def plan_text(report: dict, sheet: pd.DataFrame, path: Path) -> str:
                      f"{pv['g_max_spv']:.4g}; 10/50/90 % of the region below "
                      f"{q['10%']:.4g} / {q['50%']:.4g} / {q['90%']:.4g}; D-efficiency "
                      f"{pv['d_efficiency']:.4g} %")
+    if report.get("screening"):
+        from .definitive import screening_lines
+
+        lines += screening_lines(report["screening"])
     notes = report["notes"] + m["notes"]
     if notes:
         lines.append("Notes:")

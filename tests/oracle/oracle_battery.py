@@ -61,6 +61,7 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_unjudged)
 from oracle_derive import check_derived
 from oracle_fit_text import check_fit_text
+from oracle_screening import check_screening_fit, check_screening_plan
 
 __all__ = ["Outcome", "run_battery", "TOP"]
 
@@ -197,6 +198,10 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
         if rc_text == 0:
             check_fit_text(json.loads(out), text, outcome)
 
+    rc, out = cli("fit", "--screening", "--json")
+    if rc == 0:
+        check_screening_fit(generated, study, json.loads(out), outcome)
+
     result = None
     rc, out = cli("optimize", "--json", "--top", TOP, "--seed", seed)
     if rc == 0:
@@ -229,6 +234,8 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
     rc, out = cli("plan", "--out", sheet, "--json", *plan_args)
     if rc == 0:
         check_plan(generated, study, sheet, plan_args, outcome)
+        if "definitive-screening" in plan_args:
+            check_screening_plan(generated, study, sheet, outcome)
 
     with _charts(charts):
         page = folder / "report.html"
@@ -259,6 +266,8 @@ def _plan_args(generated) -> list:
         return ["--design", "optimal", "--runs", 12, "--model", "main", "--seed", 3]
     if plots:  # a split-plot factorial, its whole plots replicated
         return ["--replicates", 2]
+    if "screening" in generated.features:
+        return ["--design", "definitive-screening", "--extra", 4, "--seed", 3]
     return []
 
 

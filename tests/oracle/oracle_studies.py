@@ -38,7 +38,7 @@ __all__ = ["KINDS", "Generated", "generate", "COMMANDS"]
 
 KINDS = ("numeric", "two_level", "levels", "mixture", "models", "pieces", "storage",
          "panel", "blocks", "confounded", "extra_columns", "no_factors", "mixed",
-         "mistakes", "whole_plots")
+         "mistakes", "whole_plots", "screening")
 
 
 def generate(pick, kind: str | None = None) -> Generated:
@@ -295,6 +295,28 @@ class _Builder(Parts, Files):
         self.design = pd.DataFrame(rows)
         self.study["model"] = self.pick.choice(["main", "interactions"])
         self.set_whole_plots(labels, hard)
+        self.responses_plain(self.pick.integer(1, 2))
+
+    def kind_screening(self):
+        """A definitive screening design (tests/oracle/oracle_screening.py) of 3 to 7
+        numeric factors, with 0 or 2 fake factors; now and then a run lost or added,
+        so the screening analysis must fall back to the ordinary model."""
+        from oracle_screening import paley_definitive
+
+        m = self.pick.integer(3, 7)
+        self.add_numeric(m)
+        self._extras(rules=False)
+        extra = self.pick.choice([0, 0, 2]) if m <= 5 else 0
+        coded = paley_definitive(m, extra)
+        if self.pick.chance(0.2):
+            coded = np.vstack([coded, [1.0] + [0.0] * (m - 1)]) if self.pick.chance(0.5) \
+                else coded[1:]
+            self.features.add("screening_broken")
+        num = self.region.numeric
+        self.design = pd.DataFrame([{f.name: float(fmt(f.natural(v))) for f, v in
+                                     zip(num, x)} for x in coded])
+        self.study["model"] = "main"
+        self.features.add("screening")
         self.responses_plain(self.pick.integer(1, 2))
 
     def kind_extra_columns(self):
