@@ -9,6 +9,7 @@ from pathlib import Path
 
 from ..errors import StudyError, did_you_mean
 from .shelf import TEMPERATURE_KINDS, kinetic_options
+from .panel_input import panel_layout
 from .storage import DIRECTIONS, ORDERS
 from .table import DERIVED_COLUMNS
 from ..study.spec import SECTION_KEYS, Response, Study
@@ -86,14 +87,18 @@ def _section(study: Study, name: str) -> dict | None:
         out["temperature"] = sec["temperature"].strip() if "temperature" in sec else None
     else:
         scale = sec.get("scale")
-        if not isinstance(scale, list) or len(scale) != 2:
-            raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
-                             "and highest score allowed, for example scale = [1, 9]")
-        lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
-        if lo >= hi:
-            raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
-                             "must come first and be below the high end")
-        out["scale"] = (lo, hi)
+        if scale is None and sec.get("attributes"):
+            out["scale"] = None  # every attribute brings its own ([[panel.attributes]])
+        else:
+            if not isinstance(scale, list) or len(scale) != 2:
+                raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
+                                 "and highest score allowed, for example scale = [1, 9]")
+            lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
+            if lo >= hi:
+                raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
+                                 "must come first and be below the high end")
+            out["scale"] = (lo, hi)
+        out.update(panel_layout(sec, fname, out["scale"]))
         agree = _num(sec.get("min_agreement", _DEFAULT_AGREEMENT), fname,
                      "[panel] min_agreement")
         if not -1 <= agree <= 1:

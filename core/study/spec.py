@@ -75,7 +75,9 @@ SECTION_KEYS: dict[str, set[str]] = {
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
     # long-form tables for derived responses (core/storage.py, core/panel.py)
     "storage": {"data", "sheet", "time", "time_unit", "temperature"},
-    "panel": {"data", "sheet", "scale", "min_agreement"},
+    "panel": {"data", "sheet", "scale", "min_agreement",
+              # the lab's own layout (core/derive/panel_input.py)
+              "columns", "layout", "attributes"},
     # blends (core/study/mixture.py)
     "components": {"name", "label", "unit", "low", "high"},
     "mixture": {"total", "model", "process"},
