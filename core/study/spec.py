@@ -69,7 +69,9 @@ SECTION_KEYS: dict[str, set[str]] = {
     | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
        "direction", "min_points", "extrapolate",
        # storage at several temperatures (core/derive/shelf.py)
-       "at_temperature", "estimate"},
+       "at_temperature", "estimate",
+       # a panel response modelled on its scores (core/model/panel_scores.py)
+       "fit_on"},
     "constraints": {"rule", "label"},
     # confirmation runs (core/confirm.py): one run per table, or data = "file"
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
