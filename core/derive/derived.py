@@ -436,7 +436,12 @@ def arrhenius_table(study: Study, name: str, *,
 
 def kinetic_tables(study: Study) -> dict:
     """Every response fitted across storage temperatures: name -> {"table":
-    its derivation table, "points": its Arrhenius table}, in study order."""
+    its derivation table, "points": its Arrhenius table}, in study order (none
+    when the storage table has no temperature column: one temperature, no
+    Arrhenius fit to show)."""
+    sec = _section(study, "storage")
+    if sec is None or sec["temperature"] is None:
+        return {}
     return {r.name: {"table": derivation_table(study, r.name),
                      "points": arrhenius_table(study, r.name)}
             for r in study.responses if r.extra.get("derive") in TEMPERATURE_KINDS}
