@@ -25,7 +25,8 @@ def panel_analysis(study: Study, *, panel=None, alpha: float = ALPHA) -> dict:
         res["scale"] = list(info["scale"])
         res["kind"] = info["kind"]
         res["labels"] = info["labels"]
-        res["sessions"] = sorted(set(sub["session"]) - {""})
+        sessions = sorted(set(sub["session"]) - {""})
+        res["sessions"] = sessions if len(sessions) > 1 else []
         out[attr] = res
     return {"attributes": out, "source": sec["data"].name}
 

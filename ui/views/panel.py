@@ -60,32 +60,16 @@ cols[1].metric("F for runs", _n(run["f"]),
                     f"{run['tested_against']} (assessors random)")
 cols[2].metric("p", _p(run["p"]))
 
-left, right = st.columns([5, 6])
+st.subheader("Analysis of variance")
+rows = []
+for key, row in res["anova"].items():
+    rows.append({"source": key, "df": row["df"], "mean square": _n(row["ms"]),
+                 "F": _n(row.get("f", float("nan"))), "p": _p(row.get("p", float("nan"))),
+                 "tested against": row.get("tested_against", "")})
+st.dataframe(pd.DataFrame(rows), hide_index=True)
+
+left, right = st.columns([1, 1])
 with left:
-    st.subheader("Analysis of variance")
-    rows = []
-    for key, row in res["anova"].items():
-        rows.append({"source": key, "df": row["df"], "mean square": _n(row["ms"]),
-                     "F": _n(row.get("f", float("nan"))),
-                     "p": _p(row.get("p", float("nan"))),
-                     "tested against": row.get("tested_against", "")})
-    st.dataframe(pd.DataFrame(rows), hide_index=True, use_container_width=True)
-    st.subheader("Assessors")
-    lines = retrain_lines(res)
-    if lines:
-        st.warning("To retrain or check:\n\n" + "\n".join(f"- {text.plain(x)}"
-                                                          for x in lines))
-    else:
-        st.success("Every assessor scores in line with the panel.")
-    table = pd.DataFrame([{
-        "assessor": a["assessor"], "own F": _n(a["f_runs"]), "p": _p(a["p_runs"]),
-        "agreement r": _n(a["agreement"], "{:.2f}"), "repeat SD": _n(a["repeat_sd"]),
-        "centre": _n(a["centre"]), "range": _n(a["range"])} for a in res["assessors"]])
-    st.dataframe(table, hide_index=True, use_container_width=True)
-    if not res["replicated"]:
-        st.caption("One session: an assessor's own F and repeatability need repeated "
-                   "sessions.")
-with right:
     st.subheader("Least-squares means")
     alike: dict = {}
     for k, g in enumerate(res["groups"]):
@@ -101,6 +85,23 @@ with right:
     st.caption(f"Runs sharing an alike-set number do not differ (Tukey-Kramer, family "
                f"confidence {100 * (1 - res['alpha']):g}%); {n_differ} of "
                f"{len(res['pairs'])} pairs differ.")
+with right:
+    st.subheader("Assessors")
+    lines = retrain_lines(res)
+    if lines:
+        st.warning("To retrain or check:\n\n" + "\n".join(f"- {text.plain(x)}"
+                                                            for x in lines))
+    else:
+        st.success("Every assessor scores in line with the panel.")
+    if not res["replicated"]:
+        st.caption("One session: an assessor's own F and repeatability need repeated "
+                   "sessions.")
+table = pd.DataFrame([{
+    "assessor": a["assessor"], "own F for runs": _n(a["f_runs"]), "p": _p(a["p_runs"]),
+    "agreement r": _n(a["agreement"], "{:.2f}"), "repeat SD": _n(a["repeat_sd"]),
+    "centre": _n(a["centre"]), "range": _n(a["range"]),
+    "offset": _n(a["offset"], "{:+.2f}")} for a in res["assessors"]])
+st.dataframe(table, hide_index=True)
 if result.get("notes"):
     with st.expander("Notes on the panel table"):
         for note in result["notes"]:
