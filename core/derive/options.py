@@ -34,8 +34,8 @@ _USES = {
     "activation_energy": {"property", "order", "min_points"},
     "q10": {"property", "order", "min_points", "at_temperature"},
     "rate_at": {"property", "order", "min_points", "at_temperature"},
-    "panel_mean": {"attribute", "min_points"},
-    "panel_adjusted": {"attribute", "min_points"},
+    "panel_mean": {"attribute", "min_points", "fit_on"},
+    "panel_adjusted": {"attribute", "min_points", "fit_on"},
 }
 _NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
           "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
@@ -174,6 +174,10 @@ def _options(study: Study, r: Response) -> dict:
                              "one I know: use 'up' (the property rises to the limit) or "
                              "'down' (it falls to it)")
         opts["direction"] = ex["direction"]
+    if "fit_on" in ex and ex["fit_on"] not in ("runs", "scores"):
+        raise StudyError(f"{fname}: {what}: fit_on = {ex['fit_on']!r}: use \"runs\" (the "
+                         "model of the run values) or \"scores\" (the model of the panel's "
+                         "scores, runs random)")
     opts.update(kinetic_options(ex, kind, fname, what))
     default_min = 2 if kind in PANEL_KINDS else 3
     mp = ex.get("min_points", default_min)

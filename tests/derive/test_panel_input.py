@@ -135,3 +135,22 @@ def test_wide_table_without_the_response_attribute(tmp_path, capsys):
     assert main(["check", str(path)]) == 2
     err = capsys.readouterr().err
     assert "no column 'sweetness' in the wide panel table for response 'sweet'" in err
+
+
+@pytest.mark.parametrize("extra, pattern", [
+    ('fit_on = "score"\n', r"fit_on = 'score': use \"runs\""),
+])
+def test_fit_on_is_checked_when_the_study_loads(tmp_path, capsys, extra, pattern):
+    import re
+
+    path = _write(tmp_path, MAPPED, _long_rows())
+    path.write_text(path.read_text().replace('upper = 100\n', 'upper = 100\n' + extra))
+    assert main(["check", str(path)]) == 2
+    assert re.search(pattern, capsys.readouterr().err)
+
+
+def test_fit_on_only_with_a_panel_response(tmp_path, capsys):
+    path = _write(tmp_path, MAPPED + '[[responses]]\nname = "x"\nfit_on = "scores"\n',
+                  _long_rows())
+    assert main(["check", str(path)]) == 2
+    assert "'fit_on' is only used with derive" in capsys.readouterr().err

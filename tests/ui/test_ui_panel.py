@@ -34,5 +34,6 @@ def test_panel_view_shows_each_attribute_and_the_typed_demo_has_none():
     at.selectbox(key="p_attribute").set_value("crunch").run()
     anova = at.dataframe[0].value
     assert "run x assessor" in list(anova["source"])
-    means = at.dataframe[2].value
+    means = at.dataframe[1].value
     assert len(means) == 20 and "alike-set" in means.columns
+    assert "own F for runs" in at.dataframe[2].value.columns
