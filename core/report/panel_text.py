@@ -37,9 +37,9 @@ def _attribute(name: str, res: dict) -> list[str]:
     out.append(f"  {'source':<16}{'df':>5}{'mean square':>14}{'F':>9}{'p':>9}  tested against")
     for key, row in res["anova"].items():
         if key == "residual":
-            out.append(f"  {key:<16}{row['df']:>5}{_num(row['ms']):>14}")
+            out.append(f"  {key:<16}{row['df']:>5}{_num(row['ms'], '.4g'):>14}")
             continue
-        out.append(f"  {key:<16}{row['df']:>5}{_num(row['ms']):>14}{_num(row['f']):>9}"
+        out.append(f"  {key:<16}{row['df']:>5}{_num(row['ms'], '.4g'):>14}{_num(row['f']):>9}"
                    f"{_p(row['p']):>9}  {row['tested_against']} "
                    f"({row['df_denominator']} df)")
     run = res["anova"]["run"]
