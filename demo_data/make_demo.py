@@ -12,7 +12,8 @@ Run it again to get the same files (the random seed is fixed):
 It writes, next to itself:
 - snack_bar_runs.csv     one row per run: settings and the per-run responses
 - snack_bar_storage.csv  hardness of every run at weeks 0, 2, 4, 8 and 12
-- snack_bar_panel.csv    every panel member's liking score for every run
+- snack_bar_panel.csv    every panel member's liking score for every run (one
+                         session), and a 1-5 crunchiness rating in two sessions
 - snack_bar_storage_temps.csv  hardness of every run stored at 20, 30 and 40 degC
 """
 from __future__ import annotations
@@ -120,6 +121,28 @@ def panel_table(coded: pd.DataFrame, rng) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
+def crunch_table(coded: pd.DataFrame) -> pd.DataFrame:
+    """Crunchiness on a 1-5 category scale, every assessor in two sessions.
+
+    Its own seeded stream, so the liking scores and the runs table stay as they
+    were before this attribute was added.
+    """
+    rng = np.random.default_rng(SEED + 27)
+    p, g, t = (coded[c].to_numpy(float) for c in "pgt")
+    # latent crunch: firmer with protein, softer with glycerol (invented)
+    latent = 0.8 * p - 0.6 * g + 0.2 * t
+    shift = rng.normal(0, 0.4, ASSESSORS)
+    rows = []
+    for session in ("1", "2"):
+        for i, run in enumerate(coded["run"]):
+            for a in range(ASSESSORS):
+                z = latent[i] + shift[a] + rng.logistic(0, 0.3)
+                score = int(np.digitize(z, [-1.2, -0.4, 0.4, 1.2]) + 1)
+                rows.append({"run": run, "assessor": f"A{a + 1:02d}",
+                             "attribute": "crunch", "score": score, "session": session})
+    return pd.DataFrame(rows)
+
+
 def runs_table(coded, storage, panel, rng) -> pd.DataFrame:
     p, g, b, t = (coded[c].to_numpy(float) for c in "pgbt")
     hardness = storage.pivot(index="run", columns="week", values="value")
@@ -158,11 +181,13 @@ def main() -> None:
     runs = runs_table(coded, storage, panel, rng)
     write_csv(runs, HERE / "snack_bar_runs.csv")
     write_csv(storage, HERE / "snack_bar_storage.csv")
-    write_csv(panel, HERE / "snack_bar_panel.csv")
+    panel_all = pd.concat([panel.assign(session="1"), crunch_table(coded)],
+                          ignore_index=True)
+    write_csv(panel_all, HERE / "snack_bar_panel.csv")
     temps = storage_temperature_table(coded)
     write_csv(temps, HERE / "snack_bar_storage_temps.csv")
     print(f"wrote {len(runs)} runs, {len(storage)} storage values, "
-          f"{len(panel)} panel scores to {HERE}")
+          f"{len(panel_all)} panel scores to {HERE}")
 
 
 if __name__ == "__main__":

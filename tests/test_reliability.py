@@ -332,7 +332,7 @@ CASES = [
          accept=_accept_panel_comma),
     Case("panel-score-outside-scale", _derived(panel=PANEL.replace("R2,A2,liking,6",
                                                                    "R2,A2,liking,60")),
-         error=r"^panel\.csv, row 7, column 'score': score 60 is outside the scale 1 to 9"),
+         error=r"^panel\.csv, row 7, column 'score': \w+ score 60 is outside its scale 1 to 9"),
     Case("panel-same-score-twice", _derived(panel=PANEL.replace("R2,A1,", "R1,A1,")),
          error=r"^panel\.csv, row 3, column 'assessor': assessor 'A1' scored 'liking' "
                r"of run 'R1' again \(first at row 2\)"),

@@ -28,6 +28,7 @@ pages = [
             default=True),
     st.Page("views/models.py", title="What drives each response",
             icon=":material/insights:"),
+    st.Page("views/panel.py", title="The panel", icon=":material/groups:"),
     st.Page("views/targets.py", title="Targets and weights", icon=":material/tune:"),
     st.Page("views/results.py", title="Recommended settings", icon=":material/flag:"),
     st.Page("views/downloads.py", title="Take it with you", icon=":material/download:"),

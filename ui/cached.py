@@ -344,3 +344,15 @@ def ternary_wash(study, fitted, components, settings: dict):
     (``tradeoff.ternary_grid``, zoomed to the blends the study allows)."""
     return _ternary_wash(study_keys(study)[1], study, fitted,
                          *_blend_items(study, components, settings))
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _panel(key: str, _study):
+    from tradeoff.model.panel_summary import panel_analysis
+
+    return panel_analysis(_study)
+
+
+def panel(study):
+    """The panel analysis of the open study (cached by the study as opened)."""
+    return _panel(origin_key(st.session_state["origin"]), study)

@@ -17,7 +17,8 @@ import pandas as pd
 
 from ..errors import DataError, StudyError, did_you_mean, where
 from ..study.intake import RawTable
-from .panel import adjusted_means, assessor_agreement, read_panel, run_means
+from .panel import adjusted_means, assessor_agreement, run_means
+from .panel_input import attribute_info, read_scores
 from .shelf import (TEMPERATURE_KINDS, arrhenius_points, derive_kinetic, describe_kinetic,
                     rows_at_temperature)
 from .storage import fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage
@@ -52,7 +53,7 @@ def _tables(study: Study, storage: RawTable | None, panel: RawTable | None,
         raw = panel if panel is not None else read_study_table(study, sec["data"],
                                                                sheet=sec["sheet"])
         out["panel"] = (sec, raw.source.name,
-                        read_panel(raw, scale=sec["scale"], run_ids=run_ids))
+                        read_scores(raw, sec, run_ids=run_ids))
     return out
 
 
@@ -336,6 +337,11 @@ def _derive_all(study: Study, storage, panel, only: str | None = None):
                 notes += _storage_gaps(study, sub, o["property"], sec, fname)
             table, extra = _derive_storage(study, r, o, sec, fname, sub)
         else:
+            if sec.get("layout") == "wide" and o["attribute"] not in set(frame["attribute"]):
+                found = sorted(set(frame["attribute"]))
+                raise DataError(f"{fname}: no column '{o['attribute']}' in the wide panel "
+                                f"table for response '{r.name}': its attribute columns are "
+                                f"{found}{did_you_mean(o['attribute'], found)}")
             sub = _subset(frame, "attribute", o["attribute"], fname, r)
             if ("panel", o["attribute"]) not in seen:
                 seen.add(("panel", o["attribute"]))
@@ -430,7 +436,12 @@ def arrhenius_table(study: Study, name: str, *,
 
 def kinetic_tables(study: Study) -> dict:
     """Every response fitted across storage temperatures: name -> {"table":
-    its derivation table, "points": its Arrhenius table}, in study order."""
+    its derivation table, "points": its Arrhenius table}, in study order (none
+    when the storage table has no temperature column: one temperature, no
+    Arrhenius fit to show)."""
+    sec = _section(study, "storage")
+    if sec is None or sec["temperature"] is None:
+        return {}
     return {r.name: {"table": derivation_table(study, r.name),
                      "points": arrhenius_table(study, r.name)}
             for r in study.responses if r.extra.get("derive") in TEMPERATURE_KINDS}
@@ -466,8 +477,8 @@ def describe_derivation(study: Study, response: Response) -> str:
                     f"each run's {p} on {t} in {src}, at least {o['min_points']} points; "
                     "R-squared gives the fit quality")
     sec = _section(study, "panel")
-    lo, hi = sec["scale"]
     a, src = o["attribute"], sec["data"].name
+    lo, hi = attribute_info(sec, a)["scale"]
     if o["kind"] == "panel_mean":
         return (f"mean {a} score per run over the assessors who scored it (scale {lo:g} "
                 f"to {hi:g}) from {src}, with its standard error")

@@ -31,16 +31,17 @@ def _products(study: Study) -> RawTable:
             continue
         raw = read_study_table(study, sec["data"], sheet=sec["sheet"])
         fname = raw.source.name
-        if "run" not in raw.header:
-            raise DataError(f"{fname}: no column 'run' (found "
+        run_col = sec.get("columns", {}).get("run", "run")
+        if run_col not in raw.header:
+            raise DataError(f"{fname}: no column '{run_col}' (found "
                             f"{[h for h in raw.header if h]}): give every row the id of "
                             "the product (or batch) it was measured on, for example P1")
-        i = raw.header.index("run")
+        i = raw.header.index(run_col)
         first: dict[str, int] = {}
         for row, cells in raw.rows:
             cell = cells[i] if i < len(cells) else None
             if cell is None or not cell_text(cell):
-                raise DataError(f"{where(fname, row, 'run')}blank run id: give every row "
+                raise DataError(f"{where(fname, row, run_col)}blank run id: give every row "
                                 "the id of the product (or batch) it was measured on")
             first.setdefault(cell_text(cell), row)
         if not first:

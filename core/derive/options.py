@@ -9,6 +9,7 @@ from pathlib import Path
 
 from ..errors import StudyError, did_you_mean
 from .shelf import TEMPERATURE_KINDS, kinetic_options
+from .panel_input import panel_layout
 from .storage import DIRECTIONS, ORDERS
 from .table import DERIVED_COLUMNS
 from ..study.spec import SECTION_KEYS, Response, Study
@@ -33,8 +34,8 @@ _USES = {
     "activation_energy": {"property", "order", "min_points"},
     "q10": {"property", "order", "min_points", "at_temperature"},
     "rate_at": {"property", "order", "min_points", "at_temperature"},
-    "panel_mean": {"attribute", "min_points"},
-    "panel_adjusted": {"attribute", "min_points"},
+    "panel_mean": {"attribute", "min_points", "fit_on"},
+    "panel_adjusted": {"attribute", "min_points", "fit_on"},
 }
 _NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
           "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
@@ -86,14 +87,18 @@ def _section(study: Study, name: str) -> dict | None:
         out["temperature"] = sec["temperature"].strip() if "temperature" in sec else None
     else:
         scale = sec.get("scale")
-        if not isinstance(scale, list) or len(scale) != 2:
-            raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
-                             "and highest score allowed, for example scale = [1, 9]")
-        lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
-        if lo >= hi:
-            raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
-                             "must come first and be below the high end")
-        out["scale"] = (lo, hi)
+        if scale is None and sec.get("attributes"):
+            out["scale"] = None  # every attribute brings its own ([[panel.attributes]])
+        else:
+            if not isinstance(scale, list) or len(scale) != 2:
+                raise StudyError(f"{fname}: [panel] needs scale = [low, high], the lowest "
+                                 "and highest score allowed, for example scale = [1, 9]")
+            lo, hi = (_num(v, fname, "[panel] scale") for v in scale)
+            if lo >= hi:
+                raise StudyError(f"{fname}: [panel] scale = [{lo:g}, {hi:g}]: the low end "
+                                 "must come first and be below the high end")
+            out["scale"] = (lo, hi)
+        out.update(panel_layout(sec, fname, out["scale"]))
         agree = _num(sec.get("min_agreement", _DEFAULT_AGREEMENT), fname,
                      "[panel] min_agreement")
         if not -1 <= agree <= 1:
@@ -169,6 +174,10 @@ def _options(study: Study, r: Response) -> dict:
                              "one I know: use 'up' (the property rises to the limit) or "
                              "'down' (it falls to it)")
         opts["direction"] = ex["direction"]
+    if "fit_on" in ex and ex["fit_on"] not in ("runs", "scores"):
+        raise StudyError(f"{fname}: {what}: fit_on = {ex['fit_on']!r}: use \"runs\" (the "
+                         "model of the run values) or \"scores\" (the model of the panel's "
+                         "scores, runs random)")
     opts.update(kinetic_options(ex, kind, fname, what))
     default_min = 2 if kind in PANEL_KINDS else 3
     mp = ex.get("min_points", default_min)

@@ -117,6 +117,26 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     _, ids, block = _runs if _runs is not None else (None, study.runs["run"].to_numpy(),
                                                      study.block_labels())
     y = study.runs[name].to_numpy(dtype=float)
+    from .panel_scores import fits_on_scores
+
+    if fits_on_scores(response):
+        from .panel_scores import NO_RUN_DF  # the panel's scores, runs random (panel_scores.py)
+        from .panel_scores import score_data
+        from .wholeplot import WholePlotModel
+
+        d = score_data(study, response)
+        # the run values' own fit says whether the runs leave df for a run-to-run SD
+        runs_df = ResponseModel(**options).fit(X, y, ids, block=block).residual_df_
+        options.update(block_name="assessor")
+        if runs_df >= 1:
+            model = WholePlotModel(whole_plot_name="run", **options)
+            model.fit(d["X"], d["y"], d["ids"], block=d["assessor"], whole_plot=d["run"])
+        else:
+            model = ResponseModel(**options)
+            model.fit(d["X"], d["y"], d["ids"], block=d["assessor"])
+            model._warnings.append(NO_RUN_DF)
+        model.fit_on_ = "scores"
+        return model
     if plots is not None:  # runs sharing a batch: a random intercept per whole plot
         from .wholeplot import WholePlotModel
 

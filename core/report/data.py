@@ -56,7 +56,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         curves), ``warnings`` (list of text), ``specification`` (TOML text),
         ``provenance`` (dict), ``top``, ``seed``, ``kinetics`` (response ->
         {"table": derivation table, "points": Arrhenius table} for the
-        responses fitted across storage temperatures) and ``cautions`` (the
+        responses fitted across storage temperatures), ``panel`` (the panel
+        analysis of ``model.panel_summary`` with its ``notes``, or None) and
+        ``cautions`` (the
         food cautions, plus the accelerated-storage ones when storage at
         several temperatures was fitted) and ``derived`` (a study without
         factors: response -> its derivation table, the study's results; empty
@@ -126,12 +128,21 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     seen: set[str] = set()
     warnings = [w for w in warnings if not (w in seen or seen.add(w))]
 
+    panel = None
+    if study.spec.get("panel") is not None:
+        from ..model.panel_summary import panel_analysis
+
+        panel = panel_analysis(study)
+        # notes about assessors belong with the panel's own analysis, not the warnings
+        panel["notes"] = [w for w in warnings if w.startswith("panel '")]
+        warnings = [w for w in warnings if not w.startswith("panel '")]
     kinetics = kinetic_tables(study)
     derived = ({r.name: derivation_table(study, r.name) for r in study.responses
                 if r.is_derived} if not study.factors else {})
     several = any((k["points"]["series"] == "one-step fit").any() for k in kinetics.values())
     return {
         "kinetics": kinetics,
+        "panel": panel,
         "derived": derived,
         "cautions": list(CAUTIONS) + (list(ACCELERATED_CAUTIONS) if several else []),
         "study": study_summary(study),

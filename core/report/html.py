@@ -20,6 +20,7 @@ import json
 from .data import CAUTIONS, _provenance_rows, report_data
 from .evidence import _EvidenceSections
 from .map_sections import _MapSections
+from .panel_sections import _PanelSections
 from .product_sections import _ProductSections
 from .sections import _AnswerSections, _table, esc
 from .ternary_sections import _TernarySections
@@ -108,7 +109,7 @@ pre { background:#f4f2ee; border:1px solid var(--line); padding:10px 12px;
 
 
 class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
-            _ProductSections):
+            _ProductSections, _PanelSections):
     """Renders the report's sections from ``report_data``'s dict."""
 
     # -- the page
@@ -125,6 +126,7 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
             ("models", "What drives each response", self.models()),
             *([("kinetics", "Storage kinetics", self.kinetics())]
               if self.data.get("kinetics") else []),
+            *([("panel", "The panel", self.panel())] if self.has_panel() else []),
             ("design", "The runs (design)", self.design()),
             ("warnings", "Warnings", self.warnings()),
             ("cautions", "Cautions", self.cautions()),
@@ -140,6 +142,7 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
             ("derived", "Derived values", self.derived_values()),
             *([("kinetics", "Storage kinetics", self.kinetics())]
               if self.data.get("kinetics") else []),
+            *([("panel", "The panel", self.panel())] if self.has_panel() else []),
             ("design", "The products", self.products()),
             ("warnings", "Warnings", self.warnings()),
             ("cautions", "Cautions", self.cautions()),

@@ -69,13 +69,17 @@ SECTION_KEYS: dict[str, set[str]] = {
     | {"derive", "property", "attribute", "at", "from", "relative", "order", "limit",
        "direction", "min_points", "extrapolate",
        # storage at several temperatures (core/derive/shelf.py)
-       "at_temperature", "estimate"},
+       "at_temperature", "estimate",
+       # a panel response modelled on its scores (core/model/panel_scores.py)
+       "fit_on"},
     "constraints": {"rule", "label"},
     # confirmation runs (core/confirm.py): one run per table, or data = "file"
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},
     # long-form tables for derived responses (core/storage.py, core/panel.py)
     "storage": {"data", "sheet", "time", "time_unit", "temperature"},
-    "panel": {"data", "sheet", "scale", "min_agreement"},
+    "panel": {"data", "sheet", "scale", "min_agreement",
+              # the lab's own layout (core/derive/panel_input.py)
+              "columns", "layout", "attributes"},
     # blends (core/study/mixture.py)
     "components": {"name", "label", "unit", "low", "high"},
     "mixture": {"total", "model", "process"},

@@ -349,7 +349,7 @@ LIKE = '[[responses]]\nname = "l"\nderive = "panel_mean"\nattribute = "liking"\n
     (RATE + 'order = "first"\n', STORAGE + "R1,6,hardness,0\n", PANEL,
      r"storage\.csv, row 15, column 'value': response 'h' uses a first-order"),
     (LIKE, STORAGE, PANEL + "R1,A4,liking,12\n",
-     r"panel\.csv, row 11, column 'score': score 12 is outside the scale 1 to 9"),
+     r"panel\.csv, row 11, column 'score': liking score 12 is outside its scale 1 to 9"),
     (LIKE, STORAGE, PANEL + "R1,A1,liking,4\n",
      r"panel\.csv, row 11, column 'assessor': assessor 'A1' scored 'liking' of run 'R1' "
      r"again \(first at row 2\)"),

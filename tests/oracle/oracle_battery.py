@@ -35,7 +35,9 @@ loads and fits the same study through the public API, and checks:
   as the models say; a plan's run sheet lies in the region; each confirmation
   is compared with the interval for the mean of its m runs;
 - ``derive``: derived responses equal a recomputation from the raw storage
-  and panel tables (oracle_derive.py);
+  and panel tables (oracle_derive.py); ``panel``: the panel command's run F
+  and degrees of freedom equal a recomputation (mapped, wide and
+  two-session panel tables included);
 - ``unjudged``, ``unused_columns``, ``display``, ``error_line``: a factor the
   data cannot judge is held at its ``hold`` level (else its first) and named,
   a level without runs is never chosen; every unused column of the data file
@@ -59,7 +61,7 @@ from pathlib import Path
 from oracle_checks import (check_confirm, check_fit, check_next, check_plan, check_report_html,
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged)
-from oracle_derive import check_derived
+from oracle_derive import check_derived, check_panel
 from oracle_fit_text import check_fit_text
 from oracle_screening import check_screening_fit, check_screening_plan
 
@@ -186,6 +188,10 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
         return
     if generated.derived:
         check_derived(generated, study, outcome)
+    if "panel" in generated.features:
+        rc, out = cli("panel", "--json")
+        if rc == 0:
+            check_panel(generated, json.loads(out), outcome)
     try:
         fit = tradeoff.fit_study(study)
     except tradeoff.TradeoffError:

@@ -36,7 +36,7 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, stats
 
-__all__ = ["check_derived"]
+__all__ = ["check_derived", "panel_long", "check_panel"]
 
 _SIMPLE = ("panel_mean", "panel_adjusted", "value_at", "change", "rate", "time_to_limit",
            "shelf_life")
@@ -47,7 +47,7 @@ R_GAS = 8.314462618  # J/(mol K), CODATA 2018 (exact)
 def check_derived(generated, study, outcome) -> None:
     """Each derived value per run equals the reference (relative 1e-6)."""
     storage = _table(generated, "storage.csv")
-    panel = _table(generated, "panel.csv")
+    panel = panel_long(generated)
     for r in generated.spec.get("responses", []):
         kind = r.get("derive")
         if kind not in _SIMPLE + _ARRHENIUS:
@@ -78,6 +78,21 @@ def check_derived(generated, study, outcome) -> None:
             if not same:
                 outcome.fail("derive", "check", f"'{r['name']}' ({kind}) of run {run} is "
                              f"{value!r}, recomputed from the raw table: {ref!r}")
+
+
+def panel_long(generated) -> pd.DataFrame | None:
+    """The generated panel table as run, assessor, attribute, score (and session),
+    undoing the study's column names and wide layout by hand."""
+    table = _table(generated, "panel.csv")
+    if table is None:
+        return None
+    spec = getattr(generated, "spec", {}).get("panel", {})
+    back = {v: k for k, v in spec.get("columns", {}).items()}
+    table = table.rename(columns=back)
+    if spec.get("layout") == "wide":
+        keys = [c for c in ("run", "assessor", "session") if c in table.columns]
+        table = table.melt(id_vars=keys, var_name="attribute", value_name="score")
+    return table
 
 
 def _table(generated, name):
@@ -200,3 +215,38 @@ def _arrhenius(g: pd.DataFrame, r: dict) -> float:
     if (k_at <= 0) if up else (k_at >= 0):
         return math.nan
     return (limit - v0) / k_at
+
+
+def check_panel(generated, printed: dict, outcome) -> None:
+    """``tradeoff panel --json``: each attribute's run F and its df equal a
+    least-squares recomputation (score ~ run + assessor, type II; with sessions,
+    run tested against run x assessor), written out here with numpy."""
+    table = panel_long(generated)
+    for attr, part in table.groupby("attribute"):
+        part = part[part["score"].astype(str) != ""]
+        y = part["score"].astype(float).to_numpy()
+        run = pd.get_dummies(part["run"]).to_numpy(float)
+        judge = pd.get_dummies(part["assessor"]).to_numpy(float)
+        cell = pd.get_dummies(part["run"] + "|" + part["assessor"]).to_numpy(float)
+
+        def rss(*blocks):
+            x = np.column_stack([np.ones(len(y)), *blocks])
+            beta = np.linalg.lstsq(x, y, rcond=None)[0]
+            return float(((y - x @ beta) ** 2).sum()), np.linalg.matrix_rank(x)
+
+        full, r_full = rss(run, judge)
+        only_a, r_a = rss(judge)
+        df_run = r_full - r_a
+        den, df_den = full, len(y) - r_full
+        if cell.shape[1] < len(y):
+            inter, r_int = rss(cell)
+            den, df_den = full - inter, r_int - r_full
+        got = printed["attributes"].get(attr, {}).get("anova", {}).get("run", {})
+        want_f = ((only_a - full) / df_run) / (den / df_den) if df_den > 0 and den > 0 \
+            else None
+        if got.get("df") != df_run or got.get("df_denominator") != df_den or (
+                want_f is not None and not math.isclose(got.get("f") or -1, want_f,
+                                                        rel_tol=1e-6)):
+            outcome.fail("panel", "panel", f"'{attr}': run F {got.get('f')} on "
+                         f"{got.get('df')} and {got.get('df_denominator')} df; recomputed "
+                         f"{want_f} on {df_run} and {df_den}")

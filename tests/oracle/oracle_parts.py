@@ -372,24 +372,54 @@ class Parts:
         return (lo + hi) / 2
 
     def panel(self) -> None:
-        """A panel table (run, assessor, attribute, score on 1..9) and its means."""
+        """A panel table and its means: liking on 1..9, sometimes a second attribute
+        on a 1..5 category scale, a second session, the lab's own column names or
+        one column per attribute (``layout = "wide"``)."""
         self.features.add("panel")
         n = len(self.design)
         mu = np.clip(5 + 1.2 * Truth(self.rng, self.region)(self.design), 1.5, 8.5)
         ids = self._run_ids()
         assessors = [f"A{j + 1:02d}" for j in range(self.pick.integer(4, 7))]
         bias = self.rng.normal(0, 0.6, len(assessors))
+        sessions = ["1", "2"] if self.pick.chance(0.3) else [""]
+        category = self.pick.chance(0.4)
+        wide = self.pick.chance(0.3)
+        names = ({"run": "sample", "assessor": "judge", "attribute": "what",
+                  "score": "mark", "session": "sitting"} if self.pick.chance(0.4)
+                 else {k: k for k in ("run", "assessor", "attribute", "score", "session")})
         rows = []
         for i in range(n):
             tasted = [j for j in range(len(assessors)) if self.rng.random() < 0.85]
             if len(tasted) < 2:
                 tasted = [0, 1]
             for j in tasted:
-                score = int(np.clip(round(mu[i] + bias[j] + self.rng.normal(0, 0.7)), 1, 9))
-                rows.append({"run": ids[i], "assessor": assessors[j],
-                             "attribute": "liking", "score": score})
+                for s in sessions:
+                    scores = {"liking": int(np.clip(round(mu[i] + bias[j] + self.rng.normal(
+                        0, 0.7)), 1, 9))}
+                    if category:
+                        scores["crunch"] = int(np.clip(round(mu[i] / 2 + self.rng.normal(
+                            0, 0.6)), 1, 5))
+                    base = {names["run"]: ids[i], names["assessor"]: assessors[j]}
+                    if s:
+                        base[names["session"]] = s
+                    if wide:
+                        rows.append({**base, **scores})
+                    else:
+                        rows += [{**base, names["attribute"]: a, names["score"]: v}
+                                 for a, v in scores.items()]
         self.files["panel.csv"] = pd.DataFrame(rows).to_csv(index=False).encode()
         self.spec_panel = {"data": "panel.csv", "scale": [1, 9]}
+        mapped = {k: v for k, v in names.items() if k != v
+                  and not (wide and k in ("attribute", "score"))
+                  and not (k == "session" and not sessions[0])}
+        if mapped:
+            self.spec_panel["columns"] = mapped
+        if wide:
+            self.spec_panel["layout"] = "wide"
+        if category:
+            self.spec_panel["attributes"] = [{"name": "crunch", "scale": [1, 5],
+                                              "kind": "category"}]
+        self.expect["panel"] = {0}
         for kind in self.pick.choice([("panel_mean",), ("panel_adjusted",),
                                       ("panel_mean", "panel_adjusted")]):
             name = f"liking_{kind.split('_')[1]}"
