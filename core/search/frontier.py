@@ -24,6 +24,7 @@ import numpy as np
 
 from ..errors import SearchError
 from .candidates import _candidate_batch
+from .frontier_result import _merit, _non_dominated, goal_sense
 from .problem import _Problem, _models_of, _no_goal_error, _rule_parts
 
 __all__ = ["frontier", "goal_sense"]
@@ -31,21 +32,6 @@ __all__ = ["frontier", "goal_sense"]
 _STEP = 1e-5  # central-difference step, coded units (as the search's polish)
 _INSIDE = 1e-6  # limits are met this far inside (goal widths), so d > 0 strictly
 _BLOCK = 30  # at most this many variables in one block-diagonal solve
-
-
-def goal_sense(goal):
-    """The frontier's direction of a goal: (+1 maximise, -1 minimise, 0 target)."""
-    return {"maximize": 1.0, "minimize": -1.0, "target": 0.0}[goal.kind]
-
-
-def _merit(problem, cols, Y):
-    """(n, len(cols)) goal values in their directions (larger is better)."""
-    out = np.empty((len(Y), len(cols)))
-    for j, i in enumerate(cols):
-        g = problem.goals[i]
-        s = goal_sense(g)
-        out[:, j] = s * Y[:, i] if s else -np.abs(Y[:, i] - g.target)
-    return out
 
 
 def _columns(problem, between) -> list[int]:
@@ -162,19 +148,6 @@ def _acceptable(problem, X) -> np.ndarray:
     Y = problem.values(X)
     D, d = problem.score(Y)
     return problem.feasible(X) & (d > 0).all(axis=1) & np.isfinite(Y).all(axis=1)
-
-
-def _non_dominated(F, tol=1e-9) -> np.ndarray:
-    """Indices of rows of F (larger is better) no other row dominates, duplicates once."""
-    order = np.lexsort(F.T[::-1])[::-1]  # best first goal first
-    keep = []
-    for i in order.tolist():
-        f = F[i]
-        if any(np.all(F[j] >= f - tol) for j in keep):
-            continue  # dominated by (or the same as) a kept point
-        keep = [j for j in keep if not np.all(f >= F[j] - tol)]
-        keep.append(i)
-    return np.array(sorted(keep, key=lambda j: tuple(-F[j])), dtype=int)
 
 
 def _spread(F, n) -> np.ndarray:

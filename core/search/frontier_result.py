@@ -20,7 +20,7 @@ import pandas as pd
 from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
 from .result import _result, _rounder
 
-__all__ = ["Frontier", "knee_index", "exchange_table", "nice_step"]
+__all__ = ["Frontier", "knee_index", "exchange_table", "nice_step", "goal_sense"]
 
 
 @dataclass(frozen=True)
@@ -184,6 +184,34 @@ def _rounded(p: dict, r) -> dict:
     return out
 
 
+def goal_sense(goal):
+    """The frontier's direction of a goal: (+1 maximise, -1 minimise, 0 target)."""
+    return {"maximize": 1.0, "minimize": -1.0, "target": 0.0}[goal.kind]
+
+
+def _merit(problem, cols, Y):
+    """(n, len(cols)) goal values in their directions (larger is better)."""
+    out = np.empty((len(Y), len(cols)))
+    for j, i in enumerate(cols):
+        g = problem.goals[i]
+        s = goal_sense(g)
+        out[:, j] = s * Y[:, i] if s else -np.abs(Y[:, i] - g.target)
+    return out
+
+
+def _non_dominated(F, tol=1e-9) -> np.ndarray:
+    """Indices of rows of F (larger is better) no other row dominates, duplicates once."""
+    order = np.lexsort(F.T[::-1])[::-1]  # best first goal first
+    keep = []
+    for i in order.tolist():
+        f = F[i]
+        if any(np.all(F[j] >= f - tol) for j in keep):
+            continue  # dominated by (or the same as) a kept point
+        keep = [j for j in keep if not np.all(f >= F[j] - tol)]
+        keep.append(i)
+    return np.array(sorted(keep, key=lambda j: tuple(-F[j])), dtype=int)
+
+
 def nice_step(x: float) -> float:
     """x rounded down to 1, 2 or 5 times a power of ten (a readable step)."""
     if not x > 0 or not math.isfinite(x):
@@ -243,8 +271,6 @@ def exchange_table(values_a, values_b, merit_a, merit_b) -> pd.DataFrame:
 
 def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Frontier:
     """The Frontier of the chosen points X (coded, frontier order) and the D optimum."""
-    from .frontier import _merit, _non_dominated
-
     names = problem.names()
     between = tuple(names[i] for i in cols)
     Xall = np.vstack([X, x_opt[None, :]])
