@@ -11,12 +11,12 @@ import sys
 
 from .. import __version__
 from ..errors import TradeoffError
-from . import app, check, confirm, fit, next_runs, optimize, panel, plan, report
+from . import app, check, confirm, fit, frontier, next_runs, optimize, panel, plan, report
 
 __all__ = ["main", "build_parser"]
 
 # In the order ``tradeoff --help`` lists them: the order of a study's life.
-COMMANDS = (check, fit, panel, plan, report, confirm, optimize, next_runs, app)
+COMMANDS = (check, fit, panel, plan, report, confirm, optimize, frontier, next_runs, app)
 
 
 class _Parser(argparse.ArgumentParser):
