@@ -17,6 +17,7 @@ from .mixture import bound_warnings
 from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
 from .production import production_chance
+from .rounding import clean_value, lab_recipes
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
@@ -104,6 +105,12 @@ class Solution:
         and no production ranking was asked for.
     d_given_up : float
         How much lower D is here than at the best balance found.
+    found_settings : dict
+        The settings the search ended on, before rounding to each factor's
+        step (``tradeoff.search.rounding``); every other figure is for
+        ``settings``, the rounded recipe.
+    found_desirability : float or None
+        D at ``found_settings``.
     """
 
     rank: int
@@ -121,6 +128,8 @@ class Solution:
     proportions: dict = field(default_factory=dict)
     chance_all_production: float | None = None
     d_given_up: float = 0.0
+    found_settings: dict = field(default_factory=dict)
+    found_desirability: float | None = None
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
@@ -145,6 +154,9 @@ class Solution:
             "d_given_up": r(self.d_given_up),
             "out_of_limits": list(self.out_of_limits),
             "warnings": list(self.warnings),
+            "found": {"settings": {k: (v if isinstance(v, str) else r(v))
+                                   for k, v in self.found_settings.items()},
+                      "desirability": r(self.found_desirability)},
         } | blend
 
 
@@ -184,6 +196,8 @@ class OptimizationResult:
         cannot judge their levels: ``factor``, ``why``, ``held_at`` (the level
         held, or None) and ``left_out`` (levels not searched); see
         ``tradeoff.search.informed``.
+    steps : dict
+        Numeric factor name -> the step its settings are rounded to.
     """
 
     study: str
@@ -199,6 +213,16 @@ class OptimizationResult:
     aim: str = "balance"
     production_sd: dict = field(default_factory=dict)
     not_informed: tuple = ()
+    steps: dict = field(default_factory=dict)
+    step_units: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def rounding_note(self) -> str:
+        """What the settings are rounded to, in a sentence."""
+        steps = ", ".join(f"{k} {_g(v)} {self.step_units.get(k, '')}".strip()
+                          for k, v in self.steps.items())
+        return (f"settings are rounded to steps a lab can weigh or set ({steps}; change "
+                "one with step = <amount> under the factor); every figure is for the "
+                "rounded recipe")
 
     def not_informed_notes(self) -> tuple[str, ...]:
         """One sentence per factor in ``not_informed``, for a reader."""
@@ -223,6 +247,7 @@ class OptimizationResult:
             "seed": self.seed, "production_sd": dict(self.production_sd),
             "feasible": self.feasible, "unreachable": list(self.unreachable),
             "not_informed": [dict(n) for n in self.not_informed],
+            "steps": dict(self.steps),
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
             "cautions": list(FOOD_CAUTIONS),
             "evaluations": self.evaluations,
@@ -303,6 +328,8 @@ class OptimizationResult:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
                 lines.append(f"  note: {w}")
+        if self.steps:
+            lines.append("rounded: " + self.rounding_note())
         for n in self.not_informed_notes():
             lines.append("not informed: " + n)
         for w in self.warnings:
@@ -348,6 +375,11 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     With ``aim == "production"``, ``X[0]`` is the setting most likely to hold
     in production: it comes first and the rest follow ``rank_by``.
     """
+    found = np.atleast_2d(np.asarray(X, dtype=float))
+    D_found = problem.score(problem.values(found))[0]
+    # Every figure below is for the recipe a lab can make (search/rounding.py).
+    X, source = lab_recipes(study, problem, found)
+    found, D_found = found[source], D_found[source]
     Y = problem.values(X)
     D, d = problem.score(Y)
     S = problem.shortfall(Y)
@@ -388,7 +420,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 settings[f.name] = str(decode_values(f, x[j:j + 1])[0])
                 coded[f.name] = int(x[j])
             else:
-                settings[f.name] = float(f.centre + f.half_range * x[j])
+                settings[f.name] = clean_value(f, float(f.centre + f.half_range * x[j]))
                 coded[f.name] = float(x[j])
                 if is_component(f):  # 1 - (the others) leaves rounding dust at a bound
                     settings[f.name] = round(settings[f.name], 12) + 0.0
@@ -427,7 +459,11 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                          if is_component(f)},
             chance_all_production=(_finite(held[i]) if held is not None and
                                    chances.responses else None),
-            d_given_up=max(0.0, d_best - float(D[i]))))
+            d_given_up=max(0.0, d_best - float(D[i])),
+            found_settings={f.name: (settings[f.name] if f.is_categorical else
+                                     float(f.centre + f.half_range * found[i, j]))
+                            for j, f in enumerate(study.factors)},
+            found_desirability=float(D_found[i])))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
@@ -450,7 +486,9 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         feasible=feasible, unreachable=unreachable, warnings=tuple(general) + tuple(extra_notes),
         assumptions=assumptions, evaluations=problem.evaluations,
         correlation=chances.correlation, aim=aim, production_sd=spread_sd,
-        not_informed=tuple(problem.not_informed))
+        not_informed=tuple(problem.not_informed),
+        steps={f.name: f.lab_step for f in study.factors if not f.is_categorical},
+        step_units={f.name: f.unit for f in study.factors if not f.is_categorical})
 
 
 def _interval_array(model, X, level) -> np.ndarray:

@@ -17,7 +17,7 @@ from ..errors import StudyError, did_you_mean
 
 __all__ = [
     "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
-    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL",
+    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL", "default_step",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
@@ -55,6 +55,8 @@ SECTION_KEYS: dict[str, set[str]] = {
               "whole_plot"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search",
                 "production_sd",
+                # the smallest amount a lab weighs or sets (core/search/rounding.py)
+                "step",
                 # the level the search holds when the data cannot judge the factor
                 # (core/search/informed.py)
                 "hold",
@@ -77,7 +79,7 @@ SECTION_KEYS: dict[str, set[str]] = {
     "storage": {"data", "sheet", "time", "time_unit", "temperature"},
     "panel": {"data", "sheet", "scale", "min_agreement"},
     # blends (core/study/mixture.py)
-    "components": {"name", "label", "unit", "low", "high"},
+    "components": {"name", "label", "unit", "low", "high", "step"},
     "mixture": {"total", "model", "process"},
 }
 # The sections study_to_dict writes itself; any other top-level section
@@ -134,6 +136,8 @@ class Factor:
     hold: str | None = None
     # set once per whole plot (batch, oven load, day): study/whole_plots.py
     hard_to_change: bool = False
+    # numeric: the smallest amount a lab weighs or sets (None: from the range, ``lab_step``)
+    step: float | None = None
 
     @property
     def is_categorical(self) -> bool:
@@ -154,8 +158,30 @@ class Factor:
             return None
         return self.search if self.search is not None else (self.low, self.high)
 
+    @property
+    def lab_step(self) -> float | None:
+        """The step recommended settings are rounded to (numeric factors).
+
+        ``step`` when the study file gives one; else the power of ten that cuts
+        the range low..high into 20 to 200 steps (a 10 % range: 0.1 %; 40 to
+        60 degC: 1 degC), fine enough that rounding moves a setting by at most
+        a fortieth of its range, coarse enough to weigh or dial in.
+        """
+        if self.is_categorical:
+            return None
+        if self.step is not None:
+            return self.step
+        return default_step(self.high - self.low)
+
     def display(self) -> str:
         return f"{self.label} ({self.unit})" if self.unit else self.label
+
+
+def default_step(span: float) -> float:
+    """The power of ten that cuts ``span`` into 20 to 200 steps."""
+    import math
+
+    return 10.0 ** math.floor(math.log10(span / 20.0)) if span > 0 else 1.0
 
 
 @dataclass(frozen=True)
