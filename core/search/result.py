@@ -398,7 +398,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         held = production_chance(study, models, X, draws=draws, seed=seed).all
     elif rank_by == "production" or aim == "production":
         held = chances.all  # no spread: the chance in production is the ordinary one
-    order = np.arange(len(X))
+    # by D at the recipes (rounding can reorder peaks of nearly equal D)
+    order = np.lexsort((S, -D))
     if rank_by == "chance":
         order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
     elif rank_by == "production":

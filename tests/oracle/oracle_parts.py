@@ -112,6 +112,14 @@ class Parts:
             f.search = (float(fmt(lo)), float(fmt(hi)))
             self.features.add("search")
 
+    def steps(self) -> None:
+        """A step on some numeric factors and components, coarser or finer than the
+        default and not always a round number."""
+        for f in [*self.region.numeric, *self.region.components]:
+            if self.pick.chance(0.5):
+                f.step = float(fmt((f.high - f.low) / self.pick.choice([7, 25, 60, 400])))
+                self.features.add("step")
+
     def spread(self) -> None:
         """A production SD on some numeric factors (at most half of low..high)."""
         for f in self.region.numeric:
