@@ -10,13 +10,19 @@ running, no placeholder showing, every chart drawn, nothing changing for
   opened the study once, as after any first visit);
 - targets: a weight changed to a value not seen before, so the search runs
   again (the worst case a user meets);
-- targets: a weight changed back to a value seen before (served from cache).
+- targets: a weight changed back to a value seen before (served from cache);
+- targets: a limit changed (new values, so the search runs again);
+- recommended settings: another solution chosen to look closer at (the maps,
+  slices and what-if follow it);
+- recommended settings: another map asked for (what the map shows);
+- recommended settings: the slices along another factor.
 
-Printed side by side with the issue's targets (first load 1.5 s, a weight
-change 0.5 s median) and with a baseline measured in the same browser in the
-same run: the first load of a one-line Streamlit page (the floor any
-workbench view stands on: the framework's own page, scripts and connection).
-Run: .venv/bin/python benchmarks/bench_browser.py
+Printed side by side with the targets (first load 1.5 s, a change 0.5 s
+median) and with baselines measured in the same browser in the same run: the
+first load of a one-line Streamlit page, and a change on it (a button that
+reruns it): the floor any workbench view stands on (the framework's own page,
+scripts, connection and rerun).
+Run: .venv/bin/python benchmarks/bench_browser.py [STUDY.toml]   (default: the demo)
 """
 from __future__ import annotations
 
@@ -84,7 +90,8 @@ def wait_healthy(port: int) -> None:
     raise RuntimeError("the workbench did not start")
 
 
-FLOOR_PAGE = 'import streamlit as st\nst.write("floor page")\n'
+FLOOR_PAGE = ('import streamlit as st\nst.write("floor page")\n'
+              'st.button("again")\n')
 
 
 def launch(cmd: list[str]) -> subprocess.Popen:
@@ -101,6 +108,51 @@ def stop(proc: subprocess.Popen) -> None:
         pass
 
 
+def change_limit(page) -> list[float]:
+    """Times of a goal's first limit box typed to new values (the search runs again)."""
+    from tradeoff.study.spec import LIMIT_WORDS
+
+    labels = {w for words in LIMIT_WORDS.values() for w in words.values()}
+    box = None
+    for label in sorted(labels):
+        found = page.locator(f'input[aria-label="{label}"]')
+        if found.count():
+            box = found.first
+            break
+    if box is None:
+        return []
+    start_value = float(box.input_value())
+    times = []
+    for i in range(REPEAT):
+        box.fill(f"{start_value * (1 + 0.003 * (i + 1)):.6g}")
+        start = time.perf_counter()
+        box.press("Enter")
+        page.wait_for_timeout(30)
+        times.append(settle(page, start))
+    return times
+
+
+def pick_each(page, key: str) -> list[float]:
+    """Times of each other option of a select box picked in turn (up to REPEAT)."""
+    box = page.locator(f".st-key-{key}")
+    if not box.count():
+        return []
+    times = []
+    for i in range(REPEAT):
+        box.click()
+        page.get_by_role("option").first.wait_for(timeout=10_000)
+        options = page.locator('[role="option"]:not([aria-selected="true"])')
+        n = options.count()
+        if n < 1:
+            page.keyboard.press("Escape")
+            return times
+        start = time.perf_counter()
+        options.nth(i % n).click()
+        page.wait_for_timeout(30)
+        times.append(settle(page, start))
+    return times
+
+
 def main() -> None:
     import tempfile
 
@@ -108,7 +160,8 @@ def main() -> None:
 
     port, floor_port = free_port(), free_port()
     tradeoff = Path(sys.executable).with_name("tradeoff")
-    proc = launch([str(tradeoff), "app", "--port", str(port)])
+    study = [str(Path(a).resolve()) for a in sys.argv[1:2]]
+    proc = launch([str(tradeoff), "app", "--port", str(port), *study])
     tmp = tempfile.TemporaryDirectory()
     floor_app = Path(tmp.name) / "floor.py"
     floor_app.write_text(FLOOR_PAGE)
@@ -132,6 +185,18 @@ def main() -> None:
                     times.append(settle(page, begin))
                 page.close()
             rows.append(("baseline: one-line Streamlit page", times, LOAD_TARGET))
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"http://127.0.0.1:{floor_port}/")
+            page.get_by_text("floor page").first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            times = []
+            for _ in range(REPEAT):
+                start = time.perf_counter()
+                page.get_by_role("button", name="again").click()
+                page.wait_for_timeout(30)
+                times.append(settle(page, start))
+            page.close()
+            rows.append(("baseline: a rerun of that page", times, CHANGE_TARGET))
             page = browser.new_page(viewport={"width": 1400, "height": 1100})
             for path, ready in VIEWS.values():  # warm up: the server opens the study once
                 page.goto(f"{base}/{path}")
@@ -163,6 +228,19 @@ def main() -> None:
                     times.append(settle(page, start))
             rows.append(("targets: new weight (search runs)", new, CHANGE_TARGET))
             rows.append(("targets: weight seen before (cached)", seen, CHANGE_TARGET))
+            rows.append(("targets: new limit (search runs)", change_limit(page),
+                         CHANGE_TARGET))
+            page.close()
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"{base}/results")
+            page.get_by_text("What if I make it like this?").first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            for name, key in (("results: another solution chosen", "r_chosen"),
+                              ("results: another map", "r_map_value"),
+                              ("results: slices along another factor", "r_slice_factor")):
+                times = pick_each(page, key)
+                if times:
+                    rows.append((name, times, CHANGE_TARGET))
             browser.close()
     finally:
         stop(proc)

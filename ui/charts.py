@@ -68,7 +68,9 @@ def _spec(module: str, name: str, *args) -> dict:
 
 def titled(label: str, unit: str = "") -> str:
     """An axis title with its unit in brackets."""
-    return f"{label} ({unit})" if unit else label
+    from tradeoff.study.spec import with_unit
+
+    return with_unit(label, unit)
 
 
 def fit_width(chart):

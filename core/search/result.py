@@ -21,7 +21,7 @@ from .rounding import clean_value, lab_recipes
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
-__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
+__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result", "pair_text"]
 
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 
@@ -315,7 +315,7 @@ class OptimizationResult:
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
                 ch = chance_text(o.chance_in_limits)
-                pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
+                pi = pair_text(*o.pi)
                 extra = ""
                 if spread:
                     extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
@@ -351,6 +351,21 @@ def _not_informed_text(n: dict) -> str:
             f"(name another with hold = \"level\" under the factor)")
 
 
+def pair_text(low, high, digits: int = 4) -> str:
+    """An interval as 'low .. high', both ends to the same decimals: ``digits``
+    significant digits of the larger end ('20.09 .. 26.00', '0.567 .. 0.591');
+    a missing end is left blank."""
+    ends = [None if v is None or not math.isfinite(float(v)) else float(v)
+            for v in (low, high)]
+    known = [abs(v) for v in ends if v is not None]
+    if not known:
+        return ""
+    big = max(known)
+    places = max(0, digits - 1 - math.floor(math.log10(big))) if big > 0 else digits - 1
+    shown = ["" if v is None else f"{v:.{places}f}" for v in ends]
+    return f"{shown[0]} .. {shown[1]}".strip()
+
+
 def _g_or_dash(x, signed: bool = False) -> str:
     if x is None:
         return "-"
@@ -380,6 +395,13 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     # Every figure below is for the recipe a lab can make (search/rounding.py).
     X, source = lab_recipes(study, problem, found)
     found, D_found = found[source], D_found[source]
+    # coded from the settings as printed, so a reader recomputing from them gets
+    # the very figures shown
+    for j in problem.num:
+        f = study.factors[j]
+        natural = [clean_value(f, float(v)) for v in f.centre + f.half_range * X[:, j]]
+        X[:, j] = (np.asarray(natural) - f.centre) / f.half_range
+    X = problem.tidy(X)
     Y = problem.values(X)
     D, d = problem.score(Y)
     S = problem.shortfall(Y)

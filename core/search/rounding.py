@@ -12,9 +12,12 @@ and just above the setting found (those inside the searched range); among the
 combinations of these (all of them up to ``_CORNERS``, else the nearest and
 the ones that move one factor to its other neighbour), the one that keeps every
 rule and bound with the highest D, then the smallest shortfall, then the
-nearest. A blend's dependent component still makes up the rest, so a blend on
-whole steps adds up to the total. When no combination keeps the rules (a step
-as wide as the region), the setting stays as found.
+nearest. An end of the searched range within one step is a neighbour too (it
+was set before, so it can be set again). A blend's dependent component still
+makes up the rest, so a blend on whole steps adds up to the total. When no
+combination keeps the rules (a step as wide as the region), or every one
+breaks a limit the optimum found keeps (D = 0 where it had D > 0), the setting
+stays as found.
 """
 from __future__ import annotations
 
@@ -46,12 +49,15 @@ def clean_value(factor, value: float) -> float:
 
 
 def _neighbours(value: float, step: float, lo: float, hi: float) -> list[float]:
-    """The multiples of ``step`` next to ``value`` inside lo..hi, nearest first."""
+    """The multiples of ``step`` next to ``value`` inside lo..hi, nearest first; an end
+    of the range within one step counts too (it was set in the runs, or in the
+    study file, so it can be set again)."""
     tol = 1e-9 * step
     below = math.floor(value / step + 1e-9) * step
     above = math.ceil(value / step - 1e-9) * step
+    near = [b for b in (lo, hi) if abs(b - value) < step - tol]
     out = sorted({round(v, step_decimals(step) + 3) for v in (below, above)
-                  if lo - tol <= v <= hi + tol}, key=lambda v: abs(v - value))
+                  if lo - tol <= v <= hi + tol} | set(near), key=lambda v: abs(v - value))
     return out or [value]
 
 
@@ -96,6 +102,8 @@ def _round_one(study, problem, x: np.ndarray) -> np.ndarray:
     S = problem.shortfall(Y)
     dist = ((C - x) ** 2).sum(axis=1)
     best = np.lexsort((dist, S, -D))[0]
+    if D[best] <= 0 and problem.score(problem.values(x[None, :]))[0][0] > 0:
+        return x  # every neighbour breaks a limit the optimum found keeps
     return C[best]
 
 

@@ -16,11 +16,24 @@ import pandas as pd
 from ..errors import StudyError, did_you_mean
 
 __all__ = [
-    "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
+    "GOALS", "GOAL_WORDS", "LIMIT_WORDS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
     "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL", "default_step",
+    "with_unit",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
+# Each goal in a reader's words, and what its limits mean (the workbench's goal
+# boxes and the report say it so): key -> its words for that goal.
+GOAL_WORDS = {"maximize": "higher is better", "minimize": "lower is better",
+              "target": "aim at a target", "range": "anywhere within limits",
+              "none": "no goal"}
+LIMIT_WORDS = {
+    "maximize": {"lower": "Unacceptable below", "upper": "Fully met at or above"},
+    "minimize": {"lower": "Fully met at or below", "upper": "Unacceptable above"},
+    "target": {"lower": "Unacceptable below", "target": "Best at",
+               "upper": "Unacceptable above"},
+    "range": {"lower": "Unacceptable below", "upper": "Unacceptable above"},
+}
 # A study file is a page of text; anything this large is the wrong file.
 MAX_STUDY_BYTES = 1024 * 1024
 # "smooth" is a Gaussian process (core/model/smooth.py), the others polynomials.
@@ -174,7 +187,22 @@ class Factor:
         return default_step(self.high - self.low)
 
     def display(self) -> str:
-        return f"{self.label} ({self.unit})" if self.unit else self.label
+        return with_unit(self.label, self.unit)
+
+
+def with_unit(label: str, unit: str = "") -> str:
+    """A label with its unit, in one pair of brackets.
+
+    "Hardness" and "N" give "Hardness (N)"; a label that already ends in
+    brackets takes the unit inside them ("Liking (9-point hedonic)" and
+    "points" give "Liking (9-point hedonic, points)"), never two pairs.
+    """
+    if not unit:
+        return label
+    text = label.rstrip()
+    if text.endswith(")") and "(" in text:
+        return f"{text[:-1]}, {unit})"
+    return f"{text} ({unit})"
 
 
 def default_step(span: float) -> float:
@@ -198,7 +226,7 @@ class Response:
     extra: dict = field(default_factory=dict, compare=False)
 
     def display(self) -> str:
-        return f"{self.label} ({self.unit})" if self.unit else self.label
+        return with_unit(self.label, self.unit)
 
     @property
     def is_derived(self) -> bool:

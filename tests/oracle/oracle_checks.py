@@ -203,19 +203,25 @@ def _on_step(value: float, step: float) -> bool:
 
 def _check_recipe(generated, s, outcome) -> None:
     """Settings on their steps (README: each numeric factor's ``step``, default the
-    power of ten cutting low..high into 20 to 200 steps), one step at most from the
-    optimum found; a blend's free components too (one of them makes up the rest)."""
+    power of ten cutting low..high into 20 to 200 steps) or at an end of the searched
+    range, one step at most from the optimum found; a blend's free components too
+    (one of them makes up the rest)."""
     comps = generated.region.components
     for f in generated.region.numeric:
         value, found = float(s.settings[f.name]), float(s.found_settings[f.name])
         if value == found:
             continue  # kept as found: no neighbouring recipe keeps the rules
-        if not _on_step(value, f.lab_step) or abs(value - found) > f.lab_step * (1 + 1e-9):
+        ends = f.search_range  # an end of the searched range is settable too
+        on = _on_step(value, f.lab_step) or any(abs(value - e) <= 1e-9 * f.lab_step
+                                                for e in ends)
+        if not on or abs(value - found) > f.lab_step * (1 + 1e-9):
             outcome.fail("recipe", "optimize", f"{s.label}: '{f.name}' = {value} is not "
                          f"the step ({f.lab_step}) next to the optimum found ({found})")
     if comps and any(float(s.settings[c.name]) != float(s.found_settings[c.name])
                      for c in comps):
-        off = [c.name for c in comps if not _on_step(float(s.settings[c.name]), c.lab_step)]
+        off = [c.name for c in comps if not _on_step(float(s.settings[c.name]), c.lab_step)
+               and not any(abs(float(s.settings[c.name]) - e) <= 1e-9 * c.lab_step
+                           for e in c.search_range)]
         if len(off) > 1:
             outcome.fail("recipe", "optimize", f"{s.label}: components {off} are off their "
                          "steps (only the one making up the rest may be)")

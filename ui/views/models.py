@@ -201,7 +201,7 @@ with st.expander("Coefficients, analysis of variance and the equation"):
                            **{c: (p_text(v.get(c)) if c == "p" else num(v.get(c)))
                               for c in ("ss", "df", "ms", "f", "p")}}
                           for k, v in report["anova"].items()
-                          if isinstance(v, dict) and k != "curvature"])
+                          if isinstance(v, dict) and k not in ("curvature", "terms")])
     st.dataframe(blank_none(anova), hide_index=True, height=35 * (len(anova) + 1) + 3)
     curvature = report["anova"].get("curvature")
     if curvature:

@@ -70,17 +70,22 @@ st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance al
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
                       "chance all within limits": table["chance_all"].map(chance_text)})
 if "chance_all_production" in table:
-    st.caption("'Chance in production' also lets each factor stray from its setting by its "
-               "production spread: " + ", ".join(
-                   f"{text.plain(k)} SD {v:g}" for k, v in result.production_sd.items())
-               + ". 'D given up' is how much lower D is than at the best balance.")
+    spread_words = ", ".join(
+        text.plain(f"{study.factor(k).label} SD {v:g} {study.factor(k).unit}".strip())
+        for k, v in result.production_sd.items())
+    st.caption(("'Chance in production' also lets each factor stray from its setting by "
+                f"its production spread: {spread_words}." if spread_words else
+                "'Chance in production': no factor has a production spread yet (set one "
+                "on the targets view), so it allows for the run-to-run scatter only.")
+               + " 'D given up' is how much lower D is than at the best balance.")
     shown["chance in production"] = table["chance_all_production"].map(chance_text)
 if "d_given_up" in table:
     shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
 for f in study.factors:
-    title = f"{f.name} ({f.unit})" if f.unit else f.name
-    shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
-shown["outside limits"] = table["out_of_limits"]
+    shown[f.display()] = table[f.name].map(num) if f.name in numeric else table[f.name]
+labels_of = {x.name: x.label for x in (*study.factors, *study.responses)}
+shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
+                           for s in result.solutions]
 st.dataframe(shown, hide_index=True, key="r_solutions")
 
 labels = [s.label for s in result.solutions]
@@ -159,7 +164,9 @@ else:
         st.error(text.plain(exc))
     else:
         held_text = text.plain(", ".join(
-            f"{k} = {v if isinstance(v, str) else format(v, '.4g')}" for k, v in held.items()))
+            f"{study.factor(k).label} = "
+            + (v if isinstance(v, str) else f"{v:.4g} {study.factor(k).unit}".strip())
+            for k, v in held.items()))
         if shown_value == "limits":
             titles = {r.name: r.display() for r in study.responses}
             charts.show(charts.limits_chart, lmap, titles, fx.display(), fy.display(),
