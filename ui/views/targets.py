@@ -127,14 +127,12 @@ for item in items:
     key = f"g{epoch}.{item.name}"
     is_factor = item in study.factors
     with st.container(border=True):
-        left, right = st.columns([2, 3])
+        left, right = st.columns([1, 1])  # room for the boxes' words at 1280 px
         with left:
-            unit = f", {text.plain(item.unit)}" if item.unit else ""
             what = ("blend component" if getattr(item, "is_component", False)
                     else "factor") if is_factor else ""
-            note = f" ({what}{unit})" if what else (f" ({text.plain(item.unit)})"
-                                                   if item.unit else "")
-            st.markdown(f"**{text.plain(item.label)}**{note}")
+            st.markdown(f"**{text.plain(item.display())}**"
+                        + (f" · {what}" if what else ""))
             kinds = list(KINDS)
             kind = st.selectbox("Goal", kinds, index=kinds.index(goal.kind),
                                 format_func=KINDS.get, key=f"{key}.kind")
