@@ -209,7 +209,7 @@ def _check_recipe(generated, s, outcome) -> None:
     comps = generated.region.components
     for f in generated.region.numeric:
         value, found = float(s.settings[f.name]), float(s.found_settings[f.name])
-        if value == found:
+        if abs(value - found) <= 1e-7 * f.lab_step:
             continue  # kept as found: no neighbouring recipe keeps the rules
         ends = f.search_range  # an end of the searched range is settable too
         on = _on_step(value, f.lab_step) or any(abs(value - e) <= 1e-9 * f.lab_step
@@ -217,8 +217,9 @@ def _check_recipe(generated, s, outcome) -> None:
         if not on or abs(value - found) > f.lab_step * (1 + 1e-9):
             outcome.fail("recipe", "optimize", f"{s.label}: '{f.name}' = {value} is not "
                          f"the step ({f.lab_step}) next to the optimum found ({found})")
-    if comps and any(float(s.settings[c.name]) != float(s.found_settings[c.name])
-                     for c in comps):
+    moved = [abs(float(s.settings[c.name]) - float(s.found_settings[c.name]))
+             > 1e-7 * c.lab_step for c in comps]
+    if comps and any(moved):  # else kept as found (no neighbouring recipe would do)
         off = [c.name for c in comps if not _on_step(float(s.settings[c.name]), c.lab_step)
                and not any(abs(float(s.settings[c.name]) - e) <= 1e-9 * c.lab_step
                            for e in c.search_range)]
