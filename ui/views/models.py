@@ -143,8 +143,9 @@ with left:
                     width="stretch")
 with right:
     st.subheader("Half-normal plot")
-    st.caption("Effects that are only noise fall on a straight line through the "
-               "origin; real effects stand out to the right.")
+    st.caption("Each dot is one effect, the largest on the right. Effects that are only "
+               "noise rise steadily from the bottom left; real effects stand apart, far "
+               "to the right of the rest.")
     if len(effects) >= 2:
         charts.show(charts.half_normal_chart, half_normal_table(model), response.unit,
                     width="stretch")
