@@ -87,6 +87,11 @@ labels_of = {x.name: x.label for x in (*study.factors, *study.responses)}
 shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
                            for s in result.solutions]
 st.dataframe(shown, hide_index=True, key="r_solutions")
+if result.steps:  # the recipes are rounded (tradeoff.search.rounding)
+    st.caption("Settings are rounded to steps a lab can weigh or set (" + text.plain(", ".join(
+        f"{study.factor(k).label} {v:g} {study.factor(k).unit}".strip()
+        for k, v in result.steps.items())) + "; set another with a step line under the "
+        "factor in the study file). Every figure here is for the rounded recipe.")
 
 labels = [s.label for s in result.solutions]
 chosen_label = st.selectbox("Look closer at", labels,
