@@ -63,12 +63,12 @@ if not result.feasible:
 table = solutions_table(result)
 units = {f.name: f.unit for f in study.factors}
 st.subheader("Best settings and alternatives")
-st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance all within "
-           "limits' is the estimated chance that one batch made at these settings lands "
+st.caption("D is the overall desirability (0 to 1, higher is better). 'All limits met' "
+           "is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed. " + CHANCE_RULE)
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
-                      "chance all within limits": table["chance_all"].map(chance_text)})
+                      "all limits met": table["chance_all"].map(chance_text)})
 if "chance_all_production" in table:
     spread_words = ", ".join(
         text.plain(f"{study.factor(k).label} SD {v:g} {study.factor(k).unit}".strip())
@@ -82,7 +82,9 @@ if "chance_all_production" in table:
 if "d_given_up" in table:
     shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
 for f in study.factors:
-    shown[f.display()] = table[f.name].map(num) if f.name in numeric else table[f.name]
+    # headed by the label; the unit goes with each number (the headers would not fit)
+    shown[f.label] = (table[f.name].map(lambda v, u=f.unit: f"{num(v)} {u}".strip())
+                      if f.name in numeric else table[f.name])
 labels_of = {x.name: x.label for x in (*study.factors, *study.responses)}
 shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
                            for s in result.solutions]
@@ -106,7 +108,7 @@ for name, o in chosen.responses.items():
     rows.append({"response": r.display(), "predicted": num(o.predicted),
                  f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
                  "desirability": num(o.desirability, 3),
-                 "chance within limits": chance_text(o.chance_in_limits)})
+                 "chance in limits": chance_text(o.chance_in_limits)})
     if o.transmitted_sd is not None:
         rows[-1].update({"spread SD in production": num(o.transmitted_sd),
                          "mean shift": num(o.mean_shift)})
@@ -264,7 +266,7 @@ else:
         f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
         "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance within limits": t["chance_in_limits"].map(chance_text)}),
+        "chance in limits": t["chance_in_limits"].map(chance_text)}),
         hide_index=True, key="r_whatif_table")
 
 # -- make next ----------------------------------------------------------------------------
