@@ -228,3 +228,13 @@ def test_the_step_travels_when_a_study_is_written_back(write_study):
     assert study_to_dict(study)["factors"][0]["step"] == 0.25
     assert "step" not in study_to_dict(study)["factors"][1]
     assert study.factor("temp").lab_step == 1.0
+
+
+def test_an_interval_shows_both_ends_to_the_same_decimals():
+    # common practice: the two ends of an interval are read against each other
+    from tradeoff.search.result import pair_text
+
+    assert pair_text(20.0912, 26) == "20.09 .. 26.00"
+    assert pair_text(0.567, 0.5914) == "0.5670 .. 0.5914"
+    assert pair_text(None, 5) == ".. 5.000"
+    assert pair_text(float("nan"), None) == ""
