@@ -8,15 +8,22 @@ running, no placeholder showing, every chart drawn, nothing changing for
 
 - first load of each view, in a fresh browser tab (the server has already
   opened the study once, as after any first visit);
+- each view reached from the sidebar in an open tab (how a user moves on);
 - targets: a weight changed to a value not seen before, so the search runs
   again (the worst case a user meets);
-- targets: a weight changed back to a value seen before (served from cache).
+- targets: a weight changed back to a value seen before (served from cache);
+- targets: a limit changed (new values, so the search runs again);
+- recommended settings: another solution chosen to look closer at (the maps,
+  slices and what-if follow it);
+- recommended settings: another map asked for (what the map shows);
+- recommended settings: the slices along another factor.
 
-Printed side by side with the issue's targets (first load 1.5 s, a weight
-change 0.5 s median) and with a baseline measured in the same browser in the
-same run: the first load of a one-line Streamlit page (the floor any
-workbench view stands on: the framework's own page, scripts and connection).
-Run: .venv/bin/python benchmarks/bench_browser.py
+Printed side by side with the targets (first load 1.5 s, a change 0.5 s
+median) and with baselines measured in the same browser in the same run: the
+first load of a one-line Streamlit page, and a change on it (a button that
+reruns it): the floor any workbench view stands on (the framework's own page,
+scripts, connection and rerun).
+Run: .venv/bin/python benchmarks/bench_browser.py [STUDY.toml]   (default: the demo)
 """
 from __future__ import annotations
 
@@ -84,7 +91,16 @@ def wait_healthy(port: int) -> None:
     raise RuntimeError("the workbench did not start")
 
 
-FLOOR_PAGE = 'import streamlit as st\nst.write("floor page")\n'
+FLOOR_PAGE = '''import streamlit as st
+st.write("floor page")
+st.button("again")
+if st.query_params.get("parts"):  # the same page with one chart and one table
+    import altair as alt
+    import pandas as pd
+    d = pd.DataFrame({"x": range(50), "y": range(50)})
+    st.altair_chart(alt.Chart(d).mark_line().encode(x=alt.X("x:Q"), y=alt.Y("y:Q")))
+    st.dataframe(d)
+'''
 
 
 def launch(cmd: list[str]) -> subprocess.Popen:
@@ -101,6 +117,55 @@ def stop(proc: subprocess.Popen) -> None:
         pass
 
 
+def change_limit(page) -> list[float]:
+    """Times of a goal's first limit box typed to new values (the search runs again)."""
+    from tradeoff.study.spec import LIMIT_WORDS
+
+    labels = {w for words in LIMIT_WORDS.values() for w in words.values()}
+    box = None
+    for label in sorted(labels):
+        found = page.locator(f'input[aria-label="{label}"]')
+        if found.count():
+            box = found.first
+            break
+    if box is None:
+        return []
+    start_value = float(box.input_value())
+    times = []
+    for i in range(REPEAT):
+        box.fill(f"{start_value * (1 + 0.003 * (i + 1)):.6g}")
+        start = time.perf_counter()
+        box.press("Enter")
+        page.wait_for_timeout(30)
+        times.append(settle(page, start))
+    return times
+
+
+def pick_each(page, key: str) -> list[float]:
+    """Times of each other option of a select box picked in turn (up to REPEAT)."""
+    box = page.locator(f".st-key-{key}")
+    if not box.count():
+        return []
+    times = []
+    for i in range(REPEAT):
+        try:
+            box.first.click(timeout=10_000)
+            page.get_by_role("option").first.wait_for(timeout=10_000)
+        except Exception:  # the list did not open: report what was measured
+            page.keyboard.press("Escape")
+            return times
+        options = page.locator('[role="option"]:not([aria-selected="true"])')
+        n = options.count()
+        if n < 1:
+            page.keyboard.press("Escape")
+            return times
+        start = time.perf_counter()
+        options.nth(i % n).click()
+        page.wait_for_timeout(30)
+        times.append(settle(page, start))
+    return times
+
+
 def main() -> None:
     import tempfile
 
@@ -108,7 +173,8 @@ def main() -> None:
 
     port, floor_port = free_port(), free_port()
     tradeoff = Path(sys.executable).with_name("tradeoff")
-    proc = launch([str(tradeoff), "app", "--port", str(port)])
+    study = [str(Path(a).resolve()) for a in sys.argv[1:2]]
+    proc = launch([str(tradeoff), "app", "--port", str(port), *study])
     tmp = tempfile.TemporaryDirectory()
     floor_app = Path(tmp.name) / "floor.py"
     floor_app.write_text(FLOOR_PAGE)
@@ -132,6 +198,27 @@ def main() -> None:
                     times.append(settle(page, begin))
                 page.close()
             rows.append(("baseline: one-line Streamlit page", times, LOAD_TARGET))
+            times = []
+            for _ in range(3):
+                page = browser.new_page(viewport={"width": 1400, "height": 1100})
+                begin = time.perf_counter()
+                page.goto(f"http://127.0.0.1:{floor_port}/?parts=1")
+                page.get_by_text("floor page").first.wait_for(timeout=120_000)
+                times.append(settle(page, begin))
+                page.close()
+            rows.append(("baseline: that page + 1 chart + 1 table", times, LOAD_TARGET))
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"http://127.0.0.1:{floor_port}/")
+            page.get_by_text("floor page").first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            times = []
+            for _ in range(REPEAT):
+                start = time.perf_counter()
+                page.get_by_role("button", name="again").click()
+                page.wait_for_timeout(30)
+                times.append(settle(page, start))
+            page.close()
+            rows.append(("baseline: a rerun of that page", times, CHANGE_TARGET))
             page = browser.new_page(viewport={"width": 1400, "height": 1100})
             for path, ready in VIEWS.values():  # warm up: the server opens the study once
                 page.goto(f"{base}/{path}")
@@ -146,8 +233,31 @@ def main() -> None:
                     page.goto(f"{base}/{path}")
                     page.get_by_text(ready).first.wait_for(timeout=120_000)
                     times.append(settle(page, start))
+                    charts = page.evaluate("document.querySelectorAll('.vega-embed').length")
+                    tables = page.evaluate(
+                        "document.querySelectorAll('[data-testid=\"stDataFrame\"]').length")
                     page.close()
-                rows.append((f"first load: {name}", times, LOAD_TARGET))
+                rows.append((f"first load: {name} ({charts}c {tables}t)", times, LOAD_TARGET))
+            # each view reached from the sidebar, in one tab (how a user moves on)
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"{base}/")
+            page.get_by_text(VIEWS["study and runs"][1]).first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            links = {"what drives each response": "What drives each response",
+                     "targets and weights": "Targets and weights",
+                     "recommended settings": "Recommended settings",
+                     "take it with you": "Take it with you",
+                     "study and runs": "Study and runs"}
+            hops = {name: [] for name in links}
+            for _ in range(3):
+                for name, link in links.items():
+                    start = time.perf_counter()
+                    page.get_by_role("link", name=link).first.click()
+                    page.get_by_text(VIEWS[name][1]).first.wait_for(timeout=120_000)
+                    hops[name].append(settle(page, start))
+            page.close()
+            for name, times in hops.items():
+                rows.append((f"from the sidebar: {name}", times, LOAD_TARGET))
             page = browser.new_page(viewport={"width": 1400, "height": 1100})
             page.goto(f"{base}/targets")
             page.get_by_text("Best settings now").first.wait_for(timeout=120_000)
@@ -163,6 +273,19 @@ def main() -> None:
                     times.append(settle(page, start))
             rows.append(("targets: new weight (search runs)", new, CHANGE_TARGET))
             rows.append(("targets: weight seen before (cached)", seen, CHANGE_TARGET))
+            rows.append(("targets: new limit (search runs)", change_limit(page),
+                         CHANGE_TARGET))
+            page.close()
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.goto(f"{base}/results")
+            page.get_by_text("What if I make it like this?").first.wait_for(timeout=120_000)
+            settle(page, time.perf_counter())
+            for name, key in (("results: another solution chosen", "r_chosen"),
+                              ("results: another map", "r_map_value"),
+                              ("results: slices along another factor", "r_slice_factor")):
+                times = pick_each(page, key)
+                if times:
+                    rows.append((name, times, CHANGE_TARGET))
             browser.close()
     finally:
         stop(proc)
@@ -170,10 +293,11 @@ def main() -> None:
         tmp.cleanup()
     print(f"Workbench in chromium at 1400 px, demo study, to the page settled "
           f"(nothing running or changing for {QUIET:.1f} s, not counted)")
-    print(f"{'case':<44} {'median s':>9} {'max s':>7} {'target s':>9}  met")
+    print("(Nc Mt: the view draws N charts and M tables)")
+    print(f"{'case':<52} {'median s':>9} {'max s':>7} {'target s':>9}  met")
     for name, t, target in rows:
         med = statistics.median(t)
-        print(f"{name:<44} {med:>9.2f} {max(t):>7.2f} {target:>9.1f}  "
+        print(f"{name:<52} {med:>9.2f} {max(t):>7.2f} {target:>9.1f}  "
               f"{'yes' if med <= target else 'NO'}")
 
 

@@ -24,6 +24,9 @@ __all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_cha
 
 SCHEME = "viridis"
 DARK, LIGHT, MID = "#440154", "#fde725", "#21918c"  # viridis ends and middle
+# One colour, one meaning across charts: DARK is "lowers" (effects) and the chosen
+# setting's marker; an unusual run is FLAG everywhere; plain points are POINT.
+FLAG, POINT = "#d9480f", "#555555"
 SIGN_COLOURS = alt.Scale(domain=["raises", "lowers"], range=[MID, DARK])
 
 
@@ -70,7 +73,9 @@ def _spec(module: str, name: str, *args) -> dict:
 
 def titled(label: str, unit: str = "") -> str:
     """An axis title with its unit in brackets."""
-    return f"{label} ({unit})" if unit else label
+    from tradeoff.study.spec import with_unit
+
+    return with_unit(label, unit)
 
 
 def fit_width(chart):
@@ -102,7 +107,7 @@ def half_normal_chart(points: pd.DataFrame, unit: str, label_top: int = 5) -> al
     base = alt.Chart(data).encode(
         x=alt.X("abs_effect:Q", title=titled("Size of effect", unit)),
         y=alt.Y("quantile:Q", title="Half-normal quantile"))
-    dots = base.mark_circle(size=70, color=DARK).encode(
+    dots = base.mark_circle(size=70, color=POINT).encode(
         tooltip=[alt.Tooltip("term"), alt.Tooltip("effect:Q", format=".4g")])
     # names of the largest effects go to the left of their dots: on the right they
     # would run out of the chart
@@ -136,7 +141,7 @@ def residual_charts(table: pd.DataFrame, unit: str) -> tuple:
     """
     base = alt.Chart(table).encode(
         color=alt.Color("flagged:N", scale=alt.Scale(domain=[False, True],
-                                                     range=[MID, DARK]), legend=None),
+                                                     range=[MID, FLAG]), legend=None),
         tooltip=[alt.Tooltip("run"), alt.Tooltip("fitted:Q", format=".4g"),
                  alt.Tooltip("residual:Q", format=".4g"),
                  alt.Tooltip("studentized_deleted:Q", format=".2f",
@@ -257,7 +262,7 @@ def loo_chart(diag: pd.DataFrame, title: str) -> alt.LayerChart:
                 scale=alt.Scale(zero=False)),
         y=alt.Y("observed:Q", title=f"Measured: {title}", scale=alt.Scale(zero=False)),
         color=alt.Color("mark:N", scale=alt.Scale(domain=["", "beyond 3 SD"],
-                                                  range=[MID, DARK]), legend=None),
+                                                  range=[MID, FLAG]), legend=None),
         tooltip=[alt.Tooltip("run"), alt.Tooltip("observed:Q", format=".4g"),
                  alt.Tooltip("loo_predicted:Q", format=".4g")])
     return alt.layer(line, dots).properties(height=300)

@@ -22,9 +22,11 @@ def num(x, digits: int = 4) -> str:
 
 
 def span(low, high, digits: int = 4) -> str:
-    """An interval as 'low .. high' (an open end is left blank)."""
-    lo, hi = num(low, digits), num(high, digits)
-    return "" if not (lo or hi) else f"{lo} .. {hi}".strip()
+    """An interval as 'low .. high', both ends to the same decimals ('20.09 .. 26.00',
+    never '20.09 .. 26'); an open end is left blank."""
+    from tradeoff.search.result import pair_text
+
+    return pair_text(low, high, digits)
 
 
 def p_text(p) -> str:

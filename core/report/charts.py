@@ -58,11 +58,12 @@ def _curve_chart(item, part: pd.DataFrame, marker) -> str:
     """One goal's desirability curve, with the best setting's prediction marked."""
     import altair as alt
 
-    unit = f" ({item.unit})" if item.unit else ""
-    title = f"{item.label}: {item.goal.kind}"
+    from ..study.spec import GOAL_WORDS
+
+    title = f"{item.label}: {GOAL_WORDS[item.goal.kind]}"
     line = alt.Chart(part[["value", "desirability"]], title=title).mark_line(
         color=_CURVE, strokeWidth=2.5).encode(
-        x=alt.X("value:Q", title=f"{item.name}{unit}", scale=alt.Scale(zero=False)),
+        x=alt.X("value:Q", title=item.display(), scale=alt.Scale(zero=False)),
         y=alt.Y("desirability:Q", title="desirability d",
                 scale=alt.Scale(domain=[0, 1])))
     layers = [line]

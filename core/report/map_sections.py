@@ -121,7 +121,7 @@ class _MapSections(_Sections):
         r = self.study.response(name)
         model = model_interaction(self.study, name, a, b, fit=self._study_fit())
         cells = interaction_means(self.study, name, a, b)
-        y_title = f"{r.label} ({r.unit})" if r.unit else r.label
+        y_title = r.display()
         chart = interaction_picture(cells, model, fa.display(), fb.display(), y_title,
                                     height=200, width=260)
         levels = ("; a factor of three or more levels averaged over its levels"

@@ -129,6 +129,14 @@ class _AnswerSections(_Sections):
                          "-" if f.is_categorical else _g(_clean(best["coded"][f.name]), 3)])
         out.append(_table(["factor", "name", "setting", "unit", "coded"], rows,
                           numeric={4}))
+        steps = self.res.get("steps") or {}
+        if steps:
+            listed = ", ".join(esc(f"{self._item(n).label} {self._setting(n, v)}")
+                               for n, v in steps.items())
+            out.append(f'<p class="note">Settings are rounded to steps a lab can weigh or '
+                       f"set ({listed}); every figure on this page is for the rounded "
+                       f"recipe. The search's own optimum had D = "
+                       f"{_g(best['found']['desirability'], 3)}.</p>")
         out.append(self._predictions(best))
         out.append(f'<p class="note">Prediction interval: where one new batch made at these '
                    f"settings should land, {self.pct} of the time. Mean interval: where the "

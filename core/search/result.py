@@ -17,10 +17,11 @@ from .mixture import bound_warnings
 from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
 from .production import production_chance
+from .rounding import clean_value, lab_recipes
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
-__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
+__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result", "pair_text"]
 
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 
@@ -104,6 +105,12 @@ class Solution:
         and no production ranking was asked for.
     d_given_up : float
         How much lower D is here than at the best balance found.
+    found_settings : dict
+        The settings the search ended on, before rounding to each factor's
+        step (``tradeoff.search.rounding``); every other figure is for
+        ``settings``, the rounded recipe.
+    found_desirability : float or None
+        D at ``found_settings``.
     """
 
     rank: int
@@ -121,6 +128,8 @@ class Solution:
     proportions: dict = field(default_factory=dict)
     chance_all_production: float | None = None
     d_given_up: float = 0.0
+    found_settings: dict = field(default_factory=dict)
+    found_desirability: float | None = None
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
@@ -145,6 +154,9 @@ class Solution:
             "d_given_up": r(self.d_given_up),
             "out_of_limits": list(self.out_of_limits),
             "warnings": list(self.warnings),
+            "found": {"settings": {k: (v if isinstance(v, str) else r(v))
+                                   for k, v in self.found_settings.items()},
+                      "desirability": r(self.found_desirability)},
         } | blend
 
 
@@ -184,6 +196,8 @@ class OptimizationResult:
         cannot judge their levels: ``factor``, ``why``, ``held_at`` (the level
         held, or None) and ``left_out`` (levels not searched); see
         ``tradeoff.search.informed``.
+    steps : dict
+        Numeric factor name -> the step its settings are rounded to.
     """
 
     study: str
@@ -199,6 +213,16 @@ class OptimizationResult:
     aim: str = "balance"
     production_sd: dict = field(default_factory=dict)
     not_informed: tuple = ()
+    steps: dict = field(default_factory=dict)
+    step_units: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def rounding_note(self) -> str:
+        """What the settings are rounded to, in a sentence."""
+        steps = ", ".join(f"{k} {_g(v)} {self.step_units.get(k, '')}".strip()
+                          for k, v in self.steps.items())
+        return (f"settings are rounded to steps a lab can weigh or set ({steps}; change "
+                "one with step = <amount> under the factor); every figure is for the "
+                "rounded recipe")
 
     def not_informed_notes(self) -> tuple[str, ...]:
         """One sentence per factor in ``not_informed``, for a reader."""
@@ -223,6 +247,7 @@ class OptimizationResult:
             "seed": self.seed, "production_sd": dict(self.production_sd),
             "feasible": self.feasible, "unreachable": list(self.unreachable),
             "not_informed": [dict(n) for n in self.not_informed],
+            "steps": dict(self.steps),
             "warnings": list(self.warnings), "assumptions": list(self.assumptions),
             "cautions": list(FOOD_CAUTIONS),
             "evaluations": self.evaluations,
@@ -290,7 +315,7 @@ class OptimizationResult:
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
                 ch = chance_text(o.chance_in_limits)
-                pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
+                pi = pair_text(*o.pi)
                 extra = ""
                 if spread:
                     extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
@@ -303,6 +328,8 @@ class OptimizationResult:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
                 lines.append(f"  note: {w}")
+        if self.steps:
+            lines.append("rounded: " + self.rounding_note())
         for n in self.not_informed_notes():
             lines.append("not informed: " + n)
         for w in self.warnings:
@@ -322,6 +349,21 @@ def _not_informed_text(n: dict) -> str:
     return (f"{n['factor']}: the runs cannot tell its levels apart ({n['why']}), so the "
             f"choice among them is not informed by the data: held at '{n['held_at']}' "
             f"(name another with hold = \"level\" under the factor)")
+
+
+def pair_text(low, high, digits: int = 4) -> str:
+    """An interval as 'low .. high', both ends to the same decimals: ``digits``
+    significant digits of the larger end ('20.09 .. 26.00', '0.567 .. 0.591');
+    a missing end is left blank."""
+    ends = [None if v is None or not math.isfinite(float(v)) else float(v)
+            for v in (low, high)]
+    known = [abs(v) for v in ends if v is not None]
+    if not known:
+        return ""
+    big = max(known)
+    places = max(0, digits - 1 - math.floor(math.log10(big))) if big > 0 else digits - 1
+    shown = ["" if v is None else f"{v:.{places}f}" for v in ends]
+    return f"{shown[0]} .. {shown[1]}".strip()
 
 
 def _g_or_dash(x, signed: bool = False) -> str:
@@ -348,6 +390,18 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     With ``aim == "production"``, ``X[0]`` is the setting most likely to hold
     in production: it comes first and the rest follow ``rank_by``.
     """
+    found = np.atleast_2d(np.asarray(X, dtype=float))
+    D_found = problem.score(problem.values(found))[0]
+    # Every figure below is for the recipe a lab can make (search/rounding.py).
+    X, source = lab_recipes(study, problem, found)
+    found, D_found = found[source], D_found[source]
+    # coded from the settings as printed, so a reader recomputing from them gets
+    # the very figures shown
+    for j in problem.num:
+        f = study.factors[j]
+        natural = [clean_value(f, float(v)) for v in f.centre + f.half_range * X[:, j]]
+        X[:, j] = (np.asarray(natural) - f.centre) / f.half_range
+    X = problem.tidy(X)
     Y = problem.values(X)
     D, d = problem.score(Y)
     S = problem.shortfall(Y)
@@ -366,7 +420,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         held = production_chance(study, models, X, draws=draws, seed=seed).all
     elif rank_by == "production" or aim == "production":
         held = chances.all  # no spread: the chance in production is the ordinary one
-    order = np.arange(len(X))
+    # by D at the recipes (rounding can reorder peaks of nearly equal D)
+    order = np.lexsort((S, -D))
     if rank_by == "chance":
         order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
     elif rank_by == "production":
@@ -388,7 +443,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 settings[f.name] = str(decode_values(f, x[j:j + 1])[0])
                 coded[f.name] = int(x[j])
             else:
-                settings[f.name] = float(f.centre + f.half_range * x[j])
+                settings[f.name] = clean_value(f, float(f.centre + f.half_range * x[j]))
                 coded[f.name] = float(x[j])
                 if is_component(f):  # 1 - (the others) leaves rounding dust at a bound
                     settings[f.name] = round(settings[f.name], 12) + 0.0
@@ -427,7 +482,11 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                          if is_component(f)},
             chance_all_production=(_finite(held[i]) if held is not None and
                                    chances.responses else None),
-            d_given_up=max(0.0, d_best - float(D[i]))))
+            d_given_up=max(0.0, d_best - float(D[i])),
+            found_settings={f.name: (settings[f.name] if f.is_categorical else
+                                     float(f.centre + f.half_range * found[i, j]))
+                            for j, f in enumerate(study.factors)},
+            found_desirability=float(D_found[i])))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
@@ -450,7 +509,9 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
         feasible=feasible, unreachable=unreachable, warnings=tuple(general) + tuple(extra_notes),
         assumptions=assumptions, evaluations=problem.evaluations,
         correlation=chances.correlation, aim=aim, production_sd=spread_sd,
-        not_informed=tuple(problem.not_informed))
+        not_informed=tuple(problem.not_informed),
+        steps={f.name: f.lab_step for f in study.factors if not f.is_categorical},
+        step_units={f.name: f.unit for f in study.factors if not f.is_categorical})
 
 
 def _interval_array(model, X, level) -> np.ndarray:

@@ -111,7 +111,7 @@ def process_factors_of(study) -> list:
 def build_components(raw: list, total: float, model: str, process: str, fname: str):
     """Checked components and their Mixture from the parsed ``[[components]]``.
 
-    ``raw``: one (name, label, unit, low, high) per component, each already
+    ``raw``: one (name, label, unit, low, high, step) per component, each already
     checked on its own (study/reader.py). Here the bounds are checked
     together and tightened to the ones the others imply.
     """
@@ -145,8 +145,8 @@ def build_components(raw: list, total: float, model: str, process: str, fname: s
     components = tuple(
         Component(name=name, label=label, unit=unit, low=float(lo2), high=float(hi2),
                   total=total, origin=float(lo2), scale=scale, given_low=float(lo),
-                  given_high=float(hi))
-        for (name, label, unit, lo, hi), lo2, hi2 in zip(raw, new_lows, new_highs))
+                  given_high=float(hi), step=step)
+        for (name, label, unit, lo, hi, step), lo2, hi2 in zip(raw, new_lows, new_highs))
     mixture = Mixture(total=total, model=model, process=process,
                       components=tuple(names), notes=tuple(notes),
                       scale="pseudo" if np.any(new_lows > tol) else "proportion")

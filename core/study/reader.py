@@ -201,6 +201,9 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
                              "factors; categorical factors are searched over their levels")
         if table.get("goal", "none") != "none":
             raise StudyError(f"{fname}: {what}: goals apply to numeric factors only")
+        if "step" in table:
+            raise StudyError(f"{fname}: {what}: step is for numeric factors: a categorical "
+                             "factor is set to one of its levels; remove the key")
         if "production_sd" in table:
             raise StudyError(f"{fname}: {what}: production_sd is for numeric factors: a "
                              "categorical factor is made at one level or the other, so it "
@@ -240,7 +243,20 @@ def _factor(table: dict, fname: str, index: int) -> Factor:
         spread = check_production_sd(table["production_sd"], low, high,
                                      f"{fname}: {what}")
     return Factor(name=name, label=label, unit=unit, low=low, high=high, search=search,
-                  goal=_goal(table, fname, what), production_sd=spread)
+                  goal=_goal(table, fname, what), production_sd=spread,
+                  step=check_step(table, low, high, fname, what))
+
+
+def check_step(table: dict, low: float, high: float, fname: str, what: str) -> float | None:
+    """A factor's or component's ``step`` checked: above 0 and below its range."""
+    if "step" not in table:
+        return None
+    step = _positive(table["step"], fname, f"{what} step")
+    if step >= high - low:
+        raise StudyError(f"{fname}: {what}: step ({_fmt(step)}) is not smaller than the "
+                         f"range {_fmt(low)}..{_fmt(high)}: give the smallest amount you "
+                         "can weigh or set, in the factor's units")
+    return step
 
 
 def check_production_sd(value, low: float, high: float, where: str) -> float:
@@ -354,7 +370,7 @@ def _mixture(spec: dict, fname: str, factor_names: list[str]):
             raise StudyError(f"{fname}: {what}: low ({_fmt(low)}) is not below high "
                              f"({_fmt(high)}): did you swap them?")
         raw.append((name, str(table.get("label", name)), str(table.get("unit", "")),
-                    low, high))
+                    low, high, check_step(table, low, high, fname, what)))
     return build_components(raw, total, choices["model"][0], choices["process"][0], fname)
 
 

@@ -16,11 +16,24 @@ import pandas as pd
 from ..errors import StudyError, did_you_mean
 
 __all__ = [
-    "GOALS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
-    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL",
+    "GOALS", "GOAL_WORDS", "LIMIT_WORDS", "MODELS", "TRANSFORMS", "Goal", "Factor", "Response", "Study",
+    "SECTION_KEYS", "MAX_STUDY_BYTES", "MAX_LEVELS", "NOTHING_TO_MODEL", "default_step",
+    "with_unit",
 ]
 
 GOALS = ("maximize", "minimize", "target", "range", "none")
+# Each goal in a reader's words, and what its limits mean (the workbench's goal
+# boxes and the report say it so): key -> its words for that goal.
+GOAL_WORDS = {"maximize": "higher is better", "minimize": "lower is better",
+              "target": "aim at a target", "range": "anywhere within limits",
+              "none": "no goal"}
+LIMIT_WORDS = {
+    "maximize": {"lower": "Unacceptable below", "upper": "Fully met at or above"},
+    "minimize": {"lower": "Fully met at or below", "upper": "Unacceptable above"},
+    "target": {"lower": "Unacceptable below", "target": "Best at",
+               "upper": "Unacceptable above"},
+    "range": {"lower": "Unacceptable below", "upper": "Unacceptable above"},
+}
 # A study file is a page of text; anything this large is the wrong file.
 MAX_STUDY_BYTES = 1024 * 1024
 # "smooth" is a Gaussian process (core/model/smooth.py), the others polynomials.
@@ -55,6 +68,8 @@ SECTION_KEYS: dict[str, set[str]] = {
               "whole_plot"},
     "factors": {"name", "label", "unit", "low", "high", "levels", "search",
                 "production_sd",
+                # the smallest amount a lab weighs or sets (core/search/rounding.py)
+                "step",
                 # the level the search holds when the data cannot judge the factor
                 # (core/search/informed.py)
                 "hold",
@@ -81,7 +96,7 @@ SECTION_KEYS: dict[str, set[str]] = {
               # the lab's own layout (core/derive/panel_input.py)
               "columns", "layout", "attributes"},
     # blends (core/study/mixture.py)
-    "components": {"name", "label", "unit", "low", "high"},
+    "components": {"name", "label", "unit", "low", "high", "step"},
     "mixture": {"total", "model", "process"},
 }
 # The sections study_to_dict writes itself; any other top-level section
@@ -138,6 +153,8 @@ class Factor:
     hold: str | None = None
     # set once per whole plot (batch, oven load, day): study/whole_plots.py
     hard_to_change: bool = False
+    # numeric: the smallest amount a lab weighs or sets (None: from the range, ``lab_step``)
+    step: float | None = None
 
     @property
     def is_categorical(self) -> bool:
@@ -158,8 +175,45 @@ class Factor:
             return None
         return self.search if self.search is not None else (self.low, self.high)
 
+    @property
+    def lab_step(self) -> float | None:
+        """The step recommended settings are rounded to (numeric factors).
+
+        ``step`` when the study file gives one; else the power of ten that cuts
+        the range low..high into 20 to 200 steps (a 10 % range: 0.1 %; 40 to
+        60 degC: 1 degC), fine enough that rounding moves a setting by at most
+        a fortieth of its range, coarse enough to weigh or dial in.
+        """
+        if self.is_categorical:
+            return None
+        if self.step is not None:
+            return self.step
+        return default_step(self.high - self.low)
+
     def display(self) -> str:
-        return f"{self.label} ({self.unit})" if self.unit else self.label
+        return with_unit(self.label, self.unit)
+
+
+def with_unit(label: str, unit: str = "") -> str:
+    """A label with its unit, in one pair of brackets.
+
+    "Hardness" and "N" give "Hardness (N)"; a label that already ends in
+    brackets takes the unit inside them ("Liking (9-point hedonic)" and
+    "points" give "Liking (9-point hedonic, points)"), never two pairs.
+    """
+    if not unit:
+        return label
+    text = label.rstrip()
+    if text.endswith(")") and "(" in text:
+        return f"{text[:-1]}, {unit})"
+    return f"{text} ({unit})"
+
+
+def default_step(span: float) -> float:
+    """The power of ten that cuts ``span`` into 20 to 200 steps."""
+    import math
+
+    return 10.0 ** math.floor(math.log10(span / 20.0)) if span > 0 else 1.0
 
 
 @dataclass(frozen=True)
@@ -176,7 +230,7 @@ class Response:
     extra: dict = field(default_factory=dict, compare=False)
 
     def display(self) -> str:
-        return f"{self.label} ({self.unit})" if self.unit else self.label
+        return with_unit(self.label, self.unit)
 
     @property
     def is_derived(self) -> bool:

@@ -79,6 +79,8 @@ def _factor_dict(f: Factor) -> dict:
         out["search"] = list(f.search)
     if f.production_sd is not None:
         out["production_sd"] = f.production_sd
+    if f.step is not None:
+        out["step"] = f.step
     out.update(_goal_dict(f.goal))
     return out
 

@@ -15,8 +15,12 @@ loads and fits the same study through the public API, and checks:
 - ``desirability``: each d equals Derringer & Suich (1980), written out in
   oracle_reference.py; ``overall``: D equals their weighted geometric mean
   (Derringer 1994);
-- ``grid``: the best D is at least the best of a dense grid over the numeric
-  factors, every level combination and the bounded simplex, inside the rules
+- ``recipe``: each solution's numeric settings sit on their steps (``step``,
+  else the power of ten cutting low..high into 20 to 200 steps), at most one
+  step from the optimum found; a blend's components too, but the one making up
+  the rest;
+- ``grid``: the best D as found (before rounding to the steps) is at least
+  the best of a dense grid over the numeric factors, every level combination and the bounded simplex, inside the rules
   (within ``oracle_checks.GRID_TOL`` of it); with no feasible setting, no grid
   point is feasible and the shortfall is no larger than the grid's;
 - ``region``: solutions and suggestions lie in the searched region, keep the

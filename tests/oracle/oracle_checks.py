@@ -174,9 +174,11 @@ def check_solutions(generated, study, fit, result, outcome) -> None:
     D = [s.desirability for s in result.solutions]
     if result.rank_by == "desirability" and any(a < b - 1e-12 for a, b in zip(D, D[1:])):
         outcome.fail("overall", "optimize", f"solutions not in order of D: {D}")
-    # alternatives are distinct peaks, at least 0.25 coded units apart (README)
-    coded = np.array([[float(s.coded[f]) for f in study.factor_names]
-                      for s in result.solutions])
+    # alternatives are distinct peaks, at least 0.25 coded units apart as found,
+    # before each is rounded to its steps (README)
+    coded = np.array([[float(s.coded[f.name]) if f.kind == "categorical" else
+                       _my_coded(generated, f.name, float(s.found_settings[f.name]))
+                       for f in generated.region.factors] for s in result.solutions])
     for i, j in itertools.combinations(range(len(coded)), 2):
         gap = float(np.sqrt(((coded[i] - coded[j]) ** 2).sum()))
         if gap < 0.25 - 1e-9:
@@ -189,8 +191,41 @@ def check_solutions(generated, study, fit, result, outcome) -> None:
             if not _close(s.proportions.get(c.name), s.settings[c.name] / total, 1e-12):
                 outcome.fail("predict", "optimize", f"{s.label}: '{c.name}' amount "
                              f"{s.settings[c.name]} but proportion {s.proportions.get(c.name)}")
+    for s in result.solutions:
+        _check_recipe(generated, s, outcome)
     if goals:
         _check_grid(generated, study, fit, result, goals, outcome)
+
+
+def _on_step(value: float, step: float) -> bool:
+    return abs(value / step - round(value / step)) <= 1e-7
+
+
+def _check_recipe(generated, s, outcome) -> None:
+    """Settings on their steps (README: each numeric factor's ``step``, default the
+    power of ten cutting low..high into 20 to 200 steps) or at an end of the searched
+    range, one step at most from the optimum found; a blend's free components too
+    (one of them makes up the rest)."""
+    comps = generated.region.components
+    for f in generated.region.numeric:
+        value, found = float(s.settings[f.name]), float(s.found_settings[f.name])
+        if abs(value - found) <= 1e-7 * f.lab_step:
+            continue  # kept as found: no neighbouring recipe keeps the rules
+        ends = f.search_range  # an end of the searched range is settable too
+        on = _on_step(value, f.lab_step) or any(abs(value - e) <= 1e-9 * f.lab_step
+                                                for e in ends)
+        if not on or abs(value - found) > f.lab_step * (1 + 1e-9):
+            outcome.fail("recipe", "optimize", f"{s.label}: '{f.name}' = {value} is not "
+                         f"the step ({f.lab_step}) next to the optimum found ({found})")
+    moved = [abs(float(s.settings[c.name]) - float(s.found_settings[c.name]))
+             > 1e-7 * c.lab_step for c in comps]
+    if comps and any(moved):  # else kept as found (no neighbouring recipe would do)
+        off = [c.name for c in comps if not _on_step(float(s.settings[c.name]), c.lab_step)
+               and not any(abs(float(s.settings[c.name]) - e) <= 1e-9 * c.lab_step
+                           for e in c.search_range)]
+        if len(off) > 1:
+            outcome.fail("recipe", "optimize", f"{s.label}: components {off} are off their "
+                         "steps (only the one making up the rest may be)")
 
 
 def _check_intervals(generated, study, model, X, name, o, where, outcome) -> None:
@@ -326,10 +361,12 @@ def _check_grid(generated, study, fit, result, goals, outcome) -> None:
     D = D_reference(d, [g.get("weight", 1.0) for _, _, g in goals])
     i = int(np.nanargmax(D))
     best = result.solutions[0]
-    if D[i] > 0 and (not result.feasible or best.desirability < D[i] * (1 - GRID_TOL)):
+    # the search's optimum as found, before rounding to the steps (the recipe shown
+    # may lie a step away, below the grid's best)
+    if D[i] > 0 and (not result.feasible or best.found_desirability < D[i] * (1 - GRID_TOL)):
         settings = {k: (v if isinstance(v, str) else round(float(v), 6))
                     for k, v in grid.iloc[i].items()}
-        outcome.fail("grid", "optimize", f"best D {best.desirability:.6g} (feasible: "
+        outcome.fail("grid", "optimize", f"best D {best.found_desirability:.6g} (feasible: "
                      f"{result.feasible}) but the grid reaches D = {D[i]:.6g} at {settings}")
     for j, (kind, name, g) in enumerate(goals):
         if name in result.unreachable:
@@ -340,9 +377,11 @@ def _check_grid(generated, study, fit, result, goals, outcome) -> None:
                              f"{int(inside.sum())} grid settings bring it within its limits")
     if D[i] == 0 and not result.feasible:
         S = shortfall_reference(Y, [g for _, _, g in goals])
+        Xf = _coded(study, pd.DataFrame([best.found_settings]))
         mine = shortfall_reference(np.array([[
-            best.responses[n].predicted if k == "response" else float(best.settings[n])
-            for k, n, _ in goals]]), [g for _, _, g in goals])[0]
+            float(np.asarray(fit.models[n].predict(Xf)).ravel()[0]) if k == "response"
+            else float(best.found_settings[n]) for k, n, _ in goals]]),
+            [g for _, _, g in goals])[0]
         if mine > S.min() + 1e-6 * (1 + S.min()):
             outcome.fail("grid", "optimize", f"no feasible setting: shortfall {mine:.6g} "
                          f"at the best, the grid comes to {S.min():.6g}")

@@ -49,6 +49,15 @@ class Factor:
     hard_to_change: bool = False  # set once per whole plot
     label: str | None = None
     unit: str | None = None
+    step: float | None = None  # the step recommended settings are rounded to
+
+    @property
+    def lab_step(self) -> float:
+        """``step``, else the README's default: the power of ten that cuts low..high
+        into 20 to 200 steps."""
+        if self.step is not None:
+            return self.step
+        return 10.0 ** math.floor(math.log10((self.high - self.low) / 20.0))
 
     @property
     def centre(self) -> float:

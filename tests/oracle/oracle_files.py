@@ -96,6 +96,7 @@ class Files:
             spec["components"] = [{"name": c.name, "unit": c.unit or (
                 "%" if self.total == 100 else "g"), "low": c.low, "high": c.high}
                 | ({"label": c.label} if c.label else {})
+                | ({"step": c.step} if c.step is not None else {})
                 for c in self.region.components]
         spec["responses"] = self.responses
         if self.rules:
@@ -132,6 +133,8 @@ class Files:
                 entry["search"] = list(f.search)
             if f.production_sd is not None:
                 entry["production_sd"] = f.production_sd
+            if f.step is not None:
+                entry["step"] = f.step
         if f.hard_to_change:
             entry["hard_to_change"] = True
         for key in ("label", "unit"):

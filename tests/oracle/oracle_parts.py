@@ -112,6 +112,14 @@ class Parts:
             f.search = (float(fmt(lo)), float(fmt(hi)))
             self.features.add("search")
 
+    def steps(self) -> None:
+        """A step on some numeric factors and components, coarser or finer than the
+        default and not always a round number."""
+        for f in [*self.region.numeric, *self.region.components]:
+            if self.pick.chance(0.5):
+                f.step = float(fmt((f.high - f.low) / self.pick.choice([7, 25, 60, 400])))
+                self.features.add("step")
+
     def spread(self) -> None:
         """A production SD on some numeric factors (at most half of low..high)."""
         for f in self.region.numeric:
@@ -320,7 +328,10 @@ class Parts:
                         v = value(i, t, T) * (1 + self.rng.normal(0, 0.004))
                         rows.append({"run": ids[i], "week": t,
                                      **({"temp_c": "" if t == 0 else T} if temps else {}),
-                                     "property": "hardness", "value": round(v, 4)})
+                                     "property": "hardness",
+                                     # a fast first-order fall stays above 0 (its log)
+                                     "value": round(v, 4) if order == "zero" or v >= 1e-4
+                                     else float(f"{v:.4g}")})
         table = pd.DataFrame(rows)
         self.files["storage.csv"] = table.to_csv(index=False).encode()
         self.spec_storage = {"data": "storage.csv", "time": "week", "time_unit": "weeks",

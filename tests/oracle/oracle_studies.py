@@ -94,6 +94,8 @@ class _Builder(Parts, Files):
         if self.pick.chance(0.2):
             self.spread()
         if self.pick.chance(0.3):
+            self.steps()
+        if self.pick.chance(0.3):
             self.labels()
         if self.pick.chance(0.25):
             self.study["confidence"] = self.pick.choice([0.9, 0.99, 0.8])

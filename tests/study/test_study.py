@@ -155,3 +155,12 @@ def test_with_goal_replaces_one_goal(write_study):
     changed = study.with_goal("hardness", goal)
     assert changed.response("hardness").goal == goal
     assert study.response("hardness").goal.kind == "minimize"
+
+
+def test_a_label_and_its_unit_take_one_pair_of_brackets():
+    # common practice: "Liking (9-point hedonic) (points)" reads as a slip
+    from tradeoff.study.spec import with_unit
+
+    assert with_unit("Hardness", "N") == "Hardness (N)"
+    assert with_unit("Liking (9-point hedonic)", "points") == "Liking (9-point hedonic, points)"
+    assert with_unit("Cost", "") == "Cost"

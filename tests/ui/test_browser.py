@@ -109,7 +109,7 @@ def test_change_a_target_in_a_real_browser(tmp_path):
                 before = _best_now(page)
                 assert re.search(r"Protein content: \d", before)
 
-                target = page.locator('input[aria-label="Target"]').first
+                target = page.locator('input[aria-label="Best at"]').first
                 target.fill("14")
                 target.press("Enter")
                 deadline = time.monotonic() + 60

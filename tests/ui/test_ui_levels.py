@@ -64,7 +64,7 @@ def test_targets_offer_the_hydrocolloid_and_mark_each_levels_best():
     box.set_value(other).run()
     assert not at.exception and not at.error
     marked = next(c.value for c in at.caption if c.value.startswith("The curves mark"))
-    assert f"hydrocolloid = {other}" in marked
+    assert f"Hydrocolloid = {other}" in marked  # the factor's label, not its column name
     # the sidebar still names the best of all, by its level's name
     panel = next(m.value for m in at.sidebar.markdown if "Best settings now" in m.value)
     assert f"Hydrocolloid: **{best}**" in panel
@@ -74,8 +74,9 @@ def test_targets_offer_the_hydrocolloid_and_mark_each_levels_best():
 def test_results_offer_the_hydrocolloid_in_slices_and_what_if():
     at = _open("results")
     solutions = at.dataframe[0].value
-    assert set(solutions["hydrocolloid"]) <= set(LEVELS)
-    assert len(set(solutions["hydrocolloid"])) == 3   # the best with each hydrocolloid
+    # the column is headed by the factor's label, not its column name
+    assert set(solutions["Hydrocolloid"]) <= set(LEVELS)
+    assert len(set(solutions["Hydrocolloid"])) == 3   # the best with each hydrocolloid
     what_if = _selectbox(at, "Hydrocolloid")
     assert list(what_if.options) == LEVELS
     factor = _selectbox(at, "Factor")

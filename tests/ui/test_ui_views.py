@@ -93,7 +93,8 @@ def test_an_impossible_goal_shows_an_error_and_keeps_the_previous_goal():
     at = start("targets")
     before = best_settings(at)
     at.number_input(key="g1.liking.lower").set_value(9.0).run()
-    assert any("lower (9) is not below upper (7.5)" in e.value for e in at.error)
+    assert any("'Unacceptable below' (9) must be below 'Fully met at or above' (7.5)"
+               in e.value for e in at.error)
     assert at.number_input(key="g1.liking.lower").value == 9.0  # what was typed stays
     assert best_settings(at) == before
 
@@ -199,3 +200,32 @@ def test_storage_kinetics_show_a_table_and_an_arrhenius_chart():
     assert len(table) == 20 and {"lower", "upper", "flag"} <= set(table.columns)
     assert len(at.get("vega_lite_chart")) == 1
     assert any("microbial safety" in i.value for i in at.info)
+
+
+def test_goal_boxes_say_what_their_limits_mean():
+    # Derringer & Suich (1980): a smaller-is-better goal is fully met (d = 1) at or
+    # below its lower limit and unacceptable (d = 0) at or above its upper limit
+    at = start("targets")
+    by_key = {n.key: n.label for n in at.number_input}
+    goals = {"hardness_fresh": "target", "water_activity": "minimize",
+             "liking": "maximize"}
+    study_goals = {k: v for k, v in goals.items() if f"g1.{k}.lower" in by_key}
+    assert study_goals, by_key
+    words = {"minimize": ("Fully met at or below", "Unacceptable above"),
+             "maximize": ("Unacceptable below", "Fully met at or above"),
+             "target": ("Unacceptable below", "Unacceptable above")}
+    import tradeoff
+
+    study = tradeoff.load_study(DEMO)
+    for name in study_goals:
+        kind = study.response(name).goal.kind
+        assert (by_key[f"g1.{name}.lower"], by_key[f"g1.{name}.upper"]) == words[kind]
+    assert "Lower limit" not in by_key.values() and "Upper limit" not in by_key.values()
+
+
+def test_an_error_reads_as_one_sentence():
+    at = start("targets")
+    at.number_input(key="g1.liking.lower").set_value(9.0).run()
+    message = at.error[0].value
+    assert "?." not in message and ": ." not in message and ".." not in message
+    assert "Unacceptable below" in message or "Fully met" in message

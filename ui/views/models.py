@@ -143,8 +143,9 @@ with left:
                     width="stretch")
 with right:
     st.subheader("Half-normal plot")
-    st.caption("Effects that are only noise fall on a straight line through the "
-               "origin; real effects stand out to the right.")
+    st.caption("Each dot is one effect, the largest on the right. Effects that are only "
+               "noise rise steadily from the bottom left; real effects stand apart, far "
+               "to the right of the rest.")
     if len(effects) >= 2:
         charts.show(charts.half_normal_chart, half_normal_table(model), response.unit,
                     width="stretch")
@@ -201,7 +202,7 @@ with st.expander("Coefficients, analysis of variance and the equation"):
                            **{c: (p_text(v.get(c)) if c == "p" else num(v.get(c)))
                               for c in ("ss", "df", "ms", "f", "p")}}
                           for k, v in report["anova"].items()
-                          if isinstance(v, dict) and k != "curvature"])
+                          if isinstance(v, dict) and k not in ("curvature", "terms")])
     st.dataframe(blank_none(anova), hide_index=True, height=35 * (len(anova) + 1) + 3)
     curvature = report["anova"].get("curvature")
     if curvature:

@@ -65,25 +65,37 @@ if not result.feasible:
 table = solutions_table(result)
 units = {f.name: f.unit for f in study.factors}
 st.subheader("Best settings and alternatives")
-st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance all within "
-           "limits' is the estimated chance that one batch made at these settings lands "
+st.caption("D is the overall desirability (0 to 1, higher is better). 'All limits met' "
+           "is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed. " + CHANCE_RULE)
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
-                      "chance all within limits": table["chance_all"].map(chance_text)})
+                      "all limits met": table["chance_all"].map(chance_text)})
 if "chance_all_production" in table:
-    st.caption("'Chance in production' also lets each factor stray from its setting by its "
-               "production spread: " + ", ".join(
-                   f"{text.plain(k)} SD {v:g}" for k, v in result.production_sd.items())
-               + ". 'D given up' is how much lower D is than at the best balance.")
+    spread_words = ", ".join(
+        text.plain(f"{study.factor(k).label} SD {v:g} {study.factor(k).unit}".strip())
+        for k, v in result.production_sd.items())
+    st.caption(("'Chance in production' also lets each factor stray from its setting by "
+                f"its production spread: {spread_words}." if spread_words else
+                "'Chance in production': no factor has a production spread yet (set one "
+                "on the targets view), so it allows for the run-to-run scatter only.")
+               + " 'D given up' is how much lower D is than at the best balance.")
     shown["chance in production"] = table["chance_all_production"].map(chance_text)
 if "d_given_up" in table:
     shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
 for f in study.factors:
-    title = f"{f.name} ({f.unit})" if f.unit else f.name
-    shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
-shown["outside limits"] = table["out_of_limits"]
+    # headed by the label; the unit goes with each number (the headers would not fit)
+    shown[f.label] = (table[f.name].map(lambda v, u=f.unit: f"{num(v)} {u}".strip())
+                      if f.name in numeric else table[f.name])
+labels_of = {x.name: x.label for x in (*study.factors, *study.responses)}
+shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
+                           for s in result.solutions]
 st.dataframe(shown, hide_index=True, key="r_solutions")
+if result.steps:  # the recipes are rounded (tradeoff.search.rounding)
+    st.caption("Settings are rounded to steps a lab can weigh or set (" + text.plain(", ".join(
+        f"{study.factor(k).label} {v:g} {study.factor(k).unit}".strip()
+        for k, v in result.steps.items())) + "; set another with a step line under the "
+        "factor in the study file). Every figure here is for the rounded recipe.")
 
 labels = [s.label for s in result.solutions]
 chosen_label = st.selectbox("Look closer at", labels,
@@ -98,7 +110,7 @@ for name, o in chosen.responses.items():
     rows.append({"response": r.display(), "predicted": num(o.predicted),
                  f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
                  "desirability": num(o.desirability, 3),
-                 "chance within limits": chance_text(o.chance_in_limits)})
+                 "chance in limits": chance_text(o.chance_in_limits)})
     if o.transmitted_sd is not None:
         rows[-1].update({"spread SD in production": num(o.transmitted_sd),
                          "mean shift": num(o.mean_shift)})
@@ -161,7 +173,9 @@ else:
         st.error(text.plain(exc))
     else:
         held_text = text.plain(", ".join(
-            f"{k} = {v if isinstance(v, str) else format(v, '.4g')}" for k, v in held.items()))
+            f"{study.factor(k).label} = "
+            + (v if isinstance(v, str) else f"{v:.4g} {study.factor(k).unit}".strip())
+            for k, v in held.items()))
         if shown_value == "limits":
             titles = {r.name: r.display() for r in study.responses}
             charts.show(charts.limits_chart, lmap, titles, fx.display(), fy.display(),
@@ -242,7 +256,7 @@ else:
         f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
         "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance within limits": t["chance_in_limits"].map(chance_text)}),
+        "chance in limits": t["chance_in_limits"].map(chance_text)}),
         hide_index=True, key="r_whatif_table")
 
 # -- make next ----------------------------------------------------------------------------

@@ -8,12 +8,28 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.inputs import checked_goal, with_production_sd
+from tradeoff.study.spec import GOAL_WORDS, LIMIT_WORDS
 from tradeoff_ui import cached, charts, panels, text
 
 ss = st.session_state
-KINDS = {"maximize": "higher is better", "minimize": "lower is better",
-         "target": "aim at a target", "range": "anywhere within limits",
-         "none": "no goal"}
+KINDS = GOAL_WORDS
+# What each box means, for the goal it belongs to (the limits' meaning changes with
+# the goal: a minimize goal is fully met at its lower limit).
+HELP = {
+    ("maximize", "lower"): "At or below this the goal is not met at all (desirability 0).",
+    ("maximize", "upper"): "At or above this the goal is fully met (desirability 1); "
+                           "higher is no better.",
+    ("minimize", "lower"): "At or below this the goal is fully met (desirability 1); "
+                           "lower is no better.",
+    ("minimize", "upper"): "Above this the goal is not met at all (desirability 0).",
+    ("target", "lower"): "Below this the goal is not met at all (desirability 0).",
+    ("target", "target"): "The best value (desirability 1).",
+    ("target", "upper"): "Above this the goal is not met at all (desirability 0).",
+    ("range", "lower"): "Below this the goal is not met (desirability 0); anywhere "
+                        "between the two limits counts as fully met.",
+    ("range", "upper"): "Above this the goal is not met (desirability 0); anywhere "
+                        "between the two limits counts as fully met.",
+}
 
 # -- read state -------------------------------------------------------------
 st.title("Targets and weights")
@@ -31,17 +47,33 @@ panels.stop_without_factors(study)
 epoch = ss["epoch"]
 
 
+def _step(lo: float, hi: float) -> float:
+    return 10.0 ** math.floor(math.log10(max(hi - lo, 1e-12)) - 1)
+
+
 def _span(item) -> tuple[float, float]:
-    """Default limits for a goal that has none: the measured (or tested) range."""
+    """Default limits for a goal that has none: the measured (or tested) range,
+    widened to round numbers (a box never opens on 0.01760030370...)."""
     if hasattr(item, "low") and item.low is not None:
         return float(item.low), float(item.high)
     values = study.runs[item.name].dropna() if item.name in study.runs else pd.Series([0, 1])
     lo, hi = float(values.min()), float(values.max())
-    return (lo, hi) if hi > lo else (lo - 1.0, lo + 1.0)
+    if not hi > lo:
+        return lo - 1.0, lo + 1.0
+    step = _step(lo, hi)
+    return _tidy(math.floor(lo / step) * step, step), _tidy(math.ceil(hi / step) * step, step)
 
 
-def _step(lo: float, hi: float) -> float:
-    return 10.0 ** math.floor(math.log10(max(hi - lo, 1e-12)) - 1)
+def _tidy(value: float, step: float) -> float:
+    """``value`` without floating dust, to the decimals of ``step``."""
+    places = max(0, -math.floor(math.log10(step))) if step > 0 else 6
+    return round(float(value), places) + 0.0
+
+
+def _sentence(message, then: str) -> str:
+    """A library message and a sentence after it, with one stop between them."""
+    first = text.plain(message).rstrip()
+    return f"{first}{'' if first.endswith(('.', '?', '!')) else '.'} {then}"
 
 
 def _production_sd_input(factor, key: str) -> None:
@@ -49,7 +81,8 @@ def _production_sd_input(factor, key: str) -> None:
     old = ss["spread"].get(factor.name)
     unit = f" ({text.plain(factor.unit)})" if factor.unit else ""
     typed = st.number_input(
-        f"Spread in production, SD{unit}", min_value=0.0, value=float(old or 0.0),
+        f"Spread in production, SD{unit}", min_value=0.0,
+        value=_tidy(old or 0.0, _step(factor.low, factor.high) / 100),
         step=_step(factor.low, factor.high), format="%g", key=f"{key}.spread",
         help="The standard deviation of the actual setting around the intended one when "
              "made in production (say a dosing scatter of +-0.5 % is an SD of about "
@@ -61,9 +94,21 @@ def _production_sd_input(factor, key: str) -> None:
     try:
         with_production_sd(study, factor.name, value)
     except TradeoffError as exc:
-        st.error(f"{text.plain(exc)}. The previous spread stays in use until this is fixed.")
+        st.error(_sentence(exc, "The previous spread stays in use until this is fixed."))
     else:
         ss["spread"] = {**ss["spread"], factor.name: value}
+
+
+def _order_problem(kind: str, values: dict, words: dict) -> str:
+    """The boxes out of order, said with their own labels ('' when in order)."""
+    if kind == "none":
+        return ""
+    keys = ["lower", "target", "upper"] if kind == "target" else ["lower", "upper"]
+    for a, b in zip(keys, keys[1:]):
+        if not values[a] < values[b]:
+            return (f"'{words[a]}' ({values[a]:g}) must be below '{words[b]}' "
+                    f"({values[b]:g}): swap them or change one.")
+    return ""
 
 
 # -- widgets -------------------------------------------------------------------
@@ -82,28 +127,35 @@ for item in items:
     key = f"g{epoch}.{item.name}"
     is_factor = item in study.factors
     with st.container(border=True):
-        left, right = st.columns([2, 3])
+        left, right = st.columns([1, 1])  # room for the boxes' words at 1280 px
         with left:
+            what = ("blend component" if getattr(item, "is_component", False)
+                    else "factor") if is_factor else ""
             st.markdown(f"**{text.plain(item.display())}**"
-                        + (" (factor)" if is_factor else ""))
+                        + (f" · {what}" if what else ""))
             kinds = list(KINDS)
             kind = st.selectbox("Goal", kinds, index=kinds.index(goal.kind),
                                 format_func=KINDS.get, key=f"{key}.kind")
             lo0, hi0 = (goal.lower, goal.upper) if goal.active else _span(item)
             step = _step(lo0, hi0)
+            lo0, hi0 = _tidy(lo0, step / 1000), _tidy(hi0, step / 1000)
             values = {"kind": kind, "weight": goal.weight, "shape": goal.shape,
                       "shape_below": goal.shape_below, "shape_above": goal.shape_above}
+            words = LIMIT_WORDS.get(kind, {})
             if kind != "none":
                 c1, c2, c3 = st.columns(3)
-                values["lower"] = c1.number_input("Lower limit", value=float(lo0),
-                                                  step=step, format="%g", key=f"{key}.lower")
+                values["lower"] = c1.number_input(
+                    words["lower"], value=float(lo0), step=step, format="%g",
+                    key=f"{key}.lower", help=HELP[(kind, "lower")])
                 if kind == "target":
-                    t0 = goal.target if goal.target is not None else (lo0 + hi0) / 2
-                    values["target"] = c2.number_input("Target", value=float(t0),
-                                                       step=step, format="%g",
-                                                       key=f"{key}.target")
-                values["upper"] = c3.number_input("Upper limit", value=float(hi0),
-                                                  step=step, format="%g", key=f"{key}.upper")
+                    t0 = goal.target if goal.target is not None else \
+                        _tidy((lo0 + hi0) / 2, step)
+                    values["target"] = c2.number_input(
+                        words["target"], value=float(t0), step=step, format="%g",
+                        key=f"{key}.target", help=HELP[(kind, "target")])
+                values["upper"] = c3.number_input(
+                    words["upper"], value=float(hi0), step=step, format="%g",
+                    key=f"{key}.upper", help=HELP[(kind, "upper")])
                 c1, c2, c3 = st.columns(3)
                 values["weight"] = c1.number_input(
                     "Weight", min_value=0.1, max_value=10.0, value=float(goal.weight),
@@ -124,14 +176,18 @@ for item in items:
                         "Shape above", min_value=0.1, max_value=10.0,
                         value=float(goal.shape_above), step=0.5, format="%g",
                         key=f"{key}.above")
-            try:
-                new = checked_goal(item.name, **values)
-            except TradeoffError as exc:
-                st.error(f"{text.plain(exc)}. The previous goal stays in use until this "
-                         "is fixed.")
+            problem = _order_problem(kind, values, words)
+            if problem:
+                st.error(f"{problem} The previous goal stays in use until this is fixed.")
             else:
-                if new != goal:
-                    ss["goals"] = {**ss["goals"], item.name: new}
+                try:
+                    new = checked_goal(item.name, **values)
+                except TradeoffError as exc:
+                    st.error(_sentence(exc, "The previous goal stays in use until this "
+                                            "is fixed."))
+                else:
+                    if new != goal:
+                        ss["goals"] = {**ss["goals"], item.name: new}
             if is_factor:
                 _production_sd_input(item, key)
         slots[item.name] = (right, item, is_factor)
@@ -154,13 +210,14 @@ marked = next((s for s in result.solutions
 # -- show -------------------------------------------------------------------------------
 if marked is None:
     st.warning("No solution listed uses " + text.plain(", ".join(
-        f"{k} = {v}" for k, v in wanted.items())) + ": the curves mark the best settings. "
+        f"{study.factor(k).label} = {v}" for k, v in wanted.items()))
+        + ": the curves mark the best settings. "
         "Ask for more solutions on the results view to see more levels.")
     marked = best
 elif wanted:
     st.caption(f"The curves mark {text.plain(marked.label)} (D = {marked.desirability:.3f}), "
                "the best settings found with " + text.plain(", ".join(
-                   f"{k} = {v}" for k, v in wanted.items()))
+                   f"{study.factor(k).label} = {v}" for k, v in wanted.items()))
                + f"; the best of all is {text.plain(best.label)} (D = "
                  f"{best.desirability:.3f}).")
 for name, (slot, item, is_factor) in slots.items():
