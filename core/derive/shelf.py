@@ -19,6 +19,7 @@ import pandas as pd
 
 from ..cautions import ACCELERATED_CAUTIONS, SHELF_LIFE_CAUTION
 from ..errors import DataError, StudyError
+from .reach import STATED_MULTIPLE, stated_limit
 from .kinetics import (KELVIN, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
                        time_to_limit_se)
 from .table import flag_notes, name_list, run_table
@@ -31,8 +32,9 @@ TEMPERATURE_KINDS = ("time_to_limit", "shelf_life", "activation_energy", "q10", 
 ESTIMATES = ("bound", "mean")
 # Rule of thumb for chemical and quality changes in foods (common practice).
 EA_TYPICAL = (10.0, 200.0)
-# A shelf life beyond this multiple of the last storage time is flagged more strongly.
-FAR_BEYOND = 1.5
+# A shelf life beyond this multiple of the last storage time is flagged more strongly
+# (and gets no chance: see reach.py).
+FAR_BEYOND = STATED_MULTIPLE
 _POOR_FIT_R2 = 0.8
 
 
@@ -217,7 +219,8 @@ def derive_kinetic(study, r, opts: dict, sec: dict, fname: str,
         lower[run] = float(estimate["lower"][i])
         upper[run] = float(estimate["upper"][i])
         r2[run] = float(fit.r_squared[i])
-        flags[run] = _flags(run, mine, opts, at, many, fit, i, tname, values[run], sub)
+        flags[run] = _flags(run, mine, opts, at, many, fit, i, tname, values[run], sub,
+                            sec.get("time_unit", ""))
     flags = {run: fl for run, fl in flags.items() if fl and run not in reasons}
     notes = flag_notes(r.name, flags) + _fit_notes(r.name, r2, order, many)
     if kind in ("shelf_life", "time_to_limit") and values:
@@ -279,7 +282,7 @@ def _left_out(run, mine, opts, at, many, fit, i, tname, estimate, sub) -> str:
     return ""
 
 
-def _flags(run, mine, opts, at, many, fit, i, tname, value, sub) -> list:
+def _flags(run, mine, opts, at, many, fit, i, tname, value, sub, unit="") -> list:
     out = []
     kind = opts["kind"]
     run_temps = [T for T in mine if math.isfinite(T)]
@@ -306,11 +309,12 @@ def _flags(run, mine, opts, at, many, fit, i, tname, value, sub) -> list:
             float(fit.last_time[i])
         if value == 0:
             out.append((f"at or past {lim:g} from the start of {what}, so set to 0", ""))
-        elif value > FAR_BEYOND * last:
-            out.append((f"EXTRAPOLATED FAR BEYOND THE DATA: {what} reaches {lim:g} after more than "
-                        f"{FAR_BEYOND:g} times the last measured {tname}; treat it as a "
-                        "rough guide and extend the storage study",
-                        f"{tname} {value:.3g}, measured to {last:g}"))
+        elif value > stated_limit(last, unit):
+            out.append((f"EXTRAPOLATED FAR BEYOND THE DATA: {what} reaches {lim:g} after "
+                        f"{stated_limit(last, unit):.3g}, the longest the storage supports "
+                        f"({FAR_BEYOND:g} times the last measured {tname}); no chance is "
+                        "stated for it: treat it as a rough guide and extend the storage "
+                        "study", f"{tname} {value:.3g}, measured to {last:g}"))
         elif value > last:
             out.append((f"EXTRAPOLATED: {what} reaches {lim:g} after the last measured "
                         f"{tname} (the further beyond, the less trustworthy)",

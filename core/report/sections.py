@@ -147,13 +147,20 @@ class _AnswerSections(_Sections):
             return ""
         listed = ", ".join(f"{esc(k)} {_g(v)}" for k, v in spread.items())
         rows = [[esc(self.study.response(name).label), esc(self.study.response(name).unit),
+                 _chance_cell(o, "chance_in_production"),
                  _g(o.get("transmitted_sd")), _g(o.get("mean_shift"))]
                 for name, o in sol["responses"].items()]
+        # a factor's own goal counts in the chance of all at once: its row says how
+        # often the factor itself strays out of its limits
+        rows += [[esc(self.study.factor(name).label) + " (factor goal)",
+                  esc(self.study.factor(name).unit), _pct(p), "-", "-"]
+                 for name, p in (sol.get("factor_chance_production") or {}).items()]
         return (f"<h3>In production</h3><p>Each factor strays from its setting with the "
                 f"standard deviation given ({listed}). Chance that one production batch "
-                f"meets every limit: <b>{_pct(sol.get('chance_all_production'))}</b>.</p>"
-                + _table(["response", "unit", "spread SD", "mean shift"], rows,
-                         numeric={2, 3}))
+                f"meets every limit: <b>{_pct(sol.get('chance_all_production'))}</b>; "
+                "each row gives its own share of that.</p>"
+                + _table(["response", "unit", "chance within limits in production",
+                          "spread SD", "mean shift"], rows, numeric={2, 3, 4}))
 
     def _predictions(self, sol: dict) -> str:
         rows = []
@@ -163,12 +170,12 @@ class _AnswerSections(_Sections):
                          _g(o["predicted"]),
                          f"{_g(o['pi'][0])} .. {_g(o['pi'][1])}",
                          f"{_g(o['ci'][0])} .. {_g(o['ci'][1])}",
-                         _g(o["desirability"], 3), _pct(o["chance_in_limits"])])
+                         _g(o["desirability"], 3), _chance_cell(o, "chance_in_limits")])
         for name, d in sol["factor_desirability"].items():
             f = self.study.factor(name)
             rows.append([esc(f.label) + " (factor goal)", esc(f.unit),
                          esc(self._goal_text(f.goal)), _g(sol["settings"][name]), "-",
-                         "-", _g(d, 3), "-"])
+                         "-", _g(d, 3), _pct(1.0 if d > 0 else 0.0)])
         return _table(["response", "unit", "goal", "predicted",
                        f"{self.pct} prediction interval", f"{self.pct} mean interval",
                        "d", "chance within limits"], rows, numeric={3, 6, 7})
@@ -324,3 +331,11 @@ def _table(head: list[str], rows: list[list[str]], *, numeric: set[int] = frozen
         for row in rows)
     klass = f' class="{cls}"' if cls else ""
     return f"<table{klass}><thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def _chance_cell(o: dict, key: str) -> str:
+    """A response's chance, or why none is stated (a time past the storage study)."""
+    if o.get("extrapolated") == "far" and o.get("goal") != "none":
+        return (f"not stated (store to {_g(o.get('storage_needed'))})"
+                if o.get("storage_needed") is not None else "not stated")
+    return _pct(o.get(key))

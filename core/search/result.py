@@ -12,11 +12,12 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .chance import chance_in_limits, chance_text
+from .chance import (NOT_STATED, beyond_reach, chance_in_limits, chance_text,
+                     withhold_beyond_reach)
 from .mixture import bound_warnings
 from ..study.mixture import is_component
 from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
-from .production import production_chance
+from .production import factor_goal_chances, production_chance
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
@@ -50,6 +51,17 @@ class ResponseOutcome:
         ``production_sd``).
     mean_shift : float or None
         How far the average response moves because of that spread.
+    extrapolated : str
+        For a time derived from a storage study (``study.reach``): ``""`` when the
+        prediction lies within the storage, ``"beyond"`` past its last storage
+        time, ``"far"`` past the longest time stated (``chance_in_limits`` is then
+        None: no chance is stated).
+    storage_needed : float or None
+        With ``"far"``: the storage time that would support the prediction.
+    chance_in_production : float or None
+        The chance that one production batch (factors drawn from their
+        production spread) lands within this goal's limits; None when no factor
+        spreads (then it equals ``chance_in_limits``).
     """
 
     name: str
@@ -61,6 +73,9 @@ class ResponseOutcome:
     chance_in_limits: float | None
     transmitted_sd: float | None = None
     mean_shift: float | None = None
+    extrapolated: str = ""
+    storage_needed: float | None = None
+    chance_in_production: float | None = None
 
 
 @dataclass(frozen=True)
@@ -104,6 +119,10 @@ class Solution:
         and no production ranking was asked for.
     d_given_up : float
         How much lower D is here than at the best balance found.
+    factor_chance_production : dict
+        Factor name -> the chance that the factor, made with its production
+        spread, lands within its own goal's limits (factors with a goal, when
+        some factor spreads): the factor rows behind ``chance_all_production``.
     """
 
     rank: int
@@ -121,6 +140,7 @@ class Solution:
     proportions: dict = field(default_factory=dict)
     chance_all_production: float | None = None
     d_given_up: float = 0.0
+    factor_chance_production: dict = field(default_factory=dict)
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
@@ -137,9 +157,14 @@ class Solution:
                 name: {"predicted": r(o.predicted), "desirability": r(o.desirability),
                        "ci": [r(o.ci[0]), r(o.ci[1])], "pi": [r(o.pi[0]), r(o.pi[1])],
                        "chance_in_limits": r(o.chance_in_limits), "goal": o.goal,
-                       "transmitted_sd": r(o.transmitted_sd), "mean_shift": r(o.mean_shift)}
+                       "transmitted_sd": r(o.transmitted_sd), "mean_shift": r(o.mean_shift),
+                       "extrapolated": o.extrapolated,
+                       "storage_needed": r(o.storage_needed),
+                       "chance_in_production": r(o.chance_in_production)}
                 for name, o in self.responses.items()},
             "factor_desirability": {k: r(v) for k, v in self.factor_desirability.items()},
+            "factor_chance_production": {k: r(v) for k, v in
+                                         self.factor_chance_production.items()},
             "chance_all": r(self.chance_all),
             "chance_all_production": r(self.chance_all_production),
             "d_given_up": r(self.d_given_up),
@@ -267,7 +292,11 @@ class OptimizationResult:
             if self.aim == "production":
                 head = ("Most likely to hold in production" if s.rank == 1 else
                         "Best balance" if s.d_given_up == 0 else f"Alternative {s.rank - 1}")
-            chance = "" if s.chance_all is None else \
+            withheld = any(o.extrapolated == "far" and o.goal != "none"
+                           for o in s.responses.values())
+            chance = (f", chance all within limits {NOT_STATED} (a time past what the "
+                      "storage study supports: see the note)") if withheld else \
+                "" if s.chance_all is None else \
                 f", chance all within limits {chance_text(s.chance_all)}"
             if s.chance_all_production is not None:
                 chance += f", in production {chance_text(s.chance_all_production)}"
@@ -285,20 +314,32 @@ class OptimizationResult:
                 lines.append(f"  {name:<18} {shown:>12}   " + (
                     f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
-                         f"{'prediction interval':>23} {'chance':>8}"
-                         + (f" {'spread SD':>10} {'shift':>9}" if spread else ""))
+                         f"{'prediction interval':>23} {'chance':>10}"
+                         + (f" {'in production':>13} {'spread SD':>10} {'shift':>9}"
+                            if spread else ""))
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
-                ch = chance_text(o.chance_in_limits)
+                far = o.extrapolated == "far" and o.goal != "none"
+                ch = NOT_STATED if far else chance_text(o.chance_in_limits)
                 pi = f"{o.pi[0]:.4g} .. {o.pi[1]:.4g}"
                 extra = ""
                 if spread:
-                    extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
+                    extra = (f" {NOT_STATED if far else chance_text(o.chance_in_production):>13}"
+                             f" {_g_or_dash(o.transmitted_sd):>10} "
                              f"{_g_or_dash(o.mean_shift, signed=True):>9}")
-                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>8}"
+                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>10}"
                              + extra)
+            # a factor's own goal is a row like a response's: its limits count in
+            # the chance of all at once (in production the factor strays from them)
             for name, d in s.factor_desirability.items():
-                lines.append(f"  factor goal {name}: d = {d:.3f}")
+                value = s.settings[name]
+                inside = "-" if d is None else chance_text(1.0 if d > 0 else 0.0)
+                extra = ""
+                if spread:
+                    extra = (f" {chance_text(s.factor_chance_production.get(name)):>13}"
+                             f" {'-':>10} {'-':>9}")
+                lines.append(f"  {name:<18} {value:>10.4g} {d:>6.3f}  "
+                             f"{'(factor goal)':>23} {inside:>10}" + extra)
             if s.out_of_limits:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
@@ -357,13 +398,21 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     # predicted, ci_low, ci_high, pi_low, pi_high), so no table is indexed per cell.
     intervals = {r.name: _interval_array(models[r.name], X, study.confidence)
                  for r in study.responses if r.name in models}
+    # a shelf life past what the storage supports gets no chance (derive/reach.py)
+    predicted = {n: a[:, 0] for n, a in intervals.items()}
+    chances = withhold_beyond_reach(study, chances, predicted)
+    reach_state = beyond_reach(study, predicted)
     chance_col = {n: i for i, n in enumerate(chances.responses)}
     spread_sd = {f.name: f.production_sd for f in study.factors
                  if not f.is_categorical and f.production_sd}
-    held = spread = None
+    held = spread = prod = None
+    factor_held = {}
     if spread_sd:
         spread = transmitted_spread(study, models, X, seed=seed)
-        held = production_chance(study, models, X, draws=draws, seed=seed).all
+        prod = withhold_beyond_reach(study, production_chance(
+            study, models, X, draws=draws, seed=seed), predicted)
+        held = prod.all
+        factor_held = factor_goal_chances(study, X, draws=draws, seed=seed)
     elif rank_by == "production" or aim == "production":
         held = chances.all  # no spread: the chance in production is the ordinary one
     order = np.arange(len(X))
@@ -403,6 +452,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 shift = float(spread.mean_shift[i, col_s])
             pred, ci_low, ci_high, pi_low, pi_high = intervals[r.name][i].tolist()
             col = names.index(r.name) if r.name in names else None
+            state = str(reach_state[r.name][i]) if r.name in reach_state else ""
             outcomes[r.name] = ResponseOutcome(
                 name=r.name, goal=r.goal.kind if col is not None else "none",
                 predicted=pred,
@@ -411,7 +461,12 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 pi=(pi_low, pi_high),
                 chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
                                   if r.name in chance_col else None),
-                transmitted_sd=sd, mean_shift=shift)
+                transmitted_sd=sd, mean_shift=shift, extrapolated=state,
+                storage_needed=(study.reach[r.name].needed(pred) if state == "far"
+                                else None),
+                chance_in_production=(_finite(prod.each[i, chance_col[r.name]])
+                                      if prod is not None and r.name in chance_col
+                                      else None))
             predictions[r.name] = pred
         factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
                     if kind == "factor"}
@@ -422,12 +477,15 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             factor_desirability=factor_d,
             chance_all=_finite(chances.all[i]) if chances.responses else None,
             out_of_limits=out, shortfall=float(S[i]),
-            warnings=tuple(_point_warnings(study, problem, x, D[i])),
+            warnings=tuple(_point_warnings(study, problem, x, D[i])) + tuple(
+                study.reach[n].sentence(o.predicted) for n, o in outcomes.items()
+                if o.extrapolated and o.goal != "none"),
             proportions={f.name: settings[f.name] / f.total for f in study.factors
                          if is_component(f)},
             chance_all_production=(_finite(held[i]) if held is not None and
                                    chances.responses else None),
-            d_given_up=max(0.0, d_best - float(D[i]))))
+            d_given_up=max(0.0, d_best - float(D[i])),
+            factor_chance_production={n: float(c[i]) for n, c in factor_held.items()}))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
@@ -463,7 +521,10 @@ def _interval_array(model, X, level) -> np.ndarray:
 
 
 def _general_warnings(study, problem, models, fit) -> list[str]:
+    from ..derive.reach import goal_warnings
+
     out = [BLEND_CAUTION] if getattr(study, "mixture", None) is not None else []
+    out += list(goal_warnings(study).values())
     skipped = getattr(fit, "skipped", {}) or {}
     for r in study.responses:
         if r.goal.active and r.name not in models:
