@@ -134,7 +134,7 @@ def _value_at_time(sub: pd.DataFrame, at: float, opts: dict, tname: str):
                 continue
             values[run] = float(fitted_value(fit["start"], fit["rate"], at,
                                              order=opts["order"]))
-            flags[run] = (f"EXTRAPOLATED to {tname} {at:g}, {side}, by a "
+            flags[run] = (f"extrapolated to {tname} {at:g}, {side}, by a "
                           f"{opts['order']}-order fit", f"measured to {tname} {edge:g}")
     return values, flags, reasons, points
 
@@ -185,7 +185,7 @@ def _derive_storage(study, r, opts, sec, fname, sub):
                 values[run] = v1[run] - v0[run]
             for fl in (f0.get(run), f1.get(run)):
                 if fl:  # the end point needing the stronger flag wins
-                    if run not in flags or fl[0].startswith("EXTRAPOLATED"):
+                    if run not in flags or fl[0].startswith("extrapolated"):
                         flags[run] = fl
     else:
         if opts["order"] == "first":

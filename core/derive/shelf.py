@@ -288,14 +288,14 @@ def _flags(run, mine, opts, at, many, fit, i, tname, value, sub, unit="") -> lis
     run_temps = [T for T in mine if math.isfinite(T)]
     if math.isfinite(at) and run_temps and kind != "activation_energy" and many and \
             not min(run_temps) <= at <= max(run_temps):
-        out.append(("TEMPERATURE EXTRAPOLATED: at_temperature is outside the temperatures "
+        out.append(("temperature extrapolated: at_temperature is outside the temperatures "
                     "the run was stored at, so the Arrhenius law is assumed to hold there",
                     f"{at:g} degC asked, tested {_temps([min(run_temps), max(run_temps)])}"))
     if many:
         ea = fit.ea[i]
         lo, hi = EA_TYPICAL
         if not lo <= ea <= hi:
-            out.append((f"UNUSUAL ACTIVATION ENERGY outside {lo:g} to {hi:g} kJ/mol (a rule "
+            out.append((f"unusual activation energy outside {lo:g} to {hi:g} kJ/mol (a rule "
                         "of thumb for chemical and quality changes in foods): check the "
                         "data, and whether one mechanism holds at every temperature",
                         f"{ea:.3g} kJ/mol"))
@@ -310,13 +310,13 @@ def _flags(run, mine, opts, at, many, fit, i, tname, value, sub, unit="") -> lis
         if value == 0:
             out.append((f"at or past {lim:g} from the start of {what}, so set to 0", ""))
         elif value > stated_limit(last, unit):
-            out.append((f"EXTRAPOLATED FAR BEYOND THE DATA: {what} reaches {lim:g} after "
+            out.append((f"extrapolated far beyond the data: {what} reaches {lim:g} after "
                         f"{stated_limit(last, unit):.3g}, the longest the storage supports "
                         f"({FAR_BEYOND:g} times the last measured {tname}); no chance is "
                         "stated for it: treat it as a rough guide and extend the storage "
                         "study", f"{tname} {value:.3g}, measured to {last:g}"))
         elif value > last:
-            out.append((f"EXTRAPOLATED: {what} reaches {lim:g} after the last measured "
+            out.append((f"extrapolated: {what} reaches {lim:g} after the last measured "
                         f"{tname} (the further beyond, the less trustworthy)",
                         f"{tname} {value:.3g}, measured to {last:g}"))
     return out
