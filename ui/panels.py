@@ -12,7 +12,41 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff_ui import cached, charts, text
 
-__all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors"]
+__all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors",
+           "show_notices"]
+
+
+def show_notices(texts, *, cautions=None, shown=()) -> list[str]:
+    """Notes and warnings, one box per kind (``tradeoff.report.notices``).
+
+    A kind of one sentence is one box; a kind of several says what they have in
+    common and how many responses and runs they concern, with the sentences in an
+    expander under it. Notes on how things were computed go in one collapsed
+    expander each. Cautions are not shown here: they are returned (each once,
+    without those in ``shown``) so the page states them in its one caution box;
+    with ``cautions`` (a Streamlit placeholder) they are written there at once.
+    """
+    from tradeoff.report.notices import group_notices
+
+    found = []
+    for g in group_notices(texts):
+        if g.kind == "caution":
+            found += [c for c in g.items if c not in shown and not any(c in s for s in shown)]
+            continue
+        if g.kind == "info":
+            with st.expander(text.plain(g.summary), icon=":material/info:"):
+                st.markdown("\n".join(f"- {text.plain(i)}" for i in g.items))
+            continue
+        if len(g.items) == 1:
+            st.warning(text.plain(g.items[0][:1].upper() + g.items[0][1:]),
+                       icon=":material/warning:")
+            continue
+        st.warning(text.plain(g.summary), icon=":material/warning:")
+        with st.expander(f"The {len(g.items)} notes of this kind"):
+            st.markdown("\n".join(f"- {text.plain(i)}" for i in g.items))
+    if cautions is not None and found:
+        cautions.info(text.plain(" ".join([*shown, *found])), icon=":material/info:")
+    return found
 
 
 def stop_without_factors(study) -> None:

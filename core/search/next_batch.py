@@ -30,6 +30,13 @@ elsewhere: the batch spreads out.
 Candidates lie in the searched region (each numeric factor's search range,
 every categorical level combination) and obey the study's rules; none lies
 closer than ``min_distance`` coded units to a run already made or picked.
+
+When no candidate's EI reaches ``NEGLIGIBLE_EI`` (a thousandth of the D scale),
+a run chosen by EI would be chosen by noise: the pick goes instead where the
+models are least sure (the largest variance of the mean relative to each goal's
+width, among settings with D above 0), and the batch says so, naming
+confirmation runs at the recommendation as the other sensible choice. A batch
+whose runs share nearly one setting of a factor says so too (``NextBatch.notes``).
 """
 from __future__ import annotations
 
@@ -48,9 +55,11 @@ from .desirability import desirability
 from .mixture import simplex_region
 
 __all__ = ["NextBatch", "SuggestedRun", "next_batch", "normal_ei", "expected_improvement",
-           "DEFAULT_MIN_DISTANCE"]
+           "DEFAULT_MIN_DISTANCE", "NEGLIGIBLE_EI", "made_run_at"]
 
 DEFAULT_MIN_DISTANCE = 0.3  # coded units: closer than this counts as repeating a run
+NEGLIGIBLE_EI = 1e-3  # an expected gain in D below this is noise, not a reason for a run
+_NARROW = 0.1  # a batch within this share of a factor's searched range "holds" it
 _DRAWS = 512  # Monte Carlo draws of the models' means per candidate
 _CANDIDATES = 2048  # Sobol candidates per level combination (a power of two)
 _CHUNK = 256  # candidates scored per block (memory: chunk x draws x responses)
@@ -95,6 +104,9 @@ class SuggestedRun:
         Coded distance to the nearest run made or picked before it.
     why : str
         Why this run, in a sentence.
+    purpose : str
+        ``improve`` (chosen for its expected improvement) or ``learn`` (no
+        setting is expected to improve D: chosen where the models are least sure).
     """
 
     settings: dict
@@ -105,6 +117,7 @@ class SuggestedRun:
     interval: dict
     nearest: float
     why: str
+    purpose: str = "improve"
 
 
 @dataclass(frozen=True)
@@ -124,6 +137,13 @@ class NextBatch:
     sheet : pandas.DataFrame
         The run sheet: the data file's columns, responses blank, ``point`` =
         ``suggested``.
+    summary : str
+        What the batch is for, in a sentence or two: improving D, or (where no
+        setting is expected to improve it) learning where the models are least
+        sure, with confirmation runs as the other choice.
+    notes : tuple of str
+        What a reader may wonder about the batch (runs sharing nearly one
+        setting of a factor, and why).
     """
 
     study: str
@@ -134,6 +154,8 @@ class NextBatch:
     min_distance: float
     warnings: tuple = ()
     sheet: pd.DataFrame = field(default=None, compare=False, repr=False)
+    summary: str = ""
+    notes: tuple = ()
 
     def to_dict(self, digits: int = 6) -> dict:
         """The JSON of ``tradeoff next --json``."""
@@ -147,7 +169,8 @@ class NextBatch:
                       "desirability": r(s.desirability),
                       "ci": {k: [r(a), r(b)] for k, (a, b) in s.interval.items()},
                       "nearest": r(s.nearest),
-                      "why": s.why} for s in self.runs],
+                      "why": s.why, "purpose": s.purpose} for s in self.runs],
+            "summary": self.summary, "notes": list(self.notes),
             "best_so_far": {"desirability": r(self.best_so_far["desirability"]),
                             "run": self.best_so_far["run"],
                             "settings": {k: (v if isinstance(v, str) else r(v))
@@ -161,11 +184,13 @@ class NextBatch:
         """A readable list for the terminal."""
         b = self.best_so_far
         lines = [f"Best so far: run {b['run']}, predicted D = {b['desirability']:.3f}",
+                 self.summary,
                  f"Next {len(self.runs)} run(s), each chosen given the ones before it "
                  f"(none closer than {self.min_distance:g} coded units to another):"]
         for i, s in enumerate(self.runs, start=1):
-            lines.append(f"\nN{i}: expected improvement of D {s.expected_improvement:.4f}, "
-                         f"predicted D {s.desirability:.3f}")
+            gain = (f"expected improvement of D {s.expected_improvement:.4f}"
+                    if s.purpose == "improve" else "to learn (no gain in D expected)")
+            lines.append(f"\nN{i}: {gain}, predicted D {s.desirability:.3f}")
             for name, value in s.settings.items():
                 if isinstance(value, str):  # a level is its name: no coded number
                     lines.append(f"  {name:<18} {value:>12}")
@@ -176,7 +201,7 @@ class NextBatch:
                 lines.append(f"  {name:<18} predicted {value:.4g} (mean {lo:.4g} .. "
                              f"{hi:.4g})")
             lines.append(f"  why: {s.why}")
-        for w in self.warnings:
+        for w in (*self.notes, *self.warnings):
             lines.append(f"note: {w}")
         lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines)
@@ -405,18 +430,22 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
         sd = _fantasy_sd(goals, sd0, X, picks)
         ei = expected_improvement(goals, X, mu, sd, levels, E)
         ei[~ok] = -1.0
-        if ei.max() > 0:
+        if ei.max() >= NEGLIGIBLE_EI:
             i = int(np.argmax(ei))
             x, value = _refine(goals, X[i], ei[i], num, lo, hi, A, b, P, picks,
                                min_distance, levels, E, rng)
             explore = False
         else:
-            # No candidate is expected to beat the best: explore where the models
-            # are least sure instead (relative to each goal's width).
-            spread = (sd / _widths(goals)).sum(axis=1)
+            # No candidate is expected to beat the best by more than noise: go
+            # where the models are least sure instead (the variance of the mean
+            # relative to each goal's width), among settings worth making (D > 0)
+            spread = ((sd / _widths(goals)) ** 2).sum(axis=1)
+            worth = goals.D(goals.natural(mu), goals.log_factor_d(X)) > 0
             spread[~ok] = -1.0
+            if (worth & ok).any():
+                spread[~worth] = -1.0
             i = int(np.argmax(spread))
-            x, value, explore = X[i], 0.0, True
+            x, value, explore = X[i], float(max(ei[i], 0.0)), True
         x = _rounded(study, x, A, b)
         mu_x, sd_x = goals.moments(x[None, :])
         nat = goals.natural(mu_x)
@@ -432,7 +461,65 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
                                level, explore))
     return NextBatch(study=study.name, runs=tuple(out), best_so_far=best_so_far,
                      seed=seed, draws=draws, min_distance=float(min_distance),
-                     warnings=tuple(warnings), sheet=suggestion_sheet(study, out))
+                     warnings=tuple(warnings), sheet=suggestion_sheet(study, out),
+                     summary=_summary(out, best_so_far),
+                     notes=tuple(_batch_notes(study, out, min_distance)))
+
+
+def _summary(out, best_so_far) -> str:
+    """What the batch is for: improving D, or learning where no gain is expected."""
+    learn = [i for i, s in enumerate(out, start=1) if s.purpose == "learn"]
+    if not learn:
+        return "Each run is expected to raise D above the best run made so far."
+    confirm = ("Confirmation runs at the recommended settings are the other sensible "
+               "choice: they test the recommendation itself.")
+    if len(learn) == len(out):
+        return (f"No setting is expected to raise D by {NEGLIGIBLE_EI:g} or more over the "
+                f"best run made ({best_so_far['run']}, D {best_so_far['desirability']:.3f}): "
+                "the models already point at the best they can find. These runs go where "
+                "the models are least sure (the largest variance of the predicted mean), "
+                "so the next fit is surer. " + confirm)
+    first = f"N{learn[0]}" + (f" to N{learn[-1]}" if len(learn) > 1 else "")
+    return (f"After the runs expected to raise D, no setting is expected to raise it by "
+            f"{NEGLIGIBLE_EI:g} or more: {first} go{'es' if len(learn) == 1 else ''} where "
+            "the models are least sure (the largest variance of the predicted mean), so "
+            "the next fit is surer. " + confirm)
+
+
+def _batch_notes(study, out, min_distance) -> list[str]:
+    """Why a batch may look near-identical: factors every run holds nearly alike."""
+    if len(out) < 3:
+        return []
+    held = []
+    for f in study.factors:
+        if f.is_categorical:
+            continue
+        values = np.array([s.settings[f.name] for s in out], float)
+        a, b = f.search_range
+        if b > a and np.ptp(values) < _NARROW * (b - a):
+            u = f" {f.unit}" if f.unit else ""
+            held.append(f"'{f.name}' ({values.min():.4g} to {values.max():.4g}{u})")
+    if not held:
+        return []
+    why = ("that is where D is expected to rise most" if all(
+        s.purpose == "improve" for s in out) else "that is where the models expect the "
+        "best D, and where what they do not know yet matters most")
+    names = held[0] if len(held) == 1 else ", ".join(held[:-1]) + " and " + held[-1]
+    return [f"all {len(out)} runs hold {names} nearly alike, each within "
+            f"{_NARROW:.0%} of its searched range: {why}; the runs differ in the other "
+            f"factors, each at least {min_distance:g} coded units (over all factors) from "
+            "every other and from the runs made"]
+
+
+def made_run_at(study, coded: dict, tol: float = 1e-3) -> str | None:
+    """The id of a run already made at these coded settings (within ``tol`` coded
+    units), or None: a recommendation that repeats a run made is a confirmation."""
+    if study.runs is None or not len(study.runs):
+        return None
+    x = np.array([float(coded[f.name]) for f in study.factors])
+    d = _distance_to(study.coded().to_numpy(float), x[None, :])
+    i = int(np.argmin(d))
+    return str(study.runs["run"].iloc[i]) if d[i] <= tol else None
 
 
 def _widths(goals):
@@ -496,8 +583,8 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
         interval[r.name] = (float(row["ci_low"]), float(row["ci_high"]))
     parts = [f"predicted D {D_x:.3f} against {best:.3f} at the best run made"]
     if explore:
-        parts.append("no setting is expected to do better, so this run goes where the "
-                     "models are least sure")
+        parts.append("no setting is expected to raise D by more than noise, so this run "
+                     "goes where the models are least sure")
     elif goals.responses and max(D_x - level, 0.0) < 0.5 * value:
         # most of the expected gain comes from what the models do not know yet
         # (with goals on factors only, nothing is uncertain to name)
@@ -511,7 +598,8 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
     coded = {f.name: float(x[j]) for j, f in enumerate(study.factors)}
     return SuggestedRun(settings=_settings(study, x), coded=coded,
                         expected_improvement=float(value), predicted=predicted,
-                        desirability=D_x, interval=interval, nearest=nearest, why=why)
+                        desirability=D_x, interval=interval, nearest=nearest, why=why,
+                        purpose="learn" if explore else "improve")
 
 
 def _next_ids(ids: list[str], count: int) -> list[str]:

@@ -21,7 +21,8 @@ from .production import factor_goal_chances, production_chance
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
-__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result"]
+__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result",
+           "fewer_solutions_text"]
 
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 
@@ -352,6 +353,22 @@ class OptimizationResult:
             lines.append(f"chances: {a}")
         lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines).lstrip("\n")
+
+
+def fewer_solutions_text(result, asked: int, min_distance: float = 0.25) -> str:
+    """Why fewer solutions are listed than ``asked`` ('' when there are enough).
+
+    The alternatives are distinct peaks of D: settings closer than
+    ``min_distance`` coded units to a better one belong to the same peak and are
+    merged (``optimize``), so a smooth D with one or two peaks gives one or two.
+    """
+    n = len(result.solutions)
+    if n >= asked:
+        return ""
+    what = "one setting stands" if n == 1 else f"{n} distinct settings stand"
+    return (f"{asked} solutions were asked for, and {what} out: every other good "
+            f"setting lies within {min_distance:g} coded units of a better one, on the "
+            "same peak of D, so listing it would repeat that solution with small changes")
 
 
 def _not_informed_text(n: dict) -> str:

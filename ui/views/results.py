@@ -6,15 +6,17 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
-from tradeoff.search.chance import CHANCE_RULE, chance_text
+from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
+from tradeoff.search.result import fewer_solutions_text
 from tradeoff_ui import cached, charts, panels, text, triangle
-from tradeoff_ui.shown import num, span
+from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
 
 # -- read state ---------------------------------------------------------------
 st.title("Recommended settings")
-st.info(CAUTION, icon=":material/info:")
+cautions = st.empty()  # the page's one caution box, filled once its cautions are known
+cautions.info(CAUTION, icon=":material/info:")
 try:
     study = cached.current_study()
 except TradeoffError as exc:
@@ -67,14 +69,25 @@ st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance al
            "limits' is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed. " + CHANCE_RULE)
+
+
+def _withheld(s) -> bool:
+    """True when a goal's prediction lies past what the storage supports: no chance."""
+    return any(o.extrapolated == "far" and o.goal != "none" for o in s.responses.values())
+
+
+_held_back = [_withheld(s) for s in result.solutions]
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
-                      "chance all within limits": table["chance_all"].map(chance_text)})
+                      "chance all within limits": [
+                          NOT_STATED if w else chance_text(c)
+                          for w, c in zip(_held_back, table["chance_all"])]})
 if "chance_all_production" in table:
     st.caption("'Chance in production' also lets each factor stray from its setting by its "
                "production spread: " + ", ".join(
                    f"{text.plain(k)} SD {v:g}" for k, v in result.production_sd.items())
                + ". 'D given up' is how much lower D is than at the best balance.")
-    shown["chance in production"] = table["chance_all_production"].map(chance_text)
+    shown["chance in production"] = [NOT_STATED if w else chance_text(c) for w, c in
+                                     zip(_held_back, table["chance_all_production"])]
 if "d_given_up" in table:
     shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
 for f in study.factors:
@@ -82,6 +95,9 @@ for f in study.factors:
     shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
 shown["outside limits"] = table["out_of_limits"]
 st.dataframe(shown, hide_index=True, key="r_solutions")
+_fewer = fewer_solutions_text(result, int(ss["top"]))
+if _fewer:
+    st.caption(text.plain(_fewer[:1].upper() + _fewer[1:] + "."))
 
 labels = [s.label for s in result.solutions]
 chosen_label = st.selectbox("Look closer at", labels,
@@ -90,32 +106,67 @@ ss["chosen"] = labels.index(chosen_label)
 chosen = result.solutions[ss["chosen"]]
 
 pct = f"{study.confidence:.0%}"
+production = chosen.chance_all_production is not None
+_storage = {"": "within the storage", "beyond": "past the last storage time",
+            "far": "past what the storage supports"}
 rows = []
 for name, o in chosen.responses.items():
     r = study.response(name)
+    far = o.extrapolated == "far" and o.goal != "none"
+    needed = (f"{NOT_STATED}: store to {o.storage_needed:g} "
+              f"{study.reach[name].unit}".rstrip() if far else "")
     rows.append({"response": r.display(), "predicted": num(o.predicted),
                  f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
                  "desirability": num(o.desirability, 3),
-                 "chance within limits": chance_text(o.chance_in_limits)})
+                 "chance within limits": needed or chance_text(o.chance_in_limits)})
+    if study.reach:
+        rows[-1]["storage"] = _storage[o.extrapolated] if name in study.reach else ""
+    if production:
+        rows[-1]["chance in production"] = NOT_STATED if far else chance_text(
+            o.chance_in_production if o.chance_in_production is not None
+            else o.chance_in_limits)
     if o.transmitted_sd is not None:
         rows[-1].update({"spread SD in production": num(o.transmitted_sd),
                          "mean shift": num(o.mean_shift)})
+# a factor's own goal is a row too: its limits count in the chance of all at once
+for name, d in chosen.factor_desirability.items():
+    f = study.factor(name)
+    rows.append({"response": f"{f.display()}, factor goal", "predicted":
+                 num(chosen.settings[name]), "desirability": num(d, 3),
+                 "chance within limits": chance_text(1.0 if d > 0 else 0.0)})
+    if production:
+        rows[-1]["chance in production"] = chance_text(
+            chosen.factor_chance_production.get(name, 1.0 if d > 0 else 0.0))
+_all = (NOT_STATED if _withheld(chosen) else
+        None if chosen.chance_all is None else chance_text(chosen.chance_all))
+_prod = (NOT_STATED if _withheld(chosen) else
+         None if chosen.chance_all_production is None else
+         chance_text(chosen.chance_all_production))
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
-            + ("" if chosen.chance_all is None else
-               f", chance that every response lands within its limits: "
-               f"**{chance_text(chosen.chance_all)}**")
-            + ("" if chosen.chance_all_production is None else
-               f"; in production: **{chance_text(chosen.chance_all_production)}**"))
+            + ("" if _all is None else
+               f", chance that every response lands within its limits: **{_all}**")
+            + ("" if _prod is None else f"; in production: **{_prod}**"))
+# a prediction past the storage study: said first, beside the figures it concerns
+_reach_notes = [study.reach[n].sentence(o.predicted, f"{study.response(n).display()}")
+                for n, o in chosen.responses.items()
+                if o.extrapolated and o.goal != "none"]
+for note in _reach_notes:
+    st.warning(text.plain(note[:1].upper() + note[1:]), icon=":material/schedule:")
 st.caption(f"'mean' is the {pct} confidence interval of the average of many batches; "
            f"'one batch' is the prediction interval for a single new batch (wider, "
-           "because one batch scatters).")
-st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions")
-for w in (*chosen.warnings, *result.warnings):
-    st.warning(text.plain(w))
-for note in result.not_informed_notes():  # a level choice the runs cannot judge
-    st.warning(text.plain(note))
-for name, reason in fitted.skipped.items():
-    st.warning(text.plain(f"{name} has no model and takes no part: {reason}"))
+           "because one batch scatters)."
+           + (" A factor with a goal of its own is a row too: in production it strays "
+              "from its setting and may leave its limits, which lowers the chance of "
+              "all at once." if production and chosen.factor_desirability else ""))
+st.dataframe(blank_none(pd.DataFrame(rows)), hide_index=True, key="r_predictions")
+_own = {study.reach[n].sentence(o.predicted) for n, o in chosen.responses.items()
+        if o.extrapolated and o.goal != "none"}
+panels.show_notices(
+    [w for w in (*chosen.warnings, *result.warnings) if w not in _own]
+    + list(result.not_informed_notes())  # a level choice the runs cannot judge
+    + [f"{name} has no model and takes no part: {reason}"
+       for name, reason in fitted.skipped.items()],
+    cautions=cautions, shown=(CAUTION,))
 if result.assumptions:
     st.caption("How the chances were worked out: "
                + text.plain(" ".join(result.assumptions)))
@@ -144,10 +195,16 @@ else:
                      format_func=lambda n: study.factor(n).display())
     held = {k: v for k, v in chosen.settings.items() if k not in (x, y)}
     fx, fy = study.factor(x), study.factor(y)
-    marks = pd.DataFrame({"what": [f"{best.label} (recommended)"],
-                          "x": [best.settings[x]], "y": [best.settings[y]]})
-    if chosen is not best:
-        marks.loc[1] = [f"{chosen.label} (chosen)", chosen.settings[x], chosen.settings[y]]
+    # the map is held at the chosen solution's other settings: mark the chosen one,
+    # and the recommendation only when it shares those settings (it lies on this map)
+    marks = pd.DataFrame({"what": [f"{chosen.label} (chosen)" if chosen is not best
+                                   else f"{best.label} (recommended)"],
+                          "x": [chosen.settings[x]], "y": [chosen.settings[y]]})
+    if chosen is not best and all(
+            best.settings[k] == v if isinstance(v, str) else
+            abs(best.settings[k] - v) <= 1e-6 * max(1.0, abs(v))
+            for k, v in held.items()):
+        marks.loc[1] = [f"{best.label} (recommended)", best.settings[x], best.settings[y]]
     try:
         if shown_value == "limits":
             lmap = cached.limits_map(study, fitted, x, y, held)

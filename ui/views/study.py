@@ -10,7 +10,7 @@ from tradeoff import ACCELERATED_CAUTIONS, TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
 from tradeoff.report.unused import unused_columns
-from tradeoff_ui import cached, charts, state, text
+from tradeoff_ui import cached, charts, panels, state, text
 from tradeoff_ui.shown import blank_none
 
 ss = st.session_state
@@ -108,8 +108,8 @@ except TradeoffError as exc:
 st.header(text.plain(study.name))
 if study.description:
     st.caption(text.plain(study.description))
-for note in study.notes:
-    st.warning(text.plain(note))
+# one box per kind of note, the cautions once (panels.show_notices)
+panels.show_notices(study.notes, cautions=st.empty())
 for col in unused_columns(study):  # a batch or day column often marks blocks
     st.info(text.plain(f"Column '{col['column']}' is not used: it might be "
                        f"{col['might_be']}"
@@ -141,7 +141,8 @@ st.dataframe(blank_none(pd.DataFrame(
 def _short(marks: str) -> str:
     """One word per kind of mark; the full text is listed under the table."""
     kinds = {"unusual" if m.startswith("unusual") else "outside the box"
-             if m.startswith("outside") else "blank" for m in marks.split("; ") if m}
+             if m.startswith("outside") else "extrapolated" if m.startswith("extrapolated")
+             else "blank" for m in marks.split("; ") if m}
     return ", ".join(sorted(kinds))
 
 
@@ -175,7 +176,8 @@ if kinetics:
              "with a rate that follows the Arrhenius law. Lower and upper give each "
              "estimate's interval; the counts are storage times per temperature, time 0 "
              "included.")
-    st.info(" ".join(ACCELERATED_CAUTIONS))
+    if not any(c in n for n in study.notes for c in ACCELERATED_CAUTIONS):
+        st.info(" ".join(ACCELERATED_CAUTIONS))  # not among the page's cautions above
     name = st.selectbox("Response", list(kinetics), key=f"kinetics_response_{ss['epoch']}",
                         format_func=lambda n: study.response(n).display())
     st.dataframe(kinetics[name]["table"][
