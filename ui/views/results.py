@@ -313,4 +313,4 @@ else:
         hide_index=True, key="r_whatif_table")
 
 # -- make next ----------------------------------------------------------------------------
-panels.make_next(study, fitted)
+panels.make_next(study, fitted, result.best)
