@@ -113,15 +113,16 @@ def model_comparison(study, name: str) -> None:
     table = pd.DataFrame(comparison.to_list())
     unit = study.response(name).unit
     table = pd.DataFrame({
-        "model": [m + (" (in use)" if m == current else "") for m in table["model"]],
+        "model": table["model"],
+        "in use": ["yes" if m == current else "" for m in table["model"]],
         "leave-one-out R²" if comparison.method == "leave-one-out" else
         "cross-validated R²": table["loo_r2"],
         f"RMSE ({unit})" if unit else "RMSE": table["rmse"],
         "ranked": ["no: its squares are confounded" if c else "yes"
                    for c in table["confounded"]]})
     st.dataframe(table, hide_index=True, key=f"m_compare_table.{name}",
-                 column_config={table.columns[1]: st.column_config.NumberColumn(
-                     format="%.3f"), table.columns[2]: st.column_config.NumberColumn(
+                 column_config={table.columns[2]: st.column_config.NumberColumn(
+                     format="%.3f"), table.columns[3]: st.column_config.NumberColumn(
                      format="%.4g")})
     st.caption(f"Method: {comparison.method}. Best: **{comparison.best}**."
                + text.plain("".join(f" {n}." for n in comparison.notes)))
@@ -184,16 +185,20 @@ def make_next(study, fitted, recommended=None) -> None:
         st.error(text.plain(exc))
         return
     best = batch.best_so_far
-    st.markdown(f"Best run made so far: **{text.plain(best['run'])}**, predicted D = "
-                f"{best['desirability']:.3f}.")
+    if best["desirability"] > 0:
+        st.markdown(f"Best run made so far: **{text.plain(best['run'])}**, predicted D = "
+                    f"{best['desirability']:.3f}.")
+    else:
+        st.markdown("No run made so far has D above 0: each misses the limit of some "
+                    "goal, so every suggestion is measured against 0.")
     learn = any(s.purpose == "learn" for s in batch.runs)
     (st.info if learn else st.caption)(text.plain(batch.summary))
     ids = [str(v) for v in batch.sheet["run"]]  # the ids the run sheet gives them
     rows = []
     for rid, s in zip(ids, batch.runs):
-        row = {"run": rid, "chosen to": "improve D" if s.purpose == "improve" else "learn",
-               "expected improvement": (f"{s.expected_improvement:.3f}"
-                                        if s.purpose == "improve" else "none expected"),
+        row = {"run": rid, "expected gain in D": (f"{s.expected_improvement:.3f}"
+                                                  if s.purpose == "improve" else
+                                                  "none: to learn"),
                "predicted D": s.desirability}
         for f in study.factors:
             v = s.settings[f.name]

@@ -34,6 +34,13 @@ _INFO = (("is derived (", "How each derived response is computed"),
          ("pieces at", "Several pieces measured at one time"))
 
 
+# warnings that differ only in a word or two, with the headline of their kind
+_KINDS = ((re.compile(r"sits at the (high|low) edge of the searched region"),
+           "Settings at the edge of the searched region"),
+          (re.compile(r"lies outside the tested settings"),
+           "Settings outside the tested ones"))
+
+
 @dataclass(frozen=True)
 class NoticeGroup:
     """Sentences of one kind.
@@ -122,7 +129,8 @@ def group_notices(texts) -> list[NoticeGroup]:
         rest = text[m.end():] if m else text
         info = next((h for k, h in _INFO if k in text), None)
         kind = "warning" if info is None else "info"
-        head = info or _headline(rest)
+        head = info or next((h for k, h in _KINDS if k.search(text)), None) or \
+            _headline(rest)
         if head.startswith("run # "):   # "run R05 has ..." : the kind follows the run
             head = head[6:]
         key = (kind, head.lower())

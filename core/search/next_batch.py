@@ -183,7 +183,9 @@ class NextBatch:
     def text(self) -> str:
         """A readable list for the terminal."""
         b = self.best_so_far
-        lines = [f"Best so far: run {b['run']}, predicted D = {b['desirability']:.3f}",
+        lines = [f"Best so far: run {b['run']}, predicted D = {b['desirability']:.3f}"
+                 if b["desirability"] > 0 else "Best so far: no run made has D above 0 "
+                 "(each misses the limit of some goal)",
                  self.summary,
                  f"Next {len(self.runs)} run(s), each chosen given the ones before it "
                  f"(none closer than {self.min_distance:g} coded units to another):"]

@@ -107,20 +107,15 @@ chosen = result.solutions[ss["chosen"]]
 
 pct = f"{study.confidence:.0%}"
 production = chosen.chance_all_production is not None
-_storage = {"": "within the storage", "beyond": "past the last storage time",
-            "far": "past what the storage supports"}
 rows = []
 for name, o in chosen.responses.items():
     r = study.response(name)
     far = o.extrapolated == "far" and o.goal != "none"
-    needed = (f"{NOT_STATED}: store to {o.storage_needed:g} "
-              f"{study.reach[name].unit}".rstrip() if far else "")
     rows.append({"response": r.display(), "predicted": num(o.predicted),
                  f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
-                 "desirability": num(o.desirability, 3),
-                 "chance within limits": needed or chance_text(o.chance_in_limits)})
-    if study.reach:
-        rows[-1]["storage"] = _storage[o.extrapolated] if name in study.reach else ""
+                 "d": num(o.desirability, 3),
+                 "chance in limits": NOT_STATED if far else
+                 chance_text(o.chance_in_limits)})
     if production:
         rows[-1]["chance in production"] = NOT_STATED if far else chance_text(
             o.chance_in_production if o.chance_in_production is not None
@@ -132,16 +127,16 @@ for name, o in chosen.responses.items():
 for name, d in chosen.factor_desirability.items():
     f = study.factor(name)
     rows.append({"response": f"{f.display()}, factor goal", "predicted":
-                 num(chosen.settings[name]), "desirability": num(d, 3),
-                 "chance within limits": chance_text(1.0 if d > 0 else 0.0)})
+                 num(chosen.settings[name]), f"mean ({pct})": "", f"one batch ({pct})": "",
+                 "d": num(d, 3),
+                 "chance in limits": chance_text(1.0 if d > 0 else 0.0)})
     if production:
         rows[-1]["chance in production"] = chance_text(
             chosen.factor_chance_production.get(name, 1.0 if d > 0 else 0.0))
 _all = (NOT_STATED if _withheld(chosen) else
         None if chosen.chance_all is None else chance_text(chosen.chance_all))
-_prod = (NOT_STATED if _withheld(chosen) else
-         None if chosen.chance_all_production is None else
-         chance_text(chosen.chance_all_production))
+_prod = (None if chosen.chance_all_production is None else
+         NOT_STATED if _withheld(chosen) else chance_text(chosen.chance_all_production))
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
             + ("" if _all is None else
                f", chance that every response lands within its limits: **{_all}**")
@@ -152,13 +147,15 @@ _reach_notes = [study.reach[n].sentence(o.predicted, f"{study.response(n).displa
                 if o.extrapolated and o.goal != "none"]
 for note in _reach_notes:
     st.warning(text.plain(note[:1].upper() + note[1:]), icon=":material/schedule:")
-st.caption(f"'mean' is the {pct} confidence interval of the average of many batches; "
+st.caption(f"d is each goal's desirability. 'mean' is the {pct} confidence interval of "
+           "the average of many batches; "
            f"'one batch' is the prediction interval for a single new batch (wider, "
            "because one batch scatters)."
            + (" A factor with a goal of its own is a row too: in production it strays "
               "from its setting and may leave its limits, which lowers the chance of "
               "all at once." if production and chosen.factor_desirability else ""))
-st.dataframe(blank_none(pd.DataFrame(rows)), hide_index=True, key="r_predictions")
+st.dataframe(blank_none(pd.DataFrame(rows).fillna("")), hide_index=True,
+             key="r_predictions")
 _own = {study.reach[n].sentence(o.predicted) for n, o in chosen.responses.items()
         if o.extrapolated and o.goal != "none"}
 panels.show_notices(
@@ -299,9 +296,11 @@ else:
                    + ". The model is extrapolating; predictions there are guesses.")
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")
-    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{chance_text(answer.chance_all)}**")
     t = answer.table
+    _far = {n for n, v in zip(t["response"], t["predicted"]) if n in study.reach
+            and study.response(n).goal.active and study.reach[n].status(v)[0] == "far"}
+    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
+                f"within its limits: **{NOT_STATED if _far else chance_text(answer.chance_all)}**")
     st.dataframe(pd.DataFrame({
         "response": [study.response(n).display() for n in t["response"]],
         "predicted": t["predicted"].map(num),
@@ -309,7 +308,8 @@ else:
         f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
         "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance within limits": t["chance_in_limits"].map(chance_text)}),
+        "chance within limits": [NOT_STATED if n in _far else chance_text(c) for n, c in
+                                 zip(t["response"], t["chance_in_limits"])]}),
         hide_index=True, key="r_whatif_table")
 
 # -- make next ----------------------------------------------------------------------------
