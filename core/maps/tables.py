@@ -84,11 +84,12 @@ def runs_table(study, fit=None, *, unusual: float = 3.0) -> pd.DataFrame:
     # a time derived from storage past the last storage time (derive/reach.py)
     for name, reach in (getattr(study, "reach", {}) or {}).items():
         u = f" {reach.unit}" if reach.unit else ""
-        for group, how in ((reach.beyond, "past the last storage time"),
-                           (reach.far, "far past the storage: no chance stated")):
+        for group, how in ((reach.beyond, f"past the last storage time, {reach.last:g}{u}"),
+                           (reach.far, f"past {reach.stated_to:g}{u}, 1.5 times the last "
+                                       "storage time: no chance stated")):
             for run in group:
                 for i in np.flatnonzero(out["run"].astype(str).to_numpy() == run):
-                    marks[i].append(f"extrapolated {name} ({how}, {reach.last:g}{u})")
+                    marks[i].append(f"extrapolated {name} ({how})")
     out["marks"] = ["; ".join(m) for m in marks]
     return out
 

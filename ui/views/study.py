@@ -154,7 +154,9 @@ st.write("Settings as made and responses as measured. "
             "or an unusual one."))
 factors = [f.name for f in study.factors]
 responses = [r.name for r in study.responses if r.name in table]
-main = table[["run", *factors, *responses]].assign(mark=table["marks"].map(_short))
+# the mark next to the run id: a wide table must not hide it off to the right
+main = table[["run"]].assign(mark=table["marks"].map(_short)).join(
+    table[[*factors, *responses]])
 rows = min(len(main), 40)  # up to 40 runs show whole; longer tables scroll
 st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
              column_config={"mark": st.column_config.TextColumn("mark")})
