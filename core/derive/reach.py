@@ -142,8 +142,9 @@ class StorageReach:
                 f"({self.last:g}{u}){far}: the model is fitted partly to extrapolated "
                 "values, and its predictions there are extrapolated too")
 
-    def goal_warning(self, goal) -> str:
-        """A warning for a goal whose limit lies beyond what this storage can support."""
+    def goal_warning(self, goal, what: str | None = None) -> str:
+        """A warning for a goal whose limit lies beyond what this storage can support
+        (``what`` names the goal: default "The goal of '<response>'")."""
         limits = [v for v in (goal.lower, goal.upper, getattr(goal, "target", None))
                   if v is not None and np.isfinite(v)]
         if not goal.active or not limits:
@@ -152,7 +153,7 @@ class StorageReach:
         if not far:
             return ""
         u = f" {self.unit}" if self.unit else ""
-        return (f"The goal of '{self.response}' names {max(far):g}{u}, beyond "
+        return (f"{what or f'The goal of {self.response!r}'} names {max(far):g}{u}, beyond "
                 f"{self.stated_to:.3g}{u}, the longest this storage study (to "
                 f"{self.last:g}{u}) can support ({STATED_MULTIPLE:g} times its last "
                 f"{self.time}): shelf lives there get no chance; store to at least "
@@ -186,11 +187,12 @@ def storage_reach(name: str, sub, opts: dict, sec: dict, values: dict) -> Storag
                         stated_to=to, beyond=beyond, far=far)
 
 
-def goal_warnings(study) -> dict:
-    """Response name -> a warning, for each goal naming a time past its storage's reach."""
+def goal_warnings(study, what: str | None = None) -> dict:
+    """Response name -> a warning, for each goal naming a time past its storage's reach
+    (``what``: how the warning names the goal, as in ``StorageReach.goal_warning``)."""
     out = {}
     for name, reach in (getattr(study, "reach", {}) or {}).items():
-        text = reach.goal_warning(study.response(name).goal)
+        text = reach.goal_warning(study.response(name).goal, what)
         if text:
             out[name] = text
     return out

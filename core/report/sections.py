@@ -92,6 +92,10 @@ class _AnswerSections(_Sections):
                 cards.append(("chance every response within limits",
                               _pct(best["chance_all"]),
                               "for one batch made at these settings"))
+            elif _withheld(best):
+                cards.append(("chance every response within limits", "not stated",
+                              "a predicted time lies past what the storage study "
+                              "supports: see Recommended settings"))
             if not self.res["feasible"]:
                 parts.append('<p><span class="tag bad">no setting meets every goal</span> '
                              "the settings shown come closest.</p>")
@@ -119,7 +123,9 @@ class _AnswerSections(_Sections):
                f"D = <b>{_g(best['desirability'], 3)}</b>"
                + (f", chance that every response lands within its limits "
                   f"<b>{_pct(best['chance_all'])}</b>" if best["chance_all"] is not None
-                  else "") + ".</p>"]
+                  else ", chance that every response lands within its limits <b>not "
+                  "stated</b> (a predicted time lies past what the storage study "
+                  "supports: see the note below)" if _withheld(best) else "") + ".</p>"]
         rows = []
         for f in self.study.factors:
             value = best["settings"][f.name]
@@ -147,7 +153,8 @@ class _AnswerSections(_Sections):
             return ""
         listed = ", ".join(f"{esc(k)} {_g(v)}" for k, v in spread.items())
         rows = [[esc(self.study.response(name).label), esc(self.study.response(name).unit),
-                 _chance_cell(o, "chance_in_production"),
+                 _chance_cell(o, "chance_in_production",
+                              self.study.response(name).unit),
                  _g(o.get("transmitted_sd")), _g(o.get("mean_shift"))]
                 for name, o in sol["responses"].items()]
         # a factor's own goal counts in the chance of all at once: its row says how
@@ -170,7 +177,8 @@ class _AnswerSections(_Sections):
                          _g(o["predicted"]),
                          f"{_g(o['pi'][0])} .. {_g(o['pi'][1])}",
                          f"{_g(o['ci'][0])} .. {_g(o['ci'][1])}",
-                         _g(o["desirability"], 3), _chance_cell(o, "chance_in_limits")])
+                         _g(o["desirability"], 3),
+                         _chance_cell(o, "chance_in_limits", r.unit)])
         for name, d in sol["factor_desirability"].items():
             f = self.study.factor(name)
             rows.append([esc(f.label) + " (factor goal)", esc(f.unit),
@@ -190,7 +198,7 @@ class _AnswerSections(_Sections):
         factors = self.study.factors
         head = ["", "rank", "D", "chance all"] + [esc(f.name) for f in factors]
         rows = [[esc(s["label"]), str(s["rank"]), _g(s["desirability"], 3),
-                 _pct(s["chance_all"])]
+                 "not stated" if _withheld(s) else _pct(s["chance_all"])]
                 + [esc(self._setting(f.name, s["settings"][f.name])) for f in factors]
                 for s in sols]
         out = ["<p>Other settings that score well, at least a little apart from each "
@@ -333,9 +341,16 @@ def _table(head: list[str], rows: list[list[str]], *, numeric: set[int] = frozen
     return f"<table{klass}><thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>"
 
 
-def _chance_cell(o: dict, key: str) -> str:
+def _chance_cell(o: dict, key: str, unit: str = "") -> str:
     """A response's chance, or why none is stated (a time past the storage study)."""
     if o.get("extrapolated") == "far" and o.get("goal") != "none":
-        return (f"not stated (store to {_g(o.get('storage_needed'))})"
-                if o.get("storage_needed") is not None else "not stated")
+        return (f"not stated (store to {_g(o.get('storage_needed'))} {esc(unit)})"
+                .replace(" )", ")") if o.get("storage_needed") is not None
+                else "not stated")
     return _pct(o.get(key))
+
+
+def _withheld(sol: dict) -> bool:
+    """True when a goal's predicted time lies past what the storage supports."""
+    return any(o.get("extrapolated") == "far" and o.get("goal") != "none"
+               for o in sol["responses"].values())

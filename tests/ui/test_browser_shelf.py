@@ -124,9 +124,13 @@ def test_goal_beyond_the_storage_is_warned_at_the_goal(app):
     page = _open(app, "targets", "Best settings now")
     try:
         main = page.locator('[data-testid="stMain"]').inner_text()
-        assert ("The goal of 'shelf_life_20C' names 52 weeks, beyond 39 weeks, the longest "
-                "this storage study (to 26 weeks) can support") in main
-        assert main.count("The goal of '") == 1  # only the goal past the storage
+        assert ("This goal names 52 weeks, beyond 39 weeks, the longest this storage "
+                "study (to 26 weeks) can support") in main
+        assert main.count("This goal names") == 1  # only the goal past the storage
+        # in the shelf life's own box, before the next goal's title
+        shelf = main.index("Shelf life at 20 degC until 35 N (95 % bound)")
+        assert shelf < main.index("This goal names") < main.index(
+            "Shelf life at 20 degC until 35 N (fitted mean)")
     finally:
         page.close()
 

@@ -164,7 +164,8 @@ elif wanted:
                    f"{k} = {v}" for k, v in wanted.items()))
                + f"; the best of all is {text.plain(best.label)} (D = "
                  f"{best.desirability:.3f}).")
-beyond_storage = goal_warnings(study)  # a shelf-life goal past the storage's reach
+# a shelf-life goal past the storage's reach, warned in the goal's own box
+beyond_storage = goal_warnings(study, "This goal")
 for name, (slot, item, is_factor) in slots.items():
     goal = study.factor(name).goal if is_factor else study.response(name).goal
     with slot:
