@@ -74,8 +74,7 @@ def smooth_model(study, response, model, report: dict) -> None:
                "it. It has no terms, so no effects or p-values. Leave-one-out R² is how "
                "well each run is predicted by the model refitted without it: the honest "
                "figure, and the same one the model comparison shows.")
-    for warning in report["warnings"]:
-        st.warning(text.plain(warning))
+    show_notices(report["warnings"])
     left, right = st.columns([1, 1])
     with left:
         st.subheader("Length scales, shortest first")

@@ -362,7 +362,8 @@ def describe_kinetic(opts: dict, sec: dict) -> str:
     verb = "rises" if opts["direction"] == "up" else "falls"
     if kind == "shelf_life" and opts["estimate"] == "bound":
         what = (f"{unit}{where} until the one-sided confidence bound of the mean "
-                f"{p} {verb} to {opts['limit']:g} (shelf life as in ICH Q1E)")
+                f"{p} {verb} to {opts['limit']:g} (the conservative shelf life of ICH Q1E, the "
+                "guideline on evaluating stability data)")
     else:
         what = f"{unit}{where} until the fitted mean {p} {verb} to {opts['limit']:g}"
     return (f"{what}, from {fit}; 0 when already past at the start, left out when it "
