@@ -38,7 +38,8 @@ _INFO = (("is derived (", "How each derived response is computed"),
 _KINDS = ((re.compile(r"sits at the (high|low) edge of the searched region"),
            "Settings at the edge of the searched region"),
           (re.compile(r"lies outside the tested settings"),
-           "Settings outside the tested ones"))
+           "Settings outside the tested ones"),
+          (re.compile(r"sits at its (low|high) bound"), "Components at a bound of their own"))
 
 
 @dataclass(frozen=True)
@@ -54,7 +55,7 @@ class NoticeGroup:
     items : tuple of str
         The sentences, each once, in their first order.
     subjects : tuple of str
-        The responses (or storage properties, panel attributes) they name.
+        The responses (or components, storage properties, panel attributes) they name.
     runs : tuple of str
         The runs they name.
     """
@@ -64,13 +65,14 @@ class NoticeGroup:
     items: tuple
     subjects: tuple = ()
     runs: tuple = ()
+    subject_kind: str = "response"
 
     @property
     def summary(self) -> str:
         """The headline with how many responses and runs it concerns."""
         parts = []
         if len(self.subjects) > 1:
-            parts.append(f"{len(self.subjects)} responses")
+            parts.append(f"{len(self.subjects)} {self.subject_kind}s")
         if self.runs:
             parts.append(f"{len(self.runs)} run{'s' if len(self.runs) != 1 else ''}")
         if not parts and len(self.items) > 1:
@@ -126,6 +128,7 @@ def group_notices(texts) -> list[NoticeGroup]:
             continue
         m = _SUBJECT.match(text)
         subject = m.group(2) if m else None
+        subject_kind = m.group(1) if m else "response"
         rest = text[m.end():] if m else text
         info = next((h for k, h in _INFO if k in text), None)
         kind = "warning" if info is None else "info"
@@ -135,7 +138,7 @@ def group_notices(texts) -> list[NoticeGroup]:
             head = head[6:]
         key = (kind, head.lower())
         g = groups.setdefault(key, {"kind": kind, "head": head, "items": [],
-                                    "subjects": [], "runs": []})
+                                    "subjects": [], "runs": [], "of": subject_kind})
         g["items"].append(text)
         if subject and subject not in g["subjects"]:
             g["subjects"].append(subject)
@@ -150,5 +153,5 @@ def group_notices(texts) -> list[NoticeGroup]:
                 g["items"][0] if len(g["items"]) == 1 else "Notes"
             head = _sentence_case(head)
             out.append(NoticeGroup(kind, head, tuple(g["items"]), tuple(g["subjects"]),
-                                   tuple(g["runs"])))
+                                   tuple(g["runs"]), g["of"]))
     return out

@@ -93,7 +93,8 @@ if "d_given_up" in table:
 for f in study.factors:
     title = f"{f.name} ({f.unit})" if f.unit else f.name
     shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
-shown["outside limits"] = table["out_of_limits"]
+if table["out_of_limits"].astype(bool).any():  # a column of blanks only takes room
+    shown["outside limits"] = table["out_of_limits"]
 st.dataframe(shown, hide_index=True, key="r_solutions")
 _fewer = fewer_solutions_text(result, int(ss["top"]))
 if _fewer:
