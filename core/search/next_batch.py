@@ -53,13 +53,13 @@ from ..study.coding import decode_values, level_codes
 from ..study.constraints import rule_arrays
 from .desirability import desirability
 from .mixture import simplex_region
+from .next_sheet import suggestion_sheet
+from .next_words import NEGLIGIBLE_EI, _batch_notes, _summary, made_run_at
 
 __all__ = ["NextBatch", "SuggestedRun", "next_batch", "normal_ei", "expected_improvement",
            "DEFAULT_MIN_DISTANCE", "NEGLIGIBLE_EI", "made_run_at"]
 
 DEFAULT_MIN_DISTANCE = 0.3  # coded units: closer than this counts as repeating a run
-NEGLIGIBLE_EI = 1e-3  # an expected gain in D below this is noise, not a reason for a run
-_NARROW = 0.1  # a batch within this share of a factor's searched range "holds" it
 _DRAWS = 512  # Monte Carlo draws of the models' means per candidate
 _CANDIDATES = 2048  # Sobol candidates per level combination (a power of two)
 _CHUNK = 256  # candidates scored per block (memory: chunk x draws x responses)
@@ -468,62 +468,6 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
                      notes=tuple(_batch_notes(study, out, min_distance)))
 
 
-def _summary(out, best_so_far) -> str:
-    """What the batch is for: improving D, or learning where no gain is expected."""
-    learn = [i for i, s in enumerate(out, start=1) if s.purpose == "learn"]
-    if not learn:
-        return "Each run is expected to raise D above the best run made so far."
-    confirm = ("Confirmation runs at the recommended settings are the other sensible "
-               "choice: they test the recommendation itself.")
-    if len(learn) == len(out):
-        return (f"No setting is expected to raise D by {NEGLIGIBLE_EI:g} or more over the "
-                f"best run made ({best_so_far['run']}, D {best_so_far['desirability']:.3f}): "
-                "the models already point at the best they can find. These runs go where "
-                "the models are least sure (the largest variance of the predicted mean), "
-                "so the next fit is surer. " + confirm)
-    first = f"N{learn[0]}" + (f" to N{learn[-1]}" if len(learn) > 1 else "")
-    return (f"After the runs expected to raise D, no setting is expected to raise it by "
-            f"{NEGLIGIBLE_EI:g} or more: {first} go{'es' if len(learn) == 1 else ''} where "
-            "the models are least sure (the largest variance of the predicted mean), so "
-            "the next fit is surer. " + confirm)
-
-
-def _batch_notes(study, out, min_distance) -> list[str]:
-    """Why a batch may look near-identical: factors every run holds nearly alike."""
-    if len(out) < 3:
-        return []
-    held = []
-    for f in study.factors:
-        if f.is_categorical:
-            continue
-        values = np.array([s.settings[f.name] for s in out], float)
-        a, b = f.search_range
-        if b > a and np.ptp(values) < _NARROW * (b - a):
-            u = f" {f.unit}" if f.unit else ""
-            held.append(f"'{f.name}' ({values.min():.4g} to {values.max():.4g}{u})")
-    if not held:
-        return []
-    why = ("that is where D is expected to rise most" if all(
-        s.purpose == "improve" for s in out) else "that is where the models expect the "
-        "best D, and where what they do not know yet matters most")
-    names = held[0] if len(held) == 1 else ", ".join(held[:-1]) + " and " + held[-1]
-    return [f"all {len(out)} runs hold {names} nearly alike, each within "
-            f"{_NARROW:.0%} of its searched range: {why}; the runs differ in the other "
-            f"factors, each at least {min_distance:g} coded units (over all factors) from "
-            "every other and from the runs made"]
-
-
-def made_run_at(study, coded: dict, tol: float = 1e-3) -> str | None:
-    """The id of a run already made at these coded settings (within ``tol`` coded
-    units), or None: a recommendation that repeats a run made is a confirmation."""
-    if study.runs is None or not len(study.runs):
-        return None
-    x = np.array([float(coded[f.name]) for f in study.factors])
-    d = _distance_to(study.coded().to_numpy(float), x[None, :])
-    i = int(np.argmin(d))
-    return str(study.runs["run"].iloc[i]) if d[i] <= tol else None
-
-
 def _widths(goals):
     """A natural scale per goal response for comparing SDs (its goal's width)."""
     return np.array([g.upper - g.lower for g in goals.goals], float)
@@ -602,55 +546,3 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
                         expected_improvement=float(value), predicted=predicted,
                         desirability=D_x, interval=interval, nearest=nearest, why=why,
                         purpose="learn" if explore else "improve")
-
-
-def _next_ids(ids: list[str], count: int) -> list[str]:
-    """Run ids continuing the study's numbering (R20 -> R21, 7 -> 8), else N1, N2, ..."""
-    import re
-
-    found = [re.fullmatch(r"(.*?)(\d+)", v) for v in ids]
-    if ids and all(found) and len({m.group(1) for m in found}) == 1:
-        prefix = found[0].group(1)
-        width = max(len(m.group(2)) for m in found) if prefix else 1
-        start = max(int(m.group(2)) for m in found) + 1
-        return [f"{prefix}{start + i:0{width}d}" for i in range(count)]
-    taken, out, i = set(ids), [], 0
-    while len(out) < count:
-        i += 1
-        if f"N{i}" not in taken:
-            out.append(f"N{i}")
-    return out
-
-
-def _data_columns(study) -> list[str]:
-    """The data file's column names in its own order (the loaded runs' when the
-    file cannot be read again)."""
-    from ..errors import TradeoffError
-    from ..study.runs import read_study_table
-
-    try:
-        header = read_study_table(study, study.data_path, sheet=study.sheet).header
-    except (TradeoffError, OSError, TypeError):
-        return list(study.runs.columns)
-    names = [str(h) for h in header if h not in (None, "")]
-    return names + [c for c in study.runs.columns if c not in names]
-
-
-def suggestion_sheet(study, suggestions) -> pd.DataFrame:
-    """The run sheet of suggestions: the data file's columns, responses blank,
-    ``point`` = ``suggested``, run ids continuing the study's."""
-    columns = _data_columns(study)
-    if "point" not in columns:
-        columns.append("point")
-    ids = _next_ids([str(v) for v in study.runs["run"]], len(suggestions))
-    block = study.block_column
-    rows = []
-    for rid, s in zip(ids, suggestions):
-        row = {c: None for c in columns}
-        row["run"] = rid
-        row.update(s.settings)
-        row["point"] = "suggested"
-        if block is not None and block in columns:
-            row[block] = "next"  # the suggestions are made together, as a new block
-        rows.append(row)
-    return pd.DataFrame(rows, columns=columns)
