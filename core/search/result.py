@@ -142,6 +142,13 @@ class Solution:
     d_given_up: float = 0.0
     factor_chance_production: dict = field(default_factory=dict)
 
+    @property
+    def chance_withheld(self) -> bool:
+        """True when a goal's predicted time lies past what its storage study supports:
+        then no chance is stated for it, nor for every limit at once."""
+        return any(o.extrapolated == "far" and o.goal != "none"
+                   for o in self.responses.values())
+
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
         r = _rounder(digits)
@@ -292,10 +299,8 @@ class OptimizationResult:
             if self.aim == "production":
                 head = ("Most likely to hold in production" if s.rank == 1 else
                         "Best balance" if s.d_given_up == 0 else f"Alternative {s.rank - 1}")
-            withheld = any(o.extrapolated == "far" and o.goal != "none"
-                           for o in s.responses.values())
             chance = (f", chance all within limits {NOT_STATED} (a time past what the "
-                      "storage study supports: see the note)") if withheld else \
+                      "storage study supports: see the note)") if s.chance_withheld else \
                 "" if s.chance_all is None else \
                 f", chance all within limits {chance_text(s.chance_all)}"
             if s.chance_all_production is not None:

@@ -69,14 +69,7 @@ st.caption("D is the overall desirability (0 to 1, higher is better). 'Chance al
            "limits' is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed. " + CHANCE_RULE)
-
-
-def _withheld(s) -> bool:
-    """True when a goal's prediction lies past what the storage supports: no chance."""
-    return any(o.extrapolated == "far" and o.goal != "none" for o in s.responses.values())
-
-
-_held_back = [_withheld(s) for s in result.solutions]
+_held_back = [s.chance_withheld for s in result.solutions]
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
                       "chance all within limits": [
                           NOT_STATED if w else chance_text(c)
@@ -134,10 +127,10 @@ for name, d in chosen.factor_desirability.items():
     if production:
         rows[-1]["chance in production"] = chance_text(
             chosen.factor_chance_production.get(name, 1.0 if d > 0 else 0.0))
-_all = (NOT_STATED if _withheld(chosen) else
+_all = (NOT_STATED if chosen.chance_withheld else
         None if chosen.chance_all is None else chance_text(chosen.chance_all))
 _prod = (None if chosen.chance_all_production is None else
-         NOT_STATED if _withheld(chosen) else chance_text(chosen.chance_all_production))
+         NOT_STATED if chosen.chance_withheld else chance_text(chosen.chance_all_production))
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
             + ("" if _all is None else
                f", chance that every response lands within its limits: **{_all}**")
