@@ -12,7 +12,41 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff_ui import cached, charts, text
 
-__all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors"]
+__all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors",
+           "show_notices"]
+
+
+def show_notices(texts, *, cautions=None, shown=()) -> list[str]:
+    """Notes and warnings, one box per kind (``tradeoff.report.notices``).
+
+    A kind of one sentence is one box; a kind of several says what they have in
+    common and how many responses and runs they concern, with the sentences in an
+    expander under it. Notes on how things were computed go in one collapsed
+    expander each. Cautions are not shown here: they are returned (each once,
+    without those in ``shown``) so the page states them in its one caution box;
+    with ``cautions`` (a Streamlit placeholder) they are written there at once.
+    """
+    from tradeoff.report.notices import group_notices
+
+    found = []
+    for g in group_notices(texts):
+        if g.kind == "caution":
+            found += [c for c in g.items if c not in shown and not any(c in s for s in shown)]
+            continue
+        if g.kind == "info":
+            with st.expander(text.plain(g.summary), icon=":material/info:"):
+                st.markdown("\n".join(f"- {text.plain(i)}" for i in g.items))
+            continue
+        if len(g.items) == 1:
+            st.warning(text.plain(g.items[0][:1].upper() + g.items[0][1:]),
+                       icon=":material/warning:")
+            continue
+        st.warning(text.plain(g.summary), icon=":material/warning:")
+        with st.expander(f"The {len(g.items)} notes of this kind"):
+            st.markdown("\n".join(f"- {text.plain(i)}" for i in g.items))
+    if cautions is not None and found:
+        cautions.info(text.plain(" ".join([*shown, *found])), icon=":material/info:")
+    return found
 
 
 def stop_without_factors(study) -> None:
@@ -38,9 +72,9 @@ def smooth_model(study, response, model, report: dict) -> None:
                                                      else f"{value:.3g}"))
     st.caption("A smooth model (Gaussian process) predicts each setting from the runs near "
                "it. It has no terms, so no effects or p-values. Leave-one-out R² is how "
-               "well each run is predicted from all the others: the honest figure.")
-    for warning in report["warnings"]:
-        st.warning(text.plain(warning))
+               "well each run is predicted by the model refitted without it: the honest "
+               "figure, and the same one the model comparison shows.")
+    show_notices(report["warnings"])
     left, right = st.columns([1, 1])
     with left:
         st.subheader("Length scales, shortest first")
@@ -62,8 +96,9 @@ def model_comparison(study, name: str) -> None:
     ss = st.session_state
     st.subheader("Which model predicts best")
     st.caption("Each run is predicted by each model fitted without it (ten folds above "
-               "50 runs); R² and RMSE of those predictions, best first. Prefer the simpler "
-               "model when the figures are close.")
+               "50 runs); R² and RMSE of those predictions, best first. The model in use "
+               "shows the very figure its fit reports above. Prefer the simpler model when "
+               "the figures are close.")
     if name not in ss["compare_shown"]:
         if not st.button("Compare the models", key=f"m_compare.{name}"):
             return
@@ -73,15 +108,24 @@ def model_comparison(study, name: str) -> None:
     except TradeoffError as exc:
         st.info(text.plain(f"Not compared: {exc}"))
         return
-    table = pd.DataFrame(comparison.to_list()).rename(
-        columns={"loo_r2": "cross-validated R²", "rmse": f"RMSE ({study.response(name).unit or 'units'})"})
+    current = study.model_for(study.response(name))
+    table = pd.DataFrame(comparison.to_list())
+    unit = study.response(name).unit
+    table = pd.DataFrame({
+        "model": table["model"],
+        "in use": ["yes" if m == current else "" for m in table["model"]],
+        "leave-one-out R²" if comparison.method == "leave-one-out" else
+        "cross-validated R²": table["loo_r2"],
+        f"RMSE ({unit})" if unit else "RMSE": table["rmse"],
+        "ranked": ["no: its squares are confounded" if c else "yes"
+                   for c in table["confounded"]]})
     st.dataframe(table, hide_index=True, key=f"m_compare_table.{name}",
-                 column_config={"cross-validated R²": st.column_config.NumberColumn(
-                     format="%.3f")})
+                 column_config={table.columns[2]: st.column_config.NumberColumn(
+                     format="%.3f"), table.columns[3]: st.column_config.NumberColumn(
+                     format="%.4g")})
     st.caption(f"Method: {comparison.method}. Best: **{comparison.best}**."
                + text.plain("".join(f" {n}." for n in comparison.notes)))
     models = [r["model"] for r in comparison.rows]
-    current = study.model_for(study.response(name))
     if not models:
         return
     left, right = st.columns([2, 1])
@@ -99,18 +143,36 @@ def _use_model(name: str, model: str) -> None:
     ss[f"m_model.{name}"] = model
 
 
-def make_next(study, fitted) -> None:
-    """Suggested next runs by expected improvement of D, with their run sheet."""
+def make_next(study, fitted, recommended=None) -> None:
+    """Suggested next runs by expected improvement of D, with their run sheet.
+
+    ``recommended``: the solution the page recommends; when it repeats a run
+    already made, the panel says so (a confirmation run is then the next step).
+    """
+    from tradeoff.search.next_batch import made_run_at
+
     ss = st.session_state
     st.subheader("Make next")
-    st.caption("Runs most likely to improve on the best run made so far: each chosen for "
-               "its expected improvement of D, given the runs picked before it, so the "
-               "batch spreads out. Settings lie in the searched region and obey the rules.")
+    st.caption("Runs chosen one at a time for their expected improvement of D over the "
+               "best run made so far, each given the runs picked before it, so the batch "
+               "spreads out. Where no setting is expected to improve D, a run goes where "
+               "the models are least sure instead, and the list says so. Settings lie in "
+               "the searched region and obey the rules.")
+    if recommended is not None:
+        same = made_run_at(study, recommended.coded)
+        if same is not None:
+            st.info(text.plain(
+                f"The recommendation {recommended.label} is run {same}, already made: "
+                "the sensible next run is a confirmation at those settings (made again, "
+                "to see whether the result repeats)."), icon=":material/replay:")
     c1, c2, c3 = st.columns([1, 1, 1])
     runs = c1.number_input("Runs to suggest", 1, 12, value=int(ss["next_runs"] or 4),
                            key="r_next_n")
     distance = c2.number_input("Keep apart by (coded units)", 0.05, 1.0, value=0.3,
-                               step=0.05, key="r_next_gap")
+                               step=0.05, key="r_next_gap",
+                               help="No suggestion lies closer than this to a run made or "
+                                    "another suggestion (distance over all factors in "
+                                    "coded units, -1 to +1 across each tested range).")
     c3.write("")
     if c3.button("Suggest runs", key="r_next_go"):
         ss["next_runs"] = int(runs)
@@ -122,25 +184,31 @@ def make_next(study, fitted) -> None:
         st.error(text.plain(exc))
         return
     best = batch.best_so_far
-    st.markdown(f"Best run made so far: **{text.plain(best['run'])}**, predicted D = "
-                f"{best['desirability']:.3f}.")
+    if best["desirability"] > 0:
+        st.markdown(f"Best run made so far: **{text.plain(best['run'])}**, predicted D = "
+                    f"{best['desirability']:.3f}.")
+    else:
+        st.markdown("No run made so far has D above 0: each misses the limit of some "
+                    "goal, so every suggestion is measured against 0.")
+    learn = any(s.purpose == "learn" for s in batch.runs)
+    (st.info if learn else st.caption)(text.plain(batch.summary))
     ids = [str(v) for v in batch.sheet["run"]]  # the ids the run sheet gives them
     rows = []
     for rid, s in zip(ids, batch.runs):
-        row = {"run": rid, "expected improvement": s.expected_improvement,
+        row = {"run": rid, "expected gain in D": (f"{s.expected_improvement:.3f}"
+                                                  if s.purpose == "improve" else
+                                                  "none: to learn"),
                "predicted D": s.desirability}
-        row.update(s.settings)
+        for f in study.factors:
+            v = s.settings[f.name]
+            row[f.display()] = v if isinstance(v, str) else float(f"{v:.4g}")
         rows.append(row)
     st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_next_table",
-                 column_config={"expected improvement": st.column_config.NumberColumn(
-                     format="%.4f"), "predicted D": st.column_config.NumberColumn(
-                     format="%.3f"), **{f.name: st.column_config.NumberColumn(format="%.4g")
-                                        for f in study.factors if not f.is_categorical}})
+                 column_config={"predicted D": st.column_config.NumberColumn(format="%.3f")})
     # the reasons are sentences: listed below the table, where they are not cut off
     st.markdown("\n".join(f"- **{text.plain(rid)}**: {text.plain(s.why)}"
                            for rid, s in zip(ids, batch.runs)))
-    for w in batch.warnings:
-        st.warning(text.plain(w))
+    show_notices([*batch.notes, *batch.warnings])
     st.download_button("Run sheet of these runs (.csv)",
                        batch.sheet.to_csv(index=False).encode("utf-8"),
                        file_name="next_runs.csv", mime="text/csv", key="r_next_sheet")

@@ -48,5 +48,10 @@ def run(args) -> int:
         block = provenance(study, seed=result.seed)
         print(json.dumps(result.to_dict() | {"provenance": block}, indent=2))
     else:
+        from ..search.result import fewer_solutions_text
+
         print(result.text())
+        fewer = fewer_solutions_text(result, args.top)
+        if fewer:
+            print(f"fewer solutions: {fewer}")
     return 0

@@ -21,6 +21,7 @@ from .panel import adjusted_means, assessor_agreement, run_means
 from .panel_input import attribute_info, read_scores
 from .shelf import (TEMPERATURE_KINDS, arrhenius_points, derive_kinetic, describe_kinetic,
                     rows_at_temperature)
+from .reach import TIME_KINDS, storage_reach
 from .storage import fit_kinetics, fitted_value, interpolate_at, piece_spread, read_storage
 from .table import flag_notes as _flag_notes, name_list as _list, run_table as _table
 from ..study.spec import Response, Study
@@ -134,7 +135,7 @@ def _value_at_time(sub: pd.DataFrame, at: float, opts: dict, tname: str):
                 continue
             values[run] = float(fitted_value(fit["start"], fit["rate"], at,
                                              order=opts["order"]))
-            flags[run] = (f"EXTRAPOLATED to {tname} {at:g}, {side}, by a "
+            flags[run] = (f"extrapolated to {tname} {at:g}, {side}, by a "
                           f"{opts['order']}-order fit", f"measured to {tname} {edge:g}")
     return values, flags, reasons, points
 
@@ -185,7 +186,7 @@ def _derive_storage(study, r, opts, sec, fname, sub):
                 values[run] = v1[run] - v0[run]
             for fl in (f0.get(run), f1.get(run)):
                 if fl:  # the end point needing the stronger flag wins
-                    if run not in flags or fl[0].startswith("EXTRAPOLATED"):
+                    if run not in flags or fl[0].startswith("extrapolated"):
                         flags[run] = fl
     else:
         if opts["order"] == "first":
@@ -326,7 +327,7 @@ def _derive_all(study: Study, storage, panel, only: str | None = None):
     opts = {r.name: _options(study, r) for r in derived}
     wanted = {o["section"] for o in opts.values()}
     tables = _tables(study, storage, panel, wanted)
-    results, notes, seen = {}, [], set()
+    results, notes, seen, reach = {}, [], set(), {}
     for r in derived:
         o = opts[r.name]
         sec, fname, frame = tables[o["section"]]
@@ -336,6 +337,9 @@ def _derive_all(study: Study, storage, panel, only: str | None = None):
                 seen.add(("storage", o["property"]))
                 notes += _storage_gaps(study, sub, o["property"], sec, fname)
             table, extra = _derive_storage(study, r, o, sec, fname, sub)
+            if o["kind"] in TIME_KINDS:
+                values = table.set_index("run")["value"].dropna().to_dict()
+                reach[r.name] = storage_reach(r.name, sub, o, sec, values)
         else:
             if sec.get("layout") == "wide" and o["attribute"] not in set(frame["attribute"]):
                 found = sorted(set(frame["attribute"]))
@@ -360,7 +364,7 @@ def _derive_all(study: Study, storage, panel, only: str | None = None):
                 notes.append(f"response '{r.name}': run {row['run']} {row['flag']}")
         notes += extra
         results[r.name] = table
-    return results, list(dict.fromkeys(notes))  # each note once, first place kept
+    return results, list(dict.fromkeys(notes)), reach  # each note once, first kept
 
 
 def add_derived_responses(study: Study, *, storage: RawTable | None = None,
@@ -376,7 +380,7 @@ def add_derived_responses(study: Study, *, storage: RawTable | None = None,
         notes = [f"[{s}] is declared but no response derives from it"
                  for s in ("storage", "panel") if study.spec.get(s) is not None]
         return replace(study, notes=study.notes + tuple(notes)) if notes else study
-    results, notes = _derive_all(study, storage, panel)
+    results, notes, reach = _derive_all(study, storage, panel)
     runs = study.runs.copy()
     for r in study.responses:
         if r.name not in results:
@@ -389,7 +393,8 @@ def add_derived_responses(study: Study, *, storage: RawTable | None = None,
             raise DataError(f"response '{r.name}': transform = '{r.transform}' needs "
                             "positive derived values: remove the transform or check "
                             "the derivation")
-    return replace(study, runs=runs, notes=study.notes + tuple(notes))
+    return replace(study, runs=runs, notes=study.notes + tuple(notes),
+                   reach={**study.reach, **reach})
 
 
 def derivation_table(study: Study, name: str, *, storage: RawTable | None = None,
@@ -413,7 +418,7 @@ def derivation_table(study: Study, name: str, *, storage: RawTable | None = None
     r = study.response(name)
     if not r.is_derived:
         raise StudyError(f"response '{name}' is read from the runs table, not derived")
-    results, _ = _derive_all(study, storage, panel, only=name)
+    results, _, _ = _derive_all(study, storage, panel, only=name)
     return results[name]
 
 

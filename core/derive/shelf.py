@@ -19,6 +19,7 @@ import pandas as pd
 
 from ..cautions import ACCELERATED_CAUTIONS, SHELF_LIFE_CAUTION
 from ..errors import DataError, StudyError
+from .reach import STATED_MULTIPLE, stated_limit
 from .kinetics import (KELVIN, fit_arrhenius, kelvin, q10, rate_at, time_to_bound,
                        time_to_limit_se)
 from .table import flag_notes, name_list, run_table
@@ -31,8 +32,9 @@ TEMPERATURE_KINDS = ("time_to_limit", "shelf_life", "activation_energy", "q10", 
 ESTIMATES = ("bound", "mean")
 # Rule of thumb for chemical and quality changes in foods (common practice).
 EA_TYPICAL = (10.0, 200.0)
-# A shelf life beyond this multiple of the last storage time is flagged more strongly.
-FAR_BEYOND = 1.5
+# A shelf life beyond this multiple of the last storage time is flagged more strongly
+# (and gets no chance: see reach.py).
+FAR_BEYOND = STATED_MULTIPLE
 _POOR_FIT_R2 = 0.8
 
 
@@ -217,7 +219,8 @@ def derive_kinetic(study, r, opts: dict, sec: dict, fname: str,
         lower[run] = float(estimate["lower"][i])
         upper[run] = float(estimate["upper"][i])
         r2[run] = float(fit.r_squared[i])
-        flags[run] = _flags(run, mine, opts, at, many, fit, i, tname, values[run], sub)
+        flags[run] = _flags(run, mine, opts, at, many, fit, i, tname, values[run], sub,
+                            sec.get("time_unit", ""))
     flags = {run: fl for run, fl in flags.items() if fl and run not in reasons}
     notes = flag_notes(r.name, flags) + _fit_notes(r.name, r2, order, many)
     if kind in ("shelf_life", "time_to_limit") and values:
@@ -279,20 +282,20 @@ def _left_out(run, mine, opts, at, many, fit, i, tname, estimate, sub) -> str:
     return ""
 
 
-def _flags(run, mine, opts, at, many, fit, i, tname, value, sub) -> list:
+def _flags(run, mine, opts, at, many, fit, i, tname, value, sub, unit="") -> list:
     out = []
     kind = opts["kind"]
     run_temps = [T for T in mine if math.isfinite(T)]
     if math.isfinite(at) and run_temps and kind != "activation_energy" and many and \
             not min(run_temps) <= at <= max(run_temps):
-        out.append(("TEMPERATURE EXTRAPOLATED: at_temperature is outside the temperatures "
+        out.append(("temperature extrapolated: at_temperature is outside the temperatures "
                     "the run was stored at, so the Arrhenius law is assumed to hold there",
                     f"{at:g} degC asked, tested {_temps([min(run_temps), max(run_temps)])}"))
     if many:
         ea = fit.ea[i]
         lo, hi = EA_TYPICAL
         if not lo <= ea <= hi:
-            out.append((f"UNUSUAL ACTIVATION ENERGY outside {lo:g} to {hi:g} kJ/mol (a rule "
+            out.append((f"unusual activation energy outside {lo:g} to {hi:g} kJ/mol (a rule "
                         "of thumb for chemical and quality changes in foods): check the "
                         "data, and whether one mechanism holds at every temperature",
                         f"{ea:.3g} kJ/mol"))
@@ -306,13 +309,14 @@ def _flags(run, mine, opts, at, many, fit, i, tname, value, sub) -> list:
             float(fit.last_time[i])
         if value == 0:
             out.append((f"at or past {lim:g} from the start of {what}, so set to 0", ""))
-        elif value > FAR_BEYOND * last:
-            out.append((f"EXTRAPOLATED FAR BEYOND THE DATA: {what} reaches {lim:g} after more than "
-                        f"{FAR_BEYOND:g} times the last measured {tname}; treat it as a "
-                        "rough guide and extend the storage study",
-                        f"{tname} {value:.3g}, measured to {last:g}"))
+        elif value > stated_limit(last, unit):
+            out.append((f"extrapolated far beyond the data: {what} reaches {lim:g} after "
+                        f"{stated_limit(last, unit):.3g}, the longest the storage supports "
+                        f"({FAR_BEYOND:g} times the last measured {tname}); no chance is "
+                        "stated for it: treat it as a rough guide and extend the storage "
+                        "study", f"{tname} {value:.3g}, measured to {last:g}"))
         elif value > last:
-            out.append((f"EXTRAPOLATED: {what} reaches {lim:g} after the last measured "
+            out.append((f"extrapolated: {what} reaches {lim:g} after the last measured "
                         f"{tname} (the further beyond, the less trustworthy)",
                         f"{tname} {value:.3g}, measured to {last:g}"))
     return out
@@ -358,7 +362,8 @@ def describe_kinetic(opts: dict, sec: dict) -> str:
     verb = "rises" if opts["direction"] == "up" else "falls"
     if kind == "shelf_life" and opts["estimate"] == "bound":
         what = (f"{unit}{where} until the one-sided confidence bound of the mean "
-                f"{p} {verb} to {opts['limit']:g} (shelf life as in ICH Q1E)")
+                f"{p} {verb} to {opts['limit']:g} (the conservative shelf life of ICH Q1E, the "
+                "guideline on evaluating stability data)")
     else:
         what = f"{unit}{where} until the fitted mean {p} {verb} to {opts['limit']:g}"
     return (f"{what}, from {fit}; 0 when already past at the start, left out when it "

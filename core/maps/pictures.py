@@ -87,11 +87,18 @@ def _axis(alt):
     return alt.Axis(tickCount=8, labelOverlap=True, labelFlush=True)
 
 
+# pixels kept free around a map's frame, so a mark on its edge (a setting at a bound
+# of the searched range) is drawn whole, inside the frame
+MARK_ROOM = 10
+
+
 def _axes(alt, grid, x_title, y_title):
     xs = alt.X("x:Q", title=x_title, axis=_axis(alt), scale=alt.Scale(
-        domain=[float(grid["x"].min()), float(grid["x"].max())], zero=False, nice=False))
+        domain=[float(grid["x"].min()), float(grid["x"].max())], zero=False, nice=False,
+        padding=MARK_ROOM))
     ys = alt.Y("y:Q", title=y_title, axis=_axis(alt), scale=alt.Scale(
-        domain=[float(grid["y"].min()), float(grid["y"].max())], zero=False, nice=False))
+        domain=[float(grid["y"].min()), float(grid["y"].max())], zero=False, nice=False,
+        padding=MARK_ROOM))
     return xs, ys
 
 

@@ -81,6 +81,15 @@ def runs_table(study, fit=None, *, unusual: float = 3.0) -> pd.DataFrame:
                 i = run_ids.get(str(key))
                 if i is not None and np.isfinite(value) and abs(value) > unusual:
                     marks[i].append(f"unusual {name} (studentized residual {value:+.1f})")
+    # a time derived from storage past the last storage time (derive/reach.py)
+    for name, reach in (getattr(study, "reach", {}) or {}).items():
+        u = f" {reach.unit}" if reach.unit else ""
+        for group, how in ((reach.beyond, f"past the last storage time, {reach.last:g}{u}"),
+                           (reach.far, f"past {reach.stated_to:g}{u}, 1.5 times the last "
+                                       "storage time: no chance stated")):
+            for run in group:
+                for i in np.flatnonzero(out["run"].astype(str).to_numpy() == run):
+                    marks[i].append(f"extrapolated {name} ({how})")
     out["marks"] = ["; ".join(m) for m in marks]
     return out
 
@@ -351,7 +360,7 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
     for every factor. Chances use the seeded Monte Carlo of
     ``tradeoff.chance.chance_in_limits`` with the study's seed.
     """
-    from ..search.chance import chance_in_limits
+    from ..search.chance import chance_in_limits, withhold_beyond_reach
     from ..study.constraints import rules_satisfied
     from ..search.problem import goal_columns, overall_desirability
 
@@ -369,6 +378,9 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
         D = float(D_arr[0])
         d_by_name = {name: float(d[0, i]) for i, (_, name) in enumerate(columns)}
     chance = chance_in_limits(study, dict(fit.models), X, draws=draws, seed=study.seed)
+    # no chance for a time past what the storage supports (derive/reach.py)
+    chance = withhold_beyond_reach(study, chance, {
+        n: np.asarray([v]) for n, v in zip(table["response"], table["predicted"])})
     chance_by_name = {name: float(chance.each[0, i])
                       for i, name in enumerate(chance.responses)}
     lows, highs = [], []

@@ -8,11 +8,20 @@ instead (``sklearn.model_selection.KFold``, shuffled with the study's seed).
 The candidates are the polynomial models main, interactions and quadratic
 (when some factor has three settings) and the smooth model.
 
-Everything is refitted in each fold: a polynomial's coefficients, and a
-smooth model's length scales and noise (started from the whole-data fit, so
-the search stays short). The smooth model's figure can therefore sit a little
-below the leave-one-out R2 ``tradeoff fit`` prints, which holds the length
-scales. Blocks are left out of the comparison: a run's block effect cannot be
+Each candidate is the very model ``fit_response`` would fit (a blend's Scheffe
+terms, the response's kept and dropped terms for the model in use), so the
+figure of the model in use is the one its fit reports: a polynomial's
+leave-one-out refits give exactly its PRESS, and a smooth model's fit itself
+refits every hyperparameter without each run (``SmoothModel(refit_loo=True)``,
+up to ``LOO_MAX_RUNS`` runs), so its figure is read from that fit. Above that,
+every model is refitted in each of ten folds (a smooth model started from the
+whole-data fit). R2 is computed on the modelling scale (the log of a
+log-transformed response), as the fit's predicted R2; RMSE in natural units.
+
+A quadratic model whose squares cannot be told apart (a two-level design with
+centre points estimates only their sum) is listed last and never named best:
+its figure rests on one curvature term standing for all the squares.
+Blocks are left out of the comparison: a run's block effect cannot be
 predicted from the other runs.
 """
 from __future__ import annotations
@@ -42,8 +51,9 @@ class ModelComparison:
     method : str
         ``leave-one-out`` or ``10-fold``.
     rows : tuple of dict
-        ``{"model", "loo_r2", "rmse"}`` per model that could be scored, best
-        first (highest R2).
+        ``{"model", "loo_r2", "rmse", "confounded"}`` per model that could be
+        scored, best first (highest R2; a quadratic whose squares are confounded
+        last, ``confounded`` True).
     notes : tuple of str
         Models left out and why.
     """
@@ -55,13 +65,15 @@ class ModelComparison:
 
     @property
     def best(self) -> str | None:
-        """The model with the highest cross-validated R2 (None when none was scored)."""
-        return self.rows[0]["model"] if self.rows else None
+        """The model with the highest cross-validated R2 (None when none was scored);
+        never a quadratic whose squares are confounded."""
+        fair = [r for r in self.rows if not r.get("confounded")]
+        return fair[0]["model"] if fair else None
 
     def to_list(self) -> list[dict]:
-        """The JSON list ``[{"model", "loo_r2", "rmse"}, ...]``, best first."""
-        return [{"model": r["model"], "loo_r2": _num(r["loo_r2"]), "rmse": _num(r["rmse"])}
-                for r in self.rows]
+        """The JSON list ``[{"model", "loo_r2", "rmse", "confounded"}, ...]``, best first."""
+        return [{"model": r["model"], "loo_r2": _num(r["loo_r2"]), "rmse": _num(r["rmse"]),
+                 "confounded": bool(r.get("confounded"))} for r in self.rows]
 
 
 def cv_scores(y, predictions) -> tuple[float, float]:
@@ -96,12 +108,34 @@ def cv_predictions(make, X, y, *, seed: int = 0) -> tuple[np.ndarray, str]:
     return out, method
 
 
+def _polynomial(study, response, model: str, X, current) -> dict:
+    """The options ``fit_response`` gives a polynomial ``model`` of ``response``."""
+    keep = drop = ()
+    if model == current:  # the response's own term choices belong to its model in use
+        keep = tuple(response.extra.get("keep_terms", ()))
+        drop = tuple(response.extra.get("drop_terms", ()))
+    spec, mixture = model, None
+    if study.mixture is not None:
+        from .scheffe import mixture_fit_options
+
+        spec, linear, mixture = mixture_fit_options(study, response, model, X)
+        keep = tuple(keep) + tuple(t for t in linear if t not in keep)
+    return dict(terms=spec, keep=list(keep), drop=list(drop), mixture=mixture)
+
+
+def _squares_confounded(model) -> bool:
+    """True when the fitted model dropped a square as aliased with other terms."""
+    return any(label.endswith("^2") for label in getattr(model, "aliases_", {}))
+
+
 def compare_response(study, name: str, *, seed: int | None = None,
-                     models=COMPARED_MODELS, restarts: int = 5) -> ModelComparison:
+                     models=COMPARED_MODELS, restarts: int | None = None
+                     ) -> ModelComparison:
     """Cross-validated R2 and RMSE of each candidate model of one response.
 
     Raises ModelError when the response cannot be compared at all (no
-    values, or the same value in every run).
+    values, or the same value in every run). ``restarts``: of the smooth
+    model's whole-data fit (default: as ``fit_response`` fits it).
     """
     from .fit import ResponseModel
     from .smooth import SmoothModel, smooth_min_runs
@@ -124,9 +158,14 @@ def compare_response(study, name: str, *, seed: int | None = None,
                          "to compare, so it was skipped")
     common = dict(factor_names=study.factor_names, transform=response.transform,
                   confidence=study.confidence, name=name, factors=study.factors)
+    current = study.model_for(response)
+    from .transforms import forward
+
+    z = forward(y, response.transform, response=name)
+    loo = n <= LOO_MAX_RUNS
     numeric = [j for j, f in enumerate(study.factors) if not f.is_categorical]
     settings = [len(np.unique(np.round(X[:, j], 9))) for j in range(k)]
-    rows, notes, method = [], [], None
+    rows, notes, method, seen = [], [], None, {}
     for model in models:
         if model == "smooth":
             need = smooth_min_runs(k)
@@ -135,16 +174,25 @@ def compare_response(study, name: str, *, seed: int | None = None,
                 notes.append(f"smooth: each fit needs {need} runs with a value, and "
                              f"leaving runs out leaves {fewest}")
                 continue
+            more = {} if restarts is None else {"restarts": restarts}
             try:
-                whole = SmoothModel(restarts=restarts, seed=seed, **common).fit(X, y)
+                whole = SmoothModel(seed=seed, **more, **common).fit(X, y)
             except TradeoffError as exc:
                 notes.append(f"smooth: {exc}")
+                continue
+            if loo and whole.loo_refit_ is not None:
+                # its fit refitted it without each run: the figure its fit reports
+                pred = whole.loo_refit_
+                rows.append(_row("smooth", y, z, forward(pred, response.transform,
+                                                          response=name), pred))
+                method = "leave-one-out"
                 continue
             start = whole.kernel_
 
             def make(start=start):
                 # each fold refits every hyperparameter, from the whole-data values
-                return SmoothModel(restarts=0, seed=seed, kernel=start, **common)
+                return SmoothModel(restarts=0, seed=seed, kernel=start, refit_loo=False,
+                                   **common)
         else:
             if model == "quadratic" and not any(settings[j] >= 3 for j in numeric):
                 notes.append("quadratic: no factor has three or more settings, so it "
@@ -152,34 +200,66 @@ def compare_response(study, name: str, *, seed: int | None = None,
                 continue
             from .terms import model_terms
 
-            terms, _ = model_terms(model, study.factor_names, n_settings=settings,
-                                   response=name)
+            try:
+                options = _polynomial(study, response, model, X, current)
+            except ModelError as exc:
+                notes.append(f"{model}: {exc}")
+                continue
+            terms = options["terms"] if study.mixture is not None else model_terms(
+                model, study.factor_names, n_settings=settings, response=name)[0]
             if len(terms) > n - 1:
                 notes.append(f"{model}: {len(terms)} terms for {n} runs: each fold "
                              "would have fewer runs than terms")
                 continue
 
-            def make(model=model):
-                return ResponseModel(terms=model, **common)
+            def make(options=options):
+                return ResponseModel(**options, **common)
         try:
             pred, method = cv_predictions(make, X, y, seed=seed)
         except (ModelError, StudyError) as exc:
             notes.append(f"{model}: {exc}")
             continue
-        r2, rmse = cv_scores(y, pred)
-        rows.append({"model": model, "loo_r2": r2, "rmse": rmse})
+        twin = next((m for m, p in seen.items() if np.allclose(p, pred, rtol=1e-10,
+                                                               atol=1e-12)), None)
+        if twin is not None:
+            # a blend's [mixture] section (or too few settings) can make two named
+            # models one: listing both would rank a model against itself
+            notes.append(f"{model}: the same model as {twin} in this study (the same "
+                         "predictions), so not listed again")
+            continue
+        seen[model] = pred
+        row = _row(model, y, z, forward(pred, response.transform, response=name), pred)
+        if model == "quadratic":
+            try:
+                row["confounded"] = _squares_confounded(make().fit(X, y))
+            except (ModelError, StudyError):
+                pass
+            if row["confounded"]:
+                notes.append("quadratic: its squares cannot be told apart in these runs "
+                             "(the centre points give one curvature for all of them), so "
+                             "it is listed last and not named best")
+        rows.append(row)
     if method is None:
         method = _splitter(n, seed)[1]
     if study.block_labels() is not None:
         notes.append("blocks left out of the comparison (a run's block effect cannot "
                      "be predicted from the other runs)")
-    rows.sort(key=lambda r: -r["loo_r2"] if math.isfinite(r["loo_r2"]) else math.inf)
+    rows.sort(key=lambda r: (r["confounded"], -r["loo_r2"] if math.isfinite(r["loo_r2"])
+                             else math.inf))
     return ModelComparison(response=name, method=method, rows=tuple(rows),
                            notes=tuple(notes))
 
 
+def _row(model: str, y, z, z_pred, y_pred) -> dict:
+    """A comparison row: R2 on the modelling scale (as the fit's predicted R2), RMSE in
+    natural units."""
+    r2, _ = cv_scores(z, z_pred)
+    _, rmse = cv_scores(y, y_pred)
+    return {"model": model, "loo_r2": r2, "rmse": rmse, "confounded": False}
+
+
 def compare_models(study, *, responses=None, seed: int | None = None,
-                   restarts: int = 5) -> tuple[dict, dict]:
+                   restarts: int | None = None) -> tuple[dict, dict]:
     """Compare the candidate models of every response (or those named).
 
     Returns ``(comparisons, skipped)``: response name -> ModelComparison, and
@@ -205,7 +285,9 @@ def comparison_text(comparisons: dict, skipped: dict) -> str:
         lines.append(f"  {'model':<14}{'R2':>10}{'RMSE':>12}")
         for r in c.rows:
             lines.append(f"  {r['model']:<14}{_fmt(r['loo_r2'], '.3f'):>10}"
-                         f"{_fmt(r['rmse'], '.4g'):>12}")
+                         f"{_fmt(r['rmse'], '.4g'):>12}"
+                         + ("   (squares confounded: not ranked)"
+                            if r.get("confounded") else ""))
         if c.best is not None:
             lines.append(f"  best: {c.best} (highest cross-validated R2)")
         for note in c.notes:

@@ -97,8 +97,9 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
         model = SmoothModel(factor_names=study.factor_names, transform=response.transform,
                             confidence=study.confidence, name=name, factors=study.factors,
                             seed=study.seed)
-        return model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
-                         study.runs["run"].to_numpy(), block=study.block_labels())
+        model.fit(study.coded().to_numpy(), study.runs[name].to_numpy(dtype=float),
+                  study.runs["run"].to_numpy(), block=study.block_labels())
+        return _with_reach(study, name, model)
     keep = response.extra.get("keep_terms", ()) if keep is None else keep
     drop = response.extra.get("drop_terms", ()) if drop is None else drop
     X = _runs[0] if _runs is not None else study.coded().to_numpy()
@@ -146,6 +147,19 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
         model = ResponseModel(**options)
         model.fit(X, y, ids, block=block)
     model.pieces_ = _pieces(study, response, model)
+    return _with_reach(study, name, model)
+
+
+def _with_reach(study, name: str, model):
+    """The model, warned when its response's values lie past the storage study
+    (``derive.reach``): the flag of the derived values carried into the model."""
+    reach = getattr(study, "reach", {}).get(name)
+    note = reach.model_note(int(study.runs[name].notna().sum())) if reach else ""
+    if note:
+        if hasattr(model, "_warnings"):
+            model._warnings.append(note)   # a polynomial builds warnings_ from it
+        else:
+            model.warnings_.append(note)   # a smooth model holds a plain list
     return model
 
 

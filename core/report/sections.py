@@ -92,6 +92,10 @@ class _AnswerSections(_Sections):
                 cards.append(("chance every response within limits",
                               _pct(best["chance_all"]),
                               "for one batch made at these settings"))
+            elif _withheld(best):
+                cards.append(("chance every response within limits", "not stated",
+                              "a predicted time lies past what the storage study "
+                              "supports: see Recommended settings"))
             if not self.res["feasible"]:
                 parts.append('<p><span class="tag bad">no setting meets every goal</span> '
                              "the settings shown come closest.</p>")
@@ -119,7 +123,9 @@ class _AnswerSections(_Sections):
                f"D = <b>{_g(best['desirability'], 3)}</b>"
                + (f", chance that every response lands within its limits "
                   f"<b>{_pct(best['chance_all'])}</b>" if best["chance_all"] is not None
-                  else "") + ".</p>"]
+                  else ", chance that every response lands within its limits <b>not "
+                  "stated</b> (a predicted time lies past what the storage study "
+                  "supports: see the note below)" if _withheld(best) else "") + ".</p>"]
         rows = []
         for f in self.study.factors:
             value = best["settings"][f.name]
@@ -155,13 +161,21 @@ class _AnswerSections(_Sections):
             return ""
         listed = ", ".join(f"{esc(k)} {_g(v)}" for k, v in spread.items())
         rows = [[esc(self.study.response(name).label), esc(self.study.response(name).unit),
+                 _chance_cell(o, "chance_in_production",
+                              self.study.response(name).unit),
                  _g(o.get("transmitted_sd")), _g(o.get("mean_shift"))]
                 for name, o in sol["responses"].items()]
+        # a factor's own goal counts in the chance of all at once: its row says how
+        # often the factor itself strays out of its limits
+        rows += [[esc(self.study.factor(name).label) + " (factor goal)",
+                  esc(self.study.factor(name).unit), _pct(p), "-", "-"]
+                 for name, p in (sol.get("factor_chance_production") or {}).items()]
         return (f"<h3>In production</h3><p>Each factor strays from its setting with the "
                 f"standard deviation given ({listed}). Chance that one production batch "
-                f"meets every limit: <b>{_pct(sol.get('chance_all_production'))}</b>.</p>"
-                + _table(["response", "unit", "spread SD", "mean shift"], rows,
-                         numeric={2, 3}))
+                f"meets every limit: <b>{_pct(sol.get('chance_all_production'))}</b>; "
+                "each row gives its own share of that.</p>"
+                + _table(["response", "unit", "chance within limits in production",
+                          "spread SD", "mean shift"], rows, numeric={2, 3, 4}))
 
     def _predictions(self, sol: dict) -> str:
         rows = []
@@ -171,12 +185,13 @@ class _AnswerSections(_Sections):
                          _g(o["predicted"]),
                          f"{_g(o['pi'][0])} .. {_g(o['pi'][1])}",
                          f"{_g(o['ci'][0])} .. {_g(o['ci'][1])}",
-                         _g(o["desirability"], 3), _pct(o["chance_in_limits"])])
+                         _g(o["desirability"], 3),
+                         _chance_cell(o, "chance_in_limits", r.unit)])
         for name, d in sol["factor_desirability"].items():
             f = self.study.factor(name)
             rows.append([esc(f.label) + " (factor goal)", esc(f.unit),
                          esc(self._goal_text(f.goal)), _g(sol["settings"][name]), "-",
-                         "-", _g(d, 3), "-"])
+                         "-", _g(d, 3), _pct(1.0 if d > 0 else 0.0)])
         return _table(["response", "unit", "goal", "predicted",
                        f"{self.pct} prediction interval", f"{self.pct} mean interval",
                        "d", "chance within limits"], rows, numeric={3, 6, 7})
@@ -191,7 +206,7 @@ class _AnswerSections(_Sections):
         factors = self.study.factors
         head = ["", "rank", "D", "chance all"] + [esc(f.name) for f in factors]
         rows = [[esc(s["label"]), str(s["rank"]), _g(s["desirability"], 3),
-                 _pct(s["chance_all"])]
+                 "not stated" if _withheld(s) else _pct(s["chance_all"])]
                 + [esc(self._setting(f.name, s["settings"][f.name])) for f in factors]
                 for s in sols]
         out = ["<p>Other settings that score well, at least a little apart from each "
@@ -332,3 +347,18 @@ def _table(head: list[str], rows: list[list[str]], *, numeric: set[int] = frozen
         for row in rows)
     klass = f' class="{cls}"' if cls else ""
     return f"<table{klass}><thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def _chance_cell(o: dict, key: str, unit: str = "") -> str:
+    """A response's chance, or why none is stated (a time past the storage study)."""
+    if o.get("extrapolated") == "far" and o.get("goal") != "none":
+        return (f"not stated (store to {_g(o.get('storage_needed'))} {esc(unit)})"
+                .replace(" )", ")") if o.get("storage_needed") is not None
+                else "not stated")
+    return _pct(o.get(key))
+
+
+def _withheld(sol: dict) -> bool:
+    """True when a goal's predicted time lies past what the storage supports."""
+    return any(o.get("extrapolated") == "far" and o.get("goal") != "none"
+               for o in sol["responses"].values())

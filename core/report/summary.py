@@ -58,6 +58,10 @@ def study_summary(study: Study) -> dict:
 
             entry["derived"] = {k: v for k, v in r.extra.items()}
             entry["derived_how"] = describe_derivation(study, r)
+        reach = (getattr(study, "reach", {}) or {}).get(r.name)
+        if reach is not None:  # a time from storage: how far it may be stated
+            entry["storage_reach"] = reach.to_dict()
+            entry["goal_warning"] = reach.goal_warning(r.goal, "the goal") or None
         responses.append(entry)
     out = {"study": study.name,
             "source": str(study.source) if study.source else None,
@@ -196,6 +200,8 @@ def summary_text(summary: dict) -> str:
                      f"{span}; goal {r['goal']}; model {r['model']}" if not none else
                      f"  {r['name']:<20} a value for {r['measured']} of {summary['runs']} "
                      "product(s), listed under Derived values")
+        if r.get("goal_warning"):
+            lines.append(f"  {'':<20} goal warning: {r['goal_warning']}")
         pc = r.get("pieces")
         if pc:
             each = (f"{pc['most']} each" if pc["most"] == pc["fewest"]

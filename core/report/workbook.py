@@ -12,6 +12,7 @@ from ..model.terms import model_label
 from ..model.transforms import power_advice
 from ..study.safe_cells import workbook_bytes
 from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
+from .sections import _withheld
 
 __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
 
@@ -57,7 +58,8 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         best = res["best"]
         summary += [("best solution", best["label"]),
                     ("overall desirability D", best["desirability"]),
-                    ("chance every response within limits", best["chance_all"])]
+                    ("chance every response within limits",
+                     "not stated" if _withheld(best) else best["chance_all"])]
         summary += [(f"best setting: {k}", v) for k, v in best["settings"].items()]
     else:
         summary.append(("search", data["search_note"]))
@@ -169,13 +171,17 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         for s in res["solutions"]:
             for rname, o in s["responses"].items():
                 row = {"solution": s["label"], "rank": s["rank"],
-                       "D": s["desirability"], "chance all within limits": s["chance_all"]}
+                       "D": s["desirability"], "chance all within limits":
+                       "not stated" if _withheld(s) else s["chance_all"]}
                 row.update(s["settings"])
                 row.update({"response": rname, "goal": o["goal"],
                             "predicted": o["predicted"], "desirability": o["desirability"],
                             "pi low": o["pi"][0], "pi high": o["pi"][1],
                             "ci low": o["ci"][0], "ci high": o["ci"][1],
-                            "chance within limits": o["chance_in_limits"]})
+                            "chance within limits": o["chance_in_limits"],
+                            "storage study": {"beyond": "past the last storage time",
+                                              "far": "too far past it: no chance stated"}
+                            .get(o.get("extrapolated"), "")})
                 if res.get("production_sd"):
                     row.update({"spread SD in production": o.get("transmitted_sd"),
                                 "mean shift in production": o.get("mean_shift"),

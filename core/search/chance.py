@@ -26,7 +26,9 @@ import pandas as pd
 from .desirability import limits
 
 __all__ = ["ChanceEstimate", "residual_correlation", "chance_in_limits", "chance_text",
-           "CHANCE_RULE"]
+           "CHANCE_RULE", "beyond_reach", "withhold_beyond_reach", "NOT_STATED"]
+
+NOT_STATED = "not stated"  # a chance withheld: the prediction lies past the storage study
 
 CHANCE_RULE = ("Chances are shown in percent with one decimal; an estimate above 99.9 % "
                "shows as '> 99.9 %' and one below 0.1 % as '< 0.1 %', because a Monte "
@@ -290,3 +292,39 @@ def chance_in_limits(study, models: dict, X_coded, *, draws: int = 20000,
         assumption += ("; no chance for " + ", ".join(f"'{u}'" for u in unknown)
                        + " (its model has no estimate of run-to-run error)")
     return ChanceEstimate(tuple(names), each, together, draws, is_corr, frame, assumption)
+
+
+def beyond_reach(study, predicted: dict) -> dict:
+    """Per time-valued storage response, where each prediction stands (``derive.reach``).
+
+    ``predicted`` maps a response name to its predicted values (n,). Returns
+    name -> array (n,) of ``""``, ``"beyond"`` (past the last storage time) or
+    ``"far"`` (past the longest time stated: no chance), for the responses in
+    ``study.reach`` only.
+    """
+    reach = getattr(study, "reach", {}) or {}
+    return {name: reach[name].status(values) for name, values in predicted.items()
+            if name in reach}
+
+
+def withhold_beyond_reach(study, chances: ChanceEstimate, predicted: dict
+                          ) -> ChanceEstimate:
+    """The chances with every chance that rests on a time past the storage study's
+    reach withheld (NaN): that response's own chance, and the chance of all at once.
+
+    ``predicted`` maps response names to predicted values (n,) at the same points.
+    """
+    status = beyond_reach(study, predicted)
+    far = {n: s == "far" for n, s in status.items() if n in chances.responses and
+           (s == "far").any()}
+    if not far:
+        return chances
+    each, together = chances.each.copy(), np.array(chances.all, dtype=float, copy=True)
+    for name, mask in far.items():
+        each[mask, chances.responses.index(name)] = np.nan
+        together[mask] = np.nan
+    named = ", ".join(f"'{n}'" for n in far)
+    return ChanceEstimate(chances.responses, each, together, chances.draws,
+                          chances.correlated, chances.correlation,
+                          chances.assumption + f"; no chance stated where {named} lies "
+                          "beyond what the storage study can support")

@@ -30,6 +30,13 @@ elsewhere: the batch spreads out.
 Candidates lie in the searched region (each numeric factor's search range,
 every categorical level combination) and obey the study's rules; none lies
 closer than ``min_distance`` coded units to a run already made or picked.
+
+When no candidate's EI reaches ``NEGLIGIBLE_EI`` (a thousandth of the D scale),
+a run chosen by EI would be chosen by noise: the pick goes instead where the
+models are least sure (the largest variance of the mean relative to each goal's
+width, among settings with D above 0), and the batch says so, naming
+confirmation runs at the recommendation as the other sensible choice. A batch
+whose runs share nearly one setting of a factor says so too (``NextBatch.notes``).
 """
 from __future__ import annotations
 
@@ -46,9 +53,11 @@ from ..study.coding import decode_values, level_codes
 from ..study.constraints import rule_arrays
 from .desirability import desirability
 from .mixture import simplex_region
+from .next_sheet import suggestion_sheet
+from .next_words import NEGLIGIBLE_EI, _batch_notes, _summary, made_run_at
 
 __all__ = ["NextBatch", "SuggestedRun", "next_batch", "normal_ei", "expected_improvement",
-           "DEFAULT_MIN_DISTANCE"]
+           "DEFAULT_MIN_DISTANCE", "NEGLIGIBLE_EI", "made_run_at"]
 
 DEFAULT_MIN_DISTANCE = 0.3  # coded units: closer than this counts as repeating a run
 _DRAWS = 512  # Monte Carlo draws of the models' means per candidate
@@ -95,6 +104,9 @@ class SuggestedRun:
         Coded distance to the nearest run made or picked before it.
     why : str
         Why this run, in a sentence.
+    purpose : str
+        ``improve`` (chosen for its expected improvement) or ``learn`` (no
+        setting is expected to improve D: chosen where the models are least sure).
     """
 
     settings: dict
@@ -105,6 +117,7 @@ class SuggestedRun:
     interval: dict
     nearest: float
     why: str
+    purpose: str = "improve"
 
 
 @dataclass(frozen=True)
@@ -124,6 +137,13 @@ class NextBatch:
     sheet : pandas.DataFrame
         The run sheet: the data file's columns, responses blank, ``point`` =
         ``suggested``.
+    summary : str
+        What the batch is for, in a sentence or two: improving D, or (where no
+        setting is expected to improve it) learning where the models are least
+        sure, with confirmation runs as the other choice.
+    notes : tuple of str
+        What a reader may wonder about the batch (runs sharing nearly one
+        setting of a factor, and why).
     """
 
     study: str
@@ -134,6 +154,8 @@ class NextBatch:
     min_distance: float
     warnings: tuple = ()
     sheet: pd.DataFrame = field(default=None, compare=False, repr=False)
+    summary: str = ""
+    notes: tuple = ()
 
     def to_dict(self, digits: int = 6) -> dict:
         """The JSON of ``tradeoff next --json``."""
@@ -147,7 +169,8 @@ class NextBatch:
                       "desirability": r(s.desirability),
                       "ci": {k: [r(a), r(b)] for k, (a, b) in s.interval.items()},
                       "nearest": r(s.nearest),
-                      "why": s.why} for s in self.runs],
+                      "why": s.why, "purpose": s.purpose} for s in self.runs],
+            "summary": self.summary, "notes": list(self.notes),
             "best_so_far": {"desirability": r(self.best_so_far["desirability"]),
                             "run": self.best_so_far["run"],
                             "settings": {k: (v if isinstance(v, str) else r(v))
@@ -160,12 +183,16 @@ class NextBatch:
     def text(self) -> str:
         """A readable list for the terminal."""
         b = self.best_so_far
-        lines = [f"Best so far: run {b['run']}, predicted D = {b['desirability']:.3f}",
+        lines = [f"Best so far: run {b['run']}, predicted D = {b['desirability']:.3f}"
+                 if b["desirability"] > 0 else "Best so far: no run made has D above 0 "
+                 "(each misses the limit of some goal)",
+                 self.summary,
                  f"Next {len(self.runs)} run(s), each chosen given the ones before it "
                  f"(none closer than {self.min_distance:g} coded units to another):"]
         for i, s in enumerate(self.runs, start=1):
-            lines.append(f"\nN{i}: expected improvement of D {s.expected_improvement:.4f}, "
-                         f"predicted D {s.desirability:.3f}")
+            gain = (f"expected improvement of D {s.expected_improvement:.4f}"
+                    if s.purpose == "improve" else "to learn (no gain in D expected)")
+            lines.append(f"\nN{i}: {gain}, predicted D {s.desirability:.3f}")
             for name, value in s.settings.items():
                 if isinstance(value, str):  # a level is its name: no coded number
                     lines.append(f"  {name:<18} {value:>12}")
@@ -176,7 +203,7 @@ class NextBatch:
                 lines.append(f"  {name:<18} predicted {value:.4g} (mean {lo:.4g} .. "
                              f"{hi:.4g})")
             lines.append(f"  why: {s.why}")
-        for w in self.warnings:
+        for w in (*self.notes, *self.warnings):
             lines.append(f"note: {w}")
         lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines)
@@ -405,18 +432,22 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
         sd = _fantasy_sd(goals, sd0, X, picks)
         ei = expected_improvement(goals, X, mu, sd, levels, E)
         ei[~ok] = -1.0
-        if ei.max() > 0:
+        if ei.max() >= NEGLIGIBLE_EI:
             i = int(np.argmax(ei))
             x, value = _refine(goals, X[i], ei[i], num, lo, hi, A, b, P, picks,
                                min_distance, levels, E, rng)
             explore = False
         else:
-            # No candidate is expected to beat the best: explore where the models
-            # are least sure instead (relative to each goal's width).
-            spread = (sd / _widths(goals)).sum(axis=1)
+            # No candidate is expected to beat the best by more than noise: go
+            # where the models are least sure instead (the variance of the mean
+            # relative to each goal's width), among settings worth making (D > 0)
+            spread = ((sd / _widths(goals)) ** 2).sum(axis=1)
+            worth = goals.D(goals.natural(mu), goals.log_factor_d(X)) > 0
             spread[~ok] = -1.0
+            if (worth & ok).any():
+                spread[~worth] = -1.0
             i = int(np.argmax(spread))
-            x, value, explore = X[i], 0.0, True
+            x, value, explore = X[i], float(max(ei[i], 0.0)), True
         x = _rounded(study, x, A, b)
         mu_x, sd_x = goals.moments(x[None, :])
         nat = goals.natural(mu_x)
@@ -432,7 +463,9 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
                                level, explore))
     return NextBatch(study=study.name, runs=tuple(out), best_so_far=best_so_far,
                      seed=seed, draws=draws, min_distance=float(min_distance),
-                     warnings=tuple(warnings), sheet=suggestion_sheet(study, out))
+                     warnings=tuple(warnings), sheet=suggestion_sheet(study, out),
+                     summary=_summary(out, best_so_far),
+                     notes=tuple(_batch_notes(study, out, min_distance)))
 
 
 def _widths(goals):
@@ -496,8 +529,8 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
         interval[r.name] = (float(row["ci_low"]), float(row["ci_high"]))
     parts = [f"predicted D {D_x:.3f} against {best:.3f} at the best run made"]
     if explore:
-        parts.append("no setting is expected to do better, so this run goes where the "
-                     "models are least sure")
+        parts.append("no setting is expected to raise D by more than noise, so this run "
+                     "goes where the models are least sure")
     elif goals.responses and max(D_x - level, 0.0) < 0.5 * value:
         # most of the expected gain comes from what the models do not know yet
         # (with goals on factors only, nothing is uncertain to name)
@@ -511,56 +544,5 @@ def _suggestion(study, models, goals, x, value, D_x, nearest, best, level, explo
     coded = {f.name: float(x[j]) for j, f in enumerate(study.factors)}
     return SuggestedRun(settings=_settings(study, x), coded=coded,
                         expected_improvement=float(value), predicted=predicted,
-                        desirability=D_x, interval=interval, nearest=nearest, why=why)
-
-
-def _next_ids(ids: list[str], count: int) -> list[str]:
-    """Run ids continuing the study's numbering (R20 -> R21, 7 -> 8), else N1, N2, ..."""
-    import re
-
-    found = [re.fullmatch(r"(.*?)(\d+)", v) for v in ids]
-    if ids and all(found) and len({m.group(1) for m in found}) == 1:
-        prefix = found[0].group(1)
-        width = max(len(m.group(2)) for m in found) if prefix else 1
-        start = max(int(m.group(2)) for m in found) + 1
-        return [f"{prefix}{start + i:0{width}d}" for i in range(count)]
-    taken, out, i = set(ids), [], 0
-    while len(out) < count:
-        i += 1
-        if f"N{i}" not in taken:
-            out.append(f"N{i}")
-    return out
-
-
-def _data_columns(study) -> list[str]:
-    """The data file's column names in its own order (the loaded runs' when the
-    file cannot be read again)."""
-    from ..errors import TradeoffError
-    from ..study.runs import read_study_table
-
-    try:
-        header = read_study_table(study, study.data_path, sheet=study.sheet).header
-    except (TradeoffError, OSError, TypeError):
-        return list(study.runs.columns)
-    names = [str(h) for h in header if h not in (None, "")]
-    return names + [c for c in study.runs.columns if c not in names]
-
-
-def suggestion_sheet(study, suggestions) -> pd.DataFrame:
-    """The run sheet of suggestions: the data file's columns, responses blank,
-    ``point`` = ``suggested``, run ids continuing the study's."""
-    columns = _data_columns(study)
-    if "point" not in columns:
-        columns.append("point")
-    ids = _next_ids([str(v) for v in study.runs["run"]], len(suggestions))
-    block = study.block_column
-    rows = []
-    for rid, s in zip(ids, suggestions):
-        row = {c: None for c in columns}
-        row["run"] = rid
-        row.update(s.settings)
-        row["point"] = "suggested"
-        if block is not None and block in columns:
-            row[block] = "next"  # the suggestions are made together, as a new block
-        rows.append(row)
-    return pd.DataFrame(rows, columns=columns)
+                        desirability=D_x, interval=interval, nearest=nearest, why=why,
+                        purpose="learn" if explore else "improve")

@@ -20,7 +20,7 @@ import numpy as np
 from .chance import ChanceEstimate, chance_in_limits
 from .spread import coded_spread
 
-__all__ = ["production_chance", "chance_all_production"]
+__all__ = ["production_chance", "chance_all_production", "factor_goal_chances"]
 
 
 def production_chance(study, models: dict, X_coded, *, draws: int = 20000, seed: int = 0,
@@ -58,3 +58,28 @@ def chance_all_production(study, fit, X_coded, *, draws: int = 20000,
     """
     models = dict(fit.models) if hasattr(fit, "models") else dict(fit)
     return production_chance(study, models, X_coded, draws=draws, seed=seed).all
+
+
+def factor_goal_chances(study, X_coded, *, draws: int = 20000, seed: int = 0) -> dict:
+    """Factor name -> chance (n,) that the factor, made with its production spread,
+    lands within its own goal's limits; every numeric factor with a goal.
+
+    The factor deviations are the very draws ``production_chance`` uses (same
+    seed), so these are the factor rows behind its chance of all at once. A
+    factor made exactly (no ``production_sd``) lands within its limits when its
+    setting does: 1 or 0.
+    """
+    from .chance import _spread_draws
+    from .desirability import limits
+
+    X = np.atleast_2d(np.asarray(X_coded, dtype=float))
+    spread = coded_spread(study)
+    E = _spread_draws(seed, draws, spread)
+    out = {}
+    for j, f in enumerate(study.factors):
+        if f.is_categorical or not f.goal.active:
+            continue
+        lo, hi = limits(f.goal)
+        x = f.centre + f.half_range * (X[:, j, None] + E[None, :, j])
+        out[f.name] = ((x >= lo) & (x <= hi)).mean(axis=1)
+    return out

@@ -12,18 +12,19 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .chance import chance_in_limits, chance_text
-from .mixture import bound_warnings
+from .chance import (NOT_STATED, beyond_reach, chance_in_limits, chance_text,
+                     withhold_beyond_reach)
 from ..study.mixture import is_component
-from ..cautions import BLEND_CAUTION, FOOD_CAUTION, FOOD_CAUTIONS
-from .production import production_chance
+from ..cautions import FOOD_CAUTION, FOOD_CAUTIONS
+from .production import factor_goal_chances, production_chance
+from .result_notes import _general_warnings, _point_warnings
 from .rounding import clean_value, lab_recipes
 from .spread import transmitted_spread
 from ..study.coding import decode_values
 
-__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result", "pair_text"]
+__all__ = ["ResponseOutcome", "Solution", "OptimizationResult", "_result", "pair_text",
+           "fewer_solutions_text"]
 
-_EDGE = 1e-3  # coded distance that counts as "on the edge"
 
 
 @dataclass(frozen=True)
@@ -51,6 +52,17 @@ class ResponseOutcome:
         ``production_sd``).
     mean_shift : float or None
         How far the average response moves because of that spread.
+    extrapolated : str
+        For a time derived from a storage study (``study.reach``): ``""`` when the
+        prediction lies within the storage, ``"beyond"`` past its last storage
+        time, ``"far"`` past the longest time stated (``chance_in_limits`` is then
+        None: no chance is stated).
+    storage_needed : float or None
+        With ``"far"``: the storage time that would support the prediction.
+    chance_in_production : float or None
+        The chance that one production batch (factors drawn from their
+        production spread) lands within this goal's limits; None when no factor
+        spreads (then it equals ``chance_in_limits``).
     """
 
     name: str
@@ -62,6 +74,9 @@ class ResponseOutcome:
     chance_in_limits: float | None
     transmitted_sd: float | None = None
     mean_shift: float | None = None
+    extrapolated: str = ""
+    storage_needed: float | None = None
+    chance_in_production: float | None = None
 
 
 @dataclass(frozen=True)
@@ -111,6 +126,10 @@ class Solution:
         ``settings``, the rounded recipe.
     found_desirability : float or None
         D at ``found_settings``.
+    factor_chance_production : dict
+        Factor name -> the chance that the factor, made with its production
+        spread, lands within its own goal's limits (factors with a goal, when
+        some factor spreads): the factor rows behind ``chance_all_production``.
     """
 
     rank: int
@@ -130,6 +149,14 @@ class Solution:
     d_given_up: float = 0.0
     found_settings: dict = field(default_factory=dict)
     found_desirability: float | None = None
+    factor_chance_production: dict = field(default_factory=dict)
+
+    @property
+    def chance_withheld(self) -> bool:
+        """True when a goal's predicted time lies past what its storage study supports:
+        then no chance is stated for it, nor for every limit at once."""
+        return any(o.extrapolated == "far" and o.goal != "none"
+                   for o in self.responses.values())
 
     def to_dict(self, digits: int = 6) -> dict:
         """JSON-ready dict in the CLI's shape (this solution's own warnings only)."""
@@ -146,9 +173,14 @@ class Solution:
                 name: {"predicted": r(o.predicted), "desirability": r(o.desirability),
                        "ci": [r(o.ci[0]), r(o.ci[1])], "pi": [r(o.pi[0]), r(o.pi[1])],
                        "chance_in_limits": r(o.chance_in_limits), "goal": o.goal,
-                       "transmitted_sd": r(o.transmitted_sd), "mean_shift": r(o.mean_shift)}
+                       "transmitted_sd": r(o.transmitted_sd), "mean_shift": r(o.mean_shift),
+                       "extrapolated": o.extrapolated,
+                       "storage_needed": r(o.storage_needed),
+                       "chance_in_production": r(o.chance_in_production)}
                 for name, o in self.responses.items()},
             "factor_desirability": {k: r(v) for k, v in self.factor_desirability.items()},
+            "factor_chance_production": {k: r(v) for k, v in
+                                         self.factor_chance_production.items()},
             "chance_all": r(self.chance_all),
             "chance_all_production": r(self.chance_all_production),
             "d_given_up": r(self.d_given_up),
@@ -292,7 +324,9 @@ class OptimizationResult:
             if self.aim == "production":
                 head = ("Most likely to hold in production" if s.rank == 1 else
                         "Best balance" if s.d_given_up == 0 else f"Alternative {s.rank - 1}")
-            chance = "" if s.chance_all is None else \
+            chance = (f", chance all within limits {NOT_STATED} (a time past what the "
+                      "storage study supports: see the note)") if s.chance_withheld else \
+                "" if s.chance_all is None else \
                 f", chance all within limits {chance_text(s.chance_all)}"
             if s.chance_all_production is not None:
                 chance += f", in production {chance_text(s.chance_all_production)}"
@@ -310,20 +344,32 @@ class OptimizationResult:
                 lines.append(f"  {name:<18} {shown:>12}   " + (
                     f"(coded {code})" if share is None else f"({share:.2%} of the total)"))
             lines.append(f"  {'response':<18} {'predicted':>10} {'d':>6}  "
-                         f"{'prediction interval':>23} {'chance':>8}"
-                         + (f" {'spread SD':>10} {'shift':>9}" if spread else ""))
+                         f"{'prediction interval':>23} {'chance':>10}"
+                         + (f" {'in production':>13} {'spread SD':>10} {'shift':>9}"
+                            if spread else ""))
             for name, o in s.responses.items():
                 d = "-" if o.desirability is None else f"{o.desirability:.3f}"
-                ch = chance_text(o.chance_in_limits)
+                far = o.extrapolated == "far" and o.goal != "none"
+                ch = NOT_STATED if far else chance_text(o.chance_in_limits)
                 pi = pair_text(*o.pi)
                 extra = ""
                 if spread:
-                    extra = (f" {_g_or_dash(o.transmitted_sd):>10} "
+                    extra = (f" {NOT_STATED if far else chance_text(o.chance_in_production):>13}"
+                             f" {_g_or_dash(o.transmitted_sd):>10} "
                              f"{_g_or_dash(o.mean_shift, signed=True):>9}")
-                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>8}"
+                lines.append(f"  {name:<18} {o.predicted:>10.4g} {d:>6}  {pi:>23} {ch:>10}"
                              + extra)
+            # a factor's own goal is a row like a response's: its limits count in
+            # the chance of all at once (in production the factor strays from them)
             for name, d in s.factor_desirability.items():
-                lines.append(f"  factor goal {name}: d = {d:.3f}")
+                value = s.settings[name]
+                inside = "-" if d is None else chance_text(1.0 if d > 0 else 0.0)
+                extra = ""
+                if spread:
+                    extra = (f" {chance_text(s.factor_chance_production.get(name)):>13}"
+                             f" {'-':>10} {'-':>9}")
+                lines.append(f"  {name:<18} {value:>10.4g} {d:>6.3f}  "
+                             f"{'(factor goal)':>23} {inside:>10}" + extra)
             if s.out_of_limits:
                 lines.append("  outside limits: " + ", ".join(s.out_of_limits))
             for w in s.warnings:
@@ -338,6 +384,22 @@ class OptimizationResult:
             lines.append(f"chances: {a}")
         lines.append("cautions: " + FOOD_CAUTION)
         return "\n".join(lines).lstrip("\n")
+
+
+def fewer_solutions_text(result, asked: int, min_distance: float = 0.25) -> str:
+    """Why fewer solutions are listed than ``asked`` ('' when there are enough).
+
+    The alternatives are distinct peaks of D: settings closer than
+    ``min_distance`` coded units to a better one belong to the same peak and are
+    merged (``optimize``), so a smooth D with one or two peaks gives one or two.
+    """
+    n = len(result.solutions)
+    if n >= asked:
+        return ""
+    what = "one setting stands" if n == 1 else f"{n} distinct settings stand"
+    return (f"{asked} solutions were asked for, and {what} out: every other good "
+            f"setting lies within {min_distance:g} coded units of a better one, on the "
+            "same peak of D, so listing it would repeat that solution with small changes")
 
 
 def _not_informed_text(n: dict) -> str:
@@ -411,13 +473,21 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     # predicted, ci_low, ci_high, pi_low, pi_high), so no table is indexed per cell.
     intervals = {r.name: _interval_array(models[r.name], X, study.confidence)
                  for r in study.responses if r.name in models}
+    # a shelf life past what the storage supports gets no chance (derive/reach.py)
+    predicted = {n: a[:, 0] for n, a in intervals.items()}
+    chances = withhold_beyond_reach(study, chances, predicted)
+    reach_state = beyond_reach(study, predicted)
     chance_col = {n: i for i, n in enumerate(chances.responses)}
     spread_sd = {f.name: f.production_sd for f in study.factors
                  if not f.is_categorical and f.production_sd}
-    held = spread = None
+    held = spread = prod = None
+    factor_held = {}
     if spread_sd:
         spread = transmitted_spread(study, models, X, seed=seed)
-        held = production_chance(study, models, X, draws=draws, seed=seed).all
+        prod = withhold_beyond_reach(study, production_chance(
+            study, models, X, draws=draws, seed=seed), predicted)
+        held = prod.all
+        factor_held = factor_goal_chances(study, X, draws=draws, seed=seed)
     elif rank_by == "production" or aim == "production":
         held = chances.all  # no spread: the chance in production is the ordinary one
     # by D at the recipes (rounding can reorder peaks of nearly equal D)
@@ -458,6 +528,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 shift = float(spread.mean_shift[i, col_s])
             pred, ci_low, ci_high, pi_low, pi_high = intervals[r.name][i].tolist()
             col = names.index(r.name) if r.name in names else None
+            state = str(reach_state[r.name][i]) if r.name in reach_state else ""
             outcomes[r.name] = ResponseOutcome(
                 name=r.name, goal=r.goal.kind if col is not None else "none",
                 predicted=pred,
@@ -466,7 +537,12 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
                 pi=(pi_low, pi_high),
                 chance_in_limits=(_finite(chances.each[i, chance_col[r.name]])
                                   if r.name in chance_col else None),
-                transmitted_sd=sd, mean_shift=shift)
+                transmitted_sd=sd, mean_shift=shift, extrapolated=state,
+                storage_needed=(study.reach[r.name].needed(pred) if state == "far"
+                                else None),
+                chance_in_production=(_finite(prod.each[i, chance_col[r.name]])
+                                      if prod is not None and r.name in chance_col
+                                      else None))
             predictions[r.name] = pred
         factor_d = {n: float(d[i, k]) for k, (kind, n) in enumerate(problem.columns)
                     if kind == "factor"}
@@ -477,7 +553,9 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             factor_desirability=factor_d,
             chance_all=_finite(chances.all[i]) if chances.responses else None,
             out_of_limits=out, shortfall=float(S[i]),
-            warnings=tuple(_point_warnings(study, problem, x, D[i])),
+            warnings=tuple(_point_warnings(study, problem, x, D[i])) + tuple(
+                study.reach[n].sentence(o.predicted) for n, o in outcomes.items()
+                if o.extrapolated and o.goal != "none"),
             proportions={f.name: settings[f.name] / f.total for f in study.factors
                          if is_component(f)},
             chance_all_production=(_finite(held[i]) if held is not None and
@@ -486,7 +564,8 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
             found_settings={f.name: (settings[f.name] if f.is_categorical else
                                      float(f.centre + f.half_range * found[i, j]))
                             for j, f in enumerate(study.factors)},
-            found_desirability=float(D_found[i])))
+            found_desirability=float(D_found[i]),
+            factor_chance_production={n: float(c[i]) for n, c in factor_held.items()}))
     assumptions = (
         f"{chances.assumption}; each chance is for one batch made at the settings and "
         f"measured once, from the models' prediction distributions ({chances.draws} "
@@ -521,67 +600,6 @@ def _interval_array(model, X, level) -> np.ndarray:
         return np.asarray(fast(X, level=level), dtype=float)
     return model.intervals(X, level=level)[
         ["predicted", "ci_low", "ci_high", "pi_low", "pi_high"]].to_numpy(dtype=float)
-
-
-def _general_warnings(study, problem, models, fit) -> list[str]:
-    out = [BLEND_CAUTION] if getattr(study, "mixture", None) is not None else []
-    skipped = getattr(fit, "skipped", {}) or {}
-    for r in study.responses:
-        if r.goal.active and r.name not in models:
-            why = skipped.get(r.name, "it has no fitted model")
-            out.append(f"response '{r.name}' has a goal but was left out of the search: "
-                       f"{why}")
-    for kind, name in problem.columns:
-        if kind != "response":
-            continue
-        r2 = getattr(models[name], "pred_r2_", None)
-        if r2 is not None and np.isfinite(r2) and r2 < 0.5:
-            out.append(f"the model for '{name}' predicts poorly (predicted R2 = {r2:.2f}, "
-                       "below 0.5) yet takes part in the search: treat its prediction "
-                       "and the balance it drives with caution")
-    return out
-
-
-def _point_warnings(study, problem, x, D) -> list[str]:
-    out = []
-    runs = study.runs
-    out += bound_warnings(study, x)  # components: their own bounds (search/mixture.py)
-    for pos, j in enumerate(problem.num):
-        f = study.factors[j]
-        if is_component(f):
-            continue
-        value = f.centre + f.half_range * x[j]
-        unit = f" {f.unit}" if f.unit else ""
-        for side, bound, outward in (("low", problem.lo[pos], -1.0),
-                                     ("high", problem.hi[pos], 1.0)):
-            if abs(x[j] - bound) > _EDGE:
-                continue
-            beyond = x.copy()
-            beyond[j] += outward * 0.05
-            D_beyond = problem.score(problem.values(beyond[None, :]))[0][0]
-            edge = f.centre + f.half_range * bound
-            tested_edge = (f.low if side == "low" else f.high)
-            inside_tests = (edge > f.low + 1e-9) if side == "low" else (edge < f.high - 1e-9)
-            if inside_tests:
-                how = (f"widen its search range (search = [min, max]) up to the tested "
-                       f"{_g(tested_edge)}{unit}")
-            else:
-                how = "if such settings are possible, extend the range there with new runs"
-            if D_beyond > D + 1e-9:
-                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
-                           f"({_g(edge)}{unit}) and D would still rise beyond it: {how}")
-            else:
-                out.append(f"'{f.name}' sits at the {side} edge of the searched region "
-                           f"({_g(edge)}{unit}), where the models rest on few runs: {how} "
-                           "to see whether the balance holds beyond it")
-        if runs is not None and f.name in runs:
-            tested = runs[f.name].to_numpy(float)
-            if value < tested.min() - 1e-9 * f.half_range or \
-                    value > tested.max() + 1e-9 * f.half_range:
-                out.append(f"'{f.name}' = {_g(value)}{unit} lies outside the tested "
-                           f"settings ({_g(tested.min())}..{_g(tested.max())}{unit}): the "
-                           "predictions there extrapolate the models")
-    return out
 
 
 def _finite(x) -> float | None:

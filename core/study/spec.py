@@ -273,6 +273,9 @@ class Study:
     mixture: object | None = None
     # the runs' column naming the whole plot (batch) each run shares, or None
     whole_plot: str | None = None
+    # response name -> derive.reach.StorageReach, for each time derived from storage
+    # (how far past the last storage time it may be stated)
+    reach: dict = field(default_factory=dict, compare=False, repr=False)
 
     def whole_plot_labels(self) -> np.ndarray | None:
         """Each run's whole plot as text when the study names a whole-plot column."""

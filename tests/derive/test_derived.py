@@ -114,10 +114,10 @@ min_points = 2
     h12 = _col(study, "h12")
     # R4: zero-order line through (0, 18) and (2, 19) gives 18 + 0.5 * 12 = 24
     assert h12["R4"] == pytest.approx(24.0)
-    assert any("EXTRAPOLATED to week 12" in n and "R4" in n for n in study.notes)
+    assert any("extrapolated to week 12" in n and "R4" in n for n in study.notes)
     table = derivation_table(study, "h12")
     assert list(table.columns) == DERIVED_COLUMNS
-    assert table.set_index("run").loc["R4", "flag"].startswith("EXTRAPOLATED")
+    assert table.set_index("run").loc["R4", "flag"].startswith("extrapolated")
 
 
 def test_change_absolute_and_relative(tmp_path):
@@ -182,10 +182,12 @@ min_points = 2
     assert t["R4"] == pytest.approx((30 - 18) / 0.5)
     notes = "\n".join(study.notes)
     # 40 weeks is beyond 1.5 times the last measured week (12): the stronger flag
-    assert ("EXTRAPOLATED FAR BEYOND THE DATA: the fitted curve reaches 30 after more "
-            "than 1.5 times the last measured week") in notes
+    # our rule: stated up to 1.5 x 12 = 18 weeks (stricter than ICH Q1E (2003)
+    # 2.4.1.2, up to twice and at most 12 months beyond the period covered)
+    assert ("extrapolated far beyond the data: the fitted curve reaches 30 after 18, the "
+            "longest the storage supports (1.5 times the last measured week)") in notes
     assert "R1 (week 40, measured to 12)" in notes and "R2 (" not in notes.split(
-        "EXTRAPOLATED")[1].split("\n")[0]
+        "extrapolated far")[1].split("\n")[0]
     assert SHELF_LIFE_CAUTION in notes
 
 

@@ -97,7 +97,48 @@ def test_demo_ranks_every_model_of_every_response():
 
     study = load_study(DEMO)
     comparisons, skipped = compare_models(study, responses=["liking"], restarts=1)
-    rows = comparisons["liking"].rows
-    r2 = [r["loo_r2"] for r in rows]
+    c = comparisons["liking"]
+    rows = c.rows
+    # the demo is a two-level factorial with centre points: the quadratic's three
+    # squares are one column in these runs (each is 1 at every run but the centre
+    # points; common practice), so it is listed last and never named best
+    assert rows[-1]["model"] == "quadratic" and rows[-1]["confounded"]
+    r2 = [r["loo_r2"] for r in rows[:-1]]
     assert r2 == sorted(r2, reverse=True)
+    assert c.best == rows[0]["model"] != "quadratic"
     assert {r["model"] for r in rows} == {"main", "interactions", "quadratic", "smooth"}
+
+
+def test_the_model_in_use_scores_what_its_fit_reports():
+    # One leave-one-out R2 everywhere: the comparison's figure of each model equals
+    # the predicted R2 of that model's own fit (PRESS for a polynomial, Montgomery,
+    # Introduction to Linear Regression Analysis; refits without each run for a
+    # smooth model), for a plain study and a blend (Scheffe terms).
+    from tradeoff import load_study
+    from tradeoff.model.study_fit import fit_response
+
+    for path, name in ((DEMO, "hardness_12w"),
+                       (DEMO.parent / "flour_blend.toml", "specific_volume")):
+        study = load_study(path)
+        c = compare_response(study, name, models=("main", "smooth"))
+        scores = {r["model"]: r["loo_r2"] for r in c.rows}
+        for model in ("main", "smooth"):
+            fitted = fit_response(study, name, terms=model)
+            assert scores[model] == pytest.approx(fitted.pred_r2_, rel=1e-9), (path, model)
+
+
+def test_smooth_leave_one_out_refits_every_hyperparameter(write_study):
+    # The figure a smooth fit reports is the manual loop of test_smooth_cross_
+    # validation_is_a_refit_without_each_run: each run left out, refitted from the
+    # whole-data kernel, predicted.
+    study = _load(write_study)
+    X = study.coded().to_numpy()[:14]
+    y = study.runs["liking"].to_numpy(float)[:14]
+    whole = SmoothModel(factor_names=["sugar", "acid"], restarts=1).fit(X, y)
+    loop = np.array([SmoothModel(factor_names=["sugar", "acid"], restarts=0,
+                                 kernel=whole.kernel_, refit_loo=False)
+                     .fit(np.delete(X, i, 0), np.delete(y, i)).predict(X[i:i + 1])[0]
+                     for i in range(len(y))])
+    np.testing.assert_allclose(whole.loo_refit_, loop, rtol=1e-10)
+    assert whole.loo_r2_ == pytest.approx(1 - np.sum((y - loop) ** 2)
+                                          / np.sum((y - y.mean()) ** 2), rel=1e-10)

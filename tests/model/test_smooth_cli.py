@@ -33,7 +33,7 @@ def test_fit_compare_json_and_text_name_the_best(write_study, capsys):
     r = json.loads(capsys.readouterr().out)["responses"]["liking"]
     rows = r["comparison"]
     assert {row["model"] for row in rows} == {"main", "interactions", "quadratic", "smooth"}
-    assert all(set(row) == {"model", "loo_r2", "rmse"} for row in rows)
+    assert all(set(row) == {"model", "loo_r2", "rmse", "confounded"} for row in rows)
     assert r["best_model"] == rows[0]["model"] == "smooth"
     assert r["comparison_method"] == "leave-one-out"
     assert main(["fit", str(path), "--compare"]) == 0

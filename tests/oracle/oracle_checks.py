@@ -18,7 +18,7 @@ import pandas as pd
 from oracle_pages import check_report_html, check_report_xlsx
 from oracle_reference import (D_reference, TermError, chance_reference, d_reference,
                               goal_limits, interval_reference, shortfall_reference,
-                              reml_reference, term_column)
+                              reml_reference, storage_reach_reference, term_column)
 
 __all__ = ["check_solutions", "check_fit", "check_next", "check_plan", "check_confirm",
            "check_report_html", "check_report_xlsx", "check_unused", "check_display",
@@ -279,13 +279,43 @@ def _interval_tol(df) -> float:
     return 1e-7 if df < 1e5 else 5e-6
 
 
+def _beyond_storage(generated, fit, X) -> set:
+    """Goal responses derived as a time from storage whose prediction at X lies past
+    what the storage supports (oracle_reference.storage_reach_reference)."""
+    out = set()
+    storage = generated.files.get("storage.csv")
+    if storage is None:
+        return out
+    for r in generated.spec.get("responses", []):
+        if r.get("derive") not in ("shelf_life", "time_to_limit") or \
+                r["name"] not in fit.models:
+            continue
+        reach = storage_reach_reference(storage, r.get("at_temperature"))
+        if float(np.asarray(fit.models[r["name"]].predict(X)).ravel()[0]) > reach:
+            out.add(r["name"])
+    return out
+
+
 def _check_chances(generated, study, fit, X, s, goals, where, outcome) -> None:
     chances = []
+    far = _beyond_storage(generated, fit, X)
     for kind, name, g in goals:
         if kind != "response":
             continue
         o = s.responses[name]
         model = fit.models[name]
+        if name in far:
+            # past what the storage supports: no chance, for it or for all at once
+            if o.chance_in_limits is not None or s.chance_all is not None or \
+                    o.extrapolated != "far":
+                outcome.fail("chance", "optimize", f"{where}: '{name}' lies past the "
+                             f"storage study's reach, yet a chance {o.chance_in_limits} "
+                             f"(all {s.chance_all}, flag '{o.extrapolated}') is stated")
+            chances.append(None)
+            continue
+        if o.extrapolated == "far":
+            outcome.fail("chance", "optimize", f"{where}: '{name}' flagged past the "
+                         "storage study's reach, which the storage table does not say")
         mean, se, sigma, df = model.predictive(X)
         if not (np.isfinite(sigma) and df and df > 0):
             if o.chance_in_limits is not None:

@@ -158,9 +158,13 @@ def check_report_html(generated, study, printed: dict, page: str, outcome) -> No
     col = predictions["head"].index
     expected = []
     for name, o in best["responses"].items():
+        # past what the storage supports: no chance, the storage needed instead
+        far = o.get("extrapolated") == "far" and o.get("goal") != "none"
+        chance = _chance(o["chance_in_limits"]) if not far else (
+            f"not stated (store to {_g(o['storage_needed'])} "
+            f"{study.response(name).unit})".replace(" )", ")"))
         expected.append((name, _g(o["predicted"]), _g(o["desirability"], 3),
-                         _chance(o["chance_in_limits"]), f"{_g(o['pi'][0])} .. "
-                         f"{_g(o['pi'][1])}"))
+                         chance, f"{_g(o['pi'][0])} .. {_g(o['pi'][1])}"))
     for name, d in best["factor_desirability"].items():
         expected.append((name, _g(best["settings"][name]), _g(d, 3), None, None))
     chance_col = next((h for h in predictions["head"] if h.startswith("chance")), None)
@@ -226,7 +230,11 @@ def check_report_xlsx(generated, study, printed: dict, path, outcome) -> None:
                 continue
             seen += 1
             r = match[0]
-            pairs = {"D": s["desirability"], "chance all within limits": s["chance_all"],
+            # past what the storage supports no chance is stated (derive/reach.py)
+            withheld = any(v.get("extrapolated") == "far" and v.get("goal") != "none"
+                           for v in s["responses"].values())
+            pairs = {"D": s["desirability"], "chance all within limits":
+                     "not stated" if withheld else s["chance_all"],
                      "predicted": o["predicted"], "desirability": o["desirability"],
                      "pi low": o["pi"][0], "pi high": o["pi"][1], "ci low": o["ci"][0],
                      "ci high": o["ci"][1], "chance within limits": o["chance_in_limits"]}

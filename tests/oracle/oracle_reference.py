@@ -129,6 +129,25 @@ def chance_reference(mean, se, sigma, df, goal: dict, transform: str = "none") -
     return np.maximum(upper - lower, 0.0)
 
 
+def storage_reach_reference(storage_csv: bytes, at_temperature=None) -> float:
+    """The longest shelf life a storage study supports, in its weeks: 1.5 times the
+    last storage week at the temperature asked, and at most 12 months beyond it
+    (our rule, stricter than ICH Q1E (2003) 2.4.1.2: up to twice, at most 12 months
+    beyond). A month is a twelfth of 365.2425 days (common practice)."""
+    import io
+
+    import pandas as pd
+
+    table = pd.read_csv(io.BytesIO(storage_csv))
+    table = table[table["value"].notna()]
+    if at_temperature is not None and "temp_c" in table:
+        at = pd.to_numeric(table["temp_c"], errors="coerce")
+        if (at == at_temperature).any():
+            table = table[at == at_temperature]
+    last = float(table["week"].max())
+    return min(1.5 * last, last + 12 * (365.2425 / 12) / 7)
+
+
 def _back(z, transform):
     z = np.asarray(z, dtype=float)
     if transform == "log":

@@ -183,3 +183,70 @@ def test_goals_on_factors_only_give_a_batch(write_study):
              else (6796.875181 - fat) / (6796.875181 - 6452.381606))
         assert s.desirability == pytest.approx(max(d, 0.0), abs=1e-9)
         assert "uncertain" not in s.why
+
+
+def test_negligible_improvement_says_so_and_goes_where_the_mean_is_least_sure(write_study):
+    # Every run made already has D = 1 (liking far above the goal's upper end), so no
+    # setting can improve D (EI = 0): each run goes where the variance of the fitted
+    # mean is largest. Checked against statsmodels' own standard error of the mean
+    # of the same quadratic least-squares fit, over a fine grid of allowed settings.
+    import statsmodels.api as sm
+    from tradeoff import load_study
+
+    spec = PEAKED_STUDY.format(model="quadratic").replace(
+        "lower = 4\nupper = 8", "lower = -100\nupper = -50")
+    study = load_study(write_study(spec, peaked_runs()))
+    batch = next_batch(study, runs=2, seed=3, draws=64)
+    assert [s.purpose for s in batch.runs] == ["learn", "learn"]
+    assert batch.summary.startswith("No setting is expected to raise D by 0.001")
+    assert "Confirmation runs at the recommended settings" in batch.summary
+    assert batch.to_dict()["runs"][0]["purpose"] == "learn"
+
+    def design(X):
+        a, b = X[:, 0], X[:, 1]
+        return np.column_stack([np.ones(len(X)), a, b, a * b, a * a, b * b])
+
+    made = study.coded().to_numpy()
+    ols = sm.OLS(study.runs["liking"].to_numpy(float), design(made)).fit()
+    g = np.linspace(-1, 1, 81)
+    grid = np.array([(a, b) for a in g for b in g])
+    far = np.linalg.norm(grid[:, None, :] - made[None, :, :], axis=2).min(axis=1) >= 0.3
+    se_grid = ols.get_prediction(design(grid[far])).se_mean
+    first = np.array([[batch.runs[0].coded["sugar"], batch.runs[0].coded["acid"]]])
+    se_first = ols.get_prediction(design(first)).se_mean[0]
+    # the candidates are 2048 Sobol points, not the grid: within 3 % of the grid's max
+    assert se_first >= 0.97 * se_grid.max()
+
+
+def test_a_batch_holding_a_factor_nearly_alike_says_why():
+    from types import SimpleNamespace
+
+    from tradeoff import load_study
+    from tradeoff.search.next_batch import _batch_notes
+
+    study = load_study(DEMO)
+
+    def run(protein, glycerol):
+        return SimpleNamespace(settings={"protein": protein, "glycerol": glycerol,
+                                         "binder": "rice syrup",
+                                         "mix_temp": 40.0 + 2.5 * glycerol},
+                               purpose="improve")
+
+    out = [run(21.0, 4.0), run(21.4, 7.0), run(21.8, 10.0)]   # protein within 0.8 of 10
+    notes = _batch_notes(study, out, 0.3)
+    assert len(notes) == 1 and "'protein' (21 to 21.8 %)" in notes[0]
+    assert "'glycerol'" not in notes[0] and "'mix_temp'" not in notes[0]
+    assert "at least 0.3 coded units" in notes[0]
+    assert _batch_notes(study, [run(20, 4), run(25, 7), run(30, 10)], 0.3) == []
+
+
+def test_a_run_already_made_is_recognised():
+    from tradeoff import load_study
+    from tradeoff.search.next_batch import made_run_at
+
+    study = load_study(DEMO)
+    coded = study.coded()
+    row = coded.iloc[6]
+    assert made_run_at(study, row.to_dict()) == str(study.runs["run"].iloc[6])
+    moved = row.to_dict() | {"protein": row["protein"] + 0.1}
+    assert made_run_at(study, moved) is None

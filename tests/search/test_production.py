@@ -88,3 +88,28 @@ def test_spread_lowers_the_chance_on_a_slope():
     assert with_spread == pytest.approx(spread_exact, abs=4 * _se(spread_exact, 40000))
     assert without == pytest.approx(still_exact, abs=4 * _se(still_exact, 40000))
     assert with_spread < without
+
+
+def test_factor_goal_rows_explain_the_chance_in_production():
+    # factor x0 (0..10, production SD 1.0 = 0.2 coded) has its own goal: at least 6.
+    # Set at 6.5, it lands below 6 with P = Phi((6 - 6.5) / 1.0) (normal; common
+    # practice). The response does not depend on x0, so the chance of all at once
+    # is the product of the two rows (independent draws).
+    from tradeoff.search.production import factor_goal_chances
+
+    study = _study([1.0, 0.0], [{"name": "y", "goal": "maximize", "lower": 8,
+                                 "upper": 12}])
+    from tradeoff.study.spec import Goal
+
+    study = study.with_goal("x0", Goal("maximize", lower=6, upper=10))
+    model = LinearModel(9.0, [0.0, 1.0], 0.5)
+    X = np.array([[0.3, 0.0]])                     # x0 = 5 + 5 * 0.3 = 6.5
+    draws = 200_000
+    rows = factor_goal_chances(study, X, draws=draws, seed=2)
+    exact = stats.norm.sf((6 - 6.5) / 1.0)
+    assert rows["x0"][0] == pytest.approx(exact, abs=4 * _se(exact, draws))
+    y_row = stats.norm.sf((8 - 9.0) / 0.5)
+    together = production_chance(study, {"y": model}, X, draws=draws, seed=2).all[0]
+    assert together == pytest.approx(exact * y_row, abs=4 * _se(exact * y_row, draws))
+    # the rows use the very draws of the joint chance: it never exceeds a row
+    assert together <= rows["x0"][0] + 1e-12

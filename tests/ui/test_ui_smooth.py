@@ -41,7 +41,7 @@ def test_make_next_suggests_runs_with_a_run_sheet():
     at.number_input(key="r_next_n").set_value(3).run()
     at.button(key="r_next_go").click().run()
     assert not at.exception and not at.error, [e.value for e in at.error]
-    table = next(d.value for d in at.dataframe if "expected improvement" in d.value.columns)
-    assert len(table) == 3 and {"expected improvement", "protein"} <= set(table)
+    table = next(d.value for d in at.dataframe if "expected gain in D" in d.value.columns)
+    assert len(table) == 3 and {"expected gain in D", "Protein content (%)"} <= set(table)
     assert list(table["run"]) == ["R21", "R22", "R23"]
     assert any(b.label.startswith("Run sheet") for b in at.get("download_button"))

@@ -126,8 +126,7 @@ if whole:  # runs sharing a batch: a random shift per whole plot (model/wholeplo
         st.caption("A hard-to-change factor is tested against the variation between "
                    "whole plots; every prediction interval and chance is for a new run "
                    f"made in a new batch, so it carries both variances ({whole['method']}).")
-for warning in report["warnings"]:
-    st.warning(text.plain(warning))
+panels.show_notices(report["warnings"])  # one box per kind (a storage flag among them)
 if report.get("reduction"):
     dropped = report["reduction"]["dropped"]
     st.info("Reduction dropped: " + text.plain(", ".join(f"{t} ({p})"

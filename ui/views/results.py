@@ -8,15 +8,17 @@ from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff.maps.pictures import limits_note
 from tradeoff.maps.trace_picture import trace_note
-from tradeoff.search.chance import CHANCE_RULE, chance_text
+from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
+from tradeoff.search.result import fewer_solutions_text
 from tradeoff_ui import cached, charts, panels, text, triangle
-from tradeoff_ui.shown import num, span
+from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
 
 # -- read state ---------------------------------------------------------------
 st.title("Recommended settings")
-st.info(CAUTION, icon=":material/info:")
+cautions = st.empty()  # the page's one caution box, filled once its cautions are known
+cautions.info(CAUTION, icon=":material/info:")
 try:
     study = cached.current_study()
 except TradeoffError as exc:
@@ -69,8 +71,11 @@ st.caption("D is the overall desirability (0 to 1, higher is better). 'All limit
            "is the estimated chance that one batch made at these settings lands "
            "within the limits of every response with a goal, allowing for the scatter "
            "the runs showed. " + CHANCE_RULE)
+_held_back = [s.chance_withheld for s in result.solutions]
 shown = pd.DataFrame({"solution": table["solution"], "D": table["D"].map(lambda v: num(v, 3)),
-                      "all limits met": table["chance_all"].map(chance_text)})
+                      "all limits met": [
+                          NOT_STATED if w else chance_text(c)
+                          for w, c in zip(_held_back, table["chance_all"])]})
 if "chance_all_production" in table:
     spread_words = ", ".join(
         text.plain(f"{study.factor(k).label} SD {v:g} {study.factor(k).unit}".strip())
@@ -80,7 +85,8 @@ if "chance_all_production" in table:
                 "'Chance in production': no factor has a production spread yet (set one "
                 "on the targets view), so it allows for the run-to-run scatter only.")
                + " 'D given up' is how much lower D is than at the best balance.")
-    shown["chance in production"] = table["chance_all_production"].map(chance_text)
+    shown["chance in production"] = [NOT_STATED if w else chance_text(c) for w, c in
+                                     zip(_held_back, table["chance_all_production"])]
 if "d_given_up" in table:
     shown["D given up"] = table["d_given_up"].map(lambda v: num(v, 3))
 for f in study.factors:
@@ -88,14 +94,18 @@ for f in study.factors:
     shown[f.label] = (table[f.name].map(lambda v, u=f.unit: f"{num(v)} {u}".strip())
                       if f.name in numeric else table[f.name])
 labels_of = {x.name: x.label for x in (*study.factors, *study.responses)}
-shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
-                           for s in result.solutions]
+if any(s.out_of_limits for s in result.solutions):  # a column of blanks only takes room
+    shown["outside limits"] = [", ".join(labels_of.get(n, n) for n in s.out_of_limits)
+                               for s in result.solutions]
 st.dataframe(shown, hide_index=True, key="r_solutions")
 if result.steps:  # the recipes are rounded (tradeoff.search.rounding)
     st.caption("Settings are rounded to steps a lab can weigh or set (" + text.plain(", ".join(
         f"{study.factor(k).label} {v:g} {study.factor(k).unit}".strip()
         for k, v in result.steps.items())) + "; set another with a step line under the "
         "factor in the study file). Every figure here is for the rounded recipe.")
+_fewer = fewer_solutions_text(result, int(ss["top"]))
+if _fewer:
+    st.caption(text.plain(_fewer[:1].upper() + _fewer[1:] + "."))
 
 labels = [s.label for s in result.solutions]
 chosen_label = st.selectbox("Look closer at", labels,
@@ -104,32 +114,64 @@ ss["chosen"] = labels.index(chosen_label)
 chosen = result.solutions[ss["chosen"]]
 
 pct = f"{study.confidence:.0%}"
+production = chosen.chance_all_production is not None
 rows = []
 for name, o in chosen.responses.items():
     r = study.response(name)
+    far = o.extrapolated == "far" and o.goal != "none"
     rows.append({"response": r.display(), "predicted": num(o.predicted),
                  f"mean ({pct})": span(*o.ci), f"one batch ({pct})": span(*o.pi),
-                 "desirability": num(o.desirability, 3),
-                 "chance in limits": chance_text(o.chance_in_limits)})
+                 "d": num(o.desirability, 3),
+                 "chance in limits": NOT_STATED if far else
+                 chance_text(o.chance_in_limits)})
+    if production:
+        rows[-1]["chance in production"] = NOT_STATED if far else chance_text(
+            o.chance_in_production if o.chance_in_production is not None
+            else o.chance_in_limits)
     if o.transmitted_sd is not None:
         rows[-1].update({"spread SD in production": num(o.transmitted_sd),
                          "mean shift": num(o.mean_shift)})
+# a factor's own goal is a row too: its limits count in the chance of all at once
+for name, d in chosen.factor_desirability.items():
+    f = study.factor(name)
+    rows.append({"response": f"{f.display()}, factor goal", "predicted":
+                 num(chosen.settings[name]), f"mean ({pct})": "", f"one batch ({pct})": "",
+                 "d": num(d, 3),
+                 "chance in limits": chance_text(1.0 if d > 0 else 0.0)})
+    if production:
+        rows[-1]["chance in production"] = chance_text(
+            chosen.factor_chance_production.get(name, 1.0 if d > 0 else 0.0))
+_all = (NOT_STATED if chosen.chance_withheld else
+        None if chosen.chance_all is None else chance_text(chosen.chance_all))
+_prod = (None if chosen.chance_all_production is None else
+         NOT_STATED if chosen.chance_withheld else chance_text(chosen.chance_all_production))
 st.markdown(f"**{text.plain(chosen.label)}**: D = {chosen.desirability:.3f}"
-            + ("" if chosen.chance_all is None else
-               f", chance that every response lands within its limits: "
-               f"**{chance_text(chosen.chance_all)}**")
-            + ("" if chosen.chance_all_production is None else
-               f"; in production: **{chance_text(chosen.chance_all_production)}**"))
-st.caption(f"'mean' is the {pct} confidence interval of the average of many batches; "
+            + ("" if _all is None else
+               f", chance that every response lands within its limits: **{_all}**")
+            + ("" if _prod is None else f"; in production: **{_prod}**"))
+# a prediction past the storage study: said first, beside the figures it concerns
+_reach_notes = [study.reach[n].sentence(o.predicted, f"{study.response(n).display()}")
+                for n, o in chosen.responses.items()
+                if o.extrapolated and o.goal != "none"]
+for note in _reach_notes:
+    st.warning(text.plain(note[:1].upper() + note[1:]), icon=":material/schedule:")
+st.caption(f"d is each goal's desirability. 'mean' is the {pct} confidence interval of "
+           "the average of many batches; "
            f"'one batch' is the prediction interval for a single new batch (wider, "
-           "because one batch scatters).")
-st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_predictions")
-for w in (*chosen.warnings, *result.warnings):
-    st.warning(text.plain(w))
-for note in result.not_informed_notes():  # a level choice the runs cannot judge
-    st.warning(text.plain(note))
-for name, reason in fitted.skipped.items():
-    st.warning(text.plain(f"{name} has no model and takes no part: {reason}"))
+           "because one batch scatters)."
+           + (" A factor with a goal of its own is a row too: in production it strays "
+              "from its setting and may leave its limits, which lowers the chance of "
+              "all at once." if production and chosen.factor_desirability else ""))
+st.dataframe(blank_none(pd.DataFrame(rows).fillna("")), hide_index=True,
+             key="r_predictions")
+_own = {study.reach[n].sentence(o.predicted) for n, o in chosen.responses.items()
+        if o.extrapolated and o.goal != "none"}
+panels.show_notices(
+    [w for w in (*chosen.warnings, *result.warnings) if w not in _own]
+    + list(result.not_informed_notes())  # a level choice the runs cannot judge
+    + [f"{name} has no model and takes no part: {reason}"
+       for name, reason in fitted.skipped.items()],
+    cautions=cautions, shown=(CAUTION,))
 if result.assumptions:
     st.caption("How the chances were worked out: "
                + text.plain(" ".join(result.assumptions)))
@@ -158,10 +200,16 @@ else:
                      format_func=lambda n: study.factor(n).display())
     held = {k: v for k, v in chosen.settings.items() if k not in (x, y)}
     fx, fy = study.factor(x), study.factor(y)
-    marks = pd.DataFrame({"what": [f"{best.label} (recommended)"],
-                          "x": [best.settings[x]], "y": [best.settings[y]]})
-    if chosen is not best:
-        marks.loc[1] = [f"{chosen.label} (chosen)", chosen.settings[x], chosen.settings[y]]
+    # the map is held at the chosen solution's other settings: mark the chosen one,
+    # and the recommendation only when it shares those settings (it lies on this map)
+    marks = pd.DataFrame({"what": [f"{chosen.label} (chosen)" if chosen is not best
+                                   else f"{best.label} (recommended)"],
+                          "x": [chosen.settings[x]], "y": [chosen.settings[y]]})
+    if chosen is not best and all(
+            best.settings[k] == v if isinstance(v, str) else
+            abs(best.settings[k] - v) <= 1e-6 * max(1.0, abs(v))
+            for k, v in held.items()):
+        marks.loc[1] = [f"{best.label} (recommended)", best.settings[x], best.settings[y]]
     try:
         if shown_value == "limits":
             lmap = cached.limits_map(study, fitted, x, y, held)
@@ -246,9 +294,11 @@ else:
                    + ". The model is extrapolating; predictions there are guesses.")
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")
-    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{chance_text(answer.chance_all)}**")
     t = answer.table
+    _far = {n for n, v in zip(t["response"], t["predicted"]) if n in study.reach
+            and study.response(n).goal.active and study.reach[n].status(v)[0] == "far"}
+    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
+                f"within its limits: **{NOT_STATED if _far else chance_text(answer.chance_all)}**")
     st.dataframe(pd.DataFrame({
         "response": [study.response(n).display() for n in t["response"]],
         "predicted": t["predicted"].map(num),
@@ -256,8 +306,9 @@ else:
         f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
         "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance in limits": t["chance_in_limits"].map(chance_text)}),
+        "chance in limits": [NOT_STATED if n in _far else chance_text(c) for n, c in
+                             zip(t["response"], t["chance_in_limits"])]}),
         hide_index=True, key="r_whatif_table")
 
 # -- make next ----------------------------------------------------------------------------
-panels.make_next(study, fitted)
+panels.make_next(study, fitted, result.best)

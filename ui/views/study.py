@@ -10,7 +10,7 @@ from tradeoff import ACCELERATED_CAUTIONS, TradeoffError
 from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
 from tradeoff.report.unused import unused_columns
-from tradeoff_ui import cached, charts, state, text
+from tradeoff_ui import cached, charts, panels, state, text
 from tradeoff_ui.shown import blank_none
 
 ss = st.session_state
@@ -108,8 +108,8 @@ except TradeoffError as exc:
 st.header(text.plain(study.name))
 if study.description:
     st.caption(text.plain(study.description))
-for note in study.notes:
-    st.warning(text.plain(note))
+# one box per kind of note, the cautions once (panels.show_notices)
+panels.show_notices(study.notes, cautions=st.empty())
 for col in unused_columns(study):  # a batch or day column often marks blocks
     st.info(text.plain(f"Column '{col['column']}' is not used: it might be "
                        f"{col['might_be']}"
@@ -141,7 +141,8 @@ st.dataframe(blank_none(pd.DataFrame(
 def _short(marks: str) -> str:
     """One word per kind of mark; the full text is listed under the table."""
     kinds = {"unusual" if m.startswith("unusual") else "outside the box"
-             if m.startswith("outside") else "blank" for m in marks.split("; ") if m}
+             if m.startswith("outside") else "extrapolated" if m.startswith("extrapolated")
+             else "blank" for m in marks.split("; ") if m}
     return ", ".join(sorted(kinds))
 
 
@@ -153,7 +154,9 @@ st.write("Settings as made and responses as measured. "
             "or an unusual one."))
 factors = [f.name for f in study.factors]
 responses = [r.name for r in study.responses if r.name in table]
-main = table[["run", *factors, *responses]].assign(mark=table["marks"].map(_short))
+# the mark next to the run id: a wide table must not hide it off to the right
+main = table[["run"]].assign(mark=table["marks"].map(_short)).join(
+    table[[*factors, *responses]])
 rows = min(len(main), 40)  # up to 40 runs show whole; longer tables scroll
 st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
              column_config={"mark": st.column_config.TextColumn("mark")})
@@ -175,7 +178,8 @@ if kinetics:
              "with a rate that follows the Arrhenius law. Lower and upper give each "
              "estimate's interval; the counts are storage times per temperature, time 0 "
              "included.")
-    st.info(" ".join(ACCELERATED_CAUTIONS))
+    if not any(c in n for n in study.notes for c in ACCELERATED_CAUTIONS):
+        st.info(" ".join(ACCELERATED_CAUTIONS))  # not among the page's cautions above
     name = st.selectbox("Response", list(kinetics), key=f"kinetics_response_{ss['epoch']}",
                         format_func=lambda n: study.response(n).display())
     st.dataframe(kinetics[name]["table"][

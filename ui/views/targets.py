@@ -7,6 +7,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
+from tradeoff.derive.reach import goal_warnings
 from tradeoff.inputs import checked_goal, with_production_sd
 from tradeoff.study.spec import GOAL_WORDS, LIMIT_WORDS
 from tradeoff_ui import cached, charts, panels, text
@@ -220,9 +221,13 @@ elif wanted:
                    f"{study.factor(k).label} = {v}" for k, v in wanted.items()))
                + f"; the best of all is {text.plain(best.label)} (D = "
                  f"{best.desirability:.3f}).")
+# a shelf-life goal past the storage's reach, warned in the goal's own box
+beyond_storage = goal_warnings(study, "This goal")
 for name, (slot, item, is_factor) in slots.items():
     goal = study.factor(name).goal if is_factor else study.response(name).goal
     with slot:
+        if name in beyond_storage:
+            st.warning(text.plain(beyond_storage[name]), icon=":material/schedule:")
         if not goal.active:
             st.caption("No goal: this takes no part in D.")
             continue
