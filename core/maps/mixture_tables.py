@@ -20,8 +20,8 @@ import pandas as pd
 from ..errors import ModelError, StudyError
 from ..study.mixture import components_of, process_factors_of
 
-__all__ = ["reference_blend", "cox_direction", "mixture_trace", "mixture_effects",
-           "blend_inside", "ternary_setup", "ternary_grid"]
+__all__ = ["reference_blend", "cox_direction", "cox_edit", "blend_on_total", "mixture_trace",
+           "mixture_effects", "blend_inside", "ternary_setup", "ternary_grid"]
 
 
 def _require_components(study) -> list:
@@ -81,6 +81,67 @@ def cox_direction(s: np.ndarray, i: int) -> np.ndarray:
     a = -s / rest
     a[i] = 1.0
     return a
+
+
+def cox_edit(study, amounts: dict, name: str, value: float, *,
+             keep_total: bool = True) -> dict:
+    """The blend after one component is set to ``value``: the others along Cox's direction.
+
+    The other components share what is left of the total in the ratios they
+    had (Cox 1971; Cornell (2002), Experiments with Mixtures, 3rd ed., sec.
+    5.8): ``x_j' = x_j (total - value) / (total - x_i)``. When the others
+    held nothing (a pure component), they share the rest in their ratios at
+    the centre of the allowed blends. ``keep_total=False`` asks for the others
+    to stay as they are and the total to change, which a study with a fixed
+    total (every ``[mixture]``) refuses with a message.
+
+    Returns the new amounts of every component (study units), adding up to the
+    total exactly; raises StudyError when ``value`` cannot be part of a blend.
+    """
+    comps = _require_components(study)
+    names = [c.name for c in comps]
+    if name not in names:
+        raise StudyError(f"'{name}' is not a component of the study: the components are "
+                         f"{', '.join(names)}")
+    comp = comps[names.index(name)]
+    total = comp.total
+    unit = f" {comp.unit}" if comp.unit else ""
+    if not keep_total:
+        raise StudyError(f"the study fixes the blend's total at {total:g}{unit} ([mixture] "
+                         "total): the models know only blends of that total, so more of "
+                         f"{comp.label} must come out of the others; they keep their ratios "
+                         "to each other instead")
+    value = float(value)
+    if not np.isfinite(value) or value < 0 or value > total:
+        raise StudyError(f"{comp.label} = {value:g}{unit} cannot be part of a blend that "
+                         f"totals {total:g}{unit}: give an amount from 0 to {total:g}")
+    others = [n for n in names if n != name]
+    old = np.array([float(amounts[n]) for n in others])
+    if old.sum() <= 1e-12 * total:  # a pure component: the others' ratios at the centre
+        centre = reference_blend(study)
+        old = np.array([centre[n] for n in others])
+    new = dict(zip(others, old * (total - value) / old.sum()))
+    new[name] = value
+    return {n: float(new[n]) for n in names}
+
+
+def blend_on_total(study, amounts: dict) -> tuple[dict, float]:
+    """(the blend scaled to the study's total, the sum it had): same shares.
+
+    A blend is known by its shares of the total: 44 + 16.5 + 49.5 = 110 is the
+    blend 40 + 15 + 45 = 100 made in a larger batch. Raises StudyError on a
+    negative amount or a blend of nothing.
+    """
+    comps = _require_components(study)
+    total = comps[0].total
+    values = np.array([float(amounts[c.name]) for c in comps])
+    for c, v in zip(comps, values):
+        if not np.isfinite(v) or v < 0:
+            raise StudyError(f"{c.label} = {v:g}: a component's amount cannot be below 0")
+    s = float(values.sum())
+    if s <= 0:
+        raise StudyError("every component is 0: there is no blend to predict")
+    return {c.name: float(v * total / s) for c, v in zip(comps, values)}, s
 
 
 def _stretch(s, a, lo, hi) -> tuple[float, float]:

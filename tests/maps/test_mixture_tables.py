@@ -95,3 +95,40 @@ def test_ternary_grid_refuses_unknown_components(yarn):
     study, fit = yarn
     with pytest.raises(StudyError, match=r"'polyethylen' is not a component.*did you mean"):
         ternary_grid(study, fit, ["polyethylen", "polystyrene", "polypropylene"])
+
+
+# -- editing one component of a blend ------------------------------------------------------
+def test_cox_edit_by_hand_keeps_the_total_and_the_others_ratios():
+    from tradeoff.maps.mixture_tables import cox_direction, cox_edit
+
+    study = load_study(DEMO)
+    before = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0}
+    after = cox_edit(study, before, "rice_flour", 50.0)
+    # Cox's direction written out (Cornell (2002), sec. 5.8): the others share what is
+    # left, x_j' = x_j (T - x_i') / (T - x_i): 15 and 45 share 50 as 15:45
+    assert after == pytest.approx({"rice_flour": 50.0, "sorghum_flour": 12.5,
+                                   "tapioca_starch": 37.5}, abs=1e-12)
+    assert sum(after.values()) == pytest.approx(100.0, abs=1e-12)
+    assert after["tapioca_starch"] / after["sorghum_flour"] == pytest.approx(45 / 15)
+    # the move is along the direction the traces use: +t for rice flour, -t s_j/(1-s_i)
+    s = np.array([0.40, 0.15, 0.45])
+    step = np.array([after[n] - before[n] for n in before]) / 100
+    np.testing.assert_allclose(step, 0.10 * cox_direction(s, 0), atol=1e-12)
+
+
+def test_cox_edit_refuses_what_no_blend_of_the_total_can_hold():
+    from tradeoff.maps.mixture_tables import cox_edit
+
+    study = load_study(DEMO)
+    blend = {"rice_flour": 40.0, "sorghum_flour": 15.0, "tapioca_starch": 45.0}
+    with pytest.raises(StudyError, match=r"Rice flour = 110 % cannot be part of a blend "
+                                         r"that totals 100 %"):
+        cox_edit(study, blend, "rice_flour", 110.0)
+    with pytest.raises(StudyError, match=r"fixes the blend's total at 100 %.*keep their "
+                                         r"ratios"):
+        cox_edit(study, blend, "rice_flour", 45.0, keep_total=False)
+    # from a pure component the others share the rest in their ratios at the centre
+    pure = cox_edit(study, {"rice_flour": 100.0, "sorghum_flour": 0.0,
+                            "tapioca_starch": 0.0}, "rice_flour", 60.0)
+    assert sum(pure.values()) == pytest.approx(100.0)
+    assert pure["sorghum_flour"] > 0 and pure["tapioca_starch"] > 0
