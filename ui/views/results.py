@@ -7,7 +7,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.report.exports import CAUTION, solutions_table
 from tradeoff.search.chance import CHANCE_RULE, chance_text
-from tradeoff_ui import cached, charts, panels, text, triangle
+from tradeoff_ui import cached, charts, panels, text, triangle, what_if
 from tradeoff_ui.shown import num, span
 
 ss = st.session_state
@@ -209,51 +209,7 @@ else:
                     where=cols[i % 3], width="stretch")
 
 # -- what-if ------------------------------------------------------------------------------
-st.subheader("What if I make it like this?")
-st.caption("Set the factors by hand; predictions update with their intervals.")
-if ss["whatif_from"] != chosen.label:
-    # another solution was chosen: start the panel from it, as its button says
-    ss["whatif"], ss["whatif_nonce"] = {}, ss["whatif_nonce"] + 1
-    ss["whatif_from"] = chosen.label
-nonce = ss["whatif_nonce"]
-if st.button(f"Start from {text.plain(chosen.label)}", key="r_whatif_reset"):
-    ss["whatif"], ss["whatif_nonce"] = {}, nonce + 1
-    nonce += 1
-settings = {}
-cols = st.columns(len(study.factors))
-for col, f in zip(cols, study.factors):
-    start = ss["whatif"].get(f.name, chosen.settings[f.name])
-    key = f"w{ss['epoch']}.{nonce}.{f.name}"
-    if f.is_categorical:
-        settings[f.name] = col.selectbox(text.plain(f.display()), list(f.levels),
-                                         index=list(f.levels).index(start), key=key)
-    else:
-        step = (f.high - f.low) / 20
-        settings[f.name] = col.number_input(text.plain(f.display()), value=float(start),
-                                            step=float(step), format="%.4g", key=key)
-ss["whatif"] = settings
-try:
-    answer = cached.what_if(study, fitted, settings)
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-else:
-    if answer.outside:
-        st.warning("Outside the tested range: " + text.plain(", ".join(answer.outside))
-                   + ". The model is extrapolating; predictions there are guesses.")
-    if not answer.allowed:
-        st.warning("These settings break a rule among factors set in the study.")
-    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{chance_text(answer.chance_all)}**")
-    t = answer.table
-    st.dataframe(pd.DataFrame({
-        "response": [study.response(n).display() for n in t["response"]],
-        "predicted": t["predicted"].map(num),
-        f"mean ({pct})": [span(a, b) for a, b in zip(t["ci_low"], t["ci_high"])],
-        f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
-        "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
-        "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance within limits": t["chance_in_limits"].map(chance_text)}),
-        hide_index=True, key="r_whatif_table")
+what_if.what_if_panel(study, fitted, chosen, pct)
 
 # -- make next ----------------------------------------------------------------------------
 panels.make_next(study, fitted)
