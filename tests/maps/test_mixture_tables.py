@@ -132,3 +132,56 @@ def test_cox_edit_refuses_what_no_blend_of_the_total_can_hold():
                             "tapioca_starch": 0.0}, "rice_flour", 60.0)
     assert sum(pure.values()) == pytest.approx(100.0)
     assert pure["sorghum_flour"] > 0 and pure["tapioca_starch"] > 0
+
+
+# -- effects along Cox directions, with their intervals ------------------------------------
+def test_blend_effects_against_statsmodels_on_the_yarn_blends(yarn):
+    """Each component's effect is the difference of two predicted means along its Cox
+    direction through the centroid, here from the pure component (x_i = 1) to the
+    blend without it (the others 1/2 each); its interval is the t interval of that
+    contrast, as statsmodels' OLS t_test gives it for the Scheffe quadratic written
+    out by hand (Cornell (2002), sec. 2.7 and 5.8)."""
+    import statsmodels.api as sm
+
+    from tradeoff.maps.mixture_tables import blend_effects
+
+    study, fit = yarn
+    runs = study.runs
+    x = runs[["polyethylene", "polystyrene", "polypropylene"]].to_numpy(float)
+
+    def scheffe(p):
+        p = np.atleast_2d(p)
+        return np.column_stack([p[:, 0], p[:, 1], p[:, 2], p[:, 0] * p[:, 1],
+                                p[:, 0] * p[:, 2], p[:, 1] * p[:, 2]])
+
+    ols = sm.OLS(runs["elongation"].to_numpy(float), scheffe(x)).fit()
+    table = blend_effects(study, fit, "elongation").set_index("term")
+    for i, name in enumerate(["polyethylene", "polystyrene", "polypropylene"]):
+        pure = np.eye(3)[i]
+        without = np.where(np.arange(3) == i, 0.0, 0.5)
+        c = (scheffe(pure) - scheffe(without))[0]
+        test = ols.t_test(c)
+        low, high = np.asarray(test.conf_int(alpha=0.05)).ravel()
+        row = table.loc[name]
+        assert (row.start, row.end) == pytest.approx((0.0, 1.0), abs=1e-12)
+        assert row.effect == pytest.approx(float(np.ravel(test.effect)[0]), rel=1e-9)
+        assert (row.ci_low, row.ci_high) == pytest.approx((low, high), rel=1e-9)
+    # largest size first
+    sizes = table["effect"].abs().to_numpy()
+    assert (np.diff(sizes) <= 1e-12).all()
+
+
+def test_blend_effects_of_the_flour_blend_stay_on_the_allowed_blends():
+    from tradeoff.maps.mixture_tables import blend_effects
+
+    study = load_study(DEMO)
+    fit = fit_study(study)
+    table = blend_effects(study, fit, "crumb_hardness", settings={"hydrocolloid": "guar"})
+    comps = {c.name: c for c in study.factors if getattr(c, "is_component", False)}
+    for _, row in table[table.kind == "component"].iterrows():
+        c = comps[row.term]
+        assert c.low - 1e-9 <= row.start < row.end <= c.high + 1e-9
+    # the hydrocolloid goes from the level held to each other level
+    hyd = table[table.term == "hydrocolloid"]
+    assert set(hyd.start) == {"guar"} and set(hyd.end) == {"psyllium", "xanthan"}
+    assert (table.ci_low < table.effect).all() and (table.effect < table.ci_high).all()
