@@ -121,15 +121,16 @@ if result.assumptions:
                + text.plain(" ".join(result.assumptions)))
 
 # -- maps ---------------------------------------------------------------------------------
-st.subheader("Maps over two factors")
 best = result.solutions[0]
 # a blend's components go in the triangle below: two of them over a square would
 # hold the others off the total
 mappable = [n for n in numeric if not getattr(study.factor(n), "is_component", False)]
+blend = any(getattr(f, "is_component", False) for f in study.factors)
+if len(mappable) >= 2 or not blend:  # a blend without two process factors: the triangle
+    st.subheader("Maps over two factors")
 if len(mappable) < 2:
-    st.caption("Maps need two numeric factors" + (
-        " besides the blend's components (see the blend triangle)"
-        if any(getattr(f, "is_component", False) for f in study.factors) else "") + ".")
+    if not blend:
+        st.caption("Maps need two numeric factors.")
 else:
     has_d = bool(fitted.models) and any(r.goal.active for r in study.responses)
     what_options = (["limits", "D"] if has_d else []) + list(fitted.models)

@@ -85,7 +85,9 @@ for item in items:
         left, right = st.columns([2, 3])
         with left:
             st.markdown(f"**{text.plain(item.display())}**"
-                        + (" (factor)" if is_factor else ""))
+                        + ((" (blend component: amount in the blend)"
+                            if getattr(item, "is_component", False) else " (factor)")
+                           if is_factor else ""))
             kinds = list(KINDS)
             kind = st.selectbox("Goal", kinds, index=kinds.index(goal.kind),
                                 format_func=KINDS.get, key=f"{key}.kind")
