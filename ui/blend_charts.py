@@ -52,8 +52,11 @@ def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str) -> alt.Laye
     names = list(dict.fromkeys(trace["component"]))
     colour = alt.Color("component:N", title="Component moved",
                        scale=alt.Scale(domain=names, range=TRACE_COLOURS[:len(names)]),
-                       legend=alt.Legend(orient="bottom", direction="horizontal"))
-    dash = alt.StrokeDash("component:N", legend=None,
+                       legend=alt.Legend(orient="bottom", direction="horizontal",
+                                         symbolStrokeWidth=2.5, symbolSize=400))
+    dash = alt.StrokeDash("component:N", title="Component moved",
+                          legend=alt.Legend(orient="bottom", direction="horizontal",
+                                            symbolStrokeWidth=2.5, symbolSize=400),
                           scale=alt.Scale(domain=names,
                                           range=[[1, 0], [6, 3], [2, 2], [8, 2, 2, 2]][
                                               :len(names)] + [[1, 0]] * max(0, len(names) - 4)))
@@ -62,9 +65,10 @@ def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str) -> alt.Laye
         y=alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False)))
     band = alt.Chart(trace).mark_area(opacity=0.12).encode(
         x=alt.X("change:Q"), y=alt.Y("ci_low:Q"), y2=alt.Y2("ci_high:Q"),
-        color=alt.Color("component:N", scale=alt.Scale(domain=names,
-                                                       range=TRACE_COLOURS[:len(names)]),
-                        legend=None))
+        color=alt.Color("component:N", title="Component moved",
+                        scale=alt.Scale(domain=names, range=TRACE_COLOURS[:len(names)]),
+                        legend=alt.Legend(orient="bottom", direction="horizontal",
+                                          symbolStrokeWidth=2.5, symbolSize=400)))
     lines = base.mark_line(strokeWidth=2.5).encode(
         color=colour, strokeDash=dash,
         tooltip=[alt.Tooltip("component:N"), alt.Tooltip("amount:Q", format=".4g"),

@@ -122,10 +122,15 @@ if _comps:
     st.subheader("Blend components (what the blend is made of)")
     _total, _unit = _comps[0].total, _comps[0].unit
     _u = f" {_unit}" if _unit else ""
+    _sums = study.runs[[c.name for c in _comps]].sum(axis=1) if study.runs is not None \
+        else pd.Series(dtype=float)
+    _range = (f"{_sums.min():.6g}{_u}" if abs(_sums.max() - _sums.min()) < 1e-9 * _total
+              else f"{_sums.min():.6g} to {_sums.max():.6g}{_u}") if len(_sums) else ""
     st.write(text.plain(
-        f"The {len(_comps)} components add up to {_total:g}{_u} in every run (each run "
-        "is checked to within 0.5 % of it): more of one means less of the others. Each "
-        "stays between its lowest and highest amount."))
+        f"The {len(_comps)} components add up to {_total:g}{_u} in every run"
+        + (f" (in these runs: {_range}; each is checked to within 0.5 % of the total)"
+           if _range else "") + ": more of one means less of the others. Each stays "
+        "between its lowest and highest amount."))
     _shares = not (_unit == "%" and _total == 100)  # amounts in % are the shares already
     _crows = []
     for f in _comps:
@@ -180,9 +185,6 @@ st.write("Settings as made and responses as measured. "
 factors = [f.name for f in study.factors]
 responses = [r.name for r in study.responses if r.name in table]
 main = table[["run", *factors, *responses]].assign(mark=table["marks"].map(_short))
-if _comps:  # the blend's total beside its components: every run adds up
-    main.insert(1 + len(_comps), "blend total",
-                table[[c.name for c in _comps]].sum(axis=1).round(6))
 rows = min(len(main), 40)  # up to 40 runs show whole; longer tables scroll
 st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
              column_config={"mark": st.column_config.TextColumn("mark")})
