@@ -80,7 +80,8 @@ if "d_given_up" in table:
 for f in study.factors:
     title = f"{f.name} ({f.unit})" if f.unit else f.name
     shown[title] = table[f.name].map(num) if f.name in numeric else table[f.name]
-shown["outside limits"] = table["out_of_limits"]
+if table["out_of_limits"].astype(str).str.strip().any():  # an empty column only widens
+    shown["outside limits"] = table["out_of_limits"]
 st.dataframe(shown, hide_index=True, key="r_solutions")
 
 labels = [s.label for s in result.solutions]
