@@ -63,12 +63,9 @@ def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str) -> alt.Laye
     base = alt.Chart(trace).encode(
         x=alt.X("change:Q", title=x_title),
         y=alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False)))
-    band = alt.Chart(trace).mark_area(opacity=0.12).encode(
+    band = alt.Chart(trace).mark_area(opacity=0.10).encode(
         x=alt.X("change:Q"), y=alt.Y("ci_low:Q"), y2=alt.Y2("ci_high:Q"),
-        color=alt.Color("component:N", title="Component moved",
-                        scale=alt.Scale(domain=names, range=TRACE_COLOURS[:len(names)]),
-                        legend=alt.Legend(orient="bottom", direction="horizontal",
-                                          symbolStrokeWidth=2.5, symbolSize=400)))
+        detail=alt.Detail("component:N"), color=alt.ColorValue("#8a8a8a"))
     lines = base.mark_line(strokeWidth=2.5).encode(
         color=colour, strokeDash=dash,
         tooltip=[alt.Tooltip("component:N"), alt.Tooltip("amount:Q", format=".4g"),
@@ -78,4 +75,5 @@ def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str) -> alt.Laye
     dot = alt.Chart(at).mark_point(shape="circle", size=110, filled=True, color=INK).encode(
         x=alt.X("change:Q"), y=alt.Y("predicted:Q"),
         tooltip=[alt.Tooltip("predicted:Q", format=".4g", title="at the reference blend")])
+    # grey bands: the one legend (colour and dash together) names the lines
     return fit_width(alt.layer(band, lines, dot).properties(height=300))
