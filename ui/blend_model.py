@@ -118,6 +118,22 @@ def blend_panels(study, fitted, name: str, response, model) -> None:
                 width="stretch")
 
 
+def _term_text(study, term: str) -> str:
+    """A model term in the study's labels: 'Rice flour × Bake temperature'."""
+    labels = {f.name: f.label for f in study.factors}
+
+    def part(p: str) -> str:
+        if p.startswith("(") and p.endswith(")"):
+            a, _, b = p[1:-1].partition("-")
+            return f"({labels.get(a, a)} - {labels.get(b, b)})"
+        name, bracket, level = p.partition("[")
+        name, caret, power = name.partition("^")
+        return labels.get(name, name) + (f"^{power}" if caret else "") + (
+            f" = {level[:-1]}" if bracket else "")
+
+    return " \u00d7 ".join(part(p) for p in term.split(":"))
+
+
 def blend_coefficients(study, report: dict) -> None:
     """The coefficient table of a blend (no test on a pure component's coefficient)
     and the fitted equation in amounts."""
@@ -125,7 +141,7 @@ def blend_coefficients(study, report: dict) -> None:
 
     comps = [f for f in study.factors if getattr(f, "is_component", False)]
     names = {c.name for c in comps}
-    coef = pd.DataFrame({"term": report["terms"],
+    coef = pd.DataFrame({"term": [_term_text(study, t) for t in report["terms"]],
                          "coefficient (as fitted)": [num(report["coefficients"][t])
                                                      for t in report["terms"]]})
     if report["std_errors"]:
@@ -152,6 +168,6 @@ def blend_coefficients(study, report: dict) -> None:
         st.write(text.plain(
             f"The equation in amounts: each component in {comps[0].unit or 'study units'} "
             f"(they add up to {total:g})" + (f"; {coded}" if coded else "") + ":"))
-        st.dataframe(pd.DataFrame({"term": list(eq),
+        st.dataframe(pd.DataFrame({"term": [_term_text(study, t) for t in eq],
                                    "coefficient": [num(v, 6) for v in eq.values()]}),
                      hide_index=True, height=35 * (len(eq) + 1) + 3)

@@ -49,9 +49,9 @@ def test_the_models_view_reads_a_blend_along_cox_directions():
     assert any("coefficients are not effects" in c.value for c in at.caption)
     coef = next(d.value for d in at.dataframe if "coefficient (as fitted)" in d.value.columns)
     rows = coef.set_index("term")
-    for name in ("rice_flour", "sorghum_flour", "tapioca_starch"):
+    for name in NAMES:  # terms in the study's labels
         assert rows.loc[name, "p-value"] == ""  # no test on a pure component
-    assert rows.loc["rice_flour:sorghum_flour", "p-value"] != ""
+    assert rows.loc["Rice flour \u00d7 Sorghum flour", "p-value"] != ""
     assert any(m.value.startswith("The equation in amounts") for m in at.markdown)
     # every response, every held hydrocolloid: still no error
     at.selectbox(key="m_blend_hold.hydrocolloid").set_value("guar").run()
