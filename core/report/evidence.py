@@ -9,7 +9,7 @@ import pandas as pd
 
 from ..model.terms import model_label
 from .charts import _arrhenius_chart, _chart_div, _effects_chart
-from .data import _g, _get, _is_clear, _p, _r2
+from .data import _g, _get, _is_clear, _p, _pure_component, _r2
 from .sections import _Sections, _table, esc
 
 __all__ = ["_EvidenceSections"]
@@ -145,12 +145,13 @@ class _EvidenceSections(_Sections):
         shown = 0
         for term in rep["terms"]:
             clear = _is_clear(rep, term, alpha)
-            if term in blocks or (term != "intercept" and not clear):
+            pure = _pure_component(rep, term)  # a blend's component alone: no test
+            if term in blocks or (term != "intercept" and not pure and not clear):
                 continue
             rows.append([esc(term), _g(_get(rep["coefficients"], term)),
                          _g(_get(rep["effects"], term)),
                          _g(_get(rep["std_errors"], term)),
-                         _p(_get(rep["p_values"], term))])
+                         "-" if pure else _p(_get(rep["p_values"], term))])
             shown += 1
         # the last level of a factor of three or more levels has no column of its
         # own: its deviation is minus the sum of the others (model/levels.py)

@@ -9,7 +9,8 @@ import pandas as pd
 
 from ..model.terms import model_label
 from ..study.safe_cells import workbook_bytes
-from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
+from .data import (CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, _pure_component,
+                   report_data)
 
 __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
 
@@ -116,7 +117,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
                 "coefficient": _get(rep["coefficients"], term),
                 "effect": _get(rep["effects"], term),
                 "std error": _get(rep["std_errors"], term),
-                "p value": _get(rep["p_values"], term),
+                "p value": None if _pure_component(rep, term) else _get(rep["p_values"], term),
                 "clear": _is_clear(rep, term, alpha)})
     for name, why in data["skipped"].items():
         model_rows.append({"response": name, "model": "none", "warnings": why})
