@@ -171,6 +171,41 @@ def test_blend_effects_against_statsmodels_on_the_yarn_blends(yarn):
     assert (np.diff(sizes) <= 1e-12).all()
 
 
+def test_blend_effects_on_a_bounded_region_against_statsmodels(tmp_path):
+    """The yarn blends with every component held to 0.8 at most: each stretch then
+    ends inside the simplex, where the two means share coefficients, so the
+    interval needs their covariance (statsmodels' t test of the contrast)."""
+    import shutil
+
+    import statsmodels.api as sm
+
+    from tradeoff.maps.mixture_tables import blend_effects
+
+    text = (DATA / "yarn_elongation_cornell.toml").read_text().replace("high = 1", "high = 0.8")
+    (tmp_path / "yarn.toml").write_text(text)
+    shutil.copy(DATA / "yarn_elongation_cornell.csv", tmp_path)
+    study = load_study(tmp_path / "yarn.toml")
+    fit = fit_study(study)
+    runs = study.runs
+    x = runs[["polyethylene", "polystyrene", "polypropylene"]].to_numpy(float)
+
+    def scheffe(p):
+        p = np.atleast_2d(p)
+        return np.column_stack([p[:, 0], p[:, 1], p[:, 2], p[:, 0] * p[:, 1],
+                                p[:, 0] * p[:, 2], p[:, 1] * p[:, 2]])
+
+    ols = sm.OLS(runs["elongation"].to_numpy(float), scheffe(x)).fit()
+    table = blend_effects(study, fit, "elongation").set_index("term")
+    row = table.loc["polyethylene"]
+    # from the centroid: polyethylene 0 (the others 1/2 each) to 0.8 (the others 0.1)
+    assert (row.start, row.end) == pytest.approx((0.0, 0.8), abs=1e-12)
+    c = (scheffe([0.8, 0.1, 0.1]) - scheffe([0.0, 0.5, 0.5]))[0]
+    test = ols.t_test(c)
+    low, high = np.asarray(test.conf_int(alpha=0.05)).ravel()
+    assert row.effect == pytest.approx(float(np.ravel(test.effect)[0]), rel=1e-9)
+    assert (row.ci_low, row.ci_high) == pytest.approx((low, high), rel=1e-9)
+
+
 def test_blend_effects_of_the_flour_blend_stay_on_the_allowed_blends():
     from tradeoff.maps.mixture_tables import blend_effects
 
