@@ -1,79 +1,23 @@
-"""Charts of a blend's model: effects along Cox directions and Cox traces. Drawing only.
-
-The tables come from ``tradeoff.maps.mixture_tables`` (``blend_effects``,
-``mixture_trace``); channels are named with Altair's classes (see
-tests/test_chart_channels.py).
-"""
+"""Charts of a blend's model in the workbench: the library's drawings stretched to their
+column (``tradeoff.maps.blend_pictures``). Drawing only."""
 from __future__ import annotations
 
-import altair as alt
 import pandas as pd
 
 from tradeoff_ui.charts import fit_width
 
 __all__ = ["blend_effects_chart", "cox_trace_chart"]
 
-INK = "#333333"
-# one hue per component (and a third for process factors' rows is not needed:
-# the effects chart is one colour; the traces tell components apart by colour and dash)
-TRACE_COLOURS = ["#3b528b", "#21918c", "#5ec962", "#b8860b", "#8c564b", "#7f7f7f"]
+
+def blend_effects_chart(table: pd.DataFrame, x_title: str):
+    """Effects along Cox directions: a dot and its interval per change, zero line."""
+    from tradeoff.maps.blend_pictures import blend_effects_picture
+
+    return fit_width(blend_effects_picture(table, x_title))
 
 
-def blend_effects_chart(table: pd.DataFrame, x_title: str) -> alt.LayerChart:
-    """A dot per change with its interval as a bar, a line at zero, largest first.
+def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str):
+    """Cox traces: one line per component, a dot at the reference blend."""
+    from tradeoff.maps.blend_pictures import cox_trace_picture
 
-    ``table``: columns ``what`` (the row's words), ``effect``, ``ci_low``,
-    ``ci_high`` (NaN: no interval drawn).
-    """
-    order = list(table["what"])
-    base = alt.Chart(table).encode(
-        y=alt.Y("what:N", sort=order, title=None,
-                axis=alt.Axis(labelLimit=320, labelOverlap=False)))
-    zero = alt.Chart(pd.DataFrame({"x": [0.0]})).mark_rule(color="#999999").encode(
-        x=alt.X("x:Q"))
-    bars = base.transform_filter("isValid(datum.ci_low)").mark_rule(
-        color=INK, strokeWidth=2).encode(x=alt.X("ci_low:Q"), x2=alt.X2("ci_high:Q"))
-    dots = base.mark_circle(size=90, color=INK, opacity=1).encode(
-        x=alt.X("effect:Q", title=x_title),
-        tooltip=[alt.Tooltip("what:N", title="change"),
-                 alt.Tooltip("effect:Q", format=".4g", title="effect"),
-                 alt.Tooltip("ci_low:Q", format=".4g", title="interval from"),
-                 alt.Tooltip("ci_high:Q", format=".4g", title="interval to")])
-    return fit_width(alt.layer(zero, bars, dots).properties(
-        height=max(3, len(table)) * 30))
-
-
-def cox_trace_chart(trace: pd.DataFrame, y_title: str, x_title: str) -> alt.LayerChart:
-    """One line per component along its Cox direction; a dot at the reference blend.
-
-    ``trace``: columns ``component`` (its label), ``change`` (amount moved from
-    the reference blend, study units), ``predicted``, ``ci_low``, ``ci_high``.
-    """
-    names = list(dict.fromkeys(trace["component"]))
-    colour = alt.Color("component:N", title="Component moved",
-                       scale=alt.Scale(domain=names, range=TRACE_COLOURS[:len(names)]),
-                       legend=alt.Legend(orient="bottom", direction="horizontal",
-                                         symbolStrokeWidth=2.5, symbolSize=400))
-    dash = alt.StrokeDash("component:N", title="Component moved",
-                          legend=alt.Legend(orient="bottom", direction="horizontal",
-                                            symbolStrokeWidth=2.5, symbolSize=400),
-                          scale=alt.Scale(domain=names,
-                                          range=[[1, 0], [6, 3], [2, 2], [8, 2, 2, 2]][
-                                              :len(names)] + [[1, 0]] * max(0, len(names) - 4)))
-    base = alt.Chart(trace).encode(
-        x=alt.X("change:Q", title=x_title),
-        y=alt.Y("predicted:Q", title=y_title, scale=alt.Scale(zero=False)))
-    band = alt.Chart(trace).mark_area(opacity=0.10).encode(
-        x=alt.X("change:Q"), y=alt.Y("ci_low:Q"), y2=alt.Y2("ci_high:Q"),
-        detail=alt.Detail("component:N"), color=alt.ColorValue("#8a8a8a"))
-    lines = base.mark_line(strokeWidth=2.5).encode(
-        color=colour, strokeDash=dash,
-        tooltip=[alt.Tooltip("component:N"), alt.Tooltip("amount:Q", format=".4g"),
-                 alt.Tooltip("predicted:Q", format=".4g")])
-    at = pd.DataFrame({"change": [0.0], "predicted": [float(
-        trace.loc[trace["change"].abs().idxmin(), "predicted"])]})
-    dot = alt.Chart(at).mark_point(shape="circle", size=110, filled=True, color=INK).encode(
-        x=alt.X("change:Q"), y=alt.Y("predicted:Q"),
-        tooltip=[alt.Tooltip("predicted:Q", format=".4g", title="at the reference blend")])
-    # grey bands: the one legend (colour and dash together) names the lines
-    return fit_width(alt.layer(band, lines, dot).properties(height=300))
+    return fit_width(cox_trace_picture(trace, y_title, x_title))

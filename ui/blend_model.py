@@ -92,12 +92,8 @@ def blend_panels(study, fitted, name: str, response, model) -> None:
         "(a choice: from the level held to each other level) at that blend. Each dot is the "
         f"change in the predicted mean; its bar, the {study.confidence:.0%} interval of that "
         "change: a bar across the zero line is a change the runs cannot tell from none."))
-    by_name = {f.name: f for f in study.factors}
-    rows = effects.assign(what=[
-        f"{by_name[r.term].label} {_amount(by_name[r.term], r.start)} \u2192 "
-        f"{_amount(by_name[r.term], r.end)}" for r in effects.itertuples()])
-    charts.show(blend_charts.blend_effects_chart, rows[["what", "effect", "ci_low",
-                                                         "ci_high"]],
+    charts.show(blend_charts.blend_effects_chart, effects[["what", "effect", "ci_low",
+                                                            "ci_high"]],
                 charts.titled(f"Change in {response.label}", response.unit),
                 width="stretch")
     st.subheader("Cox traces")

@@ -266,7 +266,8 @@ def blend_effects(study, fit, response: str, *, reference: dict | None = None,
     -------
     pandas.DataFrame
         One row per component and process change, largest size first. Columns
-        ``term`` (factor name), ``kind`` (``component`` or ``process``),
+        ``term`` (factor name), ``what`` (the change in words: "Rice flour 40 % ->
+        70 %"), ``kind`` (``component`` or ``process``),
         ``start`` and ``end`` (amounts, settings or level names of the two
         ends), ``effect`` (predicted at the end minus at the start, natural
         units), ``ci_low``, ``ci_high`` (NaN without an error estimate).
@@ -315,10 +316,14 @@ def blend_effects(study, fit, response: str, *, reference: dict | None = None,
             if df > 0 and np.isfinite(var) and sigma == sigma:
                 half = float(stats.t.ppf(0.5 + level / 2, df) * np.sqrt(max(var, 0.0)))
                 low, high = effect - half, effect + half
-        out.append({"term": term, "kind": kind, "start": start, "end": end,
+        f = study.factor(term)
+        unit = f" {f.unit}" if f.unit and not f.is_categorical else ""
+        ends = [v if isinstance(v, str) else f"{v:.4g}{unit}" for v in (start, end)]
+        out.append({"term": term, "what": f"{f.label} {ends[0]} \u2192 {ends[1]}",
+                    "kind": kind, "start": start, "end": end,
                     "effect": effect, "ci_low": low, "ci_high": high})
-    table = pd.DataFrame(out, columns=["term", "kind", "start", "end", "effect", "ci_low",
-                                       "ci_high"])
+    table = pd.DataFrame(out, columns=["term", "what", "kind", "start", "end", "effect",
+                                       "ci_low", "ci_high"])
     order = np.argsort(-np.abs(table["effect"].to_numpy(float)), kind="stable")
     return table.iloc[order].reset_index(drop=True)
 

@@ -41,10 +41,11 @@ class _EvidenceSections(_Sections):
                 out.append("</div>")
                 continue
             out.append(self._fit_stats(rep))
-            # a component's own blending term is its pure blend's response, no effect:
-            # its bar would dwarf every effect
-            out.append(_chart_div(_effects_chart(r, rep, alpha, leave_out={
-                f.name for f in self.study.factors if getattr(f, "is_component", False)})))
+            if rep.get("mixture_scale") is not None and hasattr(self, "blend_model"):
+                # a blend's terms are not effects: Cox directions instead
+                out.append(self.blend_model(r, rep))
+            else:
+                out.append(_chart_div(_effects_chart(r, rep, alpha)))
             out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))
@@ -166,9 +167,15 @@ class _EvidenceSections(_Sections):
                 "are in the workbook's terms sheet.</p>" if hidden else "")
         levels = ("; the last level, which has no column of its own, is minus the sum "
                   "of the others" if derived else "")
-        return ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
+        head = ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
                 "the low to the high setting; for a level alone, such as flour[oat], its "
-                f"deviation from the average over the levels{levels})</p>"
+                f"deviation from the average over the levels{levels})</p>")
+        if rep.get("mixture_scale") is not None:  # a blend: no coded effects
+            head = ("<p><b>Clear terms</b> (coefficients as fitted, the components as "
+                    "shares of what their lows leave; a component alone is the prediction "
+                    "for that pure component, not an effect, so it has no p-value"
+                    f"{levels})</p>")
+        return (head
                 + _table(["term", "coefficient", "effect", "std error", "p"], rows,
                          numeric={1, 2, 3, 4}) + note)
 

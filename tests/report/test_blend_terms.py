@@ -29,3 +29,25 @@ def test_no_test_for_a_component_alone():
     assert any("a component alone has no t or p" in ln for ln in lines)
     assert _is_clear(report, "polyethylene", 0.05) is None
     assert _is_clear(report, "polyethylene:polystyrene", 0.05) is not None
+
+
+def test_the_report_reads_a_blend_along_cox_directions(tmp_path):
+    """The page draws each component's Cox effect (no bar of a blending coefficient)
+    and writes the equation in amounts, whose coefficients are those in proportions
+    divided by total ** degree (Cornell (2002), sec. 2.1): for the yarn blends the
+    total is 1, so they are the fitted proportions' coefficients."""
+    import re
+
+    from tradeoff import write_report
+
+    study = load_study(YARN)
+    out = tmp_path / "report.html"
+    write_report(study, out, top=1)
+    page = out.read_text("utf-8")
+    assert "What each part of the recipe does" in page
+    assert "(coef.)" not in page
+    eq = page[page.index("The equation in amounts"):]
+    fit = fit_study(study)
+    b = fit.models["elongation"].proportion_coefficients_
+    first = re.search(r"<td>polyethylene</td><td[^>]*>([^<]+)</td>", eq).group(1)
+    assert float(first) == float(f"{b['polyethylene']:.4g}")
