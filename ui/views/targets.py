@@ -85,7 +85,7 @@ for item in items:
         left, right = st.columns([2, 3])
         with left:
             st.markdown(f"**{text.plain(item.display())}**"
-                        + ((" (blend component: amount in the blend)"
+                        + ((", a blend component"
                             if getattr(item, "is_component", False) else " (factor)")
                            if is_factor else ""))
             kinds = list(KINDS)
