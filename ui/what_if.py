@@ -127,9 +127,7 @@ def what_if_panel(study, fitted, chosen, pct: str) -> None:
                    + ". The model is extrapolating; predictions there are guesses.")
     if not answer.allowed:
         st.warning("These settings break a rule among factors set in the study.")
-    recipe = ", ".join(f"{study.factor(k).label} {v if isinstance(v, str) else num(v)}"
-                       + ("" if isinstance(v, str) or not study.factor(k).unit
-                          else f" {study.factor(k).unit}")
+    recipe = "; ".join(f"{study.factor(k).display()} = {v if isinstance(v, str) else num(v)}"
                        for k, v in answer.settings.items())
     st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
                 f"within its limits: **{chance_text(answer.chance_all)}**")

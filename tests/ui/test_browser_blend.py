@@ -121,7 +121,7 @@ def test_the_blend_what_if_keeps_the_sum_and_one_recipe(page):
         rest_after = 100.0 - rice
         settings["sorghum_flour"] = before[NAMES[1]] * rest_after / rest
         settings["tapioca_starch"] = before[NAMES[2]] * rest_after / rest
-        hydro = re.search(r"Hydrocolloid (\w+)\.", main).group(1)
+        hydro = re.search(r"Hydrocolloid = (\w+)\.", main).group(1)
         settings["hydrocolloid"] = hydro
         X = to_coded(study.factors, {k: [v] for k, v in settings.items()})
         # the bake temperature box shows 4 significant digits: D moves at most 1e-3
