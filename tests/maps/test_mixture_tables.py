@@ -135,6 +135,14 @@ def test_cox_edit_refuses_what_no_blend_of_the_total_can_hold():
 
 
 # -- effects along Cox directions, with their intervals ------------------------------------
+def scheffe(p) -> np.ndarray:
+    """Scheffe's quadratic model matrix in three proportions, written out (Cornell
+    (2002), sec. 2.2): x1, x2, x3, x1x2, x1x3, x2x3."""
+    p = np.atleast_2d(p)
+    return np.column_stack([p[:, 0], p[:, 1], p[:, 2], p[:, 0] * p[:, 1],
+                            p[:, 0] * p[:, 2], p[:, 1] * p[:, 2]])
+
+
 def test_blend_effects_against_statsmodels_on_the_yarn_blends(yarn):
     """Each component's effect is the difference of two predicted means along its Cox
     direction through the centroid, here from the pure component (x_i = 1) to the
@@ -148,11 +156,6 @@ def test_blend_effects_against_statsmodels_on_the_yarn_blends(yarn):
     study, fit = yarn
     runs = study.runs
     x = runs[["polyethylene", "polystyrene", "polypropylene"]].to_numpy(float)
-
-    def scheffe(p):
-        p = np.atleast_2d(p)
-        return np.column_stack([p[:, 0], p[:, 1], p[:, 2], p[:, 0] * p[:, 1],
-                                p[:, 0] * p[:, 2], p[:, 1] * p[:, 2]])
 
     ols = sm.OLS(runs["elongation"].to_numpy(float), scheffe(x)).fit()
     table = blend_effects(study, fit, "elongation").set_index("term")
@@ -188,11 +191,6 @@ def test_blend_effects_on_a_bounded_region_against_statsmodels(tmp_path):
     fit = fit_study(study)
     runs = study.runs
     x = runs[["polyethylene", "polystyrene", "polypropylene"]].to_numpy(float)
-
-    def scheffe(p):
-        p = np.atleast_2d(p)
-        return np.column_stack([p[:, 0], p[:, 1], p[:, 2], p[:, 0] * p[:, 1],
-                                p[:, 0] * p[:, 2], p[:, 1] * p[:, 2]])
 
     ols = sm.OLS(runs["elongation"].to_numpy(float), scheffe(x)).fit()
     table = blend_effects(study, fit, "elongation").set_index("term")
