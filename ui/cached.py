@@ -356,3 +356,33 @@ def _panel(key: str, _study):
 def panel(study):
     """The panel analysis of the open study (cached by the study as opened)."""
     return _panel(origin_key(st.session_state["origin"]), study)
+
+
+# -- a blend's model: effects along Cox directions and Cox traces -------------------------
+__all__ += ["blend_effects", "cox_traces"]
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _blend_effects(key: str, _study, _fit, response: str, held: tuple):
+    from tradeoff.maps.mixture_tables import blend_effects as build
+
+    return build(_study, _fit, response, settings=dict(held))
+
+
+def blend_effects(study, fitted, response: str, held: dict):
+    """Each component's and process factor's effect on a response at the reference blend
+    (``tradeoff.maps.mixture_tables.blend_effects``)."""
+    return _blend_effects(study_keys(study)[0], study, fitted, response, _held_items(held))
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _cox_traces(key: str, _study, _fit, held: tuple):
+    from tradeoff.maps.mixture_tables import mixture_trace
+
+    return mixture_trace(_study, _fit, settings=dict(held))
+
+
+def cox_traces(study, fitted, held: dict):
+    """Every response along each component's Cox direction through the reference blend
+    (``tradeoff.maps.mixture_tables.mixture_trace``)."""
+    return _cox_traces(study_keys(study)[0], study, fitted, _held_items(held))

@@ -27,6 +27,8 @@ KEYS = {
     "spread": "factor name -> production SD typed on the targets view (None: none)",
     "chosen": "index of the solution the maps and what-if panel start from",
     "whatif": "factor name -> natural setting typed in the what-if panel",
+    "whatif_note": "why the last edit of a blend in the what-if panel was refused (None: "
+                   "nothing refused)",
     "open_error": "the last error from opening files (kept while they stay uploaded)",
     "upload_digest": "digest of the uploaded files last tried, so each is tried once",
     "draft": "a bare data table waiting for its factor and response columns",
@@ -61,6 +63,7 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["reduce"] = set()
     st.session_state["chosen"] = 0
     st.session_state["whatif"] = {}
+    st.session_state["whatif_note"] = None
     st.session_state["spread"] = {f.name: f.production_sd for f in study.factors
                                   if not f.is_categorical}
     st.session_state["whatif_from"] = None
@@ -72,7 +75,7 @@ def init() -> None:
     """Create every key once per session; on first run open the study argument or the demo."""
     ss = st.session_state
     defaults = {"top": 5, "rank_by": "desirability", "reduce": set(), "chosen": 0,
-                "whatif": {}, "open_error": None, "upload_digest": None, "draft": None,
+                "whatif": {}, "whatif_note": None, "open_error": None, "upload_digest": None, "draft": None,
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
                 "aim": "balance", "spread": {},
                 "whatif_from": None, "compare_shown": set(), "next_runs": 0}

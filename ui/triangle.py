@@ -16,6 +16,10 @@ from tradeoff_ui import cached, charts, text
 
 __all__ = ["blend_triangle"]
 
+# The triangle's width in px: the whole main column at 1280 px (about 820 px wide),
+# so the blends are read at a size where 1 % is a visible step
+SIZE = 780
+
 
 def blend_triangle(study, fitted, best, chosen) -> None:
     """Contour lines or the limits map over three components, the rest held at the
@@ -74,7 +78,7 @@ def blend_triangle(study, fitted, best, chosen) -> None:
     if shown_value == "limits":
         titles = {r.name: r.display() for r in study.responses}
         charts.show(charts.ternary_limits_chart, tlim, axes, titles, marks, d_lines,
-                    width="content")
+                    SIZE, width="content")
         st.caption(f"Held at {held_text} ({text.plain(chosen.label)}). Each line is one "
                    "response's limit, in that response's colour and dash, with short ticks "
                    "on the side where the limit fails. The thin black outline surrounds the "
@@ -88,7 +92,7 @@ def blend_triangle(study, fitted, best, chosen) -> None:
         r = None if shown_value == "D" else study.response(shown_value)
         title = "overall desirability D" if r is None else charts.titled(r.label, r.unit)
         charts.show(charts.ternary_chart, part, lines, axes, tlim.bounds, value, title, marks,
-                    width="content")
+                    SIZE, width="content")
         st.caption(f"Held at {held_text} ({text.plain(chosen.label)}). Each line joins "
                    f"blends with the same predicted {'D' if r is None else 'value'}; the "
                    "number on it is that value. The black outline surrounds the blends "

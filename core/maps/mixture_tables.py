@@ -20,8 +20,8 @@ import pandas as pd
 from ..errors import ModelError, StudyError
 from ..study.mixture import components_of, process_factors_of
 
-__all__ = ["reference_blend", "cox_direction", "mixture_trace", "mixture_effects",
-           "blend_inside", "ternary_setup", "ternary_grid"]
+__all__ = ["reference_blend", "cox_direction", "cox_edit", "blend_on_total", "mixture_trace",
+           "mixture_effects", "blend_effects", "blend_inside", "ternary_setup", "ternary_grid"]
 
 
 def _require_components(study) -> list:
@@ -81,6 +81,67 @@ def cox_direction(s: np.ndarray, i: int) -> np.ndarray:
     a = -s / rest
     a[i] = 1.0
     return a
+
+
+def cox_edit(study, amounts: dict, name: str, value: float, *,
+             keep_total: bool = True) -> dict:
+    """The blend after one component is set to ``value``: the others along Cox's direction.
+
+    The other components share what is left of the total in the ratios they
+    had (Cox 1971; Cornell (2002), Experiments with Mixtures, 3rd ed., sec.
+    5.8): ``x_j' = x_j (total - value) / (total - x_i)``. When the others
+    held nothing (a pure component), they share the rest in their ratios at
+    the centre of the allowed blends. ``keep_total=False`` asks for the others
+    to stay as they are and the total to change, which a study with a fixed
+    total (every ``[mixture]``) refuses with a message.
+
+    Returns the new amounts of every component (study units), adding up to the
+    total exactly; raises StudyError when ``value`` cannot be part of a blend.
+    """
+    comps = _require_components(study)
+    names = [c.name for c in comps]
+    if name not in names:
+        raise StudyError(f"'{name}' is not a component of the study: the components are "
+                         f"{', '.join(names)}")
+    comp = comps[names.index(name)]
+    total = comp.total
+    unit = f" {comp.unit}" if comp.unit else ""
+    if not keep_total:
+        raise StudyError(f"the study fixes the blend's total at {total:g}{unit} ([mixture] "
+                         "total): the models know only blends of that total, so more of "
+                         f"{comp.label} must come out of the others; they keep their ratios "
+                         "to each other instead")
+    value = float(value)
+    if not np.isfinite(value) or value < 0 or value > total:
+        raise StudyError(f"{comp.label} = {value:g}{unit} cannot be part of a blend that "
+                         f"totals {total:g}{unit}: give an amount from 0 to {total:g}")
+    others = [n for n in names if n != name]
+    old = np.array([float(amounts[n]) for n in others])
+    if old.sum() <= 1e-12 * total:  # a pure component: the others' ratios at the centre
+        centre = reference_blend(study)
+        old = np.array([centre[n] for n in others])
+    new = dict(zip(others, old * (total - value) / old.sum()))
+    new[name] = value
+    return {n: float(new[n]) for n in names}
+
+
+def blend_on_total(study, amounts: dict) -> tuple[dict, float]:
+    """(the blend scaled to the study's total, the sum it had): same shares.
+
+    A blend is known by its shares of the total: 44 + 16.5 + 49.5 = 110 is the
+    blend 40 + 15 + 45 = 100 made in a larger batch. Raises StudyError on a
+    negative amount or a blend of nothing.
+    """
+    comps = _require_components(study)
+    total = comps[0].total
+    values = np.array([float(amounts[c.name]) for c in comps])
+    for c, v in zip(comps, values):
+        if not np.isfinite(v) or v < 0:
+            raise StudyError(f"{c.label} = {v:g}: a component's amount cannot be below 0")
+    s = float(values.sum())
+    if s <= 0:
+        raise StudyError("every component is 0: there is no blend to predict")
+    return {c.name: float(v * total / s) for c, v in zip(comps, values)}, s
 
 
 def _stretch(s, a, lo, hi) -> tuple[float, float]:
@@ -183,6 +244,88 @@ def mixture_effects(study, fit, *, reference: dict | None = None,
                          "slope": float((pred[0] - pred[1]) / (2 * h))})
     return pd.DataFrame(rows, columns=["response", "component", "low_amount",
                                        "high_amount", "effect", "slope"])
+
+
+def blend_effects(study, fit, response: str, *, reference: dict | None = None,
+                  settings: dict | None = None, level: float | None = None) -> pd.DataFrame:
+    """What each component and each process factor does to one response, with intervals.
+
+    A blend's coefficients are not effects (a Scheffe coefficient is the
+    prediction at a pure component, usually far outside the blends tried), so a
+    component's effect is read along its Cox direction through the reference
+    blend: from the lowest to the highest amount the bounds allow while the
+    others keep their ratios (Cornell (2002), Experiments with Mixtures, 3rd
+    ed., sec. 5.8). A numeric process factor goes from its low to its high, a
+    categorical one from the level held to each other level, at the reference
+    blend. Each effect is a difference of two predicted means, so its interval
+    is ``t(df) * sqrt(v11 + v22 - 2 v12)`` from the covariance of the two
+    means (``model.mean_covariance``); for a transformed response the effect is
+    in natural units and no interval is given (NaN).
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per component and process change, largest size first. Columns
+        ``term`` (factor name), ``what`` (the change in words: "Rice flour 40 % ->
+        70 %"), ``kind`` (``component`` or ``process``),
+        ``start`` and ``end`` (amounts, settings or level names of the two
+        ends), ``effect`` (predicted at the end minus at the start, natural
+        units), ``ci_low``, ``ci_high`` (NaN without an error estimate).
+    """
+    from scipy import stats
+
+    comps = _require_components(study)
+    model = _models(fit).get(response)
+    if model is None:
+        raise ModelError(f"no fitted model for '{response}': fit it first")
+    level = model.confidence if level is None else float(level)
+    total = comps[0].total
+    ref = reference_blend(study, reference)
+    s = np.array([ref[c.name] for c in comps]) / total
+    lo = np.array([c.low for c in comps]) / total
+    hi = np.array([c.high for c in comps]) / total
+    proc = _process_settings(study, settings)
+    pairs = []  # (term, kind, start, end, start table row, end table row)
+    for i, c in enumerate(comps):
+        a = cox_direction(s, i)
+        t_lo, t_hi = _stretch(s, a, lo, hi)
+        ends = [s + t * a for t in (t_lo, t_hi)]
+        rows = [{**{cc.name: e[j] * total for j, cc in enumerate(comps)}, **proc}
+                for e in ends]
+        pairs.append((c.name, "component", rows[0][c.name], rows[1][c.name], *rows))
+    for f in process_factors_of(study):
+        base = {**ref, **proc}
+        if f.is_categorical:
+            for other in f.levels:
+                if other != proc[f.name]:
+                    pairs.append((f.name, "process", proc[f.name], other, base,
+                                  {**base, f.name: other}))
+        else:
+            pairs.append((f.name, "process", f.low, f.high, {**base, f.name: f.low},
+                          {**base, f.name: f.high}))
+    out = []
+    for term, kind, start, end, r0, r1 in pairs:
+        X = _coded(study, pd.DataFrame([r0, r1]))
+        pred = np.asarray(model.predict(X), dtype=float)
+        effect = float(pred[1] - pred[0])
+        low = high = np.nan
+        if getattr(model, "transform", "none") == "none":
+            V = np.asarray(model.mean_covariance(X, X), dtype=float)
+            _, _, sigma, df = model.predictive(X[:1])
+            var = V[0, 0] + V[1, 1] - 2 * V[0, 1]
+            if df > 0 and np.isfinite(var) and sigma == sigma:
+                half = float(stats.t.ppf(0.5 + level / 2, df) * np.sqrt(max(var, 0.0)))
+                low, high = effect - half, effect + half
+        f = study.factor(term)
+        unit = f" {f.unit}" if f.unit and not f.is_categorical else ""
+        ends = [v if isinstance(v, str) else f"{v:.4g}{unit}" for v in (start, end)]
+        out.append({"term": term, "what": f"{f.label} {ends[0]} \u2192 {ends[1]}",
+                    "kind": kind, "start": start, "end": end,
+                    "effect": effect, "ci_low": low, "ci_high": high})
+    table = pd.DataFrame(out, columns=["term", "what", "kind", "start", "end", "effect",
+                                       "ci_low", "ci_high"])
+    order = np.argsort(-np.abs(table["effect"].to_numpy(float)), kind="stable")
+    return table.iloc[order].reset_index(drop=True)
 
 
 def blend_inside(study, amounts: np.ndarray, X: np.ndarray) -> np.ndarray:

@@ -61,12 +61,18 @@ def runs_table(study, fit=None, *, unusual: float = 3.0) -> pd.DataFrame:
     # position 0, 1, 2, ..., not -1..+1)
     beyond = (np.abs(coded) > 1 + OUTSIDE_TOL) & ~np.array(
         [f.is_categorical for f in study.factors], dtype=bool)[None, :]
+    for j, f in enumerate(study.factors):  # a component: its amount beyond low..high
+        if getattr(f, "is_component", False):
+            beyond[:, j] = [_beyond(f, v, 0.0) for v in runs[f.name].to_numpy(float)]
     out["outside"] = beyond.any(axis=1)
     marks: list[list[str]] = [[] for _ in range(len(out))]
     for j, f in enumerate(study.factors):
         for i in np.flatnonzero(beyond[:, j]):
             marks[i].append(f"outside the tested box in {f.name} "
-                            f"(coded {coded[i, j]:+.2f})")
+                            + (f"({runs[f.name].iloc[i]:.4g} {f.unit}, allowed "
+                               f"{f.low:g}..{f.high:g})".replace(" ,", ",")
+                               if getattr(f, "is_component", False) else
+                               f"(coded {coded[i, j]:+.2f})"))
     for r in study.responses:
         if r.name in runs:
             for i in np.flatnonzero(np.isnan(runs[r.name].to_numpy(float))):
@@ -326,7 +332,7 @@ def contour_grid(study, fit, x: str, y: str, held: dict, *, n: int = 41) -> pd.D
 
 @dataclass(frozen=True)
 class WhatIf:
-    """Predictions at settings typed by hand.
+    """Predictions at settings typed by hand: every figure from one recipe.
 
     Attributes
     ----------
@@ -344,6 +350,12 @@ class WhatIf:
         Factors set outside their tested range (the model is extrapolating).
     allowed : bool
         The study's rules among factors hold.
+    settings : dict
+        The one recipe every figure above is for (natural units): the settings
+        given, except a blend that does not add up to the study's total, which
+        is scaled to it (same shares; ``notes`` says so).
+    notes : tuple of str
+        What the reader must know about the recipe (a blend off its total).
     """
 
     table: pd.DataFrame
@@ -351,6 +363,8 @@ class WhatIf:
     chance_all: float
     outside: tuple
     allowed: bool
+    settings: dict | None = None
+    notes: tuple = ()
 
 
 def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
@@ -358,25 +372,49 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
 
     ``settings`` holds a natural value (level name for a categorical factor)
     for every factor. Chances use the seeded Monte Carlo of
-    ``tradeoff.chance.chance_in_limits`` with the study's seed.
+    ``tradeoff.chance.chance_in_limits`` with the study's seed. Every figure
+    (predictions, each d, D, chances) is computed at one coded vector: the d's
+    and D score the very predictions in the table. A blend whose components do
+    not add up to the total is scaled to it first (a blend is its shares), with
+    a note saying so.
     """
     from ..search.chance import chance_in_limits, withhold_beyond_reach
     from ..study.constraints import rules_satisfied
-    from ..search.problem import goal_columns, overall_desirability
+    from ..study.mixture import components_of
+    from ..search.problem import _Problem
+    from .mixture_tables import blend_on_total
 
     missing = [f.name for f in study.factors if f.name not in settings]
     if missing:
         raise StudyError(f"no setting given for factor(s) {missing}: set every factor")
-    X = to_coded(study.factors, pd.DataFrame({k: [settings[k]] for k in study.factor_names}))
-    pred = fit.predict({k: settings[k] for k in study.factor_names})
+    used = {k: settings[k] for k in study.factor_names}
+    notes = []
+    comps = components_of(study)
+    if comps:
+        scaled, given = blend_on_total(study, used)
+        total = comps[0].total
+        if abs(given - total) > 1e-9 * total:
+            unit = f" {comps[0].unit}" if comps[0].unit else ""
+            notes.append(f"the components add up to {given:.6g}{unit}, not the blend's "
+                         f"total {total:g}{unit}: a blend is known by its shares, so every "
+                         f"figure is for the same shares scaled to {total:g}{unit} ("
+                         + ", ".join(f"{c.label} {scaled[c.name]:.4g}" for c in comps)
+                         + ")")
+        used.update(scaled)
+    X = to_coded(study.factors, pd.DataFrame({k: [used[k]] for k in study.factor_names}))
+    pred = fit.predict(used)
     table = pred.drop(columns=["point"], errors="ignore").reset_index(drop=True)
-    columns = goal_columns(study, fit)
     d_by_name = {}
     D = np.nan
-    if columns:
-        D_arr, d = overall_desirability(study, fit, X)
+    problem = _Problem(study, fit)
+    if problem.columns:
+        # the d's and D score the predictions of the table itself: one recipe per row
+        by_name = dict(zip(table["response"], table["predicted"].astype(float)))
+        Y = np.array([[by_name[n] if kind == "response" else float(used[n])
+                       for kind, n in problem.columns]])
+        D_arr, d = problem.score(Y)
         D = float(D_arr[0])
-        d_by_name = {name: float(d[0, i]) for i, (_, name) in enumerate(columns)}
+        d_by_name = {name: float(d[0, i]) for i, (_, name) in enumerate(problem.columns)}
     chance = chance_in_limits(study, dict(fit.models), X, draws=draws, seed=study.seed)
     # no chance for a time past what the storage supports (derive/reach.py)
     chance = withhold_beyond_reach(study, chance, {
@@ -392,8 +430,19 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
     table["lower_limit"], table["upper_limit"] = lows, highs
     table["desirability"] = [d_by_name.get(n, np.nan) for n in table["response"]]
     table["chance_in_limits"] = [chance_by_name.get(n, np.nan) for n in table["response"]]
+    # a component's coded value is its pseudo-component share (0 at its low), so its
+    # tested range is low..high in amounts, not coded -1..+1
     outside = tuple(f.name for j, f in enumerate(study.factors)
-                    if not f.is_categorical and abs(X[0, j]) > 1 + OUTSIDE_TOL)
+                    if not f.is_categorical and _beyond(f, float(used[f.name]), X[0, j]))
     return WhatIf(table=table, desirability=D,
                   chance_all=float(chance.all[0]) if chance.responses else np.nan,
-                  outside=outside, allowed=bool(rules_satisfied(study, X)[0]))
+                  outside=outside, allowed=bool(rules_satisfied(study, X)[0]),
+                  settings=used, notes=tuple(notes))
+
+
+def _beyond(factor, value: float, coded: float) -> bool:
+    """A setting outside the factor's tested range (a component: beyond low..high)."""
+    if getattr(factor, "is_component", False):
+        tol = OUTSIDE_TOL * factor.total
+        return value < factor.low - tol or value > factor.high + tol
+    return abs(coded) > 1 + OUTSIDE_TOL

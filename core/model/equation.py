@@ -9,7 +9,7 @@ import numpy as np
 from .columns import column_label
 from .terms import Term
 
-__all__ = ["fitted_equations", "natural_equation"]
+__all__ = ["fitted_equations", "natural_equation", "amount_equation"]
 
 
 def fitted_equations(terms: Sequence[Term], coef: np.ndarray, factors,
@@ -64,3 +64,30 @@ def natural_equation(terms: Sequence[Term], coef: np.ndarray, factors,
     keys = sorted(poly, key=lambda q: (sum(q[0]), order.get(q, len(order)), q))
     return {column_label(q, list(factor_names), cells, levels): poly[(q, cells)]
             for q, cells in keys}
+
+
+def amount_equation(proportions: dict[str, float], components: Sequence[str],
+                    total: float) -> dict[str, float]:
+    """A blend's equation in proportions rewritten for the components' amounts.
+
+    With x_i = a_i / total (a_i the amount in the study's units), a term of
+    degree d in the components (x_i: 1, x_i x_j: 2, x_i x_j (x_i - x_j) and
+    x_i x_j x_k: 3) takes its coefficient divided by total ** d; process
+    parts keep their coded units. ``proportions`` is the equation of
+    ``tradeoff.model.scheffe.proportion_equation`` (labels joined by ':', a
+    blending contrast written '(a-b)').
+    """
+    comps = set(components)
+    total = float(total)
+    out = {}
+    for label, value in proportions.items():
+        degree = 0
+        for part in label.split(":"):
+            if part.startswith("(") and part.endswith(")"):
+                degree += 1  # the contrast (a_i - a_j) / total
+                continue
+            name, _, power = part.partition("^")
+            if name in comps:
+                degree += int(power) if power else 1
+        out[label] = float(value) / total ** degree
+    return out

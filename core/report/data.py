@@ -197,13 +197,20 @@ def _get(mapping, key):
     return mapping.get(key)
 
 
+def _pure_component(rep: dict, term: str) -> bool:
+    """A blend's component alone: its coefficient is the prediction for the pure
+    component, not an effect, so it gets no test (every term of a blend's model
+    names a component; one without ':' is a component alone)."""
+    return rep.get("mixture_scale") is not None and ":" not in term
+
+
 def _is_clear(rep: dict, term: str, alpha: float) -> bool | None:
     """Is a term's effect clearly larger than the noise?
 
     p below 1 - confidence when the model has residual degrees of freedom;
     otherwise |effect| above Lenth's margin of error (saturated designs).
     """
-    if term == "intercept":
+    if term == "intercept" or _pure_component(rep, term):
         return None
     p = _get(rep.get("p_values"), term)
     if p is not None:

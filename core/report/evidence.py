@@ -10,7 +10,7 @@ import pandas as pd
 from ..model.terms import model_label
 from ..model.transforms import power_advice
 from .charts import _arrhenius_chart, _chart_div, _effects_chart
-from .data import _g, _get, _is_clear, _p, _r2
+from .data import _g, _get, _is_clear, _p, _pure_component, _r2
 from .sections import _Sections, _table, esc
 
 __all__ = ["_EvidenceSections"]
@@ -42,10 +42,12 @@ class _EvidenceSections(_Sections):
                 out.append("</div>")
                 continue
             out.append(self._fit_stats(rep))
-            # a component's own blending term is its pure blend's response, no effect:
-            # its bar would dwarf every effect
-            out.append(_effects_chart(r, self.data["fitted"][r.name], leave_out={
-                f.name for f in self.study.factors if getattr(f, "is_component", False)}))
+            if rep.get("mixture_scale") is not None and hasattr(self, "blend_model"):
+                # a blend's terms are not effects: Cox directions instead
+                out.append(self.blend_model(r, rep))
+            else:
+                out.append(_effects_chart(r, self.data["fitted"][r.name], leave_out={
+                    f.name for f in self.study.factors if getattr(f, "is_component", False)}))
             out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))
@@ -146,12 +148,13 @@ class _EvidenceSections(_Sections):
         shown = 0
         for term in rep["terms"]:
             clear = _is_clear(rep, term, alpha)
-            if term in blocks or (term != "intercept" and not clear):
+            pure = _pure_component(rep, term)  # a blend's component alone: no test
+            if term in blocks or (term != "intercept" and not pure and not clear):
                 continue
             rows.append([esc(term), _g(_get(rep["coefficients"], term)),
                          _g(_get(rep["effects"], term)),
                          _g(_get(rep["std_errors"], term)),
-                         _p(_get(rep["p_values"], term))])
+                         "-" if pure else _p(_get(rep["p_values"], term))])
             shown += 1
         # the last level of a factor of three or more levels has no column of its
         # own: its deviation is minus the sum of the others (model/levels.py)
@@ -166,9 +169,15 @@ class _EvidenceSections(_Sections):
                 "are in the workbook's terms sheet.</p>" if hidden else "")
         levels = ("; the last level, which has no column of its own, is minus the sum "
                   "of the others" if derived else "")
-        return ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
+        head = ("<p><b>Clear terms</b> (coefficients in coded units; effect = change from "
                 "the low to the high setting; for a level alone, such as flour[oat], its "
-                f"deviation from the average over the levels{levels})</p>"
+                f"deviation from the average over the levels{levels})</p>")
+        if rep.get("mixture_scale") is not None:  # a blend: no coded effects
+            head = ("<p><b>Clear terms</b> (coefficients as fitted, the components as "
+                    "shares of what their lows leave; a component alone is the prediction "
+                    "for that pure component, not an effect, so it has no p-value"
+                    f"{levels})</p>")
+        return (head
                 + _table(["term", "coefficient", "effect", "std error", "p"], rows,
                          numeric={1, 2, 3, 4}) + note)
 

@@ -135,7 +135,11 @@ def _response_text(r: dict) -> list[str]:
     for term in r["terms"]:
         line = (f"  {term:<28}{_f(r['coefficients'][term]):>14}"
                 f"{_f(r['effects'].get(term)):>12}")
-        if not saturated:
+        if not saturated and blend is not None and ":" not in term:
+            # a component alone: its coefficient is the pure component's prediction, not
+            # an effect, so a test of it against 0 says nothing about the blend
+            line += f"{_f(r['std_errors'][term]):>12}{'-':>9}{'-':>10}"
+        elif not saturated:
             line += (f"{_f(r['std_errors'][term]):>12}{_f(r['t_values'][term], '.3g'):>9}"
                      f"{_p(r['p_values'][term]):>10}")
             if term in margins:
@@ -147,6 +151,10 @@ def _response_text(r: dict) -> list[str]:
                 "stands out alone" if e > r["lenth"]["me"] else ""
             line += f"  {mark}"
         out.append(line)
+    if blend is not None and not saturated:
+        out.append("  a component alone has no t or p: its coefficient is the prediction for "
+                   "that pure component, not an effect (effects of a blend: along Cox "
+                   "directions)")
     for d in r.get("derived_coefficients") or []:
         line = f"  {d['term']:<28}{_f(d['estimate']):>14}{_f(d.get('effect')):>12}"
         if not saturated:

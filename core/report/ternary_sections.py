@@ -99,3 +99,45 @@ class _TernarySections(_Sections):
                 "grey outline surrounds the allowed blends where every limit holds "
                 f"({tlim.share:.0%} of them); faint dotted lines: D. Right: lines of equal "
                 "overall desirability D, each labelled with its value.</p>")
+
+    def blend_model(self, response, rep: dict) -> str:
+        """A blend's response read along Cox directions: each component's and process
+        factor's effect with its interval, and the fitted equation in amounts."""
+        from ..maps.blend_pictures import blend_effects_picture
+        from ..maps.mixture_tables import blend_effects, reference_blend
+        from ..model.equation import amount_equation
+        from ..model.study_fit import StudyFit
+        from ..study.mixture import components_of, process_factors_of
+        from .data import _g
+        from .sections import _table
+
+        comps = components_of(self.study)
+        fit = StudyFit(study=self.study, models=dict(self.data["fitted"]),
+                       skipped=dict(self.data["skipped"]))
+        table = blend_effects(self.study, fit, response.name)
+        title = (f"Change in {response.label} ({response.unit})" if response.unit
+                 else f"Change in {response.label}")
+        ref = reference_blend(self.study)
+        ref_text = ", ".join(f"{c.label} {_g(ref[c.name])}" + (f" {c.unit}" if c.unit else "")
+                             for c in comps)
+        held = "; ".join(f"{f.label} at " + (f.levels[0] if f.is_categorical else
+                                             f"{_g(f.centre)} {f.unit}".strip())
+                         for f in process_factors_of(self.study))
+        out = [f"<p><b>What each part of the recipe does</b> (a blend's coefficients are not "
+               "effects: each component is read along its Cox direction, from the least to "
+               "the most of it the bounds allow while the others keep their ratios, through "
+               f"the centre of the allowed blends: {esc(ref_text)}"
+               + (f"; {esc(held)}" if held else "") + f". Dots: the change in the predicted "
+               f"mean; bars: its {self.pct} interval.)</p>",
+               _chart_div(_svg(blend_effects_picture(
+                   table[["what", "effect", "ci_low", "ci_high"]], title, width=420)))]
+        proportions = rep.get("proportion_coefficients")
+        if proportions:
+            eq = amount_equation(proportions, [c.name for c in comps], comps[0].total)
+            rows = [[esc(k), _g(v)] for k, v in eq.items() if v != 0.0]
+            unit = comps[0].unit or "study units"
+            out.append(f"<p><b>The equation in amounts</b> (each component in {esc(unit)}, "
+                       f"adding up to {_g(comps[0].total)}; process factors coded -1 at low, "
+                       "+1 at high, a level by its level columns)</p>"
+                       + _table(["term", "coefficient"], rows, numeric={1}))
+        return "".join(out)

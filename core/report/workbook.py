@@ -11,7 +11,8 @@ import pandas as pd
 from ..model.terms import model_label
 from ..model.transforms import power_advice
 from ..study.safe_cells import workbook_bytes
-from .data import CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, report_data
+from .data import (CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, _pure_component,
+                   report_data)
 from .sections import _withheld
 
 __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
@@ -136,7 +137,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
                 "coefficient": _get(rep["coefficients"], term),
                 "effect": _get(rep["effects"], term),
                 "std error": _get(rep["std_errors"], term),
-                "p value": _get(rep["p_values"], term),
+                "p value": None if _pure_component(rep, term) else _get(rep["p_values"], term),
                 "clear": _is_clear(rep, term, alpha),
                 "effect from (alone)": _finite(est.at[term, "alone_low"]) if shown else None,
                 "effect to (alone)": _finite(est.at[term, "alone_high"]) if shown else None,

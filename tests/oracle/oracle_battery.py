@@ -38,6 +38,10 @@ loads and fits the same study through the public API, and checks:
 - ``next``, ``plan``, ``confirm``: suggestions keep their distance and score
   as the models say; a plan's run sheet lies in the region; each confirmation
   is compared with the interval for the mean of its m runs;
+- ``what_if``: the what-if answer at each of the first two solutions is one recipe:
+  predictions, d's and D recomputed at the settings it names, D the solution's;
+  a blend typed 10 % over its total is named and read as its shares; a Cox move
+  of one component keeps the total and the others' ratios (oracle_whatif.py);
 - ``derive``: derived responses equal a recomputation from the raw storage
   and panel tables (oracle_derive.py); ``panel``: the panel command's run F
   and degrees of freedom equal a recomputation (mapped, wide and
@@ -64,10 +68,11 @@ from pathlib import Path
 
 from oracle_checks import (check_confirm, check_fit, check_next, check_plan, check_report_html,
                            check_report_xlsx, check_solutions, check_unused, check_display,
-                           check_unjudged)
+                           check_unjudged, goals_of)
 from oracle_derive import check_derived, check_panel
 from oracle_fit_text import check_fit_text
 from oracle_screening import check_screening_fit, check_screening_plan
+from oracle_whatif import check_what_if
 
 __all__ = ["Outcome", "run_battery", "TOP"]
 
@@ -228,6 +233,7 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
                     outcome.fail("api_cli", "optimize", f"'{key}' differs between "
                                  f"optimize --json and tradeoff.optimize")
             check_solutions(generated, study, fit, result, outcome)
+            check_what_if(generated, study, fit, result, goals_of(generated, fit), outcome)
             if generated.unjudged or generated.empty_levels:
                 check_unjudged(generated, study, fit, result, outcome)
             if any(f.kind == "categorical" and len(f.levels) > 2 for f in generated.region.factors):

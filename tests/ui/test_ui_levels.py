@@ -96,8 +96,15 @@ def test_results_offer_the_hydrocolloid_in_slices_and_what_if():
 
 def test_the_study_view_names_the_levels():
     at = _open("study")
-    factors = at.dataframe[0].value.set_index("factor")
+    # the flours first, as amounts that add up (never coded -1/+1), then the process
+    components = at.dataframe[0].value.set_index("component")
+    assert list(components.index) == ["rice_flour", "sorghum_flour", "tapioca_starch"]
+    assert not any("coded" in c for c in components.columns)
+    assert components.loc["tapioca_starch", "highest"] == "45"  # 50 cannot be reached
+    assert any("components add up to 100 % in every run" in m.value for m in at.markdown)
+    factors = at.dataframe[1].value.set_index("factor")
+    assert list(factors.index) == ["bake_temp", "hydrocolloid"]
     assert factors.loc["hydrocolloid", "levels"] == ", ".join(LEVELS)
-    runs = at.dataframe[2].value
+    runs = at.dataframe[3].value
     assert set(runs["hydrocolloid"]) == set(LEVELS)
     _no_none_or_coded_level(at)

@@ -32,8 +32,9 @@ def _results(upload: tuple[str, ...] = ()) -> AppTest:
 def test_the_flour_blend_shows_its_triangle():
     at = _results(("flour_blend.toml", "flour_blend_runs.csv"))
     assert "Blend triangle" in [s.value for s in at.subheader]
-    # no square map over two flours (they must add up); the triangle instead
-    assert any("besides the blend's components" in c.value for c in at.caption)
+    # no square map over two flours (they must add up), and no empty section for it:
+    # the triangle instead
+    assert "Maps over two factors" not in [s.value for s in at.subheader]
     show = at.selectbox(key="r_tri_value")
     assert show.value == "limits"
     assert any("of the allowed blends" in c.value for c in at.caption)

@@ -149,7 +149,8 @@ def test_what_if_outside_the_tested_range_is_flagged():
     protein = next(n for n in at.number_input if n.key.endswith(".protein"))
     protein.set_value(34.0).run()
     assert not at.exception
-    assert any("Outside the tested range: protein" in w.value for w in at.warning)
+    # named by its label, as the boxes are
+    assert any("Outside the tested range: Protein content" in w.value for w in at.warning)
 
 
 def test_the_report_is_offered_after_preparing_it():

@@ -12,7 +12,7 @@ from tradeoff.study.spec import MODELS
 from tradeoff.model.dependence import combination_text
 from tradeoff.model.terms import model_terms
 from tradeoff.model.transforms import power_advice
-from tradeoff_ui import cached, charts, panels, text
+from tradeoff_ui import blend_model, cached, charts, panels, text
 from tradeoff_ui.shown import blank_none, num, p_text
 
 ss = st.session_state
@@ -38,8 +38,13 @@ candidates = [t.label for t in model_terms("full", study.factor_names)[0]
 with st.container(border=True):
     st.markdown("**Model terms**")
     options = list(MODELS) + [OWN]
+    blend = study.mixture is not None
+    if blend:  # the Scheffe blend part is set in [mixture]; the choice is the process part
+        st.caption(text.plain(
+            f"The blend part is the {study.mixture.model.replace('_', ' ')} blending model "
+            "of the study file; below, how the process factors enter."))
     choice = st.selectbox(
-        "Start from", options,
+        "Process model" if blend else "Start from", options,
         index=options.index(current) if isinstance(current, str) else len(MODELS),
         help="main: one effect per factor; interactions: plus every pair; full: every "
              "combination; quadratic: plus squares (needs three or more settings); "
@@ -132,6 +137,11 @@ if report.get("reduction"):
     st.info("Reduction dropped: " + text.plain(", ".join(f"{t} ({p})"
                                                          for t, p in dropped.items()))
             if dropped else "Reduction kept every term.")
+
+if blend_model.is_blend_model(model):  # components move together: Cox directions
+    blend_model.blend_view(study, fitted, name, response, model, report, unit)
+    panels.model_comparison(study, name)
+    st.stop()
 
 left, right = st.columns([3, 2])
 with left:

@@ -10,7 +10,7 @@ from tradeoff.maps.pictures import limits_note
 from tradeoff.maps.trace_picture import trace_note
 from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
 from tradeoff.search.result import fewer_solutions_text
-from tradeoff_ui import cached, charts, panels, text, triangle
+from tradeoff_ui import cached, charts, panels, text, triangle, what_if
 from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
@@ -177,15 +177,16 @@ if result.assumptions:
                + text.plain(" ".join(result.assumptions)))
 
 # -- maps ---------------------------------------------------------------------------------
-st.subheader("Maps over two factors")
 best = result.solutions[0]
 # a blend's components go in the triangle below: two of them over a square would
 # hold the others off the total
 mappable = [n for n in numeric if not getattr(study.factor(n), "is_component", False)]
+blend = any(getattr(f, "is_component", False) for f in study.factors)
+if len(mappable) >= 2 or not blend:  # a blend without two process factors: the triangle
+    st.subheader("Maps over two factors")
 if len(mappable) < 2:
-    st.caption("Maps need two numeric factors" + (
-        " besides the blend's components (see the blend triangle)"
-        if any(getattr(f, "is_component", False) for f in study.factors) else "") + ".")
+    if not blend:
+        st.caption("Maps need two numeric factors.")
 else:
     has_d = bool(fitted.models) and any(r.goal.active for r in study.responses)
     what_options = (["limits", "D"] if has_d else []) + list(fitted.models)
@@ -261,54 +262,7 @@ else:
                     where=cols[i % 2], width="stretch")
 
 # -- what-if ------------------------------------------------------------------------------
-st.subheader("What if I make it like this?")
-st.caption("Set the factors by hand; predictions update with their intervals.")
-if ss["whatif_from"] != chosen.label:
-    # another solution was chosen: start the panel from it, as its button says
-    ss["whatif"], ss["whatif_nonce"] = {}, ss["whatif_nonce"] + 1
-    ss["whatif_from"] = chosen.label
-nonce = ss["whatif_nonce"]
-if st.button(f"Start from {text.plain(chosen.label)}", key="r_whatif_reset"):
-    ss["whatif"], ss["whatif_nonce"] = {}, nonce + 1
-    nonce += 1
-settings = {}
-cols = st.columns(len(study.factors))
-for col, f in zip(cols, study.factors):
-    start = ss["whatif"].get(f.name, chosen.settings[f.name])
-    key = f"w{ss['epoch']}.{nonce}.{f.name}"
-    if f.is_categorical:
-        settings[f.name] = col.selectbox(text.plain(f.display()), list(f.levels),
-                                         index=list(f.levels).index(start), key=key)
-    else:
-        step = (f.high - f.low) / 20
-        settings[f.name] = col.number_input(text.plain(f.display()), value=float(start),
-                                            step=float(step), format="%.4g", key=key)
-ss["whatif"] = settings
-try:
-    answer = cached.what_if(study, fitted, settings)
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-else:
-    if answer.outside:
-        st.warning("Outside the tested range: " + text.plain(", ".join(answer.outside))
-                   + ". The model is extrapolating; predictions there are guesses.")
-    if not answer.allowed:
-        st.warning("These settings break a rule among factors set in the study.")
-    t = answer.table
-    _far = {n for n, v in zip(t["response"], t["predicted"]) if n in study.reach
-            and study.response(n).goal.active and study.reach[n].status(v)[0] == "far"}
-    st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
-                f"within its limits: **{NOT_STATED if _far else chance_text(answer.chance_all)}**")
-    st.dataframe(pd.DataFrame({
-        "response": [study.response(n).display() for n in t["response"]],
-        "predicted": t["predicted"].map(num),
-        f"mean ({pct})": [span(a, b) for a, b in zip(t["ci_low"], t["ci_high"])],
-        f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
-        "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
-        "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance in limits": [NOT_STATED if n in _far else chance_text(c) for n, c in
-                             zip(t["response"], t["chance_in_limits"])]}),
-        hide_index=True, key="r_whatif_table")
+what_if.what_if_panel(study, fitted, chosen, pct)
 
 # -- make next ----------------------------------------------------------------------------
 panels.make_next(study, fitted, result.best)

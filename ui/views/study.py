@@ -115,10 +115,39 @@ for col in unused_columns(study):  # a batch or day column often marks blocks
                        f"{col['might_be']}"
                        + (f"; to use it, add {col['key']}" if col["key"] else "") + "."))
 
-st.subheader("Factors (what you set)")
-_many = any(f.is_categorical and len(f.levels) > 2 for f in study.factors)
+# a blend's components are amounts that add up, never coded -1/+1: a table of their own
+_comps = [f for f in study.factors if getattr(f, "is_component", False)]
+_process = [f for f in study.factors if not getattr(f, "is_component", False)]
+if _comps:
+    st.subheader("Blend components (what the blend is made of)")
+    _total, _unit = _comps[0].total, _comps[0].unit
+    _u = f" {_unit}" if _unit else ""
+    _sums = study.runs[[c.name for c in _comps]].sum(axis=1) if study.runs is not None \
+        else pd.Series(dtype=float)
+    _range = (f"{_sums.min():.6g}{_u}" if abs(_sums.max() - _sums.min()) < 1e-9 * _total
+              else f"{_sums.min():.6g} to {_sums.max():.6g}{_u}") if len(_sums) else ""
+    st.write(text.plain(
+        f"The {len(_comps)} components add up to {_total:g}{_u} in every run"
+        + (f" (in these runs: {_range}; each is checked to within 0.5 % of the total)"
+           if _range else "") + ": more of one means less of the others. Each stays "
+        "between its lowest and highest amount."))
+    _shares = not (_unit == "%" and _total == 100)  # amounts in % are the shares already
+    _crows = []
+    for f in _comps:
+        _row = {"component": f.name, "label": f.label, "unit": f.unit or "",
+                "lowest": f"{f.low:g}", "highest": f"{f.high:g}"}
+        if _shares:
+            _row["share of the blend"] = f"{f.low / _total:.0%} .. {f.high / _total:.0%}"
+        _given = [f"{w} {g:g} cannot be reached" for w, g, now in
+                  (("low", f.given_low, f.low), ("high", f.given_high, f.high))
+                  if g is not None and abs(g - now) > 1e-9 * _total]
+        _row["note"] = "; ".join(_given) + (" (see above)" if _given else "")
+        _crows.append(_row)
+    st.dataframe(blank_none(pd.DataFrame(_crows)), hide_index=True)
+st.subheader("Process factors (what you set)" if _comps else "Factors (what you set)")
+_many = any(f.is_categorical and len(f.levels) > 2 for f in _process)
 _rows = []
-for f in study.factors:
+for f in _process:
     _two = f.is_categorical and len(f.levels) == 2
     _row = {"factor": f.name, "label": f.label, "unit": f.unit or "",
             "coded -1": f.levels[0] if _two else "-" if f.is_categorical else f"{f.low:g}",
@@ -128,6 +157,8 @@ for f in study.factors:
     _rows.append(_row)
 if _rows:
     st.dataframe(blank_none(pd.DataFrame(_rows)), hide_index=True)
+elif _comps:
+    st.caption("None: only the blend is varied.")
 else:
     st.caption("None: nothing is varied between the products, so there is nothing to "
                "model or search; the results are each product's derived values below.")
@@ -164,9 +195,11 @@ for _, row in marked.iterrows():
     st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(row['marks'])}")
 # a factor of three or more levels is coded by position, a number that means nothing
 # to a reader: its level names in the table above say it all
-_coded = [f.name for f in study.factors if not (f.is_categorical and len(f.levels) > 2)]
+# components too: they are amounts (above), never -1/+1
+_coded = [f.name for f in _process if not (f.is_categorical and len(f.levels) > 2)]
 if _coded:
-    with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"):
+    with st.expander("The same runs in coded units (-1 low, +1 high, 0 centre)"
+                     + (", process factors" if _comps else "")):
         coded = table[["run", *[f"{f} coded" for f in _coded]]]
         st.dataframe(coded, hide_index=True, height=35 * (rows + 1) + 3,
                      column_config={f"{f} coded": st.column_config.NumberColumn(
