@@ -12,7 +12,7 @@ from ..cautions import BLEND_CAUTION
 from ..study.mixture import is_component
 from .mixture import bound_warnings
 
-__all__: list[str] = []
+__all__ = ["fewer_solutions_text"]
 
 _EDGE = 1e-3  # coded distance that counts as "on the edge"
 
@@ -83,3 +83,30 @@ def _point_warnings(study, problem, x, D) -> list[str]:
 
 def _g(x: float) -> str:
     return f"{x:.4g}"
+
+
+def fewer_solutions_text(result, asked: int, min_distance: float = 0.25) -> str:
+    """Why fewer solutions are listed than ``asked`` ('' when there are enough).
+
+    The alternatives are distinct peaks of D: settings closer than
+    ``min_distance`` coded units to a better one belong to the same peak and are
+    merged (``optimize``), so a smooth D with one or two peaks gives one or two.
+    """
+    n = len(result.solutions)
+    if n >= asked:
+        return ""
+    what = "one setting stands" if n == 1 else f"{n} distinct settings stand"
+    return (f"{asked} solutions were asked for, and {what} out: every other good "
+            f"setting lies within {min_distance:g} coded units of a better one, on the "
+            "same peak of D, so listing it would repeat that solution with small changes")
+
+
+def _not_informed_text(n: dict) -> str:
+    """One factor the runs cannot judge, in a sentence."""
+    if n["held_at"] is None:
+        left = ", ".join(f"'{v}'" for v in n["left_out"])
+        return (f"{n['factor']}: {n['why']}, so the data say nothing about {left}: left "
+                "out of the search")
+    return (f"{n['factor']}: the runs cannot tell its levels apart ({n['why']}), so the "
+            f"choice among them is not informed by the data: held at '{n['held_at']}' "
+            f"(name another with hold = \"level\" under the factor)")
