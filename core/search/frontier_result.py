@@ -275,7 +275,7 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
     between = tuple(names[i] for i in cols)
     Xall = np.vstack([X, x_opt[None, :]])
     res = _result(study, problem, models, fit, Xall, len(Xall), seed, "desirability",
-                  True, (), draws)
+                  True, (), draws, as_given=True)  # frontier order, the points as found
     dicts = [_point(s) for s in res.solutions]
     F = _merit(problem, cols, problem.values(Xall))
     Ff, fo = F[:-1], F[-1]

@@ -420,16 +420,19 @@ def _rounder(digits):
 
 
 def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreachable,
-            draws, aim="balance", extra_notes=()) -> OptimizationResult:
+            draws, aim="balance", extra_notes=(), as_given=False) -> OptimizationResult:
     """Assemble the result for the settings X (coded, best first by D).
 
     With ``aim == "production"``, ``X[0]`` is the setting most likely to hold
-    in production: it comes first and the rest follow ``rank_by``.
+    in production: it comes first and the rest follow ``rank_by``. With
+    ``as_given`` the settings are neither rounded nor reordered (the frontier's
+    points, in frontier order, each judged at the point found).
     """
     found = np.atleast_2d(np.asarray(X, dtype=float))
     D_found = problem.score(problem.values(found))[0]
     # Every figure below is for the recipe a lab can make (search/rounding.py).
-    X, source = lab_recipes(study, problem, found)
+    X, source = ((found, np.arange(len(found))) if as_given else
+                 lab_recipes(study, problem, found))
     found, D_found = found[source], D_found[source]
     # coded from the settings as printed, so a reader recomputing from them gets
     # the very figures shown
@@ -465,7 +468,7 @@ def _result(study, problem, models, fit, X, top, seed, rank_by, feasible, unreac
     elif rank_by == "production" or aim == "production":
         held = chances.all  # no spread: the chance in production is the ordinary one
     # by D at the recipes (rounding can reorder peaks of nearly equal D)
-    order = np.lexsort((S, -D))
+    order = np.arange(len(X)) if as_given else np.lexsort((S, -D))
     if rank_by == "chance":
         order = np.lexsort((-D, -np.nan_to_num(chances.all, nan=-1.0)))
     elif rank_by == "production":

@@ -267,3 +267,26 @@ def test_cli_demo_and_refusals(tmp_path):
                          capture_output=True, text=True)
     assert run.returncode == 2
     assert run.stderr.count("\n") == 1 and "no goal named 'nothing'" in run.stderr
+
+
+def test_demo_points_are_in_frontier_order_and_the_optimum_has_the_best_d():
+    """On the demo, every printed point is non-dominated among the printed points, the
+    points run monotonically from one goal's end to the other's, and the D optimum has
+    at least every point's D (it maximises D over the same region: common practice,
+    Derringer & Suich 1980). Guards the result keeping the frontier's order (the
+    search's ranking by D must not reorder it)."""
+    from pathlib import Path
+
+    from tradeoff import load_study
+
+    study = load_study(Path(__file__).resolve().parents[2] / "demo_data" / "snack_bar.toml")
+    fr = frontier(study, ["liking", "cost"], points=15, seed=0)
+    liking = np.array([p["predicted"]["liking"] for p in fr.points])
+    cost = np.array([p["predicted"]["cost"] for p in fr.points])
+    steps = np.diff(liking)
+    assert (steps <= 1e-9).all() or (steps >= -1e-9).all()
+    for i in range(len(liking)):
+        beaten = (liking >= liking[i]) & (cost <= cost[i]) & (
+            (liking > liking[i] + 1e-9) | (cost < cost[i] - 1e-9))
+        assert not beaten.any()
+    assert fr.d_optimum["D"] >= max(p["D"] for p in fr.points) - 1e-6
