@@ -201,7 +201,9 @@ def make_next(study, fitted, recommended=None) -> None:
                "predicted D": s.desirability}
         for f in study.factors:
             v = s.settings[f.name]
-            row[f.display()] = v if isinstance(v, str) else float(f"{v:.4g}")
+            # as the library rounded it (to a lab's precision): the D beside it is for
+            # exactly these settings, so the row is one recipe
+            row[f.display()] = v
         rows.append(row)
     st.dataframe(pd.DataFrame(rows), hide_index=True, key="r_next_table",
                  column_config={"predicted D": st.column_config.NumberColumn(format="%.3f")})

@@ -143,7 +143,7 @@ def what_if_panel(study, fitted, chosen, pct: str) -> None:
         f"mean ({pct})": [span(a, b) for a, b in zip(t["ci_low"], t["ci_high"])],
         f"one batch ({pct})": [span(a, b) for a, b in zip(t["pi_low"], t["pi_high"])],
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
-        "desirability": t["desirability"].map(lambda v: num(v, 3)),
-        "chance within limits": [NOT_STATED if n in far else chance_text(c) for n, c in
+        "d": t["desirability"].map(lambda v: num(v, 3)),
+        "chance in limits": [NOT_STATED if n in far else chance_text(c) for n, c in
                                  zip(t["response"], t["chance_in_limits"])]}),
         hide_index=True, key="r_whatif_table")

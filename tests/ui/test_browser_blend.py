@@ -90,7 +90,7 @@ def _what_if_table(page) -> dict:
     out = {}
     for row in rows[1:]:
         cells = dict(zip(head, [c.strip() for c in row]))
-        out[cells["response"]] = (cells["predicted"], cells["desirability"])
+        out[cells["response"]] = (cells["predicted"], cells["d"])
     return out
 
 

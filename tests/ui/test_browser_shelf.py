@@ -93,7 +93,7 @@ def test_recommendation_carries_the_storage_flag(app):
     page = _open(app, "results", "What if I make it like this?")
     try:
         solutions = _table(page, 0)
-        col = solutions[0].index("chance all within limits")
+        col = solutions[0].index("all limits met")
         rows = {r[0]: r for r in solutions[1:] if r}
         assert set(rows) == {s.label for s in result.solutions}
         for s in result.solutions:
@@ -110,7 +110,7 @@ def test_recommendation_carries_the_storage_flag(app):
         predictions = _table(page, 1)
         col = predictions[0].index("chance in limits")
         shelf_row = next(r for r in predictions if r and r[0].startswith(
-            "Shelf life at 20 degC until 35 N (95 % bound)"))
+            "Shelf life at 20 degC until 35 N (95 % bound"))
         assert shelf_row[col] == "not stated"
         # the figures of the row are the recommendation's own (one recipe)
         assert shelf_row[1] == f"{best.predicted:.4g}"
@@ -128,9 +128,9 @@ def test_goal_beyond_the_storage_is_warned_at_the_goal(app):
                 "study (to 26 weeks) can support") in main
         assert main.count("This goal names") == 1  # only the goal past the storage
         # in the shelf life's own box, before the next goal's title
-        shelf = main.index("Shelf life at 20 degC until 35 N (95 % bound)")
+        shelf = main.index("Shelf life at 20 degC until 35 N (95 % bound")
         assert shelf < main.index("This goal names") < main.index(
-            "Shelf life at 20 degC until 35 N (fitted mean)")
+            "Shelf life at 20 degC until 35 N (fitted mean")
     finally:
         page.close()
 

@@ -79,10 +79,6 @@ def test_results_offer_the_hydrocolloid_in_slices_and_what_if():
     assert len(set(solutions["Hydrocolloid"])) == 3   # the best with each hydrocolloid
     what_if = _selectbox(at, "Hydrocolloid")
     assert list(what_if.options) == LEVELS
-    factor = _selectbox(at, "Factor")
-    assert "Hydrocolloid" in factor.options    # shown by its label
-    factor.set_value("hydrocolloid").run()
-    assert not at.exception and not at.error
     _no_none_or_coded_level(at)
     # another hydrocolloid in the what-if panel: new predictions, no warning of a
     # setting outside the tested range (a level is never outside it)

@@ -108,22 +108,22 @@ def test_results_rows_each_belong_to_one_recipe(upload):
         sol = by_label[row["solution"]]
         fig = _figures(study, fit, sol.settings)
         assert row["D"] == _num(fig["D"], 3), row["solution"]
-        assert row["chance all within limits"] == _chance(fig["chance_all"]), row["solution"]
-        for f in study.factors:
-            cell = next(v for c, v in row.items() if c == f.name or c.startswith(f"{f.name} ("))
+        assert row["all limits met"] == _chance(fig["chance_all"]), row["solution"]
+        for f in study.factors:  # headed by the label, each number with its unit
             want = sol.settings[f.name]
-            assert str(cell) == (want if isinstance(want, str) else _num(want)), f.name
+            assert str(row[f.label]) == (want if isinstance(want, str) else
+                                         f"{_num(want)} {f.unit}".strip()), f.name
 
     # the chosen solution's predictions, d's and chances, and its sentence
     chosen = result.solutions[0]
     fig = _figures(study, fit, chosen.settings)
-    rows = _table(at, "desirability", lacks="limits").set_index("response")
+    rows = _table(at, "d", lacks="limits").set_index("response")
     for name in fit.models:
         row = rows.loc[_label_of(study, name)]
         assert row["predicted"] == _num(fig["predicted"][name]), name
         if name in fig["d"]:
-            assert row["desirability"] == _num(fig["d"][name], 3), name
-            assert row["chance within limits"] == _chance(fig["chance"][name]), name
+            assert row["d"] == _num(fig["d"][name], 3), name
+            assert row["chance in limits"] == _chance(fig["chance"][name]), name
     sentence = next(m.value for m in at.markdown if m.value.startswith(f"**{chosen.label}**"))
     assert f"D = {fig['D']:.3f}" in sentence
 
@@ -139,7 +139,7 @@ def test_results_rows_each_belong_to_one_recipe(upload):
     assert not at.exception, at.exception
     runs = _table(at, "predicted D")
     for _, row in runs.iterrows():
-        settings = {f.name: row[f.name] for f in study.factors}
+        settings = {f.name: row[f.display()] for f in study.factors}
         assert float(row["predicted D"]) == pytest.approx(
             _figures(study, fit, settings)["D"], abs=1e-6), row["run"]
 
@@ -165,8 +165,8 @@ def _what_if_is_one_recipe(at: AppTest, study, fit) -> None:
         row = table.loc[_label_of(study, name)]
         assert row["predicted"] == _num(fig["predicted"][name]), name
         if name in fig["d"]:
-            assert row["desirability"] == _num(fig["d"][name], 3), name
-            assert row["chance within limits"] == _chance(fig["chance"][name]), name
+            assert row["d"] == _num(fig["d"][name], 3), name
+            assert row["chance in limits"] == _chance(fig["chance"][name]), name
 
 
 @pytest.mark.parametrize("upload", [(), FLOUR], ids=["snack bar", "flour blend"])
