@@ -86,6 +86,14 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     spec = terms if terms is not None else study.model_for(response)
     if not isinstance(spec, str):
         spec = list(spec)
+    if response.extra.get("derive") == "panel_category":
+        from .category_model import fit_category_response  # the scores' cumulative logit
+
+        if spec == "smooth":
+            raise ModelError(f"response '{name}': a category response is modelled by "
+                             "its scores' cumulative logit, not a smooth model: give it "
+                             "model = \"main\" or another polynomial model")
+        return fit_category_response(study, response, spec)
     plots = study.whole_plot_labels()
     if spec == "smooth" and plots is not None:
         raise ModelError(f"response '{name}': a smooth model treats every run as "
