@@ -140,6 +140,9 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
         if runs_df >= 1:
             model = WholePlotModel(whole_plot_name="run", **options)
             model.fit(d["X"], d["y"], d["ids"], block=d["assessor"], whole_plot=d["run"])
+            # a new run's value is its panel's mean: run SD^2 + score SD^2 / scores per run
+            _, per_run = np.unique(d["run"], return_counts=True)
+            model.runs_of(int(round(float(np.median(per_run)))))
         else:
             model = ResponseModel(**options)
             model.fit(d["X"], d["y"], d["ids"], block=d["assessor"])
