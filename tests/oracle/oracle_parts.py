@@ -431,6 +431,18 @@ class Parts:
             self.spec_panel["attributes"] = [{"name": "crunch", "scale": [1, 5],
                                               "kind": "category"}]
         self.expect["panel"] = {0}
+        if category and self.pick.chance(0.7):
+            # the category attribute as a response of its own (model/category_model.py)
+            summary = self.pick.choice(["expected", "top_box", "bottom_box"])
+            keys = {"name": "crunch_cat", "derive": "panel_category", "attribute": "crunch",
+                    "summary": summary, "model": "main",
+                    "assessor": self.pick.choice(["none", "fixed"])}
+            values = np.clip(mu / 2, 1, 5)
+            if summary != "expected":
+                keys["top" if summary == "top_box" else "bottom"] = 2
+                values = 100 * (values >= 4 if summary == "top_box" else values <= 2.5)
+            self.derived.append("crunch_cat")
+            self.responses.append({**keys, **goal_keys(self.pick, values)})
         for kind in self.pick.choice([("panel_mean",), ("panel_adjusted",),
                                       ("panel_mean", "panel_adjusted")]):
             name = f"liking_{kind.split('_')[1]}"
