@@ -92,6 +92,12 @@ class CategoryModel:
 
         X = np.asarray(X_scores, dtype=float)
         y = np.asarray(scores, dtype=float)
+        obs = np.asarray(run_values, dtype=float)
+        seen_values = obs[~np.isnan(obs)]
+        if seen_values.size and np.ptp(seen_values) == 0:
+            raise ModelError(f"response '{self.name}' is {seen_values[0]:g} in every run: "
+                             "there is nothing to model (for a box, choose more "
+                             "categories with top = N or bottom = N)")
         n_settings = (1 + np.count_nonzero(np.diff(np.sort(np.round(X, 9), axis=0), axis=0),
                                            axis=0)).tolist()
         terms, notes = model_terms(self.terms, self.factor_names, n_settings=n_settings,
@@ -139,7 +145,6 @@ class CategoryModel:
         self.n_panel_ = float(np.median(n_run[seen]))
         self.sigma_ = float(math.sqrt(np.mean(V[seen] / n_run[seen])))
         self._ids = [str(i) for i in run_ids]
-        obs = np.asarray(run_values, dtype=float)
         se = np.sqrt(self._mean_var(np.asarray(run_X, dtype=float)) + V / np.maximum(n_run, 1))
         self._diag = {"observed": obs, "fitted": S, "residual": obs - S,
                       "standardized": (obs - S) / np.where(se > 0, se, np.nan)}
