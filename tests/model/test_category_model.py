@@ -165,3 +165,28 @@ def test_a_line_attribute_is_refused(tmp_path):
     path, _, _ = _write(tmp_path, response="", kind="line")
     with pytest.raises(TradeoffError, match="needs a category attribute"):
         load_study(path)
+
+
+def test_bad_category_option_is_one_line_exit_2_files_unchanged(tmp_path, capsys):
+    from tradeoff.cli.entry import main
+
+    path, _, _ = _write(tmp_path, response='summary = "top_box"\ntop = 9\n')
+    before = {p.name: p.read_bytes() for p in tmp_path.iterdir()}
+    assert main(["fit", str(path)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert err.count("\n") == 0 and "Traceback" not in err
+    assert "s.toml: [[responses]] 'r': top = 9 must be a whole number" in err
+    assert {p.name: p.read_bytes() for p in tmp_path.iterdir()} == before
+
+
+def test_fit_prints_latent_effects_and_thresholds(tmp_path, capsys):
+    from tradeoff.cli.entry import main
+
+    path, X, y = _write(tmp_path, response='model = "main"\n')
+    assert main(["fit", str(path)]) == 0
+    out = capsys.readouterr().out
+    res = _reference(X, y)
+    assert "r: category model (cumulative logit, proportional odds) of 90 scores" in out
+    line = next(s for s in out.splitlines() if s.startswith("  a "))
+    assert float(line.split()[1]) == pytest.approx(res.params[0], rel=1e-3)
+    assert "  1|2 " in out and "  4|5 " in out
