@@ -36,7 +36,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ModelError
-from .panel_category import CumulativeLogit, _cdf
+from .panel_category import CumulativeLogit, _cdf, assessor_columns
 
 __all__ = ["CategoryModel", "category_weights", "fit_category_response"]
 
@@ -112,16 +112,8 @@ class CategoryModel:
             raise ModelError(f"response '{self.name}': the category model has "
                              f"{M.shape[1]} effects but the {run_count} runs cannot "
                              "estimate them all: use a smaller model (terms = [...])")
-        A = np.zeros((len(y), 0))
-        if self.assessor == "fixed":
-            codes, names = pd.factorize(pd.Series(assessors, dtype=object), sort=False)
-            A = np.zeros((len(y), len(names) - 1))
-            for j in range(1, len(names)):
-                A[codes == j, j - 1] = 1.0
-            A[codes == 0, :] = -1.0
-            labels_a = [f"assessor[{n}]" for n in names[1:]]
-        else:
-            labels_a = []
+        A, labels_a = (assessor_columns(assessors) if self.assessor == "fixed"
+                       else (np.zeros((len(y), 0)), []))
         logit = CumulativeLogit(columns=labels + labels_a).fit(np.column_stack([M, A]), y)
         if logit.cov_ is None:
             raise ModelError(f"response '{self.name}': the category model's information "
