@@ -18,7 +18,7 @@ import pandas as pd
 from ..errors import DataError, StudyError, did_you_mean, where
 from ..study.intake import RawTable
 from .panel import adjusted_means, assessor_agreement, run_means
-from .panel_input import attribute_info, read_scores
+from .panel_input import attribute_info, describe_category, read_scores
 from .shelf import (TEMPERATURE_KINDS, arrhenius_points, derive_kinetic, describe_kinetic,
                     rows_at_temperature)
 from .reach import TIME_KINDS, storage_reach
@@ -279,12 +279,32 @@ def _panel_checks(study, sub, attr, sec, fname) -> list[str]:
     return notes
 
 
+def _category_values(scored: pd.DataFrame, opts: dict, info: dict) -> pd.DataFrame:
+    """Each run's observed summary of a category attribute: its mean category, or
+    the percent of its scores in the top (bottom) ``boxes`` categories, with the
+    standard error of a mean (sd / sqrt(n)) or of a proportion (sqrt(p(1-p)/n))."""
+    lo, hi = info["scale"]
+    score = scored["score"].to_numpy(float)
+    if opts["summary"] == "top_box":
+        score = 100.0 * (score >= hi - opts["boxes"] + 1)
+    elif opts["summary"] == "bottom_box":
+        score = 100.0 * (score <= lo + opts["boxes"] - 1)
+    res = run_means(scored["run"].to_numpy(object), score).set_index("run")
+    if opts["summary"] != "expected":
+        p = res["mean"] / 100.0
+        res["se"] = 100.0 * np.sqrt(p * (1 - p) / res["n_scores"])
+    return res
+
+
 def _derive_panel(study, r, opts, sec, fname, sub):
     runs = list(study.runs["run"])
     scored = sub.dropna(subset=["score"])
     values, flags, reasons, points, se = {}, {}, {}, {}, {}
     if opts["kind"] == "panel_mean":
         res = run_means(scored["run"], scored["score"]).set_index("run")
+        col = "mean"
+    elif opts["kind"] == "panel_category":
+        res = _category_values(scored, opts, attribute_info(sec, opts["attribute"]))
         col = "mean"
     else:
         try:
@@ -484,6 +504,8 @@ def describe_derivation(study: Study, response: Response) -> str:
     sec = _section(study, "panel")
     a, src = o["attribute"], sec["data"].name
     lo, hi = attribute_info(sec, a)["scale"]
+    if o["kind"] == "panel_category":
+        return describe_category(o, a, src, lo, hi)
     if o["kind"] == "panel_mean":
         return (f"mean {a} score per run over the assessors who scored it (scale {lo:g} "
                 f"to {hi:g}) from {src}, with its standard error")

@@ -16,10 +16,12 @@ from ..study.spec import SECTION_KEYS, Response, Study
 from ..study.reader import check_keys
 
 __all__ = ["STORAGE_KINDS", "PANEL_KINDS", "DERIVE_KINDS", "DERIVED_COLUMNS",
-           "check_derived"]
+           "CATEGORY_SUMMARIES", "check_derived"]
 
 STORAGE_KINDS = ("value_at", "change", "rate") + TEMPERATURE_KINDS
-PANEL_KINDS = ("panel_mean", "panel_adjusted")
+PANEL_KINDS = ("panel_mean", "panel_adjusted", "panel_category")
+# what a panel_category response summarises (model/category_model.py)
+CATEGORY_SUMMARIES = ("expected", "top_box", "bottom_box")
 DERIVE_KINDS = STORAGE_KINDS + PANEL_KINDS
 
 _USES = {
@@ -36,13 +38,15 @@ _USES = {
     "rate_at": {"property", "order", "min_points", "at_temperature"},
     "panel_mean": {"attribute", "min_points", "fit_on"},
     "panel_adjusted": {"attribute", "min_points", "fit_on"},
+    "panel_category": {"attribute", "min_points", "assessor", "summary", "top", "bottom"},
 }
 _NEEDS = {"value_at": ("property", "at"), "change": ("property", "at"),
           "rate": ("property",), "time_to_limit": ("property", "limit", "direction"),
           "shelf_life": ("property", "limit", "direction"),
           "activation_energy": ("property",), "q10": ("property", "at_temperature"),
           "rate_at": ("property",),
-          "panel_mean": ("attribute",), "panel_adjusted": ("attribute",)}
+          "panel_mean": ("attribute",), "panel_adjusted": ("attribute",),
+          "panel_category": ("attribute",)}
 _DERIVE_KEYS = set().union(*_USES.values()) | {"derive"}
 _EXAMPLE = {"time": "week", "time_unit": "weeks", "temperature": "storage_temp"}
 # Agreement below this correlation with the rest of the panel is reported.
@@ -178,6 +182,8 @@ def _options(study: Study, r: Response) -> dict:
         raise StudyError(f"{fname}: {what}: fit_on = {ex['fit_on']!r}: use \"runs\" (the "
                          "model of the run values) or \"scores\" (the model of the panel's "
                          "scores, runs random)")
+    if kind == "panel_category":
+        opts.update(_category_options(study, ex, fname, what, opts["attribute"]))
     opts.update(kinetic_options(ex, kind, fname, what))
     default_min = 2 if kind in PANEL_KINDS else 3
     mp = ex.get("min_points", default_min)
@@ -188,6 +194,41 @@ def _options(study: Study, r: Response) -> dict:
         raise StudyError(f"{fname}: {what}: a fitted line needs min_points of 2 or more")
     opts["min_points"] = mp
     return opts
+
+
+def _category_options(study: Study, ex: dict, fname: str, what: str, attr: str) -> dict:
+    """``assessor``, ``summary`` and ``top`` / ``bottom`` of a panel_category response."""
+    from .panel_input import attribute_info
+
+    info = attribute_info(_section(study, "panel"), attr)
+    if info["kind"] != "category":
+        raise StudyError(f"{fname}: {what}: derive = 'panel_category' needs a category "
+                         f"attribute, but '{attr}' is a line scale: give it kind = "
+                         "\"category\" in [[panel.attributes]] or use derive = 'panel_mean'")
+    lo, hi = info["scale"]
+    n_cat = int(hi - lo) + 1
+    assessor = ex.get("assessor", "none")
+    if assessor not in ("none", "fixed"):
+        raise StudyError(f"{fname}: {what}: assessor = {assessor!r}: use \"none\" (the "
+                         "panel as one) or \"fixed\" (each assessor's own use of the scale)")
+    summary = ex.get("summary", "expected")
+    if summary not in CATEGORY_SUMMARIES:
+        raise StudyError(f"{fname}: {what}: summary = {summary!r}: use \"expected\" (the "
+                         "expected category), \"top_box\" (percent of scores in the top "
+                         "categories, top = N) or \"bottom_box\" (bottom = N)")
+    out = {"assessor": assessor, "summary": summary, "boxes": 0}
+    side = {"top_box": "top", "bottom_box": "bottom"}.get(summary)
+    for key in ("top", "bottom"):
+        if key in ex and key != side:
+            raise StudyError(f"{fname}: {what}: {key} = ... is used with summary = "
+                             f"\"{key}_box\": remove it or change the summary")
+    if side is not None:
+        n = ex.get(side, 1)
+        if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n < n_cat:
+            raise StudyError(f"{fname}: {what}: {side} = {n!r} must be a whole number of "
+                             f"categories from 1 to {n_cat - 1} (the scale has {n_cat})")
+        out["boxes"] = n
+    return out
 
 
 def check_derived(study: Study) -> None:

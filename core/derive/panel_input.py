@@ -26,7 +26,8 @@ import pandas as pd
 from ..errors import DataError, StudyError, where
 from ..study.intake import RawTable, cell_text, parse_number
 
-__all__ = ["ROLES", "KINDS", "LAYOUTS", "panel_layout", "read_scores", "attribute_info"]
+__all__ = ["ROLES", "KINDS", "LAYOUTS", "panel_layout", "read_scores", "attribute_info",
+           "describe_category"]
 
 ROLES = ("run", "assessor", "attribute", "score", "session")
 KINDS = ("line", "category")
@@ -140,6 +141,20 @@ def attribute_info(sec: dict, name: str) -> dict:
         raise DataError(f"attribute '{name}' has no [[panel.attributes]] table and "
                         "[panel] has no scale: add one or the other")
     return {"scale": sec["scale"], "kind": "line", "labels": None, "direction": None}
+
+
+def describe_category(opts: dict, attr: str, src: str, lo: float, hi: float) -> str:
+    """One sentence saying how a ``panel_category`` response is computed and modelled."""
+    summary = opts["summary"]
+    n = opts.get("boxes", 0)
+    what = ("the expected category" if summary == "expected" else
+            f"the percent of scores in the {'top' if summary == 'top_box' else 'bottom'} "
+            f"{n} categor{'y' if n == 1 else 'ies'}")
+    by = (", each assessor's use of the scale as fixed effects"
+          if opts.get("assessor") == "fixed" else "")
+    return (f"{what} of the {attr} scores (category scale {lo:g} to {hi:g}) from {src}: "
+            "each run's observed value, modelled by a cumulative-logit (proportional-odds) "
+            f"model of the scores on the study's model terms{by}")
 
 
 def _column_index(table: RawTable, sec: dict, role: str, needed: bool) -> int | None:

@@ -24,7 +24,7 @@ import pandas as pd
 
 from ..errors import ModelError
 
-__all__ = ["CumulativeLogit", "fit_category"]
+__all__ = ["CumulativeLogit", "fit_category", "assessor_columns"]
 
 
 def _cdf(x):
@@ -133,6 +133,17 @@ class CumulativeLogit:
         return P[:, :top].sum(axis=1) if bottom else P[:, -top:].sum(axis=1)
 
 
+def assessor_columns(assessors) -> tuple[np.ndarray, list[str]]:
+    """Sum-to-zero columns of the assessors (the first is minus the rest, so all
+    zero is the average assessor) and their labels ``assessor[NAME]``."""
+    codes, names = pd.factorize(pd.Series(assessors, dtype=object), sort=False)
+    A = np.zeros((len(codes), len(names) - 1))
+    for j in range(1, len(names)):
+        A[codes == j, j - 1] = 1.0
+    A[codes == 0, :] = -1.0
+    return A, [f"assessor[{n}]" for n in names[1:]]
+
+
 def fit_category(study, attribute: str, *, assessor: str = "none",
                  terms=None) -> tuple[CumulativeLogit, list[str]]:
     """Fit the cumulative-logit model of one category attribute's scores on the
@@ -160,12 +171,8 @@ def fit_category(study, attribute: str, *, assessor: str = "none",
     M = model_matrix(coded, tlist)
     labels = [t.label for t in tlist]
     if assessor == "fixed":
-        codes, names = pd.factorize(sub["assessor"], sort=False)
-        A = np.zeros((len(sub), len(names) - 1))
-        for j in range(1, len(names)):
-            A[codes == j, j - 1] = 1.0
-        A[codes == 0, :] = -1.0
+        A, names = assessor_columns(sub["assessor"])
         M = np.column_stack([M, A])
-        labels += [f"assessor[{n}]" for n in names[1:]]
+        labels += names
     model = CumulativeLogit(columns=labels).fit(M, sub["score"].to_numpy(float))
     return model, labels

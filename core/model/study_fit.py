@@ -86,6 +86,14 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
     spec = terms if terms is not None else study.model_for(response)
     if not isinstance(spec, str):
         spec = list(spec)
+    if response.extra.get("derive") == "panel_category":
+        from .category_model import fit_category_response  # the scores' cumulative logit
+
+        if spec == "smooth":
+            raise ModelError(f"response '{name}': a category response is modelled by "
+                             "its scores' cumulative logit, not a smooth model: give it "
+                             "model = \"main\" or another polynomial model")
+        return fit_category_response(study, response, spec)
     plots = study.whole_plot_labels()
     if spec == "smooth" and plots is not None:
         raise ModelError(f"response '{name}': a smooth model treats every run as "
@@ -132,6 +140,9 @@ def fit_response(study, name: str, *, reduce: bool = False, terms=None,
         if runs_df >= 1:
             model = WholePlotModel(whole_plot_name="run", **options)
             model.fit(d["X"], d["y"], d["ids"], block=d["assessor"], whole_plot=d["run"])
+            # a new run's value is its panel's mean: run SD^2 + score SD^2 / scores per run
+            _, per_run = np.unique(d["run"], return_counts=True)
+            model.runs_of(int(round(float(np.median(per_run)))))
         else:
             model = ResponseModel(**options)
             model.fit(d["X"], d["y"], d["ids"], block=d["assessor"])

@@ -154,6 +154,15 @@ class WholePlotModel(ResponseModel):
         var = float(w @ cov @ w)
         return math.sqrt(total), (2.0 * total * total / var if var > 0 else math.inf)
 
+    def runs_of(self, m: float) -> "WholePlotModel":
+        """Make a new run the mean of ``m`` sub-plot values (a run's panel of ``m``
+        scores, ``model/panel_scores.py``): its predictions then scatter by
+        ``s_wp^2 + s^2 / m`` with that sum's Satterthwaite df (``mean_noise``)."""
+        sd, df = self.mean_noise(m)
+        self._new_sd, self._new_df = sd, df
+        self.whole_plots_.update(new_run_sd=sd, new_run_df=df, scores_per_run=int(m))
+        return self
+
     def report(self) -> dict:
         out = super().report()
         from .describe import clean_json

@@ -35,6 +35,11 @@ class _EvidenceSections(_Sections):
                 out.append("<p>Not modelled.</p></div>")
                 continue
             rep = self.data["models"][r.name]
+            if rep["model"] == "category":  # the scores' cumulative logit: no effects chart
+                out.append(_category_section(rep))
+                out.extend(f'<p class="note">Note: {esc(w)}</p>' for w in rep["warnings"])
+                out.append("</div>")
+                continue
             if rep["model"] == "smooth":
                 out.append(_smooth_section(rep))
                 out.append(self._flagged(r.name, rep))
@@ -285,6 +290,31 @@ class _EvidenceSections(_Sections):
         out.append('<div class="scroll">' + _table(head, rows, numeric=numeric,
                                                     cls="runs") + "</div>")
         return "".join(out)
+
+
+def _category_section(rep: dict) -> str:
+    """A category response: its effects and thresholds on the latent scale."""
+    what = {"expected": "the expected category",
+            "top_box": f"the percent of scores in the top {rep['boxes']} categories",
+            "bottom_box": f"the percent of scores in the bottom {rep['boxes']} categories"}
+    lo, hi = rep["scale"]
+    rows = [["model", "cumulative logit (proportional odds) of the scores"
+             + ("; assessors as fixed effects" if rep["assessor"] == "fixed" else "")],
+            ["predicts", what[rep["summary"]] + f" (category scale {lo:g} to {hi:g})"],
+            ["scores used", f"{rep['n']} over {rep['n_runs']} runs"],
+            ["R2 of the run values", _r2(rep["r2"])],
+            ["a new run's panel scatter (SD)", _g(rep["residual_sd"])],
+            ["intervals", esc(rep["interval_method"])]]
+    effects = [[esc(e["term"]), _g(e["estimate"]), _g(e["se"]), _g(e["z"]),
+                _g(e["p"])] for e in rep["effects"] + rep["assessors"]]
+    cuts = [[esc(t["between"]), _g(t["estimate"]), _g(t["se"])] for t in rep["thresholds"]]
+    return (_table(["fit statistic", "value"], rows, raw=True, numeric={1})
+            + "<p><b>Effects on the latent scale</b>, per coded unit: a positive effect "
+              "moves scores up the scale.</p>"
+            + _table(["term", "estimate", "standard error", "z", "p"], effects,
+                     numeric={1, 2, 3, 4})
+            + "<p><b>Thresholds</b> between neighbouring categories (latent scale).</p>"
+            + _table(["between", "estimate", "standard error"], cuts, numeric={1, 2}))
 
 
 def _smooth_section(rep: dict) -> str:

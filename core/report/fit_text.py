@@ -248,11 +248,44 @@ def _smooth_text(r: dict) -> list[str]:
     return out
 
 
+def _category_text(r: dict) -> list[str]:
+    """A category response's block: effects and thresholds on the latent scale."""
+    what = {"expected": "expected category",
+            "top_box": f"percent of scores in the top {r['boxes']} categories",
+            "bottom_box": f"percent of scores in the bottom {r['boxes']} categories"}
+    lo, hi = r["scale"]
+    by = "; assessors as fixed effects" if r["assessor"] == "fixed" else ""
+    out = [f"{r['response']}: category model (cumulative logit, proportional odds) of "
+           f"{r['n']} scores over {r['n_runs']} runs, scale {_f(lo)} to {_f(hi)}{by}",
+           f"  predicts the {what[r['summary']]}; R2 of the run values "
+           f"{_f(r['r2'], '.4f')}; a new run's panel scatter SD {_f(r['residual_sd'])} "
+           f"(about {_f(r['scores_per_run'])} scores per run)", "",
+           "  effects on the latent scale, per coded unit (positive: scores move up the "
+           "scale)",
+           f"  {'term':<28}{'estimate':>12}{'std error':>12}{'z':>9}{'p':>10}"]
+    for e in r["effects"]:
+        out.append(f"  {e['term']:<28}{_f(e['estimate']):>12}{_f(e['se']):>12}"
+                   f"{_f(e['z'], '.2f'):>9}{_p(e['p']):>10}")
+    out += ["", "  thresholds between neighbouring categories (latent scale)",
+            f"  {'between':<28}{'estimate':>12}{'std error':>12}"]
+    for t in r["thresholds"]:
+        out.append(f"  {t['between']:<28}{_f(t['estimate']):>12}{_f(t['se']):>12}")
+    if r["assessors"]:
+        shown = ", ".join(f"{a['term'][9:-1]} {_f(a['estimate'], '+.2f')}"
+                          for a in r["assessors"])
+        out.append(f"  assessor effects (sum to zero; the first is minus the rest): {shown}")
+    out.append(f"  intervals: {r['interval_method']}")
+    for w in r["warnings"]:
+        out.append(f"  warning: {w}")
+    return out
+
+
 def fit_text(report: dict) -> str:
     """Text tables of ``StudyFit.report()``: one block per response, then skipped ones."""
     lines: list[str] = []
     for r in report["responses"].values():
-        lines += _smooth_text(r) if r["model"] == "smooth" else _response_text(r)
+        lines += (_smooth_text(r) if r["model"] == "smooth" else _category_text(r)
+                  if r["model"] == "category" else _response_text(r))
         lines.append("")
     for name, reason in report.get("skipped", {}).items():
         lines.append(f"{name}: no model: {reason}")

@@ -13,6 +13,7 @@ from ..model.transforms import power_advice
 from ..study.safe_cells import workbook_bytes
 from .data import (CAUTIONS, _get, _goal_rows, _is_clear, _provenance_rows, _pure_component,
                    report_data)
+from .panel_workbook import panel_tables
 from .sections import _withheld
 
 __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
@@ -20,7 +21,8 @@ __all__ = ["build_workbook", "WORKBOOK_SHEETS"]
 # Sheet names of the workbook, in order (confirmation sheets only when the
 # study lists confirmation runs).
 # A study without factors has no factors, models, terms or solutions sheets, and a
-# "derived values" sheet instead.
+# "derived values" sheet instead. A study with a panel table adds the panel sheets
+# (panel_workbook.PANEL_SHEETS) after the goals.
 WORKBOOK_SHEETS = ("summary", "runs", "factors", "models", "terms", "goals", "solutions",
                    "confirmations", "verdicts", "warnings", "specification", "provenance")
 
@@ -103,6 +105,10 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         anova = rep.get("anova") or {}
         lof, curv = anova.get("lack_of_fit") or {}, anova.get("curvature") or {}
         smooth = rep["model"] == "smooth"  # a Gaussian process: no terms (model/smooth.py)
+        if rep["model"] == "category":  # the scores' cumulative logit (model/category_model.py)
+            model_rows.append(_category_row(name, rep))
+            term_rows += _category_terms(name, rep, alpha)
+            continue
         model_rows.append({
             "response": name, "model": model_label(rep["model"]),
             "transform": rep["transform"], "runs used": rep["n"],
@@ -161,6 +167,7 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
             ignore_index=True)[["response", "run", "value", "lower", "upper", "se",
                                 "r_squared", "points", "per_temperature", "flag"]]
     tables["goals"] = pd.DataFrame(_goal_rows(study))
+    tables.update(panel_tables(data.get("panel")))
     if data.get("derived"):  # no factors: each product's derived values are the results
         tables["derived values"] = pd.concat(
             [t.assign(response=name) for name, t in data["derived"].items()],
@@ -202,3 +209,27 @@ def _workbook_tables(study, data: dict) -> dict[str, pd.DataFrame]:
         for name in ("factors", "models", "terms", "solutions"):
             tables.pop(name, None)
     return tables
+
+
+def _category_row(name: str, rep: dict) -> dict:
+    """A category response's fit statistics (model/category_model.py)."""
+    return {"response": name, "model": "category (cumulative logit)",
+            "transform": "none", "runs used": rep["n_runs"],
+            "terms": len(rep["effects"]), "R2": rep["r2"],
+            "residual sd": rep["residual_sd"],
+            "flagged runs": ", ".join(rep["flagged_runs"]),
+            "warnings": " | ".join(rep["warnings"])}
+
+
+def _category_terms(name: str, rep: dict, alpha: float) -> list[dict]:
+    """Its effects and thresholds on the latent scale (no effect margins: not a
+    least-squares model)."""
+    rows = [{"response": name, "term": e["term"], "coefficient": e["estimate"],
+             "std error": e["se"], "p value": e["p"],
+             "clear": e["p"] is not None and e["p"] < alpha,
+             "margins say": "latent scale, per coded unit"}
+            for e in rep["effects"] + rep["assessors"]]
+    rows += [{"response": name, "term": f"threshold {t['between']}",
+              "coefficient": t["estimate"], "std error": t["se"],
+              "margins say": "latent scale"} for t in rep["thresholds"]]
+    return rows

@@ -86,7 +86,9 @@ SECTION_KEYS: dict[str, set[str]] = {
        # storage at several temperatures (core/derive/shelf.py)
        "at_temperature", "estimate",
        # a panel response modelled on its scores (core/model/panel_scores.py)
-       "fit_on"},
+       "fit_on",
+       # a category attribute's cumulative-logit response (core/model/category_model.py)
+       "assessor", "summary", "top", "bottom"},
     "constraints": {"rule", "label"},
     # confirmation runs (core/confirm.py): one run per table, or data = "file"
     "confirmations": {"run", "settings", "measured", "note", "data", "sheet"},

@@ -132,9 +132,12 @@ def test_wide_table_without_the_response_attribute(tmp_path, capsys):
     section = MAPPED.replace(', attribute = "what", score = "mark"', "") \
         .replace('data = "panel.csv"', 'data = "panel.csv"\nlayout = "wide"')
     path = _write(tmp_path, section, wide)
+    before = (tmp_path / "panel.csv").read_bytes()
     assert main(["check", str(path)]) == 2
-    err = capsys.readouterr().err
+    err = capsys.readouterr().err.strip()
+    assert err.count("\n") == 0 and "Traceback" not in err
     assert "no column 'sweetness' in the wide panel table for response 'sweet'" in err
+    assert (tmp_path / "panel.csv").read_bytes() == before
 
 
 @pytest.mark.parametrize("extra, pattern", [

@@ -127,3 +127,39 @@ def test_saturated_runs_fall_back_to_runs_fixed_like_the_panel_anova(tmp_path):
         assert rep["std_errors"][ours] == pytest.approx(ols.bse[theirs], rel=1e-9)
         assert rep["p_values"][ours] == pytest.approx(ols.pvalues[theirs], rel=1e-6)
     assert any("runs fixed" in w for w in model.warnings_)
+
+
+def test_prediction_interval_is_for_a_new_runs_panel_mean(tmp_path):
+    # A new product's panel mean of 8 scores scatters by the run variance plus the
+    # score variance over 8 (Naes, Brockhoff & Tomic 2010, ch. 5: a product mean
+    # over a panel; common practice). Independent computation: the variance
+    # components and the mean's SE from statsmodels MixedLM (REML), written out.
+    import statsmodels.formula.api as smf
+    from scipy import stats
+
+    study = _study(tmp_path, seed=9)
+    model = fit_response(study, "sweet")
+    frame = pd.read_csv(tmp_path / "panel.csv").merge(pd.read_csv(tmp_path / "runs.csv"))
+    for f in "abc":
+        frame[f + "c"] = 2 * frame[f] - 1
+    ml = smf.mixedlm("score ~ ac + bc + cc + C(assessor, Sum)", frame,
+                     groups=frame["run"]).fit(reml=True)
+    x = np.array([[0.5, -1.0, 0.2]])
+    L = np.zeros(len(ml.fe_params))
+    names = list(ml.fe_params.index)
+    L[names.index("Intercept")] = 1.0
+    for f, v in zip("abc", x[0]):
+        L[names.index(f + "c")] = v
+    cov = np.asarray(ml.cov_params().loc[names, names])
+    se = float(np.sqrt(L @ cov @ L))
+    new_var = float(ml.cov_re.iloc[0, 0]) + ml.scale / 8
+    wp = model.whole_plots_
+    assert wp["scores_per_run"] == 8
+    assert wp["new_run_sd"] == pytest.approx(np.sqrt(new_var), rel=1e-3)
+    table = model.intervals(x, level=0.95)
+    q = stats.t.ppf(0.975, max(1, int(np.floor(wp["new_run_df"]))))
+    half = float(table["pi_high"].iloc[0] - table["predicted"].iloc[0])
+    assert half == pytest.approx(q * np.sqrt(se ** 2 + new_var), rel=2e-3)
+    # and it is narrower than one new score's interval (run SD^2 + score SD^2)
+    single = np.sqrt(se ** 2 + ml.cov_re.iloc[0, 0] + ml.scale)
+    assert half < q * single

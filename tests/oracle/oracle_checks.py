@@ -15,6 +15,7 @@ import re
 import numpy as np
 import pandas as pd
 
+from oracle_category import category_scale, check_category
 from oracle_pages import check_report_html, check_report_xlsx
 from oracle_reference import (D_reference, TermError, chance_reference, d_reference,
                               goal_limits, interval_reference, shortfall_reference,
@@ -237,6 +238,8 @@ def _check_intervals(generated, study, model, X, name, o, where, outcome) -> Non
         study.confidence, _transform(generated, name))
     got = [o.ci[0], o.ci[1], o.pi[0], o.pi[1]]
     want = [float(v[0]) for v in (ci_lo, ci_hi, pi_lo, pi_hi)]
+    if hasattr(model, "logit_"):  # a category summary's interval stops at its scale
+        want = list(np.clip(want, *category_scale(model.report())))
     scale = abs(want[3] - want[2])
     if not all(_close(a, b, _interval_tol(df), scale) for a, b in zip(got, want)):
         outcome.fail("intervals", "optimize", f"{where}: '{name}' ci, pi {got}, the t "
@@ -428,6 +431,9 @@ def check_fit(generated, study, fit, printed: dict, outcome) -> None:
         blocks = study.runs.groupby("run", sort=False)[study.block_column].first().to_numpy()
     runs = study.runs.groupby("run", sort=False).first()
     for name, rep in printed["responses"].items():
+        if rep.get("model") == "category":  # the scores' cumulative logit
+            check_category(generated, study, fit, name, rep, outcome)
+            continue
         if rep.get("model") == "smooth" or generated.region.components:
             continue
         aliases = rep.get("aliases") or {}

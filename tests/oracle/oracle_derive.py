@@ -38,7 +38,7 @@ from scipy import optimize, stats
 
 __all__ = ["check_derived", "panel_long", "check_panel"]
 
-_SIMPLE = ("panel_mean", "panel_adjusted", "value_at", "change", "rate", "time_to_limit",
+_SIMPLE = ("panel_mean", "panel_adjusted", "panel_category", "value_at", "change", "rate", "time_to_limit",
            "shelf_life")
 _ARRHENIUS = ("activation_energy", "q10", "rate_at", "shelf_life", "time_to_limit")
 R_GAS = 8.314462618  # J/(mol K), CODATA 2018 (exact)
@@ -55,7 +55,7 @@ def check_derived(generated, study, outcome) -> None:
         if kind.startswith("panel"):
             if panel is None:
                 continue
-            want = _panel(panel[panel["attribute"] == r["attribute"]], kind)
+            want = _panel(panel[panel["attribute"] == r["attribute"]], kind, r)
         elif storage is None:
             continue
         elif "temp_c" in storage.columns:
@@ -100,8 +100,15 @@ def _table(generated, name):
     return None if data is None else pd.read_csv(io.BytesIO(data), keep_default_na=False)
 
 
-def _panel(part: pd.DataFrame, kind: str) -> dict:
+def _panel(part: pd.DataFrame, kind: str, r: dict) -> dict:
     part = part.assign(score=part["score"].astype(float))
+    if kind == "panel_category":  # the run's mean category, or percent in the boxes
+        summary = r.get("summary", "expected")
+        if summary == "top_box":  # the generated category scale is 1..5
+            part = part.assign(score=100.0 * (part["score"] >= 6 - r.get("top", 1)))
+        elif summary == "bottom_box":
+            part = part.assign(score=100.0 * (part["score"] <= r.get("bottom", 1)))
+        kind = "panel_mean"
     if kind == "panel_mean":
         return part.groupby("run")["score"].mean().to_dict()
     runs = sorted(part["run"].unique())

@@ -43,7 +43,7 @@ def check_fit_text(printed: dict, text: str, outcome) -> None:
     reps = printed["responses"]
     blocks = _blocks(text, set(reps))
     for name, rep in reps.items():
-        if rep.get("model") == "smooth" or name not in blocks:
+        if rep.get("model") in ("smooth", "category") or name not in blocks:
             continue
         lines = blocks[name]
         level = rep.get("confidence") or 0.95

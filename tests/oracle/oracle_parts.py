@@ -13,6 +13,8 @@ import math
 import numpy as np
 import pandas as pd
 
+from oracle_pickers import SeedPicker
+
 from oracle_data import (LEVEL_WORDS, TWO_LEVELS, Factor, Region, Rule, Truth, fmt,
                          goal_keys, mixture_design, n_blend_terms, n_model_columns,
                          numeric_design)
@@ -431,6 +433,21 @@ class Parts:
             self.spec_panel["attributes"] = [{"name": "crunch", "scale": [1, 5],
                                               "kind": "category"}]
         self.expect["panel"] = {0}
+        # the category attribute as a response of its own (model/category_model.py),
+        # its options drawn from the study's own data generator: the studies drawn
+        # after this one (hypothesis reads one stream of choices) stay as they were
+        local = SeedPicker(int(self.rng.integers(2 ** 31))) if category else None
+        if category and local.chance(0.7):
+            summary = local.choice(["expected", "top_box", "bottom_box"])
+            keys = {"name": "crunch_cat", "derive": "panel_category", "attribute": "crunch",
+                    "summary": summary, "model": "main",
+                    "assessor": local.choice(["none", "fixed"])}
+            values = np.clip(mu / 2, 1, 5)
+            if summary != "expected":
+                keys["top" if summary == "top_box" else "bottom"] = 2
+                values = 100 * (values >= 4 if summary == "top_box" else values <= 2.5)
+            self.derived.append("crunch_cat")
+            self.responses.append({**keys, **goal_keys(local, values)})
         for kind in self.pick.choice([("panel_mean",), ("panel_adjusted",),
                                       ("panel_mean", "panel_adjusted")]):
             name = f"liking_{kind.split('_')[1]}"

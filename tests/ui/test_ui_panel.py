@@ -37,3 +37,21 @@ def test_panel_view_shows_each_attribute_and_the_typed_demo_has_none():
     means = at.dataframe[1].value
     assert len(means) == 20 and "alike-set" in means.columns
     assert "own F for runs" in at.dataframe[2].value.columns
+
+
+def test_models_view_shows_a_category_response():
+    # The demo's crunch as a category response: the library's effects and
+    # thresholds (tests/model/test_category_model.py checks them against
+    # statsmodels OrderedModel) on the models page, and each category's chance.
+    at = AppTest.from_file(APP, default_timeout=180)
+    at.run()
+    at.switch_page("views/study.py").run()
+    at.file_uploader[0].set_value([(n, (DEMO.parent / n).read_bytes(), "text/plain")
+                                   for n in RAW]).run()
+    at.switch_page("views/models.py").run()
+    at.selectbox(key="m_response").set_value("crunch_expected").run()
+    assert not at.exception and not at.error, [e.value for e in at.error]
+    effects, cuts, chances = (d.value for d in at.dataframe[:3])
+    assert list(effects["term"]) == ["protein", "glycerol", "binder", "mix_temp"]
+    assert list(cuts["between"]) == ["1|2", "2|3", "3|4", "4|5"]
+    assert len(chances) == 20 and "5 (%)" in chances.columns

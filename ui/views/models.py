@@ -81,6 +81,11 @@ if name in fitted.skipped:
     st.stop()
 model = fitted.models[name]
 report = model.report()
+if report["model"] == "category":  # the scores' cumulative logit (ui/category_model.py)
+    from tradeoff_ui.category_model import category_model
+
+    category_model(study, response, model, report)
+    st.stop()
 if report["model"] == "smooth":  # no terms: length scales and leave-one-out instead
     panels.smooth_model(study, response, model, report)
     panels.model_comparison(study, name)
