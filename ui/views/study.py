@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import hashlib
+import re
 
 import pandas as pd
 import streamlit as st
@@ -204,8 +205,15 @@ for _i, _part in enumerate(_parts):
     st.dataframe(_part, hide_index=True, height=35 * (rows + 1) + 3,
                  key="s_runs" if _i == 0 else f"s_runs_{_i}",
                  column_config={k: v for k, v in _config.items() if k in _part})
+# the marks name responses and factors as the data file does: say them by their labels
+_named = sorted(_help, key=len, reverse=True)
+_by_label = re.compile(r"\b(" + "|".join(map(re.escape, _named)) + r")\b") if _named else None
 for _, row in marked.iterrows():
-    st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(row['marks'])}")
+    _marks = _by_label.sub(lambda m: study.factor(m.group(1)).label
+                           if m.group(1) in study.factor_names
+                           else study.response(m.group(1)).label, row["marks"]) \
+        if _by_label else row["marks"]
+    st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(_marks)}")
 # a factor of three or more levels is coded by position, a number that means nothing
 # to a reader: its level names in the table above say it all
 # components too: they are amounts (above), never -1/+1
