@@ -52,7 +52,7 @@ def _effects_chart(response, model, leave_out=frozenset(), labels: dict | None =
     chart = effects_picture(shown, title, width=420).properties(
         title=alt.TitleParams(f"Effects on {response.label}", anchor="start"))
     return (_chart_div(_svg(chart))
-            + f'<p class="note">{esc(effects_note(estimates, model.confidence))}</p>')
+            + f'<p class="note">{esc(effects_note(shown, model.confidence))}</p>')
 
 
 def _curve_chart(item, part: pd.DataFrame, marker) -> str:

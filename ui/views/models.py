@@ -148,10 +148,11 @@ _labels = {f.name: f.label for f in study.factors}
 left, right = st.columns([3, 2])
 with left:
     st.subheader("Effects and their margins")
-    st.caption(text.plain(effects_note(estimates, study.confidence)))
+    _named = estimates.assign(term=[  # labels, not the data file's names
+        term_title(t, _labels) for t in estimates["term"]])
+    st.caption(text.plain(effects_note(_named, study.confidence)))
     if len(estimates):
-        charts.show(charts.effects_chart, estimates.assign(term=[  # labels, not names
-            term_title(t, _labels) for t in estimates["term"]]), charts.titled("Effect", unit),
+        charts.show(charts.effects_chart, _named, charts.titled("Effect", unit),
                     width="stretch")
 with right:
     st.subheader("Half-normal plot")
