@@ -502,7 +502,7 @@ def _rounded(study, x, A, b, lo, hi, P, min_distance):
 
     Among the steps just below and above each setting inside the searched range,
     the nearest recipe that keeps the rules and stays ``min_distance`` from the
-    runs made and picked (``P``); else the nearest that keeps the rules; else x.
+    runs made and picked (``P``); else x as found (which keeps both).
     """
     from .rounding import _combinations, _neighbours
 
@@ -529,7 +529,7 @@ def _rounded(study, x, A, b, lo, hi, P, min_distance):
     if not len(C):
         return x
     apart = _distance_to(C, P) >= min_distance - 1e-9
-    return C[int(np.argmax(apart))] if apart.any() else C[0]
+    return C[int(np.argmax(apart))] if apart.any() else x
 
 
 def _settings(study, x) -> dict:
