@@ -502,18 +502,23 @@ def _rounded(study, x, A, b, lo, hi, P, min_distance):
 
     Among the steps just below and above each setting inside the searched range,
     the nearest recipe that keeps the rules and stays ``min_distance`` from the
-    runs made and picked (``P``); else x as found (which keeps both).
+    runs made and picked (``P``); else, as before steps, every numeric setting to a
+    thousandth of its range (printed whole, and within a thousandth of the distance);
+    x as found when that breaks a rule.
     """
     from .rounding import _combinations, _neighbours
 
-    choices, cols = [], []
+    def thousandth(f, value):
+        return round(value, max(0, -math.floor(math.log10((f.high - f.low) / 1000))))
+
+    choices, cols, fine = [], [], x.copy()
     for j, f in enumerate(study.factors):
         if f.is_categorical:
             continue
         value = f.centre + f.half_range * x[j]
+        fine[j] = (thousandth(f, value) - f.centre) / f.half_range
         if getattr(f, "is_component", False) or not f.lab_step:
-            digits = max(0, -math.floor(math.log10((f.high - f.low) / 1000)))
-            near = [round(value, digits)]
+            near = [thousandth(f, value)]
         else:
             near = _neighbours(value, f.lab_step, f.centre + f.half_range * lo[j],
                                f.centre + f.half_range * hi[j])
@@ -521,15 +526,14 @@ def _rounded(study, x, A, b, lo, hi, P, min_distance):
         cols.append(j)
     if not cols:
         return x
+    fine = fine if _allowed(fine[None, :], A, b)[0] else x
     combos = _combinations(choices)
     C = np.repeat(x[None, :], len(combos), axis=0)
     C[:, cols] = combos
     C = C[np.argsort(((C - x) ** 2).sum(axis=1), kind="stable")]
     C = C[_allowed(C, A, b)]
-    if not len(C):
-        return x
-    apart = _distance_to(C, P) >= min_distance - 1e-9
-    return C[int(np.argmax(apart))] if apart.any() else x
+    apart = _distance_to(C, P) >= min_distance - 1e-9 if len(C) else np.zeros(0, bool)
+    return C[int(np.argmax(apart))] if apart.any() else fine
 
 
 def _settings(study, x) -> dict:
