@@ -17,7 +17,7 @@ from streamlit.dataframe_util import convert_anything_to_arrow_bytes
 
 from tradeoff.maps.chart_data import use_records
 
-__all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart",
+__all__ = ["show", "residual_chart", "SCHEME", "effects_chart", "half_normal_chart", "traces_chart",
            "interaction_chart", "residual_charts", "desirability_chart", "contour_chart", "limits_chart",
            "trace_chart", "titled", "fit_width", "BAR_STEP", "arrhenius_chart",
            "length_scale_chart", "loo_chart"]
@@ -219,6 +219,17 @@ def trace_chart(table: pd.DataFrame, response: str, title: str, factor_titles: d
     from tradeoff.maps.trace_picture import trace_picture
 
     return fit_width(trace_picture(table, response, title, factor_titles, height=220))
+
+
+def traces_chart(table: pd.DataFrame, titles: dict, factor_titles: dict):
+    """Every response's trace chart and D's in one drawing, two a row, one key
+    (``tradeoff.maps.trace_picture.traces_picture``). One chart, not one per
+    response: the browser lays out and draws a chart's frame once, so a change of
+    the chosen solution redraws one chart instead of six or more."""
+    from tradeoff.maps.trace_picture import traces_picture
+
+    # two charts of 330 px with their axes fit the main column at 1280 px (818 px)
+    return traces_picture(table, titles, factor_titles, columns=2, width=330, height=190)
 
 
 def arrhenius_chart(points: pd.DataFrame, *, columns: int = 4) -> alt.FacetChart:

@@ -10,7 +10,12 @@ import math
 
 import pandas as pd
 
-__all__ = ["num", "span", "blank_none", "p_text"]
+__all__ = ["num", "span", "blank_none", "p_text", "text_px", "table_px", "NARROW_PX",
+           "significant"]
+
+# The main column at 1280 px (818 px, less the table's border): a wider table would hide
+# columns behind a scroll on a laptop screen.
+NARROW_PX = 815
 
 
 def num(x, digits: int = 4) -> str:
@@ -45,4 +50,27 @@ def blank_none(table: pd.DataFrame) -> pd.DataFrame:
         if out[col].dtype == object:
             out[col] = out[col].map(lambda v: "" if v is None or (isinstance(v, float)
                                                                   and math.isnan(v)) else v)
+    return out
+
+
+def text_px(texts) -> int:
+    """Pixels a table column needs for its longest text (header or cell): about 6.2 px
+    a character in the table's 14 px font, plus the cell's padding."""
+    longest = max((len(str(t)) for t in texts), default=0)
+    return int(6.2 * longest) + 18
+
+
+def table_px(table: pd.DataFrame) -> int:
+    """Pixels a table needs to show every column whole (no index)."""
+    return sum(text_px([c, *table[c].tolist()]) for c in table.columns)
+
+
+def significant(table: pd.DataFrame, digits: int = 4) -> pd.DataFrame:
+    """Float columns to ``digits`` significant digits (44.3878 -> 44.39), as the report
+    prints them; the cells stay numbers, so they sort and align as numbers."""
+    out = table.copy()
+    for col in out.columns:
+        if pd.api.types.is_float_dtype(out[col]):
+            out[col] = out[col].map(lambda v: v if not math.isfinite(v)
+                                    else float(f"{v:.{digits}g}"))
     return out

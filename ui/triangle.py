@@ -10,7 +10,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.maps.ternary import ternary_position
+from tradeoff.maps.ternary import ternary_position, three_with_room
 from tradeoff.maps.ternary_pictures import ternary_axes
 from tradeoff_ui import cached, charts, text
 
@@ -37,7 +37,10 @@ def blend_triangle(study, fitted, best, chosen) -> None:
                                  format_func=lambda n: what_labels.get(n) or
                                  study.response(n).display())
     if len(comps) > 3:
-        three = right.multiselect("Three components", names, default=names[:3],
+        # as the report does: three the held components leave room for
+        three = right.multiselect("Three components", names,
+                                  default=three_with_room(study, {n: chosen.settings[n]
+                                                                  for n in names}),
                                   max_selections=3, key="r_tri_components",
                                   format_func=lambda n: study.factor(n).display())
         if len(three) != 3:
@@ -72,8 +75,8 @@ def blend_triangle(study, fitted, best, chosen) -> None:
         return
     held = [n for n in names if n not in three]
     others = [f for f in study.factors if f.name not in three]
-    shown = {f.name: (settings[f.name] if isinstance(settings[f.name], str)
-                      else format(settings[f.name], ".4g")) for f in others}
+    shown = {f.display(): (settings[f.name] if isinstance(settings[f.name], str)
+                           else format(settings[f.name], ".4g")) for f in others}
     held_text = text.plain(", ".join(f"{k} = {v}" for k, v in shown.items())) or "nothing else"
     if shown_value == "limits":
         titles = {r.name: r.display() for r in study.responses}
@@ -82,7 +85,7 @@ def blend_triangle(study, fitted, best, chosen) -> None:
         st.caption(f"Held at {held_text} ({text.plain(chosen.label)}). Each line is one "
                    "response's limit, in that response's colour and dash, with short ticks "
                    "on the side where the limit fails. The thin black outline surrounds the "
-                   "blends within every component's bounds; the thick grey outline, the "
+                   "blends within every component's bounds; the thick dark outline, the "
                    f"blends where every limit also holds: {tlim.share:.0%} of the allowed "
                    "blends. Faint dotted lines: D.")
     else:

@@ -15,7 +15,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.search.chance import NOT_STATED, chance_text
 from tradeoff_ui import cached, text
-from tradeoff_ui.shown import num, span
+from tradeoff_ui.shown import NARROW_PX, num, span, table_px
 
 __all__ = ["what_if_panel"]
 
@@ -137,7 +137,7 @@ def what_if_panel(study, fitted, chosen, pct: str) -> None:
     st.markdown(f"D = {answer.desirability:.3f}; chance that every response lands "
                 f"within its limits: **{all_met}**")
     st.caption(text.plain(f"Every figure here is for one recipe: {recipe}."))
-    st.dataframe(pd.DataFrame({
+    shown = pd.DataFrame({
         "response": [study.response(n).display() for n in t["response"]],
         "predicted": t["predicted"].map(num),
         f"mean ({pct})": [span(a, b) for a, b in zip(t["ci_low"], t["ci_high"])],
@@ -145,5 +145,11 @@ def what_if_panel(study, fitted, chosen, pct: str) -> None:
         "limits": [span(a, b) for a, b in zip(t["lower_limit"], t["upper_limit"])],
         "d": t["desirability"].map(lambda v: num(v, 3)),
         "chance in limits": [NOT_STATED if n in far else chance_text(c) for n, c in
-                                 zip(t["response"], t["chance_in_limits"])]}),
-        hide_index=True, key="r_whatif_table")
+                                 zip(t["response"], t["chance_in_limits"])]})
+    # long labels would push columns behind a scroll on a laptop: the mean's interval
+    # (the narrower one) goes first; the one batch's interval is what a lab meets
+    if table_px(shown) > NARROW_PX:
+        shown = shown.drop(columns=f"mean ({pct})")
+        st.caption(f"The mean's interval is left out to keep every column in view "
+                   f"(the one-batch interval contains it).")
+    st.dataframe(shown, hide_index=True, key="r_whatif_table")

@@ -12,13 +12,27 @@ import pandas as pd
 
 from .estimates import VERDICTS
 
-__all__ = ["effects_picture", "ROW_HEIGHT"]
+__all__ = ["effects_picture", "term_title", "ROW_HEIGHT"]
 
 ROW_HEIGHT = 24  # per term: dots and bars stay apart, labels stay readable
 INK, BAR, ZERO = "#23262b", "#a9c3cb", "#6b7178"
 # filled for terms that stand out (darker when they do among all terms), open otherwise
 _FILL = {VERDICTS[0]: INK, VERDICTS[1]: "#1b6f8a", VERDICTS[2]: "#ffffff",
          VERDICTS[3]: "#c4c9ce"}
+
+
+def term_title(term: str, labels: dict) -> str:
+    """A model term in the study's labels, as a reader names it: 'protein:mix_temp'
+    -> 'Protein content × Mixing temperature', 'protein^2' -> 'Protein content²',
+    'binder[date paste]' -> 'Binder type = date paste'. ``labels``: factor name -> label."""
+    def part(p: str) -> str:
+        name, bracket, level = p.partition("[")
+        name, caret, power = name.partition("^")
+        return (labels.get(name, name) + ({"2": "\u00b2", "3": "\u00b3"}.get(power, f"^{power}")
+                                          if caret else "")
+                + (f" = {level[:-1]}" if bracket else ""))
+
+    return " \u00d7 ".join(part(p) for p in term.split(":"))
 
 
 def effects_picture(estimates: pd.DataFrame, x_title: str, *, width: int | None = None):

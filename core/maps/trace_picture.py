@@ -22,23 +22,26 @@ TRACE_AXIS = "Move from the chosen settings (coded units)"
 _LIMIT = "#a8322d"
 
 
-def _scales(alt, factors: list[str]):
+def _scales(alt, factors: list[str], squares: set = frozenset()):
     colours = alt.Scale(domain=factors, range=[LINE_COLOURS[i % len(LINE_COLOURS)]
                                                for i in range(len(factors))])
-    dashes = alt.Scale(domain=factors, range=[LINE_DASHES[i % len(LINE_DASHES)]
-                                              for i in range(len(factors))])
+    # a factor drawn as squares keeps a solid outline in the key
+    dashes = alt.Scale(domain=factors, range=[[1, 0] if f in squares else
+                                              LINE_DASHES[i % len(LINE_DASHES)]
+                                              for i, f in enumerate(factors)])
     return colours, dashes
 
 
 def _layers(alt, part: pd.DataFrame, factors: list[str], factor_titles: dict, *,
             y_title: str | None, legend: bool, d_scale: bool):
     """The traces, the limits, the ring at the chosen solution (one response)."""
-    colours, dashes = _scales(alt, factors)
+    colours, dashes = _scales(alt, factors, set(part.loc[part["level"] != "", "factor"]))
     data = part.assign(factor_title=[factor_titles.get(f, f) for f in part["factor"]],
                        shown=[lv if lv else f"{v:.4g}" for lv, v in
                               zip(part["level"], part["value"])])
     y_scale = alt.Scale(domain=[0, 1]) if d_scale else alt.Scale(zero=False)
-    x = alt.X("shift:Q", title=TRACE_AXIS, scale=alt.Scale(nice=False),
+    # padding: a square or ring at either end sits whole inside the frame
+    x = alt.X("shift:Q", title=TRACE_AXIS, scale=alt.Scale(nice=False, padding=8),
               axis=alt.Axis(values=[-2, -1.5, -1, -0.5, 0, 0.5, 1, 1.5, 2]))
     y = alt.Y("predicted:Q", title=y_title, scale=y_scale)
     key = alt.Legend(title=None, orient="bottom", columns=2, labelLimit=200,
@@ -70,10 +73,13 @@ def _layers(alt, part: pd.DataFrame, factors: list[str], factor_titles: dict, *,
             strokeDash=alt.StrokeDash("factor:N", scale=dashes, legend=key),
             detail=alt.Detail("factor:N"), order=alt.Order("shift:Q"), tooltip=tips))
     if len(levels):
-        layers.append(alt.Chart(levels).mark_point(filled=True, size=75, shape="square",
-                                                   opacity=1).encode(
-            x=x, y=y, color=alt.Color("factor:N", scale=colours,
-                                      legend=None if len(numeric) else key),
+        # the key shows each factor as it is drawn: a line, or a square for named levels
+        drawn = set(levels["factor"])
+        shapes = alt.Scale(domain=factors, range=["square" if f in drawn else "stroke"
+                                                  for f in factors])
+        layers.append(alt.Chart(levels).mark_point(filled=True, size=75, opacity=1).encode(
+            x=x, y=y, color=alt.Color("factor:N", scale=colours, legend=key),
+            shape=alt.Shape("factor:N", scale=shapes, legend=key),
             tooltip=tips))
     now = data[data["current"]].head(1)
     if len(now):

@@ -32,13 +32,13 @@ def _chart_div(svg: str) -> str:
     return f'<div class="chart">{svg}</div>' if svg else ""
 
 
-def _effects_chart(response, model, leave_out=frozenset()) -> str:
+def _effects_chart(response, model, leave_out=frozenset(), labels: dict | None = None) -> str:
     """Each term's effect as a dot with its margins, largest at the top
     (``maps.effects_picture``), then the sentence that reads it; terms in
-    ``leave_out`` are not drawn."""
+    ``leave_out`` are not drawn; ``labels`` (factor name -> label) names the terms."""
     import altair as alt
 
-    from ..maps.effects_picture import effects_picture
+    from ..maps.effects_picture import effects_picture, term_title
     from ..maps.estimates import effect_estimates, effects_note
     from html import escape as esc
 
@@ -48,10 +48,11 @@ def _effects_chart(response, model, leave_out=frozenset()) -> str:
     scale = {"log": ", log scale", "sqrt": ", square-root scale"}.get(model.transform, "")
     unit = response.unit + scale if response.unit else scale.lstrip(", ")
     title = f"Effect ({unit})" if unit else "Effect"
-    chart = effects_picture(estimates, title, width=420).properties(
+    shown = estimates.assign(term=[term_title(t, labels or {}) for t in estimates["term"]])
+    chart = effects_picture(shown, title, width=420).properties(
         title=alt.TitleParams(f"Effects on {response.label}", anchor="start"))
     return (_chart_div(_svg(chart))
-            + f'<p class="note">{esc(effects_note(estimates, model.confidence))}</p>')
+            + f'<p class="note">{esc(effects_note(shown, model.confidence))}</p>')
 
 
 def _curve_chart(item, part: pd.DataFrame, marker) -> str:

@@ -52,7 +52,8 @@ class _EvidenceSections(_Sections):
                 out.append(self.blend_model(r, rep))
             else:
                 out.append(_effects_chart(r, self.data["fitted"][r.name], leave_out={
-                    f.name for f in self.study.factors if getattr(f, "is_component", False)}))
+                    f.name for f in self.study.factors if getattr(f, "is_component", False)},
+                    labels={f.name: f.label for f in self.study.factors}))
             out.append(self.interaction_chart(r.name, rep, alpha))
             out.append(self._terms_table(rep, alpha))
             out.append(self._tests(rep))

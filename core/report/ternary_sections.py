@@ -96,7 +96,7 @@ class _TernarySections(_Sections):
                 '<div class="charts">' + "".join(charts) + "</div>"
                 f'<p class="note">Left: each line is one response\'s limit, in its colour '
                 "and dash, with short ticks on the side where the limit fails; the thick "
-                "grey outline surrounds the allowed blends where every limit holds "
+                "dark outline surrounds the allowed blends where every limit holds "
                 f"({tlim.share:.0%} of them); faint dotted lines: D. Right: lines of equal "
                 "overall desirability D, each labelled with its value.</p>")
 

@@ -448,7 +448,7 @@ def next_batch(study, *, runs: int = 4, seed: int | None = None, fit=None,
                 spread[~worth] = -1.0
             i = int(np.argmax(spread))
             x, value, explore = X[i], float(max(ei[i], 0.0)), True
-        x = _rounded(study, x, A, b)
+        x = _rounded(study, x, A, b, lo, hi, P, min_distance)
         mu_x, sd_x = goals.moments(x[None, :])
         nat = goals.natural(mu_x)
         D_x = float(goals.D(nat, goals.log_factor_d(x[None, :]))[0])
@@ -495,16 +495,45 @@ def _refine(goals, x0, ei0, num, lo, hi, A, b, P, picks, min_distance, best, E, 
     return x, value
 
 
-def _rounded(study, x, A, b):
-    """x with numeric settings rounded to a thousandth of each factor's range
-    (a setting a lab can weigh out), kept unrounded if rounding broke a rule."""
-    y = x.copy()
+def _rounded(study, x, A, b, lo, hi, P, min_distance):
+    """x with numeric settings on each factor's step (``Factor.lab_step``, as the
+    recommendation is rounded: tradeoff.search.rounding), a blend's components to a
+    thousandth of their range (so they keep their total).
+
+    Among the steps just below and above each setting inside the searched range,
+    the nearest recipe that keeps the rules and stays ``min_distance`` from the
+    runs made and picked (``P``); else, as before steps, every numeric setting to a
+    thousandth of its range (printed whole, and within a thousandth of the distance);
+    x as found when that breaks a rule.
+    """
+    from .rounding import _combinations, _neighbours
+
+    def thousandth(f, value):
+        return round(value, max(0, -math.floor(math.log10((f.high - f.low) / 1000))))
+
+    choices, cols, fine = [], [], x.copy()
     for j, f in enumerate(study.factors):
-        if not f.is_categorical:
-            digits = max(0, -math.floor(math.log10((f.high - f.low) / 1000)))
-            natural = round(f.centre + f.half_range * x[j], digits)
-            y[j] = (natural - f.centre) / f.half_range
-    return y if _allowed(y[None, :], A, b)[0] else x
+        if f.is_categorical:
+            continue
+        value = f.centre + f.half_range * x[j]
+        fine[j] = (thousandth(f, value) - f.centre) / f.half_range
+        if getattr(f, "is_component", False) or not f.lab_step:
+            near = [thousandth(f, value)]
+        else:
+            near = _neighbours(value, f.lab_step, f.centre + f.half_range * lo[j],
+                               f.centre + f.half_range * hi[j])
+        choices.append([(v - f.centre) / f.half_range for v in near])
+        cols.append(j)
+    if not cols:
+        return x
+    fine = fine if _allowed(fine[None, :], A, b)[0] else x
+    combos = _combinations(choices)
+    C = np.repeat(x[None, :], len(combos), axis=0)
+    C[:, cols] = combos
+    C = C[np.argsort(((C - x) ** 2).sum(axis=1), kind="stable")]
+    C = C[_allowed(C, A, b)]
+    apart = _distance_to(C, P) >= min_distance - 1e-9 if len(C) else np.zeros(0, bool)
+    return C[int(np.argmax(apart))] if apart.any() else fine
 
 
 def _settings(study, x) -> dict:

@@ -92,3 +92,17 @@ def test_left_out_terms_are_not_shown():
                                                                    FILTRATION)
     est = effect_estimates(m, leave_out={"A"})
     assert "A" not in set(est["term"]) and len(est) == 14
+
+
+def test_effects_are_named_by_their_labels():
+    # common practice: an interaction reads as its factors joined by a times sign
+    from tradeoff.maps.effects_picture import term_title
+
+    labels = {"protein": "Protein content", "mix_temp": "Mixing temperature",
+              "binder": "Binder type"}
+    assert term_title("protein", labels) == "Protein content"
+    assert term_title("protein:mix_temp", labels) == "Protein content \u00d7 Mixing temperature"
+    assert term_title("protein^2", labels) == "Protein content\u00b2"
+    assert term_title("binder[date paste]:protein", labels) == \
+        "Binder type = date paste \u00d7 Protein content"
+    assert term_title("other", labels) == "other"

@@ -544,8 +544,9 @@ def check_next(generated, study, fit, printed: dict, outcome) -> None:
         x = X[0]
         near = np.sqrt(((np.vstack([made] + picked) - x) ** 2).sum(axis=1)).min() \
             if len(made) or picked else np.inf
-        # settings are rounded to 1/1000 of each factor's range (README), which may
-        # bring a run that much nearer
+        # settings sit on each factor's step only where that keeps the distance
+        # (README); a blend's components are rounded to 1/1000 of their range, which
+        # may bring a run that much nearer
         if near < minimum - 1e-3 * math.sqrt(len(x)):
             outcome.fail("next", "next", f"{where} lies {near:.4g} coded units from a run "
                          f"made or suggested, closer than {minimum}")

@@ -250,3 +250,28 @@ def test_a_run_already_made_is_recognised():
     assert made_run_at(study, row.to_dict()) == str(study.runs["run"].iloc[6])
     moved = row.to_dict() | {"protein": row["protein"] + 0.1}
     assert made_run_at(study, moved) is None
+
+
+def test_demo_batch_sits_on_each_factors_step_and_its_figures_are_its_own():
+    # a suggested run is a recipe a lab can make (on each factor's step, as the
+    # recommendation is rounded), and its predicted D is D at that recipe,
+    # written out from the published formulas (Derringer & Suich 1980,
+    # Derringer 1994: tests/reference_desirability.py)
+    from tradeoff import load_study
+
+    study = load_study(DEMO)
+    batch = next_batch(study, runs=4, seed=5, draws=64)
+    fit = batch_fit(study)
+    for s in batch.runs:
+        x = np.array([[s.coded[f.name] for f in study.factors]])
+        for f in study.factors:
+            if f.is_categorical:
+                continue
+            value = s.settings[f.name]
+            on_step = abs(value / f.lab_step - round(value / f.lab_step)) < 1e-6
+            at_end = min(abs(value - f.low), abs(value - f.high)) < 1e-9
+            assert on_step or at_end, (f.name, value, f.lab_step)
+            assert value == pytest.approx(f.centre + f.half_range * s.coded[f.name])
+        assert s.desirability == pytest.approx(float(study_D(study, fit, x)[0]), abs=1e-9)
+        for name, predicted in s.predicted.items():
+            assert predicted == pytest.approx(float(fit.models[name].predict(x)[0]), rel=1e-9)

@@ -146,7 +146,9 @@ def test_runs_table_marks_extrapolated_shelf_lives_and_warnings_are_grouped(app)
     try:
         main = page.locator('[data-testid="stMain"]').inner_text()
         for run, v in values.items():
-            marked = f"extrapolated shelf_life_20C (" in next(
+            # the mark names the response by its label, as the tables do
+            label = study.response("shelf_life_20C").label
+            marked = f"extrapolated {label} (" in next(
                 (line for line in main.splitlines() if line.startswith(f"{run}:")), "")
             assert marked == (v > last), (run, v)
         # one box per kind: the far-extrapolated runs of both shelf lives in one box

@@ -201,7 +201,8 @@ def _study_checks(page, study) -> None:
     assert flagged, "the demo has an unusual run (invented to show the mark)"
     text = page.locator('[data-testid="stMain"]').inner_text()
     for run, name in flagged:
-        assert re.search(rf"{re.escape(run)}: [^\n]*unusual {re.escape(name)}", text), \
+        assert re.search(rf"{re.escape(run)}: [^\n]*unusual "
+                         rf"{re.escape(study.response(name).label)}", text), \
             (run, name)
 
 

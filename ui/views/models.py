@@ -5,6 +5,7 @@ import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
+from tradeoff.maps.effects_picture import term_title
 from tradeoff.maps.estimates import effect_estimates, effects_note
 from tradeoff.maps.tables import (effect_table, half_normal_table,
                            interaction_means, residual_table)
@@ -148,12 +149,15 @@ if blend_model.is_blend_model(model):  # components move together: Cox direction
     panels.model_comparison(study, name)
     st.stop()
 
+_labels = {f.name: f.label for f in study.factors}
 left, right = st.columns([3, 2])
 with left:
     st.subheader("Effects and their margins")
-    st.caption(text.plain(effects_note(estimates, study.confidence)))
+    _named = estimates.assign(term=[  # labels, not the data file's names
+        term_title(t, _labels) for t in estimates["term"]])
+    st.caption(text.plain(effects_note(_named, study.confidence)))
     if len(estimates):
-        charts.show(charts.effects_chart, estimates, charts.titled("Effect", unit),
+        charts.show(charts.effects_chart, _named, charts.titled("Effect", unit),
                     width="stretch")
 with right:
     st.subheader("Half-normal plot")
@@ -161,7 +165,9 @@ with right:
                "noise rise steadily from the bottom left; real effects stand apart, far "
                "to the right of the rest.")
     if len(effects) >= 2:
-        charts.show(charts.half_normal_chart, half_normal_table(model), response.unit,
+        _half = half_normal_table(model)
+        charts.show(charts.half_normal_chart, _half.assign(term=[
+            term_title(t, _labels) for t in _half["term"]]), response.unit,
                     width="stretch")
 
 st.subheader("Interactions")

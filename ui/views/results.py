@@ -253,13 +253,9 @@ except TradeoffError as exc:
     st.error(text.plain(exc))
 else:
     factor_titles = {f.name: f.label for f in study.factors}
-    names = list(dict.fromkeys(along["response"]))
-    cols = st.columns(2)
-    for i, name in enumerate(names):
-        title = ("Overall desirability D" if name == "D" else
-                 study.response(name).display())
-        charts.show(charts.trace_chart, along, name, title, factor_titles,
-                    where=cols[i % 2], width="stretch")
+    titles = {name: "Overall desirability D" if name == "D" else study.response(name).display()
+              for name in dict.fromkeys(along["response"])}
+    charts.show(charts.traces_chart, along, titles, factor_titles, width="content")
 
 # -- what-if ------------------------------------------------------------------------------
 what_if.what_if_panel(study, fitted, chosen, pct)

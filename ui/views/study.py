@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import hashlib
+import re
 
 import pandas as pd
 import streamlit as st
@@ -11,7 +12,7 @@ from tradeoff.study.demo import demo_study_path
 from tradeoff.inputs import DATA_SUFFIXES, table_columns
 from tradeoff.report.unused import unused_columns
 from tradeoff_ui import cached, charts, panels, state, text
-from tradeoff_ui.shown import blank_none
+from tradeoff_ui.shown import NARROW_PX, blank_none, significant, table_px, text_px
 
 ss = st.session_state
 
@@ -110,10 +111,14 @@ if study.description:
     st.caption(text.plain(study.description))
 # one box per kind of note, the cautions once (panels.show_notices)
 panels.show_notices(study.notes, cautions=st.empty())
-for col in unused_columns(study):  # a batch or day column often marks blocks
-    st.info(text.plain(f"Column '{col['column']}' is not used: it might be "
-                       f"{col['might_be']}"
-                       + (f"; to use it, add {col['key']}" if col["key"] else "") + "."))
+_unused = unused_columns(study)
+if _unused:  # one box for all of them (a batch or day column often marks blocks)
+    _names = ", ".join(f"'{c['column']}'" for c in _unused)
+    st.info(text.plain(f"{len(_unused)} column(s) of the data file are kept but not "
+                       f"used: {_names}."))
+    with st.expander("What each unused column might be"):
+        for col in _unused:  # 'might_be' already says how to use it
+            st.markdown("- " + text.plain(f"'{col['column']}': {col['might_be']}."))
 
 # a blend's components are amounts that add up, never coded -1/+1: a table of their own
 _comps = [f for f in study.factors if getattr(f, "is_component", False)]
@@ -186,13 +191,29 @@ st.write("Settings as made and responses as measured. "
 factors = [f.name for f in study.factors]
 responses = [r.name for r in study.responses if r.name in table]
 # the mark next to the run id: a wide table must not hide it off to the right
-main = table[["run"]].assign(mark=table["marks"].map(_short)).join(
-    table[[*factors, *responses]])
+main = significant(table[["run"]].assign(mark=table["marks"].map(_short)).join(
+    table[[*factors, *responses]]))
 rows = min(len(main), 40)  # up to 40 runs show whole; longer tables scroll
-st.dataframe(main, hide_index=True, height=35 * (rows + 1) + 3, key="s_runs",
-             column_config={"mark": st.column_config.TextColumn("mark")})
+_help = {**{f.name: f.display() for f in study.factors},
+         **{r.name: r.display() for r in study.responses}}
+_config = {"mark": st.column_config.TextColumn("mark", width=text_px(["mark", *main["mark"]])),
+           **{c: st.column_config.Column(c, help=text.plain(_help[c])) for c in [*factors, *responses]}}
+# too wide for a laptop's column: the settings, then the responses, each whole
+_parts = ([main] if table_px(main) <= NARROW_PX else
+          [main[["run", "mark", *factors]], main[["run", *responses]]])
+for _i, _part in enumerate(_parts):
+    st.dataframe(_part, hide_index=True, height=35 * (rows + 1) + 3,
+                 key="s_runs" if _i == 0 else f"s_runs_{_i}",
+                 column_config={k: v for k, v in _config.items() if k in _part})
+# the marks name responses and factors as the data file does: say them by their labels
+_named = sorted(_help, key=len, reverse=True)
+_by_label = re.compile(r"\b(" + "|".join(map(re.escape, _named)) + r")\b") if _named else None
 for _, row in marked.iterrows():
-    st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(row['marks'])}")
+    _marks = _by_label.sub(lambda m: study.factor(m.group(1)).label
+                           if m.group(1) in study.factor_names
+                           else study.response(m.group(1)).label, row["marks"]) \
+        if _by_label else row["marks"]
+    st.markdown(f"- **{text.plain(row['run'])}**: {text.plain(_marks)}")
 # a factor of three or more levels is coded by position, a number that means nothing
 # to a reader: its level names in the table above say it all
 # components too: they are amounts (above), never -1/+1
@@ -215,14 +236,28 @@ if kinetics:
         st.info(" ".join(ACCELERATED_CAUTIONS))  # not among the page's cautions above
     name = st.selectbox("Response", list(kinetics), key=f"kinetics_response_{ss['epoch']}",
                         format_func=lambda n: study.response(n).display())
-    st.dataframe(kinetics[name]["table"][
-        ["run", "value", "lower", "upper", "se", "r_squared", "points", "per_temperature",
-         "flag"]], hide_index=True,
-        column_config={"r_squared": st.column_config.NumberColumn("R2", format="%.3f"),
-                       "se": st.column_config.NumberColumn("standard error"),
-                       "per_temperature": st.column_config.TextColumn(
-                           "storage times per temperature"),
-                       "flag": st.column_config.TextColumn("flag", width="large")})
+    # the flag in a few words beside each run, its full wording once under the table
+    _kt = significant(kinetics[name]["table"])
+    _why = {}  # the few words -> the wording (the week differs from run to run)
+    for _f in _kt["flag"]:
+        if _f:
+            _why.setdefault("far beyond the storage" if _f.startswith("extrapolated far")
+                            else "beyond the storage" if _f.startswith("extrapolated")
+                            else _f.split(":")[0], _f.split(" (week")[0])
+    _kt = _kt.assign(flag=_kt["flag"].map(
+        lambda f: next((k for k, v in _why.items() if f and f.startswith(v)), "")))
+    _krows = min(len(_kt), 40)
+    st.dataframe(_kt[["run", "value", "lower", "upper", "se", "r_squared", "points",
+                      "per_temperature", "flag"]], hide_index=True,
+                 height=35 * (_krows + 1) + 3,
+                 column_config={"r_squared": st.column_config.NumberColumn("R2", format="%.3f"),
+                                "se": st.column_config.NumberColumn("standard error"),
+                                "per_temperature": st.column_config.TextColumn(
+                                    "storage times per temperature"),
+                                "flag": st.column_config.TextColumn(
+                                    "flag", width=text_px(["flag", *_kt["flag"]]))})
+    for _short_flag, _wording in _why.items():
+        st.caption(text.plain(f"{_short_flag}: {_wording}."))
     st.write("ln k against 1000 / T for each run: dots are each temperature's own "
              "straight-line rate, the line is the one-step fit, the diamond the "
              "temperature asked for.")
