@@ -104,7 +104,7 @@ class Sensitivity:
         """The steadiness for the terminal."""
         from .sensitivity_text import sensitivity_text
 
-        return sensitivity_text(self)
+        return sensitivity_text(self, STILL=STILL, MOVES=MOVES, LIMIT_SHIFT=LIMIT_SHIFT)
 
 
 def sensitivity(study, *, result=None, fit=None, seed: int | None = None) -> Sensitivity:

@@ -12,10 +12,12 @@ def _num(v) -> str:
     return "0" if abs(v) < 5e-10 else f"{v:+.3g}"
 
 
-def sensitivity_text(s) -> str:
-    """Readable text of a ``Sensitivity``: the sentence, binding goals, two tables."""
-    from .sensitivity import LIMIT_SHIFT, MOVES, STILL
+def sensitivity_text(s, *, STILL, MOVES, LIMIT_SHIFT) -> str:
+    """Readable text of a ``Sensitivity``: the sentence, binding goals, two tables.
 
+    The thresholds come from ``tradeoff.search.sensitivity`` (passed in, so
+    this module does not import it back).
+    """
     ch = s.changes
     lines = [f"How steady the recommendation is (each goal's weight halved and doubled, "
              f"each limit moved {LIMIT_SHIFT:.0%} of the goal's span down and up, one "
