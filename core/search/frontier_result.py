@@ -220,13 +220,22 @@ def nice_step(x: float) -> float:
     return max(m for m in (1, 2, 5) if m * power <= x) * power
 
 
-def knee_index(F) -> int | None:
+def knee_index(F, pieces=None) -> int | None:
     """The knee of a frontier F (n, q), larger better, rows in frontier order.
 
     Two goals: the interior point of greatest Menger curvature (4 x triangle
     area / product of its sides) through it and its neighbours, goals scaled
     to their ranges. Three goals: the point farthest beyond the plane through
     the points best in each goal.
+
+    ``pieces`` (n labels, optional) names the connected piece each point lies
+    on (its categorical levels). A frontier made of pieces jumps where one
+    piece hands over to another (say one binder to the other). That jump is
+    not a bend a team can sit on, and neither is the last stretch of a piece
+    before it (where the piece runs steeply into the hand-over, beaten just
+    beyond by the other piece). So with two goals the knee is sought among
+    points whose two neighbours lie on the same piece, neither of them a
+    point next to a seam (any point, when no such triple exists).
     """
     F = np.asarray(F, dtype=float)
     if len(F) < 3:
@@ -240,6 +249,15 @@ def knee_index(F) -> int | None:
         sides = (np.linalg.norm(b - a, axis=1) * np.linalg.norm(c - b, axis=1)
                  * np.linalg.norm(c - a, axis=1))
         kappa = np.where(sides > 0, 2 * cross / np.where(sides > 0, sides, 1.0), 0.0)
+        if pieces is not None:
+            lab = list(pieces)
+            n = len(lab)
+            # a point next to a seam gets a label of its own, so no triple holds it
+            lab = [("seam", i) if (i > 0 and lab[i - 1] != lab[i])
+                   or (i < n - 1 and lab[i + 1] != lab[i]) else lab[i] for i in range(n)]
+            whole = np.array([lab[i] == lab[i + 1] == lab[i + 2] for i in range(n - 2)])
+            if whole.any():
+                kappa = np.where(whole, kappa, -1.0)
         return int(np.argmax(kappa)) + 1
     ends = G[[int(np.argmax(G[:, j])) for j in range(3)]]
     normal = np.cross(ends[1] - ends[0], ends[2] - ends[0])
@@ -290,7 +308,9 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
         step = np.sqrt(((np.diff(Ff, axis=0) / scale) ** 2).sum(axis=1))
         s = np.concatenate([[0.0], np.cumsum(step)])
         opt["position"] = float(s[nearest] / s[-1]) if s[-1] > 0 else 0.0
-    k = knee_index(Ff)
+    # a point's piece: its levels of the categorical factors (the seams between them
+    # are jumps, not bends: see knee_index)
+    k = knee_index(Ff, [tuple(x) for x in X[:, problem.cat].round(9).tolist()])
     knee = None if k is None else dicts[k] | {"index": k}
     pair = _non_dominated(Ff[:, :2])
     va = problem.values(X)[:, cols[0]]
