@@ -62,7 +62,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         food cautions, plus the accelerated-storage ones when storage at
         several temperatures was fitted) and ``derived`` (a study without
         factors: response -> its derivation table, the study's results; empty
-        otherwise).
+        otherwise), ``trade`` (``frontier_data.trade_data``: the frontier of
+        the two goals in greatest conflict and the recommendation's
+        steadiness; None without factors).
     """
     import tomli_w
 
@@ -140,7 +142,11 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     derived = ({r.name: derivation_table(study, r.name) for r in study.responses
                 if r.is_derived} if not study.factors else {})
     several = any((k["points"]["series"] == "one-step fit").any() for k in kinetics.values())
+    from .frontier_data import trade_data
+
+    trade = trade_data(study, fit, result, seed) if study.factors else None
     return {
+        "trade": trade,
         "kinetics": kinetics,
         "panel": panel,
         "derived": derived,

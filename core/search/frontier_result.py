@@ -105,9 +105,16 @@ class Frontier:
         for i in pick.tolist():
             row = ex.iloc[i]
             verb = "costs" if row["rate"] >= 0 else "also gains"
-            out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: each further "
-                       f"{step:g} {_unit(self.units[a])}of {a} {verb} "
-                       f"{abs(row['rate']) * step:.3g} {_unit(self.units[b])}of {b}")
+            gain = {"maximize": f"each further {step:g} {_unit(self.units[a])}of {a}",
+                    "minimize": f"each {step:g} {_unit(self.units[a])}less {a}",
+                    }.get(self.senses[a], f"each {step:g} {_unit(self.units[a])}closer "
+                          f"to {a}'s target")
+            worse = {"maximize": "of", "minimize": "more"}.get(
+                self.senses[b], "farther from the target of") if row["rate"] >= 0 else \
+                {"maximize": "more", "minimize": "less"}.get(self.senses[b],
+                                                             "closer to the target of")
+            out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} {verb} "
+                       f"{abs(row['rate']) * step:.3g} {_unit(self.units[b])}{worse} {b}")
         return out
 
     def text(self) -> str:

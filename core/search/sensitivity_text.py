@@ -6,10 +6,11 @@ from ..cautions import FOOD_CAUTION
 __all__ = ["sensitivity_text"]
 
 
-def _num(v) -> str:
+def _num(v, base=1.0) -> str:
+    """A move, signed; rounding dust of the polish (a millionth of the value) is 0."""
     if isinstance(v, str):
         return v
-    return "0" if abs(v) < 5e-10 else f"{v:+.3g}"
+    return "0" if abs(v) < 1e-6 * max(1.0, abs(base)) else f"{v:+.3g}"
 
 
 def sensitivity_text(s, *, STILL, MOVES, LIMIT_SHIFT) -> str:
@@ -40,7 +41,7 @@ def sensitivity_text(s, *, STILL, MOVES, LIMIT_SHIFT) -> str:
               "factor's units; moved = distance in coded units):", head]
     for row in ch.to_dict("records"):
         mark = "*" if row["move"] > MOVES or row["levels_changed"] else " "
-        cells = [_num(row[f"shift:{n}"]) for n in factors]
+        cells = [_num(row[f"shift:{n}"], s.baseline["settings"][n]) for n in factors]
         cells += [row[f"set:{n}"] if n in row["levels_changed"].split(", ") else "same"
                   for n in cats]
         D = f"{row['D']:.3f}" if row["feasible"] else "none"
@@ -53,7 +54,8 @@ def sensitivity_text(s, *, STILL, MOVES, LIMIT_SHIFT) -> str:
                   f"  {'change':<{width}} " + "".join(f"{n[:13]:>14}" for n in responses)]
         for row in ch.to_dict("records"):
             lines.append(f"  {row['words']:<{width}} " + "".join(
-                f"{_num(row[f'pred:{n}']):>14}" for n in responses))
+                f"{_num(row[f'pred:{n}'], s.baseline['predicted'][n]):>14}"
+                for n in responses))
     lines += [f"  (* moves by more than {MOVES} coded units or to another level: "
               "another recommendation)",
               "cautions: " + FOOD_CAUTION]
