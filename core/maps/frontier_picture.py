@@ -84,7 +84,7 @@ def frontier_picture(table: pd.DataFrame, optimum: dict, goals, titles: dict, *,
     if len(knee):
         layers.append(alt.Chart(knee).mark_point(shape="circle", size=420, filled=False,
                                                  color=_KNEE, strokeWidth=2).encode(x=x, y=y))
-        layers.append(alt.Chart(knee).mark_text(align="left", dx=13, dy=-10, color=_KNEE,
+        layers.append(alt.Chart(knee).mark_text(align="right", dx=-14, dy=16, color=_KNEE,
                                                 fontWeight="bold").encode(
             x=x, y=y, text=alt.Text("label:N")).transform_calculate(label="'knee'"))
     spot = {a: _value(optimum, a), b: _value(optimum, b)}

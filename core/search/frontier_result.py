@@ -11,6 +11,7 @@ along the frontier gives up in the second goal per unit gained in the first.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
@@ -55,6 +56,9 @@ class Frontier:
         the second's), ``rate`` (loss_b per unit of gain_a), ``mid_a``.
     seed : int
     warnings : tuple of str
+    solutions : tuple of Solution
+        Each point as the search's ``Solution`` (labelled ``F0``, ``F1``, ... in
+        frontier order), for a front end that makes a point the chosen solution.
     """
 
     study: str
@@ -67,6 +71,7 @@ class Frontier:
     exchange: pd.DataFrame = field(compare=False, repr=False)
     seed: int = 0
     warnings: tuple = ()
+    solutions: tuple = field(default=(), compare=False, repr=False)
 
     def to_dict(self, digits: int = 6) -> dict:
         """The command line's ``--json``."""
@@ -97,9 +102,15 @@ class Frontier:
         """The exchange rate in sentences, for at most ``rows`` stretches of the frontier."""
         a, b = self.between[:2]
         ex = self.exchange
+        # a step that gains next to nothing (a near-vertical stretch, often at a seam
+        # or an end) has a rate that is mostly rounding: it is not worth a sentence
+        reach = float(ex["gain_a"].sum()) if len(ex) else 0.0
+        ex = ex[ex["gain_a"] >= 0.01 * reach]
         if not len(ex):
             return []
         step = nice_step(abs(ex["to_a"].iloc[-1] - ex["from_a"].iloc[0]) / 5)
+        values_b = [_value(p, b) for p in self.points]
+        span_b = max(float(np.ptp(values_b)), 1e-300) if values_b else 1.0
         pick = np.unique(np.linspace(0, len(ex) - 1, min(rows, len(ex))).round().astype(int))
         out = []
         for i in pick.tolist():
@@ -113,8 +124,13 @@ class Frontier:
                 self.senses[b], "farther from the target of") if row["rate"] >= 0 else \
                 {"maximize": "more", "minimize": "less"}.get(self.senses[b],
                                                              "closer to the target of")
+            amount = abs(row["rate"]) * step
+            if amount < 1e-6 * span_b:  # rounding dust: b does not move along this stretch
+                out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} "
+                           f"costs next to nothing in {b}")
+                continue
             out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} {verb} "
-                       f"{abs(row['rate']) * step:.3g} {_unit(self.units[b])}{worse} {b}")
+                       f"{amount:.3g} {_unit(self.units[b])}{worse} {b}")
         return out
 
     def text(self) -> str:
@@ -330,7 +346,9 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
     senses = {n: problem.goals[i].kind for n, i in zip(between, cols)}
     return Frontier(study=study.name, between=between, units=units, senses=senses,
                     points=tuple(dicts[:-1]), d_optimum=opt, knee=knee, exchange=exchange,
-                    seed=seed, warnings=res.warnings)
+                    seed=seed, warnings=res.warnings,
+                    solutions=tuple(dataclasses.replace(s, label=f"F{i}", rank=i + 1)
+                                    for i, s in enumerate(res.solutions[:-1])))
 
 
 def _point(s) -> dict:
