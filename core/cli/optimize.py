@@ -50,10 +50,15 @@ def run(args) -> int:
         fit = fit_study(study)  # one fit for the search and the changes
     result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by,
                       aim=args.aim, fit=fit)
+    unsteady = None  # why the steadiness could not be judged
     if args.weights_sensitivity:
+        from ..errors import SearchError
         from ..search.sensitivity import sensitivity
 
-        steady = sensitivity(study, result=result, fit=fit, seed=result.seed)
+        try:
+            steady = sensitivity(study, result=result, fit=fit, seed=result.seed)
+        except SearchError as exc:  # no setting within every limit: the result still prints
+            unsteady = str(exc)
     if args.json:
         from ..report.provenance import provenance
 
@@ -62,6 +67,8 @@ def run(args) -> int:
         data = result.to_dict() | {"provenance": block}
         if steady is not None:
             data["sensitivity"] = steady.to_dict()
+        elif unsteady is not None:
+            data["sensitivity"] = {"note": unsteady}
         print(json.dumps(data, indent=2))
     else:
         from ..search.result import fewer_solutions_text
@@ -73,4 +80,6 @@ def run(args) -> int:
         if steady is not None:
             print()
             print(steady.text())
+        elif unsteady is not None:
+            print(f"steadiness not judged: {unsteady}")
     return 0
