@@ -44,7 +44,8 @@ class Frontier:
     d_optimum : dict
         The settings of greatest D, in the same shape, with ``nearest`` (index
         of the closest frontier point, goals scaled to their ranges),
-        ``on_frontier`` (no frontier point beats it on every goal traded) and
+        ``on_frontier`` (no frontier point is as good on every goal traded and
+        better on one) and
         ``position`` (0 at the first goal's best end, 1 at the other end).
     knee : dict or None
         The knee point (with its ``index``), None with fewer than 3 points.
@@ -155,7 +156,8 @@ class Frontier:
                          + f" {p['D']:>7.3f} {ch:>7}  " + ", ".join(notes))
         o = self.d_optimum
         where = "on the frontier" if o["on_frontier"] else "inside the frontier (a " \
-            "frontier point does better on every goal traded, at the cost of other goals)"
+            "frontier point does as well on the goals traded and better on one, at the " \
+            "cost of other goals)"
         pos = "" if o.get("position") is None else \
             f", {o['position']:.0%} of the way from the {g[0]} end"
         lines += ["", f"D optimum (D = {o['D']:.3f}): " + ", ".join(
@@ -324,8 +326,10 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
     scale = np.where(span > 0, span, 1.0)
     dist = np.sqrt((((Ff - fo) / scale) ** 2).sum(axis=1))
     nearest = int(np.argmin(dist))
+    # beaten: a point as good on every goal traded and better on one (past the
+    # solver's dust, a millionth of each goal's range)
     tol = 1e-6 * scale
-    beaten = bool(np.any(np.all(Ff >= fo + tol, axis=1)))
+    beaten = bool(np.any(np.all(Ff >= fo - tol, axis=1) & np.any(Ff > fo + tol, axis=1)))
     opt = dicts[-1] | {"nearest": nearest, "on_frontier": not beaten, "position": None}
     if len(cols) == 2 and len(Ff) > 1:
         step = np.sqrt(((np.diff(Ff, axis=0) / scale) ** 2).sum(axis=1))

@@ -257,7 +257,7 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
         rc, out = cli("optimize", "--json", "--top", TOP, "--seed", seed,
                       "--weights-sensitivity")
         if rc == 0:
-            check_steadiness(generated, study, fit, goals, json.loads(out), outcome)
+            check_steadiness(generated, study, fit, goals, result, json.loads(out), outcome)
 
     rc, out = cli("next", "--runs", NEXT_RUNS, "--seed", seed, "--json")
     if rc == 0 and fit is not None:
