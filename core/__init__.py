@@ -76,6 +76,10 @@ _HOME = {
     "model_interaction": "maps.slices",
     "ternary_lines": "maps.ternary", "ternary_limits": "maps.ternary",
     "TernaryLimits": "maps.ternary", "ternary_region": "maps.ternary",
+    # the trade-off frontier and the recommendation's steadiness (issue 28)
+    "frontier": "search.frontier", "Frontier": "search.frontier_result",
+    "sensitivity": "search.sensitivity", "Sensitivity": "search.sensitivity",
+    "goal_conflicts": "search.conflict",
 }
 
 __all__ = ["__version__", *_HOME]

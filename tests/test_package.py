@@ -47,6 +47,8 @@ PUBLIC_NAMES = sorted([
     "model_interaction",
     # ternary maps (issue 18)
     "ternary_lines", "ternary_limits", "TernaryLimits", "ternary_region",
+    # the trade-off frontier and the recommendation's steadiness (issue 28)
+    "frontier", "Frontier", "sensitivity", "Sensitivity", "goal_conflicts",
 ])
 
 

@@ -120,6 +120,31 @@ def optimize(study, fitted):
                          ss.get("aim", "balance"))
 
 
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _frontier(key: str, goals: tuple, _study, _fit):
+    from tradeoff.search.frontier import frontier as trace
+
+    return trace(_study, list(goals), points=21, seed=_study.seed, fit=_fit, draws=2000)
+
+
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _conflicts(key: str, _study, _fit):
+    from tradeoff.search.conflict import goal_conflicts
+
+    return goal_conflicts(_study, fit=_fit, seed=_study.seed)
+
+
+def conflicts(study, fitted):
+    """Every pair of goals by the rank correlation of their d (``goal_conflicts``)."""
+    return _conflicts(study_keys(study)[1], study, fitted)
+
+
+def frontier(study, fitted, goals):
+    """The trade-off frontier between two goals (cached by data, models, goals, pair)."""
+    with st.spinner("Tracing the trade-off frontier..."):
+        return _frontier(study_keys(study)[1], tuple(goals), study, fitted)
+
+
 @st.cache_resource(max_entries=64, show_spinner=False)
 def _runs_table(key: str, _study, _fit):
     from tradeoff.maps.tables import runs_table as build

@@ -37,7 +37,7 @@ BAR_STEP = 22
 _ALTAIR_GLOBALS = threading.Lock()
 
 
-def show(make, *args, where=None, **options) -> None:
+def show(make, *args, where=None, **options):
     """Put the chart ``make(*args)`` on the page, in ``where`` (a column; default the page).
 
     ``make`` is a chart function (module level, returning an Altair chart). Its Vega-Lite
@@ -49,7 +49,8 @@ def show(make, *args, where=None, **options) -> None:
     our charts are built by code from checked tables.
     """
     spec = _spec(make.__module__, make.__qualname__, *args)
-    (st if where is None else where).vega_lite_chart(spec, **options)
+    # the chart's selection event when ``on_select`` is passed (the frontier's click)
+    return (st if where is None else where).vega_lite_chart(spec, **options)
 
 
 @st.cache_data(max_entries=512, show_spinner=False)
@@ -301,3 +302,12 @@ def ternary_limits_chart(tlim, axes: dict, titles: dict, marks: pd.DataFrame,
     # "pad": the triangle keeps the size its labels were placed at (see limits_chart)
     return ternary_limits_picture(tlim, axes, titles, marks, d_lines=d_lines, width=width
                                   ).properties(autosize=alt.AutoSizeParams(type="pad"))
+
+
+def frontier_chart(table, optimum, goals, titles):
+    """The trade-off frontier (``tradeoff.maps.frontier_picture``); a click picks a point."""
+    from tradeoff.maps.frontier_picture import frontier_picture
+
+    pick = alt.selection_point(name="pick", fields=["point"], on="click")
+    return frontier_picture(table, optimum, goals, dict(titles), width=520, height=330,
+                            select=pick)

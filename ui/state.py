@@ -39,6 +39,9 @@ KEYS = {
     "epoch": "counts opened studies; part of widget keys so a new study starts fresh",
     "compare_shown": "response names whose model comparison the user asked to see",
     "next_runs": "how many next runs the user asked for in 'Make next' (0: not asked yet)",
+    "frontier_nonce": "bumped to drop the frontier point picked on the results view",
+    "frontier_seen": "the solution chosen above the frontier when its point was picked "
+                     "(choosing another drops the pick)",
 }
 
 
@@ -78,7 +81,8 @@ def init() -> None:
                 "whatif": {}, "whatif_note": None, "open_error": None, "upload_digest": None, "draft": None,
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
                 "aim": "balance", "spread": {},
-                "whatif_from": None, "compare_shown": set(), "next_runs": 0}
+                "whatif_from": None, "compare_shown": set(), "next_runs": 0,
+                "frontier_nonce": 0, "frontier_seen": None}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

@@ -31,6 +31,10 @@ def add(commands) -> None:
                            "production: first the settings most likely to meet every limit "
                            "in production (factors spread by their production_sd), beside "
                            "the best balance, with the D each gives up")
+    best.add_argument("--weights-sensitivity", action="store_true",
+                      help="also say how steady the best settings are: each goal's weight "
+                           "halved and doubled, each limit moved 10%% of its span, one at "
+                           "a time, and how far the settings and predictions move")
     best.set_defaults(run=run)
 
 
@@ -39,14 +43,33 @@ def run(args) -> int:
     from ..derive.load import load_study
 
     study = load_study(args.study)
+    fit = steady = None
+    if args.weights_sensitivity:
+        from ..model.study_fit import fit_study
+
+        fit = fit_study(study)  # one fit for the search and the changes
     result = optimize(study, top=args.top, seed=args.seed, rank_by=args.rank_by,
-                      aim=args.aim)
+                      aim=args.aim, fit=fit)
+    unsteady = None  # why the steadiness could not be judged
+    if args.weights_sensitivity:
+        from ..errors import SearchError
+        from ..search.sensitivity import sensitivity
+
+        try:
+            steady = sensitivity(study, result=result, fit=fit, seed=result.seed)
+        except SearchError as exc:  # no setting within every limit: the result still prints
+            unsteady = str(exc)
     if args.json:
         from ..report.provenance import provenance
 
         # tool version, file fingerprints, date and seed: enough to reproduce it
         block = provenance(study, seed=result.seed)
-        print(json.dumps(result.to_dict() | {"provenance": block}, indent=2))
+        data = result.to_dict() | {"provenance": block}
+        if steady is not None:
+            data["sensitivity"] = steady.to_dict()
+        elif unsteady is not None:
+            data["sensitivity"] = {"note": unsteady}
+        print(json.dumps(data, indent=2))
     else:
         from ..search.result import fewer_solutions_text
 
@@ -54,4 +77,9 @@ def run(args) -> int:
         fewer = fewer_solutions_text(result, args.top)
         if fewer:
             print(f"fewer solutions: {fewer}")
+        if steady is not None:
+            print()
+            print(steady.text())
+        elif unsteady is not None:
+            print(f"steadiness not judged: {unsteady}")
     return 0

@@ -24,7 +24,7 @@ CAUTIONS = FOOD_CAUTIONS
 def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, result=None,
                 confirmation=None, now=None, study_bytes: bytes | None = None,
                 data_bytes: bytes | None = None,
-                files: dict[str, bytes] | None = None) -> dict:
+                files: dict[str, bytes] | None = None, trade: bool = True) -> dict:
     """Everything the report shows, computed once.
 
     Parameters
@@ -43,6 +43,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         Date recorded in the provenance block (default: now, UTC).
     study_bytes, data_bytes, files : bytes, optional
         File contents when they did not come from disk (workbench uploads).
+    trade : bool
+        Compute the trade-off frontier and the steadiness (``trade`` key; None
+        when False: the workbook shows neither).
 
     Returns
     -------
@@ -62,7 +65,9 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
         food cautions, plus the accelerated-storage ones when storage at
         several temperatures was fitted) and ``derived`` (a study without
         factors: response -> its derivation table, the study's results; empty
-        otherwise).
+        otherwise), ``trade`` (``frontier_data.trade_data``: the frontier of
+        the two goals in greatest conflict and the recommendation's
+        steadiness; None without factors).
     """
     import tomli_w
 
@@ -140,7 +145,11 @@ def report_data(study, *, top: int = 5, seed: int | None = None, fit=None, resul
     derived = ({r.name: derivation_table(study, r.name) for r in study.responses
                 if r.is_derived} if not study.factors else {})
     several = any((k["points"]["series"] == "one-step fit").any() for k in kinetics.values())
+    from .frontier_data import trade_data
+
+    trade = trade_data(study, fit, result, seed) if trade and study.factors else None
     return {
+        "trade": trade,
         "kinetics": kinetics,
         "panel": panel,
         "derived": derived,

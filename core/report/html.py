@@ -19,6 +19,7 @@ import json
 
 from .data import CAUTIONS, _provenance_rows, report_data
 from .evidence import _EvidenceSections
+from .frontier_sections import _FrontierSections
 from .map_sections import _MapSections
 from .panel_sections import _PanelSections
 from .product_sections import _ProductSections
@@ -109,7 +110,7 @@ pre { background:#f4f2ee; border:1px solid var(--line); padding:10px 12px;
 
 
 class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
-            _ProductSections, _PanelSections):
+            _ProductSections, _PanelSections, _FrontierSections):
     """Renders the report's sections from ``report_data``'s dict."""
 
     # -- the page
@@ -121,6 +122,9 @@ class _Page(_AnswerSections, _EvidenceSections, _MapSections, _TernarySections,
             ("alternatives", "Alternatives", self.alternatives()),
             ("maps", "Maps around the recommendation", self.maps()),
             *([("blend", "Blend triangle", self.ternary())] if self.has_triangle() else []),
+            *([("frontier", "What one goal costs in another", self.tradeoff()),
+               ("steadiness", "How steady the recommendation is", self.steadiness())]
+              if self.has_trade() else []),
             ("confirmation", "Confirmation runs", self.confirmation()),
             ("targets", "Targets", self.targets()),
             ("models", "What drives each response", self.models()),

@@ -44,8 +44,9 @@ def build_workbook(study, *, top: int = 5, seed: int | None = None, fit=None,
     (the study file, one line per row) and provenance. Further keywords go to
     ``report_data``; ``data`` may carry its result.
     """
+    # the workbook has no frontier or steadiness sheet: not computed for it
     data = data if data is not None else report_data(
-        study, top=top, seed=seed, fit=fit, result=result, **kwargs)
+        study, top=top, seed=seed, fit=fit, result=result, trade=False, **kwargs)
     # text from the study (run ids, labels, level names) stays text, never a formula
     return workbook_bytes(_workbook_tables(study, data))
 

@@ -124,7 +124,9 @@ def _frontier(study, between, n_points, seed, fit, draws):
     F = _merit(problem, cols, problem.values(pool))
     keep = _acceptable(problem, pool)
     pool, F = pool[keep], F[keep]
-    front = _non_dominated(F)
+    # differences below a millionth of a goal's range are the solver's dust (a target
+    # met to 1e-7, say), not a trade: a point only that much better is no frontier point
+    front = _non_dominated(F, tol=1e-6 * np.ptp(F, axis=0) + 1e-12)
     pool, F = pool[front], F[front]
     chosen = _spread(F, n_points)
     return _assemble(study, problem, models, fit, cols, pool[chosen], X_opt[0], seed, draws)

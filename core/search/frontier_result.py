@@ -11,6 +11,7 @@ along the frontier gives up in the second goal per unit gained in the first.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
@@ -43,7 +44,8 @@ class Frontier:
     d_optimum : dict
         The settings of greatest D, in the same shape, with ``nearest`` (index
         of the closest frontier point, goals scaled to their ranges),
-        ``on_frontier`` (no frontier point beats it on every goal traded) and
+        ``on_frontier`` (no frontier point is as good on every goal traded and
+        better on one) and
         ``position`` (0 at the first goal's best end, 1 at the other end).
     knee : dict or None
         The knee point (with its ``index``), None with fewer than 3 points.
@@ -55,6 +57,9 @@ class Frontier:
         the second's), ``rate`` (loss_b per unit of gain_a), ``mid_a``.
     seed : int
     warnings : tuple of str
+    solutions : tuple of Solution
+        Each point as the search's ``Solution`` (labelled ``F0``, ``F1``, ... in
+        frontier order), for a front end that makes a point the chosen solution.
     """
 
     study: str
@@ -67,6 +72,7 @@ class Frontier:
     exchange: pd.DataFrame = field(compare=False, repr=False)
     seed: int = 0
     warnings: tuple = ()
+    solutions: tuple = field(default=(), compare=False, repr=False)
 
     def to_dict(self, digits: int = 6) -> dict:
         """The command line's ``--json``."""
@@ -97,17 +103,35 @@ class Frontier:
         """The exchange rate in sentences, for at most ``rows`` stretches of the frontier."""
         a, b = self.between[:2]
         ex = self.exchange
+        # a step that gains next to nothing (a near-vertical stretch, often at a seam
+        # or an end) has a rate that is mostly rounding: it is not worth a sentence
+        reach = float(ex["gain_a"].sum()) if len(ex) else 0.0
+        ex = ex[ex["gain_a"] >= 0.01 * reach]
         if not len(ex):
             return []
         step = nice_step(abs(ex["to_a"].iloc[-1] - ex["from_a"].iloc[0]) / 5)
+        values_b = [_value(p, b) for p in self.points]
+        span_b = max(float(np.ptp(values_b)), 1e-300) if values_b else 1.0
         pick = np.unique(np.linspace(0, len(ex) - 1, min(rows, len(ex))).round().astype(int))
         out = []
         for i in pick.tolist():
             row = ex.iloc[i]
             verb = "costs" if row["rate"] >= 0 else "also gains"
-            out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: each further "
-                       f"{step:g} {_unit(self.units[a])}of {a} {verb} "
-                       f"{abs(row['rate']) * step:.3g} {_unit(self.units[b])}of {b}")
+            gain = {"maximize": f"each further {step:g} {_unit(self.units[a])}of {a}",
+                    "minimize": f"each {step:g} {_unit(self.units[a])}less {a}",
+                    }.get(self.senses[a], f"each {step:g} {_unit(self.units[a])}closer "
+                          f"to {a}'s target")
+            worse = {"maximize": "of", "minimize": "more"}.get(
+                self.senses[b], "farther from the target of") if row["rate"] >= 0 else \
+                {"maximize": "more", "minimize": "less"}.get(self.senses[b],
+                                                             "closer to the target of")
+            amount = abs(row["rate"]) * step
+            if amount < 1e-6 * span_b:  # rounding dust: b does not move along this stretch
+                out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} "
+                           f"costs next to nothing in {b}")
+                continue
+            out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} {verb} "
+                       f"{amount:.3g} {_unit(self.units[b])}{worse} {b}")
         return out
 
     def text(self) -> str:
@@ -132,7 +156,8 @@ class Frontier:
                          + f" {p['D']:>7.3f} {ch:>7}  " + ", ".join(notes))
         o = self.d_optimum
         where = "on the frontier" if o["on_frontier"] else "inside the frontier (a " \
-            "frontier point does better on every goal traded, at the cost of other goals)"
+            "frontier point does as well on the goals traded and better on one, at the " \
+            "cost of other goals)"
         pos = "" if o.get("position") is None else \
             f", {o['position']:.0%} of the way from the {g[0]} end"
         lines += ["", f"D optimum (D = {o['D']:.3f}): " + ", ".join(
@@ -220,13 +245,22 @@ def nice_step(x: float) -> float:
     return max(m for m in (1, 2, 5) if m * power <= x) * power
 
 
-def knee_index(F) -> int | None:
+def knee_index(F, pieces=None) -> int | None:
     """The knee of a frontier F (n, q), larger better, rows in frontier order.
 
     Two goals: the interior point of greatest Menger curvature (4 x triangle
     area / product of its sides) through it and its neighbours, goals scaled
     to their ranges. Three goals: the point farthest beyond the plane through
     the points best in each goal.
+
+    ``pieces`` (n labels, optional) names the connected piece each point lies
+    on (its categorical levels). A frontier made of pieces jumps where one
+    piece hands over to another (say one binder to the other). That jump is
+    not a bend a team can sit on, and neither is the last stretch of a piece
+    before it (where the piece runs steeply into the hand-over, beaten just
+    beyond by the other piece). So with two goals the knee is sought among
+    points whose two neighbours lie on the same piece, neither of them a
+    point next to a seam (any point, when no such triple exists).
     """
     F = np.asarray(F, dtype=float)
     if len(F) < 3:
@@ -240,6 +274,15 @@ def knee_index(F) -> int | None:
         sides = (np.linalg.norm(b - a, axis=1) * np.linalg.norm(c - b, axis=1)
                  * np.linalg.norm(c - a, axis=1))
         kappa = np.where(sides > 0, 2 * cross / np.where(sides > 0, sides, 1.0), 0.0)
+        if pieces is not None:
+            lab = list(pieces)
+            n = len(lab)
+            # a point next to a seam gets a label of its own, so no triple holds it
+            lab = [("seam", i) if (i > 0 and lab[i - 1] != lab[i])
+                   or (i < n - 1 and lab[i + 1] != lab[i]) else lab[i] for i in range(n)]
+            whole = np.array([lab[i] == lab[i + 1] == lab[i + 2] for i in range(n - 2)])
+            if whole.any():
+                kappa = np.where(whole, kappa, -1.0)
         return int(np.argmax(kappa)) + 1
     ends = G[[int(np.argmax(G[:, j])) for j in range(3)]]
     normal = np.cross(ends[1] - ends[0], ends[2] - ends[0])
@@ -283,14 +326,18 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
     scale = np.where(span > 0, span, 1.0)
     dist = np.sqrt((((Ff - fo) / scale) ** 2).sum(axis=1))
     nearest = int(np.argmin(dist))
+    # beaten: a point as good on every goal traded and better on one (past the
+    # solver's dust, a millionth of each goal's range)
     tol = 1e-6 * scale
-    beaten = bool(np.any(np.all(Ff >= fo + tol, axis=1)))
+    beaten = bool(np.any(np.all(Ff >= fo - tol, axis=1) & np.any(Ff > fo + tol, axis=1)))
     opt = dicts[-1] | {"nearest": nearest, "on_frontier": not beaten, "position": None}
     if len(cols) == 2 and len(Ff) > 1:
         step = np.sqrt(((np.diff(Ff, axis=0) / scale) ** 2).sum(axis=1))
         s = np.concatenate([[0.0], np.cumsum(step)])
         opt["position"] = float(s[nearest] / s[-1]) if s[-1] > 0 else 0.0
-    k = knee_index(Ff)
+    # a point's piece: its levels of the categorical factors (the seams between them
+    # are jumps, not bends: see knee_index)
+    k = knee_index(Ff, [tuple(x) for x in X[:, problem.cat].round(9).tolist()])
     knee = None if k is None else dicts[k] | {"index": k}
     pair = _non_dominated(Ff[:, :2])
     va = problem.values(X)[:, cols[0]]
@@ -303,7 +350,9 @@ def _assemble(study, problem, models, fit, cols, X, x_opt, seed, draws) -> Front
     senses = {n: problem.goals[i].kind for n, i in zip(between, cols)}
     return Frontier(study=study.name, between=between, units=units, senses=senses,
                     points=tuple(dicts[:-1]), d_optimum=opt, knee=knee, exchange=exchange,
-                    seed=seed, warnings=res.warnings)
+                    seed=seed, warnings=res.warnings,
+                    solutions=tuple(dataclasses.replace(s, label=f"F{i}", rank=i + 1)
+                                    for i, s in enumerate(res.solutions[:-1])))
 
 
 def _point(s) -> dict:

@@ -42,6 +42,10 @@ loads and fits the same study through the public API, and checks:
   predictions, d's and D recomputed at the settings it names, D the solution's;
   a blend typed 10 % over its total is named and read as its shares; a Cox move
   of one component keeps the total and the others' ratios (oracle_whatif.py);
+- ``frontier``, ``steadiness``: ``frontier --json`` between the first two goals with a
+  direction and ``optimize --weights-sensitivity --json`` keep their invariants
+  (oracle_frontier.py: no point dominated, every point within every limit, the
+  D optimum's D the search's, each change's move its coded distance);
 - ``derive``: derived responses equal a recomputation from the raw storage
   and panel tables (oracle_derive.py); ``panel``: the panel command's run F
   and degrees of freedom equal a recomputation (mapped, wide and
@@ -71,6 +75,7 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_unjudged, goals_of)
 from oracle_derive import check_derived, check_panel
 from oracle_fit_text import check_fit_text
+from oracle_frontier import check_frontier, check_steadiness, tradable
 from oracle_screening import check_screening_fit, check_screening_plan
 from oracle_whatif import check_what_if
 
@@ -153,7 +158,8 @@ class _Runner:
         refusal = self.generated.refusals.get(key)
         if rc == 2 and refusal and re.match(refusal, err.strip()):
             return rc, out
-        if rc not in self.generated.expect[key]:
+        # frontier's own exits are judged by oracle_frontier.check_frontier
+        if rc not in self.generated.expect.get(key, {0, 2}):
             self.outcome.fail("exit_code", key, f"exit {rc} (expected "
                               f"{sorted(self.generated.expect[key])}): {err.strip()[:600]}")
         return rc, out
@@ -241,6 +247,18 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
                 if rc_text == 0:
                     check_display(generated, result, text, outcome)
 
+    goals = goals_of(generated, fit) if fit is not None else []
+    trade = tradable(goals)
+    if len(trade) >= 2:
+        rc, out = cli("frontier", "--between", f"{trade[0][1]},{trade[1][1]}", "--points", 7,
+                      "--seed", seed, "--json")
+        check_frontier(generated, study, fit, goals, result, rc, out, outcome, seed)
+    if result is not None:
+        rc, out = cli("optimize", "--json", "--top", TOP, "--seed", seed,
+                      "--weights-sensitivity")
+        if rc == 0:
+            check_steadiness(generated, study, fit, goals, result, json.loads(out), outcome)
+
     rc, out = cli("next", "--runs", NEXT_RUNS, "--seed", seed, "--json")
     if rc == 0 and fit is not None:
         check_next(generated, study, fit, json.loads(out), outcome)
@@ -297,7 +315,7 @@ def _charts(render: bool):
     import importlib
 
     patched = []
-    for name in ("charts", "map_sections", "ternary_sections"):
+    for name in ("charts", "map_sections", "ternary_sections", "frontier_sections"):
         module = importlib.import_module(f"tradeoff.report.{name}")
         if hasattr(module, "_svg"):
             patched.append((module, module._svg))

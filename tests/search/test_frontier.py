@@ -290,3 +290,18 @@ def test_demo_points_are_in_frontier_order_and_the_optimum_has_the_best_d():
             (liking > liking[i] + 1e-9) | (cost < cost[i] - 1e-9))
         assert not beaten.any()
     assert fr.d_optimum["D"] >= max(p["D"] for p in fr.points) - 1e-6
+
+
+def test_knee_ignores_the_jump_between_pieces():
+    # Two straight pieces with a jump between them (a seam where one level of a
+    # categorical factor hands over to the other) and one gentle bend inside the
+    # second piece. Worked out here: by curvature alone the sharpest turn is at the
+    # seam (point 3 or 4); the knee within the pieces is the bend at point 6.
+    F = np.array([[10, 0.0], [9, 0.2], [8, 0.4], [7, 0.6],   # piece A, straight
+                  [6.9, 3.0], [6, 3.3], [5, 3.6],            # piece B after the jump
+                  [3, 4.0], [1, 4.4]], float)                # bend at (5, 3.6)
+    pieces = ["A"] * 4 + ["B"] * 5
+    assert knee_index(F) in (3, 4)
+    assert knee_index(F, pieces) == 6
+    # one piece only: the same as without labels (Menger curvature, written out above)
+    assert knee_index(F, ["A"] * 9) == knee_index(F)

@@ -38,9 +38,9 @@ def headers(at: AppTest) -> list[str]:
 
 
 # models: effects, half-normal, two interaction charts, three residual panels;
-# results: one map and one chart of the traces of every response and D
+# results: the frontier, one map and one chart of the traces of every response and D
 @pytest.mark.parametrize("page, charts", [("study", 0), ("models", 7), ("targets", 6),
-                                          ("results", 2), ("downloads", 0)])
+                                          ("results", 3), ("downloads", 0)])
 def test_each_view_runs_on_the_demo(page, charts):
     at = start(page)
     assert not at.error, [e.value for e in at.error]

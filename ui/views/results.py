@@ -10,7 +10,7 @@ from tradeoff.maps.pictures import limits_note
 from tradeoff.maps.trace_picture import trace_note
 from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
 from tradeoff.search.result import fewer_solutions_text
-from tradeoff_ui import cached, charts, panels, text, triangle, what_if
+from tradeoff_ui import cached, charts, frontier_panel, panels, text, triangle, what_if
 from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
@@ -112,6 +112,7 @@ chosen_label = st.selectbox("Look closer at", labels,
                             index=min(ss["chosen"], len(labels) - 1), key="r_chosen")
 ss["chosen"] = labels.index(chosen_label)
 chosen = result.solutions[ss["chosen"]]
+chosen = frontier_panel.frontier_panel(study, fitted, result, chosen)  # a picked point
 
 pct = f"{study.confidence:.0%}"
 production = chosen.chance_all_production is not None
