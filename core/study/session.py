@@ -5,13 +5,17 @@ A plain JSON text of our own design (README, "The workbench keeps your work"):
 ```
 {"kind": "tradeoff workbench session", "version": 1,
  "study": {"kind": "path", "path": "/lab/bread.toml"}
-          | {"kind": "draft", "data": "runs.csv", "draft": {...}},
+          | {"kind": "files", "files": ["bread.toml", "runs.csv"], "label": "..."},
+ "draft": null | {"data": "runs.csv", "draft": {...}},
  "goals": {"crumb_hardness": {"goal": "minimize", "lower": 4, "upper": 8, "weight": 2}},
  "models": {"crumb_hardness": "quadratic", "volume": ["A", "B", "A:B"]},
  "reduce": ["volume"], "top": 5, "rank_by": "desirability", "aim": "balance",
  "spread": {"bake_temp": 1.5}, "chosen": 0}
 ```
 
+``study`` says where the open study is: a file on disk, or files kept in the
+workbench's own folder (uploads, and studies drafted in the workbench).
+``draft`` is a study being drafted on the "new study" view (study/draft.py).
 Goals are written with the study file's own goal keys and read back through
 the study reader's goal check, so a session file can never hold a goal the
 study file could not. Nothing here touches the user's study or data files.
@@ -47,13 +51,14 @@ def _goal_table(goal: Goal) -> dict:
 
 def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=(),
                  top: int = 5, rank_by: str = "desirability", aim: str = "balance",
-                 spread: dict | None = None, chosen: int = 0) -> str:
+                 spread: dict | None = None, chosen: int = 0,
+                 draft: dict | None = None) -> str:
     """The session as JSON text (keys sorted, so an unchanged session writes the same bytes)."""
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
            "goals": {n: _goal_table(g) for n, g in goals.items()},
            "models": {n: m if isinstance(m, str) else list(m) for n, m in models.items()},
            "reduce": sorted(reduce), "top": int(top), "rank_by": rank_by, "aim": aim,
-           "spread": dict(spread or {}), "chosen": int(chosen)}
+           "spread": dict(spread or {}), "chosen": int(chosen), "draft": draft}
     return json.dumps(doc, indent=1, sort_keys=True, ensure_ascii=False) + "\n"
 
 
@@ -77,9 +82,13 @@ def read_session(text: str | bytes, name: str) -> dict:
         raise StudyError(f"{name}: session file version {doc.get('version')!r}; this "
                          "workbench reads version 1: delete it to start afresh")
     study = doc.get("study")
-    if not isinstance(study, dict) or study.get("kind") not in ("path", "draft"):
-        raise StudyError(f"{name}: \"study\" must say where the study is (a path or a "
-                         "draft)")
+    if not isinstance(study, dict) or study.get("kind") not in ("path", "files"):
+        raise StudyError(f"{name}: \"study\" must say where the study is (a path or "
+                         "kept files)")
+    draft = doc.get("draft")
+    if draft is not None and not (isinstance(draft, dict) and isinstance(
+            draft.get("draft"), dict)):
+        raise StudyError(f"{name}: \"draft\" must hold the study being drafted")
     goals = {}
     for gname, table in (doc.get("goals") or {}).items():
         if not isinstance(table, dict):
@@ -115,4 +124,4 @@ def read_session(text: str | bytes, name: str) -> dict:
         raise StudyError(f"{name}: \"reduce\" must be a list of response names")
     return {"study": study, "goals": goals, "models": models, "reduce": set(reduce),
             "top": max(1, top), "rank_by": rank_by, "aim": aim, "spread": spread,
-            "chosen": chosen}
+            "chosen": chosen, "draft": draft}

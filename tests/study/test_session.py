@@ -23,19 +23,21 @@ def test_session_round_trip():
     text = session_text(study={"kind": "path", "path": "/lab/x.toml"}, goals=goals,
                         models={"v": "quadratic", "h": ("A", "B", "A:B")},
                         reduce={"v"}, top=3, rank_by="chance", aim="production",
-                        spread={"A": 1.5}, chosen=2)
+                        spread={"A": 1.5}, chosen=2, draft={"draft": {"name": "n"}})
     back = read_session(text, "x.session.json")
     assert back["goals"] == goals
     assert back["models"] == {"v": "quadratic", "h": ("A", "B", "A:B")}
     assert back["reduce"] == {"v"} and back["top"] == 3 and back["chosen"] == 2
     assert (back["rank_by"], back["aim"], back["spread"]) == ("chance", "production",
                                                               {"A": 1.5})
+    assert back["draft"] == {"draft": {"name": "n"}}
     # the same session writes the same bytes (no needless rewrites)
     assert text == session_text(study={"kind": "path", "path": "/lab/x.toml"},
                                 goals=dict(reversed(goals.items())),
                                 models={"h": ("A", "B", "A:B"), "v": "quadratic"},
                                 reduce=["v"], top=3, rank_by="chance", aim="production",
-                                spread={"A": 1.5}, chosen=2)
+                                spread={"A": 1.5}, chosen=2,
+                                draft={"draft": {"name": "n"}})
 
 
 @pytest.mark.parametrize("text, match", [
@@ -44,6 +46,8 @@ def test_session_round_trip():
     ('{"kind": "tradeoff workbench session", "version": 7}', "version 7"),
     ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "x"}}',
      "where the study is"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+     ' "draft": [1]}', "the study being drafted"),
     ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
      ' "goals": {"v": {"goal": "maximize", "lower": 3, "upper": 2}}}', "did you swap"),
     ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
