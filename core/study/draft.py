@@ -152,7 +152,7 @@ def guess_draft(file_name: str, data: bytes, *, sheet: str | None = None) -> Dra
 
     Run ids, orders and notes are told by their names; number columns that add
     up to one total in every row are blend components (with that total); number
-    columns with at most five settings, and text columns with 2 to 12 levels
+    columns with at most five settings, repeated across runs, and text columns with 2 to 12 levels
     repeated across runs, are factors; the other number columns (blank ones
     too, as in a run sheet still to fill in) are responses. Ranges and levels
     are those tested.
@@ -189,7 +189,10 @@ def guess_draft(file_name: str, data: bytes, *, sheet: str | None = None) -> Dra
         elif values is not None:
             settings = np.unique(values[~np.isnan(values)])
             varied = len(settings) >= 2 and not np.isnan(values).any()
-            col.role = "factor" if varied and len(settings) <= 5 else "response"
+            # settings repeat from run to run; measured values seldom do
+            repeated = len(settings) < len(values)
+            col.role = ("factor" if varied and repeated and len(settings) <= 5
+                        else "response")
         else:
             levels = sorted(set(texts[column]))
             repeated = len(levels) < len(texts[column])

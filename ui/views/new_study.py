@@ -168,7 +168,7 @@ with form:
         draft.model = st.selectbox(
             "Model of the process factors" if components else "Model", MODELS,
             format_func=lambda m: MODEL_WORDS.get(m, m), index=list(MODELS).index(draft.model),
-            key=key("model"))
+            key=key("study_model"))
 
     responses = draft.of_role("response")
     if responses:
