@@ -32,13 +32,13 @@ __all__ = ["ROLES", "DraftColumn", "Draft", "guess_draft", "draft_spec", "draft_
 
 # role -> what it means, in the form's words
 ROLES = {
-    "factor": "factor (what you set)",
-    "component": "blend component (parts that add up)",
-    "response": "response (what you measured)",
+    "factor": "factor",
+    "component": "blend component",
+    "response": "response",
     "run": "run id",
-    "batch": "batch (runs sharing one dough, oven load, ...)",
-    "block": "block (day or lot)",
-    "notes": "notes (not used)",
+    "batch": "batch (whole plot)",
+    "block": "block (day, lot)",
+    "notes": "notes",
 }
 # Column names labs give to things that are not settings or results (common practice).
 _RUN_NAMES = {"run", "run_id", "runid", "id", "sample", "sample_id"}

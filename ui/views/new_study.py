@@ -27,11 +27,10 @@ ss = st.session_state
 MODEL_WORDS = {"main": "main effects", "interactions": "main effects and two-factor "
                "interactions", "full": "every interaction", "quadratic": "interactions and "
                "curvature", "smooth": "smooth curve (no equation)"}
-BLEND_WORDS = {"linear": "linear blending", "quadratic": "quadratic blending (pairs)",
-               "special_cubic": "special cubic (pairs and triples)", "cubic": "full cubic"}
-PROCESS_WORDS = {"none": "process factors add to the blend", "linear": "each part's blending "
-                 "crossed with each process factor", "quadratic": "crossed with the blend's "
-                 "quadratic terms"}
+BLEND_WORDS = {"linear": "linear", "quadratic": "quadratic", "special_cubic": "special cubic",
+               "cubic": "full cubic"}
+PROCESS_WORDS = {"none": "added to the blend", "linear": "crossed, linear",
+                 "quadratic": "crossed, quadratic"}
 
 
 def _file_name(name: str) -> str:
@@ -54,12 +53,12 @@ st.title("New study")
 st.write("Say what each column of your data is: the factors you set, the parts of a blend "
          "that add up, what you measured, and how each result should turn out. The study "
          "file is written beside the form as you go; download it at any moment.")
-up_col, scratch_col = st.columns([3, 1])
+up_col, scratch_col = st.columns([4, 1])
 upload = up_col.file_uploader(
     "Data table or run sheet (.csv, .xlsx): one row per run, one column per setting or "
     "result", type=[s.lstrip(".") for s in DATA_SUFFIXES], key="ns_upload")
-scratch = scratch_col.button("Start from scratch (no data yet)", key="ns_scratch",
-                             width="stretch")
+scratch = scratch_col.button("Start from scratch", key="ns_scratch",
+                             help="No data yet: name the columns of the run sheet to be")
 
 if ss["draft"] is not None:  # a bare table uploaded on 'Study and runs'
     came = ss["draft"]
@@ -116,10 +115,14 @@ with form:
                     st.error(text.plain(f"There is a column '{name}' already."))
 
     st.subheader("1. What each column is")
+    st.caption("Factor: a setting you chose. Blend component: a part of a blend whose "
+               "parts add up to the same total in every run. Response: a result you "
+               "measured. Batch: runs made from one dough or oven load (a whole plot). "
+               "Notes: kept in the table, not used.")
     if not draft.columns:
         st.caption("No columns yet: add them above.")
     for col in draft.columns:
-        a, b, c, d = st.columns([2, 3, 3, 2])
+        a, b, c, d = st.columns([3, 3, 3, 2])
         a.markdown(f"**{text.plain(col.column)}**")
         col.role = b.selectbox(f"Role of {col.column}", list(ROLES), format_func=ROLES.get,
                                index=list(ROLES).index(col.role), key=key("role", col.column),
@@ -140,11 +143,15 @@ with form:
         a, b, c = st.columns(3)
         draft.total = _number(a, "The components add up to", draft.total, key("total"))
         draft.mixture_model = b.selectbox(
-            "Blend model", MIXTURE_MODELS, format_func=lambda m: BLEND_WORDS.get(m, m),
+            "Blend model", MIXTURE_MODELS, help="How the parts blend: linear (each part "
+            "on its own), quadratic (pairs blend better or worse than their parts), "
+            "special cubic (also triples), full cubic", format_func=lambda m: BLEND_WORDS.get(m, m),
             index=list(MIXTURE_MODELS).index(draft.mixture_model), key=key("mixture_model"))
         if factors:
             draft.process = c.selectbox(
-                "With the process factors", PROCESS_MODES,
+                "With the process factors", PROCESS_MODES, help="Added: the process "
+                "factors shift every blend alike. Crossed: each part's blending effect "
+                "changes with the process factors (linear or with the quadratic terms)",
                 format_func=lambda m: PROCESS_WORDS.get(m, m),
                 index=list(PROCESS_MODES).index(draft.process), key=key("process"))
     batch = bool(draft.of_role("batch"))
@@ -154,12 +161,12 @@ with form:
         a.markdown(text.plain(col.label or col.column)
                    + (f" ({text.plain(col.unit)})" if col.unit else ""))
         if col.role == "factor" and col.levels:
-            typed = b.text_input(f"Levels of {col.column}, separated by commas",
+            typed = b.text_input("Levels, separated by commas",
                                  value=", ".join(col.levels), key=key("levels", col.column))
             col.levels = [v.strip() for v in typed.split(",") if v.strip()]
         else:
-            col.low = _number(b, f"Lowest {col.column}", col.low, key("low", col.column))
-            col.high = _number(c, f"Highest {col.column}", col.high, key("high", col.column))
+            col.low = _number(b, "Lowest", col.low, key("low", col.column))
+            col.high = _number(c, "Highest", col.high, key("high", col.column))
         if col.role == "factor" and batch:
             col.hard_to_change = st.checkbox(
                 f"{col.column} is set once per batch (hard to change)",
@@ -180,8 +187,8 @@ with form:
     for col in responses:
         st.markdown(f"**{text.plain(col.label or col.column)}**"
                     + (f" ({text.plain(col.unit)})" if col.unit else ""))
-        cells = st.columns([3, 2, 2, 2, 1])
-        col.goal = cells[0].selectbox(f"Goal of {col.column}", list(GOAL_WORDS),
+        cells = st.columns([3, 2, 2, 2, 2])
+        col.goal = cells[0].selectbox("Goal", list(GOAL_WORDS),
                                       format_func=GOAL_WORDS.get,
                                       index=list(GOAL_WORDS).index(col.goal),
                                       key=key("goal", col.column))
@@ -190,9 +197,9 @@ with form:
             slots = {"lower": cells[1], "target": cells[2], "upper": cells[3]} \
                 if col.goal == "target" else {"lower": cells[1], "upper": cells[2]}
             for limit, where in slots.items():
-                setattr(col, limit, _number(where, f"{words[limit]} ({col.column})",
+                setattr(col, limit, _number(where, words[limit],
                                             getattr(col, limit), key(limit, col.column)))
-            col.weight = _number(cells[4], f"Weight ({col.column})", col.weight,
+            col.weight = _number(cells[4], "Weight", col.weight,
                                  key("weight", col.column)) or 1.0
 
 ss["new_draft"] = {**ss["new_draft"], "draft": draft_to_dict(draft)}
@@ -216,6 +223,9 @@ with side:
                 "'tradeoff plan', make them, then upload the filled-in run sheet here.")
     else:
         st.success("The study file reads without a problem.")
+        if not any(c.goal != "none" for c in draft.of_role("response")):
+            st.info("No result has a goal yet: set them under '3. Goals', or later on "
+                    "'Targets and weights'.")
         if st.button("Open this study in the workbench", type="primary", key="ns_open"):
             origin = {"kind": "files", "files": {study_file: toml_text.encode("utf-8"),
                                                  draft.data: data}}
@@ -225,7 +235,7 @@ with side:
                 st.error(text.plain(exc))
             else:
                 st.rerun()
-    st.code(toml_text, language="toml")
+    st.code(toml_text, language="toml", wrap_lines=True)
     if ss["origin"].get("files", {}).get(study_file) == toml_text.encode("utf-8"):
         st.success("This study is open. Next:")
         st.page_link("views/study.py", label="See its runs", icon=":material/table_view:")
