@@ -29,6 +29,8 @@ MODEL_WORDS = {"main": "main effects", "interactions": "main effects and two-fac
                "curvature", "smooth": "smooth curve (no equation)"}
 BLEND_WORDS = {"linear": "linear", "quadratic": "quadratic", "special_cubic": "special cubic",
                "cubic": "full cubic"}
+# the limit boxes a goal does not use, greyed out
+SPARE_WORDS = {"lower": "Lower limit", "target": "Target", "upper": "Upper limit"}
 PROCESS_WORDS = {"none": "added to the blend", "linear": "crossed, linear",
                  "quadratic": "crossed, quadratic"}
 
@@ -43,9 +45,9 @@ def _start(draft: Draft, data: bytes | None, digest: str | None) -> None:
     ss["new_data"] = data
 
 
-def _number(where, label: str, value, key: str):
+def _number(where, label: str, value, key: str, disabled: bool = False):
     return where.number_input(label, value=None if value is None else float(value),
-                              format="%g", key=key, step=None)
+                              format="%g", key=key, step=None, disabled=disabled)
 
 
 # -- read state: where the draft comes from --------------------------------------------
@@ -192,15 +194,17 @@ with form:
                                       format_func=GOAL_WORDS.get,
                                       index=list(GOAL_WORDS).index(col.goal),
                                       key=key("goal", col.column))
-        if col.goal != "none":
-            words = LIMIT_WORDS[col.goal]
-            slots = {"lower": cells[1], "target": cells[2], "upper": cells[3]} \
-                if col.goal == "target" else {"lower": cells[1], "upper": cells[2]}
-            for limit, where in slots.items():
-                setattr(col, limit, _number(where, words[limit],
-                                            getattr(col, limit), key(limit, col.column)))
-            col.weight = _number(cells[4], "Weight", col.weight,
-                                 key("weight", col.column)) or 1.0
+        # every box is always there (greyed out when the goal does not use it): a new
+        # goal changes labels, not the page's layout, so the page settles at once
+        words = LIMIT_WORDS.get(col.goal, {})
+        for limit, where in (("lower", cells[1]), ("target", cells[2]), ("upper", cells[3])):
+            typed = _number(where, words.get(limit, SPARE_WORDS[limit]), getattr(col, limit),
+                            key(limit, col.column), disabled=limit not in words)
+            if limit in words:
+                setattr(col, limit, typed)
+        typed = _number(cells[4], "Weight", col.weight, key("weight", col.column),
+                        disabled=col.goal == "none")
+        col.weight = typed if typed is not None and typed > 0 else 1.0
 
 ss["new_draft"] = {**ss["new_draft"], "draft": draft_to_dict(draft)}
 
