@@ -70,6 +70,7 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged, goals_of)
 from oracle_derive import check_derived, check_panel
+from oracle_draft import check_draft
 from oracle_fit_text import check_fit_text
 from oracle_screening import check_screening_fit, check_screening_plan
 from oracle_whatif import check_what_if
@@ -195,6 +196,7 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
                      ("report", "--out", folder / "report.xlsx"), ("confirm",)):
             cli(*args)
         return
+    check_draft(study, outcome)  # the same study, declared in the workbench's new-study form
     if generated.derived:
         check_derived(generated, study, outcome)
     if "panel" in generated.features:
