@@ -17,20 +17,26 @@ __all__ = ["check_draft"]
 
 
 def _draftable(study) -> bool:
-    """Studies a draft can declare: one runs table, plain responses, no extras."""
+    """Studies a draft can declare: one CSV runs table, measured responses, no rules."""
     spec = study.spec
     return (study.data_path is not None and study.sheet is None
             and study.data_path.suffix.lower() == ".csv"
             and not any(k in spec for k in ("storage", "panel", "confirmations",
                                             "constraints"))
-            and study.terms is None
-            and all(not r.extra and r.model is None and r.terms is None
-                    and r.transform == "none" for r in study.responses)
-            and all(f.search is None and f.production_sd is None and f.step is None
-                    and getattr(f, "hold", None) is None and not f.goal.active
-                    for f in study.factors)
-            and all(r.goal.shape == r.goal.shape_below == r.goal.shape_above == 1.0
-                    for r in study.responses))
+            and all(not r.extra for r in study.responses))
+
+
+def _factor_keys(f) -> tuple:
+    return (f.name, f.label, f.unit, f.low, f.high, f.levels,
+            bool(getattr(f, "hard_to_change", False)))
+
+
+def _response_keys(r) -> tuple:
+    g = r.goal
+    if g.kind == "none":
+        return (r.name, r.label, r.unit, "none")
+    return (r.name, r.label, r.unit, g.kind, g.lower, g.upper,
+            g.target if g.kind == "target" else None, g.weight)
 
 
 def _declared(study, data: bytes):
@@ -93,8 +99,16 @@ def check_draft(study, outcome) -> None:
     except tradeoff.TradeoffError as exc:
         outcome.fail("draft", "api", f"the drafted text does not load: {exc}")
         return
-    for what in ("factors", "responses", "mixture", "model", "whole_plot", "blocks"):
-        if getattr(again, what) != getattr(study, what):
+    # what a draft declares (shapes, steps, spreads and per-response models are set
+    # elsewhere in the workbench, so they are left out of the comparison)
+    pairs = {"factors": ([_factor_keys(f) for f in again.factors],
+                         [_factor_keys(f) for f in study.factors]),
+             "responses": ([_response_keys(r) for r in again.responses],
+                           [_response_keys(r) for r in study.responses])}
+    pairs.update({k: (getattr(again, k), getattr(study, k))
+                  for k in ("mixture", "model", "whole_plot", "blocks")})
+    for what, (ours, theirs) in pairs.items():
+        if ours != theirs:
             outcome.fail("draft", "api", f"the drafted study's {what} differ from the "
                          "study file's")
     if not again.runs.equals(study.runs):
