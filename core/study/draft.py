@@ -203,9 +203,8 @@ def guess_draft(file_name: str, data: bytes, *, sheet: str | None = None) -> Dra
         elif column in texts:
             col.levels = sorted(set(texts[column]), key=texts[column].index)
         columns.append(col)
-    model = "interactions"
     return Draft(name=Path(file_name).stem.replace("_", " "), data=Path(file_name).name,
-                 model=model, columns=columns, total=total)
+                 columns=columns, total=total)
 
 
 # -- writing ----------------------------------------------------------------------

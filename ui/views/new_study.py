@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import hashlib
 import re
-from pathlib import Path
 
 import streamlit as st
 
