@@ -45,6 +45,12 @@ run,protein,binder,hardness
 """
 
 
+@pytest.fixture(autouse=True)
+def _sessions_in_tmp(tmp_path_factory, monkeypatch):
+    """The workbench keeps sessions in a folder of the test's own, never the home folder."""
+    monkeypatch.setenv("TRADEOFF_SESSIONS", str(tmp_path_factory.mktemp("sessions")))
+
+
 @pytest.fixture
 def write_study(tmp_path):
     """Write a study file and its data file; returns the study path."""

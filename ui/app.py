@@ -9,7 +9,7 @@ import altair as alt
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff_ui import state, text
+from tradeoff_ui import new_keep, state, text
 
 # An emoji icon is drawn by the page itself; a ":material/..." page icon would be
 # fetched from a font server on the internet, and nothing may leave this computer.
@@ -26,6 +26,7 @@ except TradeoffError as exc:
 pages = [
     st.Page("views/study.py", title="Study and runs", icon=":material/table_view:",
             default=True),
+    st.Page("views/new_study.py", title="New study", icon=":material/note_add:"),
     st.Page("views/models.py", title="What drives each response",
             icon=":material/insights:"),
     st.Page("views/panel.py", title="The panel", icon=":material/groups:"),
@@ -33,5 +34,10 @@ pages = [
     st.Page("views/results.py", title="Recommended settings", icon=":material/flag:"),
     st.Page("views/downloads.py", title="Take it with you", icon=":material/download:"),
 ]
-st.sidebar.caption(f"Open study: **{text.plain(st.session_state['origin_label'])}**")
-st.navigation(pages).run()
+# filled after the page ran: a page that opens another study renames it at once
+open_study = st.sidebar.empty()
+try:
+    st.navigation(pages).run()
+finally:
+    open_study.caption(f"Open study: **{text.plain(st.session_state['origin_label'])}**")
+    new_keep.keep()

@@ -11,6 +11,8 @@ from pathlib import Path
 
 import streamlit as st
 
+from tradeoff import TradeoffError
+
 __all__ = ["init", "open_origin", "study_argument", "KEYS"]
 
 # key -> what it holds. Defaults are built in ``init``.
@@ -42,6 +44,13 @@ KEYS = {
     "frontier_nonce": "bumped to drop the frontier point picked on the results view",
     "frontier_seen": "the solution chosen above the frontier when its point was picked "
                      "(choosing another drops the pick)",
+    # keeping work across reloads and restarts (ui/new_keep.py)
+    "session_id": "this browser session's id, also in the page address (?session=...)",
+    "kept_text": "the session file's text as last written (unchanged: not written again)",
+    "kept_files": "uploads already copied into the session's folder (folder, name, digest)",
+    # the new-study view (ui/views/new_study.py)
+    "new_draft": "the study being drafted: {'data': data file name, 'draft': Draft as a dict}",
+    "new_data": "the bytes of the drafted study's data table (None: drafted from scratch)",
 }
 
 
@@ -82,15 +91,29 @@ def init() -> None:
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
                 "aim": "balance", "spread": {},
                 "whatif_from": None, "compare_shown": set(), "next_runs": 0,
-                "frontier_nonce": 0, "frontier_seen": None}
+                "frontier_nonce": 0, "frontier_seen": None,
+                "new_draft": None, "new_data": None}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value
     if "origin" not in ss:
         from tradeoff.study.demo import demo_study_path
 
-        from tradeoff_ui import cached
+        from tradeoff_ui import cached, new_keep
 
-        path = study_argument() or str(demo_study_path())
-        origin = {"kind": "path", "path": str(Path(path).resolve())}
-        open_origin(origin, Path(path).name, cached.base_study(origin))
+        # the session named in the page address (a reload, a new tab, a bookmark)
+        back = new_keep.restored()
+        if back is not None:
+            origin, label, kept = back
+            try:
+                study = cached.base_study(origin)
+            except TradeoffError:
+                back = None  # the study moved or changed past reading: start afresh
+        if back is None:
+            path = study_argument() or str(demo_study_path())
+            origin = {"kind": "path", "path": str(Path(path).resolve())}
+            label, study = Path(path).name, cached.base_study(origin)
+            kept = new_keep.kept_beside(path)  # where `tradeoff app study.toml` left off
+        open_origin(origin, label, study)
+        if kept is not None:
+            new_keep.apply(kept, study)

@@ -74,6 +74,7 @@ from oracle_checks import (check_confirm, check_fit, check_next, check_plan, che
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged, goals_of)
 from oracle_derive import check_derived, check_panel
+from oracle_draft import check_draft
 from oracle_fit_text import check_fit_text
 from oracle_frontier import check_frontier, check_steadiness, tradable
 from oracle_screening import check_screening_fit, check_screening_plan
@@ -201,6 +202,7 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
                      ("report", "--out", folder / "report.xlsx"), ("confirm",)):
             cli(*args)
         return
+    check_draft(study, outcome)  # the same study, declared in the workbench's new-study form
     if generated.derived:
         check_derived(generated, study, outcome)
     if "panel" in generated.features:

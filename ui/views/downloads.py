@@ -7,7 +7,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.report.exports import results_csv_bytes, study_toml_bytes
-from tradeoff_ui import cached, text
+from tradeoff_ui import cached, new_guide, new_save, text
 
 ss = st.session_state
 
@@ -18,7 +18,9 @@ try:
     # a study without factors has no models or search; its report gives the
     # products' derived values
     fitted = cached.fit(study) if study.factors else None
-    result = cached.optimize(study, fitted) if study.factors else None
+    # without goals there is nothing to search; the study file still downloads
+    result = (cached.optimize(study, fitted)
+              if study.factors and new_guide.has_goals(study) else None)
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
@@ -53,6 +55,7 @@ st.download_button("Study file (.toml)", toml_bytes, file_name=f"{stem}_targets.
                    mime="application/toml", key="d_toml")
 with st.expander("See the study file"):
     st.code(toml_bytes.decode("utf-8"), language="toml")
+new_save.save_panel(study, origin)
 
 st.subheader("The results")
 st.write("The table has one row per solution and response: the settings, each prediction "
@@ -63,9 +66,12 @@ c1, c2 = st.columns(2)
 if csv_bytes is not None:
     c1.download_button("Results table (.csv)", csv_bytes, file_name=f"{stem}_results.csv",
                        mime="text/csv", key="d_csv")
-else:
+elif not study.factors:
     c1.caption("No results table: the study varies no factor, so nothing was searched; "
                "the workbook lists each product's derived values.")
+else:
+    with c1:
+        new_guide.no_goals_note()
 c2.download_button("Results workbook (.xlsx)", xlsx_bytes,
                    file_name=f"{stem}_results.xlsx", key="d_xlsx",
                    mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")

@@ -171,34 +171,39 @@ with right:
                     width="stretch")
 
 st.subheader("Interactions")
-numeric_or_all = study.factor_names
-a_col, b_col = st.columns(2)
-a = a_col.selectbox("First factor", numeric_or_all, index=0, key="m_ia",
-                    format_func=lambda n: study.factor(n).display())
-b = b_col.selectbox("Second factor", [n for n in numeric_or_all if n != a], index=0,
-                    key="m_ib", format_func=lambda n: study.factor(n).display())
-try:
-    ab = interaction_means(study, name, a, b)
-    ba = interaction_means(study, name, b, a)
-    model_ab = cached.model_interaction(study, fitted, name, a, b)
-    model_ba = cached.model_interaction(study, fitted, name, b, a)
-except TradeoffError as exc:
-    st.error(text.plain(exc))
+if len(study.factor_names) < 2:  # one factor: no pair to draw (never a factor 'None')
+    st.caption("An interaction is one factor's effect changing with the setting of "
+               "another: it takes two factors, and this study varies one.")
 else:
-    st.caption(f"Lines: the model's prediction at the low and high ends, the other "
-               f"factors at their centre, with {study.confidence:.0%} confidence intervals "
-               "of the mean, so the chart agrees with the equation. Open circles: the "
-               "measured means of the runs at those ends (centre points left out). "
-               "Parallel lines: no interaction; lines that cross or fan out: the effect "
-               "of one factor depends on the other.")
-    p1, p2 = st.columns(2)
-    y_title = charts.titled(response.label, response.unit)
-    charts.show(charts.interaction_chart, ab, model_ab, study.factor(a).display(),
-                study.factor(b).display(), y_title,
-                where=p1, width="stretch")
-    charts.show(charts.interaction_chart, ba, model_ba, study.factor(b).display(),
-                study.factor(a).display(), y_title,
-                where=p2, width="stretch")
+    numeric_or_all = study.factor_names
+    a_col, b_col = st.columns(2)
+    a = a_col.selectbox("First factor", numeric_or_all, index=0, key="m_ia",
+                        format_func=lambda n: study.factor(n).display())
+    b = b_col.selectbox("Second factor", [n for n in numeric_or_all if n != a], index=0,
+                        key="m_ib", format_func=lambda n: study.factor(n).display())
+    try:
+        ab = interaction_means(study, name, a, b)
+        ba = interaction_means(study, name, b, a)
+        model_ab = cached.model_interaction(study, fitted, name, a, b)
+        model_ba = cached.model_interaction(study, fitted, name, b, a)
+    except TradeoffError as exc:
+        st.error(text.plain(exc))
+    else:
+        st.caption(f"Lines: the model's prediction at the low and high ends, the other "
+                   f"factors at their centre, with {study.confidence:.0%} confidence intervals "
+                   "of the mean, so the chart agrees with the equation. Open circles: the "
+                   "measured means of the runs at those ends (centre points left out). "
+                   "Parallel lines: no interaction; lines that cross or fan out: the effect "
+                   "of one factor depends on the other.")
+        p1, p2 = st.columns(2)
+        y_title = charts.titled(response.label, response.unit)
+        charts.show(charts.interaction_chart, ab, model_ab, study.factor(a).display(),
+                    study.factor(b).display(), y_title,
+                    where=p1, width="stretch")
+        charts.show(charts.interaction_chart, ba, model_ba, study.factor(b).display(),
+                    study.factor(a).display(), y_title,
+                    where=p2, width="stretch")
+
 
 st.subheader("Residuals: what the model leaves unexplained")
 st.caption("Look for patterns: a funnel against the fitted value suggests a transform; "

@@ -10,7 +10,7 @@ from tradeoff.maps.pictures import limits_note
 from tradeoff.maps.trace_picture import trace_note
 from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
 from tradeoff.search.result import fewer_solutions_text
-from tradeoff_ui import cached, charts, frontier_panel, panels, text, triangle, what_if
+from tradeoff_ui import cached, charts, frontier_panel, new_guide, panels, text, triangle, what_if
 from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
@@ -25,6 +25,7 @@ except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
 panels.stop_without_factors(study)
+new_guide.stop_without_goals(study)
 try:
     fitted = cached.fit(study)
 except TradeoffError as exc:

@@ -60,28 +60,12 @@ if uploads:
             ss["open_error"] = str(exc)
 
 if ss["draft"] is not None:
-    draft = ss["draft"]
-    columns = draft["columns"]
-    st.subheader(f"Name the columns of {text.plain(draft['name'])}")
-    st.dataframe(columns, hide_index=True)
-    with st.form("draft_form"):
-        chosen_f = st.multiselect("Factor columns (what you set)",
-                                  list(columns["column"]),
-                                  default=list(columns.loc[columns.role == "factor", "column"]))
-        chosen_r = st.multiselect("Response columns (what you measured)",
-                                  list(columns["column"]),
-                                  default=list(columns.loc[columns.role == "response",
-                                                           "column"]))
-        use = st.form_submit_button("Open this table as a study")
-    if use:
-        try:
-            origin = {"kind": "draft", "name": draft["name"], "data": draft["data"],
-                      "factors": list(chosen_f), "responses": list(chosen_r)}
-            state.open_origin(origin, draft["name"], cached.base_study(origin))
-            ss["draft"] = None
-            st.rerun()
-        except TradeoffError as exc:
-            ss["open_error"] = str(exc)
+    # a bare table: its columns are declared on the new-study view, which picks it up
+    st.info(text.plain(f"{ss['draft']['name']} is a data table without a study file: say "
+                       "what each column is (factors, blend parts, results, goals) on "
+                       "'New study'."), icon=":material/info:")
+    st.page_link("views/new_study.py", label="Declare its columns on 'New study'",
+                 icon=":material/note_add:")
 
 if ss["open_error"]:
     st.error(f"Could not open the files: {text.plain(ss['open_error'])}. The study below is "

@@ -10,7 +10,7 @@ from tradeoff import TradeoffError
 from tradeoff.derive.reach import goal_warnings
 from tradeoff.inputs import checked_goal, with_production_sd
 from tradeoff.study.spec import GOAL_WORDS, LIMIT_WORDS
-from tradeoff_ui import cached, charts, panels, text
+from tradeoff_ui import cached, charts, new_guide, panels, text
 
 ss = st.session_state
 KINDS = GOAL_WORDS
@@ -196,6 +196,11 @@ for item in items:
 # -- call the library ---------------------------------------------------------------
 try:
     study = cached.current_study()
+    if not new_guide.has_goals(study):  # a study from a bare table: goals come first
+        st.info("No result has a goal yet: choose one above (higher is better, lower is "
+                "better, a target or a range) and the best settings appear here.",
+                icon=":material/info:")
+        st.stop()
     fitted = cached.fit(study)
     result = cached.optimize(study, fitted)
     curves = cached.curves(study)

@@ -1,0 +1,127 @@
+"""The workbench's session file: what a user chose, kept across reloads and restarts.
+
+A plain JSON text of our own design (README, "The workbench keeps your work"):
+
+```
+{"kind": "tradeoff workbench session", "version": 1,
+ "study": {"kind": "path", "path": "/lab/bread.toml"}
+          | {"kind": "files", "files": ["bread.toml", "runs.csv"], "label": "..."},
+ "draft": null | {"data": "runs.csv", "draft": {...}},
+ "goals": {"crumb_hardness": {"goal": "minimize", "lower": 4, "upper": 8, "weight": 2}},
+ "models": {"crumb_hardness": "quadratic", "volume": ["A", "B", "A:B"]},
+ "reduce": ["volume"], "top": 5, "rank_by": "desirability", "aim": "balance",
+ "spread": {"bake_temp": 1.5}, "chosen": 0}
+```
+
+``study`` says where the open study is: a file on disk, or files kept in the
+workbench's own folder (uploads, and studies drafted in the workbench).
+``draft`` is a study being drafted on the "new study" view (study/draft.py).
+Goals are written with the study file's own goal keys and read back through
+the study reader's goal check, so a session file can never hold a goal the
+study file could not. Nothing here touches the user's study or data files.
+"""
+from __future__ import annotations
+
+import json
+
+from ..errors import StudyError
+from .reader import _goal
+from .spec import MODELS, Goal
+
+__all__ = ["SESSION_KIND", "SESSION_SUFFIX", "session_text", "read_session"]
+
+SESSION_KIND = "tradeoff workbench session"
+SESSION_SUFFIX = ".session.json"
+_RANKS = ("desirability", "chance", "production")
+_AIMS = ("balance", "production")
+
+
+def _goal_table(goal: Goal) -> dict:
+    table: dict = {"goal": goal.kind}
+    if goal.kind != "none":
+        table.update(lower=goal.lower, upper=goal.upper)
+        if goal.kind == "target":
+            table.update(target=goal.target, shape_below=goal.shape_below,
+                         shape_above=goal.shape_above)
+        else:
+            table["shape"] = goal.shape
+    table["weight"] = goal.weight
+    return {k: v for k, v in table.items() if v is not None}
+
+
+def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=(),
+                 top: int = 5, rank_by: str = "desirability", aim: str = "balance",
+                 spread: dict | None = None, chosen: int = 0,
+                 draft: dict | None = None) -> str:
+    """The session as JSON text (keys sorted, so an unchanged session writes the same bytes)."""
+    doc = {"kind": SESSION_KIND, "version": 1, "study": study,
+           "goals": {n: _goal_table(g) for n, g in goals.items()},
+           "models": {n: m if isinstance(m, str) else list(m) for n, m in models.items()},
+           "reduce": sorted(reduce), "top": int(top), "rank_by": rank_by, "aim": aim,
+           "spread": dict(spread or {}), "chosen": int(chosen), "draft": draft}
+    return json.dumps(doc, indent=1, sort_keys=True, ensure_ascii=False) + "\n"
+
+
+def read_session(text: str | bytes, name: str) -> dict:
+    """A session file's text -> its checked content (goals as ``Goal``, models as given).
+
+    Raises
+    ------
+    StudyError
+        Not a session file, or a goal, model or choice it could not have held.
+    """
+    try:
+        doc = json.loads(text)
+    except (ValueError, UnicodeDecodeError) as exc:
+        raise StudyError(f"{name}: not a workbench session file ({exc}): delete it to "
+                         "start afresh") from None
+    if not isinstance(doc, dict) or doc.get("kind") != SESSION_KIND:
+        raise StudyError(f"{name}: not a workbench session file (no \"kind\": "
+                         f"\"{SESSION_KIND}\"): delete it to start afresh")
+    if doc.get("version") != 1:
+        raise StudyError(f"{name}: session file version {doc.get('version')!r}; this "
+                         "workbench reads version 1: delete it to start afresh")
+    study = doc.get("study")
+    if not isinstance(study, dict) or study.get("kind") not in ("path", "files"):
+        raise StudyError(f"{name}: \"study\" must say where the study is (a path or "
+                         "kept files)")
+    draft = doc.get("draft")
+    if draft is not None and not (isinstance(draft, dict) and isinstance(
+            draft.get("draft"), dict)):
+        raise StudyError(f"{name}: \"draft\" must hold the study being drafted")
+    goals = {}
+    for gname, table in (doc.get("goals") or {}).items():
+        if not isinstance(table, dict):
+            raise StudyError(f"{name}: the goal of '{gname}' must be a table of keys")
+        goals[gname] = _goal(table, name, f"goal of '{gname}'")
+    models = {}
+    for rname, model in (doc.get("models") or {}).items():
+        if isinstance(model, str) and model in MODELS:
+            models[rname] = model
+        elif isinstance(model, list) and model and all(isinstance(t, str) for t in model):
+            models[rname] = tuple(model)
+        else:
+            raise StudyError(f"{name}: the model of '{rname}' must be one of "
+                             f"{', '.join(MODELS)} or a list of terms, found {model!r}")
+    top = doc.get("top", 5)
+    chosen = doc.get("chosen", 0)
+    for key, value in (("top", top), ("chosen", chosen)):
+        if not isinstance(value, int) or isinstance(value, bool) or value < 0:
+            raise StudyError(f"{name}: \"{key}\" must be a whole number, 0 or more, "
+                             f"found {value!r}")
+    rank_by, aim = doc.get("rank_by", "desirability"), doc.get("aim", "balance")
+    if rank_by not in _RANKS or aim not in _AIMS:
+        raise StudyError(f"{name}: \"rank_by\" must be one of {', '.join(_RANKS)} and "
+                         f"\"aim\" one of {', '.join(_AIMS)}")
+    spread = doc.get("spread") or {}
+    if not isinstance(spread, dict) or not all(
+            v is None or (isinstance(v, (int, float)) and not isinstance(v, bool) and v >= 0)
+            for v in spread.values()):
+        raise StudyError(f"{name}: \"spread\" must give each factor's production SD as a "
+                         "number, 0 or more")
+    reduce = doc.get("reduce") or []
+    if not isinstance(reduce, list) or not all(isinstance(r, str) for r in reduce):
+        raise StudyError(f"{name}: \"reduce\" must be a list of response names")
+    return {"study": study, "goals": goals, "models": models, "reduce": set(reduce),
+            "top": max(1, top), "rank_by": rank_by, "aim": aim, "spread": spread,
+            "chosen": chosen, "draft": draft}

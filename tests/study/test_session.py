@@ -1,0 +1,98 @@
+"""The workbench's session file and saving choices back into a study file, comments kept."""
+from __future__ import annotations
+
+import tomllib
+from dataclasses import replace
+from pathlib import Path
+
+import pytest
+
+from tradeoff import load_study
+from tradeoff.errors import StudyError
+from tradeoff.study.session import read_session, session_text
+from tradeoff.study.session_save import text_diff, updated_study_text
+from tradeoff.study.spec import Goal
+
+ROOT = Path(__file__).resolve().parents[2]
+FLOUR = ROOT / "demo_data" / "flour_blend.toml"
+
+
+def test_session_round_trip():
+    goals = {"v": Goal("maximize", 2.0, 3.0, weight=2.5),
+             "h": Goal("target", 4.0, 8.0, target=5.0, shape_below=0.5)}
+    text = session_text(study={"kind": "path", "path": "/lab/x.toml"}, goals=goals,
+                        models={"v": "quadratic", "h": ("A", "B", "A:B")},
+                        reduce={"v"}, top=3, rank_by="chance", aim="production",
+                        spread={"A": 1.5}, chosen=2, draft={"draft": {"name": "n"}})
+    back = read_session(text, "x.session.json")
+    assert back["goals"] == goals
+    assert back["models"] == {"v": "quadratic", "h": ("A", "B", "A:B")}
+    assert back["reduce"] == {"v"} and back["top"] == 3 and back["chosen"] == 2
+    assert (back["rank_by"], back["aim"], back["spread"]) == ("chance", "production",
+                                                              {"A": 1.5})
+    assert back["draft"] == {"draft": {"name": "n"}}
+    # the same session writes the same bytes (no needless rewrites)
+    assert text == session_text(study={"kind": "path", "path": "/lab/x.toml"},
+                                goals=dict(reversed(goals.items())),
+                                models={"h": ("A", "B", "A:B"), "v": "quadratic"},
+                                reduce=["v"], top=3, rank_by="chance", aim="production",
+                                spread={"A": 1.5}, chosen=2,
+                                draft={"draft": {"name": "n"}})
+
+
+@pytest.mark.parametrize("text, match", [
+    ("not json", "not a workbench session file"),
+    ('{"kind": "other"}', "not a workbench session file"),
+    ('{"kind": "tradeoff workbench session", "version": 7}', "version 7"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "x"}}',
+     "where the study is"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+     ' "draft": [1]}', "the study being drafted"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+     ' "goals": {"v": {"goal": "maximize", "lower": 3, "upper": 2}}}', "did you swap"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+     ' "models": {"v": "cubic"}}', "model of 'v'"),
+    ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+     ' "top": -1}', '"top" must be a whole number'),
+])
+def test_bad_session_files_say_so(text, match):
+    with pytest.raises(StudyError, match=match):
+        read_session(text, "x.session.json")
+
+
+def test_saving_back_keeps_comments_and_changes_only_the_choices():
+    original = FLOUR.read_text()
+    study = load_study(FLOUR)
+    volume = study.response("specific_volume")
+    new = replace(volume, goal=replace(volume.goal, weight=3.0), model="quadratic")
+    study = replace(study, responses=tuple(new if r.name == volume.name else r
+                                           for r in study.responses))
+    text = updated_study_text(original, study, FLOUR.name)
+    # every comment line of the original is still there, in the same order
+    comments = [line for line in original.splitlines() if "#" in line]
+    assert [line for line in text.splitlines() if "#" in line] == comments
+    # tomllib, the reference reader: only the two keys changed
+    before, after = tomllib.loads(original), tomllib.loads(text)
+    assert after["responses"][0] == {**before["responses"][0], "weight": 3,
+                                     "model": "quadratic"}
+    assert {k: v for k, v in after.items() if k != "responses"} == {
+        k: v for k, v in before.items() if k != "responses"}
+    assert after["responses"][1:] == before["responses"][1:]
+    diff = text_diff(original, text, FLOUR.name)
+    changed = [line for line in diff.splitlines()
+               if line[:1] in "+-" and not line.startswith(("+++", "---"))]
+    assert changed == ["+weight = 3", "+model = \"quadratic\""]
+
+
+def test_unchanged_choices_write_the_file_unchanged():
+    original = FLOUR.read_text()
+    assert updated_study_text(original, load_study(FLOUR)) == original
+    assert text_diff(original, original, "x") == ""
+
+
+def test_a_removed_goal_leaves_the_file():
+    original = FLOUR.read_text()
+    study = load_study(FLOUR).with_goal("crumb_hardness", Goal())
+    after = tomllib.loads(updated_study_text(original, study))
+    assert after["responses"][1] == {"name": "crumb_hardness",
+                                     "label": "Crumb hardness, day 1", "unit": "N"}
