@@ -1,0 +1,124 @@
+"""One plan asked for by name and options, carried out exactly as ``tradeoff plan`` does.
+
+The workbench offers the same designs as the command; to give the same run
+sheet for the same seed it goes through the same routes (blend plans, split
+plots, then the rest), with the command's defaults for every option not given.
+The run sheet is written into a scratch folder by the command's own writer and
+read back as bytes, so the download is byte for byte the file the command writes.
+"""
+from __future__ import annotations
+
+import tempfile
+from argparse import Namespace
+from dataclasses import dataclass
+from pathlib import Path
+
+import pandas as pd
+
+__all__ = ["PlanOutcome", "plan_request", "design_choices", "read_table_frame", "PLAN_DEFAULTS"]
+
+# The options of ``tradeoff plan`` and their defaults (core/cli/plan.py declares them).
+PLAN_DEFAULTS = {"runs": None, "alpha": None, "criterion": "d", "model": None, "extra": 0,
+                 "keep": False, "resolution": None, "center": None, "replicates": 1,
+                 "blocks": 1, "foldover": False, "augment": None, "whole_plots": None,
+                 "ratio": None, "seed": None, "effect": None, "sd": None, "design": None,
+                 "degree": None, "centroids": None, "axial": False, "json": False}
+
+
+@dataclass(frozen=True)
+class PlanOutcome:
+    """A plan as the command reports it.
+
+    Attributes
+    ----------
+    report : dict
+        The command's JSON report (``tradeoff plan --json``), ``run_sheet`` left out.
+    text : str
+        The command's text, its last line (where the sheet went) left out.
+    sheet : pandas.DataFrame
+        The run sheet as read back from the CSV the command wrote.
+    csv : bytes
+        The run sheet as the command writes it with ``--out runs.csv``.
+    xlsx : bytes
+        The run sheet as the command writes it with ``--out runs.xlsx``.
+    """
+
+    report: dict
+    text: str
+    sheet: pd.DataFrame
+    csv: bytes
+    xlsx: bytes
+
+
+def design_choices(study) -> tuple[str, ...]:
+    """The designs ``tradeoff plan`` accepts for this study, the command's default first."""
+    if study.mixture is not None:
+        from .mixture_designs import MIXTURE_DESIGNS
+
+        return tuple(d for d in MIXTURE_DESIGNS if d != "optimal")
+    if any(f.hard_to_change for f in study.factors):
+        return ("factorial", "optimal")
+    from .layouts import DESIGNS
+
+    return tuple(DESIGNS)
+
+
+def _route(args):
+    from .mixture_plan import mixture_route
+    from .runsheet import plan_command
+    from .split_command import split_plot_route
+
+    routed = mixture_route(args)
+    if routed is None:
+        routed = split_plot_route(args)
+    return routed if routed is not None else plan_command(args)
+
+
+def plan_request(study_path: str | Path, **options) -> PlanOutcome:
+    """Plan the runs of the study file at ``study_path`` as ``tradeoff plan`` would.
+
+    Parameters
+    ----------
+    study_path : str or Path
+        The study file (its data file need not exist).
+    **options
+        Any option of ``tradeoff plan`` by its long name with ``_`` for ``-``
+        (``design``, ``runs``, ``alpha``, ``center``, ``seed``, ``effect``,
+        ``sd``, ...); options left out take the command's defaults.
+
+    Returns
+    -------
+    PlanOutcome
+
+    Raises
+    ------
+    PlanError, StudyError
+        With the command's message when the options do not fit the study.
+    """
+    unknown = sorted(set(options) - set(PLAN_DEFAULTS))
+    if unknown:
+        raise TypeError(f"plan_request: unknown option(s) {', '.join(unknown)}")
+    texts: dict[str, str] = {}
+    sheets: dict[str, bytes] = {}
+    with tempfile.TemporaryDirectory(prefix="tradeoff-plan-") as folder:
+        for suffix in (".csv", ".xlsx"):
+            out = Path(folder) / f"runs{suffix}"
+            args = Namespace(study=str(study_path), out=str(out),
+                             **{**PLAN_DEFAULTS, **options})
+            report, text = _route(args)
+            texts[suffix] = text
+            sheets[suffix] = out.read_bytes()
+    report = {k: v for k, v in report.items() if k != "run_sheet"}
+    lines = texts[".csv"].splitlines()
+    text = "\n".join(line for line in lines if not line.startswith("Run sheet:"))
+
+    sheet = read_table_frame(sheets[".csv"])
+    return PlanOutcome(report=report, text=text, sheet=sheet, csv=sheets[".csv"],
+                       xlsx=sheets[".xlsx"])
+
+
+def read_table_frame(data: bytes) -> pd.DataFrame:
+    """The run sheet CSV as a table of text cells (blank cells empty)."""
+    import io
+
+    return pd.read_csv(io.BytesIO(data), dtype=str, keep_default_na=False)
