@@ -27,6 +27,7 @@ pages = [
     st.Page("views/study.py", title="Study and runs", icon=":material/table_view:",
             default=True),
     st.Page("views/new_study.py", title="New study", icon=":material/note_add:"),
+    st.Page("views/plan.py", title="Plan the runs", icon=":material/grid_on:"),
     st.Page("views/models.py", title="What drives each response",
             icon=":material/insights:"),
     st.Page("views/panel.py", title="The panel", icon=":material/groups:"),

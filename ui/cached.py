@@ -411,3 +411,51 @@ def cox_traces(study, fitted, held: dict):
     """Every response along each component's Cox direction through the reference blend
     (``tradeoff.maps.mixture_tables.mixture_trace``)."""
     return _cox_traces(study_keys(study)[0], study, fitted, _held_items(held))
+
+
+# -- plans: ``tradeoff plan`` run on the open study's file --------------------------------
+__all__ += ["study_file_path", "plan"]
+
+
+@st.cache_resource(max_entries=8, show_spinner=False)
+def _study_file_path(key: str, _origin: dict, _study) -> str:
+    import tempfile
+
+    from tradeoff.report.exports import study_toml_bytes
+    from tradeoff.study.files import write_atomic
+
+    # a scratch copy for the plan command, never the user's files
+    folder = Path(tempfile.mkdtemp(prefix="tradeoff-plan-study-"))
+    if _origin["kind"] == "files":
+        for name, data in _origin["files"].items():
+            write_atomic(folder / Path(name).name, data)
+        name = next(n for n in _origin["files"] if n.lower().endswith(".toml"))
+        return str(folder / Path(name).name)
+    path = folder / Path(_origin["name"]).with_suffix(".toml").name
+    write_atomic(path, study_toml_bytes(_study))
+    if _study.data_path is not None:
+        write_atomic(folder / _study.data_path.name, _origin["data"])
+    return str(path)
+
+
+def study_file_path(study) -> str:
+    """A study file on this computer for the open study (a scratch copy of uploads)."""
+    origin = st.session_state["origin"]
+    if origin["kind"] == "path":
+        return origin["path"]
+    return _study_file_path(origin_key(origin), origin, study)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _plan(key: str, path: str, options: tuple):
+    from tradeoff.plan.plan_request import plan_request
+
+    return plan_request(path, **dict(options))
+
+
+def plan(study, options: dict):
+    """``tradeoff plan`` with these options on the open study (cached by study and options)."""
+    path = study_file_path(study)
+    with st.spinner("Planning the runs..."):
+        return _plan(origin_key(st.session_state["origin"]), path,
+                     tuple(sorted(options.items())))

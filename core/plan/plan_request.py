@@ -15,7 +15,8 @@ from pathlib import Path
 
 import pandas as pd
 
-__all__ = ["PlanOutcome", "plan_request", "design_choices", "read_table_frame", "PLAN_DEFAULTS"]
+__all__ = ["PlanOutcome", "plan_request", "plan_study_file", "design_choices", "read_table_frame",
+           "PLAN_DEFAULTS"]
 
 # The options of ``tradeoff plan`` and their defaults (core/cli/plan.py declares them).
 PLAN_DEFAULTS = {"runs": None, "alpha": None, "criterion": "d", "model": None, "extra": 0,
@@ -122,3 +123,20 @@ def read_table_frame(data: bytes) -> pd.DataFrame:
     import io
 
     return pd.read_csv(io.BytesIO(data), dtype=str, keep_default_na=False)
+
+
+def plan_study_file(study, sheet_name: str) -> bytes:
+    """The study file that goes with a run sheet: the study, its data file the sheet.
+
+    Fill in the sheet's response columns, keep both files in one folder, and the
+    study opens with the planned runs as its data.
+    """
+    import tomli_w
+
+    from ..study.writer import study_to_dict
+
+    doc = study_to_dict(study)
+    doc["study"]["data"] = sheet_name
+    doc["study"].pop("sheet", None)
+    doc.pop("confirmations", None)  # the plan's runs come before any confirmation
+    return tomli_w.dumps(doc).encode("utf-8")

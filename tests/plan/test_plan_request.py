@@ -117,3 +117,17 @@ def test_compare_names_the_better_plan_per_measure():
     swapped = compare_plans(full.report, fraction.report).set_index("key")
     flip = {"first": "second", "second": "first", "same": "same", "": ""}
     assert (swapped["better"] == table["better"].map(flip)).all()
+
+
+def test_study_file_that_goes_with_the_sheet_opens_the_sheet(tmp_path):
+    from tradeoff import load_study
+    from tradeoff.plan.plan_request import plan_study_file
+
+    study = load_study(SNACK, with_data=False)
+    planned = plan_request(SNACK, design="box-behnken", seed=2)
+    (tmp_path / "bb.csv").write_bytes(planned.csv)
+    (tmp_path / "bb.toml").write_bytes(plan_study_file(study, "bb.csv"))
+    again = load_study(tmp_path / "bb.toml", with_data=False)
+    assert again.data_path.name == "bb.csv"
+    assert again.factor_names == study.factor_names
+    assert again.response_names == study.response_names
