@@ -36,7 +36,9 @@ def origin_key(origin: dict) -> str:
     """A digest of where a study came from (for a file: its path and modification time)."""
     if origin["kind"] == "path":
         path = Path(origin["path"])
-        return _digest("path", str(path), path.stat().st_mtime_ns if path.exists() else 0)
+        # "revision" is bumped when the workbench saves the runs (views/data.py)
+        return _digest("path", str(path), path.stat().st_mtime_ns if path.exists() else 0,
+                       origin.get("revision", 0))
     if origin["kind"] == "files":
         return _digest("files", *[(n, _digest(b)) for n, b in sorted(origin["files"].items())])
     return _digest("draft", origin["name"], _digest(origin["data"]), origin["factors"],
@@ -459,3 +461,21 @@ def plan(study, options: dict):
     with st.spinner("Planning the runs..."):
         return _plan(origin_key(st.session_state["origin"]), path,
                      tuple(sorted(options.items())))
+
+
+# -- pinned recipes side by side -----------------------------------------------------------
+__all__ += ["recipes_side_by_side"]
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _recipes_side_by_side(key: str, _study, _fit, items: tuple):
+    from tradeoff.maps.recipe_compare import compare_recipes
+
+    return compare_recipes(_study, _fit, {label: dict(s) for label, s in items})
+
+
+def recipes_side_by_side(study, fitted, recipes: dict):
+    """Pinned recipes compared (``tradeoff.maps.recipe_compare.compare_recipes``)."""
+    items = tuple((label, tuple((k, v if isinstance(v, str) else float(v))
+                                for k, v in s.items())) for label, s in recipes.items())
+    return _recipes_side_by_side(study_keys(study)[1], study, fitted, items)

@@ -185,7 +185,7 @@ if compare and all(p is not None for p in plans):
                 colour if row["better"] == "second" else "", ""]
 
     st.dataframe(shown.style.apply(_mark, axis=1), hide_index=True,
-                 use_container_width=True)
+                 width="stretch")
     st.caption("The better figure on each measure is shaded. Scaled prediction variance "
                "charges a plan for its size, so plans of different sizes compare fairly on "
                "it; fewer runs is still cheaper.")
