@@ -54,9 +54,15 @@ class PlanOutcome:
 def design_choices(study) -> tuple[str, ...]:
     """The designs ``tradeoff plan`` accepts for this study, the command's default first."""
     if study.mixture is not None:
+        from ..study.mixture import components_of
         from .mixture_designs import MIXTURE_DESIGNS
 
-        return tuple(d for d in MIXTURE_DESIGNS if d != "optimal")
+        # the command's default (plan/mixture_plan.py mixture_route): the lattice when
+        # no bound cuts into the simplex of the lows, else the extreme vertices
+        free = all(abs(c.high - c.low - c.half_range) <= 1e-9 * c.total
+                   for c in components_of(study))
+        first = "lattice" if free else "vertices"
+        return (first,) + tuple(d for d in MIXTURE_DESIGNS if d not in ("optimal", first))
     if any(f.hard_to_change for f in study.factors):
         return ("factorial", "optimal")
     from .layouts import DESIGNS

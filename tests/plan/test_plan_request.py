@@ -66,7 +66,9 @@ def test_design_choices_follow_the_study():
 
     assert design_choices(load_study(SNACK, with_data=False))[0] == "factorial"
     assert "optimal" not in design_choices(load_study(BLEND, with_data=False))
-    assert "vertices" in design_choices(load_study(BLEND, with_data=False))
+    # the flour blend's bounds cut into the simplex: the command's default is the
+    # extreme vertices, and the workbench offers it first
+    assert design_choices(load_study(BLEND, with_data=False))[0] == "vertices"
 
 
 def test_half_fraction_words_name_its_aliases():

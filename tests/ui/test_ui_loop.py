@@ -63,7 +63,13 @@ def test_compare_shows_the_library_figures_for_each_pinned_recipe():
     pins = at.session_state["pins"]
     expected = compare_recipes(study, fit_study(study), dict(pins))
     d_row = expected.index[expected["part"] == "D"][0]
-    assert shown.loc[d_row, "S1"] == f"{expected.loc[d_row, 'S1']:.3g}"
+    assert shown.loc[shown["what"] == "D", "S1"].item() == f"{expected.loc[d_row, 'S1']:.3g}"
+    # a prediction with its interval, both the library's
+    p = expected.set_index(["part", "item"])["S1"]
+    row = shown[shown["of"] == "Water activity"].iloc[0]
+    assert row["S1"] == (f"{p[('predicted', 'water_activity')]:.4g}  "
+                         f"({p[('interval low', 'water_activity')]:.4g} to "
+                         f"{p[('interval high', 'water_activity')]:.4g})")
     # unpinning takes the column away
     at.button(key="c_unpin_what-if 1").click().run()
     shown = at.dataframe[0].value

@@ -82,3 +82,25 @@ def test_a_plan_the_study_cannot_take_says_why():
         "factors: 8 (resolution IV), 16 (full factorial)"]
     _select(at, "Runs in the two-level part", 8)
     assert not at.error
+
+
+def test_a_blend_starts_from_the_command_default(monkeypatch, tmp_path, capsys):
+    import shutil
+    import sys
+
+    for path in DEMO.parent.glob("flour_blend*"):
+        shutil.copy(path, tmp_path / path.name)
+    study = tmp_path / "flour_blend.toml"
+    monkeypatch.setattr(sys, "argv", ["app.py", str(study)])
+    at = _plan_view()
+    assert [s for s in at.selectbox if s.label == "Design"][0].value == "vertices"
+    # no power for a blend plan: no boxes asking for it
+    assert not [n for n in at.number_input if n.label == "Expected run-to-run SD"]
+    out = tmp_path / "cli.csv"
+    assert main(["plan", str(study), "--out", str(out), "--seed", "0"]) == 0
+    capsys.readouterr()
+    expected = pd.read_csv(out, dtype=str, keep_default_na=False)
+    pd.testing.assert_frame_equal(at.dataframe[0].value.reset_index(drop=True), expected)
+    _select(at, "Design", "lattice")
+    # the command's refusal, with its option named as the view's choice
+    assert "the design 'vertices'" in at.error[0].value and "--" not in at.error[0].value

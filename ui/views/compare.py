@@ -45,10 +45,10 @@ except TradeoffError as exc:
 
 # -- show -------------------------------------------------------------------------------
 labels = list(pins)
-names = {f.name: f.display() for f in study.factors}
+names = {f.name: f.label for f in study.factors}
 names.update({r.name: r.label for r in study.responses})
-PART = {"setting": "Setting", "predicted": "Predicted", "interval low": "Interval, low",
-        "interval high": "Interval, high", "d": "d", "D": "D", "chance": "Chance in limits"}
+PART = {"setting": "Setting", "predicted": f"Predicted ({study.confidence:.0%} interval)",
+        "d": "d", "D": "D", "chance": "Chance in limits"}
 
 
 def _cell(part: str, value) -> str:
@@ -61,12 +61,29 @@ def _cell(part: str, value) -> str:
     return num(value, 3) if part in ("d", "D") else num(value)
 
 
+# one row per prediction, its interval beside it; the interval rows are folded in
+keep = table[~table["part"].isin(["interval low", "interval high"])]
+lows = table[table["part"] == "interval low"].set_index("item")
+highs = table[table["part"] == "interval high"].set_index("item")
+
+
+def _column(label: str) -> list[str]:
+    out = []
+    for part, item, value in zip(keep["part"], keep["item"], keep[label]):
+        cell = _cell(part, value)
+        if part == "predicted":
+            cell += f"  ({num(lows.loc[item, label])} to {num(highs.loc[item, label])})"
+        out.append(cell)
+    return out
+
+
 shown = pd.DataFrame({
-    "what": table["part"].map(PART),
-    "of": [("all goals" if i == "all goals" else names.get(i, i)) for i in table["item"]],
-    "unit": table["unit"],
-    **{label: [_cell(p, v) for p, v in zip(table["part"], table[label])] for label in labels},
+    "what": keep["part"].map(PART).to_numpy(),
+    "of": [("all goals" if i == "all goals" else names.get(i, i)) for i in keep["item"]],
+    "unit": keep["unit"].to_numpy(),
+    **{label: _column(label) for label in labels},
 })
+table = keep.reset_index(drop=True)
 
 
 def _marks(row):

@@ -36,7 +36,7 @@ if ss["confirm_typed"] is None:
     if len(mine):
         start = mine[columns].reset_index(drop=True)
     else:  # one row per pinned recipe (or none), measured values left blank
-        start = pd.DataFrame([{"run": None, **settings}
+        start = pd.DataFrame([{"run": "", **settings}
                               for settings in ss["pins"].values()],
                              columns=columns)
     ss["confirm_typed"] = start.astype(object)
@@ -50,7 +50,7 @@ if len(others):
     st.caption(f"The study already lists {len(others)} confirmation run(s) in its own "
                "tables; they are checked together with the ones typed here.")
 if ss["pins"] and st.button("Add a row for each pinned recipe", key="cf_add_pins"):
-    rows = pd.DataFrame([{"run": None, **settings} for settings in ss["pins"].values()],
+    rows = pd.DataFrame([{"run": "", **settings} for settings in ss["pins"].values()],
                         columns=columns).astype(object)
     ss["confirm_typed"] = pd.concat([ss["confirm_typed"], rows], ignore_index=True)
     ss["editor_nonce"] += 1

@@ -2,6 +2,7 @@
 candidates side by side, the run sheet and its study file to download."""
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pandas as pd
@@ -105,17 +106,20 @@ model = "" if blend else shared[0].selectbox(
     "Judge both plans for", list(MODEL_WORDS), format_func=MODEL_WORDS.get,
     key=f"p_model_{epoch}",
     help="The model the plans are judged for: what can be estimated, precision, power.")
-seed = int(shared[1].number_input("Seed of the run order", 0, 2**31 - 1,
-                                  value=int(study.seed), key=f"p_seed_{epoch}"))
-effect = shared[2].number_input("Smallest change worth finding", 0.0, value=0.0,
-                                key=f"p_effect_{epoch}",
-                                help="From a factor's low to its high, in the response's "
-                                     "units; with the SD it gives the power.")
-sd = shared[3].number_input("Expected run-to-run SD", 0.0, value=0.0, key=f"p_sd_{epoch}")
+seed = int(shared[1 if not blend else 0].number_input(
+    "Seed of the run order", 0, 2**31 - 1, value=int(study.seed), key=f"p_seed_{epoch}"))
+effect = sd = 0.0
+if not blend:  # the blend plans are judged without power (plan/mixture_plan.py)
+    effect = shared[2].number_input("Smallest change worth finding", 0.0, value=0.0,
+                                    key=f"p_effect_{epoch}",
+                                    help="From a factor's low to its high, in the "
+                                         "response's units; with the SD it gives the power.")
+    sd = shared[3].number_input("Expected run-to-run SD", 0.0, value=0.0,
+                                key=f"p_sd_{epoch}")
 common: dict = {"seed": seed}
 if model:
     common["model"] = model
-if effect > 0 and sd > 0 and not blend:
+if effect > 0 and sd > 0:
     common.update(effect=float(effect), sd=float(sd))
 compare = st.toggle("Compare with a second plan", key=f"p_compare_{epoch}")
 columns = st.columns(2) if compare else [st.container()]
@@ -133,7 +137,9 @@ for options in asked:
         errors.append(None)
     except TradeoffError as exc:
         plans.append(None)
-        errors.append(text.plain(exc))
+        # the command's option names read as the workbench's choices
+        errors.append(text.plain(re.sub(r"--design (\S+)", r"the design '\1'",
+                                        str(exc)).replace("--", "")))
 
 # -- show ------------------------------------------------------------------------------
 stem = Path(study.source.name if study.source else "study").stem
@@ -154,19 +160,20 @@ for i, (column, planned, error) in enumerate(zip(columns, plans, errors)):
             st.code(planned.text, language=None)
         sheet_name = f"{stem}_plan_{name}"
         st.dataframe(planned.sheet, hide_index=True, height=260)
-        d1, d2, d3 = st.columns(3)
-        d1.download_button("Run sheet (.csv)", planned.csv, file_name=f"{sheet_name}.csv",
-                           mime="text/csv", key=f"p_csv_{i}")
-        d2.download_button("Run sheet (.xlsx)", planned.xlsx,
-                           file_name=f"{sheet_name}.xlsx", key=f"p_xlsx_{i}",
-                           mime="application/vnd.openxmlformats-officedocument."
-                                "spreadsheetml.sheet")
-        d3.download_button("Its study file (.toml)",
-                           plan_study_file(study, f"{sheet_name}.csv"),
-                           file_name=f"{sheet_name}.toml", mime="application/toml",
-                           key=f"p_toml_{i}",
-                           help="Keep it beside the run sheet: fill in the response "
-                                "columns and open it here to analyse the runs.")
+        places = st.columns(3) if not compare else [st.container()] * 3
+        places[0].download_button("Run sheet (.csv)", planned.csv,
+                                  file_name=f"{sheet_name}.csv", mime="text/csv",
+                                  key=f"p_csv_{i}")
+        places[1].download_button("Run sheet (.xlsx)", planned.xlsx,
+                                  file_name=f"{sheet_name}.xlsx", key=f"p_xlsx_{i}",
+                                  mime="application/vnd.openxmlformats-officedocument."
+                                       "spreadsheetml.sheet")
+        places[2].download_button("Its study file (.toml)",
+                                  plan_study_file(study, f"{sheet_name}.csv"),
+                                  file_name=f"{sheet_name}.toml", mime="application/toml",
+                                  key=f"p_toml_{i}",
+                                  help="Keep it beside the run sheet: fill in the response "
+                                       "columns and open it here to analyse the runs.")
 
 if compare and all(p is not None for p in plans):
     st.subheader("Side by side")
