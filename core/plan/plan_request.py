@@ -105,23 +105,31 @@ def plan_request(study_path: str | Path, **options) -> PlanOutcome:
     unknown = sorted(set(options) - set(PLAN_DEFAULTS))
     if unknown:
         raise TypeError(f"plan_request: unknown option(s) {', '.join(unknown)}")
-    texts: dict[str, str] = {}
-    sheets: dict[str, bytes] = {}
     with tempfile.TemporaryDirectory(prefix="tradeoff-plan-") as folder:
-        for suffix in (".csv", ".xlsx"):
-            out = Path(folder) / f"runs{suffix}"
-            args = Namespace(study=str(study_path), out=str(out),
-                             **{**PLAN_DEFAULTS, **options})
-            report, text = _route(args)
-            texts[suffix] = text
-            sheets[suffix] = out.read_bytes()
+        out = Path(folder) / "runs.csv"
+        args = Namespace(study=str(study_path), out=str(out), **{**PLAN_DEFAULTS, **options})
+        report, text = _route(args)
+        csv = out.read_bytes()
     report = {k: v for k, v in report.items() if k != "run_sheet"}
-    lines = texts[".csv"].splitlines()
-    text = "\n".join(line for line in lines if not line.startswith("Run sheet:"))
+    text = "\n".join(line for line in text.splitlines() if not line.startswith("Run sheet:"))
+    return PlanOutcome(report=report, text=text, sheet=read_table_frame(csv), csv=csv,
+                       xlsx=_workbook(csv))
 
-    sheet = read_table_frame(sheets[".csv"])
-    return PlanOutcome(report=report, text=text, sheet=sheet, csv=sheets[".csv"],
-                       xlsx=sheets[".xlsx"])
+
+def _workbook(csv: bytes) -> bytes:
+    """The sheet as the command writes it with ``--out runs.xlsx`` (planned once, not
+    twice: the same table, numbers as numbers, through the same safe writer)."""
+    import io
+
+    from ..study.safe_cells import restore_text, table_bytes
+
+    table = pd.read_csv(io.BytesIO(csv), keep_default_na=False, na_values=[""],
+                        dtype={"run": str})
+    for column in ("std_order", "run_order"):
+        if column in table:
+            table[column] = table[column].astype("Int64")
+    table = table.map(lambda v: restore_text(v) if isinstance(v, str) else v)
+    return table_bytes(table, ".xlsx", sheet="runs")
 
 
 def read_table_frame(data: bytes) -> pd.DataFrame:
