@@ -100,7 +100,7 @@ def _marks(row):
 
 
 st.dataframe(shown.style.apply(_marks, axis=1), hide_index=True, width="stretch",
-             height=min(38 + 35 * len(shown), 800))
+             height=35 * (len(shown) + 1) + 3)
 st.caption(f"Every figure in a column is for that one recipe. Shaded rows differ between "
            f"the recipes; the highest d, D or chance is in bold green. Intervals are "
            f"{study.confidence:.0%} prediction intervals for one new batch.")

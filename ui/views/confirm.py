@@ -55,15 +55,18 @@ if ss["pins"] and st.button("Add a row for each pinned recipe", key="cf_add_pins
     ss["confirm_typed"] = pd.concat([ss["confirm_typed"], rows], ignore_index=True)
     ss["editor_nonce"] += 1
 config = {}
-for f in study.factors:
+for f in study.factors:  # short headers, the label and unit on hover: every column in view
     if f.is_categorical:
-        config[f.name] = st.column_config.SelectboxColumn(f.display(), options=list(f.levels))
+        config[f.name] = st.column_config.SelectboxColumn(
+            f.name, options=list(f.levels), help=f.display(), width="small")
     else:
-        config[f.name] = st.column_config.NumberColumn(f.display(), format="%.6g")
+        config[f.name] = st.column_config.NumberColumn(f.name, format="%.6g",
+                                                       help=f.display(), width="small")
 for r in study.responses:
     config[r.name] = st.column_config.NumberColumn(
-        f"{r.label} ({r.unit})" if r.unit else r.label, format="%.6g")
-config["run"] = st.column_config.TextColumn("run id")
+        r.name, format="%.6g", help=f"{r.label} ({r.unit})" if r.unit else r.label,
+        width="small")
+config["run"] = st.column_config.TextColumn("run id", width="small")
 edited = editing.kept_editor("confirm_typed", num_rows="dynamic", hide_index=True,
                              column_config=config, width="stretch")
 

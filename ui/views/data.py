@@ -30,10 +30,20 @@ st.caption(f"The runs of {text.plain(name)} as the file lays them out: correct a
            "a run in the empty last line, or delete a row (tick it, then the bin). "
            "Confirmation runs belong on the Confirmation runs view. Nothing is written "
            "until you press save.")
+used = [c for c in ["run", *study.factor_names, *study.response_names]
+        if c in laid_out.columns]
+every = len(used) < len(laid_out.columns) and st.toggle(
+    "Show every column of the file", key="dv_every",
+    help="Off: the run id, the factors and the responses. The other columns are kept as "
+         "they are when you save.")
 edited = editing.kept_editor(
-    "data_typed", num_rows="dynamic", width="stretch", height=420,
-    column_config={"_index": st.column_config.NumberColumn("row", disabled=True),
-                   **{c: st.column_config.TextColumn(c) for c in laid_out.columns}})
+    "data_typed", column_order=None if every else used, num_rows="dynamic",
+    width="stretch",
+    height=38 + 35 * (len(ss["data_typed"]) + 1) + 3,
+    column_config={"_index": st.column_config.NumberColumn("row", disabled=True,
+                                                           width=40),
+                   **{c: st.column_config.TextColumn(c, width=70)
+                      for c in laid_out.columns}})
 
 # -- call the library: the same checks as the command line ------------------------------
 changes = run_changes(laid_out, edited)

@@ -79,7 +79,8 @@ def _options(column, tag: str, default: str) -> dict:
         options["degree"] = degree
     if design == "vertices":
         cents = column.multiselect("Centroids to add", ["edges", "faces", "overall"],
-                                   default=["overall"], key=f"{key}_cent")
+                                   default=["overall"] if tag == "a" else ["edges", "overall"],
+                                   key=f"{key}_cent")
         if cents:
             options["centroids"] = ",".join(cents)
     if blend:
@@ -123,8 +124,10 @@ if effect > 0 and sd > 0:
     common.update(effect=float(effect), sd=float(sd))
 compare = st.toggle("Compare with a second plan", key=f"p_compare_{epoch}")
 columns = st.columns(2) if compare else [st.container()]
-second = next((d for d in ("central-composite", "box-behnken", "vertices", "lattice")
-               if d in choices and d != choices[0]), choices[0])
+# the second candidate: a response surface beside a factorial; for a blend the same
+# design with more centroids (another blend design may not fit a bounded region)
+second = choices[0] if blend else next(
+    (d for d in ("central-composite", "box-behnken") if d in choices), choices[0])
 asked = [_options(columns[0], "a", choices[0])]
 if compare:
     asked.append(_options(columns[1], "b", second))
@@ -159,7 +162,6 @@ for i, (column, planned, error) in enumerate(zip(columns, plans, errors)):
         with st.expander("As the plan command prints it"):
             st.code(planned.text, language=None)
         sheet_name = f"{stem}_plan_{name}"
-        st.dataframe(planned.sheet, hide_index=True, height=260)
         places = st.columns(3) if not compare else [st.container()] * 3
         places[0].download_button("Run sheet (.csv)", planned.csv,
                                   file_name=f"{sheet_name}.csv", mime="text/csv",
@@ -174,6 +176,21 @@ for i, (column, planned, error) in enumerate(zip(columns, plans, errors)):
                                   key=f"p_toml_{i}",
                                   help="Keep it beside the run sheet: fill in the response "
                                        "columns and open it here to analyse the runs.")
+
+# the run sheets full width, every run in view: the response columns are left out
+# here (they are empty, to be filled in on the downloaded sheet)
+measured = [r.name for r in study.responses if not r.is_derived]
+ready = [(i, p) for i, p in enumerate(plans) if p is not None]
+if ready:
+    st.subheader("Run sheet" + ("s" if len(ready) > 1 else ""))
+    st.caption("In the order to make the runs, settings in natural units. The downloaded "
+               "sheet adds one empty column per response to fill in.")
+    places = st.tabs([("First" if i == 0 else "Second") + " plan" for i, _ in ready]) \
+        if len(ready) > 1 else [st.container()]
+    for place, (i, planned) in zip(places, ready):
+        runs = planned.sheet.drop(columns=[c for c in measured if c in planned.sheet])
+        place.dataframe(runs, hide_index=True, height=35 * (len(runs) + 1) + 3,
+                        key=f"p_sheet_{i}")
 
 if compare and all(p is not None for p in plans):
     st.subheader("Side by side")
