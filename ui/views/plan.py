@@ -208,6 +208,10 @@ if compare and all(p is not None for p in plans):
         return ["", colour if row["better"] == "first" else "",
                 colour if row["better"] == "second" else "", ""]
 
+    if not model and not blend:
+        st.caption("Each plan is judged here for its own model (a factorial for "
+                   "interactions, a response surface for curvature): choose one model in "
+                   "'Judge both plans for' to compare like with like.")
     st.dataframe(shown.style.apply(_mark, axis=1), hide_index=True,
                  width="stretch")
     st.caption("The better figure on each measure is shaded. Scaled prediction variance "
