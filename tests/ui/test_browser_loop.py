@@ -13,23 +13,10 @@ from pathlib import Path
 import pytest
 
 from conftest import DEMO
-from test_browser import ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy, stop_server
-from test_browser_views import _check, _settle, _shoot
+from test_browser import _free_port, _wait_healthy, stop_server
+from test_browser_views import _check, _settle, _shoot, browser  # noqa: F401 (fixture)
 
 STUDIES = ("snack_bar.toml", "flour_blend.toml")
-
-
-@pytest.fixture(scope="module")
-def browser():
-    _require_browser()
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as pw:
-        b = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True, args=ARGS)
-        try:
-            yield b
-        finally:
-            b.close()
 
 
 @pytest.mark.parametrize("name", STUDIES)
