@@ -27,11 +27,16 @@ pages = [
     st.Page("views/study.py", title="Study and runs", icon=":material/table_view:",
             default=True),
     st.Page("views/new_study.py", title="New study", icon=":material/note_add:"),
+    st.Page("views/plan.py", title="Plan the runs", icon=":material/grid_on:"),
     st.Page("views/models.py", title="What drives each response",
             icon=":material/insights:"),
     st.Page("views/panel.py", title="The panel", icon=":material/groups:"),
     st.Page("views/targets.py", title="Targets and weights", icon=":material/tune:"),
     st.Page("views/results.py", title="Recommended settings", icon=":material/flag:"),
+    st.Page("views/compare.py", title="Compare recipes", icon=":material/compare:"),
+    st.Page("views/batch.py", title="Batch sheet", icon=":material/scale:"),
+    st.Page("views/data.py", title="Add or correct runs", icon=":material/edit_note:"),
+    st.Page("views/confirm.py", title="Confirmation runs", icon=":material/fact_check:"),
     st.Page("views/downloads.py", title="Take it with you", icon=":material/download:"),
 ]
 # filled after the page ran: a page that opens another study renames it at once

@@ -36,7 +36,9 @@ def origin_key(origin: dict) -> str:
     """A digest of where a study came from (for a file: its path and modification time)."""
     if origin["kind"] == "path":
         path = Path(origin["path"])
-        return _digest("path", str(path), path.stat().st_mtime_ns if path.exists() else 0)
+        # "revision" is bumped when the workbench saves the runs (views/data.py)
+        return _digest("path", str(path), path.stat().st_mtime_ns if path.exists() else 0,
+                       origin.get("revision", 0))
     if origin["kind"] == "files":
         return _digest("files", *[(n, _digest(b)) for n, b in sorted(origin["files"].items())])
     return _digest("draft", origin["name"], _digest(origin["data"]), origin["factors"],
@@ -411,3 +413,69 @@ def cox_traces(study, fitted, held: dict):
     """Every response along each component's Cox direction through the reference blend
     (``tradeoff.maps.mixture_tables.mixture_trace``)."""
     return _cox_traces(study_keys(study)[0], study, fitted, _held_items(held))
+
+
+# -- plans: ``tradeoff plan`` run on the open study's file --------------------------------
+__all__ += ["study_file_path", "plan"]
+
+
+@st.cache_resource(max_entries=8, show_spinner=False)
+def _study_file_path(key: str, _origin: dict, _study) -> str:
+    import tempfile
+
+    from tradeoff.report.exports import study_toml_bytes
+    from tradeoff.study.files import write_atomic
+
+    # a scratch copy for the plan command, never the user's files
+    folder = Path(tempfile.mkdtemp(prefix="tradeoff-plan-study-"))
+    if _origin["kind"] == "files":
+        for name, data in _origin["files"].items():
+            write_atomic(folder / Path(name).name, data)
+        name = next(n for n in _origin["files"] if n.lower().endswith(".toml"))
+        return str(folder / Path(name).name)
+    path = folder / Path(_origin["name"]).with_suffix(".toml").name
+    write_atomic(path, study_toml_bytes(_study))
+    if _study.data_path is not None:
+        write_atomic(folder / _study.data_path.name, _origin["data"])
+    return str(path)
+
+
+def study_file_path(study) -> str:
+    """A study file on this computer for the open study (a scratch copy of uploads)."""
+    origin = st.session_state["origin"]
+    if origin["kind"] == "path":
+        return origin["path"]
+    return _study_file_path(origin_key(origin), origin, study)
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _plan(key: str, path: str, options: tuple):
+    from tradeoff.plan.plan_request import plan_request
+
+    return plan_request(path, **dict(options))
+
+
+def plan(study, options: dict):
+    """``tradeoff plan`` with these options on the open study (cached by study and options)."""
+    path = study_file_path(study)
+    with st.spinner("Planning the runs..."):
+        return _plan(origin_key(st.session_state["origin"]), path,
+                     tuple(sorted(options.items())))
+
+
+# -- pinned recipes side by side -----------------------------------------------------------
+__all__ += ["recipes_side_by_side"]
+
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def _recipes_side_by_side(key: str, _study, _fit, items: tuple):
+    from tradeoff.maps.recipe_compare import compare_recipes
+
+    return compare_recipes(_study, _fit, {label: dict(s) for label, s in items})
+
+
+def recipes_side_by_side(study, fitted, recipes: dict):
+    """Pinned recipes compared (``tradeoff.maps.recipe_compare.compare_recipes``)."""
+    items = tuple((label, tuple((k, v if isinstance(v, str) else float(v))
+                                for k, v in s.items())) for label, s in recipes.items())
+    return _recipes_side_by_side(study_keys(study)[1], study, fitted, items)

@@ -13,7 +13,7 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 
-__all__ = ["init", "open_origin", "study_argument", "KEYS"]
+__all__ = ["init", "open_origin", "study_argument", "pin_recipe", "KEYS"]
 
 # key -> what it holds. Defaults are built in ``init``.
 KEYS = {
@@ -51,7 +51,27 @@ KEYS = {
     # the new-study view (ui/views/new_study.py)
     "new_draft": "the study being drafted: {'data': data file name, 'draft': Draft as a dict}",
     "new_data": "the bytes of the drafted study's data table (None: drafted from scratch)",
+    "pins": "label -> settings (natural units) of the recipes pinned to compare, at most 3",
+    "confirm_typed": "the confirmation runs typed on the confirm view, not saved yet "
+                     "(a table; None: start from what the study lists)",
+    "data_typed": "the runs table as edited on the data view, not saved yet (None: none)",
+    "editor_nonce": "bumped when a table editor's edits are folded into its table "
+                    "(ui/editing.py): the editor starts again from that table",
 }
+
+MAX_PINS = 3
+
+
+def pin_recipe(label: str, settings: dict) -> str:
+    """Pin a recipe to compare; returns one line saying what happened."""
+    pins = st.session_state["pins"]
+    if label in pins:
+        pins[label] = dict(settings)
+        return f"{label} is pinned (updated)."
+    if len(pins) >= MAX_PINS:
+        return f"Already {MAX_PINS} recipes pinned: unpin one on the compare view first."
+    pins[label] = dict(settings)
+    return f"{label} pinned: see it on the compare view."
 
 
 def study_argument(argv: list[str] | None = None) -> str | None:
@@ -81,6 +101,9 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["whatif_from"] = None
     st.session_state["compare_shown"] = set()
     st.session_state["next_runs"] = 0
+    st.session_state["pins"] = {}
+    st.session_state["confirm_typed"] = None
+    st.session_state["data_typed"] = None
 
 
 def init() -> None:
@@ -92,7 +115,8 @@ def init() -> None:
                 "aim": "balance", "spread": {},
                 "whatif_from": None, "compare_shown": set(), "next_runs": 0,
                 "frontier_nonce": 0, "frontier_seen": None,
-                "new_draft": None, "new_data": None}
+                "new_draft": None, "new_data": None,
+                "pins": {}, "confirm_typed": None, "data_typed": None, "editor_nonce": 0}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

@@ -356,6 +356,8 @@ class WhatIf:
         is scaled to it (same shares; ``notes`` says so).
     notes : tuple of str
         What the reader must know about the recipe (a blend off its total).
+    factor_desirability : dict
+        Factor name -> d of each factor with a goal (it takes part in D too).
     """
 
     table: pd.DataFrame
@@ -365,6 +367,7 @@ class WhatIf:
     allowed: bool
     settings: dict | None = None
     notes: tuple = ()
+    factor_desirability: dict | None = None
 
 
 def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
@@ -437,7 +440,9 @@ def what_if(study, fit, settings: dict, *, draws: int = 20000) -> WhatIf:
     return WhatIf(table=table, desirability=D,
                   chance_all=float(chance.all[0]) if chance.responses else np.nan,
                   outside=outside, allowed=bool(rules_satisfied(study, X)[0]),
-                  settings=used, notes=tuple(notes))
+                  settings=used, notes=tuple(notes),
+                  factor_desirability={n: d for n, d in d_by_name.items()
+                                       if n in study.factor_names})
 
 
 def _beyond(factor, value: float, coded: float) -> bool:

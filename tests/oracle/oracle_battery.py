@@ -46,6 +46,10 @@ loads and fits the same study through the public API, and checks:
   direction and ``optimize --weights-sensitivity --json`` keep their invariants
   (oracle_frontier.py: no point dominated, every point within every limit, the
   D optimum's D the search's, each change's move its coded distance);
+- ``loop``: the workbench's plan is the plan command's file byte for byte;
+  pinned solutions side by side show the models' predictions and intervals
+  and each one's own what-if D; a batch sheet's grams add up exactly to the
+  batch, each within a scale step of its share (oracle_loop.py);
 - ``derive``: derived responses equal a recomputation from the raw storage
   and panel tables (oracle_derive.py); ``panel``: the panel command's run F
   and degrees of freedom equal a recomputation (mapped, wide and
@@ -73,6 +77,7 @@ from pathlib import Path
 from oracle_checks import (check_confirm, check_fit, check_next, check_plan, check_report_html,
                            check_report_xlsx, check_solutions, check_unused, check_display,
                            check_unjudged, goals_of)
+from oracle_loop import check_loop
 from oracle_derive import check_derived, check_panel
 from oracle_draft import check_draft
 from oracle_fit_text import check_fit_text
@@ -272,6 +277,8 @@ def _battery(generated, folder, path, cli, outcome, seed, charts):
         check_plan(generated, study, sheet, plan_args, outcome)
         if "definitive-screening" in plan_args:
             check_screening_plan(generated, study, sheet, outcome)
+    check_loop(generated, study, fit, result, path, sheet if rc == 0 else None, plan_args,
+               outcome)
 
     with _charts(charts):
         page = folder / "report.html"

@@ -10,7 +10,8 @@ from tradeoff.maps.pictures import limits_note
 from tradeoff.maps.trace_picture import trace_note
 from tradeoff.search.chance import CHANCE_RULE, NOT_STATED, chance_text
 from tradeoff.search.result import fewer_solutions_text
-from tradeoff_ui import cached, charts, frontier_panel, new_guide, panels, text, triangle, what_if
+from tradeoff_ui import (cached, charts, frontier_panel, new_guide, panels, state, text,
+                         triangle, what_if)
 from tradeoff_ui.shown import blank_none, num, span
 
 ss = st.session_state
@@ -114,6 +115,9 @@ chosen_label = st.selectbox("Look closer at", labels,
 ss["chosen"] = labels.index(chosen_label)
 chosen = result.solutions[ss["chosen"]]
 chosen = frontier_panel.frontier_panel(study, fitted, result, chosen)  # a picked point
+# a solution or a picked frontier point, pinned to compare (views/compare.py)
+if st.button(f"Pin {text.plain(chosen.label)} to compare", key="r_pin"):
+    st.toast(text.plain(state.pin_recipe(chosen.label, chosen.settings)))
 
 pct = f"{study.confidence:.0%}"
 production = chosen.chance_all_production is not None
@@ -261,6 +265,9 @@ else:
 
 # -- what-if ------------------------------------------------------------------------------
 what_if.what_if_panel(study, fitted, chosen, pct)
+if st.button("Pin these what-if settings to compare", key="r_pin_whatif"):
+    _n = sum(k.startswith("what-if") for k in ss["pins"]) + 1
+    st.toast(text.plain(state.pin_recipe(f"what-if {_n}", ss["whatif"])))
 
 # -- make next ----------------------------------------------------------------------------
 panels.make_next(study, fitted, result.best)

@@ -1,0 +1,98 @@
+"""Confirmation runs typed in (in the workbench's table) rather than read from a file.
+
+The typed table goes through the same reader and checks as a confirmation file
+the study names (``[[confirmations]] data = "..."``): it is handed over as that
+file's bytes, so a cell the command would refuse is refused with the same
+message, naming the row and the column. Nothing is written until the user saves:
+then the table is written beside the study file and, when the study does not
+name it yet, one ``[[confirmations]]`` table naming it is added at the end of the
+study file (the rest of the file, comments included, stays as it was).
+"""
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pandas as pd
+
+from ..errors import StudyError
+
+__all__ = ["entered_name", "entered_table", "entered_study", "save_entered",
+           "study_file_addition"]
+
+
+def entered_name(study) -> str:
+    """The file name the typed confirmation runs are kept under, beside the study file."""
+    stem = Path(study.source).stem if study.source is not None else "study"
+    return f"{stem}_confirmations.csv"
+
+
+def entered_table(study, table: pd.DataFrame) -> bytes:
+    """The typed runs as the CSV the study will name (columns: run, factors, responses).
+
+    Empty rows (every cell blank) are left out, as a lab leaves a spare line.
+    """
+    from ..study.safe_cells import csv_bytes
+
+    columns = ["run"] + study.factor_names + study.response_names
+    frame = table.reindex(columns=columns).astype(object)
+    blank = frame.isna() | frame.apply(lambda col: col.map(lambda v: str(v).strip() == ""))
+    frame = frame.where(~blank, None)
+    frame = frame[frame.notna().any(axis=1)]
+    return csv_bytes(frame)
+
+
+def _names_it(study, name: str) -> bool:
+    entries = study.spec.get("confirmations", [])
+    return any(isinstance(e, dict) and isinstance(e.get("data"), str)
+               and Path(e["data"].strip()).name == name for e in entries or [])
+
+
+def entered_study(study, table: pd.DataFrame) -> tuple[object, dict[str, bytes]]:
+    """The study as it will be once the typed runs are saved, and the files to hand over.
+
+    Returns the study (its ``[[confirmations]]`` naming the typed table) and
+    ``{file name: bytes}`` for ``check_confirmations(..., files=...)``.
+    """
+    name = entered_name(study)
+    data = entered_table(study, table)
+    spec = dict(study.spec)
+    entries = list(spec.get("confirmations", []) or [])
+    if not _names_it(study, name):
+        entries.append({"data": name})
+    spec["confirmations"] = entries
+    return dataclasses.replace(study, spec=spec), {name: data}
+
+
+def study_file_addition(study) -> str:
+    """The lines saving adds at the end of the study file ("" when it names the table)."""
+    name = entered_name(study)
+    if _names_it(study, name):
+        return ""
+    return f'\n# confirmation runs typed in the workbench\n[[confirmations]]\ndata = "{name}"\n'
+
+
+def save_entered(study, table: pd.DataFrame) -> list[Path]:
+    """Write the typed runs beside the study file and name them in it, atomically.
+
+    Checks the runs first (as ``tradeoff confirm`` would read them) and writes
+    nothing when a cell is wrong. Returns the files written.
+    """
+    from ..study.confirmations import confirmation_runs
+    from ..study.files import write_atomic
+
+    if study.source is None or not Path(study.source).is_file():
+        raise StudyError("this study was not opened from a file on this computer: download "
+                         "the confirmation table instead and keep it beside the study file")
+    changed, files = entered_study(study, table)
+    confirmation_runs(changed, read_files=True, files=files)
+    source = Path(study.source)
+    [(name, data)] = files.items()
+    written = [write_atomic(source.parent / name, data, error=StudyError)]
+    addition = study_file_addition(study)
+    if addition:
+        text = source.read_text(encoding="utf-8")
+        if not text.endswith("\n"):
+            text += "\n"
+        written.append(write_atomic(source, text + addition, error=StudyError))
+    return written

@@ -1,0 +1,142 @@
+"""Confirmation runs: type what was measured at the chosen recipes and see each
+value against its prediction interval, as ``tradeoff confirm`` compares them."""
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from tradeoff import TradeoffError
+from tradeoff.confirm.check import check_confirmations
+from tradeoff.confirm.entered import (entered_name, entered_study, entered_table,
+                                      save_entered, study_file_addition)
+from tradeoff.study.confirmations import confirmation_runs
+from tradeoff_ui import cached, editing, panels, text
+
+ss = st.session_state
+
+# -- read state ---------------------------------------------------------------
+st.title("Confirmation runs")
+try:
+    study = cached.current_study()
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+    st.stop()
+panels.stop_without_factors(study)
+name = entered_name(study)
+origin = ss["origin"]
+columns = ["run"] + study.factor_names + study.response_names
+try:
+    listed = confirmation_runs(study, read_files=True)
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+    listed = pd.DataFrame(columns=["origin"] + columns)
+others = listed[listed["origin"] != name]
+if ss["confirm_typed"] is None:
+    mine = listed[listed["origin"] == name]
+    if len(mine):
+        start = mine[columns].reset_index(drop=True)
+    else:  # one row per pinned recipe (or none), measured values left blank
+        start = pd.DataFrame([{"run": "", **settings}
+                              for settings in ss["pins"].values()],
+                             columns=columns)
+    ss["confirm_typed"] = start.astype(object)
+
+# -- widgets: the table editor -------------------------------------------------------
+st.caption("One row per confirmation batch: its settings and what was measured (leave a "
+           "response blank if it was not measured). Several batches at the same settings "
+           "are averaged and compared with the interval for their mean. Nothing is saved "
+           "until you press save.")
+if len(others):
+    st.caption(f"The study already lists {len(others)} confirmation run(s) in its own "
+               "tables; they are checked together with the ones typed here.")
+if ss["pins"] and st.button("Add a row for each pinned recipe", key="cf_add_pins"):
+    rows = pd.DataFrame([{"run": "", **settings} for settings in ss["pins"].values()],
+                        columns=columns).astype(object)
+    ss["confirm_typed"] = pd.concat([ss["confirm_typed"], rows], ignore_index=True)
+    ss["editor_nonce"] += 1
+config = {}
+for f in study.factors:  # short headers, the label and unit on hover: every column in view
+    if f.is_categorical:
+        config[f.name] = st.column_config.SelectboxColumn(
+            f.name, options=list(f.levels), help=f.display(), width="small")
+    else:
+        config[f.name] = st.column_config.NumberColumn(f.name, format="%.6g",
+                                                       help=f.display(), width="small")
+for r in study.responses:
+    config[r.name] = st.column_config.NumberColumn(
+        r.name, format="%.6g", help=f"{r.label} ({r.unit})" if r.unit else r.label,
+        width="small")
+config["run"] = st.column_config.TextColumn("run id", width="small")
+edited = editing.kept_editor("confirm_typed", num_rows="dynamic", hide_index=True,
+                             column_config=config, width="stretch")
+
+# -- call the library ------------------------------------------------------------------
+measured = edited.reindex(columns=study.response_names).notna().any(axis=1).any()
+check = error = None
+if measured or len(others):
+    try:
+        changed, files = entered_study(study, edited)
+        check = check_confirmations(changed, fit=cached.fit(study), files=files)
+    except TradeoffError as exc:
+        error = text.plain(exc)
+if error:
+    st.error(error)
+    st.caption("Row numbers are those of the saved table, where the header is row 1.")
+
+# -- show: the comparison ------------------------------------------------------------------
+if check is not None:
+    st.subheader("Measured against the prediction intervals")
+    v = check.verdicts
+    st.dataframe(v[["label", "checked", "inside", "verdict", "advice"]], hide_index=True,
+                 width="stretch")
+    t = check.table
+    shown = t[["group", "runs", "m", "response", "measured", "predicted", "pi_low",
+               "pi_high", "inside"]].rename(columns={
+                   "pi_low": f"interval low ({check.confidence:.0%})",
+                   "pi_high": f"interval high ({check.confidence:.0%})",
+                   "m": "batches averaged"})
+    st.dataframe(shown, hide_index=True, width="stretch",
+                 column_config={c: st.column_config.NumberColumn(format="%.4g")
+                                for c in shown.columns if shown[c].dtype.kind == "f"})
+    if t["outside_region"].any():
+        st.warning("Some settings lie outside the tested region: the model was "
+                   "extrapolating there.")
+    with st.expander("As `tradeoff confirm` prints it"):
+        st.code(check.text(), language=None)
+elif not error:
+    st.info("Type the measured values of at least one confirmation batch to compare them "
+            "with the predictions.")
+
+# -- save ----------------------------------------------------------------------------------
+st.subheader("Keep them")
+try:
+    data = entered_table(study, edited)
+except TradeoffError as exc:
+    st.error(text.plain(exc))
+    st.stop()
+addition = study_file_addition(study)
+typed_runs = len(data.splitlines()) - 1
+st.download_button(f"Confirmation table ({name})", data, file_name=name, mime="text/csv",
+                   key="cf_download")
+with st.expander("What saving changes"):
+    st.write(f"Writes **{text.plain(name)}** beside the study file "
+             f"({typed_runs} runs).")
+    if addition:
+        st.write("Adds these lines at the end of the study file (nothing else in it "
+                 "changes):")
+        st.code(addition.strip("\n"), language="toml")
+    else:
+        st.write("The study file already names this table: it stays as it is.")
+if origin["kind"] == "path":
+    if st.button("Save beside the study file", type="primary", key="cf_save",
+                 disabled=bool(error)):
+        try:
+            written = save_entered(study, edited)
+        except TradeoffError as exc:
+            st.error(text.plain(exc))
+        else:
+            ss["confirm_typed"] = None
+            st.success("Saved: " + text.plain(", ".join(p.name for p in written)))
+else:
+    st.caption("This study was uploaded, so nothing can be saved beside it here: download "
+               "the table, keep it beside your study file and add the lines above to it.")
