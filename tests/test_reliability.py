@@ -505,12 +505,15 @@ def test_workbench_upload_of_a_damaged_workbook_keeps_the_open_study():
     errors = [e.value for e in at.error]
     assert any("runs.xlsx: cannot open it as an Excel workbook" in e for e in errors)
     assert [h.value for h in at.header] == header  # the demo study stays open
-    # a bare table with a unit typed into a response cell: named row and column
-    at.file_uploader[0].set_value(("bars.csv", _runs("27.0", "27 N").encode(),
-                                   "text/csv")).run()
-    at.multiselect[1].set_value(["hardness"])
-    at.button[1].click().run()  # the form's submit button (after the demo button)
+    # a bare table goes on to 'New study', and the open study stays
+    data = _runs("27.0", "27 N").encode()
+    at.file_uploader[0].set_value(("bars.csv", data, "text/csv")).run()
     assert not at.exception
-    assert any("bars.csv, row 3: response column 'hardness' holds text ('27 N')"
-               in e.value for e in at.error)
+    assert any("bars.csv is a data table without a study file" in i.value for i in at.info)
     assert [h.value for h in at.header] == header
+    # there, a unit typed into a response cell is named by row and column
+    from tradeoff.study.draft import draft_problems, guess_draft, with_column
+
+    draft = with_column(guess_draft("bars.csv", data), "hardness", role="response")
+    assert any("bars.csv, row 3, column 'hardness': expected a number, found '27 N'" in p
+               for p in draft_problems(draft, data))

@@ -99,21 +99,24 @@ class _FrontierSections(_Sections):
         factors = [c[6:] for c in ch.columns if c.startswith("shift:")]
         preds = [c[5:] for c in ch.columns if c.startswith("pred:")]
         if len(moved):
+            # two tables, settings then predictions, so each fits the page's width
+            records = moved.to_dict("records")
             head = (["change", "moved (coded)", "D"]
-                    + [esc(self._item(f).display()) for f in factors]
-                    + ["levels"] + [f"{esc(r)} shift" for r in preds])
-            rows = []
-            for r in moved.to_dict("records"):
-                rows.append([esc(r["words"]), f"{r['move']:.3f}",
-                             f"{r['D']:.3f}" if r["feasible"] else "none"]
-                            + [_shift(r[f"shift:{f}"], s.baseline["settings"][f])
-                               for f in factors]
-                            + [esc(r["levels_changed"]) or "same"]
-                            + [_shift(r[f"pred:{p}"], s.baseline["predicted"][p])
-                               for p in preds])
-            out.append("<p>The changes that move it (shifts from the recommendation, in "
-                       "each factor's and response's units):</p><div class='scroll'>"
+                    + [esc(self._item(f).display()) for f in factors] + ["levels"])
+            rows = [[esc(r["words"]), f"{r['move']:.3f}",
+                     f"{r['D']:.3f}" if r["feasible"] else "none"]
+                    + [_shift(r[f"shift:{f}"], s.baseline["settings"][f]) for f in factors]
+                    + [esc(r["levels_changed"]) or "same"] for r in records]
+            out.append("<p>The changes that move it, and how far each setting moves (in "
+                       "its own units):</p><div class='scroll'>"
                        + _table(head, rows, raw=True) + "</div>")
+            head = ["change"] + [esc(self._item(p).display()) for p in preds]
+            rows = [[esc(r["words"])]
+                    + [_shift(r[f"pred:{p}"], s.baseline["predicted"][p]) for p in preds]
+                    for r in records]
+            out.append("<p>How far each response's prediction moves with them (in its own "
+                       "units):</p><div class='scroll'>" + _table(head, rows, raw=True)
+                       + "</div>")
         still = len(ch) - len(moved)
         if still:
             out.append(f"<p class='note'>The other {still} changes leave the settings "

@@ -177,7 +177,10 @@ def _results_checks(page, study, result) -> None:
     best = tradeoff.chance_text(result.best.chance_all)
     # the same rule (tradeoff.chance_text) in the sentence and the table
     assert sentence == best and best in _table_text(page, 0)  # solutions
-    for cell in re.findall(r"[<>]? ?\d+(?:\.\d+)? %", text):
+    # every chance on the page (a clause that speaks of a chance or the limits);
+    # other percentages are settings or amounts in their own unit
+    clauses = [c for c in re.split(r"[,;\n]", text) if re.search(r"chance|limits", c, re.I)]
+    for cell in re.findall(r"[<>]? ?\d+(?:\.\d+)? %", "\n".join(clauses)):
         assert CHANCE.match(cell.strip()), cell
     second = result.solutions[1]
     page.locator(".st-key-r_chosen").click()
