@@ -54,9 +54,9 @@ def test_typed_runs_give_the_command_numbers(snack, capsys):
 def test_a_wrong_cell_is_named_and_nothing_is_written(snack):
     study = load_study(snack)
     bad = TYPED.copy()
-    bad.loc[1, "binder"] = "honey"
+    bad.loc[1, "binder"] = "gelatin"
     before = snack.read_text()
-    with pytest.raises(DataError, match=r"row 3.*binder.*honey"):
+    with pytest.raises(DataError, match=r"row 3.*binder.*gelatin"):
         save_entered(study, bad)
     assert snack.read_text() == before
     assert not (snack.parent / "snack_bar_confirmations.csv").exists()
