@@ -2,7 +2,8 @@
 
 Every browser session gets an id, written into the page address
 (``?session=<id>``). After each interaction the study's whereabouts, the
-goals, weights, model choices and search options (and a study being drafted)
+goals, weights, model choices and search options, the pinned recipes, the
+tables typed and not saved yet, the batch sheet's choices (and a study being drafted)
 are written to ``<sessions folder>/<id>.session.json`` (tradeoff.study.session);
 uploaded or drafted files are kept beside it in ``<id>/``. Opening the same
 address again (a reload, a bookmark, a new tab, after a restart) reads it back.
@@ -22,6 +23,7 @@ import re
 import secrets
 from pathlib import Path
 
+import pandas as pd
 import streamlit as st
 
 from tradeoff import TradeoffError
@@ -108,6 +110,18 @@ def apply(kept: dict, study) -> None:
     ss["spread"].update({n: v for n, v in kept["spread"].items() if n in ss["spread"]})
     ss["top"], ss["rank_by"], ss["aim"] = kept["top"], kept["rank_by"], kept["aim"]
     ss["chosen"] = kept["chosen"]
+    factors = set(study.factor_names)
+    ss["pins"] = {label: settings for label, settings in kept["pins"].items()
+                  if set(settings) == factors}
+    for name, key, columns in (
+            ("confirm", "confirm_typed",
+             ["run", *study.factor_names, *study.response_names]),
+            ("data", "data_typed", None)):
+        table = kept["typed"].get(name)
+        if table is not None and (columns is None or table["columns"] == columns):
+            ss[key] = pd.DataFrame(table["rows"], columns=table["columns"]).astype(object)
+            ss["data_changed"] = ss["data_changed"] or name == "data"
+    ss["batch"] = dict(kept["batch"])
     draft = kept.get("draft")
     sid = ss.get("session_id")
     if draft and sid:
@@ -154,7 +168,11 @@ def keep() -> None:
         text = session_text(study=study, goals=ss["goals"], models=ss["models"],
                             reduce=ss["reduce"], top=ss["top"], rank_by=ss["rank_by"],
                             aim=ss["aim"], spread=ss["spread"], chosen=ss["chosen"],
-                            draft=draft)
+                            draft=draft, pins=ss["pins"], batch=ss["batch"],
+                            typed={"confirm": ss["confirm_typed"],
+                                   # the runs table only when edited: an untouched copy
+                                   # must not hide later changes to the file itself
+                                   "data": ss["data_typed"] if ss["data_changed"] else None})
         if text == ss.get("kept_text"):
             return
         sessions_dir().mkdir(parents=True, exist_ok=True)

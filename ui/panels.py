@@ -13,7 +13,7 @@ from tradeoff import TradeoffError
 from tradeoff_ui import cached, charts, text
 
 __all__ = ["smooth_model", "model_comparison", "make_next", "stop_without_factors",
-           "show_notices"]
+           "show_notices", "study_or_stop", "recipes_to_make", "sheet_for"]
 
 
 def show_notices(texts, *, cautions=None, shown=()) -> list[str]:
@@ -47,6 +47,48 @@ def show_notices(texts, *, cautions=None, shown=()) -> list[str]:
     if cautions is not None and found:
         cautions.info(text.plain(" ".join([*shown, *found])), icon=":material/info:")
     return found
+
+
+def study_or_stop(*, factors: bool = True):
+    """The open study; a study that cannot be read stops the view with its one-line
+    message, and (``factors``) so does a study that varies no factor."""
+    try:
+        study = cached.current_study()
+    except TradeoffError as exc:
+        st.error(text.plain(exc))
+        st.stop()
+    if factors:
+        stop_without_factors(study)
+    return study
+
+
+def recipes_to_make(study) -> tuple[dict[str, dict], str | None]:
+    """The recipes to make (label -> settings): those pinned, else the best balance
+    (with a line saying so). A search that fails stops the view with its message."""
+    if st.session_state["pins"]:
+        return dict(st.session_state["pins"]), None
+    try:
+        best = cached.optimize(study, cached.fit(study)).best
+    except TradeoffError as exc:
+        st.error(text.plain(exc))
+        st.stop()
+    return {best.label: dict(best.settings)}, (
+        f"No recipe pinned: the sheet is for the best balance, {text.plain(best.label)}. "
+        "Pin others on Recommended settings to make them too.")
+
+
+def sheet_for(study, recipes: dict[str, dict], choices: dict):
+    """The batch sheet of ``recipes`` with the batch sheet view's choices
+    (``st.session_state["batch"]``; tradeoff.study.session.BATCH_KEYS)."""
+    from tradeoff.confirm.batch_sheet import batch_sheet
+
+    made = {k: v for k, v in recipes.items() if k not in choices.get("left_out", [])}
+    return batch_sheet(study, made, batch_g=float(choices.get("size_g", 1000.0)),
+                       step_g=float(choices.get("step_g", 1.0)),
+                       batches=int(choices.get("batches", 2)),
+                       seed=int(choices.get("seed", study.seed)),
+                       percent_factors=tuple(choices.get("percent", ())),
+                       rest=choices.get("rest") or "rest of the recipe")
 
 
 def stop_without_factors(study) -> None:

@@ -55,6 +55,9 @@ KEYS = {
     "confirm_typed": "the confirmation runs typed on the confirm view, not saved yet "
                      "(a table; None: start from what the study lists)",
     "data_typed": "the runs table as edited on the data view, not saved yet (None: none)",
+    "data_changed": "True while the runs table on the data view differs from the file",
+    "batch": "the batch sheet's choices: size_g, step_g, batches, seed, recipes, percent, "
+             "rest (tradeoff.study.session.BATCH_KEYS); empty: the defaults",
     "editor_nonce": "bumped when a table editor's edits are folded into its table "
                     "(ui/editing.py): the editor starts again from that table",
 }
@@ -104,6 +107,8 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["pins"] = {}
     st.session_state["confirm_typed"] = None
     st.session_state["data_typed"] = None
+    st.session_state["data_changed"] = False
+    st.session_state["batch"] = {}
 
 
 def init() -> None:
@@ -116,7 +121,8 @@ def init() -> None:
                 "whatif_from": None, "compare_shown": set(), "next_runs": 0,
                 "frontier_nonce": 0, "frontier_seen": None,
                 "new_draft": None, "new_data": None,
-                "pins": {}, "confirm_typed": None, "data_typed": None, "editor_nonce": 0}
+                "pins": {}, "confirm_typed": None, "data_typed": None, "editor_nonce": 0,
+                "data_changed": False, "batch": {}}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

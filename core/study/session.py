@@ -10,12 +10,20 @@ A plain JSON text of our own design (README, "The workbench keeps your work"):
  "goals": {"crumb_hardness": {"goal": "minimize", "lower": 4, "upper": 8, "weight": 2}},
  "models": {"crumb_hardness": "quadratic", "volume": ["A", "B", "A:B"]},
  "reduce": ["volume"], "top": 5, "rank_by": "desirability", "aim": "balance",
- "spread": {"bake_temp": 1.5}, "chosen": 0}
+ "spread": {"bake_temp": 1.5}, "chosen": 0,
+ "pins": {"best balance": {"bake_temp": 182.5, "flour": "rice"}},
+ "typed": {"confirm": {"columns": ["run", "bake_temp", "volume"],
+                       "rows": [["C1", 182.5, null]]}},
+ "batch": {"size_g": 750, "step_g": 1, "batches": 2, "seed": 11,
+           "left_out": [], "percent": [], "rest": "rest of the recipe"}}
 ```
 
 ``study`` says where the open study is: a file on disk, or files kept in the
 workbench's own folder (uploads, and studies drafted in the workbench).
 ``draft`` is a study being drafted on the "new study" view (study/draft.py).
+``pins`` are the recipes pinned to compare, ``typed`` the tables typed in the
+workbench and not saved yet (confirmation runs, corrected runs: blank cells are
+``null``), ``batch`` the choices of the batch sheet; all three may be absent.
 Goals are written with the study file's own goal keys and read back through
 the study reader's goal check, so a session file can never hold a goal the
 study file could not. Nothing here touches the user's study or data files.
@@ -23,17 +31,47 @@ study file could not. Nothing here touches the user's study or data files.
 from __future__ import annotations
 
 import json
+import math
+
+import pandas as pd
 
 from ..errors import StudyError
 from .reader import _goal
 from .spec import MODELS, Goal
 
-__all__ = ["SESSION_KIND", "SESSION_SUFFIX", "session_text", "read_session"]
+__all__ = ["SESSION_KIND", "SESSION_SUFFIX", "session_text", "read_session", "table_json",
+           "BATCH_KEYS"]
 
 SESSION_KIND = "tradeoff workbench session"
 SESSION_SUFFIX = ".session.json"
 _RANKS = ("desirability", "chance", "production")
 _AIMS = ("balance", "production")
+# the batch sheet's choices: key -> the type its value must have
+BATCH_KEYS = {"size_g": float, "step_g": float, "batches": int, "seed": int,
+              "left_out": list, "percent": list, "rest": str}
+
+
+def _cell(value):
+    """A table cell as JSON holds it: blanks (None, NaN, pandas' NA) become null."""
+    if value is None or isinstance(value, str):
+        return value
+    if isinstance(value, bool):
+        return str(value)  # a ticked box kept as its word: the file holds no booleans
+    if value is pd.NA or value is pd.NaT:
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return str(value)
+    if math.isnan(number):
+        return None
+    return int(number) if number.is_integer() and abs(number) < 2**53 else number
+
+
+def table_json(frame) -> dict:
+    """A typed table (a DataFrame) as ``{"columns": [...], "rows": [[...], ...]}``."""
+    return {"columns": [str(c) for c in frame.columns],
+            "rows": [[_cell(v) for v in row] for row in frame.itertuples(index=False)]}
 
 
 def _goal_table(goal: Goal) -> dict:
@@ -52,13 +90,22 @@ def _goal_table(goal: Goal) -> dict:
 def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=(),
                  top: int = 5, rank_by: str = "desirability", aim: str = "balance",
                  spread: dict | None = None, chosen: int = 0,
-                 draft: dict | None = None) -> str:
-    """The session as JSON text (keys sorted, so an unchanged session writes the same bytes)."""
+                 draft: dict | None = None, pins: dict | None = None,
+                 typed: dict | None = None, batch: dict | None = None) -> str:
+    """The session as JSON text (keys sorted, so an unchanged session writes the same bytes).
+
+    ``pins`` maps a recipe's label to its settings, ``typed`` a table's name to
+    the table (a DataFrame, or None for none), ``batch`` the batch sheet's choices.
+    """
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
            "goals": {n: _goal_table(g) for n, g in goals.items()},
            "models": {n: m if isinstance(m, str) else list(m) for n, m in models.items()},
            "reduce": sorted(reduce), "top": int(top), "rank_by": rank_by, "aim": aim,
-           "spread": dict(spread or {}), "chosen": int(chosen), "draft": draft}
+           "spread": dict(spread or {}), "chosen": int(chosen), "draft": draft,
+           "pins": {label: {n: _cell(v) for n, v in settings.items()}
+                    for label, settings in (pins or {}).items()},
+           "typed": {n: table_json(t) for n, t in (typed or {}).items() if t is not None},
+           "batch": dict(batch or {})}
     return json.dumps(doc, indent=1, sort_keys=True, ensure_ascii=False) + "\n"
 
 
@@ -124,4 +171,49 @@ def read_session(text: str | bytes, name: str) -> dict:
         raise StudyError(f"{name}: \"reduce\" must be a list of response names")
     return {"study": study, "goals": goals, "models": models, "reduce": set(reduce),
             "top": max(1, top), "rank_by": rank_by, "aim": aim, "spread": spread,
-            "chosen": chosen, "draft": draft}
+            "chosen": chosen, "draft": draft, "pins": _pins(doc.get("pins"), name),
+            "typed": _typed(doc.get("typed"), name), "batch": _batch(doc.get("batch"), name)}
+
+
+def _scalar(value) -> bool:
+    return value is None or (isinstance(value, (int, float, str))
+                             and not isinstance(value, bool))
+
+
+def _pins(pins, name: str) -> dict:
+    pins = pins or {}
+    if not isinstance(pins, dict) or not all(
+            isinstance(s, dict) and all(_scalar(v) and v is not None for v in s.values())
+            for s in pins.values()):
+        raise StudyError(f"{name}: \"pins\" must give each pinned recipe's settings as "
+                         "numbers or levels")
+    return {str(label): dict(settings) for label, settings in pins.items()}
+
+
+def _typed(typed, name: str) -> dict:
+    typed = typed or {}
+    if not isinstance(typed, dict):
+        raise StudyError(f"{name}: \"typed\" must hold the typed tables by name")
+    for table_name, table in typed.items():
+        columns = table.get("columns") if isinstance(table, dict) else None
+        rows = table.get("rows") if isinstance(table, dict) else None
+        if not (isinstance(columns, list) and all(isinstance(c, str) for c in columns)
+                and isinstance(rows, list) and all(
+                    isinstance(r, list) and len(r) == len(columns)
+                    and all(_scalar(v) for v in r) for r in rows)):
+            raise StudyError(f"{name}: the typed table '{table_name}' must have "
+                             "\"columns\" and \"rows\" of as many cells")
+    return {str(n): t for n, t in typed.items()}
+
+
+def _batch(batch, name: str) -> dict:
+    batch = batch or {}
+    if not isinstance(batch, dict):
+        raise StudyError(f"{name}: \"batch\" must hold the batch sheet's choices")
+    for key, value in batch.items():
+        kind = BATCH_KEYS.get(key)
+        fits = kind is not None and not isinstance(value, bool) and (
+            isinstance(value, (int, float)) if kind is float else isinstance(value, kind))
+        if not fits:
+            raise StudyError(f"{name}: the batch sheet's \"{key}\" cannot be {value!r}")
+    return dict(batch)

@@ -96,3 +96,38 @@ def test_a_removed_goal_leaves_the_file():
     after = tomllib.loads(updated_study_text(original, study))
     assert after["responses"][1] == {"name": "crumb_hardness",
                                      "label": "Crumb hardness, day 1", "unit": "N"}
+
+
+def test_pins_typed_tables_and_batch_choices_round_trip():
+    import numpy as np
+    import pandas as pd
+
+    typed = pd.DataFrame({"run": ["C1", None], "temp": [np.float64(182.5), np.nan],
+                          "flour": ["rice", "rice"], "volume": [pd.NA, np.int64(3)]}
+                         ).astype(object)
+    pins = {"S1": {"temp": np.float64(182.5), "flour": "rice"}}
+    batch = {"size_g": 750.0, "step_g": 1.0, "batches": 2, "seed": 3, "left_out": [],
+             "percent": ["temp"], "rest": "rest of the recipe"}
+    text = session_text(study={"kind": "path", "path": "/lab/x.toml"}, goals={},
+                        models={}, pins=pins, typed={"confirm": typed, "data": None},
+                        batch=batch)
+    back = read_session(text, "x.session.json")
+    assert back["pins"] == {"S1": {"temp": 182.5, "flour": "rice"}}
+    assert back["batch"] == batch
+    # blanks of every kind come back as null; numbers as numbers
+    assert back["typed"] == {"confirm": {"columns": ["run", "temp", "flour", "volume"],
+                                         "rows": [["C1", 182.5, "rice", None],
+                                                  [None, None, "rice", 3]]}}
+
+
+@pytest.mark.parametrize("extra, match", [
+    ('"pins": {"S1": {"t": [1]}}', '"pins" must give'),
+    ('"typed": {"confirm": {"columns": ["a"], "rows": [[1, 2]]}}', "as many cells"),
+    ('"batch": {"size_g": "big"}', "\"size_g\" cannot be 'big'"),
+    ('"batch": {"colour": 1}', "\"colour\" cannot be 1"),
+])
+def test_bad_kept_tables_and_choices_say_so(extra, match):
+    text = ('{"kind": "tradeoff workbench session", "version": 1, "study": {"kind": "path"},'
+            f' {extra}}}')
+    with pytest.raises(StudyError, match=match):
+        read_session(text, "x.session.json")

@@ -145,3 +145,47 @@ def test_a_wrong_cell_is_named_and_a_saved_correction_is_used(snack):
     # the views read the saved runs
     at.switch_page("views/study.py").run()
     assert not at.error
+
+
+def test_a_reload_keeps_pins_batch_choices_and_typed_tables():
+    """What is pinned, chosen for the batch sheet and typed but not saved comes back
+    in a new browser session at the same address (a reload, a new tab)."""
+    at = _at()
+    _pin_two(at)
+    at.switch_page("views/batch.py").run()
+    next(n for n in at.number_input if n.label == "Batch size (g)").set_value(750.0).run()
+    order = at.dataframe[2].value
+    # the confirm table starts from the batch sheet's batches, in its run order
+    at.switch_page("views/confirm.py").run()
+    typed = at.session_state["confirm_typed"]
+    assert typed["run"].tolist() == order["run"].tolist()
+    pins = at.session_state["pins"]
+    for run, recipe, (_, row) in zip(order["run"], order["recipe"], typed.iterrows()):
+        assert {n: row[n] for n in pins[recipe]} == pins[recipe], run
+    typed = typed.copy()
+    typed.loc[0, "hardness_fresh"] = 17.5
+    at.session_state["confirm_typed"] = typed
+    at.run()
+    at.switch_page("views/data.py").run()
+    runs = at.session_state["data_typed"].copy()
+    runs.loc[runs.index[0], "liking"] = "1.5"
+    at.session_state["data_typed"] = runs
+    at.run()
+    sid = at.query_params["session"]
+    if isinstance(sid, list):
+        sid = sid[0]
+
+    again = AppTest.from_file(APP, default_timeout=120)
+    again.query_params["session"] = sid
+    again.run()
+    assert not again.exception, again.exception
+    assert again.session_state["pins"] == pins
+    assert again.session_state["batch"]["size_g"] == 750.0
+    back = again.session_state["confirm_typed"]
+    assert back.loc[0, "hardness_fresh"] == 17.5
+    assert back["run"].tolist() == order["run"].tolist()
+    assert again.session_state["data_typed"].loc[0, "liking"] == "1.5"
+    again.switch_page("views/batch.py").run()
+    assert next(n for n in again.number_input if n.label == "Batch size (g)").value == 750.0
+    assert again.dataframe[0].value["weigh (g)"].groupby(
+        again.dataframe[0].value["recipe"]).sum().tolist() == [750.0, 750.0]

@@ -7,63 +7,60 @@ from pathlib import Path
 import streamlit as st
 
 from tradeoff import TradeoffError
-from tradeoff.confirm.batch_sheet import batch_sheet
 from tradeoff.study.safe_cells import csv_bytes, workbook_bytes
-from tradeoff_ui import cached, panels, text
+from tradeoff_ui import panels, text
 
 ss = st.session_state
 
 # -- read state ---------------------------------------------------------------
 st.title("Batch sheet")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
-recipes = dict(ss["pins"])
-if not recipes:
-    try:
-        best = cached.optimize(study, cached.fit(study)).best
-    except TradeoffError as exc:
-        st.error(text.plain(exc))
-        st.stop()
-    recipes = {best.label: dict(best.settings)}
-    st.caption(f"No recipe pinned: the sheet is for the best balance, "
-               f"{text.plain(best.label)}. Pin others on Recommended settings to make "
-               "them too.")
+study = panels.study_or_stop()
+recipes, note = panels.recipes_to_make(study)
+if note:
+    st.caption(note)
 epoch = ss.get("epoch", 0)
 
 # -- widgets --------------------------------------------------------------------
-chosen = st.multiselect("Recipes to make", list(recipes), default=list(recipes),
+# the choices live in ss["batch"] (kept across views and reloads), the widgets
+# start from them
+kept = ss["batch"]
+numeric = [f.name for f in study.factors if not f.is_categorical]
+chosen = st.multiselect("Recipes to make", list(recipes),
+                        default=[r for r in recipes if r not in kept.get("left_out", [])],
                         key=f"b_recipes_{epoch}")
 c1, c2, c3, c4 = st.columns(4)
-batch_g = c1.number_input("Batch size (g)", min_value=1.0, value=1000.0, step=100.0,
+steps = [0.01, 0.1, 0.5, 1.0, 5.0, 10.0]
+batch_g = c1.number_input("Batch size (g)", min_value=1.0,
+                          value=float(kept.get("size_g", 1000.0)), step=100.0,
                           key=f"b_size_{epoch}")
-step_g = c2.selectbox("Scale reads to (g)", [0.01, 0.1, 0.5, 1.0, 5.0, 10.0], index=3,
+step_g = c2.selectbox("Scale reads to (g)", steps,
+                      index=steps.index(kept["step_g"]) if kept.get("step_g") in steps else 3,
                       key=f"b_step_{epoch}")
-batches = int(c3.number_input("Confirmation batches of each", 1, 10, value=2,
+batches = int(c3.number_input("Confirmation batches of each", 1, 10,
+                              value=min(10, max(1, int(kept.get("batches", 2)))),
                               key=f"b_n_{epoch}"))
-seed = int(c4.number_input("Seed of the run order", 0, 2**31 - 1, value=int(study.seed),
-                           key=f"b_seed_{epoch}"))
+seed = int(c4.number_input("Seed of the run order", 0, 2**31 - 1,
+                           value=int(kept.get("seed", study.seed)), key=f"b_seed_{epoch}"))
 percent, rest = (), "rest of the recipe"
 if study.mixture is None:
-    numeric = [f.name for f in study.factors if not f.is_categorical]
     guess = [f.name for f in study.factors if not f.is_categorical and f.unit == "%"]
     p1, p2 = st.columns([3, 2])
     percent = tuple(p1.multiselect(
-        "Factors that are percent of the batch", numeric, default=guess,
+        "Factors that are percent of the batch", numeric,
+        default=[n for n in kept.get("percent", guess) if n in numeric],
         format_func=lambda n: study.factor(n).display(), key=f"b_pct_{epoch}",
         help="Their settings are read as percent of the whole batch; the rest of the "
              "batch makes up the balance. The others are process settings."))
-    rest = p2.text_input("Name of the rest of the batch", value="rest of the recipe",
+    rest = p2.text_input("Name of the rest of the batch",
+                         value=kept.get("rest", "rest of the recipe"),
                          key=f"b_rest_{epoch}") or "rest of the recipe"
+ss["batch"] = {"left_out": [r for r in recipes if r not in chosen], "size_g": float(batch_g),
+               "step_g": float(step_g), "batches": batches, "seed": seed,
+               "percent": list(percent), "rest": rest}
 
 # -- call the library -------------------------------------------------------------------
 try:
-    sheet = batch_sheet(study, {k: recipes[k] for k in chosen}, batch_g=float(batch_g),
-                        step_g=float(step_g), batches=batches, seed=seed,
-                        percent_factors=percent, rest=rest)
+    sheet = panels.sheet_for(study, recipes, ss["batch"])
 except TradeoffError as exc:
     st.error(text.plain(exc))
     st.stop()
@@ -92,7 +89,7 @@ if len(sheet.process):
 st.subheader("Make in this order")
 st.dataframe(sheet.order, hide_index=True, width="stretch")
 st.caption("A random order, so a drift over the day does not line up with one recipe. "
-           "Type the results on the Confirmation runs view.")
+           "The Confirmation runs view lists these batches, in this order, for their results.")
 
 stem = Path(study.source.name if study.source else "study").stem
 d1, d2, d3 = st.columns(3)

@@ -14,12 +14,7 @@ ss = st.session_state
 
 # -- read state ---------------------------------------------------------------
 st.title("Compare recipes")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
+study = panels.study_or_stop()
 pins = ss["pins"]
 if not pins:
     st.info("No recipe pinned yet. On **Recommended settings**, pin a solution "

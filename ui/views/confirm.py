@@ -16,12 +16,7 @@ ss = st.session_state
 
 # -- read state ---------------------------------------------------------------
 st.title("Confirmation runs")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
+study = panels.study_or_stop()
 name = entered_name(study)
 origin = ss["origin"]
 columns = ["run"] + study.factor_names + study.response_names
@@ -31,14 +26,31 @@ except TradeoffError as exc:
     st.error(text.plain(exc))
     listed = pd.DataFrame(columns=["origin"] + columns)
 others = listed[listed["origin"] != name]
+
+
+def _sheet_rows() -> pd.DataFrame:
+    """The batch sheet's confirmation batches in its run order, results blank."""
+    recipes, _ = panels.recipes_to_make(study)
+    try:
+        order = panels.sheet_for(study, recipes, ss["batch"]).order
+    except TradeoffError:
+        order = pd.DataFrame(columns=["run", "recipe"])
+    return pd.DataFrame([{"run": run, **recipes[recipe]} for run, recipe
+                         in zip(order["run"], order["recipe"])], columns=columns)
+
+
+def _pin_rows() -> pd.DataFrame:
+    """One row per pinned recipe, results blank."""
+    return pd.DataFrame([{"run": "", **settings} for settings in ss["pins"].values()],
+                        columns=columns)
+
+
 if ss["confirm_typed"] is None:
     mine = listed[listed["origin"] == name]
     if len(mine):
         start = mine[columns].reset_index(drop=True)
-    else:  # one row per pinned recipe (or none), measured values left blank
-        start = pd.DataFrame([{"run": "", **settings}
-                              for settings in ss["pins"].values()],
-                             columns=columns)
+    else:  # the batch sheet's batches once one was made, else the pinned recipes
+        start = _sheet_rows() if ss["batch"] else _pin_rows()
     ss["confirm_typed"] = start.astype(object)
 
 # -- widgets: the table editor -------------------------------------------------------
@@ -49,10 +61,16 @@ st.caption("One row per confirmation batch: its settings and what was measured (
 if len(others):
     st.caption(f"The study already lists {len(others)} confirmation run(s) in its own "
                "tables; they are checked together with the ones typed here.")
-if ss["pins"] and st.button("Add a row for each pinned recipe", key="cf_add_pins"):
-    rows = pd.DataFrame([{"run": "", **settings} for settings in ss["pins"].values()],
-                        columns=columns).astype(object)
-    ss["confirm_typed"] = pd.concat([ss["confirm_typed"], rows], ignore_index=True)
+b1, b2 = st.columns(2)
+more = None
+if ss["batch"] and b1.button("Add the batch sheet's batches", key="cf_add_sheet",
+                             help="One row per batch of the batch sheet, in its run order"):
+    more = _sheet_rows()
+if ss["pins"] and b2.button("Add a row for each pinned recipe", key="cf_add_pins"):
+    more = _pin_rows()
+if more is not None:
+    ss["confirm_typed"] = pd.concat([ss["confirm_typed"], more.astype(object)],
+                                    ignore_index=True)
     ss["editor_nonce"] += 1
 config = {}
 for f in study.factors:  # short headers, the label and unit on hover: every column in view

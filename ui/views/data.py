@@ -47,6 +47,7 @@ edited = editing.kept_editor(
 
 # -- call the library: the same checks as the command line ------------------------------
 changes = run_changes(laid_out, edited)
+ss["data_changed"] = not changes.empty  # kept across a reload only when edited
 error = None
 try:
     checked = check_edited(study, edited)
@@ -76,14 +77,14 @@ if can_save and c1.button(f"Save {text.plain(name)}", type="primary", key="dv_sa
     else:
         # the models and searches read the new runs: a new revision of the study
         ss["origin"] = {**origin, "revision": origin.get("revision", 0) + 1}
-        ss["data_typed"] = None
+        ss["data_typed"], ss["data_changed"] = None, False
         st.success(f"Saved {text.plain(name)}.")
         st.rerun()
 c2.download_button("Corrected table (.csv)", edited_bytes(edited),
                    file_name=f"{Path(name).stem}_corrected.csv", mime="text/csv",
                    key="dv_download", disabled=changes.empty)
 if c3.button("Discard my edits", key="dv_discard", disabled=changes.empty):
-    ss["data_typed"] = None
+    ss["data_typed"], ss["data_changed"] = None, False
     st.rerun()
 if not can_save:
     st.caption("This table was uploaded or is a workbook, so it is not written here: "

@@ -21,12 +21,7 @@ OWN = "my own choice of terms"
 
 # -- read state -------------------------------------------------------------
 st.title("What drives each response")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
+study = panels.study_or_stop()
 
 # -- widgets --------------------------------------------------------------------
 names = study.response_names

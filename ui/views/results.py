@@ -20,12 +20,7 @@ ss = st.session_state
 st.title("Recommended settings")
 cautions = st.empty()  # the page's one caution box, filled once its cautions are known
 cautions.info(CAUTION, icon=":material/info:")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
+study = panels.study_or_stop()
 new_guide.stop_without_goals(study)
 try:
     fitted = cached.fit(study)

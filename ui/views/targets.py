@@ -39,12 +39,7 @@ st.caption("For each response, say what you want. Desirability runs from 0 (not 
            "weighted geometric mean of them all, so a single 0 makes D = 0. A weight of "
            "2 counts a goal twice as much as a weight of 1. The diamond shows where the "
            "current best settings land.")
-try:
-    study = cached.current_study()
-except TradeoffError as exc:
-    st.error(text.plain(exc))
-    st.stop()
-panels.stop_without_factors(study)
+study = panels.study_or_stop()
 epoch = ss["epoch"]
 
 
