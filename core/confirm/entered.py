@@ -18,7 +18,7 @@ import pandas as pd
 from ..errors import StudyError
 
 __all__ = ["entered_name", "entered_table", "entered_study", "save_entered",
-           "study_file_addition"]
+           "study_file_addition", "not_measured"]
 
 
 def entered_name(study) -> str:
@@ -30,16 +30,30 @@ def entered_name(study) -> str:
 def entered_table(study, table: pd.DataFrame) -> bytes:
     """The typed runs as the CSV the study will name (columns: run, factors, responses).
 
-    Empty rows (every cell blank) are left out, as a lab leaves a spare line.
+    Rows with nothing measured yet are left out: a spare line, or a batch of the
+    batch sheet not made yet (``not_measured`` names them).
     """
     from ..study.safe_cells import csv_bytes
 
+    frame = _cleaned(study, table)
+    return csv_bytes(frame[frame[study.response_names].notna().any(axis=1)])
+
+
+def _cleaned(study, table: pd.DataFrame) -> pd.DataFrame:
+    """The typed table on the file's columns, blank cells (spaces too) as None."""
     columns = ["run"] + study.factor_names + study.response_names
     frame = table.reindex(columns=columns).astype(object)
     blank = frame.isna() | frame.apply(lambda col: col.map(lambda v: str(v).strip() == ""))
-    frame = frame.where(~blank, None)
-    frame = frame[frame.notna().any(axis=1)]
-    return csv_bytes(frame)
+    return frame.where(~blank, None)
+
+
+def not_measured(study, table: pd.DataFrame) -> list[str]:
+    """The typed rows with settings but no measured value yet, by run id (or row)."""
+    frame = _cleaned(study, table)
+    waiting = frame[frame.notna().any(axis=1)
+                    & frame[study.response_names].isna().all(axis=1)]
+    return [str(run) if run is not None else f"row {i + 1}"
+            for i, run in zip(waiting.index, waiting["run"])]
 
 
 def _names_it(study, name: str) -> bool:

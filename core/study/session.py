@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import json
 import math
+import numbers
 
 import pandas as pd
 
@@ -59,13 +60,15 @@ def _cell(value):
         return str(value)  # a ticked box kept as its word: the file holds no booleans
     if value is pd.NA or value is pd.NaT:
         return None
+    if isinstance(value, numbers.Integral):
+        return int(value)
     try:
         number = float(value)
     except (TypeError, ValueError):
         return str(value)
-    if math.isnan(number):
-        return None
-    return int(number) if number.is_integer() and abs(number) < 2**53 else number
+    # a float stays a float (191.0 reads back as 191.0, not 191): a recipe kept
+    # across a reload must give the same sheets as before it
+    return None if math.isnan(number) else number
 
 
 def table_json(frame) -> dict:

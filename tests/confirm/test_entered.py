@@ -10,7 +10,8 @@ import pytest
 from tradeoff import DataError, load_study
 from tradeoff.cli import main
 from tradeoff.confirm.check import check_confirmations
-from tradeoff.confirm.entered import entered_study, save_entered, study_file_addition
+from tradeoff.confirm.entered import (entered_study, entered_table, not_measured,
+                                      save_entered, study_file_addition)
 from tradeoff.study.demo import demo_study_path
 
 SNACK = demo_study_path()
@@ -60,3 +61,17 @@ def test_a_wrong_cell_is_named_and_nothing_is_written(snack):
         save_entered(study, bad)
     assert snack.read_text() == before
     assert not (snack.parent / "snack_bar_confirmations.csv").exists()
+
+
+def test_batches_not_measured_yet_are_left_out_and_named():
+    """A batch sheet's second batch, not made yet, does not stop the first being
+    compared (common practice: results come in one batch at a time)."""
+    study = load_study(demo_study_path())
+    r = study.response_names
+    row = {"run": "C1", **{f.name: (f.levels[0] if f.is_categorical else f.low)
+                           for f in study.factors}}
+    typed = pd.DataFrame([{**row, r[0]: 1.0}, {**row, "run": "C2"}, {}],
+                         columns=["run", *study.factor_names, *r]).astype(object)
+    data = entered_table(study, typed).decode("utf-8").splitlines()
+    assert len(data) == 2 and data[1].startswith("C1,")
+    assert not_measured(study, typed) == ["C2"]

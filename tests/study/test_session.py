@@ -105,14 +105,19 @@ def test_pins_typed_tables_and_batch_choices_round_trip():
     typed = pd.DataFrame({"run": ["C1", None], "temp": [np.float64(182.5), np.nan],
                           "flour": ["rice", "rice"], "volume": [pd.NA, np.int64(3)]}
                          ).astype(object)
-    pins = {"S1": {"temp": np.float64(182.5), "flour": "rice"}}
+    pins = {"S1": {"temp": np.float64(182.5), "flour": "rice", "time": 20.0,
+                   "batches": np.int64(2)}}
     batch = {"size_g": 750.0, "step_g": 1.0, "batches": 2, "seed": 3, "left_out": [],
              "percent": ["temp"], "rest": "rest of the recipe"}
     text = session_text(study={"kind": "path", "path": "/lab/x.toml"}, goals={},
                         models={}, pins=pins, typed={"confirm": typed, "data": None},
                         batch=batch)
     back = read_session(text, "x.session.json")
-    assert back["pins"] == {"S1": {"temp": 182.5, "flour": "rice"}}
+    assert back["pins"] == {"S1": {"temp": 182.5, "flour": "rice", "time": 20.0,
+                                   "batches": 2}}
+    # whole floats stay floats (a recipe reads the same after a reload)
+    assert {k: type(v) for k, v in back["pins"]["S1"].items()} == {
+        "temp": float, "flour": str, "time": float, "batches": int}
     assert back["batch"] == batch
     # blanks of every kind come back as null; numbers as numbers
     assert back["typed"] == {"confirm": {"columns": ["run", "temp", "flour", "volume"],

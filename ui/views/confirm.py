@@ -8,7 +8,7 @@ import streamlit as st
 from tradeoff import TradeoffError
 from tradeoff.confirm.check import check_confirmations
 from tradeoff.confirm.entered import (entered_name, entered_study, entered_table,
-                                      save_entered, study_file_addition)
+                                      not_measured, save_entered, study_file_addition)
 from tradeoff.study.confirmations import confirmation_runs
 from tradeoff_ui import cached, editing, panels, text
 
@@ -97,6 +97,10 @@ if measured or len(others):
         check = check_confirmations(changed, fit=cached.fit(study), files=files)
     except TradeoffError as exc:
         error = text.plain(exc)
+waiting = not_measured(study, edited)
+if waiting:
+    st.caption(f"Nothing measured yet in {text.plain(', '.join(waiting))}: "
+               "left out of the comparison and of the saved table until a result is typed.")
 if error:
     st.error(error)
     st.caption("Row numbers are those of the saved table, where the header is row 1.")
