@@ -18,7 +18,7 @@ import pandas as pd
 from ..errors import StudyError
 
 __all__ = ["entered_name", "entered_table", "entered_study", "save_entered",
-           "study_file_addition", "not_measured"]
+           "study_file_addition", "not_measured", "measured_rows", "as_typed_text"]
 
 
 def entered_name(study) -> str:
@@ -45,6 +45,22 @@ def _cleaned(study, table: pd.DataFrame) -> pd.DataFrame:
     frame = table.reindex(columns=columns).astype(object)
     blank = frame.isna() | frame.apply(lambda col: col.map(lambda v: str(v).strip() == ""))
     return frame.where(~blank, None)
+
+
+def measured_rows(study, table: pd.DataFrame) -> int:
+    """How many typed rows hold at least one measured value."""
+    return int(_cleaned(study, table)[study.response_names].notna().any(axis=1).sum())
+
+
+def as_typed_text(table: pd.DataFrame, columns: list[str]) -> pd.DataFrame:
+    """``table`` with ``columns`` as text cells, blanks as "" (numbers as they read)."""
+    out = table.copy()
+    for column in columns:
+        if column in out.columns:
+            out[column] = out[column].map(
+                lambda v: "" if v is None or (isinstance(v, float) and v != v)
+                or v is pd.NA else f"{v:.15g}" if isinstance(v, float) else str(v))
+    return out.astype(object)
 
 
 def not_measured(study, table: pd.DataFrame) -> list[str]:

@@ -182,7 +182,7 @@ def test_a_reload_keeps_pins_batch_choices_and_typed_tables():
     assert again.session_state["pins"] == pins
     assert again.session_state["batch"]["size_g"] == 750.0
     back = again.session_state["confirm_typed"]
-    assert back.loc[0, "hardness_fresh"] == 17.5
+    assert back.loc[0, "hardness_fresh"] == "17.5"  # typed as text, read as a number
     assert back["run"].tolist() == order["run"].tolist()
     assert again.session_state["data_typed"].loc[0, "liking"] == "1.5"
     again.switch_page("views/batch.py").run()

@@ -7,8 +7,9 @@ import streamlit as st
 
 from tradeoff import TradeoffError
 from tradeoff.confirm.check import check_confirmations
-from tradeoff.confirm.entered import (entered_name, entered_study, entered_table,
-                                      not_measured, save_entered, study_file_addition)
+from tradeoff.confirm.entered import (as_typed_text, entered_name, entered_study,
+                                      entered_table, measured_rows, not_measured,
+                                      save_entered, study_file_addition)
 from tradeoff.study.confirmations import confirmation_runs
 from tradeoff_ui import cached, editing, panels, text
 
@@ -80,16 +81,19 @@ for f in study.factors:  # short headers, the label and unit on hover: every col
     else:
         config[f.name] = st.column_config.NumberColumn(f.name, format="%.6g",
                                                        help=f.display(), width="small")
+# measured values and run ids are typed as text, blank as "" rather than the
+# editor's grey "None" (the checks read the numbers and name a cell that is not one)
 for r in study.responses:
-    config[r.name] = st.column_config.NumberColumn(
-        r.name, format="%.6g", help=f"{r.label} ({r.unit})" if r.unit else r.label,
-        width="small")
-config["run"] = st.column_config.TextColumn("run id", width="small")
+    config[r.name] = st.column_config.TextColumn(
+        r.name, help=f"{r.label} ({r.unit})" if r.unit else r.label, width="small",
+        default="")
+config["run"] = st.column_config.TextColumn("run id", width="small", default="")
+ss["confirm_typed"] = as_typed_text(ss["confirm_typed"], ["run", *study.response_names])
 edited = editing.kept_editor("confirm_typed", num_rows="dynamic", hide_index=True,
                              column_config=config, width="stretch")
 
 # -- call the library ------------------------------------------------------------------
-measured = edited.reindex(columns=study.response_names).notna().any(axis=1).any()
+measured = measured_rows(study, edited) > 0
 check = error = None
 if measured or len(others):
     try:
