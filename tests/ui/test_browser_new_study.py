@@ -261,7 +261,7 @@ def _close_the_loop(page, study_file: Path, tmp_path: Path) -> None:
     _check(page, "batch sheet")
     _shoot(page, "batch_sheet_flour")
     _reload_at(page, "Make in this order")
-    assert page.get_by_label("Batch size (g)").input_value() == "750.00"
+    assert page.get_by_label("Batch size (g)").input_value() == "750"
     sheets = tmp_path / "sheets"
     sheets.mkdir()
     sheet = batch_sheet(study, {best.label: dict(best.settings)}, batch_g=750.0,

@@ -32,6 +32,7 @@ c1, c2, c3, c4 = st.columns(4)
 steps = [0.01, 0.1, 0.5, 1.0, 5.0, 10.0]
 batch_g = c1.number_input("Batch size (g)", min_value=1.0,
                           value=float(kept.get("size_g", 1000.0)), step=100.0,
+                          format="%g",
                           key=f"b_size_{epoch}")
 step_g = c2.selectbox("Scale reads to (g)", steps,
                       index=steps.index(kept["step_g"]) if kept.get("step_g") in steps else 3,
@@ -87,7 +88,8 @@ if len(sheet.process):
         lambda v: v if isinstance(v, str) else f"{v:.6g}"))
     st.dataframe(shown, hide_index=True, width="stretch")
 st.subheader("Make in this order")
-st.dataframe(sheet.order, hide_index=True, width="stretch")
+st.dataframe(sheet.order.rename(columns={"run_order": "order"}), hide_index=True,
+             width="stretch")
 st.caption("A random order, so a drift over the day does not line up with one recipe. "
            "The Confirmation runs view lists these batches, in this order, for their results.")
 

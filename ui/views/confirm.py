@@ -113,8 +113,11 @@ if error:
 if check is not None:
     st.subheader("Measured against the prediction intervals")
     v = check.verdicts
-    st.dataframe(v[["label", "checked", "inside", "verdict", "advice"]], hide_index=True,
+    st.dataframe(v[["label", "checked", "inside", "verdict"]], hide_index=True,
                  width="stretch")
+    # the advice in full below the table (a sentence does not fit a column)
+    for advice, labels in v.groupby("advice", sort=False)["label"]:
+        st.caption(text.plain(f"{', '.join(labels)}: {advice}"))
     t = check.table
     shown = t[["group", "runs", "m", "response", "measured", "predicted", "pi_low",
                "pi_high", "inside"]].rename(columns={
