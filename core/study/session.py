@@ -77,19 +77,6 @@ def table_json(frame) -> dict:
             "rows": [[_cell(v) for v in row] for row in frame.itertuples(index=False)]}
 
 
-def _goal_table(goal: Goal) -> dict:
-    table: dict = {"goal": goal.kind}
-    if goal.kind != "none":
-        table.update(lower=goal.lower, upper=goal.upper)
-        if goal.kind == "target":
-            table.update(target=goal.target, shape_below=goal.shape_below,
-                         shape_above=goal.shape_above)
-        else:
-            table["shape"] = goal.shape
-    table["weight"] = goal.weight
-    return {k: v for k, v in table.items() if v is not None}
-
-
 def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=(),
                  top: int = 5, rank_by: str = "desirability", aim: str = "balance",
                  spread: dict | None = None, chosen: int = 0,
@@ -101,7 +88,8 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
     the table (a DataFrame, or None for none), ``batch`` the batch sheet's choices.
     """
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
-           "goals": {n: _goal_table(g) for n, g in goals.items()},
+           "goals": {n: g.keys() or {"goal": "none", "weight": g.weight}
+                     for n, g in goals.items()},
            "models": {n: m if isinstance(m, str) else list(m) for n, m in models.items()},
            "reduce": sorted(reduce), "top": int(top), "rank_by": rank_by, "aim": aim,
            "spread": dict(spread or {}), "chosen": int(chosen), "draft": draft,

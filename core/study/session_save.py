@@ -14,26 +14,9 @@ import difflib
 
 from ..errors import StudyError
 from .mixture import is_component
-from .spec import Goal, Study, _GOAL_KEYS
+from .spec import Study, _GOAL_KEYS
 
 __all__ = ["updated_study_text", "text_diff"]
-
-
-def _goal_keys(goal: Goal) -> dict:
-    if not goal.active:
-        return {}
-    out: dict = {"goal": goal.kind, "lower": goal.lower, "upper": goal.upper}
-    if goal.kind == "target":
-        out["target"] = goal.target
-        if goal.shape_below != 1.0:
-            out["shape_below"] = goal.shape_below
-        if goal.shape_above != 1.0:
-            out["shape_above"] = goal.shape_above
-    elif goal.shape != 1.0:
-        out["shape"] = goal.shape
-    if goal.weight != 1.0:
-        out["weight"] = goal.weight
-    return out
 
 
 def _plain(x):
@@ -80,7 +63,7 @@ def updated_study_text(original: str, study: Study, name: str = "study.toml") ->
         r = by_name.get(table.get("name"))
         if r is None or r.is_derived:
             continue
-        wanted = _goal_keys(r.goal)
+        wanted = r.goal.keys(defaults=False)
         if r.model is not None:
             wanted["model"] = r.model
         if r.terms is not None:
@@ -92,7 +75,7 @@ def updated_study_text(original: str, study: Study, name: str = "study.toml") ->
         f = factors.get(table.get("name"))
         if f is None:
             continue
-        wanted = _goal_keys(f.goal)
+        wanted = f.goal.keys(defaults=False)
         if f.production_sd is not None:
             wanted["production_sd"] = f.production_sd
         _set_keys(table, wanted, _GOAL_KEYS | {"production_sd"})

@@ -131,6 +131,21 @@ class Goal:
     def active(self) -> bool:
         return self.kind != "none"
 
+    def keys(self, *, defaults: bool = True) -> dict:
+        """The goal as a study file's keys (``{}`` for no goal); ``defaults=False``
+        leaves out shapes and a weight of 1, as a user writes them."""
+        if not self.active:
+            return {}
+        out = {"goal": self.kind, "lower": self.lower, "upper": self.upper}
+        if self.kind == "target":
+            out.update(target=self.target, shape_below=self.shape_below,
+                       shape_above=self.shape_above)
+        elif self.kind in ("maximize", "minimize"):
+            out["shape"] = self.shape
+        out["weight"] = self.weight
+        return {k: v for k, v in out.items() if v is not None and (
+            defaults or k in ("goal", "lower", "upper", "target") or v != 1.0)}
+
 
 @dataclass(frozen=True)
 class Factor:

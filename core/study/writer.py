@@ -5,7 +5,7 @@ from typing import Any
 
 
 from .mixture import is_component
-from .spec import (Factor, Goal, Response, Study, _BASE_TOP)
+from .spec import (Factor, Response, Study, _BASE_TOP)
 
 __all__ = ["study_to_dict"]
 
@@ -47,20 +47,6 @@ def study_to_dict(study: Study) -> dict:
     return out
 
 
-def _goal_dict(goal: Goal) -> dict:
-    if not goal.active:
-        return {}
-    out: dict[str, Any] = {"goal": goal.kind, "lower": goal.lower, "upper": goal.upper}
-    if goal.kind == "target":
-        out["target"] = goal.target
-        out["shape_below"] = goal.shape_below
-        out["shape_above"] = goal.shape_above
-    elif goal.kind in ("maximize", "minimize"):
-        out["shape"] = goal.shape
-    out["weight"] = goal.weight
-    return out
-
-
 def _factor_dict(f: Factor) -> dict:
     out: dict[str, Any] = {"name": f.name}
     if f.label != f.name:
@@ -81,7 +67,7 @@ def _factor_dict(f: Factor) -> dict:
         out["production_sd"] = f.production_sd
     if f.step is not None:
         out["step"] = f.step
-    out.update(_goal_dict(f.goal))
+    out.update(f.goal.keys())
     return out
 
 
@@ -91,7 +77,7 @@ def _response_dict(r: Response) -> dict:
         out["label"] = r.label
     if r.unit:
         out["unit"] = r.unit
-    out.update(_goal_dict(r.goal))
+    out.update(r.goal.keys())
     if r.model is not None:
         out["model"] = r.model
     if r.terms is not None:

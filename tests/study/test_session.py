@@ -136,3 +136,22 @@ def test_bad_kept_tables_and_choices_say_so(extra, match):
             f' {extra}}}')
     with pytest.raises(StudyError, match=match):
         read_session(text, "x.session.json")
+
+
+@pytest.mark.parametrize("table", [
+    {"goal": "maximize", "lower": 2.0, "upper": 3.0, "shape": 2.0, "weight": 3.0},
+    {"goal": "minimize", "lower": 4.0, "upper": 8.0},
+    {"goal": "target", "lower": 52.0, "upper": 64.0, "target": 58.0, "shape_above": 0.5},
+    {"goal": "range", "lower": 1.0, "upper": 2.0},
+])
+def test_a_goal_written_as_keys_reads_back_the_same(table):
+    """Written with or without the defaults, the study reader's goal check reads
+    back the same goal (one conversion serves the study file, the session file and
+    saving back)."""
+    from tradeoff.study.reader import _goal
+
+    goal = _goal(table, "x.toml", "goal")
+    for defaults in (True, False):
+        assert _goal(goal.keys(defaults=defaults), "x.toml", "goal") == goal
+    assert goal.keys(defaults=False).get("weight", 1.0) == table.get("weight", 1.0)
+    assert Goal().keys() == {}
