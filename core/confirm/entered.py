@@ -18,7 +18,8 @@ import pandas as pd
 from ..errors import StudyError
 
 __all__ = ["entered_name", "entered_table", "entered_study", "save_entered",
-           "study_file_addition", "not_measured", "measured_rows", "as_typed_text"]
+           "study_file_addition", "not_measured", "measured_rows", "as_typed_text",
+           "typed_line"]
 
 
 def entered_name(study) -> str:
@@ -61,6 +62,18 @@ def as_typed_text(table: pd.DataFrame, columns: list[str]) -> pd.DataFrame:
                 lambda v: "" if v is None or (isinstance(v, float) and v != v)
                 or v is pd.NA else f"{v:.15g}" if isinstance(v, float) else str(v))
     return out.astype(object)
+
+
+def typed_line(study, table: pd.DataFrame, file_row: int) -> tuple[int, str] | None:
+    """The typed table's line (1 = first) and run id behind row ``file_row`` of the
+    saved table (its header is row 1), which leaves out rows not measured yet."""
+    frame = _cleaned(study, table)
+    kept = [i for i, m in enumerate(frame[study.response_names].notna().any(axis=1)) if m]
+    if not 2 <= file_row < len(kept) + 2:
+        return None
+    line = kept[file_row - 2]
+    run = frame["run"].iloc[line]
+    return line + 1, "" if run is None else str(run)
 
 
 def not_measured(study, table: pd.DataFrame) -> list[str]:

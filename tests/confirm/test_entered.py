@@ -10,7 +10,7 @@ import pytest
 from tradeoff import DataError, load_study
 from tradeoff.cli import main
 from tradeoff.confirm.check import check_confirmations
-from tradeoff.confirm.entered import (entered_study, entered_table, not_measured,
+from tradeoff.confirm.entered import (entered_study, entered_table, not_measured, typed_line,
                                       save_entered, study_file_addition)
 from tradeoff.study.demo import demo_study_path
 
@@ -75,3 +75,19 @@ def test_batches_not_measured_yet_are_left_out_and_named():
     data = entered_table(study, typed).decode("utf-8").splitlines()
     assert len(data) == 2 and data[1].startswith("C1,")
     assert not_measured(study, typed) == ["C2"]
+
+
+def test_a_row_of_the_saved_table_is_traced_to_its_typed_line():
+    """The saved table leaves out rows not measured yet: its row 3 (header row 1)
+    is the typed table's third line when the second waits for its result."""
+    study = load_study(demo_study_path())
+    r = study.response_names
+    row = {f.name: (f.levels[0] if f.is_categorical else f.low) for f in study.factors}
+    typed = pd.DataFrame([{"run": "C1", **row, r[0]: 1.0}, {"run": "C2", **row},
+                          {"run": "C3", **row, r[0]: 2.0}],
+                         columns=["run", *study.factor_names, *r]).astype(object)
+    lines = entered_table(study, typed).decode("utf-8").splitlines()
+    assert lines[2].startswith("C3,")  # row 3 of the file, header first
+    assert typed_line(study, typed, 3) == (3, "C3")
+    assert typed_line(study, typed, 2) == (1, "C1")
+    assert typed_line(study, typed, 4) is None

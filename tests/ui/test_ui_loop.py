@@ -189,3 +189,19 @@ def test_a_reload_keeps_pins_batch_choices_and_typed_tables():
     assert next(n for n in again.number_input if n.label == "Batch size (g)").value == 750.0
     assert again.dataframe[0].value["weigh (g)"].groupby(
         again.dataframe[0].value["recipe"]).sum().tolist() == [750.0, 750.0]
+
+
+def test_a_wrong_confirmation_cell_is_traced_to_its_line(snack):
+    at = _at("confirm")
+    typed = pd.DataFrame({"run": ["K1", "K2", "K3"], "protein": [27.0] * 3,
+                          "glycerol": [6.0] * 3, "binder": ["date paste"] * 3,
+                          "mix_temp": [45.0] * 3,
+                          "hardness_fresh": ["17.4", "", "soft"]}
+                         ).reindex(columns=at.session_state["confirm_typed"].columns
+                                   ).astype(object)
+    at.session_state["confirm_typed"] = typed
+    at.run()
+    assert "row 3" in at.error[0].value and "'soft'" in at.error[0].value
+    captions = [c.value for c in at.caption]
+    assert "Row 3 of the saved table is line 3 of the table above (run K3)." in captions
+    assert any(c.startswith("Nothing measured yet in K2") for c in captions)

@@ -2,6 +2,8 @@
 value against its prediction interval, as ``tradeoff confirm`` compares them."""
 from __future__ import annotations
 
+import re
+
 import pandas as pd
 import streamlit as st
 
@@ -9,7 +11,7 @@ from tradeoff import TradeoffError
 from tradeoff.confirm.check import check_confirmations
 from tradeoff.confirm.entered import (as_typed_text, entered_name, entered_study,
                                       entered_table, measured_rows, not_measured,
-                                      save_entered, study_file_addition)
+                                      save_entered, study_file_addition, typed_line)
 from tradeoff.study.confirmations import confirmation_runs
 from tradeoff_ui import cached, editing, panels, text
 
@@ -107,7 +109,11 @@ if waiting:
                "left out of the comparison and of the saved table until a result is typed.")
 if error:
     st.error(error)
-    st.caption("Row numbers are those of the saved table, where the header is row 1.")
+    where = re.search(r"\brow (\d+)\b", error)
+    line = typed_line(study, edited, int(where.group(1))) if where else None
+    if line is not None:  # the message counts the saved table's rows, header first
+        st.caption(f"Row {where.group(1)} of the saved table is line {line[0]} of the table "
+                   f"above" + (f" (run {text.plain(line[1])})." if line[1] else "."))
 
 # -- show: the comparison ------------------------------------------------------------------
 if check is not None:
