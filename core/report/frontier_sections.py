@@ -93,7 +93,8 @@ class _FrontierSections(_Sections):
         if s.binding:
             out.append(f"<p>Goals holding the recommendation in place (a change to them "
                        f"moves it by more than {STILL} coded units): "
-                       f"<b>{esc(', '.join(s.binding))}</b>.</p>")
+                       f"<b>{esc(', '.join(self._item(b).label for b in s.binding))}"
+                       "</b>.</p>")
         out.append(_chart_div(_svg(steadiness_picture(ch, still=STILL, moves=MOVES))))
         moved = ch[(ch["move"] > STILL) | (ch["levels_changed"] != "")]
         factors = [c[6:] for c in ch.columns if c.startswith("shift:")]

@@ -246,7 +246,7 @@ def _row(study, problem, models, x0, x, d, goal, what, old, new) -> dict:
     levels = [f.name for f in study.factors
               if f.is_categorical and now["settings"][f.name] != base["settings"][f.name]]
     row = {"goal": goal, "what": what, "old": float(old), "new": float(new),
-           "words": _words(goal, what, old, new), "move": move,
+           "words": _words(_label(study, goal), what, old, new), "move": move,
            "levels_changed": ", ".join(levels), "D": d, "feasible": d > 0}
     for f in study.factors:
         row[f"set:{f.name}"] = now["settings"][f.name]
@@ -258,11 +258,20 @@ def _row(study, problem, models, x0, x, d, goal, what, old, new) -> dict:
     return row
 
 
+def _label(study, name: str) -> str:
+    """A goal's response or factor as the lab calls it (its label)."""
+    for item in (*study.responses, *study.factors):
+        if item.name == name:
+            return item.label or name
+    return name
+
+
 def _words(goal, what, old, new) -> str:
+    """The change in words, ``goal`` being the response's (or factor's) label."""
     if what == "weight":
-        return f"{goal}'s weight is {'doubled' if new > old else 'halved'}"
+        return f"the weight of {goal} is {'doubled' if new > old else 'halved'}"
     verb = "raised" if new > old else "lowered"
-    return f"{goal}'s {what} limit is {verb} by {LIMIT_SHIFT:.0%} of its span"
+    return f"the {what} limit of {goal} is {verb} by {LIMIT_SHIFT:.0%} of its span"
 
 
 def _moved(changes) -> np.ndarray:
@@ -290,14 +299,14 @@ def _sentence(study, changes, baseline, units) -> str:
                     + tail)
         row = worst.iloc[0]
         return ("The recommendation barely moves: the largest shift, when "
-                f"{row['words']}, is {row['move']:.2f} coded units ({_shifts(study, row, baseline, units)})."
-                + tail)
+                f"{row['words']}, is {row['move']:.2f} coded units "
+                f"({_shifts(study, row, baseline, units)})." + tail)
     if len(big) <= 3:
         row = big.iloc[0]
         return ("The recommendation barely moves unless " + _join(big["words"].tolist(), "or")
                 + f"; the largest shift ({row['words'].split(' is ')[0]} changed) is "
                 f"{_shifts(study, row, baseline, units)}." + tail)
-    goals = list(dict.fromkeys(big["goal"]))
+    goals = list(dict.fromkeys(_label(study, g) for g in big["goal"]))
     return (f"The recommendation is sensitive: {len(big)} of {len(changes)} changes move it "
             f"by more than {MOVES} coded units or to another level, through the weights or "
             "limits of " + _join(goals) + "; settle those goals with the team before "
@@ -311,12 +320,12 @@ def _shifts(study, row, baseline, units) -> str:
         old, new = baseline["settings"][f.name], row[f"set:{f.name}"]
         if f.is_categorical:
             if new != old:
-                parts.append((np.inf, f"{f.name} {old} -> {new}"))
+                parts.append((np.inf, f"{f.label} {old} -> {new}"))
             continue
         coded = abs(new - old) / f.half_range
         if coded > STILL / 2:
             u = f" {units[f.name]}" if units.get(f.name) else ""
-            parts.append((coded, f"{f.name} {old:.4g} -> {new:.4g}{u}"))
+            parts.append((coded, f"{f.label} {old:.4g} -> {new:.4g}{u}"))
     parts.sort(key=lambda t: -t[0])
     return ", ".join(p for _, p in parts[:3]) or "no factor moves visibly"
 
