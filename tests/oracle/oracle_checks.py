@@ -394,12 +394,15 @@ def _check_grid(generated, study, fit, result, goals, outcome) -> None:
     D = D_reference(d, [g.get("weight", 1.0) for _, _, g in goals])
     i = int(np.nanargmax(D))
     best = result.solutions[0]
-    # the search's optimum as found, before rounding to the steps (the recipe shown
-    # may lie a step away, below the grid's best)
-    if D[i] > 0 and (not result.feasible or best.found_desirability < D[i] * (1 - GRID_TOL)):
+    # the search's optima as found, before rounding to the steps (the recipe shown
+    # may lie a step away, below the grid's best). Solutions are ranked by their
+    # rounded recipes, so a sharp peak that loses most in rounding may be listed
+    # after a broad one: the highest found D of any solution is the search's best.
+    found = max(s.found_desirability for s in result.solutions)
+    if D[i] > 0 and (not result.feasible or found < D[i] * (1 - GRID_TOL)):
         settings = {k: (v if isinstance(v, str) else round(float(v), 6))
                     for k, v in grid.iloc[i].items()}
-        outcome.fail("grid", "optimize", f"best D {best.found_desirability:.6g} (feasible: "
+        outcome.fail("grid", "optimize", f"best D {found:.6g} (feasible: "
                      f"{result.feasible}) but the grid reaches D = {D[i]:.6g} at {settings}")
     for j, (kind, name, g) in enumerate(goals):
         if name in result.unreachable:
