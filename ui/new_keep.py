@@ -122,6 +122,10 @@ def apply(kept: dict, study) -> None:
             ss[key] = pd.DataFrame(table["rows"], columns=table["columns"]).astype(object)
             ss["data_changed"] = ss["data_changed"] or name == "data"
     ss["batch"] = dict(kept["batch"])
+    ss["plan"] = dict(kept["plan"])
+    whatif = kept["whatif"]
+    if whatif["from"] is not None and set(whatif["settings"]) <= factors:
+        ss["whatif_from"], ss["whatif"] = whatif["from"], dict(whatif["settings"])
     draft = kept.get("draft")
     sid = ss.get("session_id")
     if draft and sid:
@@ -169,6 +173,8 @@ def keep() -> None:
                             reduce=ss["reduce"], top=ss["top"], rank_by=ss["rank_by"],
                             aim=ss["aim"], spread=ss["spread"], chosen=ss["chosen"],
                             draft=draft, pins=ss["pins"], batch=ss["batch"],
+                            plan=ss["plan"],
+                            whatif={"from": ss["whatif_from"], "settings": ss["whatif"]},
                             typed={"confirm": ss["confirm_typed"],
                                    # the runs table only when edited: an untouched copy
                                    # must not hide later changes to the file itself

@@ -56,6 +56,7 @@ KEYS = {
                      "(a table; None: start from what the study lists)",
     "data_typed": "the runs table as edited on the data view, not saved yet (None: none)",
     "data_changed": "True while the runs table on the data view differs from the file",
+    "plan": "the plan view's choices, widget name -> value (ui/remembered.py)",
     "batch": "the batch sheet's choices: size_g, step_g, batches, seed, recipes, percent, "
              "rest (tradeoff.study.session.BATCH_KEYS); empty: the defaults",
     "editor_nonce": "bumped when a table editor's edits are folded into its table "
@@ -109,6 +110,7 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["data_typed"] = None
     st.session_state["data_changed"] = False
     st.session_state["batch"] = {}
+    st.session_state["plan"] = {}
 
 
 def init() -> None:
@@ -122,7 +124,7 @@ def init() -> None:
                 "frontier_nonce": 0, "frontier_seen": None,
                 "new_draft": None, "new_data": None,
                 "pins": {}, "confirm_typed": None, "data_typed": None, "editor_nonce": 0,
-                "data_changed": False, "batch": {}}
+                "data_changed": False, "batch": {}, "plan": {}}
     for key, value in defaults.items():
         if key not in ss:
             ss[key] = value

@@ -34,6 +34,7 @@ import json
 import math
 import numbers
 
+import numpy as np
 import pandas as pd
 
 from ..errors import StudyError
@@ -54,10 +55,10 @@ BATCH_KEYS = {"size_g": float, "step_g": float, "batches": int, "seed": int,
 
 def _cell(value):
     """A table cell as JSON holds it: blanks (None, NaN, pandas' NA) become null."""
-    if value is None or isinstance(value, str):
+    if value is None or isinstance(value, (str, bool)):
         return value
-    if isinstance(value, bool):
-        return str(value)  # a ticked box kept as its word: the file holds no booleans
+    if isinstance(value, np.bool_):
+        return bool(value)
     if value is pd.NA or value is pd.NaT:
         return None
     if isinstance(value, numbers.Integral):
@@ -81,11 +82,14 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
                  top: int = 5, rank_by: str = "desirability", aim: str = "balance",
                  spread: dict | None = None, chosen: int = 0,
                  draft: dict | None = None, pins: dict | None = None,
-                 typed: dict | None = None, batch: dict | None = None) -> str:
+                 typed: dict | None = None, batch: dict | None = None,
+                 plan: dict | None = None, whatif: dict | None = None) -> str:
     """The session as JSON text (keys sorted, so an unchanged session writes the same bytes).
 
     ``pins`` maps a recipe's label to its settings, ``typed`` a table's name to
-    the table (a DataFrame, or None for none), ``batch`` the batch sheet's choices.
+    the table (a DataFrame, or None for none), ``batch`` the batch sheet's choices,
+    ``plan`` the plan view's (widget name -> value), ``whatif`` the what-if panel's
+    settings and the solution they started from (``{"from": label, "settings": {...}}``).
     """
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
            "goals": {n: g.keys() or {"goal": "none", "weight": g.weight}
@@ -96,7 +100,12 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
            "pins": {label: {n: _cell(v) for n, v in settings.items()}
                     for label, settings in (pins or {}).items()},
            "typed": {n: table_json(t) for n, t in (typed or {}).items() if t is not None},
-           "batch": dict(batch or {})}
+           "batch": dict(batch or {}),
+           "plan": {n: [_cell(x) for x in v] if isinstance(v, (list, tuple)) else _cell(v)
+                    for n, v in (plan or {}).items()},
+           "whatif": {"from": (whatif or {}).get("from"),
+                      "settings": {n: _cell(v) for n, v
+                                   in ((whatif or {}).get("settings") or {}).items()}}}
     return json.dumps(doc, indent=1, sort_keys=True, ensure_ascii=False) + "\n"
 
 
@@ -163,12 +172,12 @@ def read_session(text: str | bytes, name: str) -> dict:
     return {"study": study, "goals": goals, "models": models, "reduce": set(reduce),
             "top": max(1, top), "rank_by": rank_by, "aim": aim, "spread": spread,
             "chosen": chosen, "draft": draft, "pins": _pins(doc.get("pins"), name),
-            "typed": _typed(doc.get("typed"), name), "batch": _batch(doc.get("batch"), name)}
+            "typed": _typed(doc.get("typed"), name), "batch": _batch(doc.get("batch"), name),
+            "plan": _plan(doc.get("plan"), name), "whatif": _whatif(doc.get("whatif"), name)}
 
 
 def _scalar(value) -> bool:
-    return value is None or (isinstance(value, (int, float, str))
-                             and not isinstance(value, bool))
+    return value is None or isinstance(value, (int, float, str, bool))
 
 
 def _pins(pins, name: str) -> dict:
@@ -208,3 +217,23 @@ def _batch(batch, name: str) -> dict:
         if not fits:
             raise StudyError(f"{name}: the batch sheet's \"{key}\" cannot be {value!r}")
     return dict(batch)
+
+
+def _plan(plan, name: str) -> dict:
+    plan = plan or {}
+    if not isinstance(plan, dict) or not all(
+            _scalar(v) or (isinstance(v, list) and all(_scalar(x) for x in v))
+            for v in plan.values()):
+        raise StudyError(f"{name}: \"plan\" must hold the plan view's choices as numbers, "
+                         "words or lists of them")
+    return dict(plan)
+
+
+def _whatif(whatif, name: str) -> dict:
+    whatif = whatif or {}
+    settings = whatif.get("settings") or {} if isinstance(whatif, dict) else None
+    if not (isinstance(settings, dict) and all(_scalar(v) for v in settings.values())
+            and (whatif.get("from") is None or isinstance(whatif.get("from"), str))):
+        raise StudyError(f"{name}: \"whatif\" must hold the what-if settings and the "
+                         "solution they started from")
+    return {"from": whatif.get("from"), "settings": dict(settings)}

@@ -205,3 +205,21 @@ def test_a_wrong_confirmation_cell_is_traced_to_its_line(snack):
     captions = [c.value for c in at.caption]
     assert "Row 3 of the saved table is line 3 of the table above (run K3)." in captions
     assert any(c.startswith("Nothing measured yet in K2") for c in captions)
+
+
+def test_a_reload_keeps_the_what_if_settings():
+    at = _at("results")
+    box = next(n for n in at.number_input if str(n.key).startswith("w"))
+    start = box.value
+    box.set_value(round(start + 0.5, 3)).run()
+    assert not at.exception, at.exception
+    typed = dict(at.session_state["whatif"])
+    sid = at.query_params["session"]
+    again = AppTest.from_file(APP, default_timeout=120)
+    again.query_params["session"] = sid[0] if isinstance(sid, list) else sid
+    again.run()
+    again.switch_page("views/results.py").run()
+    assert not again.exception, again.exception
+    assert again.session_state["whatif"] == typed
+    shown = next(n for n in again.number_input if str(n.key).startswith("w"))
+    assert shown.value == round(start + 0.5, 3)

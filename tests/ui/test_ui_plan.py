@@ -110,3 +110,23 @@ def test_a_blend_starts_from_the_command_default(monkeypatch, tmp_path, capsys):
     _select(at, "Design", "lattice")
     # the command's refusal, with its option named as the view's choice
     assert "the design 'vertices'" in at.error[0].value and "--" not in at.error[0].value
+
+
+def test_plan_choices_survive_another_view_and_a_reload():
+    """The design chosen is still chosen after a visit to another view and in a new
+    browser session at the same address (ui/remembered.py, the session file)."""
+    at = _plan_view()
+    _select(at, "Design", "central-composite")
+    _select(at, "Axial distance", "face")
+    at.switch_page("views/targets.py").run()
+    at.switch_page("views/plan.py").run()
+    assert [s.value for s in at.selectbox if s.label == "Axial distance"] == ["face"]
+    sid = at.query_params["session"]
+    again = AppTest.from_file(APP, default_timeout=60)
+    again.query_params["session"] = sid[0] if isinstance(sid, list) else sid
+    again.run()
+    again.switch_page("views/plan.py").run()
+    assert not again.exception, again.exception
+    assert [s.value for s in again.selectbox if s.label == "Design"] == ["central-composite"]
+    assert [s.value for s in again.selectbox if s.label == "Axial distance"] == ["face"]
+    assert not again.warning, [w.value for w in again.warning]  # no doubled-value warning

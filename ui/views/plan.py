@@ -12,7 +12,7 @@ from tradeoff import TradeoffError
 from tradeoff.plan.plan_compare import compare_plans
 from tradeoff.plan.plan_request import design_choices, plan_study_file
 from tradeoff.plan.plan_words import plan_words
-from tradeoff_ui import cached, text
+from tradeoff_ui import cached, remembered, text
 
 ss = st.session_state
 
@@ -46,54 +46,63 @@ choices = design_choices(study)
 blend = study.mixture is not None
 
 
+def _kept(draw, name: str, *args, **options):
+    """A plan widget whose value is kept across views and reloads (ss["plan"])."""
+    return remembered.widget(draw, "plan", name, *args, **options)
+
+
 def _options(column, tag: str, default: str) -> dict:
     """One candidate plan's widgets; returns the plan command's options."""
     key = f"p{tag}_{epoch}"
-    design = column.selectbox("Design", choices, index=choices.index(default),
-                              format_func=lambda d: DESIGN_WORDS.get(d, d),
-                              key=f"{key}_design")
+    design = _kept(column.selectbox, f"{tag}_design", "Design", choices,
+                   index=choices.index(default), format_func=lambda d: DESIGN_WORDS.get(d, d),
+                   key=f"{key}_design")
     options: dict = {"design": design}
     if design == "factorial":
-        runs = column.selectbox("Runs in the two-level part",
-                                ["all combinations", 4, 8, 16, 32, 64], key=f"{key}_runs",
-                                help="Fewer runs give a fraction: some effects are then "
-                                     "aliased (cannot be told apart).")
+        runs = _kept(column.selectbox, f"{tag}_runs", "Runs in the two-level part",
+                     ["all combinations", 4, 8, 16, 32, 64], key=f"{key}_runs",
+                     help="Fewer runs give a fraction: some effects are then aliased "
+                          "(cannot be told apart).")
         if runs != "all combinations":
             options["runs"] = int(runs)
-        blocks = column.selectbox("Blocks (days or batches)", [1, 2, 4, 8], key=f"{key}_blk")
+        blocks = _kept(column.selectbox, f"{tag}_blk", "Blocks (days or batches)",
+                       [1, 2, 4, 8], key=f"{key}_blk")
         if blocks != 1:
             options["blocks"] = int(blocks)
     if design == "central-composite":
-        options["alpha"] = column.selectbox(
-            "Axial distance", ["rotatable", "face", "orthogonal"], key=f"{key}_alpha",
+        options["alpha"] = _kept(
+            column.selectbox, f"{tag}_alpha", "Axial distance",
+            ["rotatable", "face", "orthogonal"], key=f"{key}_alpha",
             help="face keeps every run inside low..high; rotatable goes beyond them.")
     if design == "optimal":
-        options["runs"] = int(column.number_input("Runs", 4, 200, value=16,
-                                                  key=f"{key}_n"))
-        options["criterion"] = column.radio(
-            "Make precise", ["d", "i"], horizontal=True, key=f"{key}_crit",
-            format_func={"d": "the coefficients", "i": "the predictions"}.get)
+        options["runs"] = int(_kept(column.number_input, f"{tag}_n", "Runs", 4, 200,
+                                    value=16, key=f"{key}_n"))
+        options["criterion"] = _kept(
+            column.radio, f"{tag}_crit", "Make precise", ["d", "i"], horizontal=True,
+            key=f"{key}_crit", format_func={"d": "the coefficients",
+                                            "i": "the predictions"}.get)
     if design == "lattice":
-        degree = int(column.number_input("Steps of the lattice (1/m)", 1, 6, value=2,
-                                         key=f"{key}_deg"))
-        options["degree"] = degree
+        options["degree"] = int(_kept(column.number_input, f"{tag}_deg",
+                                      "Steps of the lattice (1/m)", 1, 6, value=2,
+                                      key=f"{key}_deg"))
     if design == "vertices":
-        cents = column.multiselect("Centroids to add", ["edges", "faces", "overall"],
-                                   default=["overall"] if tag == "a" else ["edges", "overall"],
-                                   key=f"{key}_cent")
+        cents = _kept(column.multiselect, f"{tag}_cent", "Centroids to add",
+                      ["edges", "faces", "overall"],
+                      default=["overall"] if tag == "a" else ["edges", "overall"],
+                      key=f"{key}_cent")
         if cents:
             options["centroids"] = ",".join(cents)
-    if blend:
-        if column.checkbox("Add check blends (half-way to each vertex)", key=f"{key}_ax"):
-            options["axial"] = True
+    if blend and _kept(column.checkbox, f"{tag}_ax",
+                       "Add check blends (half-way to each vertex)", key=f"{key}_ax"):
+        options["axial"] = True
     if design != "definitive-screening":
-        centre = int(column.number_input("Centre points", 0, 20, value=0,
-                                         key=f"{key}_c"))
+        centre = int(_kept(column.number_input, f"{tag}_c", "Centre points", 0, 20,
+                           value=0, key=f"{key}_c"))
         if centre:
             options["center"] = centre
     if design == "definitive-screening":
-        extra = int(column.number_input("Extra runs for the error (even)", 0, 12, value=4,
-                                        step=2, key=f"{key}_x"))
+        extra = int(_kept(column.number_input, f"{tag}_x", "Extra runs for the error (even)",
+                          0, 12, value=4, step=2, key=f"{key}_x"))
         if extra:
             options["extra"] = extra
     return options
@@ -103,26 +112,26 @@ def _options(column, tag: str, default: str) -> dict:
 st.caption("The same plans as `tradeoff plan`: with the same options and seed, the run "
            "sheet is the same file.")
 shared = st.columns(4)
-model = "" if blend else shared[0].selectbox(
-    "Judge both plans for", list(MODEL_WORDS), format_func=MODEL_WORDS.get,
-    key=f"p_model_{epoch}",
+model = "" if blend else _kept(
+    shared[0].selectbox, "model", "Judge both plans for", list(MODEL_WORDS),
+    format_func=MODEL_WORDS.get, key=f"p_model_{epoch}",
     help="The model the plans are judged for: what can be estimated, precision, power.")
-seed = int(shared[1 if not blend else 0].number_input(
-    "Seed of the run order", 0, 2**31 - 1, value=int(study.seed), key=f"p_seed_{epoch}"))
+seed = int(_kept(shared[1 if not blend else 0].number_input, "seed", "Seed of the run order",
+                 0, 2**31 - 1, value=int(study.seed), key=f"p_seed_{epoch}"))
 effect = sd = 0.0
 if not blend:  # the blend plans are judged without power (plan/mixture_plan.py)
-    effect = shared[2].number_input("Smallest change worth finding", 0.0, value=0.0,
-                                    key=f"p_effect_{epoch}",
-                                    help="From a factor's low to its high, in the "
-                                         "response's units; with the SD it gives the power.")
-    sd = shared[3].number_input("Expected run-to-run SD", 0.0, value=0.0,
-                                key=f"p_sd_{epoch}")
+    effect = _kept(shared[2].number_input, "effect", "Smallest change worth finding", 0.0,
+                   value=0.0, key=f"p_effect_{epoch}",
+                   help="From a factor's low to its high, in the response's units; with "
+                        "the SD it gives the power.")
+    sd = _kept(shared[3].number_input, "sd", "Expected run-to-run SD", 0.0, value=0.0,
+               key=f"p_sd_{epoch}")
 common: dict = {"seed": seed}
 if model:
     common["model"] = model
 if effect > 0 and sd > 0:
     common.update(effect=float(effect), sd=float(sd))
-compare = st.toggle("Compare with a second plan", key=f"p_compare_{epoch}")
+compare = _kept(st.toggle, "compare", "Compare with a second plan", key=f"p_compare_{epoch}")
 columns = st.columns(2) if compare else [st.container()]
 # the second candidate: a response surface beside a factorial; for a blend the same
 # design with more centroids (another blend design may not fit a bounded region)
