@@ -123,6 +123,9 @@ def apply(kept: dict, study) -> None:
             ss["data_changed"] = ss["data_changed"] or name == "data"
     ss["batch"] = dict(kept["batch"])
     ss["plan"] = dict(kept["plan"])
+    ss["next_runs"] = kept["asked"]["next_runs"]
+    ss["compare_shown"] = kept["asked"]["compare_shown"] & responses
+    ss["report_ready"] = kept["asked"]["report"]
     whatif = kept["whatif"]
     if whatif["from"] is not None and set(whatif["settings"]) <= factors:
         ss["whatif_from"], ss["whatif"] = whatif["from"], dict(whatif["settings"])
@@ -174,6 +177,9 @@ def keep() -> None:
                             aim=ss["aim"], spread=ss["spread"], chosen=ss["chosen"],
                             draft=draft, pins=ss["pins"], batch=ss["batch"],
                             plan=ss["plan"],
+                            asked={"next_runs": ss["next_runs"],
+                                   "compare_shown": ss["compare_shown"],
+                                   "report": ss["report_ready"]},
                             whatif={"from": ss["whatif_from"], "settings": ss["whatif"]},
                             typed={"confirm": ss["confirm_typed"],
                                    # the runs table only when edited: an untouched copy

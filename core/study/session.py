@@ -83,13 +83,17 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
                  spread: dict | None = None, chosen: int = 0,
                  draft: dict | None = None, pins: dict | None = None,
                  typed: dict | None = None, batch: dict | None = None,
-                 plan: dict | None = None, whatif: dict | None = None) -> str:
+                 plan: dict | None = None, whatif: dict | None = None,
+                 asked: dict | None = None) -> str:
     """The session as JSON text (keys sorted, so an unchanged session writes the same bytes).
 
     ``pins`` maps a recipe's label to its settings, ``typed`` a table's name to
     the table (a DataFrame, or None for none), ``batch`` the batch sheet's choices,
     ``plan`` the plan view's (widget name -> value), ``whatif`` the what-if panel's
-    settings and the solution they started from (``{"from": label, "settings": {...}}``).
+    settings and the solution they started from (``{"from": label, "settings": {...}}``),
+    ``asked`` what the user asked to see (``next_runs``: how many runs "Make next"
+    suggests, 0 none; ``compare_shown``: responses whose model comparison is open;
+    ``report``: the report prepared).
     """
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
            "goals": {n: g.keys() or {"goal": "none", "weight": g.weight}
@@ -103,6 +107,9 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
            "batch": dict(batch or {}),
            "plan": {n: [_cell(x) for x in v] if isinstance(v, (list, tuple)) else _cell(v)
                     for n, v in (plan or {}).items()},
+           "asked": {"next_runs": int((asked or {}).get("next_runs") or 0),
+                     "compare_shown": sorted((asked or {}).get("compare_shown") or ()),
+                     "report": bool((asked or {}).get("report"))},
            "whatif": {"from": (whatif or {}).get("from"),
                       "settings": {n: _cell(v) for n, v
                                    in ((whatif or {}).get("settings") or {}).items()}}}
@@ -173,7 +180,8 @@ def read_session(text: str | bytes, name: str) -> dict:
             "top": max(1, top), "rank_by": rank_by, "aim": aim, "spread": spread,
             "chosen": chosen, "draft": draft, "pins": _pins(doc.get("pins"), name),
             "typed": _typed(doc.get("typed"), name), "batch": _batch(doc.get("batch"), name),
-            "plan": _plan(doc.get("plan"), name), "whatif": _whatif(doc.get("whatif"), name)}
+            "plan": _plan(doc.get("plan"), name), "whatif": _whatif(doc.get("whatif"), name),
+            "asked": _asked(doc.get("asked"), name)}
 
 
 def _scalar(value) -> bool:
@@ -237,3 +245,17 @@ def _whatif(whatif, name: str) -> dict:
         raise StudyError(f"{name}: \"whatif\" must hold the what-if settings and the "
                          "solution they started from")
     return {"from": whatif.get("from"), "settings": dict(settings)}
+
+
+def _asked(asked, name: str) -> dict:
+    asked = asked or {}
+    runs, shown = asked.get("next_runs", 0), asked.get("compare_shown", [])
+    if not (isinstance(asked, dict) and isinstance(runs, int) and not isinstance(runs, bool)
+            and 0 <= runs <= 12 and isinstance(shown, list)
+            and all(isinstance(n, str) for n in shown)
+            and isinstance(asked.get("report", False), bool)):
+        raise StudyError(f"{name}: \"asked\" must say how many next runs were asked for "
+                         "(0 to 12), which model comparisons are open and whether the "
+                         "report was prepared")
+    return {"next_runs": runs, "compare_shown": set(shown),
+            "report": asked.get("report", False)}

@@ -155,3 +155,18 @@ def test_a_goal_written_as_keys_reads_back_the_same(table):
         assert _goal(goal.keys(defaults=defaults), "x.toml", "goal") == goal
     assert goal.keys(defaults=False).get("weight", 1.0) == table.get("weight", 1.0)
     assert Goal().keys() == {}
+
+
+def test_plan_what_if_and_asked_for_round_trip():
+    text = session_text(study={"kind": "path", "path": "/lab/x.toml"}, goals={}, models={},
+                        plan={"a_design": "optimal", "a_n": 16, "compare": True,
+                              "a_cent": ["edges", "overall"]},
+                        whatif={"from": "S1", "settings": {"temp": 181.0, "flour": "rice"}},
+                        asked={"next_runs": 4, "compare_shown": {"v", "h"}, "report": True})
+    back = read_session(text, "x.session.json")
+    assert back["plan"] == {"a_design": "optimal", "a_n": 16, "compare": True,
+                            "a_cent": ["edges", "overall"]}
+    assert back["whatif"] == {"from": "S1", "settings": {"temp": 181.0, "flour": "rice"}}
+    assert back["asked"] == {"next_runs": 4, "compare_shown": {"v", "h"}, "report": True}
+    with pytest.raises(StudyError, match='"asked" must say'):
+        read_session(text.replace('"next_runs": 4', '"next_runs": 40'), "x.session.json")
