@@ -80,7 +80,7 @@ def recipes_to_make(study) -> tuple[dict[str, dict], str | None]:
 def sheet_for(study, recipes: dict[str, dict], choices: dict):
     """The batch sheet of ``recipes`` with the batch sheet view's choices
     (``st.session_state["batch"]``; tradeoff.study.session.BATCH_KEYS)."""
-    from tradeoff.confirm.batch_sheet import batch_sheet
+    from tradeoff.confirm.batch_sheet import batch_sheet, taken_run_ids
 
     made = {k: v for k, v in recipes.items() if k not in choices.get("left_out", [])}
     return batch_sheet(study, made, batch_g=float(choices.get("size_g", 1000.0)),
@@ -88,7 +88,8 @@ def sheet_for(study, recipes: dict[str, dict], choices: dict):
                        batches=int(choices.get("batches", 2)),
                        seed=int(choices.get("seed", study.seed)),
                        percent_factors=tuple(choices.get("percent", ())),
-                       rest=choices.get("rest") or "rest of the recipe")
+                       rest=choices.get("rest") or "rest of the recipe",
+                       taken=taken_run_ids(study))
 
 
 def stop_without_factors(study) -> None:

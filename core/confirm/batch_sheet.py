@@ -13,6 +13,8 @@ names as percent of the batch, the rest of the batch making up the balance.
 """
 from __future__ import annotations
 
+import itertools
+
 import math
 from dataclasses import dataclass
 from decimal import Decimal
@@ -23,7 +25,7 @@ import pandas as pd
 from ..cautions import BLEND_CAUTION, FOOD_CAUTIONS
 from ..errors import StudyError
 
-__all__ = ["BatchSheet", "batch_sheet", "largest_remainder", "recipe_shares",
+__all__ = ["BatchSheet", "batch_sheet", "largest_remainder", "recipe_shares", "taken_run_ids",
            "INGREDIENT_COLUMNS", "PROCESS_COLUMNS", "ORDER_COLUMNS"]
 
 INGREDIENT_COLUMNS = ["recipe", "ingredient", "label", "share_percent", "exact_g", "grams"]
@@ -171,12 +173,14 @@ def _cell(v) -> str:
 
 def batch_sheet(study, recipes: dict[str, dict], *, batch_g: float, step_g: float = 1.0,
                 batches: int = 1, seed: int | None = None, percent_factors=(),
-                rest: str = "rest of the recipe") -> BatchSheet:
+                rest: str = "rest of the recipe", taken=()) -> BatchSheet:
     """Turn recipes (label -> factor settings in natural units) into a batch sheet.
 
     ``batches`` confirmation batches are made of each recipe, in an order
     shuffled with ``seed`` (the study's seed when None) so time trends do not
-    line up with the recipes.
+    line up with the recipes. They are named C1, C2, ... skipping the run ids in
+    ``taken`` (those of the study's confirmation runs: ``taken_run_ids``), since
+    each confirmation run needs its own id.
     """
     if not recipes:
         raise StudyError("pin or choose a recipe first: the batch sheet needs one")
@@ -206,9 +210,24 @@ def batch_sheet(study, recipes: dict[str, dict], *, batch_g: float, step_g: floa
     rng = np.random.default_rng(study.seed if seed is None else seed)
     runs = [(label, k) for k in range(1, int(batches) + 1) for label in recipes]
     perm = rng.permutation(len(runs))
-    order = pd.DataFrame([{"run_order": i + 1, "run": f"C{i + 1}", "recipe": runs[j][0]}
+    taken = {str(t) for t in taken}
+    ids = (f"C{n}" for n in itertools.count(1) if f"C{n}" not in taken)
+    order = pd.DataFrame([{"run_order": i + 1, "run": next(ids), "recipe": runs[j][0]}
                           for i, j in enumerate(perm)], columns=ORDER_COLUMNS)
     cautions = FOOD_CAUTIONS + ((BLEND_CAUTION,) if study.mixture is not None else ())
     return BatchSheet(ingredients=pd.DataFrame(ing, columns=INGREDIENT_COLUMNS),
                       process=pd.DataFrame(proc, columns=PROCESS_COLUMNS), order=order,
                       batch_g=float(batch_g), step_g=float(step_g), cautions=cautions)
+
+
+def taken_run_ids(study) -> set[str]:
+    """The run ids the study's confirmation runs already use (none when a table
+    cannot be read: its own check names the problem)."""
+    from ..errors import TradeoffError
+    from ..study.confirmations import confirmation_runs
+
+    try:
+        listed = confirmation_runs(study, read_files=True)
+    except TradeoffError:
+        return set()
+    return {str(r) for r in listed["run"].dropna()}

@@ -91,3 +91,18 @@ def test_percent_factors_leave_the_rest():
     with pytest.raises(StudyError, match="no setting for factor 'mix_temp'"):
         batch_sheet(study, {"r": {"protein": 25, "glycerol": 5, "binder": "date paste"}},
                     batch_g=100)
+
+
+def test_batches_are_named_after_the_confirmation_runs_already_listed():
+    """Each confirmation run needs its own id (the study reader refuses a repeated
+    one): a new sheet's batches skip the ids the study's confirmations use."""
+    from tradeoff.confirm.batch_sheet import taken_run_ids
+
+    study = load_study(demo_study_path())
+    settings = {f.name: (f.levels[0] if f.is_categorical else f.low) for f in study.factors}
+    sheet = batch_sheet(study, {"A": settings}, batch_g=500.0, batches=3,
+                        taken={"C1", "C3"})
+    assert sorted(sheet.order["run"]) == ["C2", "C4", "C5"]
+    listed = taken_run_ids(study)
+    fresh = batch_sheet(study, {"A": settings}, batch_g=500.0, batches=2, taken=listed)
+    assert not set(fresh.order["run"]) & listed
