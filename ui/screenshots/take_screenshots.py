@@ -1,0 +1,351 @@
+"""Take the README's pictures of the workbench, on the invented flour blend demo.
+
+Run from the project folder (needs Debian's chromium, ``apt-get install chromium``,
+and the test extras, which bring playwright; no browser is ever downloaded)::
+
+    .venv/bin/python ui/screenshots/take_screenshots.py
+
+It copies demo_data/ into a temporary folder (the demo itself is never written
+to), starts ``tradeoff app`` on the copy with its session files in the same
+temporary folder, walks through the workbench as a lab user would in a headless
+chromium 1280 px wide (a laptop) and writes these pictures beside this script,
+each cropped to the part the README talks about and kept under 150 KB:
+
+- ``new_study.png``: the bare runs table uploaded on *New study*, the flours
+  offered as blend components, the study file written beside the form;
+- ``targets.png``: the goals and weights of *Targets and weights*;
+- ``recommended.png``: the best balance on *Recommended settings*;
+- ``batch_sheet.png``: the recommendation in grams on *Batch sheet*;
+- ``confirmation.png``: two typed confirmation results against their
+  prediction intervals on *Confirmation runs*;
+- ``plan.png``: a design judged in plain words on *Plan the runs*.
+
+The same walk gives the same pictures (the demo and every seed are fixed); run it
+again after changing a view the README shows.
+"""
+from __future__ import annotations
+
+import hashlib
+import io
+import os
+import signal
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+
+from PIL import Image
+
+from tradeoff.study.files import write_atomic
+
+HERE = Path(__file__).resolve().parent
+DEMO = HERE.parents[1] / "demo_data"
+STUDY = "flour_blend.toml"
+TABLE = "flour_blend_runs.csv"
+CHROMIUM = "/usr/bin/chromium"
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+        "--disable-component-update", "--disable-sync", "--no-first-run"]
+WIDTH = 1280  # a laptop
+TALL = 2400   # tall enough that each view is drawn whole, then cropped
+LIMIT = 150_000  # bytes per picture: the README stays quick to load
+MARGIN = 60   # of the main column's 80 px margins, the part cut off each side
+FIRST_CELL = 60  # px from a table editor's left edge into its first column
+ROW = 35      # px per row of a table, the header included
+# the factors of the flour blend, in the confirmation table's order
+FACTORS = ("rice_flour", "sorghum_flour", "tapioca_starch", "bake_temp", "hydrocolloid")
+# two confirmation batches typed by hand: plausible values near the predictions
+# (volume mL/g, hardness N, lightness L*), invented for the picture
+MEASURED = (("2.76", "5.7", "57.4"), ("2.83", "5.3", "58.6"))
+CONNECTED = '[data-testid="stApp"][data-test-connection-state="CONNECTED"]'
+
+# A view is settled when no script runs, no skeleton shows, every chart is drawn
+# and nothing changed for a moment (the browser tests wait the same way).
+_STATE = """() => [
+  document.querySelectorAll('[data-testid="stStatusWidget"]').length,
+  document.querySelectorAll('[data-testid="stSkeleton"]').length,
+  document.querySelectorAll('[data-testid="stElementContainer"]').length,
+  document.querySelectorAll('.vega-embed').length,
+  document.querySelectorAll('.vega-embed svg, .vega-embed canvas').length,
+  document.body.innerText.length]"""
+
+
+# -- the workbench -------------------------------------------------------------------
+
+
+def copy_demo(folder: Path) -> None:
+    """The demo's files, copied into ``folder`` (the demo stays untouched)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    for path in DEMO.iterdir():
+        if path.is_file():
+            write_atomic(folder / path.name, path.read_bytes())
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def start_workbench(study: Path, sessions: Path, log: Path) -> tuple[subprocess.Popen, int]:
+    """``tradeoff app study`` on a free port, once it answers."""
+    port = free_port()
+    tradeoff = Path(sys.executable).with_name("tradeoff")
+    env = {**os.environ, "TRADEOFF_SESSIONS": str(sessions)}
+    with log.open("wb") as out:
+        proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port), str(study)],
+                                stdout=out, stderr=subprocess.STDOUT, env=env,
+                                start_new_session=True)
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline:
+        if proc.poll() is not None:
+            raise SystemExit(f"tradeoff app stopped early:\n{log.read_text()}")
+        try:
+            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health",
+                                        timeout=2) as answer:
+                if answer.read().strip() == b"ok":
+                    return proc, port
+        except OSError:
+            pass
+        time.sleep(0.3)
+    stop_workbench(proc)
+    raise SystemExit(f"the workbench did not answer within 120 s:\n{log.read_text()}")
+
+
+def stop_workbench(proc: subprocess.Popen) -> None:
+    """End the server this script started, and the helpers it started."""
+    if proc.poll() is None:
+        proc.terminate()
+        try:
+            proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            pass
+    try:
+        os.killpg(proc.pid, signal.SIGKILL)
+    except ProcessLookupError:
+        pass
+
+
+# -- the browser ---------------------------------------------------------------------
+
+
+def settle(page, quiet: float = 0.8, timeout: float = 120.0) -> None:
+    """Wait until the view has run to its end and stopped changing."""
+    start = time.monotonic()
+    last, since = None, time.monotonic()
+    while time.monotonic() - start < timeout:
+        s = page.evaluate(_STATE)
+        busy = s[0] > 0 or s[1] > 0 or s[2] == 0 or s[4] < s[3]
+        if s != last or busy:
+            last, since = s, time.monotonic()
+        elif time.monotonic() - since >= quiet:
+            return
+        page.wait_for_timeout(50)
+    raise SystemExit("a view did not settle within two minutes")
+
+
+def open_view(page, port: int, path: str, marker: str) -> None:
+    """Go to a view by its address and wait for a text it shows once done."""
+    page.goto(f"http://127.0.0.1:{port}/{path}", timeout=120_000)
+    page.wait_for_selector(CONNECTED, timeout=120_000)
+    page.get_by_text(marker).first.wait_for(timeout=120_000)
+    settle(page)
+
+
+def go(page, link: str, marker: str) -> None:
+    """Follow a link of the menu, as a user clicks it (the session goes along)."""
+    page.get_by_role("link", name=link).first.click()
+    page.get_by_text(marker).first.wait_for(timeout=120_000)
+    settle(page)
+
+
+def main_box(page) -> dict:
+    """The main column's box, the menu on the left and most of the margins left out."""
+    box = page.locator('[data-testid="stMainBlockContainer"]').bounding_box()
+    return {"x": box["x"] + MARGIN, "width": box["width"] - 2 * MARGIN}
+
+
+def span(top, bottom, *, pad: int = 12, menu: bool = False, page=None) -> dict:
+    """The part of the page from the top of one element to the bottom of another:
+    the main column, or with ``menu`` the whole width, the menu on the left included."""
+    first, last = top.bounding_box(), bottom.bounding_box()
+    y = max(0.0, first["y"] - pad)
+    across = {"x": 0, "width": WIDTH} if menu else main_box(page or top.page)
+    return {**across, "y": y, "height": last["y"] + last["height"] + pad - y}
+
+
+def picture(page, clip: dict) -> Image.Image:
+    return Image.open(io.BytesIO(page.screenshot(clip=clip))).convert("RGB")
+
+
+def stacked(parts: list[Image.Image], gap: int = 18) -> Image.Image:
+    """Parts of one view one above the other, a thin grey line where a part was left out."""
+    width = max(p.width for p in parts)
+    height = sum(p.height for p in parts) + gap * (len(parts) - 1)
+    out = Image.new("RGB", (width, height), "white")
+    y = 0
+    for i, part in enumerate(parts):
+        if i:
+            line = y - gap // 2
+            out.paste((200, 200, 200), (MARGIN // 2, line, width - MARGIN // 2, line + 1))
+        out.paste(part, (0, y))
+        y += part.height + gap
+    return out
+
+
+def save(image: Image.Image, name: str) -> None:
+    """Write one picture, as small as PNG allows, and check its size."""
+    buffer = io.BytesIO()
+    # 256 colours keep a screen of text and flat charts as the eye sees it
+    image.quantize(colors=256, method=Image.Quantize.MEDIANCUT).save(
+        buffer, format="PNG", optimize=True)
+    data = buffer.getvalue()
+    if len(data) > LIMIT:
+        raise SystemExit(f"{name}: {len(data)} bytes, over {LIMIT}: crop it tighter")
+    write_atomic(HERE / name, data)
+    print(f"ui/screenshots/{name}: {image.width} x {image.height} px, "
+          f"{len(data) / 1000:.0f} KB")
+
+
+def no_toast(page) -> None:
+    """Wait until a passing message (a pin's toast) has gone."""
+    page.locator('[data-testid="stToast"]').first.wait_for(state="hidden", timeout=30_000)
+
+
+def type_box(page, key: str, value: str) -> None:
+    """Type into a text or number box by its widget key, as a user does."""
+    box = page.locator(f".st-key-{key} input")
+    box.fill(value)
+    box.press("Enter")
+    settle(page)
+
+
+def type_cell(page, table, row: int, column: int, value: str) -> None:
+    """Type one cell of a table editor as a user does: select it, open it, type, confirm.
+
+    The editor is drawn on a canvas, so the cell is reached from the first column
+    of its row with the arrow keys. Each confirmed cell reruns the view, which
+    draws the editor anew: the pauses let it take the keys.
+    """
+    box = table.bounding_box()
+    page.keyboard.press("Escape")
+    page.mouse.click(box["x"] + FIRST_CELL, box["y"] + ROW * (row + 1) + ROW / 2)
+    page.wait_for_timeout(300)
+    for _ in range(column):
+        page.keyboard.press("ArrowRight")
+    page.keyboard.press("Enter")
+    page.wait_for_timeout(300)
+    page.keyboard.type(value, delay=50)
+    page.keyboard.press("Enter")
+    settle(page)
+
+
+# -- the pictures --------------------------------------------------------------------
+
+
+def shoot_new_study(page, port: int, table: Path) -> None:
+    """(a) the bare table uploaded: roles offered, the study file beside the form."""
+    open_view(page, port, "new_study", "New study")
+    page.locator(".st-key-ns_upload input[type=file]").set_input_files(str(table))
+    page.get_by_text("1. What each column is").wait_for(timeout=120_000)
+    settle(page)
+    data = table.read_bytes()  # the view keys its widgets by the table's digest
+    nonce = "ns_" + hashlib.sha256(table.name.encode() + b"\0" + data).hexdigest()[:8]
+    type_box(page, f"{nonce}_name", "Gluten-free flour blend (invented demo)")
+    for column, label in (("rice_flour", "Rice flour"), ("sorghum_flour", "Sorghum flour"),
+                          ("tapioca_starch", "Tapioca starch")):
+        type_box(page, f"{nonce}_label_{column}", label)
+        type_box(page, f"{nonce}_unit_{column}", "%")
+    clip = span(page.locator(".st-key-ns_upload"), page.locator(f".st-key-{nonce}_total"))
+    save(picture(page, clip), "new_study.png")
+
+
+def shoot_targets(page, port: int) -> None:
+    """(b) the goals and weights, with the best settings now in the menu."""
+    open_view(page, port, "targets", "Best settings now")
+    top = page.get_by_role("heading", name="Targets and weights")
+    last = page.get_by_text("At the best settings:").nth(2)  # the third response's box
+    save(picture(page, span(top, last, pad=28, menu=True)), "targets.png")
+
+
+def shoot_recommended(page, port: int) -> None:
+    """(c) the best balance and what is predicted there, then pin it."""
+    open_view(page, port, "results", "What if I make it like this?")
+    table = span(page.get_by_role("heading", name="Best settings and alternatives"),
+                 page.locator(".st-key-r_chosen"))
+    predictions = page.locator('[data-testid="stDataFrame"]').filter(has_text="one batch").first
+    chosen = span(page.locator(".st-key-r_pin"), predictions)
+    # the trade-off chart between them is left out: the README reads the tables
+    save(stacked([picture(page, table), picture(page, chosen)]), "recommended.png")
+    page.locator(".st-key-r_pin button").click()
+    settle(page)
+
+
+def shoot_batch(page) -> None:
+    """(d) the pinned recommendation in grams."""
+    go(page, "Batch sheet", "Make in this order")
+    no_toast(page)
+    clip = span(page.get_by_role("heading", name="Batch sheet"),
+                page.get_by_text("A random order, so a drift"))
+    save(picture(page, clip), "batch_sheet.png")
+
+
+def shoot_confirmation(page) -> None:
+    """(e) two typed confirmation batches against their prediction intervals."""
+    go(page, "Confirmation runs", "Keep them")
+    no_toast(page)
+    editor = page.locator('[data-testid="stDataFrame"]').first
+    first = 1 + len(FACTORS)  # run id, then the settings, then the results
+    for row, results in enumerate(MEASURED):
+        for i, value in enumerate(results):
+            type_cell(page, editor, row, first + i, value)
+    page.get_by_text("Measured against the prediction intervals").wait_for(timeout=60_000)
+    settle(page)
+    clip = span(page.get_by_role("heading", name="Confirmation runs"),
+                page.locator('[data-testid="stDataFrame"]').nth(2))
+    save(picture(page, clip), "confirmation.png")
+
+
+def shoot_plan(page) -> None:
+    """(f) a design judged in plain words."""
+    go(page, "Plan the runs", "Run sheet")
+    clip = span(page.get_by_role("heading", name="Plan the runs"),
+                page.get_by_role("button", name="Its study file (.toml)"))
+    save(picture(page, clip), "plan.png")
+
+
+def main() -> None:
+    from playwright.sync_api import sync_playwright
+
+    if not Path(CHROMIUM).exists():
+        raise SystemExit(f"needs Debian's chromium at {CHROMIUM}: apt-get install chromium")
+    with tempfile.TemporaryDirectory(prefix="tradeoff_shots_") as tmp:
+        work = Path(tmp)
+        copy_demo(work / "lab")
+        upload = work / "upload" / TABLE  # the bare table, alone in its folder
+        upload.parent.mkdir()
+        write_atomic(upload, (DEMO / TABLE).read_bytes())
+        proc, port = start_workbench(work / "lab" / STUDY, work / "sessions",
+                                     work / "server.log")
+        try:
+            with sync_playwright() as pw:
+                browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True,
+                                             args=ARGS)
+                try:
+                    page = browser.new_page(viewport={"width": WIDTH, "height": TALL})
+                    shoot_new_study(page, port, upload)
+                    shoot_targets(page, port)
+                    shoot_recommended(page, port)
+                    shoot_batch(page)
+                    shoot_confirmation(page)
+                    shoot_plan(page)
+                finally:
+                    browser.close()
+        finally:
+            stop_workbench(proc)
+
+
+if __name__ == "__main__":
+    main()
