@@ -59,6 +59,7 @@ FACTORS = ("rice_flour", "sorghum_flour", "tapioca_starch", "bake_temp", "hydroc
 # two confirmation batches typed by hand: plausible values near the predictions
 # (volume mL/g, hardness N, lightness L*), invented for the picture
 MEASURED = (("2.76", "5.7", "57.4"), ("2.83", "5.3", "58.6"))
+BATCH_G = "850"  # grams of blend per confirmation batch
 CONNECTED = '[data-testid="stApp"][data-test-connection-state="CONNECTED"]'
 
 # A view is settled when no script runs, no skeleton shows, every chart is drawn
@@ -172,7 +173,9 @@ def span(top, bottom, *, pad: int = 12, menu: bool = False, page=None) -> dict:
     the main column, or with ``menu`` the whole width, the menu on the left included."""
     first, last = top.bounding_box(), bottom.bounding_box()
     y = max(0.0, first["y"] - pad)
-    across = {"x": 0, "width": WIDTH} if menu else main_box(page or top.page)
+    across = main_box(page or top.page)
+    if menu:
+        across = {"x": 0, "width": across["x"] + across["width"]}
     return {**across, "y": y, "height": last["y"] + last["height"] + pad - y}
 
 
@@ -214,11 +217,11 @@ def no_toast(page) -> None:
     page.locator('[data-testid="stToast"]').first.wait_for(state="hidden", timeout=30_000)
 
 
-def type_box(page, key: str, value: str) -> None:
-    """Type into a text or number box by its widget key, as a user does."""
-    box = page.locator(f".st-key-{key} input")
+def type_box(page, box, value: str) -> None:
+    """Type into a text or number box, as a user does, and confirm with Enter."""
     box.fill(value)
     box.press("Enter")
+    box.blur()  # no focus ring left in the picture
     settle(page)
 
 
@@ -253,11 +256,14 @@ def shoot_new_study(page, port: int, table: Path) -> None:
     settle(page)
     data = table.read_bytes()  # the view keys its widgets by the table's digest
     nonce = "ns_" + hashlib.sha256(table.name.encode() + b"\0" + data).hexdigest()[:8]
-    type_box(page, f"{nonce}_name", "Gluten-free flour blend (invented demo)")
+    def box(key: str):
+        return page.locator(f".st-key-{nonce}_{key} input")
+
+    type_box(page, box("name"), "Gluten-free flour blend (invented demo)")
     for column, label in (("rice_flour", "Rice flour"), ("sorghum_flour", "Sorghum flour"),
                           ("tapioca_starch", "Tapioca starch")):
-        type_box(page, f"{nonce}_label_{column}", label)
-        type_box(page, f"{nonce}_unit_{column}", "%")
+        type_box(page, box(f"label_{column}"), label)
+        type_box(page, box(f"unit_{column}"), "%")
     clip = span(page.locator(".st-key-ns_upload"), page.locator(f".st-key-{nonce}_total"))
     save(picture(page, clip), "new_study.png")
 
@@ -267,7 +273,7 @@ def shoot_targets(page, port: int) -> None:
     open_view(page, port, "targets", "Best settings now")
     top = page.get_by_role("heading", name="Targets and weights")
     last = page.get_by_text("At the best settings:").nth(2)  # the third response's box
-    save(picture(page, span(top, last, pad=28, menu=True)), "targets.png")
+    save(picture(page, span(top, last, pad=40, menu=True)), "targets.png")
 
 
 def shoot_recommended(page, port: int) -> None:
@@ -287,6 +293,7 @@ def shoot_batch(page) -> None:
     """(d) the pinned recommendation in grams."""
     go(page, "Batch sheet", "Make in this order")
     no_toast(page)
+    type_box(page, page.get_by_label("Batch size (g)"), BATCH_G)  # a size where rounding to the gram shows
     clip = span(page.get_by_role("heading", name="Batch sheet"),
                 page.get_by_text("A random order, so a drift"))
     save(picture(page, clip), "batch_sheet.png")
@@ -302,6 +309,7 @@ def shoot_confirmation(page) -> None:
         for i, value in enumerate(results):
             type_cell(page, editor, row, first + i, value)
     page.get_by_text("Measured against the prediction intervals").wait_for(timeout=60_000)
+    page.mouse.move(0, 0)  # the table's tool bar shows only under the pointer
     settle(page)
     clip = span(page.get_by_role("heading", name="Confirmation runs"),
                 page.locator('[data-testid="stDataFrame"]').nth(2))
