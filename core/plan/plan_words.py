@@ -98,7 +98,7 @@ def plan_words(report: dict) -> list[str]:
                          f"{power['alpha']:.2g} level.")
         else:
             lines.append("Power: none, as no run is left over to test an effect.")
-    else:
+    elif "components" not in report:  # a blend's plan is judged without power: ask nothing
         lines.append("Power: give the smallest change worth finding and the expected "
                      "run-to-run SD to see it.")
     if m["i_average"] is not None:

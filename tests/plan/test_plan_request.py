@@ -141,3 +141,18 @@ def test_study_file_that_goes_with_the_sheet_opens_the_sheet(tmp_path):
     assert again.data_path.name == "bb.csv"
     assert again.factor_names == study.factor_names
     assert again.response_names == study.response_names
+
+
+def test_blend_plan_words_ask_for_no_power_inputs():
+    # a blend's plan is judged without power, and the plan view offers no box for
+    # the change or the SD: the words must not ask for them (common practice: a
+    # screen asks only for what it can take). The runs and the left-over runs are
+    # still said: 15 quadratic-by-process terms from 36 runs leave 21.
+    planned = plan_request(BLEND, design="vertices", centroids="overall", seed=0)
+    words = plan_words(planned.report)
+    assert not any(line.startswith("Power") for line in words)
+    assert words[0] == "Runs: 36 to make."
+    assert "Precision: 21 runs left over" in " ".join(words)
+    # a plan that can be judged for power still asks
+    assert any(line.startswith("Power: give") for line in plan_words(
+        plan_request(SNACK, design="central-composite", seed=1).report))
