@@ -168,18 +168,19 @@ def main_box(page) -> dict:
     return {"x": box["x"] + MARGIN, "width": box["width"] - 2 * MARGIN}
 
 
-def span(top, bottom, *, pad: int = 12, menu: bool = False, page=None) -> dict:
+def span(top, bottom, *, pad: int = 12, menu: bool = False) -> dict:
     """The part of the page from the top of one element to the bottom of another:
-    the main column, or with ``menu`` the whole width, the menu on the left included."""
+    the main column, or with ``menu`` the menu on the left as well."""
     first, last = top.bounding_box(), bottom.bounding_box()
     y = max(0.0, first["y"] - pad)
-    across = main_box(page or top.page)
+    across = main_box(top.page)
     if menu:
         across = {"x": 0, "width": across["x"] + across["width"]}
     return {**across, "y": y, "height": last["y"] + last["height"] + pad - y}
 
 
 def picture(page, clip: dict) -> Image.Image:
+    """What the browser shows inside ``clip``, as an image."""
     return Image.open(io.BytesIO(page.screenshot(clip=clip))).convert("RGB")
 
 
@@ -256,6 +257,7 @@ def shoot_new_study(page, port: int, table: Path) -> None:
     settle(page)
     data = table.read_bytes()  # the view keys its widgets by the table's digest
     nonce = "ns_" + hashlib.sha256(table.name.encode() + b"\0" + data).hexdigest()[:8]
+
     def box(key: str):
         return page.locator(f".st-key-{nonce}_{key} input")
 
@@ -293,7 +295,8 @@ def shoot_batch(page) -> None:
     """(d) the pinned recommendation in grams."""
     go(page, "Batch sheet", "Make in this order")
     no_toast(page)
-    type_box(page, page.get_by_label("Batch size (g)"), BATCH_G)  # a size where rounding to the gram shows
+    # a batch size where rounding to the gram shows
+    type_box(page, page.get_by_label("Batch size (g)"), BATCH_G)
     clip = span(page.get_by_role("heading", name="Batch sheet"),
                 page.get_by_text("A random order, so a drift"))
     save(picture(page, clip), "batch_sheet.png")
