@@ -94,6 +94,13 @@ def _grid_cells(page) -> dict[tuple[int, int], str]:
     return out
 
 
+def _grid_headers(page) -> list[str]:
+    """The first table editor's column headers, in the order shown."""
+    return page.evaluate("""() => Array.from(document.querySelector(
+        '[data-testid=stDataFrame]').querySelectorAll('table th')).map(
+        e => e.innerText.trim()).filter(t => t)""")
+
+
 def _type_cell(page, row: int, column: int, value) -> None:
     """Type into a table editor cell as a user does: click the row, walk to the
     column with the arrow keys, Enter to edit, type, Enter to keep."""
@@ -274,14 +281,17 @@ def _close_the_loop(page, study_file: Path, tmp_path: Path) -> None:
     names = ["run", *study.factor_names, *study.response_names]
     cells = _grid_cells(page)
     assert [cells[(i, 0)] for i in range(len(sheet.order))] == sheet.order["run"].tolist()
+    # the settings come from the sheet: the results alone are in view
+    heads = _grid_headers(page)
+    assert heads == ["run id", *study.response_names]
     measured = {r.name: round(best.predictions[r.name], 2) for r in study.responses}
     for name, value in measured.items():
-        _type_cell(page, 0, names.index(name), value)
+        _type_cell(page, 0, heads.index(name), value)
     _check(page, "confirmation runs")
     shown = _confirm_code(page)
     _shoot(page, "confirm_flour")
     _reload_at(page, "Keep them")  # the typed batch is kept, not saved yet
-    assert _grid_cells(page)[(0, names.index("crumb_hardness"))] == str(
+    assert _grid_cells(page)[(0, heads.index("crumb_hardness"))] == str(
         measured["crumb_hardness"])
     assert _confirm_code(page) == shown
 

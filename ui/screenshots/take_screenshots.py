@@ -54,8 +54,6 @@ LIMIT = 150_000  # bytes per picture: the README stays quick to load
 MARGIN = 60   # of the main column's 80 px margins, the part cut off each side
 FIRST_CELL = 60  # px from a table editor's left edge into its first column
 ROW = 35      # px per row of a table, the header included
-# the factors of the flour blend, in the confirmation table's order
-FACTORS = ("rice_flour", "sorghum_flour", "tapioca_starch", "bake_temp", "hydrocolloid")
 # two confirmation batches typed by hand: plausible values near the predictions
 # (volume mL/g, hardness N, lightness L*), invented for the picture
 MEASURED = (("2.76", "5.7", "57.4"), ("2.83", "5.3", "58.6"))
@@ -307,7 +305,7 @@ def shoot_confirmation(page) -> None:
     go(page, "Confirmation runs", "Keep them")
     no_toast(page)
     editor = page.locator('[data-testid="stDataFrame"]').first
-    first = 1 + len(FACTORS)  # run id, then the settings, then the results
+    first = 1  # run id, then the results (the settings, from the sheet, are folded away)
     for row, results in enumerate(MEASURED):
         for i, value in enumerate(results):
             type_cell(page, editor, row, first + i, value)

@@ -91,8 +91,18 @@ for r in study.responses:
         default="")
 config["run"] = st.column_config.TextColumn("run id", width="small", default="")
 ss["confirm_typed"] = as_typed_text(ss["confirm_typed"], ["run", *study.response_names])
-edited = editing.kept_editor("confirm_typed", num_rows="dynamic", hide_index=True,
-                             column_config=config, width="stretch")
+# batches from the batch sheet or the pins carry their settings: then the results
+# alone are shown (every column in view), the settings one switch away
+typed = ss["confirm_typed"]
+filled = len(typed) > 0 and bool(typed[study.factor_names].notna().all(axis=None))
+settings_shown = st.toggle(
+    "Show each batch's settings", value=not filled, key=f"cf_settings_{int(filled)}",
+    help="The settings are filled in from the batch sheet or the pinned recipes; show "
+         "them to check or change them, or to add a batch by hand.")
+edited = editing.kept_editor(
+    "confirm_typed", num_rows="dynamic", hide_index=True, column_config=config,
+    width="stretch",
+    column_order=None if settings_shown else ["run", *study.response_names])
 
 # -- call the library ------------------------------------------------------------------
 measured = measured_rows(study, edited) > 0
