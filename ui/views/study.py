@@ -21,8 +21,8 @@ ss = st.session_state
 st.title("Study and runs")
 with st.expander("Open another study", expanded=False):
     st.write("Upload a study file (.toml) together with its data file, or a data "
-             "file (.csv or .xlsx) on its own and name its factor and response "
-             "columns below.")
+             "file (.csv or .xlsx) on its own and say what each column is on "
+             "'New study'.")
     uploads = st.file_uploader("Study and data files", accept_multiple_files=True,
                                type=["toml", *[s.lstrip(".") for s in DATA_SUFFIXES]],
                                key="upload_widget")
