@@ -1,8 +1,8 @@
 """What a user hands over in the front end, turned into checked library objects.
 
-Uploaded files arrive as bytes, not paths; a bare data table needs its factor
-and response columns named; goals typed into widgets need the same checks as
-goals written in a study file. Each function here returns the library's own
+Uploaded files arrive as bytes, not paths; goals typed into widgets need the
+same checks as goals written in a study file (a bare data table is drafted into
+a study by ``study.draft``). Each function here returns the library's own
 objects (``Study``, ``Goal``) or raises a one-line ``TradeoffError``.
 """
 from __future__ import annotations
@@ -10,17 +10,14 @@ from __future__ import annotations
 from dataclasses import replace
 from pathlib import Path
 
-import numpy as np
-import pandas as pd
-
-from .errors import StudyError, TradeoffError
-from .study.intake import MAX_TABLE_BYTES, parse_number, read_table
+from .errors import StudyError
+from .study.intake import MAX_TABLE_BYTES
 from .study.spec import MAX_STUDY_BYTES, MODELS, Goal, Study
 from .study.reader import _goal, check_production_sd, parse_study_text
 from .derive.load import study_from_dict
 
-__all__ = ["DATA_SUFFIXES", "study_from_files", "table_columns", "draft_spec",
-           "checked_goal", "with_response_model", "with_production_sd"]
+__all__ = ["DATA_SUFFIXES", "study_from_files", "checked_goal", "with_response_model",
+           "with_production_sd"]
 
 DATA_SUFFIXES = (".csv", ".txt", ".tsv", ".xlsx", ".xlsm")
 
@@ -77,122 +74,6 @@ def study_from_files(files: dict[str, bytes]) -> Study:
                          "or upload exactly one data file with it")
     return study_from_dict(spec, source=Path(name), data_bytes=files[data_name],
                            uploads=files)
-
-
-def table_columns(name: str, data: bytes) -> pd.DataFrame:
-    """The columns of a bare data table, with a suggested role for each.
-
-    Returns a DataFrame with columns ``column``, ``kind`` ("number" or
-    "text"), ``distinct`` (number of different values), ``role``
-    ("factor", "response" or "other") and ``levels`` (the two level names of
-    a two-level text column, else None). A column with at most three different
-    numbers (low, centre, high) or exactly two words is suggested as a
-    factor; other number columns as responses.
-    """
-    return _column_roles(read_table(Path(name), data=data))
-
-
-def _column_roles(table) -> pd.DataFrame:
-    """``table_columns`` of a table already read."""
-    rows = []
-    for j, column in enumerate(table.header):
-        if not column:
-            continue
-        cells = [cells[j] if j < len(cells) else None for _, cells in table.rows]
-        present = [c for c in cells if c is not None]
-        try:
-            values = np.array([parse_number(c, decimal_comma=table.decimal_comma,
-                                            location="") for c in present])
-            kind, distinct = "number", len(np.unique(values))
-        except TradeoffError:  # not all cells are numbers
-            kind, distinct = "text", len(set(map(str, present)))
-        levels = None
-        if column.lower() in ("run", "std_order", "run_order", "order"):
-            role = "other"
-        elif kind == "number" and 2 <= distinct <= 3 and len(present) == len(cells):
-            role = "factor"
-        elif kind == "text" and distinct == 2 and len(present) == len(cells):
-            role = "factor"
-            levels = sorted(set(map(str, present)))
-        elif kind == "number":
-            role = "response"
-        else:
-            role = "other"
-        rows.append({"column": column, "kind": kind, "distinct": int(distinct),
-                     "role": role, "levels": levels})
-    return pd.DataFrame(rows, columns=["column", "kind", "distinct", "role", "levels"])
-
-
-def draft_spec(name: str, data: bytes, factors: list[str],
-               responses: list[str]) -> dict:
-    """A study specification for a bare data table, ready for ``study_from_dict``.
-
-    Numeric factors run from their lowest to their highest tested setting;
-    text factors with two values become categorical factors. Responses start
-    with no goal; the user sets goals in the front end.
-
-    Raises
-    ------
-    StudyError
-        No factor or response chosen, a column used twice, a text column chosen
-        as a response, or a text factor without exactly two values.
-    """
-    if not factors:
-        raise StudyError(f"{name}: choose at least one factor column")
-    if not responses:
-        raise StudyError(f"{name}: choose at least one response column")
-    both = sorted(set(factors) & set(responses))
-    if both:
-        raise StudyError(f"{name}: {both} chosen as factor and as response: each column "
-                         "is one or the other")
-    table = read_table(Path(name), data=data)
-    columns = _column_roles(table).set_index("column")
-    index = {c: j for j, c in enumerate(table.header)}
-    spec_factors = []
-    for f in factors:
-        if f not in columns.index:
-            raise StudyError(f"{name}: no column '{f}' in the table")
-        cells = [cells[index[f]] if index[f] < len(cells) else None
-                 for _, cells in table.rows]
-        if columns.at[f, "kind"] == "text":
-            levels = sorted({str(c) for c in cells if c is not None})
-            if len(levels) != 2:
-                raise StudyError(f"{name}: factor column '{f}' holds {len(levels)} "
-                                 "different words; a text factor needs exactly two")
-            spec_factors.append({"name": f, "levels": levels})
-            continue
-        values = np.array([parse_number(c, decimal_comma=table.decimal_comma,
-                                        location=f"{name}, column '{f}': ")
-                           for c in cells])
-        values = values[~np.isnan(values)]
-        if len(values) == 0 or values.min() == values.max():
-            raise StudyError(f"{name}: factor column '{f}' has a single setting: a "
-                             "factor must be varied to be studied")
-        spec_factors.append({"name": f, "low": float(values.min()),
-                             "high": float(values.max())})
-    spec_responses = []
-    for r in responses:
-        if r not in columns.index:
-            raise StudyError(f"{name}: no column '{r}' in the table")
-        if columns.at[r, "kind"] != "number":
-            row, cell = _first_text(table, index[r])
-            raise StudyError(f"{name}, row {row}: response column '{r}' holds text "
-                             f"('{cell}'): a response must be measured as numbers "
-                             "(type the number only; units belong in the study)")
-        spec_responses.append({"name": r})
-    return {"study": {"name": Path(name).stem, "data": Path(name).name},
-            "factors": spec_factors, "responses": spec_responses}
-
-
-def _first_text(table, j: int) -> tuple[int, str]:
-    """Row number and content of the first cell of column j that is not a number."""
-    for row, cells in table.rows:
-        cell = cells[j] if j < len(cells) else None
-        try:
-            parse_number(cell, decimal_comma=table.decimal_comma, location="")
-        except TradeoffError:
-            return row, str(cell)
-    return table.rows[0][0], ""
 
 
 def checked_goal(name: str, *, kind: str, lower: float | None = None,

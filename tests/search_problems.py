@@ -6,6 +6,8 @@ from the t distribution, PRESS for predicted R2: common practice). It follows
 the same contract as tradeoff.model.fit.ResponseModel, so the search can be
 checked on its own.
 
+``KnownPolynomial`` is a response with known coefficients and ``known_fit`` a
+fit made of them, for checks against optima worked out in closed form.
 ``random_problem`` draws a seeded random multi-response problem (2 to 8
 factors, 2 to 6 responses, interaction or quadratic polynomials with known
 coefficients); ``dense_grid_optimum`` is the independent reference: the best
@@ -117,6 +119,18 @@ class KnownPolynomial:
         return pd.DataFrame({"predicted": mean, "ci_low": mean - q * se,
                              "ci_high": mean + q * se, "pi_low": mean - q * spi,
                              "pi_high": mean + q * spi})
+
+
+def known_fit(study, coefs: dict, kind: str = "quadratic", sigma: float = 0.01):
+    """A StudyFit-like object: each response a ``KnownPolynomial`` with these coefficients.
+
+    For closed-form checks: a small residual SD (``sigma``) and small, even
+    residuals, so the search sees the polynomial itself.
+    """
+    resid = pd.Series(np.linspace(-1, 1, 12) * sigma, index=[str(i) for i in range(12)])
+    models = {name: KnownPolynomial(np.asarray(c, dtype=float), kind, sigma, resid)
+              for name, c in coefs.items()}
+    return SimpleNamespace(study=study, models=models, skipped={})
 
 
 GOAL_KINDS = ("maximize", "minimize", "target")

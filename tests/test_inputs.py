@@ -1,16 +1,14 @@
-"""Studies built from uploaded bytes, drafted from a bare table, goals typed in widgets."""
+"""Studies built from uploaded bytes, goals typed in widgets.
+
+A bare table drafted into a study is tested in tests/study/test_draft.py.
+"""
 from __future__ import annotations
 
-import io
-
-import numpy as np
 import pandas as pd
 import pytest
 
 from tradeoff import StudyError, load_study
-from tradeoff.inputs import (checked_goal, draft_spec, study_from_files, table_columns,
-                             with_response_model)
-from tradeoff.derive.load import study_from_dict
+from tradeoff.inputs import checked_goal, study_from_files, with_response_model
 
 from conftest import DEMO
 
@@ -52,44 +50,6 @@ def test_study_file_naming_no_data_takes_the_single_upload(tmp_path):
     spec = DEMO_FILES["snack_bar.toml"].replace(b'data = "snack_bar_runs.csv"', b"")
     study = study_from_files({"s.toml": spec, "x.csv": DEMO_FILES["snack_bar_runs.csv"]})
     assert len(study.runs) == 20
-
-
-def test_bare_table_column_roles():
-    cols = table_columns("snack_bar_runs.csv", DEMO_FILES["snack_bar_runs.csv"])
-    roles = dict(zip(cols["column"], cols["role"]))
-    # Factors of a two-level design with centre points take 3 settings (common practice).
-    assert [c for c, r in roles.items() if r == "factor"] == \
-        ["protein", "glycerol", "binder", "mix_temp"]
-    assert [c for c, r in roles.items() if r == "response"] == \
-        ["hardness_fresh", "hardness_12w", "water_activity", "liking", "cost"]
-    assert roles["run"] == "other" and roles["std_order"] == "other"
-    binder = cols.set_index("column").at["binder", "levels"]
-    assert binder == ["date paste", "rice syrup"]
-
-
-def test_drafted_study_spans_the_tested_settings():
-    data = DEMO_FILES["snack_bar_runs.csv"]
-    spec = draft_spec("runs.csv", data, ["protein", "binder", "mix_temp"], ["liking"])
-    frame = pd.read_csv(io.BytesIO(data))  # independent reading of the same table
-    factors = {f["name"]: f for f in spec["factors"]}
-    assert factors["protein"]["low"] == frame["protein"].min()
-    assert factors["mix_temp"]["high"] == frame["mix_temp"].max()
-    assert factors["binder"]["levels"] == sorted(frame["binder"].unique())
-    study = study_from_dict(spec, source="runs.toml", data_bytes=data)
-    assert np.allclose(study.runs["liking"], frame["liking"])
-    assert study.response("liking").goal.kind == "none"
-
-
-def test_draft_errors():
-    data = DEMO_FILES["snack_bar_runs.csv"]
-    with pytest.raises(StudyError, match="choose at least one factor"):
-        draft_spec("r.csv", data, [], ["liking"])
-    with pytest.raises(StudyError, match="chosen as factor and as response"):
-        draft_spec("r.csv", data, ["protein"], ["protein"])
-    with pytest.raises(StudyError, match="response column 'binder' holds text"):
-        draft_spec("r.csv", data, ["protein"], ["binder"])
-    with pytest.raises(StudyError, match="'run' holds 20 different words"):
-        draft_spec("r.csv", data, ["run"], ["liking"])
 
 
 def test_checked_goal_keeps_what_the_kind_uses():

@@ -18,7 +18,7 @@ import math
 import re
 import subprocess
 import sys
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
@@ -28,10 +28,11 @@ import pytest
 
 from tradeoff import cli
 from tradeoff.errors import TradeoffError
-from tradeoff.inputs import draft_spec, study_from_files, table_columns
+from tradeoff.inputs import study_from_files
 from tradeoff.study.intake import MAX_TABLE_BYTES
 from tradeoff.study.spec import MAX_STUDY_BYTES
-from tradeoff.derive.load import load_study
+from tradeoff.study.draft import draft_problems, draft_spec, guess_draft, with_column
+from tradeoff.derive.load import load_study, study_from_dict
 
 from conftest import BASIC_RUNS, BASIC_STUDY
 
@@ -457,19 +458,12 @@ UPLOAD_CASES = [
     ("upload-xlsx-that-is-binary",
      lambda: study_from_files({"s.toml": XSTUDY.encode(), "runs.xlsx": bytes(range(256))}),
      r"^runs\.xlsx: cannot open it as an Excel workbook"),
-    ("upload-units-in-a-response",
-     lambda: draft_spec("bars.csv", _runs("27.0", "27 N").encode(), ["protein", "binder"],
-                        ["hardness"]),
-     r"^bars\.csv, row 3: response column 'hardness' holds text \('27 N'\)"),
-    ("upload-factor-never-changes",
-     lambda: draft_spec("bars.csv", BASIC_RUNS.replace(",30,", ",20,")
-                        .replace(",25,", ",20,").encode(), ["protein"], ["hardness"]),
-     r"^bars\.csv: factor column 'protein' has a single setting"),
-    ("upload-empty-table", lambda: table_columns("bars.csv", b"\n\n"),
+    # a bare table is read as the new-study form drafts it
+    ("upload-empty-table", lambda: guess_draft("bars.csv", b"\n\n"),
      r"^bars\.csv: the table is empty"),
     ("upload-repeated-header",
-     lambda: table_columns("bars.csv", _runs("\n3,", "\nrun,protein,binder,hardness\n3,")
-                           .encode()),
+     lambda: guess_draft("bars.csv", _runs("\n3,", "\nrun,protein,binder,hardness\n3,")
+                         .encode()),
      r"^bars\.csv, row 4: this row repeats the column names"),
 ]
 
@@ -482,12 +476,41 @@ def test_upload_errors_are_one_line(call, message):
     assert "\n" not in str(info.value)
 
 
+# A bare table whose columns are then declared on the new-study form: what stops
+# the drafted study is listed, one line each (draft_problems lists, never raises).
+UPLOAD_DRAFT_CASES = [
+    # the guess leaves a column with text as notes; declared a response, its first
+    # cell that is not a number is named by row and column
+    ("upload-units-in-a-response", _runs("27.0", "27 N"), {"hardness": "response"},
+     r"^bars\.csv, row 3, column 'hardness': expected a number, found '27 N': type the "
+     r"number only; units belong in the study file$"),
+    ("upload-factor-never-changes",
+     BASIC_RUNS.replace(",30,", ",20,").replace(",25,", ",20,"), {"protein": "factor"},
+     r"^'protein': its lowest and highest setting are both 20: a factor must be varied "
+     r"to be studied"),
+]
+
+
+@pytest.mark.parametrize("runs, roles, message", [c[1:] for c in UPLOAD_DRAFT_CASES],
+                         ids=[c[0] for c in UPLOAD_DRAFT_CASES])
+def test_upload_draft_problems_are_one_line(runs, roles, message):
+    data = runs.encode()
+    draft = guess_draft("bars.csv", data)
+    for column, role in roles.items():
+        draft = with_column(draft, column, role=role, levels=None)
+    (problem,) = draft_problems(draft, data)
+    assert re.search(message, problem) and "\n" not in problem
+
+
 def test_upload_semicolon_table_is_read_like_the_comma_one():
-    comma = table_columns("a.csv", BASIC_RUNS.encode())
-    semi = table_columns("b.csv", BASIC_RUNS.replace(",", ";").replace("18.5", "18,5")
-                         .encode())
-    assert comma.equals(semi)
-    assert list(comma["role"]) == ["other", "factor", "factor", "response"]
+    comma = guess_draft("a.csv", BASIC_RUNS.encode())
+    semi_bytes = BASIC_RUNS.replace(",", ";").replace("18.5", "18,5").encode()
+    semi = guess_draft("b.csv", semi_bytes)
+    assert semi == replace(comma, name="b", data="b.csv")
+    assert [c.role for c in comma.columns] == ["run", "factor", "factor", "response"]
+    # the decimal comma is read as the point: the hardness read equals the comma table's
+    study = study_from_dict(draft_spec(semi), source=Path("b.toml"), data_bytes=semi_bytes)
+    assert list(study.runs["hardness"]) == HARDNESS
 
 
 def test_workbench_upload_of_a_damaged_workbook_keeps_the_open_study():

@@ -15,8 +15,7 @@ from pathlib import Path
 import streamlit as st
 
 import tradeoff
-from tradeoff.inputs import (draft_spec, study_from_files, with_production_sd,
-                             with_response_model)
+from tradeoff.inputs import study_from_files, with_production_sd, with_response_model
 
 __all__ = ["base_study", "current_study", "fit", "optimize", "study_keys",
            "contour", "contour_lines", "limits_map", "slices", "model_interaction",
@@ -39,10 +38,7 @@ def origin_key(origin: dict) -> str:
         # "revision" is bumped when the workbench saves the runs (views/data.py)
         return _digest("path", str(path), path.stat().st_mtime_ns if path.exists() else 0,
                        origin.get("revision", 0))
-    if origin["kind"] == "files":
-        return _digest("files", *[(n, _digest(b)) for n, b in sorted(origin["files"].items())])
-    return _digest("draft", origin["name"], _digest(origin["data"]), origin["factors"],
-                   origin["responses"])
+    return _digest("files", *[(n, _digest(b)) for n, b in sorted(origin["files"].items())])
 
 
 @st.cache_resource(max_entries=16, show_spinner=False)
@@ -50,11 +46,7 @@ def _open(key: str, _origin: dict):
     origin = _origin
     if origin["kind"] == "path":
         return tradeoff.load_study(origin["path"])
-    if origin["kind"] == "files":
-        return study_from_files(origin["files"])
-    spec = draft_spec(origin["name"], origin["data"], origin["factors"], origin["responses"])
-    return tradeoff.study_from_dict(spec, source=Path(origin["name"]).with_suffix(".toml"),
-                                    data_bytes=origin["data"])
+    return study_from_files(origin["files"])
 
 
 def base_study(origin: dict):
@@ -420,24 +412,17 @@ __all__ += ["study_file_path", "plan"]
 
 
 @st.cache_resource(max_entries=8, show_spinner=False)
-def _study_file_path(key: str, _origin: dict, _study) -> str:
+def _study_file_path(key: str, _origin: dict) -> str:
     import tempfile
 
-    from tradeoff.report.exports import study_toml_bytes
     from tradeoff.study.files import write_atomic
 
-    # a scratch copy for the plan command, never the user's files
+    # a scratch copy of the uploads for the plan command, never the user's files
     folder = Path(tempfile.mkdtemp(prefix="tradeoff-plan-study-"))
-    if _origin["kind"] == "files":
-        for name, data in _origin["files"].items():
-            write_atomic(folder / Path(name).name, data)
-        name = next(n for n in _origin["files"] if n.lower().endswith(".toml"))
-        return str(folder / Path(name).name)
-    path = folder / Path(_origin["name"]).with_suffix(".toml").name
-    write_atomic(path, study_toml_bytes(_study))
-    if _study.data_path is not None:
-        write_atomic(folder / _study.data_path.name, _origin["data"])
-    return str(path)
+    for name, data in _origin["files"].items():
+        write_atomic(folder / Path(name).name, data)
+    name = next(n for n in _origin["files"] if n.lower().endswith(".toml"))
+    return str(folder / Path(name).name)
 
 
 def study_file_path(study) -> str:
@@ -445,7 +430,7 @@ def study_file_path(study) -> str:
     origin = st.session_state["origin"]
     if origin["kind"] == "path":
         return origin["path"]
-    return _study_file_path(origin_key(origin), origin, study)
+    return _study_file_path(origin_key(origin), origin)
 
 
 @st.cache_resource(max_entries=16, show_spinner=False)

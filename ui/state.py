@@ -17,7 +17,7 @@ __all__ = ["init", "open_origin", "study_argument", "pin_recipe", "KEYS"]
 
 # key -> what it holds. Defaults are built in ``init``.
 KEYS = {
-    "origin": "where the open study came from: {'kind': 'path'|'files'|'draft', ...}",
+    "origin": "where the open study came from: {'kind': 'path'|'files', ...}",
     "origin_label": "a short name of that origin for the sidebar",
     "goals": "name -> Goal: the goals and weights as the user set them",
     "models": "response name -> model name or tuple of terms chosen by the user",
@@ -33,7 +33,8 @@ KEYS = {
                    "nothing refused)",
     "open_error": "the last error from opening files (kept while they stay uploaded)",
     "upload_digest": "digest of the uploaded files last tried, so each is tried once",
-    "draft": "a bare data table waiting for its factor and response columns",
+    "draft": "a bare data table uploaded on 'Study and runs' ({'name', 'data'}), waiting "
+             "for 'New study' to draft its columns",
     "report_ready": "True once the user asked for the report (then it follows every change)",
     "whatif_nonce": "bumped by 'start from the chosen solution' to reset the what-if widgets",
     "whatif_from": "label of the solution the what-if panel started from (another one "

@@ -350,6 +350,12 @@ def _missing(draft: Draft) -> list[str]:
     for col in [*components, *factors]:
         if not col.levels and (col.low is None or col.high is None):
             out.append(f"'{col.column}': type its lowest and highest setting")
+        elif not col.levels and col.low == col.high:
+            # a column held at one setting in every run: the reader's "did you swap
+            # them?" would mislead, the column was never varied
+            out.append(f"'{col.column}': its lowest and highest setting are both "
+                       f"{col.low:g}: a factor must be varied to be studied (type the "
+                       "range tested, or mark the column as notes)")
     for col in draft.of_role("response"):
         if col.goal not in GOALS:
             out.append(f"'{col.column}': goal '{col.goal}' is not one of {', '.join(GOALS)}")

@@ -16,46 +16,15 @@ Sources:
 from __future__ import annotations
 
 import json
-from types import SimpleNamespace
 
 import numpy as np
-import pandas as pd
 import pytest
-from scipy import stats
 
 from reference_desirability import study_d
-from search_problems import design_matrix
+from search_problems import known_fit
 from tradeoff.derive.load import study_from_dict
 from tradeoff.errors import SearchError
 from tradeoff.search.sensitivity import MOVES, STILL, sensitivity
-
-
-class _Known:
-    """A response with known coefficients on the quadratic columns of two factors."""
-
-    def __init__(self, coef):
-        self.coef_ = np.asarray(coef, dtype=float)
-        self.residuals_ = pd.Series(np.linspace(-1, 1, 12) * 0.01,
-                                    index=[str(i) for i in range(12)])
-        self.pred_r2_ = 0.9
-
-    def predict(self, X):
-        return design_matrix(X, "quadratic") @ self.coef_
-
-    def predictive(self, X):
-        mean = self.predict(X)
-        return mean, np.full(len(mean), 0.001), 0.01, 10
-
-    def inverse_transform(self, y):
-        return np.asarray(y, dtype=float)
-
-    def intervals(self, X, level=None):
-        mean, se, sigma, df = self.predictive(X)
-        q = stats.t.ppf(0.975, df)
-        spi = np.sqrt(se ** 2 + sigma ** 2)
-        return pd.DataFrame({"predicted": mean, "ci_low": mean - q * se,
-                             "ci_high": mean + q * se, "pi_low": mean - q * spi,
-                             "pi_high": mean + q * spi})
 
 
 TOL = 2e-3  # coded units
@@ -78,8 +47,7 @@ def known_study(weight_a=1.0):
                 {"name": "sat", "goal": "maximize", "lower": -3, "upper": -2},
                 {"name": "peak", "goal": "maximize", "lower": -1, "upper": 0.5}]}
     study = study_from_dict(spec, with_data=False)
-    models = {n: _Known(c) for n, c in COEF.items()}
-    return study, SimpleNamespace(study=study, models=models, skipped={})
+    return study, known_fit(study, COEF)
 
 
 @pytest.fixture(scope="module")

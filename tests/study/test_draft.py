@@ -4,9 +4,11 @@ from __future__ import annotations
 import csv
 import io
 import tomllib
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from hypothesis import given, settings, strategies as st
 
@@ -16,8 +18,11 @@ from tradeoff.study.draft import (Draft, DraftColumn, draft_from_dict, draft_pro
                                   with_column)
 from tradeoff.study.reader import build_study
 
+from conftest import DEMO
+
 ROOT = Path(__file__).resolve().parents[2]
 FLOUR_CSV = ROOT / "demo_data" / "flour_blend_runs.csv"
+SNACK_CSV = DEMO.parent / "snack_bar_runs.csv"
 
 
 def _csv(rows: list[dict]) -> bytes:
@@ -113,6 +118,82 @@ def test_flour_draft_declared_like_the_shipped_file_loads_the_same_study(tmp_pat
     assert ours.factors == theirs.factors and ours.responses == theirs.responses
     assert ours.mixture == theirs.mixture and ours.model == theirs.model
     assert ours.runs.equals(theirs.runs)
+
+
+# -- the snack bar table: a two-level design with centre points and a text factor ----
+
+def test_snack_bar_table_roles_are_guessed():
+    data = SNACK_CSV.read_bytes()
+    frame = pd.read_csv(io.BytesIO(data))  # independent reading of the same table
+    draft = guess_draft(SNACK_CSV.name, data)
+    roles = {c.column: c.role for c in draft.columns}
+    # Factors of a two-level design with centre points take 3 settings (common practice).
+    assert [c for c, r in roles.items() if r == "factor"] == \
+        ["protein", "glycerol", "binder", "mix_temp"]
+    assert all(frame[c].nunique() <= 3 for c in ["protein", "glycerol", "mix_temp"])
+    assert [c for c, r in roles.items() if r == "response"] == \
+        ["hardness_fresh", "hardness_12w", "water_activity", "liking", "cost"]
+    assert roles["run"] == "run" and roles["std_order"] == "notes"
+    # a text factor's levels in the order the table first lists them
+    assert draft.column("binder").levels == list(frame["binder"].unique())
+    assert sorted(draft.column("binder").levels) == ["date paste", "rice syrup"]
+
+
+def test_drafted_study_spans_the_tested_settings(tmp_path):
+    data = SNACK_CSV.read_bytes()
+    frame = pd.read_csv(io.BytesIO(data))  # independent reading of the same table
+    draft = guess_draft("runs.csv", data)
+    for name in ["glycerol", "hardness_fresh", "hardness_12w", "water_activity", "cost"]:
+        draft = with_column(draft, name, role="notes")
+    factors = {f["name"]: f for f in draft_spec(draft)["factors"]}
+    assert list(factors) == ["protein", "binder", "mix_temp"]
+    assert factors["protein"]["low"] == frame["protein"].min()
+    assert factors["protein"]["high"] == frame["protein"].max()
+    assert factors["mix_temp"]["low"] == frame["mix_temp"].min()
+    assert factors["mix_temp"]["high"] == frame["mix_temp"].max()
+    assert sorted(factors["binder"]["levels"]) == sorted(frame["binder"].unique())
+    assert draft_problems(draft, data) == []
+    (tmp_path / "runs.csv").write_bytes(data)
+    (tmp_path / "runs.toml").write_text(draft_text(draft))
+    study = load_study(tmp_path / "runs.toml")
+    assert np.allclose(study.runs["liking"], frame["liking"])
+    assert study.response("liking").goal.kind == "none"
+
+
+def test_what_a_column_cannot_be_is_said_in_one_line():
+    data = SNACK_CSV.read_bytes()
+    draft = guess_draft(SNACK_CSV.name, data)
+    # nothing set: named before anything is read
+    unset = draft
+    for col in draft.of_role("factor"):
+        unset = with_column(unset, col.column, role="notes")
+    assert draft_problems(unset, data) == [
+        "no factor or component: mark at least one column as what you set"]
+    # a column is one thing: the form gives each one role; a damaged session file
+    # holding a column twice meets the reader's check
+    twice = replace(draft, columns=[*draft.columns,
+                                    replace(draft.column("protein"), role="response")])
+    assert draft_problems(twice, data) == [
+        "study.toml: the name 'protein' is used twice among factors and responses: "
+        "each needs its own name"]
+    # a text column as a response: the first cell that is not a number, row and column
+    text = with_column(draft, "binder", role="response", levels=None)
+    first = pd.read_csv(io.BytesIO(data))["binder"].iloc[0]
+    assert draft_problems(text, data) == [
+        f"snack_bar_runs.csv, row 2, column 'binder': expected a number, found "
+        f"'{first}': type a number or leave the cell blank"]
+    # run ids as a factor: far more than the 12 levels a text factor may have
+    (problem,) = draft_problems(with_column(draft, "run", role="factor"), data)
+    assert problem.startswith("study.toml: [[factors]] 'run': a categorical factor needs "
+                              "2 to 12 levels") and "'R20'" in problem
+
+
+def test_a_factor_held_at_one_setting_is_named():
+    data = b"run,protein,hardness\n1,20,18.5\n2,20,27.0\n3,20,16.0\n"
+    draft = with_column(guess_draft("bars.csv", data), "protein", role="factor")
+    assert draft_problems(draft, data) == [
+        "'protein': its lowest and highest setting are both 20: a factor must be varied "
+        "to be studied (type the range tested, or mark the column as notes)"]
 
 
 def test_missing_things_are_listed_all_at_once():

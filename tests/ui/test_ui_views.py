@@ -108,6 +108,21 @@ def test_a_bad_upload_shows_an_error_and_keeps_the_study():
     assert DEMO_NAME in headers(at)
 
 
+@pytest.mark.parametrize("data, message", [
+    (b"\n\n", "bars.csv: the table is empty"),
+    (BASIC_RUNS.replace("\n3,", "\nrun,protein,binder,hardness\n3,").encode(),
+     "bars.csv, row 4: this row repeats the column names")])
+def test_an_empty_or_damaged_bare_table_is_named_on_upload(data, message):
+    # read on 'Study and runs' as 'New study' reads it: one line, the study kept
+    at = start("study")
+    at.file_uploader[0].set_value(("bars.csv", data, "text/csv")).run()
+    assert not at.exception
+    (error,) = [e.value for e in at.error]
+    assert error.startswith(f"Could not open the files: {message}") and "\n" not in error
+    assert not any("New study" in i.value for i in at.info)
+    assert DEMO_NAME in headers(at)
+
+
 def test_uploading_a_study_with_its_data_opens_it():
     at = start("study")
     at.file_uploader[0].set_value([("study.toml", BASIC_STUDY.encode(), "application/toml"),

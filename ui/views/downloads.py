@@ -33,8 +33,6 @@ if origin["kind"] == "files":
     data_bytes = next((b for n, b in origin["files"].items()
                        if study.data_path is not None and Path(n).name == study.data_path.name),
                       None)
-elif origin["kind"] == "draft":
-    data_bytes = origin["data"]
 stem = Path(study.source.name if study.source else "study").stem
 
 # -- call the library: build the files ----------------------------------------

@@ -9,8 +9,9 @@ import streamlit as st
 
 from tradeoff import ACCELERATED_CAUTIONS, TradeoffError
 from tradeoff.study.demo import demo_study_path
-from tradeoff.inputs import DATA_SUFFIXES, table_columns
+from tradeoff.inputs import DATA_SUFFIXES
 from tradeoff.report.unused import unused_columns
+from tradeoff.study.draft import guess_draft
 from tradeoff_ui import cached, charts, panels, state, text
 from tradeoff_ui.shown import NARROW_PX, blank_none, significant, table_px, text_px
 
@@ -20,8 +21,8 @@ ss = st.session_state
 st.title("Study and runs")
 with st.expander("Open another study", expanded=False):
     st.write("Upload a study file (.toml) together with its data file, or a data "
-             "file (.csv or .xlsx) on its own and name its factor and response "
-             "columns below.")
+             "file (.csv or .xlsx) on its own and say what each column is on "
+             "'New study'.")
     uploads = st.file_uploader("Study and data files", accept_multiple_files=True,
                                type=["toml", *[s.lstrip(".") for s in DATA_SUFFIXES]],
                                key="upload_widget")
@@ -51,8 +52,10 @@ if uploads:
                                   cached.base_study(origin))
             elif len(files) == 1:
                 (name, data), = files.items()
-                ss["draft"] = {"name": name, "data": data,
-                               "columns": table_columns(name, data)}
+                # read it here so an empty or damaged table is named on this page, in
+                # the one line the new-study view would give
+                guess_draft(name, data)
+                ss["draft"] = {"name": name, "data": data}
             else:
                 ss["open_error"] = ("several data files and no study file: upload one "
                                     "data file, or a study file (.toml) with its data")
