@@ -45,6 +45,11 @@ def _display(study, name: str) -> str:
     return thing.display()
 
 
+def _label(study, name: str) -> str:
+    thing = study.response(name) if name in study.response_names else study.factor(name)
+    return thing.label or name
+
+
 def _value(point: dict, name: str) -> float:
     return point["predicted"][name] if name in point["predicted"] else point["settings"][name]
 
@@ -113,23 +118,24 @@ def _readout(where, study, front, picked) -> None:
     unit = front.units
     lines = []
     o = front.d_optimum
-    lines.append(f"**Best D** ({o['D']:.3f}): {text.plain(a)} "
-                 f"{_with_unit(_value(o, a), unit[a])}, {text.plain(b)} "
+    la, lb = _label(study, a), _label(study, b)
+    lines.append(f"**Best D** ({o['D']:.3f} before rounding to the steps): {text.plain(la)} "
+                 f"{_with_unit(_value(o, a), unit[a])}, {text.plain(lb)} "
                  f"{_with_unit(_value(o, b), unit[b])}; "
                  + ("on the frontier" if o["on_frontier"] else
                     "inside it (better on the other goals)")
                  + f", nearest point #{o['nearest']}.")
     if front.knee is not None:
         k = front.knee
-        lines.append(f"**Knee**, point #{k['index']}: {text.plain(a)} {_value(k, a):.4g}, "
-                     f"{text.plain(b)} {_value(k, b):.4g}, D {k['D']:.3f}: where the "
+        lines.append(f"**Knee**, point #{k['index']}: {text.plain(la)} {_value(k, a):.4g}, "
+                     f"{text.plain(lb)} {_value(k, b):.4g}, D {k['D']:.3f}: where the "
                      "frontier bends most.")
     if picked is not None and picked < len(front.points):
         p = front.points[picked]
-        lines.append(f"**Picked**, point #{picked}: {text.plain(a)} {_value(p, a):.4g}, "
-                     f"{text.plain(b)} {_value(p, b):.4g}, D {p['D']:.3f}.")
+        lines.append(f"**Picked**, point #{picked}: {text.plain(la)} {_value(p, a):.4g}, "
+                     f"{text.plain(lb)} {_value(p, b):.4g}, D {p['D']:.3f}.")
     where.markdown("\n\n".join(lines))
-    words = front.exchange_words(rows=4)
+    words = front.exchange_words(rows=4, labels={a: la, b: lb})
     if words:
         where.markdown("**Exchange rate along the frontier**\n\n"
                        + "\n".join(f"- {text.plain(w)}" for w in words))

@@ -53,7 +53,7 @@ class _FrontierSections(_Sections):
                          f"{esc(b)} {_g(self._val(k, b))}), where the frontier bends most "
                          "(within one piece of it: a jump where one set of levels hands "
                          "over to another is not a bend).")
-        words = front.exchange_words()
+        words = front.exchange_words(labels={n: self._item(n).label for n in (a, b)})
         if words:
             facts.append("Exchange rate along the frontier: " + "; ".join(
                 esc(w) for w in words) + ".")

@@ -99,9 +99,14 @@ class Frontier:
             rows.append(row)
         return pd.DataFrame(rows)
 
-    def exchange_words(self, rows: int = 4) -> list[str]:
-        """The exchange rate in sentences, for at most ``rows`` stretches of the frontier."""
+    def exchange_words(self, rows: int = 4, labels: dict | None = None) -> list[str]:
+        """The exchange rate in sentences, for at most ``rows`` stretches of the frontier.
+
+        ``labels`` (name -> label) names the two goals as the lab does; by default
+        by their names.
+        """
         a, b = self.between[:2]
+        la, lb = (labels or {}).get(a, a), (labels or {}).get(b, b)
         ex = self.exchange
         # a step that gains next to nothing (a near-vertical stretch, often at a seam
         # or an end) has a rate that is mostly rounding: it is not worth a sentence
@@ -117,21 +122,21 @@ class Frontier:
         for i in pick.tolist():
             row = ex.iloc[i]
             verb = "costs" if row["rate"] >= 0 else "also gains"
-            gain = {"maximize": f"each further {step:g} {_unit(self.units[a])}of {a}",
-                    "minimize": f"each {step:g} {_unit(self.units[a])}less {a}",
+            gain = {"maximize": f"each further {step:g} {_unit(self.units[a])}of {la}",
+                    "minimize": f"each {step:g} {_unit(self.units[a])}less {la}",
                     }.get(self.senses[a], f"each {step:g} {_unit(self.units[a])}closer "
-                          f"to {a}'s target")
+                          f"to the target of {la}")
             worse = {"maximize": "of", "minimize": "more"}.get(
                 self.senses[b], "farther from the target of") if row["rate"] >= 0 else \
                 {"maximize": "more", "minimize": "less"}.get(self.senses[b],
                                                              "closer to the target of")
             amount = abs(row["rate"]) * step
             if amount < 1e-6 * span_b:  # rounding dust: b does not move along this stretch
-                out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} "
-                           f"costs next to nothing in {b}")
+                out.append(f"from {la} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} "
+                           f"costs next to nothing in {lb}")
                 continue
-            out.append(f"from {a} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} {verb} "
-                       f"{amount:.3g} {_unit(self.units[b])}{worse} {b}")
+            out.append(f"from {la} {row['from_a']:.4g} to {row['to_a']:.4g}: {gain} {verb} "
+                       f"{_plain(amount)} {_unit(self.units[b])}{worse} {lb}")
         return out
 
     def text(self) -> str:
@@ -363,3 +368,12 @@ def _point(s) -> dict:
             "predicted": {n: o.predicted for n, o in s.responses.items()},
             "pi": {n: [o.pi[0], o.pi[1]] for n, o in s.responses.items()},
             "d": d, "D": s.desirability, "chance_all": s.chance_all}
+
+
+def _plain(x: float) -> str:
+    """Three significant digits without an exponent (0.0000159, not 1.59e-05): a lab
+    reads an amount, not a power of ten."""
+    if x == 0 or 1e-4 <= abs(x) < 1e6:
+        return f"{x:.3g}"
+    return np.format_float_positional(x, precision=3, unique=False, fractional=False,
+                                      trim="-")

@@ -305,3 +305,11 @@ def test_knee_ignores_the_jump_between_pieces():
     assert knee_index(F, pieces) == 6
     # one piece only: the same as without labels (Menger curvature, written out above)
     assert knee_index(F, ["A"] * 9) == knee_index(F)
+
+
+def test_small_amounts_are_written_without_an_exponent():
+    """A lab reads 0.0000159, not 1.59e-05 (common practice in lab reports)."""
+    from tradeoff.search.frontier_result import _plain
+
+    assert _plain(1.59e-05) == "0.0000159"
+    assert _plain(0.25) == "0.25" and _plain(0.0) == "0"

@@ -30,4 +30,5 @@ def test_frontier_panel_opens_on_the_most_conflicting_pair_and_follows_a_pick():
     up.set_value("cost").run()
     assert not at.exception and not at.error
     text = "\n".join(m.value for m in at.markdown)
-    assert "points of liking costs" in text  # the exchange rate in the pair's units
+    # the exchange rate in the pair's units, the goals by their labels
+    assert "points of Overall liking (9-point hedonic) costs" in text
