@@ -18,12 +18,16 @@ def category_model(study, response, model, report: dict) -> None:
             "top_box": f"the percent of scores in the top {report['boxes']} categories",
             "bottom_box": f"the percent of scores in the bottom {report['boxes']} "
                           "categories"}[report["summary"]]
-    cols = st.columns(4)
+    cols = st.columns(5)
     cols[0].metric("Scores used", report["n"])
     cols[1].metric("Runs", report["n_runs"])
     cols[2].metric("R² of the run values", "-" if report["r2"] is None
                    else f"{report['r2']:.3f}")
-    cols[3].metric("Panel scatter of a new run (SD)", num(report["residual_sd"]))
+    cols[3].metric("Predicted R²", "-" if report["pred_r2"] is None
+                   else f"{report['pred_r2']:.3f}",
+                   help="Each run's value predicted by the model fitted without that "
+                        "run's scores: far below R² means the model follows noise.")
+    cols[4].metric("Panel scatter of a new run (SD)", num(report["residual_sd"]))
     st.caption(text.plain(
         f"A cumulative-logit (proportional-odds) model of every score, predicting {what}"
         + (", with each assessor's use of the scale as a fixed effect"

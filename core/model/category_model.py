@@ -64,7 +64,8 @@ class CategoryModel:
 
     Learned: ``terms_`` (column labels), ``logit_`` (the fitted
     ``CumulativeLogit``), ``weights_``, ``sigma_`` (a new run's panel scatter),
-    ``n_panel_``, ``n_``, ``n_runs_``, ``r2_`` (run values on fitted), ``warnings_``.
+    ``n_panel_``, ``n_``, ``n_runs_``, ``r2_`` (run values on fitted), ``pred_r2_``
+    (each run predicted by the model fitted without its scores), ``warnings_``.
     """
 
     transform = "none"
@@ -143,12 +144,37 @@ class CategoryModel:
         ok = ~np.isnan(obs)
         ss = float(np.sum((obs[ok] - obs[ok].mean()) ** 2))
         self.r2_ = 1 - float(np.sum((obs[ok] - S[ok]) ** 2)) / ss if ss > 0 else float("nan")
-        self.pred_r2_ = float("nan")  # no leave-one-run-out refits (each is a full ML fit)
+        self.pred_r2_ = self._left_out_r2(np.column_stack([M, A]), y,
+                                          np.asarray(runs, dtype=object), run_ids,
+                                          np.asarray(run_X, dtype=float), obs, ss)
         self.warnings_ = list(notes)
         if not logit.converged_:
             self.warnings_.append("the category model's fit did not fully converge: "
                                   "treat its effects with caution")
         return self
+
+    def _left_out_r2(self, XA, y, runs, run_ids, run_X, obs, ss) -> float:
+        """Predicted R2: each run's summary predicted by the model fitted without its
+        scores (warm-started from the full fit), 1 - PRESS / total sum of squares.
+        NaN when a refit loses a category or does not converge."""
+        if not ss > 0:
+            return float("nan")
+        press = 0.0
+        for i, run in enumerate(run_ids):
+            if np.isnan(obs[i]):
+                continue
+            keep = runs != run
+            try:
+                part = CumulativeLogit().fit(XA[keep], y[keep], start=self.logit_.start_,
+                                             information=False)
+            except ModelError:
+                return float("nan")
+            if (len(part.categories_) != len(self.logit_.categories_)
+                    or not part.converged_):
+                return float("nan")
+            probs = part.probabilities(self._design(run_X[i]))[0]
+            press += float((obs[i] - probs @ self.weights_) ** 2)
+        return 1 - press / ss
 
     def _check_fitted(self) -> None:
         if not hasattr(self, "logit_"):
@@ -280,7 +306,8 @@ class CategoryModel:
             "effects": rows("effect"), "assessors": rows("assessor"),
             "thresholds": rows("threshold"),
             "log_likelihood": _num(self.logit_.loglik_),
-            "r2": _num(self.r2_), "pred_r2": None, "residual_sd": _num(self.sigma_),
+            "r2": _num(self.r2_), "pred_r2": _num(self.pred_r2_),
+            "residual_sd": _num(self.sigma_),
             "interval_method": "delta method on the effects and thresholds; a new run "
                                "adds the scatter of a panel of the usual size",
             "flagged_runs": [str(i) for i in flagged.index[flagged["flagged"]]],

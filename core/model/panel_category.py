@@ -63,7 +63,9 @@ class CumulativeLogit:
         np.add.at(g_theta, np.maximum(k - 1, 0), np.where(k > 0, -fb / P, 0))
         return ll, g_beta, g_theta
 
-    def fit(self, X, y) -> "CumulativeLogit":
+    def fit(self, X, y, *, start=None, information: bool = True) -> "CumulativeLogit":
+        """Maximum likelihood; ``start`` (effects then threshold steps, as ``start_``)
+        warm-starts it, ``information=False`` skips the standard errors."""
         from scipy import optimize
 
         X = np.asarray(X, float)
@@ -87,10 +89,18 @@ class CumulativeLogit:
             gc[1:] *= np.exp(c[1:])
             return -ll, -np.concatenate([gb, gc])
 
-        res = optimize.minimize(objective, np.concatenate([np.zeros(p), c0]), jac=True,
+        start = np.concatenate([np.zeros(p), c0]) if start is None else start
+        res = optimize.minimize(objective, start, jac=True,
                                 method="BFGS", options={"gtol": 1e-9, "maxiter": 2000})
+        if not information:  # the estimates only (leave-one-out refits)
+            self.coef_, self.thresholds_ = res.x[:p], self._theta(res.x[p:])
+            self.categories_, self.converged_ = cats, bool(res.success) or np.max(
+                np.abs(res.jac)) < 1e-5
+            self.start_ = res.x
+            return self
         beta, theta = res.x[:p], self._theta(res.x[p:])
         self.coef_, self.thresholds_, self.categories_ = beta, theta, cats
+        self.start_ = res.x
         self.loglik_ = -float(res.fun)
         self.converged_ = bool(res.success) or np.max(np.abs(res.jac)) < 1e-5
         # observed information on (beta, theta) by differencing the analytic score

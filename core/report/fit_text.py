@@ -258,7 +258,8 @@ def _category_text(r: dict) -> list[str]:
     out = [f"{r['response']}: category model (cumulative logit, proportional odds) of "
            f"{r['n']} scores over {r['n_runs']} runs, scale {_f(lo)} to {_f(hi)}{by}",
            f"  predicts the {what[r['summary']]}; R2 of the run values "
-           f"{_f(r['r2'], '.4f')}; a new run's panel scatter SD {_f(r['residual_sd'])} "
+           f"{_f(r['r2'], '.4f')}, predicted R2 (each run left out) "
+           f"{_f(r['pred_r2'], '.4f')}; a new run's panel scatter SD {_f(r['residual_sd'])} "
            f"(about {_f(r['scores_per_run'])} scores per run)", "",
            "  effects on the latent scale, per coded unit (positive: scores move up the "
            "scale)",

@@ -190,3 +190,31 @@ def test_fit_prints_latent_effects_and_thresholds(tmp_path, capsys):
     line = next(s for s in out.splitlines() if s.startswith("  a "))
     assert float(line.split()[1]) == pytest.approx(res.params[0], rel=1e-3)
     assert "  1|2 " in out and "  4|5 " in out
+
+
+def test_predicted_r2_leaves_each_run_out():
+    """Predicted R2 of a category response: each run's mean score predicted by a
+    proportional-odds fit without that run's scores (statsmodels OrderedModel, the
+    reference library), 1 - PRESS / total sum of squares of the run means (the
+    leave-one-out definition of Myers, Montgomery & Anderson-Cook, 2016, sec. 2.7,
+    applied to run means)."""
+    import tempfile
+    from pathlib import Path
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path, X, y = _write(Path(tmp), response='model = "main"\n')
+        study = load_study(path)
+        model = fit_study(study).models["r"]
+        obs = study.runs["r"].to_numpy(float)
+    runs = np.tile(np.arange(9), len(y) // 9)  # the scores cycle through the nine runs
+    run_pts = np.array([[(a - 5) / 5, (b - 30) / 10] for a, b in
+                        itertools.product([0, 5, 10], [20, 30, 40])])
+    w = np.arange(1.0, 6.0)
+    press = 0.0
+    for r in range(9):
+        res = _reference(X[runs != r], y[runs != r])
+        press += (obs[r] - res.model.predict(res.params, exog=run_pts[r:r + 1])[0] @ w) ** 2
+    ref = 1 - press / np.sum((obs - obs.mean()) ** 2)
+    assert model.pred_r2_ == pytest.approx(ref, abs=1e-3)
+    assert model.pred_r2_ < model.r2_
+    assert model.report()["pred_r2"] == pytest.approx(model.pred_r2_, abs=1e-6)
