@@ -119,3 +119,20 @@ def page_json(page: str) -> dict:
                       page, re.S)
     assert match, "the page carries its numbers as JSON"
     return json.loads(match.group(1))
+
+
+def reopened(at, page: str | None = None, timeout: int = 120):
+    """The workbench opened again at the address of ``at`` (a reload, a new tab): a new
+    AppTest session with the same ``?session=``, on ``page`` (a view's file stem)."""
+    from importlib.resources import files
+
+    from streamlit.testing.v1 import AppTest
+
+    sid = at.query_params["session"]
+    again = AppTest.from_file(str(files("tradeoff_ui") / "app.py"), default_timeout=timeout)
+    again.query_params["session"] = sid[0] if isinstance(sid, list) else sid
+    again.run()
+    if page is not None:
+        again.switch_page(f"views/{page}.py").run()
+    assert not again.exception, again.exception
+    return again

@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from conftest import DEMO
+from conftest import DEMO, reopened
 from tradeoff import load_study
 from tradeoff.cli import main
 from tradeoff.maps.recipe_compare import compare_recipes
@@ -171,14 +171,7 @@ def test_a_reload_keeps_pins_batch_choices_and_typed_tables():
     runs.loc[runs.index[0], "liking"] = "1.5"
     at.session_state["data_typed"] = runs
     at.run()
-    sid = at.query_params["session"]
-    if isinstance(sid, list):
-        sid = sid[0]
-
-    again = AppTest.from_file(APP, default_timeout=120)
-    again.query_params["session"] = sid
-    again.run()
-    assert not again.exception, again.exception
+    again = reopened(at)
     assert again.session_state["pins"] == pins
     assert again.session_state["batch"]["size_g"] == 750.0
     back = again.session_state["confirm_typed"]
@@ -214,12 +207,7 @@ def test_a_reload_keeps_the_what_if_settings():
     box.set_value(round(start + 0.5, 3)).run()
     assert not at.exception, at.exception
     typed = dict(at.session_state["whatif"])
-    sid = at.query_params["session"]
-    again = AppTest.from_file(APP, default_timeout=120)
-    again.query_params["session"] = sid[0] if isinstance(sid, list) else sid
-    again.run()
-    again.switch_page("views/results.py").run()
-    assert not again.exception, again.exception
+    again = reopened(at, "results")
     assert again.session_state["whatif"] == typed
     shown = next(n for n in again.number_input if str(n.key).startswith("w"))
     assert shown.value == round(start + 0.5, 3)

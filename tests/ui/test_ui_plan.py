@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from conftest import DEMO
+from conftest import DEMO, reopened
 from tradeoff import load_study
 from tradeoff.cli import main
 
@@ -121,12 +121,7 @@ def test_plan_choices_survive_another_view_and_a_reload():
     at.switch_page("views/targets.py").run()
     at.switch_page("views/plan.py").run()
     assert [s.value for s in at.selectbox if s.label == "Axial distance"] == ["face"]
-    sid = at.query_params["session"]
-    again = AppTest.from_file(APP, default_timeout=60)
-    again.query_params["session"] = sid[0] if isinstance(sid, list) else sid
-    again.run()
-    again.switch_page("views/plan.py").run()
-    assert not again.exception, again.exception
+    again = reopened(at, "plan")
     assert [s.value for s in again.selectbox if s.label == "Design"] == ["central-composite"]
     assert [s.value for s in again.selectbox if s.label == "Axial distance"] == ["face"]
     assert not again.warning, [w.value for w in again.warning]  # no doubled-value warning
