@@ -21,7 +21,10 @@ each cropped to the part the README talks about and kept under 150 KB:
 - ``plan.png``: a design judged in plain words on *Plan the runs*.
 
 The same walk gives the same pictures (the demo and every seed are fixed); run it
-again after changing a view the README shows.
+again after changing a view the README shows. To look at the views at another
+width without touching the README's pictures::
+
+    .venv/bin/python ui/screenshots/take_screenshots.py --width 1400 --out /tmp/shots
 """
 from __future__ import annotations
 
@@ -48,7 +51,8 @@ TABLE = "flour_blend_runs.csv"
 CHROMIUM = "/usr/bin/chromium"
 ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
         "--disable-component-update", "--disable-sync", "--no-first-run"]
-WIDTH = 1280  # a laptop
+WIDTH = 1280  # a laptop (--width to look at another)
+OUT = HERE    # where the pictures go (--out to put them elsewhere)
 TALL = 2400   # tall enough that each view is drawn whole, then cropped
 LIMIT = 150_000  # bytes per picture: the README stays quick to load
 MARGIN = 60   # of the main column's 80 px margins, the part cut off each side
@@ -206,8 +210,8 @@ def save(image: Image.Image, name: str) -> None:
     data = buffer.getvalue()
     if len(data) > LIMIT:
         raise SystemExit(f"{name}: {len(data)} bytes, over {LIMIT}: crop it tighter")
-    write_atomic(HERE / name, data)
-    print(f"ui/screenshots/{name}: {image.width} x {image.height} px, "
+    write_atomic(OUT / name, data)
+    print(f"{OUT / name}: {image.width} x {image.height} px, "
           f"{len(data) / 1000:.0f} KB")
 
 
@@ -326,7 +330,17 @@ def shoot_plan(page) -> None:
 
 
 def main() -> None:
+    import argparse
+
     from playwright.sync_api import sync_playwright
+
+    global WIDTH, OUT
+    parser = argparse.ArgumentParser(description="The README's pictures of the workbench.")
+    parser.add_argument("--width", type=int, default=WIDTH, help="browser width in px")
+    parser.add_argument("--out", type=Path, default=OUT, help="folder for the pictures")
+    args = parser.parse_args()
+    WIDTH, OUT = args.width, args.out
+    OUT.mkdir(parents=True, exist_ok=True)
 
     if not Path(CHROMIUM).exists():
         raise SystemExit(f"needs Debian's chromium at {CHROMIUM}: apt-get install chromium")

@@ -94,7 +94,8 @@ def key(*parts) -> str:
     return "ns_" + nonce + "_" + "_".join(str(p) for p in parts)
 
 
-form, side = st.columns([3, 2], gap="large")
+BREAK = "\u200b"  # a zero-width space: where a long column name may break
+form, side = st.columns([5, 3], gap="medium")
 
 # -- widgets: the form -----------------------------------------------------------------
 with form:
@@ -123,8 +124,10 @@ with form:
     if not draft.columns:
         st.caption("No columns yet: add them above.")
     for col in draft.columns:
-        a, b, c, d = st.columns([3, 3, 3, 2])
-        a.markdown(f"**{text.plain(col.column)}**")
+        # the role box wide enough for "batch (whole plot)"; a long column name may
+        # break at its underscores rather than mid-word
+        a, b, c, d = st.columns([3, 4, 3, 2], vertical_alignment="center")
+        a.markdown("**" + text.plain(col.column).replace("_", "_" + BREAK) + "**")
         col.role = b.selectbox(f"Role of {col.column}", list(ROLES), format_func=ROLES.get,
                                index=list(ROLES).index(col.role), key=key("role", col.column),
                                label_visibility="collapsed")
@@ -215,10 +218,13 @@ problems = draft_problems(draft, data, study_file=study_file)
 # -- show: the study file beside the form ----------------------------------------------
 with side:
     st.subheader("The study file")
-    st.download_button(f"Download {study_file}", toml_text.encode("utf-8"),
+    # the file's name under the button, not on it: a long study name would be cut
+    st.download_button("Download the study file", toml_text.encode("utf-8"),
                        file_name=study_file, mime="application/toml", key="ns_download",
+                       icon=":material/download:", width="stretch",
                        help="Save it next to your data file; it opens as it is, or once "
                             "the problems below are fixed.")
+    st.caption(f"Saved as {text.plain(study_file)}")
     if problems:
         st.warning("Not ready yet:\n\n" + "\n".join(f"- {text.plain(p)}" for p in problems))
     elif data is None:

@@ -132,7 +132,8 @@ if model:
 if effect > 0 and sd > 0:
     common.update(effect=float(effect), sd=float(sd))
 compare = _kept(st.toggle, "compare", "Compare with a second plan", key=f"p_compare_{epoch}")
-columns = st.columns(2) if compare else [st.container()]
+# one plan keeps to three fifths of the page: full-width number boxes read badly
+columns = st.columns(2) if compare else [st.columns([3, 2])[0]]
 # the second candidate: a response surface beside a factorial; for a blend the same
 # design with more centroids (another blend design may not fit a bounded region)
 second = choices[0] if blend else next(
