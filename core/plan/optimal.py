@@ -211,11 +211,17 @@ _FINE = np.linspace(-1.0, 1.0, 9)
 
 
 def _swap_inverse(V: np.ndarray, f: np.ndarray, g: np.ndarray) -> np.ndarray:
-    """(M - f f' + g g')^-1 from V = M^-1 (Sherman-Morrison twice)."""
-    Vf = V @ f
-    U = V + np.outer(Vf, Vf) / (1.0 - f @ Vf)
-    Ug = U @ g
-    return U - np.outer(Ug, Ug) / (1.0 + g @ Ug)
+    """(M - f f' + g g')^-1 from V = M^-1, as one rank-2 update (Woodbury).
+
+    Not as two Sherman-Morrison steps: in a saturated plan (as many runs as terms)
+    taking a run out first leaves a singular matrix (f'Vf = 1) even though the swap
+    as a whole is fine. The 2 x 2 system's determinant is minus the swap's
+    determinant ratio, which a swap is only made for when it is above 1.
+    """
+    B = np.column_stack([V @ g, V @ f])
+    S = np.array([[1.0 + g @ B[:, 0], g @ B[:, 1]],
+                  [f @ B[:, 0], -1.0 + f @ B[:, 1]]])
+    return V - B @ np.linalg.solve(S, B.T)
 
 
 def _one_start(matrix, region, X, F0, criterion, W, grid, max_passes, repeat=1):

@@ -41,6 +41,34 @@ def test_d_optimal_one_factor_quadratic_is_minus_one_zero_one():
     assert np.exp(result.value) == pytest.approx(4.0)
 
 
+def test_saturated_d_optimal_reaches_the_hadamard_bound_without_warnings():
+    # A saturated plan (as many runs as terms: 8 runs, 3 factors, every
+    # interaction). Hadamard's bound: with entries in [-1, 1], det X'X <= n^p, met
+    # by the 2^3 factorial (X'X = 8 I, det 8^8) (Box, Hunter & Hunter 2005, ch. 5,
+    # orthogonal columns). Taking one run out of a saturated plan leaves a singular
+    # matrix: the exchange must still swap without dividing by zero.
+    import warnings
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        result = coordinate_exchange(_matrix("full", 3), _box(3), 8, criterion="d", seed=3)
+    assert np.exp(result.value) == pytest.approx(8.0 ** 8, rel=1e-6)
+    assert sorted(map(tuple, np.round(result.coded))) == sorted(
+        itertools.product([-1.0, 1.0], repeat=3))
+
+
+def test_swap_inverse_is_the_inverse_after_the_swap():
+    # Independent computation: numpy's inverse of M - f f' + g g', also where M
+    # less f f' is singular (a saturated plan).
+    from tradeoff.plan.optimal import _swap_inverse
+    rng = np.random.default_rng(7)
+    for runs in (12, 5):
+        F = rng.normal(size=(runs, 5))
+        M = F.T @ F
+        f, g = F[2], rng.normal(size=5)
+        expected = np.linalg.inv(M - np.outer(f, f) + np.outer(g, g))
+        assert _swap_inverse(np.linalg.inv(M), f, g) == pytest.approx(expected, abs=1e-9)
+
+
 def test_i_optimal_matches_exhaustive_search_on_a_fine_grid():
     # Independent computation: the best 4-run design for a quadratic in one factor
     # among all multisets of a 21-point grid, by the average prediction variance
