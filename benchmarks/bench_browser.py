@@ -27,69 +27,24 @@ Run: .venv/bin/python benchmarks/bench_browser.py [STUDY.toml]   (default: the d
 """
 from __future__ import annotations
 
-import os
-import signal
-import socket
 import statistics
-import subprocess
 import sys
+import tempfile
 import time
-import urllib.request
+from contextlib import contextmanager
 from pathlib import Path
 
-CHROMIUM = "/usr/bin/chromium"
-ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run"]
+from tradeoff_ui.drive import launch_chromium, settle, start_workbench, stop_workbench
+
 QUIET = 0.5
 REPEAT = 7
+VIEWPORT = {"width": 1400, "height": 1100}
 VIEWS = {"study and runs": ("", "The same runs in coded units"),
          "what drives each response": ("models", "Coefficients, analysis of variance"),
          "targets and weights": ("targets", "Best settings now"),
          "recommended settings": ("results", "What if I make it like this?"),
          "take it with you": ("downloads", "The report")}
 LOAD_TARGET, CHANGE_TARGET = 1.5, 0.5
-
-_STATE = """() => [
-  document.querySelectorAll('[data-testid="stStatusWidget"]').length,
-  document.querySelectorAll('[data-testid="stSkeleton"]').length,
-  document.querySelectorAll('[data-testid="stElementContainer"]').length,
-  document.querySelectorAll('.vega-embed').length,
-  document.querySelectorAll('.vega-embed svg, .vega-embed canvas').length,
-  document.body.innerText.length]"""
-
-
-def settle(page, start: float, timeout: float = 120.0) -> float:
-    """Seconds from ``start`` to the last change before a quiet spell."""
-    last, changed = None, time.perf_counter()
-    while time.perf_counter() - start < timeout:
-        s = page.evaluate(_STATE)
-        busy = s[0] > 0 or s[1] > 0 or s[2] == 0 or s[4] < s[3]
-        now = time.perf_counter()
-        if s != last or busy:
-            last, changed = s, now
-        elif now - changed >= QUIET:
-            return changed - start
-        page.wait_for_timeout(20)
-    raise RuntimeError("the page did not settle")
-
-
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def wait_healthy(port: int) -> None:
-    for _ in range(300):
-        try:
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health",
-                                        timeout=2) as r:
-                if r.read().strip() == b"ok":
-                    return
-        except OSError:
-            time.sleep(0.3)
-    raise RuntimeError("the workbench did not start")
-
 
 FLOOR_PAGE = '''import streamlit as st
 st.write("floor page")
@@ -103,18 +58,52 @@ if st.query_params.get("parts"):  # the same page with one chart and one table
 '''
 
 
-def launch(cmd: list[str]) -> subprocess.Popen:
-    return subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                            start_new_session=True)
+@contextmanager
+def floor_server():
+    """FLOOR_PAGE served by bare Streamlit: its port, while the block runs."""
+    with tempfile.TemporaryDirectory() as tmp:
+        page = Path(tmp) / "floor.py"
+        page.write_text(FLOOR_PAGE)
+        proc, port = start_workbench([], command=[
+            sys.executable, "-m", "streamlit", "run", str(page),
+            "--server.headless", "true", "--browser.gatherUsageStats", "false"])
+        try:
+            yield port
+        finally:
+            stop_workbench(proc)
 
 
-def stop(proc: subprocess.Popen) -> None:
-    if proc.poll() is None:
-        proc.terminate()
-    try:
-        os.killpg(proc.pid, signal.SIGKILL)
-    except ProcessLookupError:
-        pass
+def floor_first_loads(browser, port: int, visits: int, query: str = "") -> list[float]:
+    """Times of the floor page loaded in ``visits`` fresh tabs, one after another.
+
+    The server runs the page's script for the first time on the first visit:
+    callers that measure a warm server leave that one out.
+    """
+    times = []
+    for _ in range(visits):
+        page = browser.new_page(viewport=VIEWPORT)
+        start = time.perf_counter()
+        page.goto(f"http://127.0.0.1:{port}/{query}")
+        page.get_by_text("floor page").first.wait_for(timeout=120_000)
+        times.append(settle(page, start, quiet=QUIET))
+        page.close()
+    return times
+
+
+def floor_reruns(browser, port: int, repeat: int) -> list[float]:
+    """Times of ``repeat`` reruns of the floor page (its 'again' button clicked)."""
+    page = browser.new_page(viewport=VIEWPORT)
+    page.goto(f"http://127.0.0.1:{port}/")
+    page.get_by_text("floor page").first.wait_for(timeout=120_000)
+    settle(page, quiet=QUIET)
+    times = []
+    for _ in range(repeat):
+        start = time.perf_counter()
+        page.get_by_role("button", name="again").click()
+        page.wait_for_timeout(30)
+        times.append(settle(page, start, quiet=QUIET))
+    page.close()
+    return times
 
 
 def change_limit(page) -> list[float]:
@@ -137,7 +126,7 @@ def change_limit(page) -> list[float]:
         start = time.perf_counter()
         box.press("Enter")
         page.wait_for_timeout(30)
-        times.append(settle(page, start))
+        times.append(settle(page, start, quiet=QUIET))
     return times
 
 
@@ -162,87 +151,51 @@ def pick_each(page, key: str) -> list[float]:
         start = time.perf_counter()
         options.nth(i % n).click()
         page.wait_for_timeout(30)
-        times.append(settle(page, start))
+        times.append(settle(page, start, quiet=QUIET))
     return times
 
 
 def main() -> None:
-    import tempfile
-
     from playwright.sync_api import sync_playwright
 
-    port, floor_port = free_port(), free_port()
-    tradeoff = Path(sys.executable).with_name("tradeoff")
     study = [str(Path(a).resolve()) for a in sys.argv[1:2]]
-    proc = launch([str(tradeoff), "app", "--port", str(port), *study])
-    tmp = tempfile.TemporaryDirectory()
-    floor_app = Path(tmp.name) / "floor.py"
-    floor_app.write_text(FLOOR_PAGE)
-    floor = launch([sys.executable, "-m", "streamlit", "run", str(floor_app),
-                   "--server.port", str(floor_port), "--server.headless", "true",
-                   "--browser.gatherUsageStats", "false"])
+    proc, port = start_workbench(study)
     rows = []
     try:
-        wait_healthy(port)
-        wait_healthy(floor_port)
         base = f"http://127.0.0.1:{port}"
-        with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
-            times = []
-            for i in range(4):  # the first visit warms the server; not counted
-                page = browser.new_page(viewport={"width": 1400, "height": 1100})
-                begin = time.perf_counter()
-                page.goto(f"http://127.0.0.1:{floor_port}/")
-                page.get_by_text("floor page").first.wait_for(timeout=120_000)
-                if i:
-                    times.append(settle(page, begin))
-                page.close()
-            rows.append(("baseline: one-line Streamlit page", times, LOAD_TARGET))
-            times = []
-            for _ in range(3):
-                page = browser.new_page(viewport={"width": 1400, "height": 1100})
-                begin = time.perf_counter()
-                page.goto(f"http://127.0.0.1:{floor_port}/?parts=1")
-                page.get_by_text("floor page").first.wait_for(timeout=120_000)
-                times.append(settle(page, begin))
-                page.close()
-            rows.append(("baseline: that page + 1 chart + 1 table", times, LOAD_TARGET))
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
-            page.goto(f"http://127.0.0.1:{floor_port}/")
-            page.get_by_text("floor page").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
-            times = []
-            for _ in range(REPEAT):
-                start = time.perf_counter()
-                page.get_by_role("button", name="again").click()
-                page.wait_for_timeout(30)
-                times.append(settle(page, start))
-            page.close()
-            rows.append(("baseline: a rerun of that page", times, CHANGE_TARGET))
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+        with floor_server() as floor_port, sync_playwright() as pw:
+            browser = launch_chromium(pw)
+            # the first visit warms the server; not counted
+            rows.append(("baseline: one-line Streamlit page",
+                         floor_first_loads(browser, floor_port, 4)[1:], LOAD_TARGET))
+            rows.append(("baseline: that page + 1 chart + 1 table",
+                         floor_first_loads(browser, floor_port, 3, "?parts=1"), LOAD_TARGET))
+            rows.append(("baseline: a rerun of that page",
+                         floor_reruns(browser, floor_port, REPEAT), CHANGE_TARGET))
+            page = browser.new_page(viewport=VIEWPORT)
             for path, ready in VIEWS.values():  # warm up: the server opens the study once
                 page.goto(f"{base}/{path}")
                 page.get_by_text(ready).first.wait_for(timeout=120_000)
-                settle(page, time.perf_counter())
+                settle(page, quiet=QUIET)
             page.close()
             for name, (path, ready) in VIEWS.items():
                 times = []
                 for _ in range(3):
-                    page = browser.new_page(viewport={"width": 1400, "height": 1100})
+                    page = browser.new_page(viewport=VIEWPORT)
                     start = time.perf_counter()
                     page.goto(f"{base}/{path}")
                     page.get_by_text(ready).first.wait_for(timeout=120_000)
-                    times.append(settle(page, start))
+                    times.append(settle(page, start, quiet=QUIET))
                     charts = page.evaluate("document.querySelectorAll('.vega-embed').length")
                     tables = page.evaluate(
                         "document.querySelectorAll('[data-testid=\"stDataFrame\"]').length")
                     page.close()
                 rows.append((f"first load: {name} ({charts}c {tables}t)", times, LOAD_TARGET))
             # each view reached from the sidebar, in one tab (how a user moves on)
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page = browser.new_page(viewport=VIEWPORT)
             page.goto(f"{base}/")
             page.get_by_text(VIEWS["study and runs"][1]).first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
+            settle(page, quiet=QUIET)
             links = {"what drives each response": "What drives each response",
                      "targets and weights": "Targets and weights",
                      "recommended settings": "Recommended settings",
@@ -254,14 +207,14 @@ def main() -> None:
                     start = time.perf_counter()
                     page.get_by_role("link", name=link).first.click()
                     page.get_by_text(VIEWS[name][1]).first.wait_for(timeout=120_000)
-                    hops[name].append(settle(page, start))
+                    hops[name].append(settle(page, start, quiet=QUIET))
             page.close()
             for name, times in hops.items():
                 rows.append((f"from the sidebar: {name}", times, LOAD_TARGET))
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page = browser.new_page(viewport=VIEWPORT)
             page.goto(f"{base}/targets")
             page.get_by_text("Best settings now").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
+            settle(page, quiet=QUIET)
             box = page.locator('input[aria-label="Weight"]').first
             new, seen = [], []
             for i in range(REPEAT):
@@ -270,16 +223,16 @@ def main() -> None:
                     start = time.perf_counter()
                     box.press("Enter")
                     page.wait_for_timeout(30)
-                    times.append(settle(page, start))
+                    times.append(settle(page, start, quiet=QUIET))
             rows.append(("targets: new weight (search runs)", new, CHANGE_TARGET))
             rows.append(("targets: weight seen before (cached)", seen, CHANGE_TARGET))
             rows.append(("targets: new limit (search runs)", change_limit(page),
                          CHANGE_TARGET))
             page.close()
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page = browser.new_page(viewport=VIEWPORT)
             page.goto(f"{base}/results")
             page.get_by_text("What if I make it like this?").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
+            settle(page, quiet=QUIET)
             for name, key in (("results: another solution chosen", "r_chosen"),
                               ("results: another map", "r_map_value"),
                               ("results: slices along another factor", "r_slice_factor")):
@@ -288,9 +241,7 @@ def main() -> None:
                     rows.append((name, times, CHANGE_TARGET))
             browser.close()
     finally:
-        stop(proc)
-        stop(floor)
-        tmp.cleanup()
+        stop_workbench(proc)
     print(f"Workbench in chromium at 1400 px, demo study, to the page settled "
           f"(nothing running or changing for {QUIET:.1f} s, not counted)")
     print("(Nc Mt: the view draws N charts and M tables)")

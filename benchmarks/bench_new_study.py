@@ -17,9 +17,11 @@ import tempfile
 import time
 from pathlib import Path
 
+from tradeoff_ui.drive import launch_chromium, settle, start_workbench, stop_workbench
+
 sys.path.insert(0, str(Path(__file__).parent))
-from bench_browser import (ARGS, CHANGE_TARGET, CHROMIUM, FLOOR_PAGE, free_port,  # noqa: E402
-                           launch, settle, stop, wait_healthy)
+from bench_browser import (CHANGE_TARGET, QUIET, VIEWPORT, floor_reruns,  # noqa: E402
+                           floor_server)
 
 REPEAT = 5
 CSV = Path(__file__).resolve().parents[1] / "demo_data" / "flour_blend_runs.csv"
@@ -28,45 +30,26 @@ CSV = Path(__file__).resolve().parents[1] / "demo_data" / "flour_blend_runs.csv"
 def main() -> None:
     from playwright.sync_api import sync_playwright
 
-    port, floor_port = free_port(), free_port()
     tmp = tempfile.TemporaryDirectory()
-    import os
-    os.environ["TRADEOFF_SESSIONS"] = str(Path(tmp.name) / "sessions")
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    proc = launch([str(tradeoff), "app", "--port", str(port)])
-    floor_app = Path(tmp.name) / "floor.py"
-    floor_app.write_text(FLOOR_PAGE)
-    floor = launch([sys.executable, "-m", "streamlit", "run", str(floor_app),
-                   "--server.port", str(floor_port), "--server.headless", "true",
-                   "--browser.gatherUsageStats", "false"])
+    sessions = str(Path(tmp.name) / "sessions")  # not beside the user's studies
+    proc, port = start_workbench([], env={"TRADEOFF_SESSIONS": sessions})
     nonce = hashlib.sha256(CSV.name.encode() + b"\0" + CSV.read_bytes()).hexdigest()[:8]
     rows = []
     try:
-        wait_healthy(port)
-        wait_healthy(floor_port)
-        with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
-            page.goto(f"http://127.0.0.1:{floor_port}/")
-            page.get_by_text("floor page").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
-            times = []
-            for _ in range(REPEAT):
-                start = time.perf_counter()
-                page.get_by_role("button", name="again").click()
-                page.wait_for_timeout(30)
-                times.append(settle(page, start))
-            rows.append(("baseline: a rerun of a one-button page", times))
-            page.close()
+        with floor_server() as floor_port, sync_playwright() as pw:
+            browser = launch_chromium(pw)
+            rows.append(("baseline: a rerun of a one-button page",
+                         floor_reruns(browser, floor_port, REPEAT)))
 
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page = browser.new_page(viewport=VIEWPORT)
             page.goto(f"http://127.0.0.1:{port}/new_study")
             page.get_by_text("Start from scratch").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
+            settle(page, quiet=QUIET)
             start = time.perf_counter()
             page.locator(".st-key-ns_upload input[type=file]").set_input_files(str(CSV))
             page.get_by_text("1. What each column is").wait_for(timeout=120_000)
-            rows.append(("upload the table (roles guessed)", [settle(page, start)]))
+            rows.append(("upload the table (roles guessed)",
+                         [settle(page, start, quiet=QUIET)]))
 
             def choose(key: str, option: str) -> float:
                 box = page.locator(f".st-key-ns_{nonce}_{key} input")
@@ -76,7 +59,7 @@ def main() -> None:
                 option_box = page.get_by_role("option", name=option, exact=True)
                 start = time.perf_counter()
                 option_box.click()
-                return settle(page, start)
+                return settle(page, start, quiet=QUIET)
 
             def type_in(key: str, value) -> float:
                 box = page.locator(f".st-key-ns_{nonce}_{key} input")
@@ -84,7 +67,7 @@ def main() -> None:
                 start = time.perf_counter()
                 box.press("Enter")
                 page.wait_for_timeout(30)
-                return settle(page, start)
+                return settle(page, start, quiet=QUIET)
 
             cases = {"a column's role": [], "a goal chosen": [], "a limit typed": [],
                      "a label typed": []}
@@ -99,8 +82,8 @@ def main() -> None:
             rows += [(f"new study: {k}", v) for k, v in cases.items()]
             browser.close()
     finally:
-        stop(proc)
-        stop(floor)
+        stop_workbench(proc)
+        tmp.cleanup()
     print("New study view in chromium at 1400 px, the flour blend's table, to the page "
           "settled")
     print(f"{'case':<44} {'median s':>9} {'max s':>7} {'target s':>9}  met")

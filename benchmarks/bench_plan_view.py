@@ -10,16 +10,17 @@ Run: .venv/bin/python benchmarks/bench_plan_view.py [STUDY.toml]  (default: the 
 """
 from __future__ import annotations
 
-import os
 import statistics
 import sys
 import tempfile
 import time
 from pathlib import Path
 
+from tradeoff_ui.drive import launch_chromium, settle, start_workbench, stop_workbench
+
 sys.path.insert(0, str(Path(__file__).parent))
-from bench_browser import (ARGS, CHANGE_TARGET, CHROMIUM, FLOOR_PAGE, LOAD_TARGET,  # noqa: E402
-                           free_port, launch, settle, stop, wait_healthy)
+from bench_browser import (CHANGE_TARGET, LOAD_TARGET, QUIET, VIEWPORT,  # noqa: E402
+                           floor_first_loads, floor_reruns, floor_server)
 
 REPEAT = 4
 
@@ -27,52 +28,27 @@ REPEAT = 4
 def main() -> None:
     from playwright.sync_api import sync_playwright
 
-    port, floor_port = free_port(), free_port()
     tmp = tempfile.TemporaryDirectory()
-    os.environ["TRADEOFF_SESSIONS"] = str(Path(tmp.name) / "sessions")
-    tradeoff = Path(sys.executable).with_name("tradeoff")
     study = [str(Path(a).resolve()) for a in sys.argv[1:2]]
-    proc = launch([str(tradeoff), "app", "--port", str(port), *study])
-    floor_app = Path(tmp.name) / "floor.py"
-    floor_app.write_text(FLOOR_PAGE)
-    floor = launch([sys.executable, "-m", "streamlit", "run", str(floor_app),
-                   "--server.port", str(floor_port), "--server.headless", "true",
-                   "--browser.gatherUsageStats", "false"])
+    sessions = str(Path(tmp.name) / "sessions")  # not beside the user's studies
+    proc, port = start_workbench(study, env={"TRADEOFF_SESSIONS": sessions})
     rows = []
     try:
-        wait_healthy(port)
-        wait_healthy(floor_port)
-        with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
-            times = []
-            for visit in range(3):  # the first visit warms the server; not counted
-                page = browser.new_page(viewport={"width": 1400, "height": 1100})
-                start = time.perf_counter()
-                page.goto(f"http://127.0.0.1:{floor_port}/")
-                page.get_by_text("floor page").first.wait_for(timeout=120_000)
-                times.append(settle(page, start))
-                page.close()
-            rows.append(("baseline: first load of a one-button page", times[1:]))
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
-            page.goto(f"http://127.0.0.1:{floor_port}/")
-            page.get_by_text("floor page").first.wait_for(timeout=120_000)
-            settle(page, time.perf_counter())
-            times = []
-            for _ in range(REPEAT):
-                start = time.perf_counter()
-                page.get_by_role("button", name="again").click()
-                page.wait_for_timeout(30)
-                times.append(settle(page, start))
-            rows.append(("baseline: a rerun of a one-button page", times))
-            page.close()
+        with floor_server() as floor_port, sync_playwright() as pw:
+            browser = launch_chromium(pw)
+            # the first visit warms the server; not counted
+            rows.append(("baseline: first load of a one-button page",
+                         floor_first_loads(browser, floor_port, 3)[1:]))
+            rows.append(("baseline: a rerun of a one-button page",
+                         floor_reruns(browser, floor_port, REPEAT)))
 
             times = []
             for visit in range(3):  # the first visit opens the study on the server
-                page = browser.new_page(viewport={"width": 1400, "height": 1100})
+                page = browser.new_page(viewport=VIEWPORT)
                 start = time.perf_counter()
                 page.goto(f"http://127.0.0.1:{port}/plan")
                 page.get_by_text("Run sheet").first.wait_for(timeout=120_000)
-                times.append(settle(page, start))
+                times.append(settle(page, start, quiet=QUIET))
                 if visit < 2:
                     page.close()
             rows.append(("first load of the plan view (a fresh tab)", times[1:]))
@@ -91,7 +67,7 @@ def main() -> None:
                 option_box = page.get_by_role("option", name=option, exact=True)
                 start = time.perf_counter()
                 option_box.click()
-                return settle(page, start)
+                return settle(page, start, quiet=QUIET)
 
             def options_of(key_part: str) -> list[str]:
                 box = box_of(key_part)
@@ -109,13 +85,13 @@ def main() -> None:
                 start = time.perf_counter()
                 box.press("Enter")
                 page.wait_for_timeout(30)
-                return settle(page, start)
+                return settle(page, start, quiet=QUIET)
 
             def flip(label: str) -> float:
                 start = time.perf_counter()
                 page.get_by_text(label, exact=True).click()
                 page.wait_for_timeout(30)
-                return settle(page, start)
+                return settle(page, start, quiet=QUIET)
 
             designs = options_of("pa_*_design")
             blend = any(d.startswith("simplex") for d in designs)
@@ -142,8 +118,8 @@ def main() -> None:
             rows += [(f"plan: {k}", v) for k, v in cases.items()]
             browser.close()
     finally:
-        stop(proc)
-        stop(floor)
+        stop_workbench(proc)
+        tmp.cleanup()
     name = Path(study[0]).name if study else "the demo study"
     print(f"Plan view in chromium at 1400 px, {name}, to the page settled")
     print(f"{'case':<44} {'median s':>9} {'max s':>7} {'target s':>9}  met")

@@ -10,23 +10,17 @@ from __future__ import annotations
 import importlib.util
 import os
 import re
-import signal
-import socket
-import subprocess
-import sys
 import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
-CHROMIUM = Path("/usr/bin/chromium")
-ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run"]
+from tradeoff_ui.drive import (CHROMIUM, CONNECTED, launch_chromium, start_workbench,
+                               stop_workbench)
 
 
 def _require_browser() -> None:
-    missing = [what for what, ok in (("chromium (/usr/bin/chromium)", CHROMIUM.exists()),
+    missing = [what for what, ok in ((f"chromium ({CHROMIUM})", Path(CHROMIUM).exists()),
                                      ("the playwright package",
                                       importlib.util.find_spec("playwright") is not None))
                if not ok]
@@ -35,47 +29,6 @@ def _require_browser() -> None:
         if os.environ.get("CI"):
             pytest.fail(f"browser test cannot run in CI: {message}")
         pytest.skip(message)
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def stop_server(proc: subprocess.Popen) -> None:
-    """End a started `tradeoff app` and all it started.
-
-    The command replaces its own process with the server, which starts helpers
-    of its own: end politely, then the whole process group.
-    """
-    if proc.poll() is None:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            pass
-    try:
-        os.killpg(proc.pid, signal.SIGKILL)
-    except ProcessLookupError:
-        pass
-    proc.wait(timeout=10)
-
-
-def _wait_healthy(proc, port: int, log: Path, timeout: float = 90.0) -> None:
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        if proc.poll() is not None:
-            pytest.fail(f"tradeoff app stopped early:\n{log.read_text()}")
-        try:
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health",
-                                        timeout=2) as response:
-                if response.read().strip() == b"ok":
-                    return
-        except OSError:
-            pass
-        time.sleep(0.3)
-    pytest.fail(f"the workbench did not answer within {timeout:.0f} s:\n{log.read_text()}")
 
 
 def _best_now(page) -> str:
@@ -87,23 +40,14 @@ def test_change_a_target_in_a_real_browser(tmp_path):
     _require_browser()
     from playwright.sync_api import sync_playwright
 
-    port = _free_port()
-    log = tmp_path / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port)], stdout=out,
-                                stderr=subprocess.STDOUT, start_new_session=True)
+    proc, port = start_workbench([], log=tmp_path / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True,
-                                         args=ARGS)
+            browser = launch_chromium(pw)
             try:
                 page = browser.new_page(viewport={"width": 1400, "height": 1100})
                 page.goto(f"http://127.0.0.1:{port}/targets", timeout=60_000)
-                page.wait_for_selector('[data-testid="stApp"]'
-                                       '[data-test-connection-state="CONNECTED"]',
-                                       timeout=60_000)
+                page.wait_for_selector(CONNECTED, timeout=60_000)
                 page.get_by_text("Best settings now").wait_for(timeout=60_000)
                 page.get_by_text("Hardness, fresh (N)").first.wait_for(timeout=60_000)
                 before = _best_now(page)
@@ -128,4 +72,4 @@ def test_change_a_target_in_a_real_browser(tmp_path):
             finally:
                 browser.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)

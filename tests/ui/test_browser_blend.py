@@ -17,17 +17,15 @@ Needs /usr/bin/chromium and the playwright package (see test_browser.py).
 from __future__ import annotations
 
 import re
-import subprocess
-import sys
-from pathlib import Path
 
 import pytest
 
 from conftest import DEMO
 from reference_desirability import study_D, study_d
-from test_browser import (ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy,
-                          stop_server)
-from test_browser_views import _check, _settle, _shoot
+from test_browser import _require_browser
+from test_browser_views import _check, _shoot
+from tradeoff_ui.drive import (CONNECTED, launch_chromium, settle, start_workbench,
+                               stop_workbench)
 
 FLOUR = DEMO.parent / "flour_blend.toml"
 NAMES = ("Rice flour (%)", "Sorghum flour (%)", "Tapioca starch (%)")
@@ -38,32 +36,23 @@ def page(tmp_path_factory):
     _require_browser()
     from playwright.sync_api import sync_playwright
 
-    port = _free_port()
-    log = tmp_path_factory.mktemp("app") / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", str(FLOUR), "--port", str(port)],
-                                stdout=out, stderr=subprocess.STDOUT,
-                                start_new_session=True)
+    proc, port = start_workbench([str(FLOUR)],
+                                 log=tmp_path_factory.mktemp("app") / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True,
-                                         args=ARGS)
+            browser = launch_chromium(pw)
             try:
                 p = browser.new_page(viewport={"width": 1400, "height": 2400})
                 p.goto(f"http://127.0.0.1:{port}/results", timeout=120_000)
-                p.wait_for_selector('[data-testid="stApp"]'
-                                    '[data-test-connection-state="CONNECTED"]',
-                                    timeout=120_000)
+                p.wait_for_selector(CONNECTED, timeout=120_000)
                 p.get_by_text("What if I make it like this?").first.wait_for(
                     timeout=120_000)
-                _settle(p)
+                settle(p)
                 yield p
             finally:
                 browser.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)
 
 
 def _box(page, label: str):
@@ -79,7 +68,7 @@ def _type(page, label: str, value: float) -> None:
     box.fill(f"{value:g}")
     box.press("Enter")
     page.wait_for_timeout(300)
-    _settle(page)
+    settle(page)
 
 
 def _what_if_table(page) -> dict:
@@ -103,7 +92,7 @@ def test_the_blend_what_if_keeps_the_sum_and_one_recipe(page):
     fit = tradeoff.fit_study(study)
     for width in (1400, 1280):
         page.set_viewport_size({"width": width, "height": 2400})
-        _settle(page)
+        settle(page)
         before = _blend(page)
         assert sum(before.values()) == pytest.approx(100.0, abs=1e-6)
         rice = before[NAMES[0]] + (5.0 if width == 1400 else -5.0)

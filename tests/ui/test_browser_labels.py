@@ -9,14 +9,12 @@ label the page drew (the SVG text elements of the map's label layer, named
 """
 from __future__ import annotations
 
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
-from test_browser import _free_port, _wait_healthy, stop_server
-from test_browser_views import _settle, _shoot, browser  # noqa: F401 (the shared fixture)
+from test_browser_views import _shoot, browser  # noqa: F401 (the shared fixture)
+from tradeoff_ui.drive import settle, start_workbench, stop_workbench
 
 DEMOS = Path(__file__).resolve().parents[2] / "demo_data"
 
@@ -47,21 +45,15 @@ def _overlap(a, b, tol=0.5) -> bool:
 @pytest.mark.parametrize("demo", ["snack_bar.toml", "snack_bar_shelf.toml",
                                   "flour_blend.toml"])
 def test_limit_labels_do_not_overlap(browser, demo, tmp_path):
-    port = _free_port()
-    log = tmp_path / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", str(DEMOS / demo), "--port", str(port)],
-                                stdout=out, stderr=subprocess.STDOUT, start_new_session=True)
+    proc, port = start_workbench([str(DEMOS / demo)], log=tmp_path / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         page = browser.new_page(viewport={"width": 1400, "height": 2400})
         page.goto(f"http://127.0.0.1:{port}/results", timeout=120_000)
         page.get_by_text("What if I make it like this?").first.wait_for(timeout=120_000)
-        _settle(page)
+        settle(page)
         for width in (1400, 1280):
             page.set_viewport_size({"width": width, "height": 2400})
-            _settle(page)
+            settle(page)
             _shoot(page, f"labels_{demo.split('.')[0]}_{width}")
             maps = page.evaluate(_LABELS)
             assert maps, f"{demo}: no limits map with labels on the results view"
@@ -84,4 +76,4 @@ def test_limit_labels_do_not_overlap(browser, demo, tmp_path):
                 assert not m["shortened"], (demo, width, m["shortened"])
         page.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)

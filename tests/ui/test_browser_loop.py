@@ -6,15 +6,13 @@ Needs /usr/bin/chromium and the playwright package (see test_browser.py).
 from __future__ import annotations
 
 import shutil
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
 from conftest import DEMO
-from test_browser import _free_port, _wait_healthy, stop_server
-from test_browser_views import _check, _settle, _shoot, browser  # noqa: F401 (fixture)
+from test_browser_views import _check, _shoot, browser  # noqa: F401 (fixture)
+from tradeoff_ui.drive import CONNECTED, settle, start_workbench, stop_workbench
 
 STUDIES = ("snack_bar.toml", "flour_blend.toml")
 
@@ -24,25 +22,17 @@ def test_loop_views_in_the_browser(browser, tmp_path, name):
     for path in DEMO.parent.iterdir():  # a copy: saving must never touch the demo
         if path.is_file():
             shutil.copy(path, tmp_path / path.name)
-    port = _free_port()
-    log = tmp_path / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", str(tmp_path / name), "--port",
-                                 str(port)], stdout=out, stderr=subprocess.STDOUT,
-                                start_new_session=True)
+    proc, port = start_workbench([str(tmp_path / name)], log=tmp_path / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         for width in (1400, 1280):
             page = browser.new_page(viewport={"width": width, "height": 2400})
             page.goto(f"http://127.0.0.1:{port}/", timeout=120_000)
-            page.wait_for_selector('[data-testid="stApp"][data-test-connection-state='
-                                   '"CONNECTED"]', timeout=120_000)
-            _settle(page)
+            page.wait_for_selector(CONNECTED, timeout=120_000)
+            settle(page)
 
             def go(link: str):
                 page.get_by_role("link", name=link).first.click()
-                _settle(page)
+                settle(page)
 
             tag = f"{Path(name).stem}_{width}"
             go("Plan the runs")
@@ -52,13 +42,13 @@ def test_loop_views_in_the_browser(browser, tmp_path, name):
             # beside the study keeps the plan choices): the comparison may be on already
             if not page.get_by_text("Side by side").count():
                 page.get_by_text("Compare with a second plan").click()
-                _settle(page)
+                settle(page)
             _check(page, f"plan compare {tag}")
             assert page.get_by_text("Side by side").count() == 1
             _shoot(page, f"loop_plan_compare_{tag}")
             go("Recommended settings")
             page.get_by_role("button", name="Pin S1 to compare").click()
-            _settle(page)
+            settle(page)
             go("Compare recipes")
             _check(page, f"compare {tag}")
             _shoot(page, f"loop_compare_{tag}")
@@ -74,4 +64,4 @@ def test_loop_views_in_the_browser(browser, tmp_path, name):
             _shoot(page, f"loop_confirm_{tag}")
             page.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)

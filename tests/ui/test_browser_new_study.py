@@ -15,8 +15,6 @@ from __future__ import annotations
 import hashlib
 import os
 import shutil
-import subprocess
-import sys
 import tomllib
 from pathlib import Path
 
@@ -26,14 +24,14 @@ from conftest import DEMO
 from tradeoff import check_confirmations, fit_study, load_study, optimize
 from tradeoff.confirm.batch_sheet import batch_sheet
 from tradeoff.study.safe_cells import csv_bytes
-from test_browser import (ARGS, CHROMIUM, _best_now, _free_port, _require_browser,
-                          _wait_healthy, stop_server)
-from test_browser_views import _check, _settle
+from test_browser import _best_now, _require_browser
+from test_browser_views import _check
+from tradeoff_ui.drive import (CONNECTED, launch_chromium, settle, start_workbench,
+                               stop_workbench)
 
 DATA = DEMO.parent
 FLOUR_CSV = DATA / "flour_blend_runs.csv"
 FLOUR = DATA / "flour_blend.toml"
-CONNECTED = '[data-testid="stApp"][data-test-connection-state="CONNECTED"]'
 
 
 def _shoot(page, name: str) -> None:
@@ -41,7 +39,7 @@ def _shoot(page, name: str) -> None:
     if shots:  # keep copies at both widths to look at (developers)
         for width in (1400, 1280):
             page.set_viewport_size({"width": width, "height": 1100})
-            _settle(page)
+            settle(page)
             page.screenshot(path=str(Path(shots) / f"{name}_{width}.png"), full_page=True)
         page.set_viewport_size({"width": 1400, "height": 1100})
 
@@ -50,7 +48,7 @@ def _reload(page) -> None:
     page.reload(timeout=120_000)
     page.wait_for_selector(CONNECTED, timeout=120_000)
     page.get_by_text("New study").first.wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
 
 
 def _code(page) -> str:
@@ -71,14 +69,14 @@ def _go(page, link: str, landmark: str) -> None:
     """Another view, through the sidebar (the same browser session)."""
     page.locator('[data-testid="stSidebar"]').get_by_role("link", name=link).click()
     page.get_by_text(landmark).first.wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
 
 
 def _reload_at(page, landmark: str) -> None:
     page.reload(timeout=120_000)
     page.wait_for_selector(CONNECTED, timeout=120_000)
     page.get_by_text(landmark).first.wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
 
 
 def _grid_cells(page) -> dict[tuple[int, int], str]:
@@ -114,7 +112,7 @@ def _type_cell(page, row: int, column: int, value) -> None:
     page.keyboard.type(str(value), delay=20)
     page.keyboard.press("Enter")
     page.wait_for_timeout(300)
-    _settle(page)
+    settle(page)
     assert _grid_cells(page)[(row, column)] == str(value)
 
 
@@ -123,7 +121,7 @@ def _confirm_code(page) -> str:
     box = page.locator('[data-testid="stExpander"]').filter(has_text="prints it").first
     if not box.locator('[data-testid="stCode"]').is_visible():
         box.locator("summary").click()
-        _settle(page)
+        settle(page)
     return box.locator('[data-testid="stCode"]').inner_text()
 
 
@@ -142,25 +140,17 @@ def test_flour_blend_from_its_bare_table_by_clicking(tmp_path):
     nonce = hashlib.sha256(FLOUR_CSV.name.encode() + b"\0" + data).hexdigest()[:8]
     shipped = tomllib.loads(FLOUR.read_text())
 
-    port = _free_port()
-    log = tmp_path / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    env = {**os.environ, "TRADEOFF_SESSIONS": str(tmp_path / "sessions")}
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port),
-                                 str(folder / FLOUR.name)], stdout=out, env=env,
-                                stderr=subprocess.STDOUT, start_new_session=True)
+    proc, port = start_workbench([str(folder / FLOUR.name)], log=tmp_path / "server.log",
+                                 env={"TRADEOFF_SESSIONS": str(tmp_path / "sessions")})
     try:
-        _wait_healthy(proc, port, log)
         with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True,
-                                         args=ARGS)
+            browser = launch_chromium(pw)
             try:
                 page = browser.new_page(viewport={"width": 1400, "height": 1100})
                 page.goto(f"http://127.0.0.1:{port}/targets", timeout=120_000)
                 page.wait_for_selector(CONNECTED, timeout=120_000)
                 page.get_by_text("Best settings now").wait_for(timeout=120_000)
-                _settle(page)
+                settle(page)
                 reference = _best_now(page)
 
                 def choose(key: str, option: str) -> None:
@@ -169,21 +159,21 @@ def test_flour_blend_from_its_bare_table_by_clicking(tmp_path):
                     if not page.get_by_role("option").count():
                         box.press("ArrowDown")  # focused but closed: open the list
                     page.get_by_role("option", name=option, exact=True).click()
-                    _settle(page)
+                    settle(page)
 
                 def type_in(key: str, value) -> None:
                     box = page.locator(f".st-key-ns_{nonce}_{key} input")
                     box.fill(str(value))
                     box.press("Enter")
-                    _settle(page)
+                    settle(page)
 
                 page.goto(f"http://127.0.0.1:{port}/new_study", timeout=120_000)
                 page.wait_for_selector(CONNECTED, timeout=120_000)
-                _settle(page)
+                settle(page)
                 page.locator(".st-key-ns_upload input[type=file]").set_input_files(
                     str(upload))
                 page.get_by_text("1. What each column is").wait_for(timeout=120_000)
-                _settle(page)
+                settle(page)
                 # the flours are offered as the parts of a blend, with their total
                 for flour in ("rice_flour", "sorghum_flour", "tapioca_starch"):
                     assert "blend component" in page.locator(
@@ -224,24 +214,24 @@ def test_flour_blend_from_its_bare_table_by_clicking(tmp_path):
                 shutil.copy(FLOUR_CSV, saved / FLOUR_CSV.name)
                 page.get_by_role("button", name="Open this study in the workbench").click()
                 page.get_by_text("This study is open").wait_for(timeout=120_000)
-                _settle(page)
+                settle(page)
                 page.get_by_role("link", name="Adjust goals and weights").click()
                 page.get_by_text("Best settings now").wait_for(timeout=120_000)
-                _settle(page)
+                settle(page)
                 assert _best_now(page) == reference
                 sidebar = page.locator('[data-testid="stSidebar"]').inner_text()
                 assert "gluten_free_flour_blend_invented_demo.toml" in sidebar
                 page.reload(timeout=120_000)
                 page.wait_for_selector(CONNECTED, timeout=120_000)
                 page.get_by_text("Best settings now").wait_for(timeout=120_000)
-                _settle(page)
+                settle(page)
                 assert _best_now(page) == reference  # the reload kept study and goals
                 _check(page, "targets after reload")
                 _close_the_loop(page, study_file, tmp_path)
             finally:
                 browser.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)
 
 
 def _close_the_loop(page, study_file: Path, tmp_path: Path) -> None:
@@ -257,14 +247,14 @@ def _close_the_loop(page, study_file: Path, tmp_path: Path) -> None:
 
     _go(page, "Recommended settings", "Pin ")
     page.locator(".st-key-r_pin button").click()
-    _settle(page)
+    settle(page)
     _check(page, "recommended settings")
 
     _go(page, "Batch sheet", "Make in this order")
     size = page.get_by_label("Batch size (g)")
     size.fill("750")
     size.press("Enter")
-    _settle(page)
+    settle(page)
     _check(page, "batch sheet")
     _shoot(page, "batch_sheet_flour")
     _reload_at(page, "Make in this order")

@@ -17,16 +17,14 @@ Needs /usr/bin/chromium and the playwright package (see test_browser.py).
 from __future__ import annotations
 
 import math
-import subprocess
-import sys
 from pathlib import Path
 
 import pandas as pd
 import pytest
 
-from test_browser import ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy, \
-    stop_server
-from test_browser_views import _settle
+from test_browser import _require_browser
+from tradeoff_ui.drive import (CONNECTED, launch_chromium, settle, start_workbench,
+                               stop_workbench)
 
 SHELF = Path(__file__).resolve().parents[2] / "demo_data" / "snack_bar_shelf.toml"
 
@@ -36,34 +34,26 @@ def app(tmp_path_factory):
     _require_browser()
     from playwright.sync_api import sync_playwright
 
-    port = _free_port()
-    log = tmp_path_factory.mktemp("shelf") / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", str(SHELF), "--port", str(port)],
-                                stdout=out, stderr=subprocess.STDOUT,
-                                start_new_session=True)
+    proc, port = start_workbench([str(SHELF)],
+                                 log=tmp_path_factory.mktemp("shelf") / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True,
-                                         args=ARGS)
+            browser = launch_chromium(pw)
             try:
                 yield browser, f"http://127.0.0.1:{port}"
             finally:
                 browser.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)
 
 
 def _open(app, path: str, ready: str, width: int = 1400):
     browser, url = app
     page = browser.new_page(viewport={"width": width, "height": 2400})
     page.goto(f"{url}/{path}", timeout=120_000)
-    page.wait_for_selector('[data-testid="stApp"][data-test-connection-state="CONNECTED"]',
-                           timeout=120_000)
+    page.wait_for_selector(CONNECTED, timeout=120_000)
     page.get_by_text(ready).first.wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
     assert page.locator('[data-testid="stException"]').count() == 0
     return page
 

@@ -21,17 +21,15 @@ from __future__ import annotations
 
 import os
 import re
-import subprocess
-import sys
-import time
 from pathlib import Path
 from urllib.parse import urlparse
 
 import pytest
 
 from conftest import DEMO
-from test_browser import (ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy,
-                          stop_server)
+from test_browser import _require_browser
+from tradeoff_ui.drive import (CONNECTED, launch_chromium, settle, start_workbench,
+                               stop_workbench)
 
 # view -> (path, a text the view shows once it has run to its end)
 VIEWS = {"study": ("", "The same runs in coded units"),
@@ -41,16 +39,6 @@ VIEWS = {"study": ("", "The same runs in coded units"),
          "downloads": ("downloads", "The report")}
 LOCAL = {"127.0.0.1", "localhost"}
 CHANCE = re.compile(r"^(?:> 99\.9|< 0\.1|\d{1,2}\.\d) %$")
-
-# A view is settled when no script runs, no skeleton shows, every chart is drawn
-# and nothing changed for a moment.
-_STATE = """() => [
-  document.querySelectorAll('[data-testid="stStatusWidget"]').length,
-  document.querySelectorAll('[data-testid="stSkeleton"]').length,
-  document.querySelectorAll('[data-testid="stElementContainer"]').length,
-  document.querySelectorAll('.vega-embed').length,
-  document.querySelectorAll('.vega-embed svg, .vega-embed canvas').length,
-  document.body.innerText.length]"""
 
 # Layout problems in the page as it stands: one text per problem.
 _PROBLEMS = """() => {
@@ -90,20 +78,6 @@ _PROBLEMS = """() => {
 }"""
 
 
-def _settle(page, quiet: float = 0.8, timeout: float = 120.0) -> float:
-    start = time.monotonic()
-    last, since = None, time.monotonic()
-    while time.monotonic() - start < timeout:
-        s = page.evaluate(_STATE)
-        busy = s[0] > 0 or s[1] > 0 or s[2] == 0 or s[4] < s[3]
-        if s != last or busy:
-            last, since = s, time.monotonic()
-        elif time.monotonic() - since >= quiet:
-            return time.monotonic() - start - quiet
-        page.wait_for_timeout(50)
-    pytest.fail("the view did not settle within two minutes")
-
-
 def _check(page, where: str) -> None:
     errors = page.locator('[data-testid="stException"]')
     assert errors.count() == 0, f"{where}: {errors.first.inner_text()[:600]}"
@@ -120,17 +94,11 @@ def _shoot(page, name: str) -> None:
 @pytest.fixture(scope="module")
 def server(tmp_path_factory):
     _require_browser()
-    port = _free_port()
-    log = tmp_path_factory.mktemp("app") / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port)], stdout=out,
-                                stderr=subprocess.STDOUT, start_new_session=True)
+    proc, port = start_workbench([], log=tmp_path_factory.mktemp("app") / "server.log")
     try:
-        _wait_healthy(proc, port, log)
         yield f"http://127.0.0.1:{port}"
     finally:
-        stop_server(proc)
+        stop_workbench(proc)
 
 
 @pytest.fixture(scope="module")
@@ -139,7 +107,7 @@ def browser():
     from playwright.sync_api import sync_playwright
 
     with sync_playwright() as pw:
-        b = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True, args=ARGS)
+        b = launch_chromium(pw)
         try:
             yield b
         finally:
@@ -150,10 +118,9 @@ def _open(browser, url: str, requests: list, ready: str):
     page = browser.new_page(viewport={"width": 1400, "height": 2400})
     page.on("request", lambda r: requests.append(r.url))
     page.goto(url, timeout=120_000)
-    page.wait_for_selector('[data-testid="stApp"][data-test-connection-state="CONNECTED"]',
-                           timeout=120_000)
+    page.wait_for_selector(CONNECTED, timeout=120_000)
     page.get_by_text(ready).first.wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
     return page
 
 
@@ -186,7 +153,7 @@ def _results_checks(page, study, result) -> None:
     page.locator(".st-key-r_chosen").click()
     page.get_by_role("option", name=second.label, exact=True).click()
     page.get_by_role("button", name=f"Start from {second.label}").wait_for(timeout=120_000)
-    _settle(page)
+    settle(page)
     for f in study.factors:
         if not f.is_categorical:
             box = page.locator(f'input[aria-label="{f.display()}"]').last
@@ -220,7 +187,7 @@ def test_every_view_fits_and_stays_local(server, browser):
         try:
             for width in (1400, 1280):
                 page.set_viewport_size({"width": width, "height": 2400})
-                _settle(page)
+                settle(page)
                 _check(page, f"{name} at {width} px")
                 _shoot(page, f"workbench_{name}_{width}")
             if name == "study":

@@ -136,13 +136,11 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
     """A real browser on every view of the payload study: every request goes to
     127.0.0.1 (or stays inside the page: data:, blob:), none to the payloads' host."""
     import os
-    import subprocess
-    import sys
     from pathlib import Path
     from urllib.parse import urlsplit
 
-    from test_browser import (ARGS, CHROMIUM, _free_port, _require_browser, _wait_healthy,
-                          stop_server)
+    from test_browser import _require_browser
+    from tradeoff_ui.drive import CONNECTED, launch_chromium, start_workbench, stop_workbench
 
     _require_browser()
     from playwright.sync_api import sync_playwright
@@ -150,18 +148,11 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
     study = tmp_path / "study.toml"
     study.write_text(PAYLOAD_STUDY, encoding="utf-8")
     (tmp_path / "runs.csv").write_bytes(payload_runs())
-    port = _free_port()
-    log = tmp_path / "server.log"
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", str(study), "--port", str(port)],
-                                stdout=out, stderr=subprocess.STDOUT, start_new_session=True)
+    proc, port = start_workbench([str(study)], log=tmp_path / "server.log")
     requests: list[str] = []
     try:
-        _wait_healthy(proc, port, log)
         with sync_playwright() as pw:
-            browser = pw.chromium.launch(executable_path=str(CHROMIUM), headless=True,
-                                         args=ARGS)
+            browser = launch_chromium(pw)
             try:
                 page = browser.new_page(viewport={"width": 1400, "height": 1100})
                 page.on("request", lambda request: requests.append(request.url))
@@ -170,9 +161,7 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
                            lambda route: route.abort())
                 for view in ["", "models", "targets", "results", "downloads"]:
                     page.goto(f"http://127.0.0.1:{port}/{view}", timeout=60_000)
-                    page.wait_for_selector('[data-testid="stApp"]'
-                                           '[data-test-connection-state="CONNECTED"]',
-                                           timeout=60_000)
+                    page.wait_for_selector(CONNECTED, timeout=60_000)
                     page.get_by_text("Open study:").first.wait_for(timeout=60_000)
                     page.wait_for_timeout(2_000)  # let every element and chart arrive
                     assert page.locator('[data-testid="stException"]').count() == 0
@@ -189,7 +178,7 @@ def test_no_request_leaves_this_computer_with_a_payload_study_open(tmp_path):
             finally:
                 browser.close()
     finally:
-        stop_server(proc)
+        stop_workbench(proc)
     assert requests, "the browser made no request at all"
     away = [url for url in requests if urlsplit(url).scheme not in ("data", "blob")
             and urlsplit(url).hostname != "127.0.0.1"]

@@ -30,27 +30,19 @@ from __future__ import annotations
 
 import hashlib
 import io
-import os
-import signal
-import socket
-import subprocess
-import sys
 import tempfile
-import time
-import urllib.request
 from pathlib import Path
 
 from PIL import Image
 
 from tradeoff.study.files import write_atomic
+from tradeoff_ui.drive import (CHROMIUM, CONNECTED, launch_chromium, settle, start_workbench,
+                               stop_workbench)
 
 HERE = Path(__file__).resolve().parent
 DEMO = HERE.parents[1] / "demo_data"
 STUDY = "flour_blend.toml"
 TABLE = "flour_blend_runs.csv"
-CHROMIUM = "/usr/bin/chromium"
-ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run"]
 WIDTH = 1280  # a laptop (--width to look at another)
 OUT = HERE    # where the pictures go (--out to put them elsewhere)
 TALL = 2400   # tall enough that each view is drawn whole, then cropped
@@ -62,17 +54,6 @@ ROW = 35      # px per row of a table, the header included
 # (volume mL/g, hardness N, lightness L*), invented for the picture
 MEASURED = (("2.76", "5.7", "57.4"), ("2.83", "5.3", "58.6"))
 BATCH_G = "850"  # grams of blend per confirmation batch
-CONNECTED = '[data-testid="stApp"][data-test-connection-state="CONNECTED"]'
-
-# A view is settled when no script runs, no skeleton shows, every chart is drawn
-# and nothing changed for a moment (the browser tests wait the same way).
-_STATE = """() => [
-  document.querySelectorAll('[data-testid="stStatusWidget"]').length,
-  document.querySelectorAll('[data-testid="stSkeleton"]').length,
-  document.querySelectorAll('[data-testid="stElementContainer"]').length,
-  document.querySelectorAll('.vega-embed').length,
-  document.querySelectorAll('.vega-embed svg, .vega-embed canvas').length,
-  document.body.innerText.length]"""
 
 
 # -- the workbench -------------------------------------------------------------------
@@ -86,67 +67,7 @@ def copy_demo(folder: Path) -> None:
             write_atomic(folder / path.name, path.read_bytes())
 
 
-def free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def start_workbench(study: Path, sessions: Path, log: Path) -> tuple[subprocess.Popen, int]:
-    """``tradeoff app study`` on a free port, once it answers."""
-    port = free_port()
-    tradeoff = Path(sys.executable).with_name("tradeoff")
-    env = {**os.environ, "TRADEOFF_SESSIONS": str(sessions)}
-    with log.open("wb") as out:
-        proc = subprocess.Popen([str(tradeoff), "app", "--port", str(port), str(study)],
-                                stdout=out, stderr=subprocess.STDOUT, env=env,
-                                start_new_session=True)
-    deadline = time.monotonic() + 120
-    while time.monotonic() < deadline:
-        if proc.poll() is not None:
-            raise SystemExit(f"tradeoff app stopped early:\n{log.read_text()}")
-        try:
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health",
-                                        timeout=2) as answer:
-                if answer.read().strip() == b"ok":
-                    return proc, port
-        except OSError:
-            pass
-        time.sleep(0.3)
-    stop_workbench(proc)
-    raise SystemExit(f"the workbench did not answer within 120 s:\n{log.read_text()}")
-
-
-def stop_workbench(proc: subprocess.Popen) -> None:
-    """End the server this script started, and the helpers it started."""
-    if proc.poll() is None:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            pass
-    try:
-        os.killpg(proc.pid, signal.SIGKILL)
-    except ProcessLookupError:
-        pass
-
-
 # -- the browser ---------------------------------------------------------------------
-
-
-def settle(page, quiet: float = 0.8, timeout: float = 120.0) -> None:
-    """Wait until the view has run to its end and stopped changing."""
-    start = time.monotonic()
-    last, since = None, time.monotonic()
-    while time.monotonic() - start < timeout:
-        s = page.evaluate(_STATE)
-        busy = s[0] > 0 or s[1] > 0 or s[2] == 0 or s[4] < s[3]
-        if s != last or busy:
-            last, since = s, time.monotonic()
-        elif time.monotonic() - since >= quiet:
-            return
-        page.wait_for_timeout(50)
-    raise SystemExit("a view did not settle within two minutes")
 
 
 def open_view(page, port: int, path: str, marker: str) -> None:
@@ -350,12 +271,11 @@ def main() -> None:
         upload = work / "upload" / TABLE  # the bare table, alone in its folder
         upload.parent.mkdir()
         write_atomic(upload, (DEMO / TABLE).read_bytes())
-        proc, port = start_workbench(work / "lab" / STUDY, work / "sessions",
-                                     work / "server.log")
+        proc, port = start_workbench([str(work / "lab" / STUDY)], log=work / "server.log",
+                                     env={"TRADEOFF_SESSIONS": str(work / "sessions")})
         try:
             with sync_playwright() as pw:
-                browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True,
-                                             args=ARGS)
+                browser = launch_chromium(pw)
                 try:
                     page = browser.new_page(viewport={"width": WIDTH, "height": TALL})
                     shoot_new_study(page, port, upload)
