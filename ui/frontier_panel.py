@@ -64,13 +64,17 @@ def frontier_panel(study, fitted, result, chosen):
         return chosen
     st.subheader("What one goal costs in another")
     epoch = ss.get("epoch", 0)
-    first = _most_conflicting(study, fitted, goals)
+    # the pair the user chose last (kept through a reload), else the worst conflict
+    kept = ss["frontier_pair"]
+    first = kept if len(kept) == 2 and set(kept) <= set(goals) and kept[0] != kept[1] \
+        else _most_conflicting(study, fitted, goals)
     c1, c2, _ = st.columns([2, 2, 3])
     a = c1.selectbox("Across", goals, index=goals.index(first[0]), key=f"r_front_a_{epoch}",
                      format_func=lambda n: _display(study, n))
     rest = [g for g in goals if g != a]
     b = c2.selectbox("Up", rest, index=rest.index(first[1]) if first[1] in rest else 0,
                      key=f"r_front_b_{epoch}", format_func=lambda n: _display(study, n))
+    ss["frontier_pair"] = [a, b]
     try:
         front = cached.frontier(study, fitted, (a, b))
     except TradeoffError as exc:

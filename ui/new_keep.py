@@ -126,6 +126,7 @@ def apply(kept: dict, study) -> None:
     ss["next_runs"] = kept["asked"]["next_runs"]
     ss["compare_shown"] = kept["asked"]["compare_shown"] & responses
     ss["report_ready"] = kept["asked"]["report"]
+    ss["frontier_pair"] = kept["asked"]["frontier"]  # checked against the goals when drawn
     whatif = kept["whatif"]
     if whatif["from"] is not None and set(whatif["settings"]) <= factors:
         ss["whatif_from"], ss["whatif"] = whatif["from"], dict(whatif["settings"])
@@ -179,7 +180,8 @@ def keep() -> None:
                             plan=ss["plan"],
                             asked={"next_runs": ss["next_runs"],
                                    "compare_shown": ss["compare_shown"],
-                                   "report": ss["report_ready"]},
+                                   "report": ss["report_ready"],
+                                   "frontier": ss["frontier_pair"]},
                             whatif={"from": ss["whatif_from"], "settings": ss["whatif"]},
                             typed={"confirm": ss["confirm_typed"],
                                    # the runs table only when edited: an untouched copy

@@ -43,6 +43,8 @@ KEYS = {
     "compare_shown": "response names whose model comparison the user asked to see",
     "next_runs": "how many next runs the user asked for in 'Make next' (0: not asked yet)",
     "frontier_nonce": "bumped to drop the frontier point picked on the results view",
+    "frontier_pair": "the two goals the frontier was last drawn between (kept in the "
+                     "session file), [] before",
     "frontier_seen": "the solution chosen above the frontier when its point was picked "
                      "(choosing another drops the pick)",
     # keeping work across reloads and restarts (ui/new_keep.py)
@@ -112,6 +114,7 @@ def open_origin(origin: dict, label: str, study) -> None:
     st.session_state["data_changed"] = False
     st.session_state["batch"] = {}
     st.session_state["plan"] = {}
+    st.session_state["frontier_pair"] = []
 
 
 def init() -> None:
@@ -122,7 +125,7 @@ def init() -> None:
                 "models": {}, "report_ready": False, "whatif_nonce": 0, "goals": {},
                 "aim": "balance", "spread": {},
                 "whatif_from": None, "compare_shown": set(), "next_runs": 0,
-                "frontier_nonce": 0, "frontier_seen": None,
+                "frontier_nonce": 0, "frontier_seen": None, "frontier_pair": [],
                 "new_draft": None, "new_data": None,
                 "pins": {}, "confirm_typed": None, "data_typed": None, "editor_nonce": 0,
                 "data_changed": False, "batch": {}, "plan": {}}

@@ -93,7 +93,8 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
     settings and the solution they started from (``{"from": label, "settings": {...}}``),
     ``asked`` what the user asked to see (``next_runs``: how many runs "Make next"
     suggests, 0 none; ``compare_shown``: responses whose model comparison is open;
-    ``report``: the report prepared).
+    ``report``: the report prepared; ``frontier``: the two goals the frontier is
+    drawn between, or none yet).
     """
     doc = {"kind": SESSION_KIND, "version": 1, "study": study,
            "goals": {n: g.keys() or {"goal": "none", "weight": g.weight}
@@ -109,7 +110,8 @@ def session_text(*, study: dict, goals: dict[str, Goal], models: dict, reduce=()
                     for n, v in (plan or {}).items()},
            "asked": {"next_runs": int((asked or {}).get("next_runs") or 0),
                      "compare_shown": sorted((asked or {}).get("compare_shown") or ()),
-                     "report": bool((asked or {}).get("report"))},
+                     "report": bool((asked or {}).get("report")),
+                     "frontier": list((asked or {}).get("frontier") or ())},
            "whatif": {"from": (whatif or {}).get("from"),
                       "settings": {n: _cell(v) for n, v
                                    in ((whatif or {}).get("settings") or {}).items()}}}
@@ -250,12 +252,15 @@ def _whatif(whatif, name: str) -> dict:
 def _asked(asked, name: str) -> dict:
     asked = asked or {}
     runs, shown = asked.get("next_runs", 0), asked.get("compare_shown", [])
+    pair = asked.get("frontier", [])
     if not (isinstance(asked, dict) and isinstance(runs, int) and not isinstance(runs, bool)
             and 0 <= runs <= 12 and isinstance(shown, list)
             and all(isinstance(n, str) for n in shown)
-            and isinstance(asked.get("report", False), bool)):
+            and isinstance(asked.get("report", False), bool)
+            and isinstance(pair, list) and len(pair) in (0, 2)
+            and all(isinstance(n, str) for n in pair)):
         raise StudyError(f"{name}: \"asked\" must say how many next runs were asked for "
-                         "(0 to 12), which model comparisons are open and whether the "
-                         "report was prepared")
+                         "(0 to 12), which model comparisons are open, whether the "
+                         "report was prepared and which two goals the frontier shows")
     return {"next_runs": runs, "compare_shown": set(shown),
-            "report": asked.get("report", False)}
+            "report": asked.get("report", False), "frontier": list(pair)}

@@ -162,11 +162,15 @@ def test_plan_what_if_and_asked_for_round_trip():
                         plan={"a_design": "optimal", "a_n": 16, "compare": True,
                               "a_cent": ["edges", "overall"]},
                         whatif={"from": "S1", "settings": {"temp": 181.0, "flour": "rice"}},
-                        asked={"next_runs": 4, "compare_shown": {"v", "h"}, "report": True})
+                        asked={"next_runs": 4, "compare_shown": {"v", "h"}, "report": True,
+                               "frontier": ["h", "v"]})
     back = read_session(text, "x.session.json")
     assert back["plan"] == {"a_design": "optimal", "a_n": 16, "compare": True,
                             "a_cent": ["edges", "overall"]}
     assert back["whatif"] == {"from": "S1", "settings": {"temp": 181.0, "flour": "rice"}}
-    assert back["asked"] == {"next_runs": 4, "compare_shown": {"v", "h"}, "report": True}
+    assert back["asked"] == {"next_runs": 4, "compare_shown": {"v", "h"}, "report": True,
+                             "frontier": ["h", "v"]}
     with pytest.raises(StudyError, match='"asked" must say'):
         read_session(text.replace('"next_runs": 4', '"next_runs": 40'), "x.session.json")
+    with pytest.raises(StudyError, match="which two goals the frontier shows"):
+        read_session(text.replace('"frontier": [', '"frontier": ["w", '), "x.session.json")

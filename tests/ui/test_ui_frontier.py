@@ -8,6 +8,7 @@ A click on a point is checked in a real browser (the report of this change).
 """
 from __future__ import annotations
 
+from conftest import reopened
 from test_ui_views import start
 
 
@@ -32,3 +33,18 @@ def test_frontier_panel_opens_on_the_most_conflicting_pair_and_follows_a_pick():
     text = "\n".join(m.value for m in at.markdown)
     # the exchange rate in the pair's units, the goals by their labels
     assert "points of Overall liking (9-point hedonic) costs" in text
+
+
+def test_the_pair_chosen_survives_a_reload():
+    """The two goals the user drew the frontier between are drawn again in a new
+    browser session at the same address (the session file keeps them)."""
+    at = start("results")
+    next(s for s in at.selectbox if s.label == "Across").set_value("liking").run()
+    next(s for s in at.selectbox if s.label == "Up").set_value("cost").run()
+    assert at.session_state["frontier_pair"] == ["liking", "cost"]
+    again = reopened(at, "results")
+    # the frontier's pair is the first "Across" and "Up" (the maps' axes follow)
+    assert [next(s.value for s in again.selectbox if s.label == label)
+            for label in ("Across", "Up")] == ["liking", "cost"]
+    assert not again.error
+    assert [w.value for w in again.warning] == [w.value for w in at.warning]
