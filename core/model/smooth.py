@@ -228,9 +228,16 @@ class SmoothModel:
         self.loo_refit_ = None
         held = self.loo_predictions_
         if self.optimize and self.refit_loo and n <= REFIT_LOO_MAX_RUNS:
-            # each run predicted by the model refitted without it (natural units)
-            self.loo_refit_ = self._refit_without_each(X, y, gp.kernel_)
-            held = forward(self.loo_refit_, self.transform, response=name)
+            if n - 1 >= need:
+                # each run predicted by the model refitted without it (natural units)
+                self.loo_refit_ = self._refit_without_each(X, y, gp.kernel_)
+                held = forward(self.loo_refit_, self.transform, response=name)
+            else:
+                # at the fewest runs the model takes, a run left out leaves too few
+                # to refit: the closed form, with the whole-data settings held
+                notes.append(f"with {n} runs, the fewest a smooth model takes, leaving "
+                             "one out leaves too few to refit it: its predicted R2 keeps "
+                             "the whole-data length scales (slightly favourable to it)")
         press = float(np.sum((z - held) ** 2))
         self.loo_r2_ = 1.0 - press / sst
         self.pred_r2_ = self.loo_r2_  # the name the search's poor-model warning reads

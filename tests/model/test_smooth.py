@@ -137,6 +137,32 @@ def test_too_few_runs_is_a_study_error_naming_the_rule():
         SmoothModel(factor_names=["a", "b"], name="liking").fit(X, y)
 
 
+def test_the_fewest_runs_fit_and_score_with_the_whole_data_settings_held():
+    # At exactly the fewest runs (2 per factor plus 3) the model fits; leaving a run
+    # out would leave too few to refit it, so its leave-one-out score is the closed
+    # form with the fitted kernel held (R&W 2006 eqs. 5.10-5.12), checked here
+    # against refitting without each run with that kernel fixed in numpy.
+    X, y = _data(n=smooth_min_runs(2), seed=9)
+    model = SmoothModel(factor_names=["a", "b"], name="liking").fit(X, y)
+    assert model.loo_refit_ is None
+    assert any("leaving one out leaves too few" in w for w in model.warnings_)
+    lengths = [model.length_scales_["a"], model.length_scales_["b"]]
+    kernel = model.kernel_
+    variance = float(kernel.k1.k1.constant_value)
+    noise = float(kernel.k2.noise_level)
+    m, s = y.mean(), y.std()
+    zn = (y - m) / s
+    loop = np.empty(len(y))
+    for i in range(len(y)):
+        keep = np.arange(len(y)) != i
+        K = _matern52(X[keep], X[keep], lengths, variance) + (noise + 1e-10) * np.eye(
+            keep.sum())
+        k = _matern52(X[i:i + 1], X[keep], lengths, variance)
+        loop[i] = m + s * (k @ np.linalg.solve(K, zn[keep]))[0]
+    r2 = 1 - np.sum((y - loop) ** 2) / np.sum((y - y.mean()) ** 2)
+    assert model.loo_r2_ == pytest.approx(r2, rel=1e-6)
+
+
 def test_constant_response_and_unfitted_model_are_model_errors():
     X, _ = _data(n=10)
     with pytest.raises(ModelError, match="is 4 in every run"):
