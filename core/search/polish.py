@@ -98,11 +98,15 @@ def _polish_d(problem, Z0, cats):
     rules = [_rule_parts(problem, cats[b]) for b in range(c)]
     n_rules = 0 if rules[0][0] is None else len(rules[0][1])
 
+    # Each t is solved for as its start value times a factor S (t = T0 S), and each of
+    # its pieces divided by T0^ex: a d of 1e-7 at the start (a hair inside a limit)
+    # then moves on the same scale as a d of 0.5, which SLSQP's absolute tolerances
+    # need to take it the rest of the way.
     def cons(v):
         y, _ = at(v)
-        T = v[c * p:].reshape(c, q)
+        S = v[c * p:].reshape(c, q)
         g = a * y[:, col] + const
-        g[:, rows_t] -= T[:, tix[rows_t]] ** ex[rows_t]
+        g[:, rows_t] = g[:, rows_t] / scale - S[:, tix[rows_t]] ** ex[rows_t]
         out = [g.ravel()]
         if n_rules:
             Z = v[:c * p].reshape(c, p)
@@ -122,10 +126,12 @@ def _polish_d(problem, Z0, cats):
 
     def cons_jac(v):
         _, J = at(v)
-        T = v[c * p:].reshape(c, q)
+        S = v[c * p:].reshape(c, q)
         G = np.zeros((c * r, c * (p + q)))
-        G[z_rows, z_cols] = (J[:, :, col] * a).transpose(0, 2, 1)
-        G[t_rows, t_cols] = -ex[rows_t] * T[:, tix[rows_t]] ** (ex[rows_t] - 1)
+        piece = (J[:, :, col] * a).transpose(0, 2, 1)  # (c, r, p)
+        piece[:, rows_t, :] /= scale[:, :, None]
+        G[z_rows, z_cols] = piece
+        G[t_rows, t_cols] = -ex[rows_t] * S[:, tix[rows_t]] ** (ex[rows_t] - 1)
         return np.vstack([G, G_rules]) if n_rules else G
 
     def fun(v):
@@ -137,9 +143,10 @@ def _polish_d(problem, Z0, cats):
     y0, _ = at(np.concatenate([Z0.ravel(), np.ones(c * q)]))
     d0 = problem.score(y0)[1]
     T0 = np.clip(d0[:, tcols] * (1 - 1e-9), 1e-12, 1.0)
-    bounds = Bounds(np.concatenate([np.tile(problem.lo, c), np.full(c * q, 1e-12)]),
-                    np.concatenate([np.tile(problem.hi, c), np.ones(c * q)]))
-    res = minimize(fun, np.concatenate([Z0.ravel(), T0.ravel()]), jac=jac, method="SLSQP",
+    scale = T0[:, tix[rows_t]] ** ex[rows_t]  # (c, rt)
+    bounds = Bounds(np.concatenate([np.tile(problem.lo, c), (1e-12 / T0).ravel()]),
+                    np.concatenate([np.tile(problem.hi, c), (1.0 / T0).ravel()]))
+    res = minimize(fun, np.concatenate([Z0.ravel(), np.ones(c * q)]), jac=jac, method="SLSQP",
                    bounds=bounds, constraints=[{"type": "ineq", "fun": cons, "jac": cons_jac}],
                    options={"maxiter": 100, "ftol": _FTOL * c})
     Z = np.clip(res.x[:c * p].reshape(c, p), problem.lo, problem.hi)

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from search_problems import (d_overall_reference, dense_grid_optimum, design_matrix,
+from search_problems import (d_overall_reference, dense_grid_optimum, design_matrix, known_fit,
                              random_problem)
 from reference_desirability import study_D, study_d
 from tradeoff import load_study, optimize, overall_desirability
@@ -529,3 +529,36 @@ def test_peaks_of_very_different_d_are_each_polished(write_study):
     assert best > 0.84
     assert result.best.found_desirability >= best - 1e-6  # before rounding
     assert result.best.settings["flour"] == "corn"
+
+
+def test_a_hair_wide_window_reaches_its_peak():
+    # One factor x (0..10 g) whose own goal (maximize from 6 g, shape 2.36, weight 2)
+    # opens where another closes (volume = -2 (x - 5), maximize from -2.06, weight 2):
+    # both d's are below 1e-3 in the window 6 < x < 6.03. With a colour to keep low
+    # (5 + (x - 5) / 5, minimize 0..10, shape 3) and a range goal met throughout,
+    # D^6 = ((x - 6) / 3)^4.72 ((6.03 - x) / 6.03)^2 ((5 - (x - 5) / 5) / 10)^3; its
+    # peak is where the derivative of log D is zero, found here with scipy's brentq.
+    # The polish must take such tiny d's the whole way, not stop near the start.
+    from scipy.optimize import brentq
+
+    spec = {"study": {"name": "narrow window"},
+            "factors": [{"name": "x", "low": 0, "high": 10, "unit": "g", "goal": "maximize",
+                         "lower": 6.0, "upper": 9.0, "shape": 2.36, "weight": 2.0}],
+            "responses": [{"name": "volume", "goal": "maximize", "lower": -2.06,
+                           "upper": 10.0, "weight": 2.0},
+                          {"name": "colour", "goal": "minimize", "lower": 0.0, "upper": 10.0,
+                           "shape": 3.0},
+                          {"name": "hard", "goal": "range", "lower": -1.0, "upper": 1.0}]}
+    study = study_from_dict(spec, with_data=False)
+    fit = known_fit(study, {"volume": [0.0, -10.0], "colour": [5.0, 1.0], "hard": [0.0, 0.1]},
+                    kind="main")
+    best = optimize(study, fit=fit, top=1, seed=0, draws=200).best
+
+    def slope(x):  # d/dx of 6 log D
+        return 4.72 / (x - 6) - 2 / (6.03 - x) - 3 * (1 / 5) / (5 - (x - 5) / 5)
+
+    x_star = brentq(slope, 6 + 1e-9, 6.03 - 1e-9, xtol=1e-12)
+    D_star = (((x_star - 6) / 3) ** 4.72 * ((-2 * (x_star - 5) + 2.06) / 12.06) ** 2
+              * ((5 - (x_star - 5) / 5) / 10) ** 3) ** (1 / 6)
+    assert best.settings["x"] == pytest.approx(x_star, abs=2e-4)
+    assert best.desirability == pytest.approx(D_star, rel=1e-4)
