@@ -27,6 +27,7 @@ import math
 import numpy as np
 import pandas as pd
 
+from oracle_checks import _d_matches
 from oracle_reference import D_reference, d_reference
 
 __all__ = ["check_frontier", "check_steadiness", "tradable"]
@@ -49,7 +50,8 @@ def _X(study, coded: dict) -> pd.DataFrame:
 def _judge_point(study, fit, goals, weights, point, where, outcome, command, rel=1e-9):
     """Reference d's and D at a point: its printed predictions are checked against
     the model at its coded settings (within ``rel``), then d and D are computed from
-    the printed predictions, as the optimize check does. (From the model's own
+    the printed predictions, as the optimize check does: each printed d against
+    Derringer-Suich at its prediction, D against the geometric mean of the d's. (From the model's own
     prediction instead, a point a hair inside a limit, 3e-8 from it with a shape of
     3.7, turns a last-digit difference of the prediction into a 1e-5 one of D.)"""
     X = _X(study, point["coded"])
@@ -61,7 +63,16 @@ def _judge_point(study, fit, goals, weights, point, where, outcome, command, rel
                 outcome.fail("predict", command, f"{where}: '{name}' printed "
                              f"{point['predicted'][name]}, the model predicts {p}")
         y = point["predicted"][name] if kind == "response" else _value(point, kind, name)
-        ds.append(float(d_reference(np.array([y]), g)[0]))
+        printed = point.get("d", {}).get(name)
+        if printed is None:  # a point that prints no d's (the steadiness baseline)
+            ds.append(float(d_reference(np.array([y]), g)[0]))
+        elif _d_matches(printed, y, g):
+            ds.append(printed)
+        else:
+            outcome.fail("desirability", command, f"{where}: d of '{name}' is {printed} "
+                         f"at {y}; Derringer-Suich gives "
+                         f"{float(d_reference(np.array([y]), g)[0])}")
+            ds.append(float(d_reference(np.array([y]), g)[0]))
     D = float(D_reference(np.array([ds]), weights)[0])
     return ds, D
 
