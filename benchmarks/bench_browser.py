@@ -90,6 +90,26 @@ def floor_first_loads(browser, port: int, visits: int, query: str = "") -> list[
     return times
 
 
+def timed_choice(page, box, option: str) -> float:
+    """Seconds to the page settled after ``option`` is picked in the select ``box``."""
+    box.click()
+    if not page.get_by_role("option").count():
+        box.press("ArrowDown")
+    option_box = page.get_by_role("option", name=option, exact=True)
+    start = time.perf_counter()
+    option_box.click()
+    return settle(page, start, quiet=QUIET)
+
+
+def timed_typing(page, box, value) -> float:
+    """Seconds to the page settled after ``value`` is typed in ``box`` and Enter pressed."""
+    box.fill(str(value))
+    start = time.perf_counter()
+    box.press("Enter")
+    page.wait_for_timeout(30)
+    return settle(page, start, quiet=QUIET)
+
+
 def floor_reruns(browser, port: int, repeat: int) -> list[float]:
     """Times of ``repeat`` reruns of the floor page (its 'again' button clicked)."""
     page = browser.new_page(viewport=VIEWPORT)

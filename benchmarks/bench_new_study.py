@@ -21,7 +21,7 @@ from tradeoff_ui.drive import launch_chromium, settle, start_workbench, stop_wor
 
 sys.path.insert(0, str(Path(__file__).parent))
 from bench_browser import (CHANGE_TARGET, QUIET, VIEWPORT, floor_reruns,  # noqa: E402
-                           floor_server)
+                           floor_server, timed_choice, timed_typing)
 
 REPEAT = 5
 CSV = Path(__file__).resolve().parents[1] / "demo_data" / "flour_blend_runs.csv"
@@ -52,22 +52,12 @@ def main() -> None:
                          [settle(page, start, quiet=QUIET)]))
 
             def choose(key: str, option: str) -> float:
-                box = page.locator(f".st-key-ns_{nonce}_{key} input")
-                box.click()
-                if not page.get_by_role("option").count():
-                    box.press("ArrowDown")
-                option_box = page.get_by_role("option", name=option, exact=True)
-                start = time.perf_counter()
-                option_box.click()
-                return settle(page, start, quiet=QUIET)
+                return timed_choice(page, page.locator(f".st-key-ns_{nonce}_{key} input"),
+                                    option)
 
             def type_in(key: str, value) -> float:
-                box = page.locator(f".st-key-ns_{nonce}_{key} input")
-                box.fill(str(value))
-                start = time.perf_counter()
-                box.press("Enter")
-                page.wait_for_timeout(30)
-                return settle(page, start, quiet=QUIET)
+                return timed_typing(page, page.locator(f".st-key-ns_{nonce}_{key} input"),
+                                    value)
 
             cases = {"a column's role": [], "a goal chosen": [], "a limit typed": [],
                      "a label typed": []}

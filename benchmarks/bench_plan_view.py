@@ -20,7 +20,8 @@ from tradeoff_ui.drive import launch_chromium, settle, start_workbench, stop_wor
 
 sys.path.insert(0, str(Path(__file__).parent))
 from bench_browser import (CHANGE_TARGET, LOAD_TARGET, QUIET, VIEWPORT,  # noqa: E402
-                           floor_first_loads, floor_reruns, floor_server)
+                           floor_first_loads, floor_reruns, floor_server, timed_choice,
+                           timed_typing)
 
 REPEAT = 4
 
@@ -60,14 +61,7 @@ def main() -> None:
                 return page.locator(f"{parts} input").first
 
             def choose(key_part: str, option: str) -> float:
-                box = box_of(key_part)
-                box.click()
-                if not page.get_by_role("option").count():
-                    box.press("ArrowDown")
-                option_box = page.get_by_role("option", name=option, exact=True)
-                start = time.perf_counter()
-                option_box.click()
-                return settle(page, start, quiet=QUIET)
+                return timed_choice(page, box_of(key_part), option)
 
             def options_of(key_part: str) -> list[str]:
                 box = box_of(key_part)
@@ -80,12 +74,7 @@ def main() -> None:
                 return names
 
             def type_in(key_part: str, value) -> float:
-                box = box_of(key_part)
-                box.fill(str(value))
-                start = time.perf_counter()
-                box.press("Enter")
-                page.wait_for_timeout(30)
-                return settle(page, start, quiet=QUIET)
+                return timed_typing(page, box_of(key_part), value)
 
             def flip(label: str) -> float:
                 start = time.perf_counter()
